@@ -1,0 +1,1 @@
+"""The Streamlit dashboard: thin pages over the ``tracker`` library."""

@@ -1,0 +1,49 @@
+import json
+
+import pytest
+
+from tracker.cli import main
+
+
+def test_size_json_keys_and_values(runner):
+    res = runner.invoke(main, ["size", "--alloy", "steel", "--volume-cm3", "2000", "--area-cm2", "1100",
+                               "--placement", "side", "--json"])
+    assert res.exit_code == 0, res.output
+    d = json.loads(res.output)
+    for key in ["diameter_mm", "height_mm", "riser_volume_cm3", "riser_modulus_cm", "section_modulus_cm",
+                "freezing_ratio", "volume_ratio", "caine_min_diameter_mm", "modulus_min_diameter_mm",
+                "feed_min_diameter_mm", "governing_rule"]:
+        assert key in d
+    assert d["diameter_mm"] == max(d["caine_min_diameter_mm"], d["modulus_min_diameter_mm"],
+                                   d["feed_min_diameter_mm"])
+    # M_c = 2000/1100 cm; modulus rule 1.2 · M_c with M = D/6 gives D = 7.2 · M_c.
+    assert d["modulus_min_diameter_mm"] == pytest.approx(72 * 2000 / 1100)
+    assert d["governing_rule"] == "modulus"
+    assert "caution" in d
+
+
+def test_size_human_output_has_units_and_caution(runner):
+    res = runner.invoke(main, ["size", "--alloy", "ductile_iron", "--volume-cm3", "2000", "--area-cm2", "1100"])
+    assert res.exit_code == 0, res.output
+    assert "Riser diameter (mm)" in res.output
+    assert "not applied (no Caine constants for this alloy)" in res.output
+    assert "CAUTION:" in res.output
+
+
+@pytest.mark.parametrize("args,message", [
+    (["--volume-cm3", "-1", "--area-cm2", "10"], "Error: volume_cm3: got -1.0; section volume must be a number above 0 cm³"),
+    (["--volume-cm3", "0", "--area-cm2", "10"], "Error: volume_cm3: got 0.0"),
+    (["--volume-cm3", "100", "--area-cm2", "150", "--h-over-d", "3.1"], "Error: h_over_d: got 3.1; H/D must lie between 0.5 and 3.0"),
+    (["--volume-cm3", "100", "--area-cm2", "150", "--efficiency", "0.02"], "Error: efficiency: got 0.02; must be above the shrinkage 0.035"),
+])
+def test_size_bad_input_one_line_no_traceback(runner, args, message):
+    res = runner.invoke(main, ["size", "--alloy", "steel", *args])
+    assert res.exit_code != 0
+    assert message in res.output
+    assert "Traceback" not in res.output
+
+
+def test_size_unknown_alloy(runner):
+    res = runner.invoke(main, ["size", "--alloy", "mithril", "--volume-cm3", "1", "--area-cm2", "6"])
+    assert res.exit_code == 2
+    assert "Invalid value for '--alloy': 'mithril' is not one of" in res.output

@@ -1,0 +1,10 @@
+"""The safety caution shown wherever sizing, checks or suggestions appear."""
+
+SAFETY_CAUTION = (
+    "Screening estimate only: these figures come from empirical rules (Chvorinov, "
+    "the modulus rule, Caine's curve, feed volume) and this shop's own history. "
+    "Molten metal and pressure-containing or safety-critical castings can hurt people. "
+    "The responsible methods engineer must confirm every riser by solidification "
+    "simulation or trial pours and by inspection to the governing specification; "
+    "local codes, customer specifications and licensed practice take precedence."
+)

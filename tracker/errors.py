@@ -1,0 +1,62 @@
+"""Exception classes a user can see.
+
+Every message says what arrived, the rule it broke and how to fix it. The CLI
+turns these into one clear line; the dashboard shows them with ``st.error``.
+"""
+
+from __future__ import annotations
+
+
+class PourbackError(Exception):
+    """Base class of every error meant for a user."""
+
+
+class BadInput(PourbackError, ValueError):
+    """A single value (an option, a form field) broke a rule."""
+
+    def __init__(self, field: str, value, reason: str):
+        self.field = field
+        self.value = value
+        self.reason = reason
+        super().__init__(f"{field}: got {value!r}; {reason}")
+
+
+class UnknownAlloy(BadInput):
+    def __init__(self, value, known):
+        super().__init__("alloy", value, "known alloys are " + ", ".join(sorted(known)))
+
+
+class BadRow(PourbackError, ValueError):
+    """One row of an import file broke a rule."""
+
+    def __init__(self, file: str, row: int, column: str, reason: str):
+        self.file = file
+        self.row = row
+        self.column = column
+        self.reason = reason
+        super().__init__(f"{file}, row {row}, column {column}: {reason}")
+
+
+class BadFile(PourbackError, ValueError):
+    """An import file was refused; ``problems`` lists every bad row."""
+
+    def __init__(self, file: str, problems: list[BadRow], message: str | None = None):
+        self.file = file
+        self.problems = list(problems)
+        if message is None:
+            shown = "\n".join(str(p) for p in self.problems[:20])
+            more = len(self.problems) - 20
+            extra = f"\n... and {more} more" if more > 0 else ""
+            message = (f"{file}: refused, nothing written ({len(self.problems)} bad "
+                       f"row(s)):\n{shown}{extra}")
+        super().__init__(message)
+
+
+class NotFound(PourbackError, LookupError):
+    """A pattern, lot, riser or record that the log does not hold."""
+
+    def __init__(self, kind: str, key, hint: str = ""):
+        self.kind = kind
+        self.key = key
+        msg = f"unknown {kind} {key!r}"
+        super().__init__(msg + (f"; {hint}" if hint else ""))

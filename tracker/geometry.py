@@ -1,0 +1,98 @@
+"""Riser shapes: volume, cooling area and modulus.
+
+Units: lengths in cm, areas in cm², volumes in cm³, modulus in cm. Functions
+take numpy arrays as well as floats. The cooling area counts only faces that
+lose heat to the mould; a face joined to other metal does not count.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from tracker.errors import BadInput
+
+PLACEMENTS = ("top", "side")
+TOPS = ("open", "blind")
+
+
+def check_placement(placement: str) -> str:
+    p = str(placement).strip().lower()
+    if p not in PLACEMENTS:
+        raise BadInput("placement", placement, "must be top or side")
+    return p
+
+
+def check_top(top: str) -> str:
+    t = str(top).strip().lower()
+    if t not in TOPS:
+        raise BadInput("top", top, "must be open or blind")
+    return t
+
+
+def cylinder_volume(d, h):
+    """Volume of a cylinder of diameter d and height h, cm³."""
+    d = np.asarray(d, dtype=float)
+    return np.pi * d**2 / 4.0 * np.asarray(h, dtype=float)
+
+
+def cylinder_cooling_area(d, h, placement: str = "side"):
+    """Cooling area of a cylindrical riser, cm².
+
+    side riser: wall, top and bottom cool (the neck contact is neglected);
+    top riser: the bottom face sits on the casting and does not cool.
+    An open top is counted like a blind one: both faces lose heat, to air and
+    radiation or to sand (common practice; an open top without a topping
+    compound loses somewhat more, which this does not model).
+    """
+    placement = check_placement(placement)
+    d = np.asarray(d, dtype=float)
+    h = np.asarray(h, dtype=float)
+    ends = 2.0 if placement == "side" else 1.0
+    return np.pi * d * h + ends * np.pi * d**2 / 4.0
+
+
+def cylinder_modulus(d, h, placement: str = "side"):
+    """Geometric modulus V/A of a cylindrical riser, cm."""
+    return cylinder_volume(d, h) / cylinder_cooling_area(d, h, placement)
+
+
+def modulus_per_diameter(h_over_d, placement: str = "side"):
+    """M / D of a cylinder of the given H/D (M is linear in D at fixed H/D).
+
+    side: M = D·r / (4r + 2); top: M = D·r / (4r + 1), with r = H/D.
+    """
+    placement = check_placement(placement)
+    r = np.asarray(h_over_d, dtype=float)
+    ends = 2.0 if placement == "side" else 1.0
+    return r / (4.0 * r + ends)
+
+
+def sphere_volume(d):
+    d = np.asarray(d, dtype=float)
+    return np.pi * d**3 / 6.0
+
+
+def sphere_area(d):
+    d = np.asarray(d, dtype=float)
+    return np.pi * d**2
+
+
+def sphere_modulus(d):
+    """Modulus of a sphere, D/6 cm."""
+    return sphere_volume(d) / sphere_area(d)
+
+
+def bar_neck_modulus(neck_diameter):
+    """Modulus of a round neck, cm: cross-section over perimeter, d/4.
+
+    A short neck between riser and casting cools through its perimeter only
+    (common practice for neck design; from memory).
+    """
+    return np.asarray(neck_diameter, dtype=float) / 4.0
+
+
+def diameter_for_volume(volume, h_over_d):
+    """Diameter of a cylinder of given volume and H/D, cm."""
+    v = np.asarray(volume, dtype=float)
+    r = np.asarray(h_over_d, dtype=float)
+    return np.cbrt(4.0 * v / (np.pi * r))
