@@ -1,117 +1,12 @@
-"""The ``pourback`` command line: parse, call the library, format.
-
-No computation lives here; every command is a thin layer over ``tracker``.
-"""
+"""Design commands: size a riser, check the stored risers."""
 
 from __future__ import annotations
 
-import functools
-import json
-import math
-import sys
-
 import click
-import numpy as np
 
-from tracker import __version__
 from tracker.alloys import ALLOYS
 from tracker.cautions import SAFETY_CAUTION
-from tracker.errors import PourbackError
-
-
-# --- output -----------------------------------------------------------------------
-
-def _jsonable(obj):
-    if isinstance(obj, dict):
-        return {k: _jsonable(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_jsonable(v) for v in obj]
-    if isinstance(obj, (np.integer,)):
-        return int(obj)
-    if isinstance(obj, (np.floating, float)):
-        f = float(obj)
-        return f if math.isfinite(f) else None
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    if isinstance(obj, np.ndarray):
-        return _jsonable(obj.tolist())
-    if hasattr(obj, "isoformat"):
-        return obj.isoformat()
-    return obj
-
-
-def emit(data, as_json: bool, human=None):
-    """The one place output is written: JSON for machines, text for people."""
-    if as_json:
-        click.echo(json.dumps(_jsonable(data), indent=2, ensure_ascii=False))
-    else:
-        click.echo(human(data) if human else str(data))
-
-
-def table(rows: list[dict], columns: list[tuple[str, str]] | None = None) -> str:
-    """A plain text table; ``columns`` is a list of (key, heading)."""
-    if not rows:
-        return "(none)"
-    columns = columns or [(k, k) for k in rows[0]]
-    cells = [[_cell(r.get(k)) for k, _ in columns] for r in rows]
-    heads = [h for _, h in columns]
-    widths = [max(len(h), *(len(c[i]) for c in cells)) for i, h in enumerate(heads)]
-    line = lambda vals: "  ".join(v.rjust(w) if _numeric(v) else v.ljust(w)  # noqa: E731
-                                  for v, w in zip(vals, widths)).rstrip()
-    out = [line(heads), "  ".join("-" * w for w in widths)]
-    out += [line(c) for c in cells]
-    return "\n".join(out)
-
-
-def _numeric(s: str) -> bool:
-    try:
-        float(s.rstrip("%"))
-        return True
-    except ValueError:
-        return False
-
-
-def _cell(v) -> str:
-    if v is None:
-        return "-"
-    if isinstance(v, (bool, np.bool_)):
-        return "yes" if v else "no"
-    if isinstance(v, (float, np.floating)):
-        if not math.isfinite(v):
-            return "-"
-        return f"{v:.3g}" if abs(v) < 0.01 and v != 0 else f"{v:,.2f}"
-    return str(v)
-
-
-def caution_text() -> str:
-    return "CAUTION: " + SAFETY_CAUTION
-
-
-def handle_errors(fn):
-    """Turn library errors into one clear line and a non-zero exit."""
-    @functools.wraps(fn)
-    def wrapper(*args, **kwargs):
-        try:
-            return fn(*args, **kwargs)
-        except PourbackError as exc:
-            raise click.ClickException(str(exc)) from None
-    return wrapper
-
-
-json_option = click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
-
-
-# --- commands ---------------------------------------------------------------------
-
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
-@click.version_option(__version__, prog_name="pourback")
-def main():
-    """Pourback: riser design tied to the scrap it causes.
-
-    Judge and size risers by the published rules, log inspection results per
-    pour lot, review scrap by pattern each week, and get riser suggestions.
-    """
-
+from tracker.cli import caution_text, db_option, emit, handle_errors, json_option, main, open_store, table
 
 @main.command()
 @click.option("--alloy", required=True, type=click.Choice(sorted(ALLOYS), case_sensitive=False),
@@ -187,5 +82,41 @@ def _format_size(d: dict) -> str:
     return "\n".join(out)
 
 
-if __name__ == "__main__":  # pragma: no cover
-    main(prog_name="pourback")
+
+@main.command()
+@click.option("--pattern", default=None, help="Only this pattern.")
+@click.option("--on", "on_date", default=None, help="Judge the revision in effect on this date (YYYY-MM-DD).")
+@click.option("--modulus-factor", type=float, default=1.2, show_default=True,
+              help="Modulus rule factor: M_riser >= factor x M_section.")
+@db_option
+@json_option
+@handle_errors
+def check(pattern, on_date, modulus_factor, db_path, as_json):
+    """Judge every riser of the current revision by the rules.
+
+    For each riser: modulus ratio against the factor, Caine margin, feed
+    volume, neck and feeding distance where given, pass or fail.
+
+    Example:
+
+        pourback check --pattern P-1042
+    """
+    from tracker.assess import check as run_check
+
+    with open_store(db_path) as store:
+        frame = run_check(store, pattern=pattern, on=on_date, modulus_factor=modulus_factor)
+    rows = frame.astype(object).where(frame.notna(), None).to_dict("records")
+    for r in rows:
+        for k in ("caine_ok", "neck_ok", "feeding_distance_ok"):
+            r[k] = None if r[k] is None else bool(r[k])
+    if as_json:
+        emit(rows, True)
+        return
+    click.echo(table(rows, [
+        ("pattern", "pattern"), ("revision", "rev"), ("riser", "riser"), ("zone", "zone"),
+        ("diameter_mm", "D (mm)"), ("sleeve", "sleeve"), ("modulus_ratio", "M ratio"),
+        ("caine_margin", "Caine margin"), ("feed_margin", "feed margin"), ("passes", "passes"),
+        ("failed_rules", "fails")]))
+    click.echo(f"\n{sum(r['passes'] for r in rows)} of {len(rows)} risers pass every rule "
+               f"(modulus factor {modulus_factor:g}).")
+    click.echo("\n" + caution_text())

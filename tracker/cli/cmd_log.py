@@ -1,0 +1,255 @@
+"""Log commands: create the log, import files, log and correct inspection results."""
+
+from __future__ import annotations
+
+import datetime as dt
+import getpass
+import os
+import pathlib
+
+import click
+
+from tracker.cli import db_option, emit, handle_errors, json_option, main, open_store, table
+from tracker.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES
+
+
+def _who(by: str | None) -> str:
+    if by:
+        return by
+    try:
+        return os.environ.get("POURBACK_USER") or getpass.getuser()
+    except Exception:  # no login name on some service accounts
+        return "unknown"
+
+
+@main.command()
+@db_option
+@handle_errors
+def init(db_path):
+    """Create an empty log (or bring an old one up to the current schema).
+
+    Example:
+
+        pourback init --db plant.db
+    """
+    with open_store(db_path, create=True) as store:
+        click.echo(f"Log ready: {store.path} (schema version {store.schema_version()})")
+
+
+def _count_rows(path: pathlib.Path) -> int:
+    if path.suffix.lower() != ".csv":
+        return 0
+    with path.open("rb") as fh:
+        return max(sum(buf.count(b"\n") for buf in iter(lambda: fh.read(1 << 20), b"")) - 1, 0)
+
+
+@main.command("import")
+@click.argument("kind_or_dir")
+@click.argument("file", required=False, type=click.Path(exists=True, dir_okay=False))
+@click.option("--skip-bad", is_flag=True,
+              help="Write the good rows and a CSV of the refused ones, instead of refusing the file.")
+@click.option("--by", default=None, help="Who imports (recorded with each record; default: login name).")
+@db_option
+@json_option
+@handle_errors
+def import_(kind_or_dir, file, skip_bad, by, db_path, as_json):
+    """Import a file of KIND (patterns, zones, sleeves, risers, lots,
+    inspections), or every known file of a folder in dependency order.
+
+    By default one bad row refuses the whole import and nothing is written;
+    every bad row is reported with file, row, column and reason.
+
+    Example:
+
+        pourback import patterns patterns.csv
+        pourback import sample_data
+    """
+    from tracker.ingest import import_dir, import_files, write_refused
+
+    if file is None:
+        folder = pathlib.Path(kind_or_dir)
+        if not folder.is_dir():
+            raise click.UsageError(f"{kind_or_dir!r} is not a folder; give KIND FILE or a folder "
+                                   f"(KIND is one of {', '.join(KINDS)})")
+        items = [(k, p) for k in KINDS for p in [folder / f"{k}.csv", folder / f"{k}.xlsx"] if p.is_file()]
+        items = list({k: (k, p) for k, p in reversed(items)}.values())[::-1]
+    else:
+        if kind_or_dir not in KINDS:
+            raise click.UsageError(f"unknown kind {kind_or_dir!r}; use one of {', '.join(KINDS)}")
+        items = [(kind_or_dir, pathlib.Path(file))]
+    total = sum(_count_rows(pathlib.Path(p)) for _, p in items)
+    with open_store(db_path, create=True) as store:
+        show = total >= 5000 and not as_json
+        with click.progressbar(length=total, label="Importing", file=None if show else open(os.devnull, "w"),
+                               show_eta=True) as bar:
+            if file is None:
+                results = import_dir(store, kind_or_dir, skip_bad=skip_bad, by=_who(by), progress=bar.update)
+            else:
+                results = import_files(store, items, skip_bad=skip_bad, by=_who(by), progress=bar.update)
+        out = []
+        for r, (_, p) in zip(results, items):
+            d = r.to_dict()
+            if r.refused_rows:
+                d["refused_file"] = str(write_refused(r, pathlib.Path(p).with_suffix(".refused.csv")))
+            out.append(d)
+    emit(out, as_json, _format_import)
+
+
+def _format_import(results: list[dict]) -> str:
+    lines = [table(results, [("file", "file"), ("kind", "kind"), ("rows", "rows"), ("added", "added"),
+                             ("skipped", "already present"), ("refused", "refused")])]
+    for r in results:
+        if r.get("refused_file"):
+            lines.append(f"{r['file']}: {r['refused']} row(s) refused, written to {r['refused_file']}:")
+            lines.extend("  " + p for p in r["problems"][:20])
+    return "\n".join(lines)
+
+
+def _inspection_options(fn):
+    opts = [
+        click.option("--lot", required=True, help="Pour lot code."),
+        click.option("--inspected-on", default=None, help="Inspection date YYYY-MM-DD (default today)."),
+        click.option("--method", required=True, type=click.Choice(METHODS), help="Inspection method."),
+        click.option("--quantity", required=True, type=int, help="Number of castings with this result."),
+        click.option("--result", required=True, type=click.Choice(RESULTS), help="accept, reject or rework."),
+        click.option("--defect", type=click.Choice(DEFECTS), default=None,
+                     help="Defect found (required for reject and rework)."),
+        click.option("--zone", default=None, help="Zone of the casting where the defect was seen."),
+        click.option("--xray-category", type=click.Choice(XRAY_CATEGORIES), default=None,
+                     help="Reference-radiograph category (method xray)."),
+        click.option("--severity", type=int, default=None, help="Severity level 1-5 (categories A, B, C*)."),
+        click.option("--serial", default=None, help="Casting serial number."),
+        click.option("--inspector", default=None, help="Inspector's name or initials."),
+        click.option("--notes", default=None, help="Free text."),
+    ]
+    for o in reversed(opts):
+        fn = o(fn)
+    return fn
+
+
+@main.command()
+@_inspection_options
+@click.option("--by", default=None, help="Who logs the result (default: login name).")
+@db_option
+@json_option
+@handle_errors
+def log(lot, inspected_on, method, quantity, result, defect, zone, xray_category, severity, serial,
+        inspector, notes, by, db_path, as_json):
+    """Log one inspection result for a pour lot, checked as an import would be.
+
+    Example:
+
+        pourback log --lot L26-0412 --method xray --quantity 2 --result reject \\
+            --defect shrinkage --zone flange --xray-category CB --severity 4 --inspector QE-ML
+    """
+    from tracker.ingest import log_inspection
+
+    record = dict(lot=lot, inspected_on=inspected_on or dt.date.today().isoformat(), method=method,
+                  quantity=quantity, result=result, defect=defect, zone=zone, xray_category=xray_category,
+                  severity=severity, serial=serial, inspector=inspector, notes=notes)
+    with open_store(db_path) as store:
+        rid = log_inspection(store, record, by=_who(by), source="cli")
+        rec = store.inspection(rid)
+    emit(rec, as_json, lambda r: f"Logged record {r['id']}: lot {r['lot']}, {r['quantity']} x {r['result']}"
+         + (f" ({r['defect']}" + (f", zone {r['zone']}" if r['zone'] else "") + ")" if r["defect"] else ""))
+
+
+@main.command()
+@click.argument("record_id", type=int)
+@click.option("--reason", required=True, help="Why the record is corrected.")
+@click.option("--by", default=None, help="Who corrects it (default: login name).")
+@click.option("--void", is_flag=True, help="Withdraw the record (entered in error).")
+@click.option("--quantity", type=int, default=None, help="Corrected quantity.")
+@click.option("--result", type=click.Choice(RESULTS), default=None, help="Corrected result.")
+@click.option("--defect", type=click.Choice(DEFECTS), default=None, help="Corrected defect.")
+@click.option("--zone", default=None, help="Corrected zone.")
+@click.option("--xray-category", type=click.Choice(XRAY_CATEGORIES), default=None, help="Corrected category.")
+@click.option("--severity", type=int, default=None, help="Corrected severity level.")
+@click.option("--method", type=click.Choice(METHODS), default=None, help="Corrected method.")
+@click.option("--notes", default=None, help="Corrected notes.")
+@db_option
+@json_option
+@handle_errors
+def correct(record_id, reason, by, void, db_path, as_json, **changes):
+    """Correct an inspection record: a new record supersedes it, the old one
+    stays readable in the history with who, when and why.
+
+    Example:
+
+        pourback correct 1834 --quantity 3 --reason "recount at the bench" --by QE-ML
+    """
+    from tracker.ingest import correct_inspection
+
+    changes = {k: v for k, v in changes.items() if v is not None}
+    if void and changes:
+        raise click.UsageError("--void withdraws the record; give no other changes with it")
+    if not void and not changes:
+        raise click.UsageError("say what to change (for example --quantity 3) or --void")
+    if void:
+        changes["void"] = True
+    with open_store(db_path) as store:
+        rid = correct_inspection(store, record_id, changes, by=_who(by), reason=reason)
+        rec = store.inspection(rid)
+    emit(rec, as_json, lambda r: f"Record {record_id} superseded by record {r['id']}"
+         + (" (withdrawn)" if r["void"] else ""))
+
+
+@main.command()
+@click.option("--lot", default=None, help="Only this lot.")
+@click.option("--limit", type=int, default=50, show_default=True, help="Newest records to show.")
+@db_option
+@json_option
+@handle_errors
+def history(lot, limit, db_path, as_json):
+    """Inspection records, newest first, superseded ones included with who
+    corrected them, when and why.
+
+    Example:
+
+        pourback history --lot L26-0412
+    """
+    with open_store(db_path) as store:
+        frame = store.inspections_history(lot=lot, limit=limit)
+    rows = frame.astype(object).where(frame.notna(), None).to_dict("records")
+    for r in rows:
+        r["status"] = ("withdrawn" if r["void"] else "current") if r["superseded_by"] is None \
+            else f"superseded by {int(r['superseded_by'])}"
+    emit(rows, as_json, lambda rs: table(rs, [
+        ("id", "record"), ("lot", "lot"), ("inspected_on", "inspected on"), ("method", "method"),
+        ("quantity", "castings"), ("result", "result"), ("defect", "defect"), ("zone", "zone"),
+        ("status", "status"), ("recorded_by", "by"), ("corrected_by", "corrected by"),
+        ("correction_why", "why")]))
+
+
+@main.command()
+@click.argument("file", type=click.Path(dir_okay=False))
+@db_option
+@handle_errors
+def backup(file, db_path):
+    """Copy the log to FILE with SQLite's online backup (safe while others write).
+
+    Example:
+
+        pourback backup backups/pourback-2026-12-01.db
+    """
+    with open_store(db_path) as store:
+        store.backup(file)
+    click.echo(f"Backed up {store.path} to {file}")
+
+
+@main.command()
+@click.argument("backup_file", type=click.Path(exists=True, dir_okay=False))
+@db_option
+@handle_errors
+def restore(backup_file, db_path):
+    """Restore a backup into a new log file (checked for integrity first).
+
+    Example:
+
+        pourback restore backups/pourback-2026-12-01.db --db restored.db
+    """
+    from tracker.store import resolve_path, restore as do_restore
+
+    target = resolve_path(db_path)
+    do_restore(backup_file, target)
+    click.echo(f"Restored {backup_file} to {target}")

@@ -1,0 +1,817 @@
+"""CSV / xlsx import and validation of the six import kinds.
+
+A file is read in chunks (so a file of millions of rows needs little memory),
+every chunk validated column by column with vectorised checks, and the good
+rows written inside one write transaction. By default one bad row refuses the
+whole import and nothing is written; with ``skip_bad`` the good rows are
+written and the refused ones returned (and written to a CSV by the caller).
+
+Rows are numbered as a spreadsheet shows them: the header is row 1.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as dt
+import hashlib
+import io
+import os
+import pathlib
+import re
+import uuid
+from dataclasses import dataclass, field
+from typing import Callable, Iterator
+
+import numpy as np
+import pandas as pd
+
+from tracker import geometry
+from tracker.errors import BadFile, BadRow
+from tracker.store import KEYS, TABLE_COLUMNS, Store
+
+KINDS = ("patterns", "zones", "sleeves", "risers", "lots", "inspections")  # dependency order
+
+DEFECTS = ("shrinkage", "gas", "sand", "slag", "misrun", "cold_shut", "hot_tear", "crack",
+           "dimensional", "other")
+METHODS = ("visual", "xray", "ut", "mt", "pt", "dimensional")
+RESULTS = ("accept", "reject", "rework")
+XRAY_CATEGORIES = ("A", "B", "CA", "CB", "CC", "CD", "D", "E", "F", "G")
+GRADED_CATEGORIES = ("A", "B", "CA", "CB", "CC", "CD")  # graded in severity levels 1-5
+NEVER_ACCEPTABLE = ("D", "E")  # cracks and hot tears: not acceptable at any level
+SLEEVE_KINDS = ("insulating", "exothermic")
+
+COLUMNS = {  # (required, optional)
+    "patterns": (["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
+                  "metal_cost_per_kg"], ["processing_cost_per_casting"]),
+    "zones": (["pattern", "zone", "volume_cm3", "cooling_area_cm2"],
+              ["thickness_mm", "length_mm", "required_xray_level"]),
+    "sleeves": (["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
+                 "feeding_efficiency"], ["unit_cost"]),
+    "risers": (["pattern", "revision", "effective_from", "riser", "zone", "placement", "top",
+                "diameter_mm", "height_mm"], ["sleeve", "neck_diameter_mm"]),
+    "lots": (["lot", "pattern", "poured_on", "heat", "molds"], ["pour_temp_c"]),
+    "inspections": (["lot", "inspected_on", "method", "quantity", "result"],
+                    ["defect", "zone", "xray_category", "severity", "serial", "inspector", "notes"]),
+}
+CHUNK_ROWS = 100_000
+MAX_PROBLEMS = 1000  # stop collecting (but keep refusing) past this many
+POUR_TEMP_RANGE_C = (400.0, 1800.0)
+H_OVER_D_SANE = (0.25, 4.0)
+
+
+@dataclass
+class ImportResult:
+    """What one file's import did."""
+
+    kind: str
+    file: str
+    rows: int = 0
+    added: int = 0
+    skipped: int = 0  # already present with the same content
+    refused: int = 0
+    problems: list[BadRow] = field(default_factory=list)
+    refused_rows: list[dict] = field(default_factory=list)
+
+    def to_dict(self) -> dict:
+        return {"kind": self.kind, "file": self.file, "rows": self.rows, "added": self.added,
+                "skipped": self.skipped, "refused": self.refused,
+                "problems": [str(p) for p in self.problems]}
+
+
+# --- reading ----------------------------------------------------------------------
+
+def _read_chunks(path: pathlib.Path, kind: str, chunk_rows: int) -> Iterator[pd.DataFrame]:
+    """Chunks of the file as all-string frames with a ``_row`` column (file row number)."""
+    name = path.name
+    suffix = path.suffix.lower()
+    if suffix in (".xlsx", ".xlsm"):
+        yield from _read_xlsx(path, kind, chunk_rows)
+        return
+    if suffix not in (".csv", ".txt", ""):
+        raise BadFile(name, [], f"{name}: unknown file type {suffix!r}; use .csv or .xlsx")
+    raw = path.read_bytes()
+    if not raw.strip():
+        raise BadFile(name, [], f"{name}: the file is empty; it needs a header row and data rows")
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[:exc.start].count(b"\n") + 1
+        raise BadFile(name, [], f"{name}, row {line}: byte 0x{raw[exc.start]:02x} is not UTF-8 text; "
+                                "save the file as UTF-8 (CSV UTF-8 in a spreadsheet program)") from None
+    del raw
+    try:
+        reader = pd.read_csv(io.StringIO(text), dtype=str, keep_default_na=False,
+                             skip_blank_lines=False, chunksize=chunk_rows, skipinitialspace=False)
+        first = True
+        offset = 0
+        for chunk in reader:
+            if first:
+                _check_header(name, kind, list(chunk.columns))
+                first = False
+            chunk = _normalise(chunk)
+            chunk["_row"] = np.arange(offset, offset + len(chunk)) + 2
+            offset += len(chunk)
+            blank = (chunk.drop(columns="_row") == "").all(axis=1)
+            yield chunk[~blank]
+        if first:
+            raise BadFile(name, [], f"{name}: no header row found")
+    except pd.errors.EmptyDataError:
+        raise BadFile(name, [], f"{name}: the file is empty; it needs a header row and data rows") from None
+    except pd.errors.ParserError as exc:
+        raise BadFile(name, [], f"{name}: not a readable CSV ({exc}); check quotes and separators") from None
+
+
+def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int) -> Iterator[pd.DataFrame]:
+    name = path.name
+    try:
+        book = pd.ExcelFile(path, engine="openpyxl")
+    except Exception as exc:  # openpyxl raises many kinds for a broken file
+        raise BadFile(name, [], f"{name}: not a readable .xlsx workbook ({exc.__class__.__name__})") from None
+    sheets = book.sheet_names
+    if kind in sheets:
+        sheet = kind
+    elif len(sheets) == 1:
+        sheet = sheets[0]
+    else:
+        raise BadFile(name, [], f"{name}: the workbook has sheets {', '.join(sheets)}; name the sheet "
+                                f"to import '{kind}' or keep only one sheet")
+    frame = book.parse(sheet, dtype=str, keep_default_na=False, header=0)
+    cols = [str(c) for c in frame.columns]
+    if any(c.startswith("Unnamed:") for c in cols):
+        raise BadFile(name, [], f"{name}: the header row has empty or merged cells ({', '.join(cols)}); "
+                                "put one column name in each header cell")
+    _check_header(name, kind, cols)
+    frame = _normalise(frame)
+    # Date cells arrive as timestamps: keep the date part only.
+    frame = frame.apply(lambda s: s.str.replace(r"^(\d{4}-\d{2}-\d{2}) 00:00:00$", r"\1", regex=True))
+    frame["_row"] = np.arange(len(frame)) + 2
+    blank = (frame.drop(columns="_row") == "").all(axis=1)
+    frame = frame[~blank]
+    for i in range(0, max(len(frame), 1), chunk_rows):
+        yield frame.iloc[i:i + chunk_rows]
+
+
+def _normalise(chunk: pd.DataFrame) -> pd.DataFrame:
+    chunk = chunk.rename(columns=lambda c: str(c).strip().lower().lstrip("\ufeff"))
+    return chunk.apply(lambda s: s.astype(str).str.strip()) if len(chunk) else chunk
+
+
+def _check_header(name: str, kind: str, columns: list[str]) -> None:
+    cols = [str(c).strip().lower().lstrip("\ufeff") for c in columns]
+    required, optional = COLUMNS[kind]
+    missing = [c for c in required if c not in cols]
+    unknown = [c for c in cols if c not in required and c not in optional]
+    dupes = sorted({c for c in cols if cols.count(c) > 1})
+    parts = []
+    if missing:
+        parts.append("missing column(s) " + ", ".join(missing))
+    if unknown:
+        parts.append("unknown column(s) " + ", ".join(repr(c) for c in unknown))
+    if dupes:
+        parts.append("repeated column(s) " + ", ".join(dupes))
+    if parts:
+        raise BadFile(name, [], f"{name}, row 1 (header): {'; '.join(parts)}. A {kind} file has the "
+                                f"columns {', '.join(required)}"
+                                + (f" and optionally {', '.join(optional)}" if optional else ""))
+
+
+# --- column checks ----------------------------------------------------------------
+
+class _Checks:
+    """Collects the problems of one chunk; ``bad`` marks refused rows."""
+
+    def __init__(self, file: str, chunk: pd.DataFrame, result: ImportResult):
+        self.file = file
+        self.chunk = chunk
+        self.rows = chunk["_row"].to_numpy()
+        self.bad = np.zeros(len(chunk), dtype=bool)
+        self.result = result
+        self.reasons: dict[int, str] = {}
+
+    def col(self, name: str) -> pd.Series:
+        if name in self.chunk.columns:
+            return self.chunk[name]
+        return pd.Series([""] * len(self.chunk), index=self.chunk.index, dtype=object)
+
+    def fail(self, mask, column: str, reason) -> None:
+        mask = np.asarray(mask, dtype=bool) & ~self.bad
+        if not mask.any():
+            return
+        values = self.col(column).to_numpy() if column in self.chunk.columns else None
+        for i in np.flatnonzero(mask):
+            text = reason(i) if callable(reason) else reason
+            got = f"got {values[i]!r}; " if values is not None and "got " not in text else ""
+            problem = BadRow(self.file, int(self.rows[i]), column, got + text)
+            self.reasons[i] = str(problem)
+            if len(self.result.problems) < MAX_PROBLEMS:
+                self.result.problems.append(problem)
+        self.bad |= mask
+
+    def text(self, name: str, required: bool = True, max_len: int = 200) -> pd.Series:
+        s = self.col(name)
+        if required:
+            self.fail(s == "", name, f"{name} is required")
+        self.fail(s.str.len() > max_len, name, f"{name} is longer than {max_len} characters")
+        self.fail(s.str.contains(r"[\x00-\x08\x0b\x0c\x0e-\x1f]", regex=True), name,
+                  f"{name} holds control characters")
+        return s
+
+    def code(self, name: str, allowed, required: bool = True, lower: bool = True) -> pd.Series:
+        s = self.col(name)
+        s = s.str.lower() if lower else s.str.upper()
+        if lower:
+            s = s.str.replace(" ", "_", regex=False).str.replace("-", "_", regex=False)
+        if required:
+            self.fail(s == "", name, f"{name} is required; use one of {', '.join(allowed)}")
+        self.fail((s != "") & ~s.isin(allowed), name, f"{name} must be one of {', '.join(allowed)}")
+        return s
+
+    def number(self, name: str, required: bool = True, low: float | None = None,
+               low_inclusive: bool = False, high: float | None = None, whole: bool = False,
+               unit: str = "") -> pd.Series:
+        s = self.col(name)
+        empty = s == ""
+        if required:
+            self.fail(empty, name, f"{name} is required")
+        num = pd.to_numeric(s.where(~empty, None), errors="coerce")
+        kind = "a whole number" if whole else "a number"
+        rule = kind
+        if low is not None:
+            rule += f" {'of at least' if low_inclusive else 'above'} {low:g}"
+        if high is not None:
+            rule += f"{' and' if low is not None else ''} at most {high:g}"
+        rule += f" {unit}".rstrip()
+        bad = ~empty & (num.isna() | ~np.isfinite(num.fillna(0)))
+        if whole:
+            bad |= ~empty & num.notna() & (num != np.floor(num.fillna(0)))
+        if low is not None:
+            bad |= ~empty & num.notna() & ((num < low) if low_inclusive else (num <= low))
+        if high is not None:
+            bad |= ~empty & num.notna() & (num > high)
+        self.fail(bad, name, f"{name} must be {rule}")
+        return num
+
+    def date(self, name: str, required: bool = True, not_after: dt.date | None = None) -> pd.Series:
+        s = self.col(name)
+        empty = s == ""
+        if required:
+            self.fail(empty, name, f"{name} is required (YYYY-MM-DD)")
+        shape = s.str.fullmatch(r"\d{4}-\d{2}-\d{2}")
+        parsed = pd.to_datetime(s.where(shape & ~empty, None), format="%Y-%m-%d", errors="coerce")
+        self.fail(~empty & parsed.isna(), name, f"{name} must be a date written YYYY-MM-DD")
+        if not_after is not None:
+            self.fail(~empty & parsed.notna() & (parsed.dt.date > not_after), name,
+                      f"{name} lies in the future (after {not_after.isoformat()})")
+        return s.where(~empty, "")
+
+
+def _none(v):
+    """Blank cells and NaN become NULL."""
+    if v is None or (isinstance(v, float) and np.isnan(v)) or v == "":
+        return None
+    return v
+
+
+def _int_or_none(v):
+    v = _none(v)
+    return None if v is None else int(v)
+
+
+def _float_or_none(v):
+    v = _none(v)
+    return None if v is None else float(v)
+
+
+# --- per-kind validation ----------------------------------------------------------
+
+class _Importer:
+    """Validates and writes one file of one kind inside an open write transaction."""
+
+    def __init__(self, store: Store, kind: str, file: str, today: dt.date, by: str | None,
+                 result: ImportResult, exclude: tuple = ()):
+        self.store = store
+        self.exclude = tuple(exclude)  # record ids left out of the lot totals (a correction)
+        self.kind = kind
+        self.file = file
+        self.today = today
+        self.by = by
+        self.result = result
+        self.now = dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds")
+        # inspections: occurrence counting of identical rows across chunks
+        self._seen_digests = np.zeros(0, dtype=np.uint64)
+        self._seen_counts = np.zeros(0, dtype=np.int64)
+        self._lot_index: dict[str, int] = {}
+        self._lot_tot = np.zeros((0, 1 + len(METHODS)), dtype=np.int64)
+        self._lot_castings = np.zeros(0, dtype=np.int64)
+        self._revisions_in_file: dict[tuple, dict] = {}
+
+    # each returns (rows to insert as tuples, keys) for the good rows of the chunk
+    def validate(self, c: _Checks) -> list[tuple]:
+        return getattr(self, "_" + self.kind)(c)
+
+    def _patterns(self, c: _Checks) -> list[tuple]:
+        from tracker.alloys import ALLOYS
+
+        pattern = c.text("pattern", max_len=64)
+        desc = c.text("description", required=False, max_len=500)
+        alloy = c.code("alloy", sorted(ALLOYS))
+        weight = c.number("casting_weight_kg", low=0, unit="kg")
+        per_mold = c.number("castings_per_mold", low=0, whole=True, high=10000)
+        cost = c.number("metal_cost_per_kg", low=0, low_inclusive=True, unit="per kg")
+        proc = c.number("processing_cost_per_casting", required=False, low=0, low_inclusive=True)
+        return [(p, d, a, w, int(n) if n == n else n, m, _float_or_none(q))
+                for p, d, a, w, n, m, q in zip(pattern, desc, alloy, weight, per_mold, cost, proc)]
+
+    def _known_patterns(self, c: _Checks, pattern: pd.Series) -> dict:
+        info = self.store.patterns_info()
+        c.fail(~c.bad & (pattern != "") & ~pattern.isin(list(info)), "pattern",
+               "unknown pattern; import it in patterns.csv first or check the code")
+        return info
+
+    def _zones(self, c: _Checks) -> list[tuple]:
+        pattern = c.text("pattern", max_len=64)
+        zone = c.text("zone", max_len=64)
+        vol = c.number("volume_cm3", low=0, unit="cm³")
+        area = c.number("cooling_area_cm2", low=0, unit="cm²")
+        # A section's cooling area can never be below a sphere's of the same volume.
+        sphere_area = geometry.sphere_area(np.cbrt(6.0 * vol.fillna(1.0).to_numpy() / np.pi))
+        c.fail(vol.notna().to_numpy() & area.notna().to_numpy()
+               & (area.fillna(0).to_numpy() < sphere_area * (1 - 1e-9)),
+               "cooling_area_cm2", "cooling area is smaller than a sphere of that volume would have; "
+                                   "check the units (cm² and cm³)")
+        thick = c.number("thickness_mm", required=False, low=0, unit="mm")
+        length = c.number("length_mm", required=False, low=0, unit="mm")
+        level = c.number("required_xray_level", required=False, low=1, low_inclusive=True, high=5,
+                         whole=True)
+        self._known_patterns(c, pattern)
+        return [(p, z, v, a, _float_or_none(t), _float_or_none(ln), _int_or_none(lv))
+                for p, z, v, a, t, ln, lv in zip(pattern, zone, vol, area, thick, length, level)]
+
+    def _sleeves(self, c: _Checks) -> list[tuple]:
+        sleeve = c.text("sleeve", max_len=64)
+        kind = c.code("kind", SLEEVE_KINDS)
+        dia = c.number("inner_diameter_mm", low=0, unit="mm")
+        h = c.number("height_mm", low=0, unit="mm")
+        f = c.number("modulus_factor", low=1.0, low_inclusive=True, high=2.0)
+        eps = c.number("feeding_efficiency", low=0, high=1.0, unit="(a fraction, 0.30 = 30 %)")
+        cost = c.number("unit_cost", required=False, low=0, low_inclusive=True)
+        return [(s, k, d, hh, ff, e, _float_or_none(u))
+                for s, k, d, hh, ff, e, u in zip(sleeve, kind, dia, h, f, eps, cost)]
+
+    def _risers(self, c: _Checks) -> list[tuple]:
+        pattern = c.text("pattern", max_len=64)
+        revision = c.text("revision", max_len=64)
+        eff = c.date("effective_from")
+        riser = c.text("riser", max_len=64)
+        zone = c.text("zone", max_len=64)
+        placement = c.code("placement", geometry.PLACEMENTS)
+        top = c.code("top", geometry.TOPS)
+        dia = c.number("diameter_mm", low=0, unit="mm")
+        h = c.number("height_mm", low=0, unit="mm")
+        sleeve = c.text("sleeve", required=False, max_len=64)
+        neck = c.number("neck_diameter_mm", required=False, low=0, unit="mm")
+        hd = (h / dia).to_numpy()
+        lo, hi = H_OVER_D_SANE
+        c.fail(dia.notna().to_numpy() & h.notna().to_numpy() & ~((hd >= lo) & (hd <= hi)),
+               "height_mm", f"height over diameter must lie between {lo:g} and {hi:g}")
+        c.fail(neck.notna() & dia.notna() & (neck >= dia), "neck_diameter_mm",
+               "the neck must be narrower than the riser")
+        c.fail(neck.notna() & (placement == "top"), "neck_diameter_mm",
+               "a neck is only given for a side riser")
+        self._known_patterns(c, pattern)
+        zones = self.store.zone_levels()
+        keys = list(zip(pattern, zone))
+        c.fail(~c.bad & np.array([k not in zones for k in keys], dtype=bool), "zone",
+               lambda i: f"got {zone.iloc[i]!r}; pattern {pattern.iloc[i]} has no such zone; "
+                         "import it in zones.csv first")
+        sleeves = self.store.table("sleeves").set_index("sleeve") if self.store.count("sleeves") else None
+        has_sleeve = (sleeve != "").to_numpy()
+        known = np.array([s in sleeves.index if sleeves is not None else False for s in sleeve])
+        c.fail(has_sleeve & ~known, "sleeve", "unknown sleeve; import it in sleeves.csv first")
+        if sleeves is not None:
+            inner = np.array([sleeves.at[s, "inner_diameter_mm"] if k else np.nan
+                              for s, k in zip(sleeve, known)], dtype=float)
+            c.fail(has_sleeve & known & (np.abs(dia.to_numpy() - inner) > 1.0), "diameter_mm",
+                   lambda i: f"got {dia.iloc[i]:g}; sleeve {sleeve.iloc[i]} has an inner diameter "
+                             f"of {inner[i]:g} mm; the riser diameter is the sleeve's")
+        rows = [(p, r, rs, z, pl, t, d, hh, _none(s), _float_or_none(n))
+                for p, r, rs, z, pl, t, d, hh, s, n in
+                zip(pattern, revision, riser, zone, placement, top, dia, h, sleeve, neck)]
+        # Revisions: one effective date each, all risers listed once, never changed once stored.
+        for i, (p, r, e) in enumerate(zip(pattern, revision, eff)):
+            if c.bad[i]:
+                continue
+            rev = self._revisions_in_file.setdefault((p, r), {"effective_from": e, "rows": []})
+            if rev["effective_from"] != e:
+                c.fail(np.arange(len(rows)) == i, "effective_from",
+                       f"revision {r} of {p} is dated {rev['effective_from']} on an earlier row; "
+                       "all risers of one revision share one date")
+                continue
+            rev["rows"].append(rows[i])
+        return rows
+
+    def finish_risers(self) -> tuple[list[tuple], list[tuple]]:
+        """Revision rows to add, checked against the stored revisions as a whole."""
+        stored = self.store.revisions_frame()
+        stored_rev = {(p, r): e for p, r, e in stored.itertuples(index=False)}
+        dates: dict[tuple, str] = {}
+        for p, r, e in stored.itertuples(index=False):
+            dates[(p, e)] = r
+        new_revs, problems = [], []
+        for (p, r), rev in self._revisions_in_file.items():
+            e = rev["effective_from"]
+            other = dates.get((p, e))
+            if other is not None and other != r:
+                problems.append(BadRow(self.file, 0, "effective_from",
+                                       f"revision {r} of {p} takes effect on {e}, the same day as "
+                                       f"revision {other}; give each revision its own date"))
+                continue
+            dates[(p, e)] = r
+            if (p, r) in stored_rev:
+                risers = self.store.risers_frame(pattern=p, revision=r)
+                have = {tuple(x) for x in risers[["riser", "zone", "placement", "top", "diameter_mm",
+                                                  "height_mm", "sleeve", "neck_diameter_mm"]]
+                        .astype(object).where(risers.notna(), None).itertuples(index=False)}
+                want = {row[2:] for row in rev["rows"]}
+                if stored_rev[(p, r)] != e or have != want:
+                    problems.append(BadRow(self.file, 0, "revision",
+                                           f"revision {r} of {p} is stored already with other content; "
+                                           "a stored revision is never changed: give the new design "
+                                           "a new revision code and date"))
+            else:
+                new_revs.append((p, r, e))
+        return new_revs, problems
+
+    def _lots(self, c: _Checks) -> list[tuple]:
+        lot = c.text("lot", max_len=64)
+        pattern = c.text("pattern", max_len=64)
+        poured = c.date("poured_on", not_after=self.today)
+        heat = c.text("heat", max_len=64)
+        molds = c.number("molds", low=0, whole=True, high=100000)
+        lo, hi = POUR_TEMP_RANGE_C
+        temp = c.number("pour_temp_c", required=False, low=lo, low_inclusive=True, high=hi, unit="°C")
+        self._known_patterns(c, pattern)
+        return [(lt, p, d, h, int(m) if m == m else m, _float_or_none(t))
+                for lt, p, d, h, m, t in zip(lot, pattern, poured, heat, molds, temp)]
+
+    def _inspections(self, c: _Checks) -> list[tuple]:
+        lot = c.text("lot", max_len=64)
+        on = c.date("inspected_on", not_after=self.today)
+        method = c.code("method", METHODS)
+        qty = c.number("quantity", low=0, whole=True, high=1_000_000)
+        result = c.code("result", RESULTS)
+        defect = c.code("defect", DEFECTS, required=False)
+        zone = c.text("zone", required=False, max_len=64)
+        cat = c.code("xray_category", XRAY_CATEGORIES, required=False, lower=False)
+        sev = c.number("severity", required=False, low=1, low_inclusive=True, high=5, whole=True)
+        serial = c.text("serial", required=False)
+        inspector = c.text("inspector", required=False, max_len=100)
+        notes = c.text("notes", required=False, max_len=2000)
+        c.fail(result.isin(["reject", "rework"]) & (defect == ""), "defect",
+               lambda i: f"a {result.iloc[i]} row needs the defect found; use one of {', '.join(DEFECTS)}")
+        c.fail((cat != "") & (method != "xray"), "xray_category",
+               lambda i: f"got {cat.iloc[i]!r}; a radiography category goes with method xray, "
+                         f"not {method.iloc[i]}")
+        c.fail(sev.notna() & (cat == ""), "severity", "a severity level needs its xray_category")
+        c.fail(sev.notna() & (cat != "") & ~cat.isin(GRADED_CATEGORIES), "severity",
+               lambda i: f"category {cat.iloc[i]} is not graded in severity levels; leave severity blank")
+        c.fail(cat.isin(NEVER_ACCEPTABLE) & (result == "accept"), "result",
+               lambda i: f"got 'accept'; category {cat.iloc[i]} (cracks, hot tears) is not acceptable at "
+                         "any level")
+        # The lot must exist, inspection on or after the pour.
+        info = self.store.lots_info(lot[lot != ""].unique().tolist())
+        known = lot.isin(list(info)).to_numpy()
+        c.fail((lot != "") & ~known, "lot", "unknown lot; import it in lots.csv first or check the code")
+        poured = np.array([info[x]["poured_on"] if k else "" for x, k in zip(lot, known)], dtype=object)
+        c.fail(known & (on != "") & (on.to_numpy() < poured), "inspected_on",
+               lambda i: f"got {on.iloc[i]!r}; lot {lot.iloc[i]} was poured on {poured[i]}; "
+                         "a casting is inspected after it is poured")
+        pattern = np.array([info[x]["pattern"] if k else "" for x, k in zip(lot, known)], dtype=object)
+        levels = self.store.zone_levels()
+        has_zone = (zone != "").to_numpy()
+        zone_known = np.array([(p, z) in levels for p, z in zip(pattern, zone)], dtype=bool)
+        c.fail(known & has_zone & ~zone_known, "zone",
+               lambda i: f"got {zone.iloc[i]!r}; pattern {pattern[i]} has no such zone")
+        level = np.array([levels.get((p, z)) if zk else None for p, z, zk in zip(pattern, zone, zone_known)],
+                         dtype=float)
+        sev_a = sev.to_numpy(dtype=float)
+        graded = cat.isin(GRADED_CATEGORIES).to_numpy() & ~np.isnan(sev_a) & ~np.isnan(level)
+        c.fail(graded & (sev_a > np.nan_to_num(level, nan=9)) & (result == "accept").to_numpy(), "result",
+               lambda i: f"got 'accept'; severity {int(sev_a[i])} is above zone {zone.iloc[i]}'s required "
+                         f"level {int(level[i])}: write reject or rework")
+        c.fail(graded & (sev_a <= np.nan_to_num(level, nan=9)) & (result == "reject").to_numpy(), "result",
+               lambda i: f"got 'reject'; severity {int(sev_a[i])} meets zone {zone.iloc[i]}'s required "
+                         f"level {int(level[i])}: the casting is acceptable on radiography")
+        canon = pd.DataFrame({
+            "lot": lot, "inspected_on": on, "method": method,
+            "quantity": qty.fillna(0).astype(np.int64).astype(str), "result": result, "defect": defect,
+            "zone": zone, "xray_category": cat,
+            "severity": sev.fillna(0).astype(np.int64).astype(str).replace("0", ""),
+            "serial": serial, "inspector": inspector, "notes": notes})
+        joined = canon.astype(str).agg("\x1f".join, axis=1) if len(canon) else pd.Series([], dtype=str)
+        digests = [hashlib.sha1(s.encode("utf-8")).hexdigest() for s in joined]
+        occurrence = self._occurrences(np.array([int(d[:16], 16) for d in digests], dtype=np.uint64))
+        keys = [f"{d}:{n}" for d, n in zip(digests, occurrence)]
+        present = self.store.keys_present("inspections", "record_key", keys)
+        new = np.array([k not in present for k in keys], dtype=bool)
+        self._check_lot_totals(c, lot, method, result, qty, known, new, info)
+        self._skip_present = ~new
+        return [(lt, d, m, int(q) if q == q else None, r, _none(df), _none(z), _none(ct), _int_or_none(sv),
+                 _none(sr), _none(ins), _none(nt), k, self.now, self.by, self.file, None, 0, None)
+                for lt, d, m, q, r, df, z, ct, sv, sr, ins, nt, k in
+                zip(lot, on, method, qty, result, defect, zone, cat, sev, serial, inspector, notes, keys)]
+
+    def _occurrences(self, d: np.ndarray) -> np.ndarray:
+        """For each digest, how many identical rows came before it in this file."""
+        if not len(d):
+            return np.zeros(0, dtype=np.int64)
+        order = np.argsort(d, kind="stable")
+        sd = d[order]
+        start = np.r_[True, sd[1:] != sd[:-1]]
+        grp = np.cumsum(start) - 1
+        first = np.flatnonzero(start)
+        within = np.arange(len(sd)) - first[grp]
+        pos = np.searchsorted(self._seen_digests, sd)
+        hit = (pos < len(self._seen_digests)) & (self._seen_digests[np.minimum(pos, len(self._seen_digests) - 1)]
+                                                 == sd) if len(self._seen_digests) else np.zeros(len(sd), bool)
+        before = np.where(hit, self._seen_counts[np.minimum(pos, max(len(self._seen_counts) - 1, 0))], 0) \
+            if len(self._seen_counts) else np.zeros(len(sd), dtype=np.int64)
+        occ = np.empty(len(d), dtype=np.int64)
+        occ[order] = before + within
+        # merge the chunk's digests into the seen set with their new counts
+        uniq, counts = sd[start], np.diff(np.r_[first, len(sd)])
+        all_d = np.concatenate([self._seen_digests, uniq])
+        all_c = np.concatenate([self._seen_counts, counts])
+        o = np.argsort(all_d, kind="stable")
+        all_d, all_c = all_d[o], all_c[o]
+        s2 = np.r_[True, all_d[1:] != all_d[:-1]]
+        self._seen_digests = all_d[s2]
+        self._seen_counts = np.add.reduceat(all_c, np.flatnonzero(s2))
+        return occ
+
+    def _check_lot_totals(self, c, lot, method, result, qty, known, new, info) -> None:
+        """Rejects never above castings poured; no method inspects more castings than poured."""
+        lots = lot.to_numpy()
+        fresh = [x for x in dict.fromkeys(lots[known]) if x not in self._lot_index]
+        if fresh:
+            stored = self.store.lot_totals(fresh, exclude=self.exclude)
+            base = len(self._lot_index)
+            add = np.zeros((len(fresh), 1 + len(METHODS)), dtype=np.int64)
+            cast = np.zeros(len(fresh), dtype=np.int64)
+            for j, x in enumerate(fresh):
+                self._lot_index[x] = base + j
+                cast[j] = info[x]["castings"]
+                t = stored.get(x)
+                if t:
+                    add[j, 0] = t["rejected"]
+                    for m, q in t["methods"].items():
+                        add[j, 1 + METHODS.index(m)] = q
+            self._lot_tot = np.vstack([self._lot_tot, add])
+            self._lot_castings = np.concatenate([self._lot_castings, cast])
+        q = qty.fillna(0).to_numpy(dtype=np.int64)
+        res = result.to_numpy()
+        meth = method.to_numpy()
+        for i in np.flatnonzero(known & new & ~c.bad):
+            j = self._lot_index[lots[i]]
+            mi = 1 + METHODS.index(meth[i])
+            cap = self._lot_castings[j]
+            if res[i] == "reject" and self._lot_tot[j, 0] + q[i] > cap:
+                c.fail(np.arange(len(lots)) == i, "quantity",
+                       f"got {q[i]}; lot {lots[i]} would have {self._lot_tot[j, 0] + q[i]} castings "
+                       f"rejected but only {cap} were poured")
+                continue
+            if self._lot_tot[j, mi] + q[i] > cap:
+                c.fail(np.arange(len(lots)) == i, "quantity",
+                       f"got {q[i]}; lot {lots[i]} would have {self._lot_tot[j, mi] + q[i]} castings "
+                       f"inspected by {meth[i]} but only {cap} were poured")
+                continue
+            self._lot_tot[j, mi] += q[i]
+            if res[i] == "reject":
+                self._lot_tot[j, 0] += q[i]
+
+
+def _compare_existing(store: Store, kind: str, rows: list[tuple], c: _Checks) -> np.ndarray:
+    """Mark rows already stored with the same content (skip) and refuse rows
+    whose key is stored, or repeated in the file, with other content."""
+    cols = TABLE_COLUMNS[kind]
+    key_idx = [cols.index(k) for k in KEYS[kind]]
+    keys = [tuple(r[i] for i in key_idx) for r in rows]
+    stored = store.existing(kind, [k for k, b in zip(keys, c.bad) if not b])
+    skip = np.zeros(len(rows), dtype=bool)
+    for i, (k, r) in enumerate(zip(keys, rows)):
+        if c.bad[i] or k not in stored:
+            continue
+        old = stored[k]
+        if _same(old, r):
+            skip[i] = True
+        else:
+            diff = [col for col, a, b in zip(cols, old, r) if not _same_value(a, b)]
+            c.fail(np.arange(len(rows)) == i, KEYS[kind][-1],
+                   f"{' / '.join(map(str, k))} is stored already with other {', '.join(diff)}; a key "
+                   "is imported once (change the key for a new item)")
+    return skip
+
+
+def _same_value(a, b) -> bool:
+    if a is None or b is None:
+        return a is None and b is None
+    if isinstance(a, (int, float)) and isinstance(b, (int, float)):
+        return abs(float(a) - float(b)) <= 1e-9 * max(1.0, abs(float(a)))
+    return str(a) == str(b)
+
+
+def _same(a: tuple, b: tuple) -> bool:
+    return len(a) == len(b) and all(_same_value(x, y) for x, y in zip(a, b))
+
+
+# --- public entry points ----------------------------------------------------------
+
+def import_file(store: Store, kind: str, path: str | os.PathLike, *, skip_bad: bool = False,
+                by: str | None = None, today: dt.date | None = None,
+                progress: Callable[[int], None] | None = None,
+                chunk_rows: int = CHUNK_ROWS) -> ImportResult:
+    """Validate and import one file of ``kind``; all of it or (by default) nothing.
+
+    Raises BadFile listing every refused row unless ``skip_bad``. ``progress``
+    is called with the number of rows just handled.
+    """
+    return import_files(store, [(kind, path)], skip_bad=skip_bad, by=by, today=today,
+                        progress=progress, chunk_rows=chunk_rows)[0]
+
+
+def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, skip_bad: bool = False,
+                 by: str | None = None, today: dt.date | None = None,
+                 progress: Callable[[int], None] | None = None,
+                 chunk_rows: int = CHUNK_ROWS) -> list[ImportResult]:
+    """Import several files in one transaction, in the order given."""
+    from tracker.errors import BadInput
+
+    today = today or dt.date.today()
+    results = []
+    with store.write():
+        for kind, path in items:
+            if kind not in KINDS:
+                raise BadInput("kind", kind, "must be one of " + ", ".join(KINDS))
+            path = pathlib.Path(path)
+            if not path.is_file():
+                raise BadFile(path.name, [], f"{path}: no such file")
+            result = ImportResult(kind=kind, file=path.name)
+            imp = _Importer(store, kind, path.name, today, by, result)
+            for chunk in _read_chunks(path, kind, chunk_rows):
+                if not len(chunk):
+                    continue
+                c = _Checks(path.name, chunk, result)
+                rows = imp.validate(c)
+                result.rows += len(rows)
+                if kind == "inspections":
+                    skip = imp._skip_present & ~c.bad
+                else:
+                    skip = _compare_existing(store, kind, rows, c)
+                    skip &= ~c.bad
+                    # a key repeated within this chunk: same content is one row, other content refused
+                    key_idx = [TABLE_COLUMNS[kind].index(k) for k in KEYS[kind]]
+                    seen: dict = {}
+                    for i, r in enumerate(rows):
+                        if c.bad[i] or skip[i]:
+                            continue
+                        k = tuple(r[j] for j in key_idx)
+                        if k in seen:
+                            if _same(seen[k], r):
+                                skip[i] = True
+                            else:
+                                c.fail(np.arange(len(rows)) == i, KEYS[kind][-1],
+                                       f"{' / '.join(map(str, k))} appears twice in the file with "
+                                       "different content")
+                        else:
+                            seen[k] = r
+                good = [r for r, b, s in zip(rows, c.bad, skip) if not b and not s]
+                result.skipped += int((skip & ~c.bad).sum())
+                result.refused += int(c.bad.sum())
+                if c.bad.any():
+                    for i in np.flatnonzero(c.bad):
+                        row = chunk.iloc[i].to_dict()
+                        row = {"row": row.pop("_row"), **row, "reason": c.reasons.get(i, "")}
+                        result.refused_rows.append(row)
+                if not (result.refused and not skip_bad):
+                    table = kind
+                    if kind == "risers":
+                        # revisions first (risers reference them); collected at the end
+                        imp._pending = getattr(imp, "_pending", []) + good
+                    else:
+                        result.added += store.insert_rows(table, good)
+                if progress:
+                    progress(len(chunk))
+            if kind == "risers":
+                new_revs, problems = imp.finish_risers()
+                for p in problems:
+                    result.problems.append(p)
+                    result.refused += 1
+                if not problems and not (result.refused and not skip_bad):
+                    store.insert_rows("revisions", new_revs)
+                    pending = getattr(imp, "_pending", [])
+                    stored_revs = {(p, r) for p, r, _ in new_revs}
+                    rows_new = [r for r in pending if (r[0], r[1]) in stored_revs]
+                    result.skipped += len(pending) - len(rows_new)
+                    result.added += store.insert_rows("risers", rows_new)
+            if result.refused and not skip_bad:
+                raise BadFile(path.name, result.problems)
+            results.append(result)
+    return results
+
+
+def import_dir(store: Store, folder: str | os.PathLike, **kwargs) -> list[ImportResult]:
+    """Import every known file of a folder (patterns.csv, zones.csv, ...) in
+    dependency order, all in one transaction."""
+    folder = pathlib.Path(folder)
+    if not folder.is_dir():
+        raise BadFile(str(folder), [], f"{folder}: no such folder")
+    items = []
+    for kind in KINDS:
+        for ext in (".csv", ".xlsx"):
+            p = folder / f"{kind}{ext}"
+            if p.is_file():
+                items.append((kind, p))
+                break
+    if not items:
+        raise BadFile(str(folder), [], f"{folder}: holds none of " + ", ".join(f"{k}.csv" for k in KINDS))
+    return import_files(store, items, **kwargs)
+
+
+def write_refused(result: ImportResult, path: str | os.PathLike) -> pathlib.Path:
+    """Write the refused rows of an import (with row number and reason) to CSV."""
+    from tracker.report import safe_cell
+
+    path = pathlib.Path(path)
+    rows = result.refused_rows
+    cols = list(dict.fromkeys(k for r in rows for k in r)) or ["row", "reason"]
+    with path.open("w", newline="", encoding="utf-8") as fh:
+        w = csv.DictWriter(fh, fieldnames=cols)
+        w.writeheader()
+        for r in rows:
+            w.writerow({k: safe_cell(v) for k, v in r.items()})
+    return path
+
+
+def log_inspection(store: Store, record: dict, *, by: str | None = None,
+                   today: dt.date | None = None, source: str = "form") -> int:
+    """Validate one inspection result as the import would and store it.
+
+    ``record`` has the inspection columns; returns the new record id.
+    Each call is a new record (it is never taken as a duplicate).
+    """
+    return _one_record(store, record, by=by, today=today, source=source)
+
+
+def _one_record(store: Store, record: dict, *, by, today, source, supersedes: int | None = None,
+                reason: str | None = None, void: bool = False, exclude: tuple = ()) -> int:
+    today = today or dt.date.today()
+    required, optional = COLUMNS["inspections"]
+    frame = pd.DataFrame([{k: "" if record.get(k) is None else str(record.get(k)).strip()
+                           for k in required + optional}])
+    frame["_row"] = [1]
+    result = ImportResult(kind="inspections", file=source)
+    with store.write():
+        imp = _Importer(store, "inspections", source, today, by, result, exclude=exclude)
+        c = _Checks(source, frame, result)
+        rows = imp.validate(c)
+        if c.bad.any():
+            p = result.problems[0]
+            from tracker.errors import BadInput
+            raise BadInput(p.column, record.get(p.column), p.reason.split("; ", 1)[-1]
+                           if p.reason.startswith("got ") else p.reason)
+        row = list(rows[0])
+        row[12] = f"{source}:{uuid.uuid4().hex}"  # each record typed in is new
+        row[16] = supersedes
+        row[17] = 1 if void else 0
+        row[18] = reason
+        store.insert_rows("inspections", [tuple(row)])
+        return store.last_insert_id()
+
+
+def correct_inspection(store: Store, record_id: int, changes: dict, *, by: str, reason: str,
+                       today: dt.date | None = None) -> int:
+    """Supersede record ``record_id`` by a corrected copy; the old one stays in the history.
+
+    ``changes`` holds the columns that differ. With ``changes={"void": True}``
+    the record is withdrawn (a void record supersedes it).
+    """
+    from tracker.errors import BadInput
+
+    if not str(by or "").strip():
+        raise BadInput("by", by, "name who makes the correction")
+    if not str(reason or "").strip():
+        raise BadInput("reason", reason, "say why the record is corrected")
+    with store.write():
+        old = store.inspection(record_id)
+        newer = store.superseded_by(record_id)
+        if newer is not None:
+            raise BadInput("record", record_id, f"it was already corrected by record {newer}; correct that one")
+        void = bool(changes.pop("void", False))
+        rec = {k: old.get(k) for k in sum(COLUMNS["inspections"], [])}
+        rec.update({k: v for k, v in changes.items() if k in rec})
+        if void:
+            # A withdrawal must not count against the lot's totals.
+            rec["quantity"] = old["quantity"]
+        # The lot's totals are checked as if the old record were gone.
+        return _one_record(store, rec, by=by, today=today, source="correction",
+                           supersedes=record_id, reason=reason, void=void, exclude=(record_id,))

@@ -1,0 +1,485 @@
+"""Statistics for the weekly scrap review.
+
+Pure functions on numpy arrays and pandas tables; nothing here reads the
+database or formats output.
+
+- Reject rate p = rejected / inspected with a Wilson score interval.
+- p-chart with varying sample size (NIST/SEMATECH e-Handbook of Statistical
+  Methods, 6.3.3.2): centre p̄ = Σk / Σn, limits p̄ ± 3·√(p̄(1 − p̄)/nᵢ).
+  Signal rules: a point beyond a limit; a run of 8 or more points on one side
+  of the centre (Western Electric / Nelson run rule).
+- Before/after comparison of two reject rates: Fisher's exact test and a
+  Newcombe (hybrid Wilson score) interval for the change in rate.
+- Pareto table with cumulative share and the "vital few".
+- ISO week labels ("2026-W47") and their Monday.
+
+Units: counts are castings (whole numbers); rates, shares and limits are
+fractions in 0..1, not percentages.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import math
+import re
+
+import numpy as np
+import pandas as pd
+from scipy import stats as _sps
+
+from tracker.errors import BadInput
+
+SIGMA_LIMITS = 3.0
+RUN_LENGTH = 8
+RULES = ("beyond_limit", "run_of_8")
+CHART_COLUMNS = ("label", "rejected", "inspected", "p", "centre", "lcl", "ucl",
+                 "beyond", "run", "signal")
+
+# compare_rates calls a period "long enough" when the comparison had at least
+# this chance of noticing that the reject rate had halved.
+MIN_POWER = 0.8
+DETECTABLE_RATIO = 0.5
+VERDICTS = ("improved", "worse", "no_clear_change", "not_enough_data")
+
+VITAL_FEW_SHARE = 0.8
+
+
+# --- input checks ---------------------------------------------------------------
+
+def _first(arr, mask):
+    arr = np.atleast_1d(arr)
+    mask = np.atleast_1d(mask)
+    return arr[np.argmax(mask)].item() if mask.any() else arr.flat[0].item()
+
+
+def _counts(field: str, values) -> np.ndarray:
+    """Whole, non-negative counts as a float array (float so NaN maths works)."""
+    a = np.asarray(values, dtype=float)
+    bad = ~np.isfinite(a) | (a < 0) | (a != np.round(a))
+    if np.any(bad):
+        raise BadInput(field, _first(a, bad), f"{field} must be a whole number of castings, 0 or more")
+    return a
+
+
+def _check_k_le_n(k: np.ndarray, n: np.ndarray, k_name: str, n_name: str):
+    bad = k > n
+    if np.any(bad):
+        raise BadInput(k_name, _first(k, bad), f"{k_name} cannot exceed {n_name} "
+                       f"({_first(n, bad)}); check the two columns are not swapped")
+
+
+def _check_confidence(confidence: float, field: str = "confidence") -> float:
+    c = float(confidence)
+    if not (0.0 < c < 1.0):
+        raise BadInput(field, confidence, f"{field} must lie strictly between 0 and 1, e.g. 0.95")
+    return c
+
+
+# --- Wilson interval --------------------------------------------------------------
+
+def _wilson(k: np.ndarray, n: np.ndarray, z: float):
+    """Wilson bounds for already-checked float arrays; n = 0 gives (0, 1)."""
+    with np.errstate(invalid="ignore", divide="ignore"):
+        phat = k / n
+        z2n = z * z / n
+        centre = (phat + z2n / 2.0) / (1.0 + z2n)
+        half = z / (1.0 + z2n) * np.sqrt(phat * (1.0 - phat) / n + z2n / (4.0 * n))
+        low = centre - half
+        high = centre + half
+    empty = n == 0
+    low = np.where(empty, 0.0, low)
+    high = np.where(empty, 1.0, high)
+    # At k = 0 or k = n the bound is 0 or 1 exactly; rounding can leave 1e-17.
+    low = np.where(k == 0, 0.0, np.clip(low, 0.0, 1.0))
+    high = np.where(k == n, 1.0, np.clip(high, 0.0, 1.0))
+    return low, high
+
+
+def wilson_interval(k, n, confidence: float = 0.95):
+    """Wilson score interval for a reject rate k / n.
+
+    Parameters
+    ----------
+    k : int or array-like
+        Rejected castings (0 ≤ k ≤ n).
+    n : int or array-like
+        Inspected castings (0 or more); broadcast against ``k``.
+    confidence : float
+        Two-sided coverage, a fraction (default 0.95).
+
+    Returns
+    -------
+    (low, high)
+        Bounds of the rate as fractions in 0..1: floats for scalar input,
+        numpy arrays otherwise. Where n = 0 nothing is known and the interval
+        is the whole range (0.0, 1.0) rather than NaN, so tables and charts
+        stay drawable. k = 0 gives low = 0; k = n gives high = 1.
+    """
+    c = _check_confidence(confidence)
+    scalar = np.ndim(k) == 0 and np.ndim(n) == 0
+    ka = np.asarray(k, dtype=float)
+    na = np.asarray(n, dtype=float)
+    bad_k = ~np.isfinite(ka) | (ka < 0)
+    if np.any(bad_k):
+        raise BadInput("k", _first(ka, bad_k), "rejected count must be a number, 0 or more")
+    bad_n = ~np.isfinite(na) | (na < 0)
+    if np.any(bad_n):
+        raise BadInput("n", _first(na, bad_n), "inspected count must be a number, 0 or more")
+    ka, na = np.broadcast_arrays(ka, na)
+    _check_k_le_n(ka, na, "k", "n")
+    z = _sps.norm.ppf(0.5 + c / 2.0)
+    low, high = _wilson(ka, na, z)
+    if scalar:
+        return float(low), float(high)
+    return low, high
+
+
+# --- p-chart ----------------------------------------------------------------------
+
+def _run_member(side: np.ndarray, length: int = RUN_LENGTH) -> np.ndarray:
+    """True where a point lies in a run of ``length`` or more equal non-zero sides."""
+    if side.size == 0:
+        return np.zeros(0, dtype=bool)
+    # A point on the centre (side 0) starts its own group, so it breaks a run.
+    start = np.ones(side.size, dtype=bool)
+    start[1:] = (side[1:] != side[:-1]) | (side[1:] == 0)
+    group = np.cumsum(start) - 1
+    sizes = np.bincount(group)
+    return (sizes[group] >= length) & (side != 0)
+
+
+def p_chart(rejected, inspected, labels=None, *, centre: float | None = None) -> pd.DataFrame:
+    """p-chart of reject rate with a sample size that varies point to point.
+
+    Follows NIST/SEMATECH e-Handbook 6.3.3.2: centre p̄ = Σ rejected / Σ
+    inspected, limits p̄ ± 3·√(p̄(1 − p̄)/nᵢ), the lower clipped at 0 and the
+    upper at 1.
+
+    Parameters
+    ----------
+    rejected, inspected : array-like of whole numbers
+        Castings rejected and inspected in each period (e.g. each week).
+    labels : array-like, optional
+        One label per period (week strings, dates); default 0, 1, 2, ...
+    centre : float, optional
+        A known or baseline reject rate (fraction 0..1), e.g. from earlier
+        weeks, to judge these periods against instead of their own p̄.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per period, in input order, with columns ``label``,
+        ``rejected``, ``inspected`` (int), ``p`` (rejected / inspected),
+        ``centre``, ``lcl``, ``ucl`` (fractions), and booleans ``beyond``
+        (above ucl, or below lcl where lcl > 0 — a zero lower limit cannot be
+        breached), ``run`` (the point is one of 8 or more consecutive points
+        on the same side of the centre; a point exactly on the centre breaks
+        a run) and ``signal`` (beyond or run).
+
+        Periods with inspected = 0 are kept with p, lcl and ucl NaN and never
+        signal; they are skipped by the run rule (neither extending nor
+        breaking a run), as an unplotted week carries no evidence either way.
+        If nothing at all was inspected and no ``centre`` is given, the centre
+        is NaN and no point signals.
+    """
+    k = _counts("rejected", rejected).ravel()
+    n = _counts("inspected", inspected).ravel()
+    if k.size != n.size:
+        raise BadInput("inspected", f"{n.size} values", f"need one per rejected value ({k.size})")
+    _check_k_le_n(k, n, "rejected", "inspected")
+    if labels is None:
+        labels = np.arange(k.size)
+    labels = list(labels)
+    if len(labels) != k.size:
+        raise BadInput("labels", f"{len(labels)} values", f"need one per period ({k.size})")
+
+    if centre is None:
+        total = n.sum()
+        pbar = k.sum() / total if total > 0 else math.nan
+    else:
+        pbar = float(centre)
+        if not (0.0 <= pbar <= 1.0):
+            raise BadInput("centre", centre, "the baseline reject rate must be a fraction between 0 and 1")
+
+    seen = n > 0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        p = np.where(seen, k / n, np.nan)
+        sigma = np.where(seen, np.sqrt(pbar * (1.0 - pbar) / n), np.nan)
+    lcl = np.clip(pbar - SIGMA_LIMITS * sigma, 0.0, 1.0)
+    ucl = np.clip(pbar + SIGMA_LIMITS * sigma, 0.0, 1.0)
+
+    judged = seen & np.isfinite(pbar)
+    # NaN comparisons are False, so unseen periods never count as beyond.
+    beyond = judged & ((p > ucl) | ((lcl > 0) & (p < lcl)))
+
+    side = np.sign(p - pbar)
+    # k/n and Σk/Σn are each one correctly rounded division, so equal
+    # fractions give equal floats; the tolerance only covers a typed baseline.
+    side[np.isclose(p, pbar, rtol=1e-12, atol=0.0)] = 0.0
+    run = np.zeros(k.size, dtype=bool)
+    run[judged] = _run_member(side[judged])
+
+    return pd.DataFrame({
+        "label": labels,
+        "rejected": k.astype(np.int64),
+        "inspected": n.astype(np.int64),
+        "p": p,
+        "centre": np.full(k.size, pbar),
+        "lcl": lcl,
+        "ucl": ucl,
+        "beyond": beyond,
+        "run": run,
+        "signal": beyond | run,
+    }, columns=list(CHART_COLUMNS))
+
+
+def _rules_in(rows: pd.DataFrame) -> list[str]:
+    missing = [c for c in ("beyond", "run") if c not in rows.columns]
+    if missing:
+        raise BadInput("chart", ", ".join(missing), "missing column(s); pass the table p_chart returns")
+    fired = {"beyond_limit": bool(rows["beyond"].any()), "run_of_8": bool(rows["run"].any())}
+    return [rule for rule in RULES if fired[rule]]
+
+
+def signal_rules(chart_df: pd.DataFrame) -> list[str]:
+    """Names of the rules that fired at any point of a p-chart.
+
+    Returns a list drawn from ``RULES`` in that order: "beyond_limit" (a point
+    outside a control limit) and "run_of_8" (8 or more points in a row on one
+    side of the centre). An empty list means the chart shows no signal.
+    """
+    return _rules_in(chart_df)
+
+
+def latest_signal(chart_df: pd.DataFrame, last: int = 1) -> list[str]:
+    """Names of the rules firing at the last ``last`` rows of a p-chart.
+
+    A weekly review asks first whether the newest week(s) signal; older
+    signals have usually been discussed already. A run counts when a latest
+    point belongs to it. Same names and order as :func:`signal_rules`.
+    """
+    if isinstance(last, bool) or not isinstance(last, (int, np.integer)) or last < 1:
+        raise BadInput("last", last, "last must be a whole number of periods, 1 or more")
+    return _rules_in(chart_df.tail(int(last)))
+
+
+# --- before / after ----------------------------------------------------------------
+
+def _power_to_detect(p1: float, n1: float, n2: float, alpha: float,
+                     ratio: float = DETECTABLE_RATIO) -> float:
+    """Approximate power of a two-sided two-proportion test of p1 against ratio·p1.
+
+    Normal approximation with the pooled null variance (Fleiss, Statistical
+    Methods for Rates and Proportions). Fisher's exact test is a little more
+    conservative, so this slightly flatters it; it is used only to say whether
+    a "no change" could have meant anything.
+    """
+    p2 = ratio * p1
+    if n1 <= 0 or n2 <= 0 or p1 <= 0 or p1 == p2:
+        return 0.0
+    pooled = (n1 * p1 + n2 * p2) / (n1 + n2)
+    z = _sps.norm.ppf(1.0 - alpha / 2.0)
+    se0 = math.sqrt(pooled * (1.0 - pooled) * (1.0 / n1 + 1.0 / n2))
+    se1 = math.sqrt(p1 * (1.0 - p1) / n1 + p2 * (1.0 - p2) / n2)
+    return float(_sps.norm.cdf((abs(p1 - p2) - z * se0) / se1))
+
+
+def compare_rates(k_before, n_before, k_after, n_after, confidence: float = 0.95,
+                  *, alpha: float = 0.05) -> dict:
+    """Did the reject rate change between two periods (e.g. a riser revision)?
+
+    Parameters
+    ----------
+    k_before, n_before : int
+        Castings rejected and inspected before the change.
+    k_after, n_after : int
+        Castings rejected and inspected after it.
+    confidence : float
+        Coverage of the interval for the change in rate (default 0.95).
+    alpha : float
+        Significance level of Fisher's exact test (default 0.05).
+
+    Returns
+    -------
+    dict with keys
+        ``k_before``, ``n_before``, ``k_after``, ``n_after`` (int);
+        ``rate_before``, ``rate_after`` (fractions; NaN where n = 0);
+        ``difference`` (rate_after − rate_before, negative = fewer rejects);
+        ``diff_low``, ``diff_high`` (Newcombe hybrid Wilson score interval
+        for the difference at ``confidence``); ``confidence``;
+        ``p_value`` (Fisher's exact test, two-sided; NaN where either n = 0);
+        ``alpha``; ``power_to_halve`` (approximate chance, 0..1, that these
+        sample sizes reveal a halving of the before rate at ``alpha``);
+        ``verdict``, one of ``VERDICTS``.
+
+    Verdict rule
+    ------------
+    "improved" when rate_after < rate_before and p_value < alpha; "worse" when
+    rate_after > rate_before and p_value < alpha. Otherwise the periods are
+    only called "no_clear_change" when the comparison was able to notice a
+    real improvement: power_to_halve ≥ 0.8 (80 % chance of detecting a halving
+    of the before rate). Below that, or with no rejects before (nothing to
+    halve), or an empty period, the verdict is "not_enough_data" — absence
+    of evidence is not reported as evidence of no effect. For a 4 % rate and
+    equal periods this asks for roughly 1,150 castings on each side.
+    """
+    c = _check_confidence(confidence)
+    a = _check_confidence(alpha, "alpha")
+    kb, nb = _one_count("k_before", k_before), _one_count("n_before", n_before)
+    ka, na = _one_count("k_after", k_after), _one_count("n_after", n_after)
+    _check_k_le_n(np.asarray(kb), np.asarray(nb), "k_before", "n_before")
+    _check_k_le_n(np.asarray(ka), np.asarray(na), "k_after", "n_after")
+
+    out = {"k_before": int(kb), "n_before": int(nb), "k_after": int(ka), "n_after": int(na),
+           "rate_before": kb / nb if nb > 0 else math.nan,
+           "rate_after": ka / na if na > 0 else math.nan,
+           "difference": math.nan, "diff_low": math.nan, "diff_high": math.nan,
+           "confidence": c, "p_value": math.nan, "alpha": a, "power_to_halve": 0.0,
+           "verdict": "not_enough_data"}
+    if nb == 0 or na == 0:
+        return out
+
+    p1, p2 = out["rate_before"], out["rate_after"]
+    z = _sps.norm.ppf(0.5 + c / 2.0)
+    l1, u1 = (float(x) for x in _wilson(np.asarray(kb), np.asarray(nb), z))
+    l2, u2 = (float(x) for x in _wilson(np.asarray(ka), np.asarray(na), z))
+    d = p2 - p1
+    # Newcombe (1998), method 10: combine each rate's Wilson distances.
+    out["difference"] = d
+    out["diff_low"] = d - math.sqrt((p2 - l2) ** 2 + (u1 - p1) ** 2)
+    out["diff_high"] = d + math.sqrt((u2 - p2) ** 2 + (p1 - l1) ** 2)
+
+    table = [[int(kb), int(nb - kb)], [int(ka), int(na - ka)]]
+    out["p_value"] = float(_sps.fisher_exact(table, alternative="two-sided").pvalue)
+    out["power_to_halve"] = _power_to_detect(p1, nb, na, a)
+
+    if out["p_value"] < a and p2 < p1:
+        out["verdict"] = "improved"
+    elif out["p_value"] < a and p2 > p1:
+        out["verdict"] = "worse"
+    elif out["power_to_halve"] >= MIN_POWER:
+        out["verdict"] = "no_clear_change"
+    return out
+
+
+def _one_count(name: str, value) -> float:
+    if np.ndim(value) != 0:
+        raise BadInput(name, value, f"{name} must be a single whole number of castings")
+    return float(_counts(name, value))
+
+
+# --- Pareto -------------------------------------------------------------------------
+
+def pareto(df: pd.DataFrame, by: str, value: str) -> pd.DataFrame:
+    """Pareto table: ``value`` summed per ``by``, largest first.
+
+    Parameters
+    ----------
+    df : pandas.DataFrame
+        One row per record (e.g. per scrapped lot).
+    by : str
+        Column to group on (e.g. "pattern" or "defect").
+    value : str
+        Column to sum (e.g. scrap cost in currency units, or castings).
+        Missing values count as 0; negative values are refused.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``<by>``, ``<value>`` (the sum), ``share`` (fraction of the
+        total, 0..1), ``cumulative_share`` (0..1) and ``vital_few`` (True for
+        the rows up to and including the first whose cumulative share reaches
+        80 %). Ties keep ``by`` in ascending order so the table is stable.
+        When the total is 0 every share is 0 and no row is vital.
+    """
+    for col in (by, value):
+        if col not in df.columns:
+            raise BadInput("column", col, "not in the table; columns are " + ", ".join(map(str, df.columns)))
+    values = pd.to_numeric(df[value], errors="coerce")
+    bad = values < 0
+    if bad.any():
+        raise BadInput(value, values[bad].iloc[0], f"{value} cannot be negative")
+    grouped = (values.groupby(df[by], sort=True, dropna=False).sum(min_count=0)
+               .rename(value).reset_index())
+    grouped = grouped.sort_values(value, ascending=False, kind="stable").reset_index(drop=True)
+    total = float(grouped[value].sum())
+    if total > 0:
+        share = grouped[value].to_numpy(dtype=float) / total
+        cumulative = np.cumsum(share)
+        # Floating sums can stop at 0.79999999 where the exact share is 0.8.
+        reached = cumulative >= VITAL_FEW_SHARE - 1e-12
+        first = int(np.argmax(reached)) if reached.any() else len(grouped) - 1
+        vital = np.arange(len(grouped)) <= first
+    else:
+        share = np.zeros(len(grouped))
+        cumulative = np.zeros(len(grouped))
+        vital = np.zeros(len(grouped), dtype=bool)
+    grouped["share"] = share
+    grouped["cumulative_share"] = np.clip(cumulative, 0.0, 1.0)
+    grouped["vital_few"] = vital
+    return grouped
+
+
+# --- ISO weeks ----------------------------------------------------------------------
+
+_WEEK_RE = re.compile(r"^(\d{4})-[Ww](\d{2})$")
+_LOOSE_WEEK_RE = re.compile(r"^\s*(\d{4})\s*[-/ ]?\s*[Ww]?\s*(\d{1,2})\s*$")
+
+
+def _as_date(value) -> _dt.date:
+    if isinstance(value, _dt.datetime):
+        return value.date()
+    if isinstance(value, _dt.date):
+        return value
+    if isinstance(value, str):
+        try:
+            return _dt.date.fromisoformat(value.strip()[:10])
+        except ValueError:
+            pass
+    raise BadInput("date", value, "write the date as YYYY-MM-DD, e.g. 2026-11-16")
+
+
+def iso_week(date):
+    """ISO 8601 week label of a date, e.g. ``"2026-W47"``.
+
+    Accepts a ``datetime.date``, a ``datetime``/``pandas.Timestamp`` or an
+    ISO date string (YYYY-MM-DD). A pandas Series (or other list-like) gives a
+    Series of labels. The year is the ISO week-year, so 2027-01-01 (a Friday)
+    belongs to "2026-W53".
+    """
+    if isinstance(date, (pd.Series, pd.Index, np.ndarray, list, tuple)):
+        stamps = pd.to_datetime(pd.Series(date), errors="coerce")
+        if stamps.isna().any():
+            bad = pd.Series(date)[stamps.isna().to_numpy()].iloc[0]
+            raise BadInput("date", bad, "write the date as YYYY-MM-DD, e.g. 2026-11-16")
+        cal = stamps.dt.isocalendar()
+        labels = (cal["year"].astype(str) + "-W" + cal["week"].astype(str).str.zfill(2))
+        if isinstance(date, pd.Series):
+            labels.index = date.index
+        return labels.rename("week")
+    year, week, _ = _as_date(date).isocalendar()
+    return f"{year:04d}-W{week:02d}"
+
+
+def week_start(week: str) -> _dt.date:
+    """The Monday (a ``datetime.date``) that starts ISO week ``"YYYY-Www"``.
+
+    Raises ``BadInput`` (a ValueError) for anything else, with the corrected
+    spelling where one can be guessed, e.g.
+    "week: got '2026-47'; write it as 2026-W47".
+    """
+    text = week.strip() if isinstance(week, str) else week
+    m = _WEEK_RE.match(text) if isinstance(text, str) else None
+    if m is None:
+        loose = _LOOSE_WEEK_RE.match(week) if isinstance(week, str) else None
+        if loose and 1 <= int(loose.group(2)) <= 53:
+            hint = f"write it as {loose.group(1)}-W{int(loose.group(2)):02d}"
+        else:
+            hint = "write it as YYYY-Www, e.g. 2026-W47"
+        raise BadInput("week", week, hint)
+    year, num = int(m.group(1)), int(m.group(2))
+    # 28 December always falls in the last ISO week of its year.
+    weeks_in_year = _dt.date(year, 12, 28).isocalendar()[1]
+    if not 1 <= num <= weeks_in_year:
+        raise BadInput("week", week, f"{year} has weeks W01 to W{weeks_in_year:02d}")
+    return _dt.date.fromisocalendar(year, num, 1)

@@ -1,0 +1,573 @@
+"""The SQLite log: schema, migrations and every SQL statement of the project.
+
+Nothing outside this module writes SQL. Reads return pandas DataFrames or
+plain dicts; writes run in ``BEGIN IMMEDIATE`` transactions so that an import
+is all-or-nothing and concurrent writers wait for each other (WAL mode and a
+busy timeout) instead of failing.
+
+Inspection records are never overwritten: a correction is a new record whose
+``supersedes`` names the old one; the *current* records are those no other
+record supersedes.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import datetime as dt
+import os
+import pathlib
+import sqlite3
+import time
+from typing import Iterable, Iterator
+
+import pandas as pd
+import sqlite_utils
+
+from tracker.alloys import ALLOYS
+from tracker.errors import NotFound, PourbackError
+
+DEFAULT_DB = "pourback.db"
+ENV_DB = "POURBACK_DB"
+SCHEMA_VERSION = 1
+BUSY_TIMEOUT_MS = 30_000
+
+# Column order of each import kind's table, as stored.
+TABLE_COLUMNS = {
+    "patterns": ["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
+                 "metal_cost_per_kg", "processing_cost_per_casting"],
+    "zones": ["pattern", "zone", "volume_cm3", "cooling_area_cm2", "thickness_mm", "length_mm",
+              "required_xray_level"],
+    "sleeves": ["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
+                "feeding_efficiency", "unit_cost"],
+    "revisions": ["pattern", "revision", "effective_from"],
+    "risers": ["pattern", "revision", "riser", "zone", "placement", "top", "diameter_mm",
+               "height_mm", "sleeve", "neck_diameter_mm"],
+    "lots": ["lot", "pattern", "poured_on", "heat", "molds", "pour_temp_c"],
+    "inspections": ["id", "lot", "inspected_on", "method", "quantity", "result", "defect", "zone",
+                    "xray_category", "severity", "serial", "inspector", "notes", "record_key",
+                    "recorded_at", "recorded_by", "source", "supersedes", "void",
+                    "correction_reason"],
+}
+KEYS = {
+    "patterns": ["pattern"],
+    "zones": ["pattern", "zone"],
+    "sleeves": ["sleeve"],
+    "revisions": ["pattern", "revision"],
+    "risers": ["pattern", "revision", "riser"],
+    "lots": ["lot"],
+    "inspections": ["record_key"],
+}
+
+
+class LogLocked(PourbackError):
+    """The log stayed locked by another writer longer than the busy timeout."""
+
+
+def resolve_path(path: str | os.PathLike | None = None) -> str:
+    """The database path: the argument, else $POURBACK_DB, else ./pourback.db."""
+    if path:
+        return str(path)
+    return os.environ.get(ENV_DB) or DEFAULT_DB
+
+
+# --- migrations -------------------------------------------------------------------
+
+def _migration_1(db: sqlite_utils.Database) -> None:
+    db["alloys"].create({
+        "alloy": str, "name": str, "shrinkage": float, "density_kg_dm3": float,
+        "bare_efficiency": float, "caine_a": float, "caine_b": float, "caine_c": float,
+        "source": str,
+    }, pk="alloy", not_null={"alloy", "shrinkage", "density_kg_dm3", "bare_efficiency"})
+    db["patterns"].create({
+        "pattern": str, "description": str, "alloy": str, "casting_weight_kg": float,
+        "castings_per_mold": int, "metal_cost_per_kg": float,
+        "processing_cost_per_casting": float,
+    }, pk="pattern", foreign_keys=[("alloy", "alloys", "alloy")],
+        not_null={"alloy", "casting_weight_kg", "castings_per_mold", "metal_cost_per_kg"})
+    db["zones"].create({
+        "pattern": str, "zone": str, "volume_cm3": float, "cooling_area_cm2": float,
+        "thickness_mm": float, "length_mm": float, "required_xray_level": int,
+    }, pk=("pattern", "zone"), foreign_keys=[("pattern", "patterns", "pattern")],
+        not_null={"volume_cm3", "cooling_area_cm2"})
+    db["sleeves"].create({
+        "sleeve": str, "kind": str, "inner_diameter_mm": float, "height_mm": float,
+        "modulus_factor": float, "feeding_efficiency": float, "unit_cost": float,
+    }, pk="sleeve", not_null={"kind", "inner_diameter_mm", "height_mm", "modulus_factor",
+                              "feeding_efficiency"})
+    db["revisions"].create({"pattern": str, "revision": str, "effective_from": str},
+                           pk=("pattern", "revision"),
+                           foreign_keys=[("pattern", "patterns", "pattern")],
+                           not_null={"effective_from"})
+    db.execute("""
+        CREATE TABLE risers (
+            pattern TEXT NOT NULL, revision TEXT NOT NULL, riser TEXT NOT NULL,
+            zone TEXT NOT NULL, placement TEXT NOT NULL, top TEXT NOT NULL,
+            diameter_mm REAL NOT NULL, height_mm REAL NOT NULL,
+            sleeve TEXT REFERENCES sleeves(sleeve), neck_diameter_mm REAL,
+            PRIMARY KEY (pattern, revision, riser),
+            FOREIGN KEY (pattern, revision) REFERENCES revisions(pattern, revision),
+            FOREIGN KEY (pattern, zone) REFERENCES zones(pattern, zone)
+        )""")
+    db["lots"].create({
+        "lot": str, "pattern": str, "poured_on": str, "heat": str, "molds": int,
+        "pour_temp_c": float,
+    }, pk="lot", foreign_keys=[("pattern", "patterns", "pattern")],
+        not_null={"pattern", "poured_on", "molds"})
+    db.execute("""
+        CREATE TABLE inspections (
+            id INTEGER PRIMARY KEY,
+            lot TEXT NOT NULL REFERENCES lots(lot),
+            inspected_on TEXT NOT NULL, method TEXT NOT NULL,
+            quantity INTEGER NOT NULL CHECK (quantity > 0),
+            result TEXT NOT NULL, defect TEXT, zone TEXT, xray_category TEXT,
+            severity INTEGER CHECK (severity BETWEEN 1 AND 5),
+            serial TEXT, inspector TEXT, notes TEXT,
+            record_key TEXT NOT NULL UNIQUE,
+            recorded_at TEXT NOT NULL, recorded_by TEXT, source TEXT,
+            supersedes INTEGER REFERENCES inspections(id),
+            void INTEGER NOT NULL DEFAULT 0,
+            correction_reason TEXT
+        )""")
+    db.execute("CREATE TABLE models (id INTEGER PRIMARY KEY, fitted_at TEXT NOT NULL, "
+               "rows INTEGER, castings INTEGER, data_until TEXT, blob BLOB NOT NULL)")
+    db.execute("CREATE INDEX lots_poured_on ON lots(poured_on)")
+    db.execute("CREATE INDEX lots_pattern_poured_on ON lots(pattern, poured_on)")
+    db.execute("CREATE INDEX inspections_lot ON inspections(lot)")
+    db.execute("CREATE UNIQUE INDEX inspections_supersedes ON inspections(supersedes) "
+               "WHERE supersedes IS NOT NULL")
+    db.execute("CREATE INDEX risers_zone ON risers(pattern, zone)")
+    for a in ALLOYS.values():
+        c = a.caine
+        db["alloys"].insert({
+            "alloy": a.key, "name": a.name, "shrinkage": a.shrinkage,
+            "density_kg_dm3": a.density_kg_dm3, "bare_efficiency": a.bare_efficiency,
+            "caine_a": c.a if c else None, "caine_b": c.b if c else None,
+            "caine_c": c.c if c else None, "source": a.source,
+        })
+
+
+MIGRATIONS = [_migration_1]  # index i brings the schema from version i to i + 1
+
+
+# --- the store --------------------------------------------------------------------
+
+class Store:
+    """One open connection to the log.
+
+    ``Store(path)`` opens (creating and migrating when needed) the database;
+    use it as a context manager so the connection is closed.
+    """
+
+    def __init__(self, path: str | os.PathLike | None = None, *, create: bool = True):
+        self.path = resolve_path(path)
+        if self.path != ":memory:" and not create and not pathlib.Path(self.path).exists():
+            raise NotFound("database", self.path, "run `pourback init` first or pass --db")
+        conn = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
+        self.conn = conn
+        self.db = sqlite_utils.Database(conn)
+        conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+        conn.execute("PRAGMA foreign_keys = ON")
+        if self.path != ":memory:":
+            self._retry(lambda: conn.execute("PRAGMA journal_mode = WAL"))
+            conn.execute("PRAGMA synchronous = NORMAL")
+        self.migrate()
+
+    # connection handling
+    def close(self) -> None:
+        self.conn.close()
+
+    def __enter__(self) -> "Store":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+    @staticmethod
+    def _retry(fn, attempts: int = 8):
+        delay = 0.05
+        for i in range(attempts):
+            try:
+                return fn()
+            except sqlite3.OperationalError as exc:
+                if "locked" not in str(exc) and "busy" not in str(exc):
+                    raise
+                if i == attempts - 1:
+                    raise LogLocked("the log is locked by another writer; try again in a moment") from exc
+                time.sleep(delay)
+                delay = min(delay * 2, 1.0)
+
+    @contextlib.contextmanager
+    def write(self) -> Iterator["Store"]:
+        """A write transaction: everything inside commits together or not at all."""
+        if self.conn.in_transaction:
+            with self.db.atomic():
+                yield self
+            return
+        self._retry(lambda: self.conn.execute("BEGIN IMMEDIATE"))
+        try:
+            yield self
+        except BaseException:
+            if self.conn.in_transaction:
+                self.conn.execute("ROLLBACK")
+            raise
+        else:
+            self._retry(lambda: self.conn.execute("COMMIT"))
+
+    def schema_version(self) -> int:
+        return self.conn.execute("PRAGMA user_version").fetchone()[0]
+
+    def migrate(self) -> None:
+        version = self.schema_version()
+        if version > SCHEMA_VERSION:
+            raise PourbackError(f"database {self.path} has schema version {version}, newer than this "
+                                f"program's {SCHEMA_VERSION}; upgrade pourback")
+        while version < SCHEMA_VERSION:
+            with self.write():
+                # Re-read inside the lock: another process may have migrated.
+                version = self.schema_version()
+                if version >= SCHEMA_VERSION:
+                    break
+                MIGRATIONS[version](self.db)
+                version += 1
+                self.conn.execute(f"PRAGMA user_version = {version}")
+
+    # --- generic reads -----------------------------------------------------------
+    def _frame(self, sql: str, params: Iterable = ()) -> pd.DataFrame:
+        cur = self.conn.execute(sql, tuple(params))
+        cols = [d[0] for d in cur.description]
+        return pd.DataFrame.from_records(cur.fetchall(), columns=cols)
+
+    def table(self, name: str) -> pd.DataFrame:
+        """All rows of one of the log's tables, in key order."""
+        if name not in TABLE_COLUMNS and name != "alloys":
+            raise NotFound("table", name)
+        order = ", ".join(KEYS.get(name, ["alloy"])) if name != "inspections" else "id"
+        return self._frame(f"SELECT * FROM [{name}] ORDER BY {order}")
+
+    def count(self, name: str) -> int:
+        return self.conn.execute(f"SELECT COUNT(*) FROM [{name}]").fetchone()[0]
+
+    def counts(self) -> dict[str, int]:
+        return {t: self.count(t) for t in ("patterns", "zones", "sleeves", "revisions", "risers",
+                                           "lots", "inspections")}
+
+    def snapshot(self) -> dict[str, list[tuple]]:
+        """Every row of every table (for checks that nothing changed)."""
+        names = [r[0] for r in self.conn.execute(
+            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name")]
+        return {n: sorted(map(repr, self.conn.execute(f"SELECT * FROM [{n}]").fetchall()))
+                for n in names}
+
+    def existing(self, name: str, keys: list[tuple]) -> dict[tuple, tuple]:
+        """The stored rows (as tuples in TABLE_COLUMNS order) of the given keys."""
+        cols = TABLE_COLUMNS[name]
+        key_cols = KEYS[name]
+        out: dict[tuple, tuple] = {}
+        keys = list(dict.fromkeys(keys))
+        step = max(1, 900 // len(key_cols))
+        for i in range(0, len(keys), step):
+            chunk = keys[i:i + step]
+            if len(key_cols) == 1:
+                where = f"[{key_cols[0]}] IN ({', '.join('?' * len(chunk))})"
+                params = [k[0] for k in chunk]
+            else:
+                one = "(" + " AND ".join(f"[{c}] = ?" for c in key_cols) + ")"
+                where = " OR ".join([one] * len(chunk))
+                params = [v for k in chunk for v in k]
+            sel = ", ".join(f"[{c}]" for c in cols)
+            for row in self.conn.execute(f"SELECT {sel} FROM [{name}] WHERE {where}", params):
+                out[tuple(row[cols.index(c)] for c in key_cols)] = tuple(row)
+        return out
+
+    def keys_present(self, name: str, column: str, values: Iterable) -> set:
+        """Which of ``values`` are present in ``name.column``."""
+        values = list(dict.fromkeys(values))
+        found = set()
+        for i in range(0, len(values), 900):
+            chunk = values[i:i + 900]
+            q = f"SELECT [{column}] FROM [{name}] WHERE [{column}] IN ({', '.join('?' * len(chunk))})"
+            found.update(r[0] for r in self.conn.execute(q, chunk))
+        return found
+
+    # --- writes -------------------------------------------------------------------
+    def insert_rows(self, name: str, rows: list[tuple]) -> int:
+        """Insert rows (tuples in TABLE_COLUMNS order, without ``id`` for inspections)."""
+        if not rows:
+            return 0
+        cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
+        sql = (f"INSERT INTO [{name}] ({', '.join(f'[{c}]' for c in cols)}) "
+               f"VALUES ({', '.join('?' * len(cols))})")
+        self.conn.executemany(sql, rows)
+        return len(rows)
+
+    # --- lookups used by validation ---------------------------------------------
+    def patterns_info(self, codes: Iterable[str] | None = None) -> dict[str, dict]:
+        sql = ("SELECT p.pattern, p.alloy, p.castings_per_mold, p.casting_weight_kg "
+               "FROM patterns p")
+        rows = self.conn.execute(sql).fetchall() if codes is None else [
+            r for r in self.conn.execute(sql) if r[0] in set(codes)]
+        return {r[0]: {"alloy": r[1], "castings_per_mold": r[2], "casting_weight_kg": r[3]}
+                for r in rows}
+
+    def zone_levels(self, pattern: str | None = None) -> dict[tuple[str, str], int | None]:
+        q = "SELECT pattern, zone, required_xray_level FROM zones"
+        params: tuple = ()
+        if pattern is not None:
+            q += " WHERE pattern = ?"
+            params = (pattern,)
+        return {(r[0], r[1]): r[2] for r in self.conn.execute(q, params)}
+
+    def lots_info(self, lots: Iterable[str]) -> dict[str, dict]:
+        """pattern, poured_on and castings poured of each of ``lots`` that exists."""
+        lots = list(dict.fromkeys(lots))
+        out = {}
+        for i in range(0, len(lots), 900):
+            chunk = lots[i:i + 900]
+            q = ("SELECT l.lot, l.pattern, l.poured_on, l.molds * p.castings_per_mold "
+                 "FROM lots l JOIN patterns p ON p.pattern = l.pattern "
+                 f"WHERE l.lot IN ({', '.join('?' * len(chunk))})")
+            for r in self.conn.execute(q, chunk):
+                out[r[0]] = {"pattern": r[1], "poured_on": r[2], "castings": r[3]}
+        return out
+
+    def lot_totals(self, lots: Iterable[str], exclude: tuple = ()) -> dict[str, dict]:
+        """Per lot, the current records' rejected total and quantity per method.
+
+        ``exclude``: record ids to leave out (the record a correction replaces).
+        """
+        lots = list(dict.fromkeys(lots))
+        exclude = [int(x) for x in exclude]
+        skip = f" AND i.id NOT IN ({', '.join('?' * len(exclude))})" if exclude else ""
+        out: dict[str, dict] = {}
+        for i in range(0, len(lots), 900):
+            chunk = lots[i:i + 900]
+            q = ("SELECT i.lot, i.method, i.result, SUM(i.quantity) FROM inspections i "
+                 f"WHERE i.lot IN ({', '.join('?' * len(chunk))}) AND i.void = 0 "
+                 "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
+                 + skip + " GROUP BY i.lot, i.method, i.result")
+            for lot, method, result, qty in self.conn.execute(q, chunk + exclude):
+                d = out.setdefault(lot, {"rejected": 0, "methods": {}})
+                d["methods"][method] = d["methods"].get(method, 0) + qty
+                if result == "reject":
+                    d["rejected"] += qty
+        return out
+
+    # --- inspections --------------------------------------------------------------
+    def inspection(self, record_id: int) -> dict:
+        cur = self.conn.execute("SELECT * FROM inspections WHERE id = ?", (record_id,))
+        row = cur.fetchone()
+        if row is None:
+            raise NotFound("inspection record", record_id, "see `pourback history` for record ids")
+        return dict(zip([d[0] for d in cur.description], row))
+
+    def superseded_by(self, record_id: int) -> int | None:
+        r = self.conn.execute("SELECT id FROM inspections WHERE supersedes = ?", (record_id,)).fetchone()
+        return r[0] if r else None
+
+    def last_insert_id(self) -> int:
+        return self.conn.execute("SELECT last_insert_rowid()").fetchone()[0]
+
+    def inspections_history(self, lot: str | None = None, limit: int | None = None) -> pd.DataFrame:
+        """Every record, superseded ones included, with who superseded them."""
+        q = ("SELECT i.*, n.id AS superseded_by, n.recorded_by AS corrected_by, "
+             "n.recorded_at AS corrected_at, n.correction_reason AS correction_why "
+             "FROM inspections i LEFT JOIN inspections n ON n.supersedes = i.id")
+        params: list = []
+        if lot is not None:
+            q += " WHERE i.lot = ?"
+            params.append(lot)
+        q += " ORDER BY i.id DESC"
+        if limit:
+            q += " LIMIT ?"
+            params.append(int(limit))
+        return self._frame(q, params)
+
+    def current_inspections(self, start: str | None = None, end: str | None = None,
+                            pattern: str | None = None, lot: str | None = None) -> pd.DataFrame:
+        """Current (not superseded, not void) records, with the lot's pattern and pour date.
+
+        ``start``/``end`` bound the lot's pour date (ISO strings, inclusive).
+        """
+        where, params = self._lot_filter(start, end, pattern)
+        if lot is not None:
+            where.append("l.lot = ?")
+            params.append(lot)
+        q = ("SELECT i.id, i.lot, l.pattern, l.poured_on, i.inspected_on, i.method, i.quantity, "
+             "i.result, i.defect, i.zone, i.xray_category, i.severity, i.serial, i.inspector, "
+             "i.notes, i.recorded_at, i.recorded_by, i.source, i.supersedes "
+             "FROM inspections i JOIN lots l ON l.lot = i.lot "
+             "WHERE i.void = 0 AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
+             + "".join(" AND " + w for w in where) + " ORDER BY i.id")
+        return self._frame(q, params)
+
+    @staticmethod
+    def _lot_filter(start, end, pattern, alias: str = "l"):
+        where, params = [], []
+        if start is not None:
+            where.append(f"{alias}.poured_on >= ?")
+            params.append(str(start))
+        if end is not None:
+            where.append(f"{alias}.poured_on <= ?")
+            params.append(str(end))
+        if pattern is not None:
+            if isinstance(pattern, (list, tuple, set)):
+                pattern = list(pattern)
+                where.append(f"{alias}.pattern IN ({', '.join('?' * len(pattern))})")
+                params.extend(pattern)
+            else:
+                where.append(f"{alias}.pattern = ?")
+                params.append(pattern)
+        return where, params
+
+    def lots_frame(self, start: str | None = None, end: str | None = None,
+                   pattern=None) -> pd.DataFrame:
+        """Lots with their pattern's alloy, weights and costs and castings poured."""
+        where, params = self._lot_filter(start, end, pattern)
+        q = ("SELECT l.lot, l.pattern, l.poured_on, l.heat, l.molds, l.pour_temp_c, "
+             "l.molds * p.castings_per_mold AS castings, p.alloy, p.casting_weight_kg, "
+             "p.metal_cost_per_kg, p.processing_cost_per_casting "
+             "FROM lots l JOIN patterns p ON p.pattern = l.pattern"
+             + (" WHERE " + " AND ".join(where) if where else "") + " ORDER BY l.poured_on, l.lot")
+        return self._frame(q, params)
+
+    def poured_by_day(self, start: str | None = None, end: str | None = None,
+                      pattern=None) -> pd.DataFrame:
+        """Castings poured and lots per pattern and pour date (aggregated in SQL)."""
+        where, params = self._lot_filter(start, end, pattern)
+        q = ("SELECT l.pattern, l.poured_on, COUNT(*) AS lots, SUM(l.molds * p.castings_per_mold) "
+             "AS castings FROM lots l JOIN patterns p ON p.pattern = l.pattern"
+             + (" WHERE " + " AND ".join(where) if where else "")
+             + " GROUP BY l.pattern, l.poured_on")
+        return self._frame(q, params)
+
+    def rejects_by_day(self, start: str | None = None, end: str | None = None,
+                       pattern=None) -> pd.DataFrame:
+        """Current reject and rework quantities per pattern, pour date, result,
+        defect and zone (aggregated in SQL)."""
+        where, params = self._lot_filter(start, end, pattern)
+        q = ("SELECT l.pattern, l.poured_on, i.result, i.defect, i.zone, SUM(i.quantity) AS quantity "
+             "FROM lots l JOIN inspections i ON i.lot = l.lot "
+             "WHERE i.result != 'accept' AND i.void = 0 "
+             "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
+             + "".join(" AND " + w for w in where)
+             + " GROUP BY l.pattern, l.poured_on, i.result, i.defect, i.zone")
+        return self._frame(q, params)
+
+    def rejects_by_lot(self, start: str | None = None, end: str | None = None,
+                       pattern=None) -> pd.DataFrame:
+        """Current reject and rework quantities per lot, result, defect and zone."""
+        where, params = self._lot_filter(start, end, pattern)
+        q = ("SELECT i.lot, i.result, i.defect, i.zone, SUM(i.quantity) AS quantity "
+             "FROM lots l JOIN inspections i ON i.lot = l.lot "
+             "WHERE i.result != 'accept' AND i.void = 0 "
+             "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
+             + "".join(" AND " + w for w in where)
+             + " GROUP BY i.lot, i.result, i.defect, i.zone")
+        return self._frame(q, params)
+
+    def pour_span(self) -> tuple[str | None, str | None]:
+        r = self.conn.execute("SELECT MIN(poured_on), MAX(poured_on) FROM lots").fetchone()
+        return r[0], r[1]
+
+    # --- design -------------------------------------------------------------------
+    def risers_frame(self, pattern: str | None = None, revision: str | None = None) -> pd.DataFrame:
+        """Every riser of every revision joined with its zone, sleeve, pattern and alloy."""
+        where, params = [], []
+        if pattern is not None:
+            where.append("r.pattern = ?")
+            params.append(pattern)
+        if revision is not None:
+            where.append("r.revision = ?")
+            params.append(revision)
+        q = ("SELECT r.pattern, r.revision, v.effective_from, r.riser, r.zone, r.placement, r.top, "
+             "r.diameter_mm, r.height_mm, r.sleeve, r.neck_diameter_mm, "
+             "s.kind AS sleeve_kind, s.modulus_factor AS sleeve_factor, "
+             "s.feeding_efficiency AS sleeve_efficiency, s.unit_cost AS sleeve_unit_cost, "
+             "z.volume_cm3, z.cooling_area_cm2, z.thickness_mm, z.length_mm, z.required_xray_level, "
+             "p.alloy, p.casting_weight_kg, p.castings_per_mold, a.shrinkage, a.bare_efficiency, "
+             "a.density_kg_dm3, a.caine_a, a.caine_b, a.caine_c, "
+             "(SELECT COUNT(*) FROM risers r2 WHERE r2.pattern = r.pattern "
+             " AND r2.revision = r.revision AND r2.zone = r.zone) AS risers_on_zone "
+             "FROM risers r JOIN revisions v ON v.pattern = r.pattern AND v.revision = r.revision "
+             "JOIN zones z ON z.pattern = r.pattern AND z.zone = r.zone "
+             "JOIN patterns p ON p.pattern = r.pattern JOIN alloys a ON a.alloy = p.alloy "
+             "LEFT JOIN sleeves s ON s.sleeve = r.sleeve"
+             + (" WHERE " + " AND ".join(where) if where else "")
+             + " ORDER BY r.pattern, v.effective_from, r.revision, r.riser")
+        return self._frame(q, params)
+
+    def revisions_frame(self, pattern: str | None = None) -> pd.DataFrame:
+        q = "SELECT pattern, revision, effective_from FROM revisions"
+        params: tuple = ()
+        if pattern is not None:
+            q += " WHERE pattern = ?"
+            params = (pattern,)
+        return self._frame(q + " ORDER BY pattern, effective_from, revision", params)
+
+    def pattern(self, code: str) -> dict:
+        cur = self.conn.execute("SELECT * FROM patterns WHERE pattern = ?", (code,))
+        row = cur.fetchone()
+        if row is None:
+            raise NotFound("pattern", code, "see `pourback patterns` for the patterns in the log")
+        return dict(zip([d[0] for d in cur.description], row))
+
+    def lot(self, code: str) -> dict:
+        cur = self.conn.execute("SELECT l.*, l.molds * p.castings_per_mold AS castings "
+                                "FROM lots l JOIN patterns p ON p.pattern = l.pattern WHERE l.lot = ?",
+                                (code,))
+        row = cur.fetchone()
+        if row is None:
+            raise NotFound("lot", code, "import or log the lot first")
+        return dict(zip([d[0] for d in cur.description], row))
+
+    def lot_codes(self, limit: int = 500) -> list[str]:
+        return [r[0] for r in self.conn.execute(
+            "SELECT lot FROM lots ORDER BY poured_on DESC, lot DESC LIMIT ?", (limit,))]
+
+    # --- model --------------------------------------------------------------------
+    def save_model(self, blob: bytes, rows: int, castings: int, data_until: str | None) -> int:
+        with self.write():
+            self.conn.execute("INSERT INTO models (fitted_at, rows, castings, data_until, blob) "
+                              "VALUES (?, ?, ?, ?, ?)",
+                              (dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"),
+                               rows, castings, data_until, blob))
+            return self.last_insert_id()
+
+    def latest_model(self) -> dict | None:
+        cur = self.conn.execute("SELECT id, fitted_at, rows, castings, data_until, blob FROM models "
+                                "ORDER BY id DESC LIMIT 1")
+        row = cur.fetchone()
+        return None if row is None else dict(zip([d[0] for d in cur.description], row))
+
+    # --- maintenance --------------------------------------------------------------
+    def backup(self, dest: str | os.PathLike) -> None:
+        """Copy the log with SQLite's online backup (safe while others write)."""
+        dest = pathlib.Path(dest)
+        if dest.exists():
+            raise PourbackError(f"backup file {dest} exists already; choose a new name")
+        target = sqlite3.connect(str(dest))
+        try:
+            self.conn.backup(target, pages=1024, sleep=0.005)
+        finally:
+            target.close()
+
+    def integrity_check(self) -> str:
+        return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
+
+
+def restore(backup_file: str | os.PathLike, dest: str | os.PathLike) -> None:
+    """Restore a backup into ``dest`` (which must not exist), checking it first."""
+    src = sqlite3.connect(str(backup_file))
+    try:
+        ok = src.execute("PRAGMA integrity_check").fetchone()[0]
+        if ok != "ok":
+            raise PourbackError(f"backup {backup_file} fails its integrity check: {ok}")
+        if pathlib.Path(dest).exists():
+            raise PourbackError(f"{dest} exists already; restore into a new file")
+        target = sqlite3.connect(str(dest))
+        try:
+            src.backup(target)
+        finally:
+            target.close()
+    finally:
+        src.close()
