@@ -28,7 +28,7 @@ from tracker.errors import NotFound, PourbackError
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 BUSY_TIMEOUT_MS = 30_000
 
 # Column order of each import kind's table, as stored.
@@ -146,7 +146,11 @@ def _migration_1(db: sqlite_utils.Database) -> None:
         })
 
 
-MIGRATIONS = [_migration_1]  # index i brings the schema from version i to i + 1
+def _migration_2(db: sqlite_utils.Database) -> None:
+    db["meta"].create({"key": str, "value": str}, pk="key")
+
+
+MIGRATIONS = [_migration_1, _migration_2]  # index i brings the schema from version i to i + 1
 
 
 # --- the store --------------------------------------------------------------------
@@ -465,6 +469,45 @@ class Store:
              + " GROUP BY i.lot, i.result, i.defect, i.zone")
         return self._frame(q, params)
 
+    def pours_by_day(self, start: str | None = None, end: str | None = None,
+                     pattern=None) -> pd.DataFrame:
+        """Lots and castings poured per pattern and pour date, and how many of
+        them have been inspected (aggregated in SQL).
+
+        A lot counts as inspected when it holds at least one current (not
+        superseded, not void) inspection record; ``inspected_castings`` is the
+        castings poured in such lots, the denominator of the review's reject
+        rates. ``start``/``end`` bound the pour date (ISO strings, inclusive);
+        ``pattern`` is one code or a list of codes.
+        """
+        where, params = self._lot_filter(start, end, pattern)
+        q = ("SELECT pattern, poured_on, COUNT(*) AS lots, SUM(castings) AS castings, "
+             "SUM(seen) AS inspected_lots, SUM(seen * castings) AS inspected_castings FROM ("
+             "SELECT l.pattern, l.poured_on, l.molds * p.castings_per_mold AS castings, "
+             "EXISTS (SELECT 1 FROM inspections i WHERE i.lot = l.lot AND i.void = 0 "
+             "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)) AS seen "
+             "FROM lots l JOIN patterns p ON p.pattern = l.pattern"
+             + (" WHERE " + " AND ".join(where) if where else "")
+             + ") GROUP BY pattern, poured_on")
+        return self._frame(q, params)
+
+    def reject_notes(self, start: str | None = None, end: str | None = None, pattern=None,
+                     per_pattern: int = 5) -> pd.DataFrame:
+        """The newest non-empty notes of current reject and rework records, at
+        most ``per_pattern`` per pattern, for lots poured from ``start`` to
+        ``end`` (ISO strings, inclusive)."""
+        where, params = self._lot_filter(start, end, pattern)
+        q = ("SELECT pattern, lot, poured_on, result, defect, zone, quantity, notes FROM ("
+             "SELECT l.pattern, l.lot, l.poured_on, i.result, i.defect, i.zone, i.quantity, "
+             "i.notes, ROW_NUMBER() OVER (PARTITION BY l.pattern "
+             "ORDER BY l.poured_on DESC, i.id DESC) AS k "
+             "FROM lots l JOIN inspections i ON i.lot = l.lot "
+             "WHERE i.result != 'accept' AND i.void = 0 AND TRIM(COALESCE(i.notes, '')) != '' "
+             "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
+             + "".join(" AND " + w for w in where)
+             + ") WHERE k <= ? ORDER BY pattern, k")
+        return self._frame(q, [*params, int(per_pattern)])
+
     def pour_span(self) -> tuple[str | None, str | None]:
         r = self.conn.execute("SELECT MIN(poured_on), MAX(poured_on) FROM lots").fetchone()
         return r[0], r[1]
@@ -523,6 +566,16 @@ class Store:
     def lot_codes(self, limit: int = 500) -> list[str]:
         return [r[0] for r in self.conn.execute(
             "SELECT lot FROM lots ORDER BY poured_on DESC, lot DESC LIMIT ?", (limit,))]
+
+    # --- meta ---------------------------------------------------------------------
+    def get_meta(self, key: str, default: str | None = None) -> str | None:
+        row = self.conn.execute("SELECT value FROM meta WHERE key = ?", (key,)).fetchone()
+        return default if row is None else row[0]
+
+    def set_meta(self, key: str, value: str) -> None:
+        with self.write():
+            self.conn.execute("INSERT INTO meta (key, value) VALUES (?, ?) "
+                              "ON CONFLICT(key) DO UPDATE SET value = excluded.value", (key, value))
 
     # --- model --------------------------------------------------------------------
     def save_model(self, blob: bytes, rows: int, castings: int, data_until: str | None) -> int:
