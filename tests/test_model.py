@@ -255,7 +255,7 @@ def test_more_penalty_pulls_toward_prior(history):
     lots, zones = history
     gaps = []
     for alpha in (0.1, 1e3, 1e7):
-        m = ShrinkageRejectModel(alpha=alpha, prior_rate=0.05, prior_slopes=WRONG_PRIOR).fit(lots)
+        m = ShrinkageRejectModel(alpha=alpha, offset_alpha=alpha, prior_rate=0.05, prior_slopes=WRONG_PRIOR).fit(lots)
         gaps.append(_logit_gap(m.predict_rate(zones), m.predict_prior(zones)))
     assert gaps[0] > gaps[1] > gaps[2]
     assert gaps[2] < 0.05

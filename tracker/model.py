@@ -188,6 +188,13 @@ class ShrinkageRejectModel(BaseEstimator):
         the fit maximises  Σ_rows [r·ln p + (n − r)·ln(1 − p)]
         − alpha/2 · Σ_terms (θ − θ_prior)².  A shop with a few dozen castings
         gets close to the prior; with thousands the data decides.
+    offset_alpha : float, default 5000.0
+        Penalty of the alloy and sleeve-kind offsets, in castings. Much
+        heavier than ``alpha``: a shop has few patterns per category, so an
+        offset would mostly learn one pattern's trouble (an undersized
+        exothermic sleeve would make every exothermic sleeve look bad). The
+        sleeve's real effect already enters through the margins (its modulus
+        factor and feeding efficiency).
     prior_rate : float in (0, 1) or None, default None
         Shrinkage reject rate of a zone whose riser passes every rule. None
         takes the shop's own rate on the training rows that pass every rule
@@ -228,9 +235,10 @@ class ShrinkageRejectModel(BaseEstimator):
     converged_ : whether the solver reported success
     """
 
-    def __init__(self, *, alpha=10.0, prior_rate=None, prior_slopes=None,
+    def __init__(self, *, alpha=10.0, offset_alpha=5000.0, prior_rate=None, prior_slopes=None,
                  modulus_target=DEFAULT_MODULUS_FACTOR, freezing_target=1.0, tol=1e-9):
         self.alpha = alpha
+        self.offset_alpha = offset_alpha
         self.prior_rate = prior_rate
         self.prior_slopes = prior_slopes
         self.modulus_target = modulus_target
@@ -241,6 +249,7 @@ class ShrinkageRejectModel(BaseEstimator):
 
     def _check_params(self):
         check_scalar(self.alpha, "alpha", Real, min_val=0.0, include_boundaries="left")
+        check_scalar(self.offset_alpha, "offset_alpha", Real, min_val=0.0, include_boundaries="left")
         check_scalar(self.modulus_target, "modulus_target", Real, min_val=0.0,
                      include_boundaries="neither")
         check_scalar(self.freezing_target, "freezing_target", Real, min_val=0.0,
@@ -333,7 +342,9 @@ class ShrinkageRejectModel(BaseEstimator):
         theta0 = np.concatenate([[self.prior_intercept_], self.prior_coef_])
         A = np.column_stack([np.ones(len(D)), D])
         total = castings.sum()
-        alpha = float(self.alpha)
+        n_offsets = len(self.alloys_) + len(self.sleeve_kinds_)
+        alpha = np.full(len(theta0), float(self.alpha))
+        alpha[len(theta0) - n_offsets:] = float(self.offset_alpha)
 
         # Objective divided by the total castings so the solver sees numbers
         # near 1 whatever the size of the history; the optimum is unchanged.
@@ -342,7 +353,7 @@ class ShrinkageRejectModel(BaseEstimator):
             nll = (castings * np.logaddexp(0.0, eta) - rejects * eta).sum()
             diff = theta - theta0
             grad = A.T @ (castings * expit(eta) - rejects) + alpha * diff
-            return (nll + 0.5 * alpha * diff @ diff) / total, grad / total
+            return (nll + 0.5 * (alpha * diff) @ diff) / total, grad / total
 
         bounds = [(None, None)] + [(0.0, None)] * n_short + [(None, None)] * (D.shape[1] - n_short)
         res = minimize(objective, theta0, jac=True, method="L-BFGS-B", bounds=bounds,

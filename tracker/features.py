@@ -1,0 +1,126 @@
+"""Feature tables: each lot's riser zones with the design that was in the mould.
+
+A lot is judged against the riser revision in effect on its pour date. Each
+riser of that revision is assessed by the rules (``tracker.assess``); a zone
+fed by several risers takes the weakest riser's margins. Shrinkage rejects
+are counted per lot and zone (result ``reject``, defect ``shrinkage``);
+shrinkage rejects logged without a zone cannot be tied to a riser and are
+left out of the zone tables (they still count in the review).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from tracker.assess import assess_frame
+from tracker.stats import wilson_interval
+from tracker.store import Store
+
+MARGIN_COLS = ["modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "freezing_ratio"]
+FEATURE_COLUMNS = [
+    "lot", "pattern", "revision", "zone", "riser", "poured_on", "alloy", "castings", "shrinkage_rejects",
+    "modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "freezing_ratio", "sleeve_kind",
+    "pour_temp_dev_c", "thickness_mm", "passes",
+]
+
+
+def zone_design(store: Store, pattern=None) -> pd.DataFrame:
+    """Per pattern, revision and zone: the weakest riser's assessed margins."""
+    risers = store.risers_frame(pattern=pattern if isinstance(pattern, str) else None)
+    if risers.empty:
+        return pd.DataFrame(columns=["pattern", "revision", "effective_from", "zone", "riser", "alloy",
+                                     "sleeve_kind", "thickness_mm", "passes"] + MARGIN_COLS)
+    a = assess_frame(risers)
+    a["thickness_mm"] = risers["thickness_mm"].astype(float).to_numpy()
+    a["caine_sort"] = a["caine_margin"].fillna(np.inf)
+    a = a.sort_values(["pattern", "revision", "zone", "caine_sort", "modulus_ratio"])
+    g = a.groupby(["pattern", "revision", "zone"], sort=False)
+    out = g.agg(effective_from=("effective_from", "first"), alloy=("alloy", "first"),
+                riser=("riser", lambda s: "+".join(sorted(s))), sleeve_kind=("sleeve_kind", "first"),
+                thickness_mm=("thickness_mm", "first"), passes=("passes", "all"),
+                modulus_ratio=("modulus_ratio", "min"), caine_margin=("caine_margin", "min"),
+                feed_margin=("feed_margin", "min"), volume_ratio=("volume_ratio", "min"),
+                freezing_ratio=("freezing_ratio", "min")).reset_index()
+    return out
+
+
+def _lots_with_revision(store: Store, start, end, pattern) -> pd.DataFrame:
+    lots = store.lots_frame(start, end, pattern)
+    revs = store.revisions_frame()
+    if lots.empty or revs.empty:
+        return lots.assign(revision=pd.Series(dtype=object))
+    lots = lots.assign(_d=pd.to_datetime(lots["poured_on"]))
+    revs = revs.assign(_d=pd.to_datetime(revs["effective_from"]))
+    merged = pd.merge_asof(lots.sort_values("_d"), revs.sort_values("_d")[["pattern", "revision", "_d"]],
+                           on="_d", by="pattern", direction="backward")
+    return merged.drop(columns="_d")
+
+
+def zone_lot_features(store: Store, start: str | None = None, end: str | None = None,
+                      pattern=None) -> pd.DataFrame:
+    """One row per lot and riser zone, the model's feature table (FEATURE_COLUMNS).
+
+    Lots poured before the pattern's first riser revision are left out (no
+    design known). pour_temp_dev_c is the lot's pour temperature less the
+    pattern's median, °C.
+    """
+    lots = _lots_with_revision(store, start, end, pattern)
+    lots = lots[lots["revision"].notna()] if "revision" in lots else lots.iloc[0:0]
+    design = zone_design(store)
+    if lots.empty or design.empty:
+        return pd.DataFrame(columns=FEATURE_COLUMNS)
+    temp = lots["pour_temp_c"].astype(float)
+    lots = lots.assign(pour_temp_dev_c=temp - temp.groupby(lots["pattern"]).transform("median"))
+    rows = lots[["lot", "pattern", "revision", "poured_on", "castings", "pour_temp_dev_c"]].merge(
+        design.drop(columns=["effective_from"]), on=["pattern", "revision"])
+    rej = store.rejects_by_lot(start, end, pattern)
+    rej = rej[(rej["result"] == "reject") & (rej["defect"] == "shrinkage") & rej["zone"].notna()]
+    rej = rej.groupby(["lot", "zone"], as_index=False)["quantity"].sum().rename(
+        columns={"quantity": "shrinkage_rejects"})
+    rows = rows.merge(rej, on=["lot", "zone"], how="left")
+    rows["shrinkage_rejects"] = rows["shrinkage_rejects"].fillna(0).astype(np.int64)
+    rows["castings"] = rows["castings"].astype(np.int64)
+    return rows[FEATURE_COLUMNS].reset_index(drop=True)
+
+
+def aggregate_for_fit(features: pd.DataFrame, temp_bin_c: float = 5.0) -> pd.DataFrame:
+    """Fewer, heavier rows for fitting: lots of one pattern, revision and zone
+    with pour temperatures in the same bin share every feature, so their
+    castings and rejects can be summed without changing the likelihood's
+    information about the design terms."""
+    if features.empty:
+        return features
+    f = features.copy()
+    f["_tbin"] = np.round(f["pour_temp_dev_c"].fillna(0.0) / temp_bin_c) * temp_bin_c
+    keys = ["pattern", "revision", "zone", "_tbin"]
+    first = {c: "first" for c in ["riser", "alloy", "sleeve_kind", "thickness_mm", "passes"] + MARGIN_COLS}
+    out = f.groupby(keys, as_index=False).agg(castings=("castings", "sum"),
+                                              shrinkage_rejects=("shrinkage_rejects", "sum"),
+                                              poured_on=("poured_on", "max"), **{
+                                                  k: (k, v) for k, v in first.items()})
+    return out.rename(columns={"_tbin": "pour_temp_dev_c"})
+
+
+def design_map(store: Store, start: str | None = None, end: str | None = None, alloy=None,
+               pattern=None) -> pd.DataFrame:
+    """Per pattern, revision and zone: design point (volume ratio, freezing
+    ratio), castings poured and shrinkage reject rate with its Wilson interval."""
+    f = zone_lot_features(store, start, end, pattern)
+    cols = ["pattern", "revision", "zone", "riser", "alloy", "volume_ratio", "freezing_ratio",
+            "modulus_ratio", "caine_margin", "feed_margin", "passes", "sleeve_kind", "lots", "castings",
+            "shrinkage_rejects", "shrinkage_rate", "wilson_low", "wilson_high"]
+    if f.empty:
+        return pd.DataFrame(columns=cols)
+    if alloy:
+        f = f[f["alloy"].isin([alloy] if isinstance(alloy, str) else list(alloy))]
+    g = f.groupby(["pattern", "revision", "zone"], as_index=False).agg(
+        riser=("riser", "first"), alloy=("alloy", "first"), volume_ratio=("volume_ratio", "first"),
+        freezing_ratio=("freezing_ratio", "first"), modulus_ratio=("modulus_ratio", "first"),
+        caine_margin=("caine_margin", "first"), feed_margin=("feed_margin", "first"),
+        passes=("passes", "first"), sleeve_kind=("sleeve_kind", "first"), lots=("lot", "count"),
+        castings=("castings", "sum"), shrinkage_rejects=("shrinkage_rejects", "sum"))
+    g["shrinkage_rate"] = g["shrinkage_rejects"] / g["castings"]
+    lo, hi = wilson_interval(g["shrinkage_rejects"].to_numpy(), g["castings"].to_numpy())
+    g["wilson_low"], g["wilson_high"] = lo, hi
+    return g[cols]
