@@ -78,7 +78,8 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
     out = pd.DataFrame({k: df[k].to_numpy() if k in df else None for k in
                         ("pattern", "revision", "effective_from", "riser", "zone", "alloy", "placement",
                          "top", "diameter_mm", "height_mm", "sleeve", "sleeve_kind")})
-    out["sleeve_kind"] = out["sleeve_kind"].fillna("none") if "sleeve_kind" in out else "none"
+    kind = out["sleeve_kind"].astype(object)
+    out["sleeve_kind"] = kind.where(kind.notna(), "none")
     out["sleeve_factor"] = f
     out["efficiency"] = eff
     out["shrinkage"] = beta
