@@ -249,7 +249,17 @@ class Store:
         return self._frame(f"SELECT * FROM [{name}] ORDER BY {order}")
 
     def count(self, name: str) -> int:
+        # A table name cannot be a parameter: take only the log's own tables.
+        known = {r[0] for r in self.conn.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
+        if name not in known:
+            raise NotFound("table", name)
         return self.conn.execute(f"SELECT COUNT(*) FROM [{name}]").fetchone()[0]
+
+    def has_rows(self, name: str) -> bool:
+        """Whether table ``name`` (one of the import kinds) holds any row."""
+        if name not in TABLE_COLUMNS:
+            raise NotFound("table", name)
+        return self.conn.execute(f"SELECT EXISTS (SELECT 1 FROM [{name}])").fetchone()[0] == 1
 
     def counts(self) -> dict[str, int]:
         return {t: self.count(t) for t in ("patterns", "zones", "sleeves", "revisions", "risers",
@@ -292,6 +302,18 @@ class Store:
             q = f"SELECT [{column}] FROM [{name}] WHERE [{column}] IN ({', '.join('?' * len(chunk))})"
             found.update(r[0] for r in self.conn.execute(q, chunk))
         return found
+
+    def iter_rows(self, name: str, size: int = 100_000) -> Iterator[list[tuple]]:
+        """Every row of ``name`` as :meth:`insert_rows` takes them (TABLE_COLUMNS
+        order, without ``id`` for inspections), in key order, ``size`` at a time."""
+        cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
+        order = ", ".join(KEYS[name]) if name != "inspections" else "id"
+        cur = self.conn.execute(f"SELECT {', '.join(f'[{c}]' for c in cols)} FROM [{name}] ORDER BY {order}")
+        while True:
+            batch = cur.fetchmany(size)
+            if not batch:
+                return
+            yield batch
 
     # --- writes -------------------------------------------------------------------
     def insert_rows(self, name: str, rows: list[tuple]) -> int:
@@ -481,15 +503,52 @@ class Store:
         ``pattern`` is one code or a list of codes.
         """
         where, params = self._lot_filter(start, end, pattern)
-        q = ("SELECT pattern, poured_on, COUNT(*) AS lots, SUM(castings) AS castings, "
-             "SUM(seen) AS inspected_lots, SUM(seen * castings) AS inspected_castings FROM ("
-             "SELECT l.pattern, l.poured_on, l.molds * p.castings_per_mold AS castings, "
-             "EXISTS (SELECT 1 FROM inspections i WHERE i.lot = l.lot AND i.void = 0 "
-             "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)) AS seen "
-             "FROM lots l JOIN patterns p ON p.pattern = l.pattern"
-             + (" WHERE " + " AND ".join(where) if where else "")
-             + ") GROUP BY pattern, poured_on")
-        return self._frame(q, params)
+        cond = " AND ".join(where) or "1"
+        # All lots per pattern and day, less the few with no current record yet (a NOT
+        # EXISTS that stops at a lot's first record): half the work of joining every
+        # record to its lot. Castings per mold are applied per group, not per lot.
+        q = ("SELECT a.pattern, a.poured_on, a.lots, a.molds * p.castings_per_mold AS castings, "
+             "a.lots - COALESCE(u.lots, 0) AS inspected_lots, "
+             "(a.molds - COALESCE(u.molds, 0)) * p.castings_per_mold AS inspected_castings FROM ("
+             f"SELECT l.pattern, l.poured_on, COUNT(*) AS lots, SUM(l.molds) AS molds FROM lots l WHERE {cond} "
+             "GROUP BY l.pattern, l.poured_on) a LEFT JOIN ("
+             f"SELECT l.pattern, l.poured_on, COUNT(*) AS lots, SUM(l.molds) AS molds FROM lots l WHERE {cond} "
+             "AND NOT EXISTS (SELECT 1 FROM inspections i WHERE i.lot = l.lot AND i.void = 0 "
+             "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)) "
+             "GROUP BY l.pattern, l.poured_on) u ON u.pattern = a.pattern AND u.poured_on = a.poured_on "
+             "JOIN patterns p ON p.pattern = a.pattern")
+        return self._frame(q, [*params, *params])
+
+    def poured_patterns(self, start: str, end: str) -> pd.DataFrame:
+        """Every column of the patterns poured from ``start`` to ``end`` (ISO
+        strings, inclusive), in code order."""
+        return self._frame("SELECT p.* FROM patterns p WHERE p.pattern IN (SELECT l.pattern FROM lots l "
+                           "WHERE l.poured_on >= ? AND l.poured_on <= ?) ORDER BY p.pattern",
+                           (str(start), str(end)))
+
+    def revision_steps(self, start: str, end: str) -> pd.DataFrame:
+        """Revisions taking effect from ``start`` to ``end`` (ISO strings, inclusive),
+        each with the revision before it (``previous``, ``previous_from``) and the
+        date the next one takes effect (``next_from``); None where there is none."""
+        q = ("SELECT pattern, revision, effective_from, previous, previous_from, next_from FROM ("
+             "SELECT pattern, revision, effective_from, "
+             "LAG(revision) OVER w AS previous, LAG(effective_from) OVER w AS previous_from, "
+             "LEAD(effective_from) OVER w AS next_from FROM revisions "
+             "WINDOW w AS (PARTITION BY pattern ORDER BY effective_from, revision)) "
+             "WHERE effective_from >= ? AND effective_from <= ? ORDER BY pattern, effective_from, revision")
+        return self._frame(q, (str(start), str(end)))
+
+    def riser_designs(self, patterns: Iterable[str]) -> pd.DataFrame:
+        """The stored risers (every revision) of ``patterns``, without joins."""
+        codes = list(dict.fromkeys(patterns))
+        frames = [self._frame("SELECT pattern, revision, riser, zone, placement, top, diameter_mm, height_mm, "
+                              f"sleeve, neck_diameter_mm FROM risers WHERE pattern IN ({', '.join('?' * len(chunk))}) "
+                              "ORDER BY pattern, revision, riser", chunk)
+                  for chunk in (codes[i:i + 900] for i in range(0, len(codes), 900))]
+        if not frames:
+            return self._frame("SELECT pattern, revision, riser, zone, placement, top, diameter_mm, height_mm, "
+                               "sleeve, neck_diameter_mm FROM risers WHERE 0")
+        return pd.concat(frames, ignore_index=True)
 
     def reject_notes(self, start: str | None = None, end: str | None = None, pattern=None,
                      per_pattern: int = 5) -> pd.DataFrame:
@@ -511,6 +570,31 @@ class Store:
     def pour_span(self) -> tuple[str | None, str | None]:
         r = self.conn.execute("SELECT MIN(poured_on), MAX(poured_on) FROM lots").fetchone()
         return r[0], r[1]
+
+    def rejects_by_pattern(self, start: str, end: str) -> pd.DataFrame:
+        """Castings rejected (current records) per pattern in lots poured from
+        ``start`` to ``end`` (ISO strings, inclusive): one plain aggregate, the
+        floor the scale benchmark holds the weekly review against."""
+        # The lots of the week (by the pour-date index) drive: left to itself, SQLite
+        # without statistics scans every record (taking result = 'reject' as selective)
+        # or every lot (in pattern order, to save the GROUP BY sort).
+        q = ("SELECT l.pattern, SUM(i.quantity) AS rejected "
+             "FROM lots l INDEXED BY lots_poured_on CROSS JOIN inspections i ON i.lot = l.lot "
+             "WHERE l.poured_on >= ? AND l.poured_on <= ? AND i.result = 'reject' AND i.void = 0 "
+             "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id) "
+             "GROUP BY l.pattern")
+        return self._frame(q, (str(start), str(end)))
+
+    def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
+        """SQLite's plan for one statement (EXPLAIN QUERY PLAN), one line per step,
+        indented by depth."""
+        rows = self.conn.execute("EXPLAIN QUERY PLAN " + sql, tuple(params)).fetchall()
+        depth: dict[int, int] = {0: -1}
+        out = []
+        for node, parent, _, detail in rows:
+            depth[node] = depth.get(parent, -1) + 1
+            out.append("  " * depth[node] + detail)
+        return out
 
     # --- design -------------------------------------------------------------------
     def risers_frame(self, pattern: str | None = None, revision: str | None = None) -> pd.DataFrame:
@@ -598,11 +682,16 @@ class Store:
         dest = pathlib.Path(dest)
         if dest.exists():
             raise PourbackError(f"backup file {dest} exists already; choose a new name")
-        target = sqlite3.connect(str(dest))
         try:
-            self.conn.backup(target, pages=1024, sleep=0.005)
-        finally:
-            target.close()
+            target = sqlite3.connect(str(dest))
+            try:
+                self.conn.backup(target, pages=1024, sleep=0.005)
+            finally:
+                target.close()
+        except sqlite3.Error as exc:
+            dest.unlink(missing_ok=True)  # never leave a half-written backup behind
+            raise PourbackError(f"could not write the backup {dest} ({exc}); check that its folder "
+                                "exists and has room") from None
 
     def integrity_check(self) -> str:
         return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
@@ -610,17 +699,32 @@ class Store:
 
 def restore(backup_file: str | os.PathLike, dest: str | os.PathLike) -> None:
     """Restore a backup into ``dest`` (which must not exist), checking it first."""
-    src = sqlite3.connect(str(backup_file))
+    if pathlib.Path(dest).exists():
+        raise PourbackError(f"{dest} exists already; restore into a new file")
+    # Read-only: checking a backup must never change it.
+    src = sqlite3.connect(pathlib.Path(backup_file).resolve().as_uri() + "?mode=ro", uri=True)
     try:
-        ok = src.execute("PRAGMA integrity_check").fetchone()[0]
+        try:
+            ok = src.execute("PRAGMA integrity_check").fetchone()[0]
+            tables = {r[0] for r in src.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
+            version = src.execute("PRAGMA user_version").fetchone()[0]
+        except sqlite3.DatabaseError as exc:
+            raise PourbackError(f"backup {backup_file} is not a readable SQLite database ({exc}); "
+                                "give a file written by `pourback backup`") from None
         if ok != "ok":
             raise PourbackError(f"backup {backup_file} fails its integrity check: {ok}")
-        if pathlib.Path(dest).exists():
-            raise PourbackError(f"{dest} exists already; restore into a new file")
-        target = sqlite3.connect(str(dest))
+        if version < 1 or "inspections" not in tables:
+            raise PourbackError(f"backup {backup_file} is an SQLite database but not a pourback log; "
+                                "give a file written by `pourback backup`")
         try:
-            src.backup(target)
-        finally:
-            target.close()
+            target = sqlite3.connect(str(dest))
+            try:
+                src.backup(target)
+            finally:
+                target.close()
+        except sqlite3.Error as exc:
+            pathlib.Path(dest).unlink(missing_ok=True)
+            raise PourbackError(f"could not write {dest} ({exc}); check that its folder exists "
+                                "and has room") from None
     finally:
         src.close()

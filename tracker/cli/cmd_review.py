@@ -1,0 +1,58 @@
+"""Review command: the weekly scrap review as text, Markdown, HTML, CSV or JSON."""
+
+from __future__ import annotations
+
+import pathlib
+
+import click
+
+from tracker.cli import db_option, emit, handle_errors, main, open_store
+from tracker.report import FORMATS
+
+
+@main.command()
+@click.option("--week", default=None, metavar="YYYY-Www",
+              help="ISO week to review, e.g. 2026-W47 (default: the week of the latest pour).")
+@click.option("--weeks", type=click.IntRange(1, 520), default=13, show_default=True,
+              help="Weeks of history in the window, the review week included.")
+@click.option("--target", type=float, default=0.02, show_default=True,
+              help="Target reject rate as a fraction (0.02 = 2 %); a pattern whose rate is "
+                   "surely above it is flagged.")
+@click.option("--format", "fmt", type=click.Choice(FORMATS), default=None,
+              help="Output format [default: table].")
+@click.option("--json", "as_json", is_flag=True, help="Shorthand for --format json.")
+@click.option("--out", "out_path", type=click.Path(dir_okay=False, writable=True), default=None,
+              help="Write the review to this file instead of standard output.")
+@db_option
+@handle_errors
+def review(week, weeks, target, fmt, as_json, out_path, db_path):
+    """Weekly scrap review: scrap by pattern and defect, trend, control, riser revisions.
+
+    Figures cover the review week and the weeks before it; problem patterns
+    are those signalling on their weekly p-chart in the latest two weeks, or
+    whose reject or shrinkage rate is surely above the target.
+
+    Example:
+
+        pourback review --week 2026-W47 --format html --out review-2026-W47.html
+    """
+    if as_json and fmt not in (None, "json"):
+        raise click.UsageError(f"--json asks for JSON but --format asks for {fmt}; give only one")
+    fmt = "json" if as_json else (fmt or "table")
+
+    from tracker.report import render
+    from tracker.review import weekly_review
+
+    with open_store(db_path) as store:
+        data = weekly_review(store, week=week, weeks=weeks, target=target)
+    text = render(data, fmt)
+    if out_path:
+        path = pathlib.Path(out_path)
+        try:
+            path.write_text(text, encoding="utf-8")
+        except OSError as exc:
+            raise click.ClickException(f"cannot write {path}: {exc.strerror}; check the folder exists "
+                                       "and is writable") from None
+        emit(f"Wrote the {fmt} review of {data['week']} to {path}", False)
+    else:
+        emit(text.rstrip("\n"), False)
