@@ -129,6 +129,7 @@ def open_store(db_path, create: bool = False):
 from tracker.cli import cmd_design  # noqa: E402,F401
 from tracker.cli import cmd_log  # noqa: E402,F401
 from tracker.cli import cmd_advise  # noqa: E402,F401
+from tracker.cli import cmd_review  # noqa: E402,F401
 
 if __name__ == "__main__":  # pragma: no cover
     main(prog_name="pourback")
