@@ -289,8 +289,12 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
             reason = (f"no riser change: {by_defect.iat[0]} of {total_rej} rejects are {dominant}, "
                       f"not shrinkage; {DEFECT_POINTERS.get(dominant, '')}")
         else:
-            reason = ("no riser change: shrinkage rejects are spread thin or not tied to a zone; log the "
-                      "zone on each shrinkage reject so it can be traced to a riser")
+            mix = ", ".join(f"{d} {int(q)}" for d, q in by_defect.items())
+            zoned = ", ".join(f"{zn} {r['shrinkage_rejects'] / r['castings']:.1%}"
+                              for zn, r in zones.iterrows() if r["castings"])
+            reason = (f"no riser change: no zone's shrinkage rate is above the target {target:.1%} "
+                      f"(by zone: {zoned or 'no shrinkage reject logged with a zone'}); the rejects are "
+                      f"mixed ({mix}). Log the zone on each shrinkage reject so it can be traced to a riser")
         return [{**base_out, **_empty_fields(), "revision": rev,
                  "action": "no_riser_change", "reject_rate": total_rej / poured if poured else None,
                  "dominant_defect": dominant, "yield_before": yield_before, "yield_after": yield_before,
