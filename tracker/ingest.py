@@ -11,10 +11,11 @@ Rows are numbered as a spreadsheet shows them: the header is row 1.
 
 from __future__ import annotations
 
+import codecs
 import csv
 import datetime as dt
 import hashlib
-import io
+import itertools
 import os
 import pathlib
 import re
@@ -89,19 +90,15 @@ def _read_chunks(path: pathlib.Path, kind: str, chunk_rows: int) -> Iterator[pd.
         return
     if suffix not in (".csv", ".txt", ""):
         raise BadFile(name, [], f"{name}: unknown file type {suffix!r}; use .csv or .xlsx")
-    raw = path.read_bytes()
-    if not raw.strip():
-        raise BadFile(name, [], f"{name}: the file is empty; it needs a header row and data rows")
+    # The file is streamed (never held whole in memory): a text check, the shape
+    # check, then pandas reading it in chunks.
+    _check_text(name, path)
+    width = _check_shape(name, kind, path)
     try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[:exc.start].count(b"\n") + 1
-        raise BadFile(name, [], f"{name}, row {line}: byte 0x{raw[exc.start]:02x} is not UTF-8 text; "
-                                "save the file as UTF-8 (CSV UTF-8 in a spreadsheet program)") from None
-    del raw
-    try:
-        reader = pd.read_csv(io.StringIO(text), dtype=str, keep_default_na=False,
-                             skip_blank_lines=False, chunksize=chunk_rows, skipinitialspace=False)
+        # index_col=False and usecols: extra (blank) cells never shift values into other columns.
+        reader = pd.read_csv(path, encoding="utf-8-sig", dtype=str, keep_default_na=False,
+                             skip_blank_lines=False, chunksize=chunk_rows, skipinitialspace=False,
+                             index_col=False, usecols=range(width) if width else None)
         first = True
         offset = 0
         for chunk in reader:
@@ -121,6 +118,75 @@ def _read_chunks(path: pathlib.Path, kind: str, chunk_rows: int) -> Iterator[pd.
         raise BadFile(name, [], f"{name}: not a readable CSV ({exc}); check quotes and separators") from None
 
 
+_BLOCK_BYTES = 1 << 20
+
+
+def _check_text(name: str, path: pathlib.Path) -> None:
+    """Refuse a blank file, or one that is not UTF-8 text (naming the row of the
+    first bad byte), reading it block by block."""
+    blank = True
+    lines = 0
+    pending = b""
+    with path.open("rb") as fh:
+        while True:
+            block = fh.read(_BLOCK_BYTES)
+            data = pending + block
+            try:
+                # not final until the last block: a character cut at a block's end waits
+                _, used = codecs.utf_8_decode(data, "strict", not block)
+            except UnicodeDecodeError as exc:
+                line = lines + data[:exc.start].count(b"\n") + 1
+                raise BadFile(name, [], f"{name}, row {line}: byte 0x{data[exc.start]:02x} is not UTF-8 "
+                                        "text; save the file as UTF-8 (CSV UTF-8 in a spreadsheet "
+                                        "program)") from None
+            lines += data.count(b"\n", 0, used)
+            blank = blank and not data[:used].strip()
+            pending = data[used:]
+            if not block:
+                break
+    if blank:
+        raise BadFile(name, [], f"{name}: the file is empty; it needs a header row and data rows")
+
+
+def _check_shape(name: str, kind: str, path: pathlib.Path) -> int:
+    """Check the raw header and every record's width; return the header's width.
+
+    pandas renames a repeated column (``alloy.1``) and takes a first row's extra
+    cells as an index, shifting every value one column over; so the header is
+    checked as written and a row with filled cells beyond the header is refused.
+    Extra empty cells (a trailing comma) are ignored.
+    """
+    # newline="\n": lines split as an in-memory text would split them (csv handles \r\n)
+    with path.open(encoding="utf-8-sig", newline="\n") as fh:
+        return _check_records(name, kind, csv.reader(fh))
+
+
+def _check_records(name: str, kind: str, reader) -> int:
+    try:
+        header = next(reader, None)
+        while header and not header[-1].strip():
+            header.pop()  # empty trailing header cells, as spreadsheets export them
+        if not header:
+            return 0
+        _check_header(name, kind, header)
+        width = len(header)
+        problems = []
+        for n, cells in enumerate(reader, start=2):
+            if len(cells) > width and any(c.strip() for c in cells[width:]):
+                extra = next(j for j in range(width, len(cells)) if cells[j].strip())
+                problems.append(BadRow(name, n, f"{extra + 1} (no header)",
+                                       f"got {cells[extra]!r}; the row has {len(cells)} cells but the header "
+                                       f"names {width} columns; quote a value that holds a comma, or "
+                                       "remove the extra cells"))
+                if len(problems) >= MAX_PROBLEMS:
+                    break
+    except csv.Error as exc:
+        raise BadFile(name, [], f"{name}: not a readable CSV ({exc}); check quotes and separators") from None
+    if problems:
+        raise BadFile(name, problems)
+    return width
+
+
 def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int) -> Iterator[pd.DataFrame]:
     name = path.name
     try:
@@ -135,12 +201,14 @@ def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int) -> Iterator[pd.Da
     else:
         raise BadFile(name, [], f"{name}: the workbook has sheets {', '.join(sheets)}; name the sheet "
                                 f"to import '{kind}' or keep only one sheet")
-    frame = book.parse(sheet, dtype=str, keep_default_na=False, header=0)
+    frame = pd.read_excel(book, sheet_name=sheet, dtype=str, keep_default_na=False, header=0)
     cols = [str(c) for c in frame.columns]
     if any(c.startswith("Unnamed:") for c in cols):
         raise BadFile(name, [], f"{name}: the header row has empty or merged cells ({', '.join(cols)}); "
                                 "put one column name in each header cell")
-    _check_header(name, kind, cols)
+    # The header as written: pandas renames a repeated column ``alloy.1``.
+    raw = pd.read_excel(book, sheet_name=sheet, dtype=str, keep_default_na=False, header=None, nrows=1)
+    _check_header(name, kind, [str(c) for c in raw.iloc[0]] if len(raw) else cols)
     frame = _normalise(frame)
     # Date cells arrive as timestamps: keep the date part only.
     frame = frame.apply(lambda s: s.str.replace(r"^(\d{4}-\d{2}-\d{2}) 00:00:00$", r"\1", regex=True))
@@ -237,9 +305,9 @@ class _Checks:
         kind = "a whole number" if whole else "a number"
         rule = kind
         if low is not None:
-            rule += f" {'of at least' if low_inclusive else 'above'} {low:g}"
+            rule += f" {'of at least' if low_inclusive else 'above'} {_show(low)}"
         if high is not None:
-            rule += f"{' and' if low is not None else ''} at most {high:g}"
+            rule += f"{' and' if low is not None else ''} at most {_show(high)}"
         rule += f" {unit}".rstrip()
         bad = ~empty & (num.isna() | ~np.isfinite(num.fillna(0)))
         if whole:
@@ -249,7 +317,8 @@ class _Checks:
         if high is not None:
             bad |= ~empty & num.notna() & (num > high)
         self.fail(bad, name, f"{name} must be {rule}")
-        return num
+        # A refused value (inf, 1e30, 1.5 ...) goes on as blank: later steps cast to int.
+        return num.where(~bad)
 
     def date(self, name: str, required: bool = True, not_after: dt.date | None = None) -> pd.Series:
         s = self.col(name)
@@ -260,9 +329,15 @@ class _Checks:
         parsed = pd.to_datetime(s.where(shape & ~empty, None), format="%Y-%m-%d", errors="coerce")
         self.fail(~empty & parsed.isna(), name, f"{name} must be a date written YYYY-MM-DD")
         if not_after is not None:
-            self.fail(~empty & parsed.notna() & (parsed.dt.date > not_after), name,
+            # Compare as timestamps: an all-NaT column's .dt.date is not comparable to a date.
+            self.fail(~empty & parsed.notna() & (parsed > pd.Timestamp(not_after)), name,
                       f"{name} lies in the future (after {not_after.isoformat()})")
         return s.where(~empty, "")
+
+
+def _show(x: float) -> str:
+    """A limit as people write it: 1,000,000 rather than 1e+06."""
+    return f"{int(x):,}" if float(x).is_integer() else f"{x:g}"
 
 
 def _none(v):
@@ -270,6 +345,35 @@ def _none(v):
     if v is None or (isinstance(v, float) and np.isnan(v)) or v == "":
         return None
     return v
+
+
+def _nulls(s: pd.Series) -> list:
+    """A text column as a list, blank cells and NaN as None (as :func:`_none`)."""
+    a = s.to_numpy(dtype=object, copy=True)  # an object column's array is a read-only view
+    a[pd.isna(a) | (a == "")] = None
+    return a.tolist()
+
+
+def _ints(s: pd.Series) -> list:
+    """A numeric column as a list of Python ints, NaN as None (as :func:`_int_or_none`)."""
+    a = np.asarray(s, dtype=float)
+    missing = np.isnan(a)
+    out = np.where(missing, 0, a).astype(np.int64).astype(object)
+    out[missing] = None
+    return out.tolist()
+
+
+def _running_sum(key: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Inclusive running sum of ``values`` within each ``key``, in the given order."""
+    order = np.argsort(key, kind="stable")
+    v = values[order]
+    total = np.cumsum(v)
+    k = key[order]
+    start = np.r_[True, k[1:] != k[:-1]]
+    before = (total - v)[start]
+    out = np.empty_like(total)
+    out[order] = total - before[np.cumsum(start) - 1]
+    return out
 
 
 def _int_or_none(v):
@@ -304,6 +408,10 @@ class _Importer:
         self._lot_tot = np.zeros((0, 1 + len(METHODS)), dtype=np.int64)
         self._lot_castings = np.zeros(0, dtype=np.int64)
         self._revisions_in_file: dict[tuple, dict] = {}
+        # A log with no inspection record yet (a first bulk load) holds nothing a file's
+        # rows could repeat and no earlier totals for their lots: no need to look them up.
+        # (Rows written by this file's earlier chunks never collide: keys count occurrences.)
+        self._log_was_empty = kind == "inspections" and not store.has_rows("inspections")
 
     # each returns (rows to insert as tuples, keys) for the good rows of the chunk
     def validate(self, c: _Checks) -> list[tuple]:
@@ -401,7 +509,8 @@ class _Importer:
         for i, (p, r, e) in enumerate(zip(pattern, revision, eff)):
             if c.bad[i]:
                 continue
-            rev = self._revisions_in_file.setdefault((p, r), {"effective_from": e, "rows": []})
+            rev = self._revisions_in_file.setdefault((p, r), {"effective_from": e, "rows": [],
+                                                               "first_row": int(c.rows[i])})
             if rev["effective_from"] != e:
                 c.fail(np.arange(len(rows)) == i, "effective_from",
                        f"revision {r} of {p} is dated {rev['effective_from']} on an earlier row; "
@@ -422,7 +531,7 @@ class _Importer:
             e = rev["effective_from"]
             other = dates.get((p, e))
             if other is not None and other != r:
-                problems.append(BadRow(self.file, 0, "effective_from",
+                problems.append(BadRow(self.file, rev["first_row"], "effective_from",
                                        f"revision {r} of {p} takes effect on {e}, the same day as "
                                        f"revision {other}; give each revision its own date"))
                 continue
@@ -434,7 +543,7 @@ class _Importer:
                         .astype(object).where(risers.notna(), None).itertuples(index=False)}
                 want = {row[2:] for row in rev["rows"]}
                 if stored_rev[(p, r)] != e or have != want:
-                    problems.append(BadRow(self.file, 0, "revision",
+                    problems.append(BadRow(self.file, rev["first_row"], "revision",
                                            f"revision {r} of {p} is stored already with other content; "
                                            "a stored revision is never changed: give the new design "
                                            "a new revision code and date"))
@@ -480,19 +589,20 @@ class _Importer:
                          "any level")
         # The lot must exist, inspection on or after the pour.
         info = self.store.lots_info(lot[lot != ""].unique().tolist())
-        known = lot.isin(list(info)).to_numpy()
+        lot_l, zone_l = lot.tolist(), zone.tolist()  # plain lists: iterating a Series is slow
+        known = np.array([x in info for x in lot_l], dtype=bool)  # Series.isin is slow on many values
         c.fail((lot != "") & ~known, "lot", "unknown lot; import it in lots.csv first or check the code")
-        poured = np.array([info[x]["poured_on"] if k else "" for x, k in zip(lot, known)], dtype=object)
+        poured = np.array([info[x]["poured_on"] if k else "" for x, k in zip(lot_l, known)], dtype=object)
         c.fail(known & (on != "") & (on.to_numpy() < poured), "inspected_on",
                lambda i: f"got {on.iloc[i]!r}; lot {lot.iloc[i]} was poured on {poured[i]}; "
                          "a casting is inspected after it is poured")
-        pattern = np.array([info[x]["pattern"] if k else "" for x, k in zip(lot, known)], dtype=object)
+        pattern = np.array([info[x]["pattern"] if k else "" for x, k in zip(lot_l, known)], dtype=object)
         levels = self.store.zone_levels()
         has_zone = (zone != "").to_numpy()
-        zone_known = np.array([(p, z) in levels for p, z in zip(pattern, zone)], dtype=bool)
+        zone_known = np.array([(p, z) in levels for p, z in zip(pattern, zone_l)], dtype=bool)
         c.fail(known & has_zone & ~zone_known, "zone",
                lambda i: f"got {zone.iloc[i]!r}; pattern {pattern[i]} has no such zone")
-        level = np.array([levels.get((p, z)) if zk else None for p, z, zk in zip(pattern, zone, zone_known)],
+        level = np.array([levels.get((p, z)) if zk else None for p, z, zk in zip(pattern, zone_l, zone_known)],
                          dtype=float)
         sev_a = sev.to_numpy(dtype=float)
         graded = cat.isin(GRADED_CATEGORIES).to_numpy() & ~np.isnan(sev_a) & ~np.isnan(level)
@@ -502,24 +612,26 @@ class _Importer:
         c.fail(graded & (sev_a <= np.nan_to_num(level, nan=9)) & (result == "reject").to_numpy(), "result",
                lambda i: f"got 'reject'; severity {int(sev_a[i])} meets zone {zone.iloc[i]}'s required "
                          f"level {int(level[i])}: the casting is acceptable on radiography")
-        canon = pd.DataFrame({
-            "lot": lot, "inspected_on": on, "method": method,
-            "quantity": qty.fillna(0).astype(np.int64).astype(str), "result": result, "defect": defect,
-            "zone": zone, "xray_category": cat,
-            "severity": sev.fillna(0).astype(np.int64).astype(str).replace("0", ""),
-            "serial": serial, "inspector": inspector, "notes": notes})
-        joined = canon.astype(str).agg("\x1f".join, axis=1) if len(canon) else pd.Series([], dtype=str)
+        canon = [lot, on, method, qty.fillna(0).astype(np.int64).astype(str), result, defect, zone, cat,
+                 sev.fillna(0).astype(np.int64).astype(str).replace("0", ""), serial, inspector, notes]
+        # Row-wise DataFrame.agg is ~100x slower on large files; zip the columns' lists instead.
+        joined = ["\x1f".join(t) for t in zip(*(col.tolist() for col in canon))]
         digests = [hashlib.sha1(s.encode("utf-8")).hexdigest() for s in joined]
         occurrence = self._occurrences(np.array([int(d[:16], 16) for d in digests], dtype=np.uint64))
         keys = [f"{d}:{n}" for d, n in zip(digests, occurrence)]
-        present = self.store.keys_present("inspections", "record_key", keys)
+        # sorted: neighbouring keys share index pages
+        present = set() if self._log_was_empty else self.store.keys_present("inspections", "record_key",
+                                                                              sorted(keys))
         new = np.array([k not in present for k in keys], dtype=bool)
         self._check_lot_totals(c, lot, method, result, qty, known, new, info)
         self._skip_present = ~new
-        return [(lt, d, m, int(q) if q == q else None, r, _none(df), _none(z), _none(ct), _int_or_none(sv),
-                 _none(sr), _none(ins), _none(nt), k, self.now, self.by, self.file, None, 0, None)
-                for lt, d, m, q, r, df, z, ct, sv, sr, ins, nt, k in
-                zip(lot, on, method, qty, result, defect, zone, cat, sev, serial, inspector, notes, keys)]
+        # Column by column (blank text and NaN as NULL, as _none / _int_or_none give them),
+        # then zipped into rows: a Python call per cell is most of an import's time.
+        columns = [lot_l, on.tolist(), method.tolist(), _ints(qty), result.tolist(), _nulls(defect),
+                   _nulls(zone), _nulls(cat), _ints(sev), _nulls(serial), _nulls(inspector), _nulls(notes),
+                   keys]
+        fixed = (self.now, self.by, self.file, None, 0, None)
+        return list(zip(*columns, *(itertools.repeat(v, len(keys)) for v in fixed)))
 
     def _occurrences(self, d: np.ndarray) -> np.ndarray:
         """For each digest, how many identical rows came before it in this file."""
@@ -549,29 +661,52 @@ class _Importer:
         self._seen_counts = np.add.reduceat(all_c, np.flatnonzero(s2))
         return occ
 
+    def _totals_at_once(self, lots, meth, rejected, q) -> bool:
+        """Add the rows' quantities to their lots' totals at once, if no row takes a
+        total above the castings poured; else change nothing and return False.
+
+        The row-by-row check gives the same totals whenever no row fails, and the
+        first row failing here is the first it fails: so it runs only when needed.
+        """
+        if not len(lots):
+            return True
+        j = np.fromiter((self._lot_index[x] for x in lots), dtype=np.int64, count=len(lots))
+        where = {m: k for k, m in enumerate(METHODS, start=1)}
+        mi = np.fromiter((where[m] for m in meth), dtype=np.int64, count=len(meth))
+        qr = np.where(rejected, q, 0)
+        cap = self._lot_castings[j]
+        rej_total = self._lot_tot[j, 0] + _running_sum(j, qr)
+        method_total = self._lot_tot[j, mi] + _running_sum(j * (1 + len(METHODS)) + mi, q)
+        if (rejected & (rej_total > cap)).any() or (method_total > cap).any():
+            return False
+        np.add.at(self._lot_tot, (j, 0), qr)
+        np.add.at(self._lot_tot, (j, mi), q)
+        return True
+
     def _check_lot_totals(self, c, lot, method, result, qty, known, new, info) -> None:
         """Rejects never above castings poured; no method inspects more castings than poured."""
         lots = lot.to_numpy()
         fresh = [x for x in dict.fromkeys(lots[known]) if x not in self._lot_index]
         if fresh:
-            stored = self.store.lot_totals(fresh, exclude=self.exclude)
+            stored = {} if self._log_was_empty else self.store.lot_totals(fresh, exclude=self.exclude)
             base = len(self._lot_index)
+            self._lot_index.update(zip(fresh, range(base, base + len(fresh))))
             add = np.zeros((len(fresh), 1 + len(METHODS)), dtype=np.int64)
-            cast = np.zeros(len(fresh), dtype=np.int64)
-            for j, x in enumerate(fresh):
-                self._lot_index[x] = base + j
-                cast[j] = info[x]["castings"]
-                t = stored.get(x)
-                if t:
-                    add[j, 0] = t["rejected"]
-                    for m, q in t["methods"].items():
-                        add[j, 1 + METHODS.index(m)] = q
+            cast = np.fromiter((info[x]["castings"] for x in fresh), dtype=np.int64, count=len(fresh))
+            for x, t in stored.items():
+                j = self._lot_index[x] - base
+                add[j, 0] = t["rejected"]
+                for m, q in t["methods"].items():
+                    add[j, 1 + METHODS.index(m)] = q
             self._lot_tot = np.vstack([self._lot_tot, add])
             self._lot_castings = np.concatenate([self._lot_castings, cast])
         q = qty.fillna(0).to_numpy(dtype=np.int64)
         res = result.to_numpy()
         meth = method.to_numpy()
-        for i in np.flatnonzero(known & new & ~c.bad):
+        todo = np.flatnonzero(known & new & ~c.bad)
+        if self._totals_at_once(lots[todo], meth[todo], res[todo] == "reject", q[todo]):
+            return
+        for i in todo:
             j = self._lot_index[lots[i]]
             mi = 1 + METHODS.index(meth[i])
             cap = self._lot_castings[j]
@@ -706,12 +841,14 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
                 for p in problems:
                     result.problems.append(p)
                     result.refused += 1
-                if not problems and not (result.refused and not skip_bad):
+                    result.refused_rows.append({"row": p.row, "reason": str(p)})
+                if not (result.refused and not skip_bad):
+                    # With skip_bad the revisions without problems are written; the rows of a
+                    # refused revision (the only pending rows outside new_revs) go with it.
                     store.insert_rows("revisions", new_revs)
                     pending = getattr(imp, "_pending", [])
                     stored_revs = {(p, r) for p, r, _ in new_revs}
                     rows_new = [r for r in pending if (r[0], r[1]) in stored_revs]
-                    result.skipped += len(pending) - len(rows_new)
                     result.added += store.insert_rows("risers", rows_new)
             if result.refused and not skip_bad:
                 raise BadFile(path.name, result.problems)
@@ -767,23 +904,39 @@ def _one_record(store: Store, record: dict, *, by, today, source, supersedes: in
     today = today or dt.date.today()
     required, optional = COLUMNS["inspections"]
     frame = pd.DataFrame([{k: "" if record.get(k) is None else str(record.get(k)).strip()
-                           for k in required + optional}])
+                           for k in required + optional}], dtype=object)
     frame["_row"] = [1]
     result = ImportResult(kind="inspections", file=source)
-    with store.write():
-        imp = _Importer(store, "inspections", source, today, by, result, exclude=exclude)
-        c = _Checks(source, frame, result)
-        rows = imp.validate(c)
+
+    def refuse_if_bad(c: _Checks) -> None:
         if c.bad.any():
-            p = result.problems[0]
             from tracker.errors import BadInput
+            p = c.result.problems[0]
             raise BadInput(p.column, record.get(p.column), p.reason.split("; ", 1)[-1]
                            if p.reason.startswith("got ") else p.reason)
-        row = list(rows[0])
-        row[12] = f"{source}:{uuid.uuid4().hex}"  # each record typed in is new
-        row[16] = supersedes
-        row[17] = 1 if void else 0
-        row[18] = reason
+
+    # The record's own checks run before the write lock: they are the slow part, and
+    # the lots, patterns and zones they read never change once stored. Holding the
+    # lock through them made concurrent writers queue for ~20 ms a record.
+    imp = _Importer(store, "inspections", source, today, by, result, exclude=exclude)
+    c = _Checks(source, frame, result)
+    rows = imp.validate(c)
+    refuse_if_bad(c)
+    row = list(rows[0])
+    row[12] = f"{source}:{uuid.uuid4().hex}"  # each record typed in is new
+    row[16] = supersedes
+    row[17] = 1 if void else 0
+    row[18] = reason
+    with store.write():
+        # Inside the lock, the lot's totals again (other writers change them), always
+        # checked: a record typed in is new even when an imported row has its content.
+        result = ImportResult(kind="inspections", file=source)
+        imp = _Importer(store, "inspections", source, today, by, result, exclude=exclude)
+        c = _Checks(source, frame, result)
+        one = lambda v: pd.Series([v], index=frame.index)  # noqa: E731
+        imp._check_lot_totals(c, one(row[0]), one(row[2]), one(row[4]), one(row[3]),
+                              np.array([True]), np.array([True]), store.lots_info([row[0]]))
+        refuse_if_bad(c)
         store.insert_rows("inspections", [tuple(row)])
         return store.last_insert_id()
 

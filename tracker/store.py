@@ -685,7 +685,7 @@ class Store:
         try:
             target = sqlite3.connect(str(dest))
             try:
-                self.conn.backup(target, pages=1024, sleep=0.005)
+                self.conn.backup(target, pages=-1)  # one step: a stepwise copy restarts on every write
             finally:
                 target.close()
         except sqlite3.Error as exc:
