@@ -62,3 +62,36 @@ def demo_store(demo_db):
     s = Store(demo_db)
     yield s
     s.close()
+
+
+# --- dashboard fixtures ---------------------------------------------------------------
+
+@pytest.fixture(scope="session")
+def app_demo_db(tmp_path_factory):
+    """The demo log as `pourback demo` builds it (model fitted, marked as a demo), once
+    per session. Read only: copy it with ``app_db`` before a test writes."""
+    from tracker.cli.cmd_app import build_demo
+
+    path = tmp_path_factory.mktemp("app-demo") / "pourback-demo.db"
+    build_demo(path)
+    return path
+
+
+@pytest.fixture
+def app_db(app_demo_db, tmp_path):
+    """A private copy of the demo log for a test that writes."""
+    import shutil
+
+    dest = tmp_path / "demo-copy.db"
+    shutil.copyfile(app_demo_db, dest)
+    return dest
+
+
+@pytest.fixture
+def empty_db(tmp_path):
+    """A fresh, empty log file."""
+    from tracker.store import Store
+
+    path = tmp_path / "empty.db"
+    Store(path).close()
+    return path

@@ -127,9 +127,10 @@ def open_store(db_path, create: bool = False):
 
 # Command groups register themselves on ``main`` when imported.
 from tracker.cli import cmd_design  # noqa: E402,F401
-from tracker.cli import cmd_log  # noqa: E402,F401
-from tracker.cli import cmd_advise  # noqa: E402,F401
 from tracker.cli import cmd_review  # noqa: E402,F401
+from tracker.cli import cmd_log  # noqa: E402,F401
+from tracker.cli import cmd_app  # noqa: E402,F401
+from tracker.cli import cmd_advise  # noqa: E402,F401
 
 if __name__ == "__main__":  # pragma: no cover
     main(prog_name="pourback")

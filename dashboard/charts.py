@@ -1,0 +1,191 @@
+"""Every chart of the dashboard, in Altair. Each function takes display-ready
+frames (from ``tracker.views``) and returns a chart; nothing is computed here
+beyond placing marks.
+
+Look: greys for context, one blue for the measured values, one orange for
+what needs attention. Every axis names its unit.
+"""
+
+from __future__ import annotations
+
+import altair as alt
+import pandas as pd
+
+INK = "#3a4a5c"        # measured values
+CONTEXT = "#9aa5b1"    # limits, centre lines, bars in the background
+ATTENTION = "#d9822b"  # signals, the curve a design must clear
+GOOD = "#4c8c6a"
+
+HEIGHT = 320
+
+
+def _empty(text: str) -> alt.Chart:
+    return alt.Chart(pd.DataFrame({"t": [text]})).mark_text(size=14, color=CONTEXT).encode(
+        text="t:N").properties(height=120)
+
+
+def pareto(df: pd.DataFrame, item: str, value_title: str, item_title: str) -> alt.LayerChart | alt.Chart:
+    """Bars of ``value`` per item, largest first, with the cumulative share (%) as a line."""
+    if df.empty:
+        return _empty("nothing rejected in this window")
+    order = df[item].tolist()
+    base = alt.Chart(df).encode(x=alt.X(f"{item}:N", sort=order, title=item_title,
+                                        axis=alt.Axis(labelAngle=-45)))
+    tips = [alt.Tooltip(f"{item}:N", title=item_title),
+            alt.Tooltip("value:Q", title=value_title, format=",.0f"),
+            alt.Tooltip("share_pct:Q", title="share (%)", format=".1f"),
+            alt.Tooltip("cumulative_pct:Q", title="cumulative share (%)", format=".1f")]
+    bars = base.mark_bar(color=INK).encode(
+        y=alt.Y("value:Q", title=value_title),
+        opacity=alt.condition("datum.vital_few", alt.value(1.0), alt.value(0.45)),
+        tooltip=tips)
+    line = base.mark_line(color=ATTENTION, point=alt.OverlayMarkDef(color=ATTENTION)).encode(
+        y=alt.Y("cumulative_pct:Q", title="cumulative share (%)", scale=alt.Scale(domain=[0, 100])),
+        tooltip=tips)
+    return alt.layer(bars, line).resolve_scale(y="independent").properties(height=HEIGHT)
+
+
+def _week_axis(df: pd.DataFrame) -> alt.X:
+    return alt.X("week:O", title="ISO week of pour", sort=df["week"].tolist(),
+                 axis=alt.Axis(labelAngle=-45, labelOverlap=True))
+
+
+def trend(df: pd.DataFrame, target_pct: float) -> alt.LayerChart | alt.Chart:
+    """Weekly reject rate (%) of all patterns with its 95 % Wilson band and the target."""
+    if df.empty:
+        return _empty("no pours in this window")
+    tips = [alt.Tooltip("week:N", title="ISO week"),
+            alt.Tooltip("inspected:Q", title="inspected (castings)"),
+            alt.Tooltip("rejected:Q", title="rejected (castings)"),
+            alt.Tooltip("reject_rate_pct:Q", title="reject rate (%)", format=".2f"),
+            alt.Tooltip("wilson_low_pct:Q", title="low bound (%)", format=".2f"),
+            alt.Tooltip("wilson_high_pct:Q", title="high bound (%)", format=".2f"),
+            alt.Tooltip("scrap_cost:Q", title="scrap cost (currency units)", format=",.0f")]
+    base = alt.Chart(df).encode(x=_week_axis(df))
+    band = base.mark_area(color=CONTEXT, opacity=0.3).encode(
+        y=alt.Y("wilson_low_pct:Q", title="reject rate (% of castings inspected)"), y2="wilson_high_pct:Q")
+    line = base.mark_line(color=INK, point=True).encode(y="reject_rate_pct:Q", tooltip=tips)
+    goal = alt.Chart(pd.DataFrame({"target": [target_pct], "label": [f"target {target_pct:g} %"]}))
+    rule = goal.mark_rule(color=ATTENTION, strokeDash=[6, 4]).encode(y="target:Q")
+    label = goal.mark_text(color=ATTENTION, align="left", dx=4, dy=-7, fontWeight="bold").encode(
+        y="target:Q", text="label:N", x=alt.value(0))
+    return alt.layer(band, line, rule, label).properties(height=HEIGHT)
+
+
+def p_chart(df: pd.DataFrame) -> alt.LayerChart | alt.Chart:
+    """One pattern's weekly reject rate (%) inside its band of 3-sigma limits, centre line drawn."""
+    if df.empty:
+        return _empty("no weeks to chart")
+    base = alt.Chart(df).encode(x=_week_axis(df))
+    tips = [alt.Tooltip("week:N", title="ISO week"),
+            alt.Tooltip("inspected:Q", title="inspected (castings)"),
+            alt.Tooltip("rejected:Q", title="rejected (castings)"),
+            alt.Tooltip("p_pct:Q", title="reject rate (%)", format=".2f"),
+            alt.Tooltip("lcl_pct:Q", title="lower limit (%)", format=".2f"),
+            alt.Tooltip("ucl_pct:Q", title="upper limit (%)", format=".2f"),
+            alt.Tooltip("centre_pct:Q", title="centre (%)", format=".2f"),
+            alt.Tooltip("status:N", title="week")]
+    band = base.mark_bar(color=CONTEXT, opacity=0.25, width=alt.RelativeBandSize(0.92)).encode(
+        y=alt.Y("lcl_pct:Q", title="reject rate (% of castings inspected)"), y2="ucl_pct:Q",
+        tooltip=tips)
+    centre = base.mark_line(color=INK, strokeDash=[6, 3], opacity=0.6).encode(y="centre_pct:Q")
+    line = base.mark_line(color=INK).encode(y="p_pct:Q")
+    domain = ["in control", "signal"]
+    pts = base.transform_filter("datum.inspected > 0").mark_point(filled=True, size=90, opacity=1).encode(
+        y="p_pct:Q",
+        color=alt.Color("status:N", title="week", scale=alt.Scale(domain=domain, range=[INK, ATTENTION])),
+        shape=alt.Shape("status:N", title="week", scale=alt.Scale(domain=domain,
+                                                                  range=["circle", "triangle-up"])),
+        tooltip=tips)
+    return alt.layer(band, centre, line, pts).properties(height=HEIGHT)
+
+
+def design_map(points: pd.DataFrame, curve: pd.DataFrame | None) -> alt.LayerChart:
+    """Each riser zone at (volume ratio, freezing ratio), sized by castings poured and
+    shaded by its shrinkage reject rate; the alloy's Caine curve where it has one."""
+    x = alt.X("volume_ratio:Q", title="volume ratio Y = riser volume / zone volume (no unit)",
+              scale=alt.Scale(zero=False, nice=True))
+    y = alt.Y("freezing_ratio:Q", title="freezing ratio X = riser modulus / zone modulus (no unit)",
+              scale=alt.Scale(zero=False, nice=True))
+    tips = [alt.Tooltip("pattern:N", title="pattern"), alt.Tooltip("zone:N", title="zone"),
+            alt.Tooltip("riser:N", title="riser"), alt.Tooltip("revision:N", title="revision"),
+            alt.Tooltip("castings:Q", title="castings poured"),
+            alt.Tooltip("shrinkage_rejects:Q", title="shrinkage rejects (castings)"),
+            alt.Tooltip("shrinkage_rate_pct:Q", title="shrinkage reject rate (%)", format=".2f"),
+            alt.Tooltip("wilson_low_pct:Q", title="rate, low bound (%)", format=".2f"),
+            alt.Tooltip("wilson_high_pct:Q", title="rate, high bound (%)", format=".2f"),
+            alt.Tooltip("volume_ratio:Q", title="volume ratio", format=".2f"),
+            alt.Tooltip("freezing_ratio:Q", title="freezing ratio", format=".2f"),
+            alt.Tooltip("rules_text:N", title="rules")]
+    dots = alt.Chart(points).mark_circle(stroke=INK, strokeWidth=0.6, opacity=0.85).encode(
+        x=x, y=y,
+        size=alt.Size("castings:Q", title="castings poured", scale=alt.Scale(range=[30, 900])),
+        color=alt.Color("shrinkage_rate_pct:Q", title="shrinkage rejects (% of castings poured)",
+                        scale=alt.Scale(scheme="goldred", domainMin=0),
+                        legend=alt.Legend(orient="top", gradientLength=220, titleLimit=400)),
+        tooltip=tips)
+    layers = []
+    if curve is not None and not curve.empty:
+        c = curve.assign(series="Caine curve (sound above it)")
+        line = alt.Chart(c).mark_line(color=ATTENTION, strokeWidth=2).encode(
+            x=x, y=y,
+            strokeDash=alt.StrokeDash("series:N", title=None, legend=alt.Legend(orient="top", labelLimit=400)),
+            tooltip=[alt.Tooltip("volume_ratio:Q", title="volume ratio", format=".2f"),
+                     alt.Tooltip("freezing_ratio:Q", title="freezing ratio on the curve", format=".2f")])
+        layers.append(line)
+    layers.append(dots)
+    return alt.layer(*layers).resolve_scale(color="independent").properties(height=460)
+
+
+def pattern_history(weekly: pd.DataFrame, marks: pd.DataFrame) -> alt.LayerChart | alt.Chart:
+    """Castings poured per week (bars) and the reject rate (%) (lines), with the week each
+    riser revision took effect marked by a vertical rule."""
+    if weekly.empty:
+        return _empty("no pours of this pattern")
+    x = _week_axis(weekly)
+    tips = [alt.Tooltip("week:N", title="ISO week"), alt.Tooltip("lots:Q", title="lots"),
+            alt.Tooltip("poured:Q", title="poured (castings)"),
+            alt.Tooltip("inspected:Q", title="inspected (castings)"),
+            alt.Tooltip("rejected:Q", title="rejected (castings)"),
+            alt.Tooltip("shrinkage_rejected:Q", title="of which shrinkage (castings)"),
+            alt.Tooltip("reject_rate_pct:Q", title="reject rate (%)", format=".1f"),
+            alt.Tooltip("shrinkage_rate_pct:Q", title="shrinkage rate (%)", format=".1f")]
+    long = weekly.melt(id_vars=["week"], value_vars=["reject_rate_pct", "shrinkage_rate_pct"],
+                       var_name="series", value_name="rate_pct")
+    long["series"] = long["series"].map({"reject_rate_pct": "all rejects",
+                                         "shrinkage_rate_pct": "shrinkage rejects"})
+    bars = alt.Chart(weekly).mark_bar(color=CONTEXT, opacity=0.55).encode(
+        x=x, y=alt.Y("poured:Q", title="castings poured per week"), tooltip=tips)
+    lines = alt.Chart(long).mark_line(point=True).encode(
+        x=x, y=alt.Y("rate_pct:Q", title="reject rate (% of castings inspected)"),
+        color=alt.Color("series:N", title="rate", scale=alt.Scale(
+            domain=["all rejects", "shrinkage rejects"], range=[INK, ATTENTION]),
+            legend=alt.Legend(orient="top")),
+        strokeDash=alt.StrokeDash("series:N", title="rate", scale=alt.Scale(
+            domain=["all rejects", "shrinkage rejects"], range=[[1, 0], [5, 3]])),
+        tooltip=[alt.Tooltip("week:N", title="ISO week"), alt.Tooltip("series:N", title="rate"),
+                 alt.Tooltip("rate_pct:Q", title="% of castings inspected", format=".1f")])
+    layers = [bars, lines]
+    if marks is not None and not marks.empty:
+        m = alt.Chart(marks).encode(x=alt.X("week:O", sort=weekly["week"].tolist()))
+        layers.append(m.mark_rule(color=INK, strokeWidth=2, strokeDash=[2, 2]).encode(
+            tooltip=[alt.Tooltip("label:N", title="riser design"),
+                     alt.Tooltip("effective_from:T", title="effective from", format="%Y-%m-%d")]))
+        layers.append(m.mark_text(align="left", dx=5, dy=4, color=INK, baseline="top",
+                                  fontWeight="bold").encode(text="label:N", y=alt.value(0)))
+    return alt.layer(*layers).resolve_scale(y="independent").properties(height=HEIGHT + 60)
+
+
+def margins(df: pd.DataFrame) -> alt.Chart:
+    """Rule margins of one riser, now and changed, as paired bars (above 0 passes)."""
+    if df.empty:
+        return _empty("no margins")
+    return alt.Chart(df).mark_bar().encode(
+        y=alt.Y("rule:N", title=None, sort=None),
+        yOffset=alt.YOffset("design:N", sort=["now", "changed"]),
+        x=alt.X("margin:Q", title="margin above the rule (0 = just passes; no unit)"),
+        color=alt.Color("design:N", title="design", scale=alt.Scale(domain=["now", "changed"],
+                                                                    range=[CONTEXT, INK])),
+        tooltip=[alt.Tooltip("rule:N"), alt.Tooltip("design:N"),
+                 alt.Tooltip("margin:Q", format=".2f")],
+    ).properties(height=180)

@@ -1,0 +1,154 @@
+"""What every page shares: the log's path, cached loads, the one error display,
+the page header with the safety caution, and the start message.
+
+Pages call the library through :func:`load` (cached on the database path and
+its data version, so reruns on a big log are fast) and write through
+:func:`open_store`. Nothing here computes results; that is ``tracker``'s job.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import re
+
+import streamlit as st
+
+from tracker import views
+from tracker.cautions import SAFETY_CAUTION
+from tracker.errors import BadFile, PourbackError
+from tracker.store import Store, resolve_path
+
+START_COMMANDS = "pourback demo"
+
+# The library calls a page may load (cached). Each takes an open Store first.
+def _registry() -> dict:
+    from tracker import advise, features, review
+
+    return {
+        "start_state": views.start_state,
+        "pattern_options": views.pattern_options,
+        "alloy_options": views.alloy_options,
+        "lot_options": views.lot_options,
+        "zone_options": views.zone_options,
+        "latest_records": views.latest_records,
+        "week_options": views.week_options,
+        "pattern_weekly": views.pattern_weekly,
+        "pattern_summary": views.pattern_summary,
+        "risers_by_revision": views.risers_by_revision,
+        "revision_marks": views.revision_marks,
+        "caine_curve": views.caine_curve,
+        "riser_options": views.riser_options,
+        "sleeve_options": views.sleeve_options,
+        "pour_span": lambda s: s.pour_span(),
+        "weekly_review": review.weekly_review,
+        "design_map": features.design_map,
+        "suggest": advise.suggest,
+        "what_if": advise.what_if,
+    }
+
+
+def db_path() -> str:
+    """The log's path: $POURBACK_DB (set by ``pourback dashboard``), else ./pourback.db."""
+    path = resolve_path(None)
+    return path if path == ":memory:" else os.path.abspath(path)
+
+
+def open_store() -> Store:
+    """A new connection to the log (close it: use ``with``)."""
+    return Store(db_path())
+
+
+@st.cache_data(show_spinner=False, max_entries=256)
+def _cached(path: str, version: tuple, name: str, args: tuple, kwargs: tuple):
+    fn = _registry()[name]
+    with Store(path) as store:
+        return fn(store, *args, **dict(kwargs))
+
+
+def load(name: str, *args, **kwargs):
+    """``name``'s result on the log, cached until the database file changes."""
+    path = db_path()
+    return _cached(path, views.db_version(path), name, args, tuple(sorted(kwargs.items())))
+
+
+def forget() -> None:
+    """Drop cached results (after this session wrote to the log)."""
+    _cached.clear()
+
+
+# --- text -------------------------------------------------------------------------------
+
+_MD_SPECIAL = re.compile(r"([\\`*_{}\[\]()#+\-.!|<>~$:=])")
+
+
+def md_escape(text) -> str:
+    """User text made inert for Streamlit's markdown (no links, images, colours, HTML)."""
+    return _MD_SPECIAL.sub(r"\\\1", str(text))
+
+
+def pct(value, digits: int = 1) -> str:
+    """A percentage for display ("-" where undefined)."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return "-"
+    return "-" if v != v else f"{v:.{digits}f} %"
+
+
+def money(value) -> str:
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return "-"
+    return "-" if v != v else f"{v:,.0f}"
+
+
+# --- the one place errors are shown -------------------------------------------------------
+
+def show_error(exc: PourbackError) -> None:
+    """Show a library error as the user should see it: one message, and for a
+    refused file every refused row in a table. Never a traceback."""
+    if isinstance(exc, BadFile):
+        head = str(exc).splitlines()[0]
+        st.error(md_escape(head))
+        if exc.problems:
+            st.dataframe(views.problems_frame(exc.problems), hide_index=True, width="stretch")
+    else:
+        st.error(md_escape(str(exc)))
+
+
+@contextlib.contextmanager
+def guard():
+    """Run a block; a library error is shown with :func:`show_error` instead of raised."""
+    try:
+        yield
+    except PourbackError as exc:
+        show_error(exc)
+
+
+# --- page furniture -----------------------------------------------------------------------
+
+def header(title: str, intro: str) -> None:
+    st.title(title)
+    st.caption(intro)
+
+
+def caution() -> None:
+    """The safety caution, shown on every page."""
+    st.warning("**Caution.** " + SAFETY_CAUTION, icon=":material/engineering:")
+
+
+def start_message(state: dict, needs: str = "results") -> None:
+    """A helpful first step for an empty (or half-filled) log instead of an error."""
+    counts = state["counts"]
+    if not any(counts.values()):
+        st.info(
+            "**The log is empty.** To start, import your files on the **Log results** page "
+            "in this order: patterns, zones, sleeves, risers, lots, inspections (CSV or xlsx). "
+            f"To look around first, run `{START_COMMANDS}` in a terminal: it builds an invented "
+            "demo foundry and opens this dashboard on it.", icon=":material/start:")
+        return
+    missing = ", ".join(state["missing"]) or "nothing"
+    st.info(f"**Not enough in the log yet for {needs}.** Still empty: {missing}. Import those "
+            "on the **Log results** page.", icon=":material/info:")

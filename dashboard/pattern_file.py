@@ -1,0 +1,77 @@
+"""Pattern file: one pattern's risers by revision, their rule margins, and its pours and rejects."""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from dashboard import charts, common
+from tracker import views
+
+NUMBER = st.column_config.NumberColumn
+
+
+def main() -> None:
+    common.header("Pattern file", "One pattern's riser design, revision by revision, judged by the rules, "
+                                  "and what it poured and scrapped week by week.")
+    state = common.load("start_state")
+    opts = common.load("pattern_options")
+    if opts.empty:
+        common.start_message(state, "a pattern file")
+        return
+    labels = dict(zip(opts["pattern"], opts["label"]))
+    wanted = st.query_params.get("pattern")
+    index = list(labels).index(wanted) if wanted in labels else 0
+    code = st.selectbox("Pattern", list(labels), index=index, format_func=labels.get, key="pattern")
+
+    info = common.load("pattern_summary", code)
+    c = st.columns(6)
+    c[0].metric("Alloy", info["alloy"])
+    c[1].metric("Casting weight (kg)", f"{info['casting_weight_kg']:g}")
+    c[2].metric("Castings per mold", f"{info['castings_per_mold']}")
+    c[3].metric("Lots poured", f"{info['lots']:,}")
+    c[4].metric("Castings poured", f"{info['poured']:,}")
+    c[5].metric("Reject rate, all time", common.pct(info["reject_rate_pct"], 2),
+                help=f"{info['rejected']:,} of {info['inspected']:,} castings inspected")
+    if info["first_pour"]:
+        st.caption(f"Poured from {info['first_pour']} to {info['last_pour']}.")
+
+    st.subheader("Risers by revision")
+    design = common.load("risers_by_revision", code)
+    if design.empty:
+        st.info("No riser design is logged for this pattern yet: import its risers (risers.csv).")
+    else:
+        st.dataframe(design[views.DESIGN_PART], hide_index=True, width="stretch", key="risers_table",
+                     placeholder="", column_config={
+                         "diameter (mm)": NUMBER(format="%.0f"), "height (mm)": NUMBER(format="%.0f"),
+                         "riser weight (kg)": NUMBER(format="%.1f")})
+        st.markdown("**Rule margins**")
+        st.dataframe(design[views.MARGIN_PART], hide_index=True, width="stretch", key="margins_table",
+                     placeholder="", column_config={
+                         "zone modulus (cm)": NUMBER(format="%.2f"), "riser modulus (cm)": NUMBER(format="%.2f"),
+                         "modulus ratio": NUMBER(format="%.2f"), "Caine margin": NUMBER(format="%+.2f"),
+                         "feed margin": NUMBER(format="%+.2f")})
+        st.caption("Modulus ratio = effective riser modulus (sleeve factor included) / modulus of the zone "
+                   "it feeds; the modulus rule asks 1.2 or more. Caine margin = freezing ratio above the "
+                   "alloy's curve (0 or more passes; blank where the alloy has no constants). Feed margin "
+                   "= metal the riser can give over what the zone needs, as a share of the need "
+                   "(0 or more passes).")
+
+    st.subheader("Pours and rejects over time")
+    weekly = common.load("pattern_weekly", code)
+    marks = common.load("revision_marks", code)
+    if not weekly.empty:
+        lo = weekly["week_start"].min()
+        shown = marks[marks["week"].isin(weekly["week"])]
+        st.altair_chart(charts.pattern_history(weekly, shown), width="stretch", key="history_chart")
+        before = marks[marks["effective_from"] < lo]
+        note = common.md_escape("Revisions in effect before the first pour shown: " + ", ".join(
+            f"{r.revision} (from {r.effective_from})" for r in before.itertuples()) + ".") \
+            if not before.empty else ""
+        st.caption("Bars: castings poured per week (left axis). Solid line: reject rate, all defects; dashed "
+                   "line: shrinkage rejects (% of castings inspected, right axis). Dotted vertical lines: "
+                   "the date each riser revision took effect. " + note)
+    else:
+        st.caption("No lots of this pattern are logged yet.")
+
+
+main()

@@ -1,0 +1,381 @@
+"""The dashboard's pages, run headless with streamlit's AppTest.
+
+Every page renders without an exception on the demo log and on an empty log
+(with the start message), and always shows the safety caution. The logging
+form and the file upload go through the library's validation: what they
+write is counted by the weekly review, and what they refuse writes nothing.
+"""
+
+import json
+import pathlib
+import re
+
+import pytest
+from streamlit.testing.v1 import AppTest
+
+from tracker.cautions import SAFETY_CAUTION
+from tracker.store import Store
+
+APP = pathlib.Path(__file__).resolve().parent.parent / "dashboard" / "app.py"
+PAGES = {
+    "log_results.py": "Log results",
+    "weekly_review.py": "Weekly review",
+    "design_map.py": "Design map",
+    "pattern_file.py": "Pattern file",
+    "suggestions.py": "Suggestions",
+}
+
+
+def open_page(db, page, monkeypatch) -> AppTest:
+    monkeypatch.setenv("POURBACK_DB", str(db))
+    at = AppTest.from_file(str(APP), default_timeout=60)
+    at.run()
+    if page != "log_results.py":
+        at.switch_page(page).run()
+    assert not at.exception, [e.value for e in at.exception]
+    return at
+
+
+def texts(elements) -> list[str]:
+    """Element texts as a reader sees them (markdown backslash escapes of user text removed)."""
+    return [re.sub(r"\\(.)", r"\1", e.value) for e in elements]
+
+
+def chart_specs(at) -> list[dict]:
+    return [json.loads(el.proto.spec) for el in at.get("vega_lite_chart")]
+
+
+def chart_data(el, layer: dict):
+    """The rows a chart layer draws (streamlit ships each dataset as Arrow next to the spec)."""
+    import pyarrow as pa
+
+    name = layer["data"]["name"]
+    blob = next(d.data.data for d in el.proto.datasets if d.name == name)
+    return pa.ipc.open_stream(blob).read_pandas()
+
+
+def layers(spec: dict) -> list[dict]:
+    out = []
+    for layer in spec.get("layer", [spec]):
+        out.extend(layers(layer) if "layer" in layer else [layer])
+    return out
+
+
+def mark(layer: dict) -> str:
+    m = layer.get("mark")
+    return m["type"] if isinstance(m, dict) else m
+
+
+def metric(at, label: str) -> str:
+    hits = [m.value for m in at.metric if m.label == label]
+    assert hits, f"no metric {label!r}; metrics are {[m.label for m in at.metric]}"
+    return hits[0]
+
+
+def snapshot(db) -> dict:
+    with Store(db) as s:
+        return s.snapshot()
+
+
+# --- every page, demo and empty -------------------------------------------------------------
+
+@pytest.mark.parametrize("page", list(PAGES))
+def test_page_renders_on_the_demo(page, app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, page, monkeypatch)
+    assert texts(at.title) == [PAGES[page]]
+    assert not at.error, texts(at.error)
+    assert any(SAFETY_CAUTION in w for w in texts(at.warning)), "the safety caution is missing"
+    assert not any("The log is empty" in i for i in texts(at.info))
+    if page != "log_results.py":
+        assert chart_specs(at), "a results page without a chart"
+    assert at.dataframe, "a results page without a table"
+
+
+@pytest.mark.parametrize("page", list(PAGES))
+def test_page_on_an_empty_log_shows_how_to_start(page, empty_db, monkeypatch):
+    at = open_page(empty_db, page, monkeypatch)
+    assert texts(at.title) == [PAGES[page]]
+    assert not at.error, texts(at.error)
+    start = [i for i in texts(at.info) if "The log is empty" in i]
+    assert start and "pourback demo" in start[0]
+    assert any(SAFETY_CAUTION in w for w in texts(at.warning))
+
+
+def test_sidebar_names_the_log_and_its_size(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "log_results.py", monkeypatch)
+    assert str(app_demo_db) in texts(at.sidebar.text)
+    assert any("1,190 lots" in c for c in texts(at.sidebar.caption))
+
+
+# --- logging -------------------------------------------------------------------------------------
+
+def _lot_with_room(db):
+    """A lot of the newest pour week whose visual inspection total leaves room for one more casting."""
+    from tracker import views
+
+    with Store(db) as s:
+        lots = views.lot_options(s)
+        totals = s.lot_totals(lots["lot"].head(40).tolist())
+        for row in lots.head(40).itertuples():
+            t = totals.get(row.lot, {"rejected": 0, "methods": {}})
+            if t["methods"].get("visual", 0) < row.castings and t["rejected"] < row.castings:
+                return row.lot, row.pattern
+    raise AssertionError("no lot with room in the demo")
+
+
+def _fill_form(at, lot, *, result="reject", defect="sand", name="Test Person"):
+    at.selectbox(key="lot").set_value(lot).run()
+    at.selectbox(key="method").set_value("visual")
+    at.number_input(key="quantity").set_value(1)
+    at.selectbox(key="result").set_value(result)
+    at.selectbox(key="defect").set_value(defect)
+    at.text_input(key="inspector").input("QE-T")
+    at.text_area(key="notes").input("logged from the dashboard test")
+    at.text_input(key="recorded_by").input(name)
+    return at.button(key="save").click().run()
+
+
+def test_form_writes_a_record_the_review_counts(app_db, monkeypatch):
+    from tracker.review import weekly_review
+
+    lot, pattern = _lot_with_room(app_db)
+    with Store(app_db) as s:
+        before = weekly_review(s)
+    at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot)
+    assert not at.exception and not at.error, texts(at.error)
+    assert any(s.startswith("Saved record") for s in texts(at.success)), texts(at.success)
+
+    latest = at.dataframe[-1].value
+    first = latest.iloc[0]
+    assert (first["lot"], first["result"], first["defect"]) == (lot, "reject", "sand")
+    assert first["recorded by"] == "Test Person" and first["source"] == "dashboard"
+
+    with Store(app_db) as s:
+        after = weekly_review(s)
+    row = lambda r: next(p for p in r["patterns"] if p["pattern"] == pattern)  # noqa: E731
+    assert row(after)["rejected"] == row(before)["rejected"] + 1
+    assert after["totals"]["window"]["rejected"] == before["totals"]["window"]["rejected"] + 1
+
+    # ... and the review page shows the new count (its cache follows the file).
+    review = at.switch_page("weekly_review.py").run()
+    assert not review.exception
+    table = next(d.value for d in review.dataframe if "rejected (castings)" in d.value.columns)
+    assert table.set_index("pattern").loc[pattern, "rejected (castings)"] == row(after)["rejected"]
+
+
+def test_form_without_the_loggers_name_writes_nothing(app_db, monkeypatch):
+    lot, _ = _lot_with_room(app_db)
+    before = snapshot(app_db)
+    at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot, name="  ")
+    assert any("Name the person logging" in e for e in texts(at.error))
+    assert not at.success
+    assert snapshot(app_db) == before
+
+
+def test_form_shows_the_librarys_refusal_and_writes_nothing(app_db, monkeypatch):
+    lot, _ = _lot_with_room(app_db)
+    before = snapshot(app_db)
+    at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot, defect="(none)")
+    assert not at.exception
+    errors = texts(at.error)
+    assert len(errors) == 1 and errors[0].startswith("defect"), errors
+    assert "needs the defect found" in errors[0]
+    assert snapshot(app_db) == before
+
+
+def _upload(at, name: str, content: str, by="Test Person"):
+    at.selectbox(key="kind").set_value("inspections")
+    at.file_uploader(key="upload").set_value((name, content.encode("utf-8"), "text/csv"))
+    at.run()
+    at.text_input(key="import_by").input(by)
+    return at.button(key="import").click().run()
+
+
+def test_bad_upload_lists_its_rows_and_writes_nothing(app_db, monkeypatch):
+    lot, _ = _lot_with_room(app_db)
+    content = ("lot,inspected_on,method,quantity,result,defect\n"
+               f"{lot},2026-11-25,visual,1,reject,sand\n"       # row 2: good
+               "NO-SUCH-LOT,2026-11-25,visual,1,accept,\n"      # row 3: unknown lot
+               f"{lot},2026-11-25,visual,-2,accept,\n"          # row 4: negative quantity
+               f"{lot},2026-11-25,visual,1,reject,\n")          # row 5: reject without a defect
+    before = snapshot(app_db)
+    at = _upload(open_page(app_db, "log_results.py", monkeypatch), "bad inspections.csv", content)
+    assert not at.exception
+    errors = texts(at.error)
+    assert errors and "refused, nothing written (3 bad row(s))" in errors[0]
+    assert "bad inspections" in errors[0]
+    problems = next(d.value for d in at.dataframe if list(d.value.columns) == ["row", "column", "reason"])
+    assert problems["row"].tolist() == [3, 4, 5]
+    assert problems["column"].tolist() == ["lot", "quantity", "defect"]
+    assert snapshot(app_db) == before
+
+
+def test_good_upload_is_imported(app_db, monkeypatch):
+    lot, _ = _lot_with_room(app_db)
+    with Store(app_db) as s:
+        n = s.count("inspections")
+    at = _upload(open_page(app_db, "log_results.py", monkeypatch), "more.csv",
+                 "lot,inspected_on,method,quantity,result,defect\n"
+                 f"{lot},2026-11-25,visual,1,reject,slag\n")
+    assert not at.error, texts(at.error)
+    assert any("1 added" in s for s in texts(at.success)), texts(at.success)
+    with Store(app_db) as s:
+        assert s.count("inspections") == n + 1
+        assert s.inspections_history(limit=1)["recorded_by"].iat[0] == "Test Person"
+
+
+# --- weekly review ------------------------------------------------------------------------------
+
+def test_review_headline_charts_and_report(app_demo_db, monkeypatch):
+    from tracker.review import weekly_review
+
+    at = open_page(app_demo_db, "weekly_review.py", monkeypatch)
+    with Store(app_demo_db) as s:
+        r = weekly_review(s, week="2026-W47", weeks=13, target=0.02)
+    assert at.selectbox(key="week").value == "2026-W47"
+    assert metric(at, "Castings rejected, window") == f"{r['totals']['window']['rejected']:,}"
+    assert metric(at, "Reject rate, week") == f"{100 * r['totals']['week']['reject_rate']:.2f} %"
+    specs = chart_specs(at)
+    titles = json.dumps(specs)
+    assert "cumulative share (%)" in titles and "ISO week of pour" in titles
+    # The p-chart opens on the first flagged pattern.
+    assert at.selectbox(key="chart_pattern").value == r["problems"][0]
+    assert [b.label for b in at.get("download_button")] == ["Download this review as HTML"]
+    # The planted revision of P-1031 is judged an improvement.
+    assert any("P-1031 revision 2" in m for m in texts(at.markdown))
+    assert any("**Verdict:** improved" == m for m in texts(at.markdown))
+
+
+def test_review_follows_the_week_picker(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "weekly_review.py", monkeypatch)
+    at.selectbox(key="week").set_value("2026-W40").run()
+    assert not at.exception
+    assert any(m.startswith("**Week 2026-W40**") for m in texts(at.markdown))
+    at.radio(key="pareto_of").set_value("defects").run()
+    spec = json.dumps(chart_specs(at)[0])
+    assert '"defect"' in spec
+
+
+# --- design map -----------------------------------------------------------------------------------
+
+def test_design_map_has_the_caine_curve_and_volume_ratio_across(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "design_map.py", monkeypatch)
+    assert at.selectbox(key="alloy").value == "steel"
+    el = at.get("vega_lite_chart")[0]
+    spec = json.loads(el.proto.spec)
+    ls = layers(spec)
+    curve = [l for l in ls if mark(l) == "line"]
+    dots = [l for l in ls if mark(l) == "circle"]
+    assert len(curve) == 1 and len(dots) == 1
+    assert curve[0]["encoding"]["x"]["field"] == "volume_ratio"
+    assert curve[0]["encoding"]["y"]["field"] == "freezing_ratio"
+    enc = dots[0]["encoding"]
+    assert enc["x"]["field"] == "volume_ratio" and "volume ratio" in enc["x"]["title"]
+    assert enc["y"]["field"] == "freezing_ratio" and "freezing ratio" in enc["y"]["title"]
+    assert enc["size"]["field"] == "castings"
+    tips = {t["field"] for t in enc["tooltip"]}
+    assert {"pattern", "zone", "riser", "shrinkage_rate_pct"} <= tips
+    rows = chart_data(el, curve[0])
+    assert set(rows["series"]) == {"Caine curve (sound above it)"}
+    # Caine's constants for steel, textbook table (from memory): X = 0.10 / (Y - 0.03) + 1.00
+    assert rows["freezing_ratio"].to_numpy() == pytest.approx(0.10 / (rows["volume_ratio"].to_numpy() - 0.03) + 1.0)
+    points = chart_data(el, dots[0])
+    assert rows["volume_ratio"].max() >= points["volume_ratio"].max()  # the curve spans every point
+
+
+def test_design_map_ductile_iron_has_no_curve_and_says_so(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "design_map.py", monkeypatch)
+    at.selectbox(key="alloy").set_value("ductile_iron").run()
+    assert not at.exception
+    assert not [l for l in layers(chart_specs(at)[0]) if mark(l) == "line"]
+    assert any("No Caine curve" in i and "ductile iron" in i for i in texts(at.info))
+
+
+def test_design_map_pattern_filter(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "design_map.py", monkeypatch)
+    at.multiselect(key="patterns").set_value(["P-1017"]).run()
+    table = next(d.value for d in at.dataframe if "shrinkage rate (%)" in d.value.columns)
+    assert set(table["pattern"]) == {"P-1017"}
+    assert table["zone"].iat[0] == "flange-B"  # the undersized riser's zone scraps most
+    assert metric(at, "Riser zones shown") == str(len(table))
+
+
+# --- pattern file ---------------------------------------------------------------------------------
+
+def test_pattern_file_shows_revisions_and_marks_them(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "pattern_file.py", monkeypatch)
+    at.selectbox(key="pattern").set_value("P-1031").run()
+    assert not at.exception
+    design = next(d.value for d in at.dataframe if "diameter (mm)" in d.value.columns)
+    assert sorted(set(design["revision"])) == ["1", "2"]
+    margins = next(d.value for d in at.dataframe if "modulus ratio" in d.value.columns)
+    r1 = margins[margins["riser"] == "R1"].set_index("revision")
+    assert not r1.loc["1", "passes all rules"] and r1.loc["2", "passes all rules"]
+    ls = layers(chart_specs(at)[0])
+    assert any(mark(l) == "rule" for l in ls), "revision dates are not marked"
+    assert any(mark(l) == "bar" for l in ls)
+    assert metric(at, "Casting weight (kg)") == "88"
+
+
+def test_pattern_file_opens_on_the_query_parameter(app_demo_db, monkeypatch):
+    monkeypatch.setenv("POURBACK_DB", str(app_demo_db))
+    at = AppTest.from_file(str(APP), default_timeout=60)
+    at.query_params["pattern"] = "P-1036"
+    at.run()
+    at.switch_page("pattern_file.py").run()
+    assert at.selectbox(key="pattern").value == "P-1036"
+
+
+# --- suggestions ------------------------------------------------------------------------------------
+
+def test_suggestions_and_what_if(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "suggestions.py", monkeypatch)
+    change = next(d.value for d in at.dataframe if "suggested: sleeve" in d.value.columns)
+    hit = change[(change["pattern"] == "P-1017") & (change["riser"] == "R3")]
+    assert len(hit) == 1 and hit["action"].iat[0] != "no riser change"
+    balance = next(d.value for d in at.dataframe if "yield after (%)" in d.value.columns)
+    assert {"added metal (kg per mold)", "balance (currency units/year)"} <= set(balance.columns)
+    # The what-if opens on the first suggested riser: P-1017 R3, a bare 100 mm riser failing rules.
+    assert at.selectbox(key="whatif_riser").value == ("P-1017", "R3")
+    assert metric(at, "Rules") == "3 failed"
+    before = float(metric(at, "Modulus ratio (rule: 1.2 or more)"))
+    at.number_input(key="whatif_dia_P-1017_R3").set_value(130.0).run()
+    assert not at.exception and not at.error
+    after = float(metric(at, "Modulus ratio (rule: 1.2 or more)"))
+    # The modulus of a cylinder with H/D kept grows with D: 130/100 times larger.
+    assert after == pytest.approx(before * 1.3, abs=0.01)
+    assert metric(at, "Rules") == "all pass"
+    assert metric(at, "Yield changed") != metric(at, "Yield now")
+
+
+def test_what_if_with_a_catalogue_sleeve(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "suggestions.py", monkeypatch)
+    at.selectbox(key="whatif_sleeve_P-1017_R3").set_value("IS-100").run()
+    assert not at.exception and not at.error
+    assert at.number_input(key="whatif_dia_P-1017_R3").disabled
+    assert any("sleeve IS-100" in m for m in texts(at.markdown))
+
+
+# --- errors and user text ---------------------------------------------------------------------------
+
+def test_a_library_error_is_one_message_not_a_traceback(app_db, monkeypatch):
+    from tracker import review
+    from tracker.errors import PourbackError
+
+    def broken(*args, **kwargs):
+        raise PourbackError("the log is locked by another writer; try again in a moment")
+
+    monkeypatch.setattr(review, "weekly_review", broken)
+    at = open_page(app_db, "weekly_review.py", monkeypatch)
+    assert not at.exception
+    assert texts(at.error) == ["the log is locked by another writer; try again in a moment"]
+    assert any(SAFETY_CAUTION in w for w in texts(at.warning))
+
+
+def test_user_text_in_messages_is_inert_markdown(app_db, monkeypatch):
+    at = _upload(open_page(app_db, "log_results.py", monkeypatch), "[click](x.example) **b** <i>.csv",
+                 "lot,inspected_on,method,quantity,result\nNO-SUCH-LOT,2026-11-25,visual,1,accept\n")
+    raw = at.error[0].value
+    assert raw.startswith(r"\[click\]\(x\.example\)")  # no live link
+    assert r"\*\*b\*\*" in raw and r"\<i\>" in raw  # no bold, no tag
+    assert texts(at.error)[0].startswith("[click](x.example) **b** <i>.csv: refused")

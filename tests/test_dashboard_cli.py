@@ -1,0 +1,140 @@
+"""`pourback dashboard` and `pourback demo`: the command line that serves the
+dashboard, and the demo log they build (the server itself is started in
+tests/test_browser.py)."""
+
+import sys
+
+import pytest
+
+from tracker.cli import cmd_app, main
+from tracker.store import Store
+
+
+@pytest.fixture
+def launched(monkeypatch):
+    """Catch the hand-over to Streamlit instead of replacing the test process."""
+    calls = []
+    monkeypatch.setattr(cmd_app, "_launch", lambda argv, env: calls.append((argv, env)))
+    return calls
+
+
+def test_dashboard_command_line(runner, launched, tmp_path):
+    db = tmp_path / "plant.db"
+    res = runner.invoke(main, ["dashboard", "--db", str(db), "--port", "8765"])
+    assert res.exit_code == 0, res.output
+    [(argv, env)] = launched
+    assert argv == [sys.executable, "-m", "streamlit", "run", str(cmd_app.app_path()),
+                    "--server.address", "127.0.0.1", "--server.port", "8765",
+                    "--server.headless", "true", "--browser.gatherUsageStats", "false",
+                    "--server.fileWatcherType", "none"]
+    assert cmd_app.app_path().name == "app.py" and cmd_app.app_path().parent.name == "dashboard"
+    assert env["POURBACK_DB"] == str(db.resolve())
+    assert f"Dashboard on {db.resolve()}: http://127.0.0.1:8765" in res.output
+    assert "no login" not in res.output
+    # A missing log is created empty, so the dashboard can show how to start.
+    with Store(db, create=False) as s:
+        assert s.counts()["lots"] == 0
+
+
+def test_dashboard_uses_pourback_db(runner, launched, tmp_path, monkeypatch):
+    db = tmp_path / "from-env.db"
+    monkeypatch.setenv("POURBACK_DB", str(db))
+    res = runner.invoke(main, ["dashboard"])
+    assert res.exit_code == 0, res.output
+    assert launched[0][1]["POURBACK_DB"] == str(db.resolve())
+    assert "--server.port" in launched[0][0] and launched[0][0][launched[0][0].index("--server.port") + 1] == "8501"
+
+
+def test_dashboard_other_host_warns(runner, launched, tmp_path):
+    res = runner.invoke(main, ["dashboard", "--db", str(tmp_path / "x.db"), "--host", "0.0.0.0"])
+    assert res.exit_code == 0, res.output
+    argv = launched[0][0]
+    assert argv[argv.index("--server.address") + 1] == "0.0.0.0"
+    assert "Note: the dashboard has no login; anyone who can reach 0.0.0.0:8501" in res.output
+
+
+def test_dashboard_refuses_a_bad_port(runner, launched, tmp_path):
+    res = runner.invoke(main, ["dashboard", "--db", str(tmp_path / "x.db"), "--port", "70000"])
+    assert res.exit_code == 2
+    assert "70000 is not in the range 1<=x<=65535" in res.output
+    assert not launched
+
+
+def test_demo_builds_reports_and_opens(runner, launched, tmp_path):
+    db = tmp_path / "demo.db"
+    res = runner.invoke(main, ["demo", "--db", str(db), "--port", "8600"])
+    assert res.exit_code == 0, res.output
+    assert f"Built the demo log {db.resolve()} (an invented foundry)" in res.output
+    assert "30 patterns, 57 zones, 8 sleeves, 61 risers in 31 revisions" in res.output
+    assert "1,190 lots, 2,024 inspection records" in res.output
+    assert f"Dashboard on {db.resolve()}: http://127.0.0.1:8600" in res.output
+    [(argv, env)] = launched
+    assert env["POURBACK_DB"] == str(db.resolve())
+    assert argv[argv.index("--server.port") + 1] == "8600"
+    with Store(db, create=False) as s:
+        assert s.get_meta("demo") == "1"
+        assert s.latest_model() is not None  # fitted up front for the Suggestions page
+
+
+def test_demo_no_dashboard_and_json(runner, launched, tmp_path):
+    import json
+
+    res = runner.invoke(main, ["demo", "--db", str(tmp_path / "d.db"), "--no-dashboard", "--json"])
+    assert res.exit_code == 0, res.output
+    d = json.loads(res.output)
+    assert (d["lots"], d["inspections"], d["opening"]) == (1190, 2024, False)
+    assert d["url"] == "http://127.0.0.1:8501"
+    assert not launched
+    text = runner.invoke(main, ["demo", "--db", str(tmp_path / "d.db"), "--no-dashboard", "--port", "8700"])
+    assert text.exit_code == 0, text.output
+    assert text.output.endswith(f"Open it with: pourback dashboard --db {(tmp_path / 'd.db').resolve()} --port 8700  ->  "
+                                "http://127.0.0.1:8700\n")
+
+
+def test_demo_replaces_only_its_own_log(runner, launched, tmp_path):
+    db = tmp_path / "demo.db"
+    assert runner.invoke(main, ["demo", "--db", str(db), "--no-dashboard"]).exit_code == 0
+    with Store(db) as s:  # a leftover write-ahead log must not leak into the new file
+        s.set_meta("marker", "old")
+    res = runner.invoke(main, ["demo", "--db", str(db), "--no-dashboard"])
+    assert res.exit_code == 0, res.output
+    with Store(db, create=False) as s:
+        assert s.count("inspections") == 2024  # rebuilt, not imported twice
+        assert s.get_meta("marker") is None
+    assert not list(tmp_path.glob("*.building*"))
+
+
+def test_demo_refuses_a_log_it_did_not_make(runner, launched, tmp_path):
+    db = tmp_path / "plant.db"
+    with Store(db) as s:
+        s.set_meta("site", "plant")
+    before = db.read_bytes()
+    res = runner.invoke(main, ["demo", "--db", str(db), "--no-dashboard"])
+    assert res.exit_code == 1
+    assert res.output == (f"Error: {db.resolve()} exists and was not made by `pourback demo`; it is left "
+                          "alone. Pass another file with --db, or move that one away\n")
+    assert db.read_bytes() == before
+    assert not launched
+
+
+def test_demo_refuses_a_file_that_is_no_log(runner, launched, tmp_path):
+    f = tmp_path / "notes.txt"
+    f.write_text("not a database\n")
+    res = runner.invoke(main, ["demo", "--db", str(f), "--no-dashboard"])
+    assert res.exit_code == 1 and "was not made by `pourback demo`" in res.output
+    assert f.read_text() == "not a database\n"
+
+
+def test_demo_generates_the_files_when_sample_data_is_missing(runner, launched, tmp_path, monkeypatch):
+    monkeypatch.setattr(cmd_app, "sample_dir", lambda: tmp_path / "no-sample-data")
+    res = runner.invoke(main, ["demo", "--db", str(tmp_path / "gen.db"), "--no-dashboard"])
+    assert res.exit_code == 0, res.output
+    assert "(an invented foundry) from generated" in res.output
+    # the committed files are the generator's default output, so the counts agree
+    assert "1,190 lots, 2,024 inspection records" in res.output
+
+
+def test_sample_dir_is_next_to_the_package():
+    import tracker
+
+    assert cmd_app.sample_dir() == cmd_app.pathlib.Path(tracker.__file__).resolve().parent.parent / "sample_data"

@@ -1,0 +1,634 @@
+"""Tables shaped for display: pure functions over a Store and pandas frames.
+
+The dashboard (``dashboard/``) shows what these return and computes nothing
+itself. Nothing here imports streamlit or prints. Column names of the
+display tables carry their unit ("castings", "mm", "%", "kg") so a table
+never shows a bare number.
+
+Rates: functions returning ``*_pct`` columns give percentages (0..100);
+every other rate is a fraction (0..1), as in ``tracker.stats``.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+import os
+import pathlib
+
+import numpy as np
+import pandas as pd
+
+from tracker import rules, stats
+from tracker.assess import assess_frame, caine_curve_points, revision_in_effect
+from tracker.errors import BadRow, NotFound
+from tracker.ingest import COLUMNS as IMPORT_COLUMNS
+from tracker.store import Store
+
+NONE = "(none)"  # the "no value" choice of an optional picker
+
+
+# --- data version (cache key) ------------------------------------------------------
+
+def db_version(path: str | os.PathLike) -> tuple:
+    """A value that changes whenever the database file changes.
+
+    SQLite in WAL mode writes to ``<db>-wal`` first, so both files' size and
+    modification time (ns) count. A missing file gives zeros.
+    """
+    out = []
+    for p in (pathlib.Path(path), pathlib.Path(f"{path}-wal")):
+        try:
+            st = p.stat()
+            out += [st.st_size, st.st_mtime_ns]
+        except OSError:
+            out += [0, 0]
+    return tuple(out)
+
+
+# --- what the log holds ------------------------------------------------------------
+
+def start_state(store: Store) -> dict:
+    """Counts of each table and what is missing before a page can show results.
+
+    ``ready`` is True when there are patterns, lots and inspections;
+    ``missing`` lists the import kinds still empty, in import order.
+    """
+    counts = store.counts()
+    missing = [k for k in ("patterns", "zones", "risers", "lots", "inspections") if counts.get(k, 0) == 0]
+    return {"counts": counts, "missing": missing,
+            "ready": all(counts.get(k, 0) > 0 for k in ("patterns", "lots", "inspections")),
+            "has_design": counts.get("risers", 0) > 0}
+
+
+def pattern_options(store: Store) -> pd.DataFrame:
+    """Patterns with alloy and description, and a picker label."""
+    p = store.table("patterns")
+    if p.empty:
+        return pd.DataFrame(columns=["pattern", "alloy", "description", "label"])
+    p = p[["pattern", "alloy", "description"]].copy()
+    p["label"] = p["pattern"] + " · " + p["description"].fillna("") + " (" + p["alloy"] + ")"
+    return p.reset_index(drop=True)
+
+
+def alloy_options(store: Store) -> list[str]:
+    """Alloys that at least one pattern is poured in, sorted."""
+    p = store.table("patterns")
+    return sorted(p["alloy"].dropna().unique().tolist()) if not p.empty else []
+
+
+def lot_options(store: Store, limit: int = 2000) -> pd.DataFrame:
+    """The newest ``limit`` lots with pattern, pour date and castings poured, and a picker label."""
+    codes = store.lot_codes(limit=limit)
+    if not codes:
+        return pd.DataFrame(columns=["lot", "pattern", "poured_on", "castings", "label"])
+    info = store.lots_info(codes)
+    rows = [{"lot": c, **info[c]} for c in codes if c in info]
+    out = pd.DataFrame(rows, columns=["lot", "pattern", "poured_on", "castings"])
+    out["label"] = (out["lot"] + " · " + out["pattern"] + " · poured " + out["poured_on"]
+                    + " · " + out["castings"].astype(int).astype(str) + " castings")
+    return out
+
+
+def zone_options(store: Store, pattern: str | None) -> list[str]:
+    """The zones of ``pattern`` (empty list for None or an unknown pattern)."""
+    if not pattern:
+        return []
+    return sorted(z for (p, z) in store.zone_levels(pattern) if p == pattern)
+
+
+# --- logging -------------------------------------------------------------------------
+
+def form_record(values: dict) -> dict:
+    """An inspection record for ``log_inspection`` from form values.
+
+    Blank strings and the ``NONE`` choice become None, dates become ISO
+    strings, text is stripped. Keys outside the inspection columns are
+    dropped, so the library validates exactly what the form sent.
+    """
+    required, optional = IMPORT_COLUMNS["inspections"]
+    out = {}
+    for key in required + optional:
+        v = values.get(key)
+        if isinstance(v, (dt.date, dt.datetime)):
+            v = v.isoformat()[:10]
+        if isinstance(v, str):
+            v = v.strip()
+            if v == "" or v == NONE:
+                v = None
+        if isinstance(v, float) and math.isnan(v):
+            v = None
+        out[key] = v
+    return out
+
+
+HISTORY_COLUMNS = {
+    "id": "record", "lot": "lot", "inspected_on": "inspected on", "method": "method",
+    "quantity": "quantity (castings)", "result": "result", "defect": "defect", "zone": "zone",
+    "recorded_by": "recorded by", "status": "status", "xray_category": "x-ray category",
+    "severity": "severity (1-5)", "inspector": "inspector", "notes": "notes",
+    "recorded_at": "recorded at (UTC)", "source": "source",
+}
+
+
+def latest_records(store: Store, limit: int = 50) -> pd.DataFrame:
+    """The newest ``limit`` inspection records for display, with a status column."""
+    h = store.inspections_history(limit=limit)
+    if h.empty:
+        return pd.DataFrame(columns=list(HISTORY_COLUMNS.values()))
+    status = np.where(h["superseded_by"].isna(),
+                      np.where(h["void"].astype(bool), "withdrawn", "current"),
+                      "superseded by " + h["superseded_by"].astype("Int64").astype(str))
+    h = h.assign(status=status)
+    h["severity"] = h["severity"].astype("Int64")
+    return h[list(HISTORY_COLUMNS)].rename(columns=HISTORY_COLUMNS).reset_index(drop=True)
+
+
+def problems_frame(problems: list[BadRow]) -> pd.DataFrame:
+    """The refused rows of an import, in file order: row number (header = row 1), column, reason."""
+    t = pd.DataFrame([{"row": p.row, "column": p.column, "reason": p.reason} for p in problems],
+                     columns=["row", "column", "reason"])
+    return t.sort_values("row", kind="stable").reset_index(drop=True)
+
+
+# --- weeks -------------------------------------------------------------------------
+
+def week_options(store: Store) -> list[str]:
+    """ISO weeks from the first to the last pour, newest first."""
+    first, last = store.pour_span()
+    if not first:
+        return []
+    start = stats.week_start(stats.iso_week(first))
+    end = stats.week_start(stats.iso_week(last))
+    n = (end - start).days // 7 + 1
+    return [stats.iso_week(end - dt.timedelta(weeks=i)) for i in range(n)]
+
+
+def pattern_weekly(store: Store, pattern: str, start: str | None = None,
+                   end: str | None = None) -> pd.DataFrame:
+    """One pattern's pours and rejects per ISO week of pour, every week in between included.
+
+    Counted as the weekly review counts (``tracker.review``): a casting is
+    *inspected* when its lot holds a current inspection record; rates are
+    castings rejected / castings inspected. Columns: week, week_start (the
+    Monday, a date), lots, poured, inspected, rejected, shrinkage_rejected
+    (castings), reject_rate_pct and shrinkage_rate_pct (%; NaN in a week
+    with nothing inspected).
+    """
+    store.pattern(pattern)  # NotFound with a hint for an unknown pattern
+    cols = ["week", "week_start", "lots", "poured", "inspected", "rejected", "shrinkage_rejected",
+            "reject_rate_pct", "shrinkage_rate_pct"]
+    counts = ["lots", "poured", "inspected", "rejected", "shrinkage_rejected"]
+    pours = store.pours_by_day(start, end, pattern)
+    if pours.empty:
+        return pd.DataFrame(columns=cols)
+    pours["week"] = stats.iso_week(pours["poured_on"]).to_numpy()
+    w = (pours.groupby("week")[["lots", "castings", "inspected_castings"]].sum()
+         .rename(columns={"castings": "poured", "inspected_castings": "inspected"}))
+    rej = store.rejects_by_day(start, end, pattern)
+    rej = rej[rej["result"] == "reject"]
+    if not rej.empty:
+        rej = rej.assign(week=stats.iso_week(rej["poured_on"]).to_numpy(),
+                         shrink=np.where(rej["defect"] == "shrinkage", rej["quantity"], 0))
+        g = rej.groupby("week")
+        w["rejected"] = g["quantity"].sum()
+        w["shrinkage_rejected"] = g["shrink"].sum()
+    first, last = stats.week_start(w.index.min()), stats.week_start(w.index.max())
+    weeks = [stats.iso_week(first + dt.timedelta(weeks=i)) for i in range((last - first).days // 7 + 1)]
+    w = w.reindex(weeks).rename_axis("week").reset_index()
+    for c in counts:
+        w[c] = pd.to_numeric(w.get(c, 0), errors="coerce").fillna(0).astype(np.int64)
+    w["week_start"] = [stats.week_start(x) for x in w["week"]]
+    seen = w["inspected"] > 0
+    w["reject_rate_pct"] = (100.0 * w["rejected"] / w["inspected"]).where(seen)
+    w["shrinkage_rate_pct"] = (100.0 * w["shrinkage_rejected"] / w["inspected"]).where(seen)
+    return w[cols]
+
+
+# --- pattern file ------------------------------------------------------------------
+
+DESIGN_COLUMNS = {
+    "revision": "revision", "effective_from": "effective from", "riser": "riser", "zone": "zone",
+    "placement": "placement", "top": "top", "diameter_mm": "diameter (mm)", "height_mm": "height (mm)",
+    "sleeve": "sleeve", "section_modulus_cm": "zone modulus (cm)", "riser_modulus_cm": "riser modulus (cm)",
+    "modulus_ratio": "modulus ratio", "caine_margin": "Caine margin", "feed_margin": "feed margin",
+    "riser_weight_kg": "riser weight (kg)", "passes": "passes all rules", "failed_rules": "failed rules",
+    "notes": "notes",
+}
+
+
+# The two halves of ``risers_by_revision``, for two narrower tables.
+DESIGN_PART = ["revision", "effective from", "riser", "zone", "placement", "top", "diameter (mm)",
+               "height (mm)", "sleeve", "riser weight (kg)"]
+MARGIN_PART = ["revision", "riser", "zone", "zone modulus (cm)", "riser modulus (cm)", "modulus ratio",
+               "Caine margin", "feed margin", "passes all rules", "failed rules", "notes"]
+
+
+def pattern_summary(store: Store, pattern: str) -> dict:
+    """A pattern's master data, its revisions and its pour totals (castings; rate in %
+    of castings inspected, as the weekly review counts)."""
+    p = store.pattern(pattern)
+    w = pattern_weekly(store, pattern)
+    poured, inspected, rejected = (int(w[c].sum()) if not w.empty else 0
+                                   for c in ("poured", "inspected", "rejected"))
+    lots = store.lots_frame(pattern=pattern)
+    return {**p, "lots": int(len(lots)), "poured": poured, "inspected": inspected, "rejected": rejected,
+            "reject_rate_pct": 100.0 * rejected / inspected if inspected else float("nan"),
+            "first_pour": lots["poured_on"].min() if not lots.empty else None,
+            "last_pour": lots["poured_on"].max() if not lots.empty else None,
+            "revisions": store.revisions_frame(pattern).to_dict("records")}
+
+
+def risers_by_revision(store: Store, pattern: str) -> pd.DataFrame:
+    """Every riser of every revision of ``pattern`` with its rule margins, for display.
+
+    Margins as ``tracker.assess.assess_frame``: modulus ratio = effective riser
+    modulus / zone modulus (rule: 1.2 or more); Caine margin = freezing ratio
+    above the curve (0 or more passes; blank where the alloy has no
+    constants); feed margin = feed volume held above the need, as a fraction
+    of the need (0 or more passes).
+    """
+    store.pattern(pattern)
+    r = store.risers_frame(pattern=pattern)
+    if r.empty:
+        return pd.DataFrame(columns=list(DESIGN_COLUMNS.values()))
+    a = assess_frame(r)
+    a["effective_from"] = r["effective_from"].to_numpy()
+    a["sleeve"] = a["sleeve"].fillna("none")
+    a["caine_margin"] = a["caine_margin"].where(a["caine_applied"].astype(bool))
+    a["failed_rules"] = a["failed_rules"].replace("", "none").str.replace(",", ", ")
+    a = a.sort_values(["effective_from", "revision", "riser"], kind="stable")
+    return a[list(DESIGN_COLUMNS)].rename(columns=DESIGN_COLUMNS).reset_index(drop=True)
+
+
+def revision_marks(store: Store, pattern: str) -> pd.DataFrame:
+    """Revision codes, their effective dates (as dates) and ISO weeks, for marking a time axis."""
+    r = store.revisions_frame(pattern)
+    r = r.assign(effective_from=pd.to_datetime(r["effective_from"]).dt.date,
+                 label="revision " + r["revision"].astype(str))
+    r["week"] = [stats.iso_week(d) for d in r["effective_from"]]
+    return r[["revision", "effective_from", "week", "label"]].reset_index(drop=True)
+
+
+# --- design map ----------------------------------------------------------------------
+
+def caine_curve(store: Store, alloy: str, y_max: float = 3.0, x_max: float = 10.0,
+                n: int = 200) -> pd.DataFrame | None:
+    """Caine's curve for ``alloy`` with the constants the log holds, or None without constants.
+
+    Volume ratio Y runs from just above b to ``y_max``; the part of the curve
+    whose freezing ratio X lies above ``x_max`` is cut, so the plot is not
+    squeezed by the asymptote at Y = b.
+    """
+    alloys = store.table("alloys").set_index("alloy")
+    if alloy not in alloys.index:
+        raise NotFound("alloy", alloy, "known alloys are " + ", ".join(alloys.index))
+    row = alloys.loc[alloy]
+    if pd.isna(row["caine_a"]):
+        return None
+    pts = caine_curve_points(float(row["caine_a"]), float(row["caine_b"]), float(row["caine_c"]),
+                             y_max=max(float(y_max), float(row["caine_b"]) * 2 + 0.05), n=n)
+    pts = pts[pts["freezing_ratio"] <= float(x_max)].reset_index(drop=True)
+    pts["alloy"] = alloy
+    return pts
+
+
+def filter_design_map(frame: pd.DataFrame, alloy: str | None = None,
+                      patterns: list[str] | None = None) -> pd.DataFrame:
+    """Rows of a design map (``tracker.features.design_map``) for one alloy and some patterns.
+
+    Adds shrinkage_rate_pct (% of castings poured rejected for shrinkage)
+    when the frame has shrinkage_rate; rows without a volume or freezing
+    ratio are dropped (nothing to place on the map).
+    """
+    f = frame
+    if alloy is not None and "alloy" in f:
+        f = f[f["alloy"] == alloy]
+    if patterns:
+        f = f[f["pattern"].isin(list(patterns))]
+    f = f.dropna(subset=[c for c in ("volume_ratio", "freezing_ratio") if c in f])
+    f = f.copy()
+    for key in ("shrinkage_rate", "wilson_low", "wilson_high"):
+        if key in f:
+            f[f"{key}_pct"] = _pct(f[key])
+    if "passes" in f:
+        f["rules_text"] = np.where(f["passes"].astype(bool), "passes every rule", "fails a rule")
+    return f.reset_index(drop=True)
+
+
+def design_map_summary(frame: pd.DataFrame) -> dict:
+    """Zones, castings and shrinkage rejects on a (filtered) design map, and how
+    many of the zones' risers fail a rule."""
+    if frame.empty:
+        return {"zones": 0, "castings": 0, "shrinkage_rejects": 0, "failing": 0, "rate_pct": float("nan")}
+    castings = int(frame["castings"].sum())
+    rejects = int(frame["shrinkage_rejects"].sum())
+    return {"zones": int(len(frame)), "castings": castings, "shrinkage_rejects": rejects,
+            "failing": int((~frame["passes"].astype(bool)).sum()) if "passes" in frame else 0,
+            "rate_pct": 100.0 * rejects / castings if castings else float("nan")}
+
+
+DESIGN_MAP_TABLE = {
+    "pattern": "pattern", "revision": "revision", "zone": "zone", "riser": "riser",
+    "shrinkage_rate_pct": "shrinkage rate (%)", "shrinkage_rejects": "shrinkage (castings)",
+    "castings": "castings poured", "volume_ratio": "volume ratio", "freezing_ratio": "freezing ratio",
+    "caine_margin": "Caine margin", "feed_margin": "feed margin", "rules_text": "rules",
+}
+
+
+def design_map_table(frame: pd.DataFrame) -> pd.DataFrame:
+    """A filtered design map as a table, worst shrinkage rate first."""
+    cols = [c for c in DESIGN_MAP_TABLE if c in frame]
+    if frame.empty:
+        return pd.DataFrame(columns=[DESIGN_MAP_TABLE[c] for c in cols] or list(DESIGN_MAP_TABLE.values()))
+    f = frame.sort_values(["shrinkage_rate_pct", "castings"], ascending=[False, False], kind="stable")
+    return f[cols].rename(columns=DESIGN_MAP_TABLE).reset_index(drop=True)
+
+
+# --- suggestions ---------------------------------------------------------------------
+
+SUGGESTION_COLUMNS = {
+    "pattern": "pattern", "zone": "zone", "riser": "riser", "action": "action",
+    "current_diameter_mm": "now: diameter (mm)", "current_sleeve": "now: sleeve",
+    "suggested_diameter_mm": "suggested: diameter (mm)", "suggested_sleeve": "suggested: sleeve",
+    "reject_rate_pct": "reject rate now (%)", "predicted_rate_after_pct": "predicted after (%)",
+    "added_metal_kg_per_mold": "added metal (kg per mold)",
+    "yield_before_pct": "yield now (%)", "yield_after_pct": "yield after (%)",
+    "yearly_balance": "balance (currency units/year)", "reason": "why",
+}
+# The two halves of ``suggestions_table``: what to change, and what it brings.
+CHANGE_PART = ["pattern", "zone", "riser", "action", "now: diameter (mm)", "now: sleeve",
+               "suggested: diameter (mm)", "suggested: sleeve"]
+BALANCE_PART = ["pattern", "zone", "reject rate now (%)", "predicted after (%)",
+                "added metal (kg per mold)", "yield now (%)", "yield after (%)",
+                "balance (currency units/year)"]
+
+
+def _pct(series: pd.Series) -> pd.Series:
+    return 100.0 * pd.to_numeric(series, errors="coerce")
+
+
+def suggestions_table(suggestions: list[dict]) -> pd.DataFrame:
+    """Suggestions (``tracker.advise.suggest``) as a display table, rates and yields in %.
+
+    Columns the suggestions lack are left out; the order is SUGGESTION_COLUMNS'.
+    """
+    if not suggestions:
+        return pd.DataFrame(columns=list(SUGGESTION_COLUMNS.values()))
+    s = pd.DataFrame(suggestions)
+    s["action"] = s["action"].str.replace("_", " ")
+    for key in ("reject_rate", "predicted_rate_after", "yield_before", "yield_after"):
+        if key in s:
+            s[f"{key}_pct"] = _pct(s[key])
+    has_riser = s["riser"].notna() if "riser" in s else pd.Series(False, index=s.index)
+    for key in ("suggested_sleeve", "current_sleeve"):
+        if key in s:  # "none" = a bare riser; blank where no riser is concerned
+            fill = pd.Series(np.where(has_riser, "none", None), index=s.index, dtype=object)
+            s[key] = s[key].astype(object).where(s[key].notna(), fill)
+    cols = [c for c in SUGGESTION_COLUMNS if c in s]
+    return s[cols].rename(columns=SUGGESTION_COLUMNS).reset_index(drop=True)
+
+
+WHAT_IF_RULES = (("modulus rule", "modulus_ratio", rules.DEFAULT_MODULUS_FACTOR),
+                 ("Caine's curve", "caine_margin", 0.0),
+                 ("feed volume", "feed_margin", 0.0))
+
+
+def what_if_margins(result: dict) -> pd.DataFrame:
+    """Rule margins of a what-if (``tracker.advise.what_if``), now and changed.
+
+    One row per rule and design ("now", "changed"): ``margin`` is how far the
+    riser clears the rule (0 = just passes): modulus ratio less 1.2, Caine
+    margin, feed margin. Caine's rows are left out where the alloy has no
+    constants.
+    """
+    rows = []
+    for rule, key, need in WHAT_IF_RULES:
+        now, new = result.get(f"{key}_now"), result.get(key)
+        if now is None and new is None:
+            continue
+        for design, v in (("now", now), ("changed", new)):
+            rows.append({"rule": rule, "design": design,
+                         "margin": float("nan") if v is None else float(v) - need})
+    return pd.DataFrame(rows, columns=["rule", "design", "margin"])
+
+
+def riser_options(store: Store, on: str | None = None) -> pd.DataFrame:
+    """Risers of each pattern's revision in effect on ``on`` (default: the newest one of each).
+
+    Columns: pattern, revision, riser, zone, alloy, placement, diameter_mm,
+    height_mm, sleeve and a picker label.
+    """
+    r = store.risers_frame()
+    cols = ["pattern", "revision", "riser", "zone", "alloy", "placement", "diameter_mm", "height_mm",
+            "sleeve", "label"]
+    if r.empty:
+        return pd.DataFrame(columns=cols)
+    revs = store.revisions_frame()
+    current = (revision_in_effect(revs, on) if on else
+               revs.sort_values(["pattern", "effective_from"]).groupby("pattern", as_index=False).tail(1))
+    r = r.merge(current[["pattern", "revision"]], on=["pattern", "revision"])
+    r["label"] = (r["pattern"] + " · " + r["riser"] + " on " + r["zone"] + " · "
+                  + r["diameter_mm"].map(lambda d: f"{d:g}") + " mm"
+                  + r["sleeve"].map(lambda s: f", sleeve {s}" if isinstance(s, str) and s else ", no sleeve"))
+    return r[cols].sort_values(["pattern", "riser"]).reset_index(drop=True)
+
+
+def sleeve_options(store: Store) -> pd.DataFrame:
+    """The sleeve catalogue with a picker label (kind, inner diameter, height, factor)."""
+    s = store.table("sleeves")
+    if s.empty:
+        return pd.DataFrame(columns=["sleeve", "kind", "inner_diameter_mm", "label"])
+    s = s.copy()
+    s["label"] = (s["sleeve"] + " · " + s["kind"] + " · " + s["inner_diameter_mm"].map(lambda v: f"{v:g}")
+                  + " x " + s["height_mm"].map(lambda v: f"{v:g}") + " mm · factor "
+                  + s["modulus_factor"].map(lambda v: f"{v:g}"))
+    return s.reset_index(drop=True)
+
+
+# --- weekly review ---------------------------------------------------------------------
+
+RULE_WORDS = {"beyond_limit": "point beyond a limit", "run_of_8": "8 or more weeks on one side"}
+REASON_WORDS = {"signal:beyond_limit": "chart: point above the upper limit",
+                "signal:run_of_8": "chart: 8 or more weeks above the centre",
+                "shrinkage_above_target": "shrinkage rate above target",
+                "rejects_above_target": "reject rate above target"}
+VERDICT_WORDS = {"improved": "improved", "worse": "worse", "no_clear_change": "no clear change",
+                 "not_enough_data": "not enough data yet"}
+
+
+def signal_words(names) -> str:
+    """Signal rule names (``tracker.stats.RULES``) in words ("" for none)."""
+    if names is None or (isinstance(names, float) and math.isnan(names)):
+        return ""
+    if isinstance(names, str):
+        names = [r for r in names.split(",") if r]
+    return ", ".join(RULE_WORDS.get(r, str(r)) for r in names)
+
+
+def reason_words(reasons) -> str:
+    """Why a pattern is flagged, in words ("" when it is not)."""
+    return ", ".join(REASON_WORDS.get(r, str(r)) for r in (reasons or []))
+
+
+def _num(v) -> float:
+    return float("nan") if v is None else float(v)
+
+
+def review_headline(review: dict) -> dict:
+    """Headline figures of a review: the review week and the whole window.
+
+    Counts in castings, rates in %, costs in the log's currency units.
+    """
+    out = {}
+    for part in ("week", "window"):
+        t = review["totals"][part]
+        out[part] = {"poured": int(t["poured"]), "inspected": int(t["inspected"]),
+                     "rejected": int(t["rejected"]), "reworked": int(t.get("reworked") or 0),
+                     "reject_rate_pct": 100.0 * _num(t["reject_rate"]),
+                     "wilson_low_pct": 100.0 * _num(t.get("wilson_low")),
+                     "wilson_high_pct": 100.0 * _num(t.get("wilson_high")),
+                     "scrap_cost": _num(t["scrap_cost"])}
+    out["problems"] = list(review.get("problems") or [])
+    out["patterns"] = len(review.get("patterns") or [])
+    out["target_pct"] = 100.0 * _num(review.get("target"))
+    return out
+
+
+PATTERN_TABLE = {
+    "pattern": "pattern",
+    "poured": "poured (castings)", "rejected": "rejected (castings)", "reject_rate_pct": "reject rate (%)",
+    "range_text": "95 % range (%)", "shrinkage_rejected": "of which shrinkage (castings)",
+    "scrap_cost": "scrap cost (currency units)", "flag_text": "flagged because",
+}
+
+
+def _range(lo, hi) -> str:
+    if lo is None or hi is None or lo != lo or hi != hi:
+        return ""
+    return f"{100 * lo:.1f} to {100 * hi:.1f}"
+
+
+def review_patterns_table(review: dict) -> pd.DataFrame:
+    """The review's pattern rows for display, by scrap cost: rates in %, flags in words."""
+    rows = review.get("patterns") or []
+    if not rows:
+        return pd.DataFrame(columns=list(PATTERN_TABLE.values()))
+    p = pd.DataFrame(rows)
+    p["reject_rate_pct"] = _pct(p["reject_rate"])
+    p["range_text"] = [_range(lo, hi) for lo, hi in zip(p["wilson_low"], p["wilson_high"])]
+    p["flag_text"] = p["problem_reasons"].map(reason_words)
+    return p[list(PATTERN_TABLE)].rename(columns=PATTERN_TABLE).reset_index(drop=True)
+
+
+def review_pareto(review: dict, of: str = "patterns", by: str = "cost") -> pd.DataFrame:
+    """Pareto rows of the review (``of`` patterns or defects, ``by`` cost or count), largest first.
+
+    Columns: the item (``pattern`` or ``defect``), ``value`` (scrap cost in
+    currency units, or castings rejected), ``share_pct``,
+    ``cumulative_pct``, ``vital_few`` and ``rank`` (1 = largest).
+    """
+    if of not in ("patterns", "defects") or by not in ("cost", "count"):
+        from tracker.errors import BadInput
+        raise BadInput("pareto", f"{of}/{by}", "use of = patterns or defects, by = cost or count")
+    rows = review.get("pareto", {}).get(f"{of}_by_{by}") or []
+    item = "pattern" if of == "patterns" else "defect"
+    value = "scrap_cost" if by == "cost" else "rejected"
+    cols = [item, "value", "share_pct", "cumulative_pct", "vital_few", "rank"]
+    if not rows:
+        return pd.DataFrame(columns=cols)
+    d = pd.DataFrame(rows)
+    d = d[d[value].fillna(0) > 0].reset_index(drop=True)
+    d["value"] = d[value].astype(float)
+    d["share_pct"] = _pct(d["share"])
+    d["cumulative_pct"] = _pct(d["cumulative_share"])
+    d["rank"] = np.arange(1, len(d) + 1)
+    return d[cols]
+
+
+def review_trend(review: dict) -> pd.DataFrame:
+    """Weekly totals of the review window: castings, reject rate and its Wilson bounds in %."""
+    rows = review.get("trend", {}).get("overall") or []
+    cols = ["week", "week_start", "poured", "inspected", "rejected", "scrap_cost", "reject_rate_pct",
+            "wilson_low_pct", "wilson_high_pct"]
+    if not rows:
+        return pd.DataFrame(columns=cols)
+    t = pd.DataFrame(rows)
+    t["week_start"] = pd.to_datetime(t["week_start"]).dt.date
+    for key in ("reject_rate", "wilson_low", "wilson_high"):
+        t[f"{key}_pct"] = _pct(t[key])
+    return t[cols]
+
+
+def review_pchart(review: dict, pattern: str) -> pd.DataFrame:
+    """One pattern's weekly p-chart from the review, rates and limits in %.
+
+    Adds ``status``: "signal" (a rule fired at that week), "in control", or
+    "nothing inspected".
+    """
+    for p in review.get("patterns") or []:
+        if p["pattern"] == pattern:
+            c = pd.DataFrame(p["pchart"])
+            break
+    else:
+        raise NotFound("pattern", pattern, "it was not poured in the review window")
+    c = c.rename(columns={"label": "week"})
+    c["week_start"] = pd.to_datetime(c["week_start"]).dt.date
+    for key in ("p", "centre", "lcl", "ucl"):
+        c[f"{key}_pct"] = _pct(c[key])
+    c["status"] = np.where(c["inspected"] == 0, "nothing inspected",
+                           np.where(c["signal"].astype(bool), "signal", "in control"))
+    return c
+
+
+REVISION_TABLE = {
+    "pattern": "pattern", "revision": "revision", "effective_from": "effective from",
+    "change_text": "what changed", "before_text": "before: shrinkage rejects",
+    "after_text": "after: shrinkage rejects", "difference_pct": "change (% points)",
+    "p_value": "p-value (Fisher)", "verdict_text": "verdict",
+}
+
+
+def _share(part: dict, rate) -> str:
+    return (f"{part['shrinkage_rejected']} of {part['inspected']} castings"
+            + ("" if rate is None else f" ({100 * rate:.1f} %)"))
+
+
+def review_revisions_table(review: dict) -> pd.DataFrame:
+    """Riser revisions under judgement: what changed, shrinkage rejects before and after
+    (in the zones of the changed risers), the change in % points, and the verdict in words."""
+    rows = review.get("revisions") or []
+    if not rows:
+        return pd.DataFrame(columns=list(REVISION_TABLE.values()))
+    out = []
+    for r in rows:
+        changes = r.get("riser_changes") or []
+        prev = r.get("previous_revision")
+        out.append({
+            "pattern": r["pattern"], "effective_from": r["effective_from"], "p_value": r.get("p_value"),
+            "revision": f"{r['revision']}" + (f" (was {prev})" if prev else ""),
+            "change_text": "; ".join(f"{c['riser']}: {c['change']}" for c in changes) or "no riser changed",
+            "before_text": _share(r["before"], r.get("rate_before")),
+            "after_text": _share(r["after"], r.get("rate_after")),
+            "difference_pct": 100.0 * _num(r.get("difference")),
+            "verdict_text": VERDICT_WORDS.get(r.get("verdict"), str(r.get("verdict"))),
+        })
+    return pd.DataFrame(out)[list(REVISION_TABLE)].rename(columns=REVISION_TABLE)
+
+
+def review_changes(review: dict) -> dict:
+    """What moved since the previous week's review, as lists of short lines."""
+    c = review.get("changes") or {}
+    moves = [f"{m['pattern']}: {100 * _num(m['previous_week_reject_rate']):.1f} % → "
+             f"{100 * _num(m['week_reject_rate']):.1f} % of castings inspected"
+             for m in c.get("rate_moves") or []]
+    return {
+        "previous_week": c.get("previous_week"),
+        "new_problems": [f"{x['pattern']} ({reason_words(x.get('problem_reasons'))})"
+                         for x in c.get("new_problems") or []],
+        "no_longer_problems": list(c.get("no_longer_problems") or []),
+        "still_problems": list(c.get("still_problems") or []),
+        "revisions_took_effect": [f"{x['pattern']} revision {x['revision']} from {x['effective_from']}"
+                                  for x in c.get("revisions_took_effect") or []],
+        "rate_moves": moves,
+    }
