@@ -32,7 +32,8 @@ def streamlit_argv(host: str, port: int) -> list[str]:
     """The command line that serves the dashboard."""
     return [sys.executable, "-m", "streamlit", "run", str(app_path()),
             "--server.address", host, "--server.port", str(port), "--server.headless", "true",
-            "--browser.gatherUsageStats", "false", "--server.fileWatcherType", "none"]
+            "--browser.gatherUsageStats", "false", "--server.fileWatcherType", "none",
+            "--client.toolbarMode", "minimal"]
 
 
 def _launch(argv: list[str], env: dict) -> None:
