@@ -414,7 +414,7 @@ class _Frame:
         self.n = max(n, 1)
         self.ymax, self.step = _nice_scale(ymax)
         self.w, self.h = width, height
-        self.l, self.r, self.t, self.b = left, (52 if y2 else right), top, bottom
+        self.l, self.r, self.t, self.b = left, (62 if y2 else right), top, bottom
         self.pw = self.w - self.l - self.r
         self.ph = self.h - self.t - self.b
 
@@ -529,8 +529,8 @@ def svg_pareto(review: dict) -> str:
     for v in (0, 25, 50, 75, 100):
         y = f.t + f.ph * (1 - v / 100)
         body.append(f'<text x="{xr + 6}" y="{y + 4:.1f}" class="tick">{v}</text>')
-    body.append(f'<text x="{f.w - 8}" y="{f.t + f.ph / 2:.1f}" text-anchor="middle" class="axis" '
-                f'transform="rotate(90 {f.w - 8} {f.t + f.ph / 2:.1f})">Cumulative share (%)</text>')
+    body.append(f'<text x="{f.w - 16}" y="{f.t + f.ph / 2:.1f}" text-anchor="middle" class="axis" '
+                f'transform="rotate(90 {f.w - 16} {f.t + f.ph / 2:.1f})">Cumulative share (%)</text>')
     y80 = f.t + f.ph * 0.2
     body.append(f'<line x1="{f.l}" y1="{y80:.1f}" x2="{xr}" y2="{y80:.1f}" stroke="{GRID}" '
                 f'stroke-dasharray="3 3"/>')
