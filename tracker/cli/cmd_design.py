@@ -9,8 +9,8 @@ from tracker.cautions import SAFETY_CAUTION
 from tracker.cli import caution_text, db_option, emit, handle_errors, json_option, main, open_store, table
 
 @main.command()
-@click.option("--alloy", required=True, type=click.Choice(sorted(ALLOYS), case_sensitive=False),
-              help="Alloy family.")
+@click.option("--alloy", required=True, metavar="ALLOY",
+              help="Alloy family: " + ", ".join(sorted(ALLOYS)) + ".")
 @click.option("--volume-cm3", type=float, required=True, help="Volume of the fed section, cm³.")
 @click.option("--area-cm2", type=float, required=True, help="Cooling area of the fed section, cm².")
 @click.option("--placement", type=click.Choice(["top", "side"]), default="side", show_default=True,
