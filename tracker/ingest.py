@@ -408,6 +408,8 @@ class _Importer:
         self._lot_tot = np.zeros((0, 1 + len(METHODS)), dtype=np.int64)
         self._lot_castings = np.zeros(0, dtype=np.int64)
         self._revisions_in_file: dict[tuple, dict] = {}
+        self.pending_risers: list[tuple] = []  # riser rows, written after their revisions
+        self.already_present = np.zeros(0, dtype=bool)  # inspections: rows stored before
         # A log with no inspection record yet (a first bulk load) holds nothing a file's
         # rows could repeat and no earlier totals for their lots: no need to look them up.
         # (Rows written by this file's earlier chunks never collide: keys count occurrences.)
@@ -624,7 +626,7 @@ class _Importer:
                                                                               sorted(keys))
         new = np.array([k not in present for k in keys], dtype=bool)
         self._check_lot_totals(c, lot, method, result, qty, known, new, info)
-        self._skip_present = ~new
+        self.already_present = ~new
         # Column by column (blank text and NaN as NULL, as _none / _int_or_none give them),
         # then zipped into rows: a Python call per cell is most of an import's time.
         columns = [lot_l, on.tolist(), method.tolist(), _ints(qty), result.tolist(), _nulls(defect),
@@ -782,78 +784,84 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
     from tracker.errors import BadInput
 
     today = today or dt.date.today()
-    results = []
     with store.write():
+        results = []
         for kind, path in items:
             if kind not in KINDS:
                 raise BadInput("kind", kind, "must be one of " + ", ".join(KINDS))
             path = pathlib.Path(path)
             if not path.is_file():
                 raise BadFile(path.name, [], f"{path}: no such file")
-            result = ImportResult(kind=kind, file=path.name)
-            imp = _Importer(store, kind, path.name, today, by, result)
-            for chunk in _read_chunks(path, kind, chunk_rows):
-                if not len(chunk):
-                    continue
-                c = _Checks(path.name, chunk, result)
-                rows = imp.validate(c)
-                result.rows += len(rows)
-                if kind == "inspections":
-                    skip = imp._skip_present & ~c.bad
-                else:
-                    skip = _compare_existing(store, kind, rows, c)
-                    skip &= ~c.bad
-                    # a key repeated within this chunk: same content is one row, other content refused
-                    key_idx = [TABLE_COLUMNS[kind].index(k) for k in KEYS[kind]]
-                    seen: dict = {}
-                    for i, r in enumerate(rows):
-                        if c.bad[i] or skip[i]:
-                            continue
-                        k = tuple(r[j] for j in key_idx)
-                        if k in seen:
-                            if _same(seen[k], r):
-                                skip[i] = True
-                            else:
-                                c.fail(np.arange(len(rows)) == i, KEYS[kind][-1],
-                                       f"{' / '.join(map(str, k))} appears twice in the file with "
-                                       "different content")
-                        else:
-                            seen[k] = r
-                good = [r for r, b, s in zip(rows, c.bad, skip) if not b and not s]
-                result.skipped += int((skip & ~c.bad).sum())
-                result.refused += int(c.bad.sum())
-                if c.bad.any():
-                    for i in np.flatnonzero(c.bad):
-                        row = chunk.iloc[i].to_dict()
-                        row = {"row": row.pop("_row"), **row, "reason": c.reasons.get(i, "")}
-                        result.refused_rows.append(row)
-                if not (result.refused and not skip_bad):
-                    table = kind
-                    if kind == "risers":
-                        # revisions first (risers reference them); collected at the end
-                        imp._pending = getattr(imp, "_pending", []) + good
-                    else:
-                        result.added += store.insert_rows(table, good)
-                if progress:
-                    progress(len(chunk))
-            if kind == "risers":
-                new_revs, problems = imp.finish_risers()
-                for p in problems:
-                    result.problems.append(p)
-                    result.refused += 1
-                    result.refused_rows.append({"row": p.row, "reason": str(p)})
-                if not (result.refused and not skip_bad):
-                    # With skip_bad the revisions without problems are written; the rows of a
-                    # refused revision (the only pending rows outside new_revs) go with it.
-                    store.insert_rows("revisions", new_revs)
-                    pending = getattr(imp, "_pending", [])
-                    stored_revs = {(p, r) for p, r, _ in new_revs}
-                    rows_new = [r for r in pending if (r[0], r[1]) in stored_revs]
-                    result.added += store.insert_rows("risers", rows_new)
+            result = _import_one(store, kind, path, skip_bad=skip_bad, by=by, today=today,
+                                 progress=progress, chunk_rows=chunk_rows)
             if result.refused and not skip_bad:
-                raise BadFile(path.name, result.problems)
+                raise BadFile(path.name, result.problems)  # rolls the whole transaction back
             results.append(result)
-    return results
+        return results
+
+
+def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, today, progress,
+                chunk_rows) -> ImportResult:
+    """Validate one file chunk by chunk inside the open transaction and write
+    its good rows (none once a row is refused, unless ``skip_bad``)."""
+    result = ImportResult(kind=kind, file=path.name)
+    imp = _Importer(store, kind, path.name, today, by, result)
+    for chunk in _read_chunks(path, kind, chunk_rows):
+        if not len(chunk):
+            continue
+        c = _Checks(path.name, chunk, result)
+        rows = imp.validate(c)
+        result.rows += len(rows)
+        if kind == "inspections":
+            skip = imp.already_present & ~c.bad
+        else:
+            skip = _compare_existing(store, kind, rows, c) & ~c.bad
+            _repeated_keys(kind, rows, c, skip)
+        good = [r for r, b, sk in zip(rows, c.bad, skip) if not b and not sk]
+        result.skipped += int((skip & ~c.bad).sum())
+        result.refused += int(c.bad.sum())
+        for i in np.flatnonzero(c.bad):
+            row = chunk.iloc[i].to_dict()
+            result.refused_rows.append({"row": row.pop("_row"), **row, "reason": c.reasons.get(i, "")})
+        if not (result.refused and not skip_bad):
+            if kind == "risers":
+                imp.pending_risers.extend(good)  # written after their revisions, at the end
+            else:
+                result.added += store.insert_rows(kind, good)
+        if progress:
+            progress(len(chunk))
+    if kind == "risers":
+        new_revs, problems = imp.finish_risers()
+        for p in problems:
+            result.problems.append(p)
+            result.refused += 1
+            result.refused_rows.append({"row": p.row, "reason": str(p)})
+        if not (result.refused and not skip_bad):
+            # With skip_bad the revisions without problems are written; the rows of a
+            # refused revision (the only pending rows outside new_revs) go with it.
+            store.insert_rows("revisions", new_revs)
+            stored_revs = {(p, r) for p, r, _ in new_revs}
+            rows_new = [r for r in imp.pending_risers if (r[0], r[1]) in stored_revs]
+            result.added += store.insert_rows("risers", rows_new)
+    return result
+
+
+def _repeated_keys(kind: str, rows: list[tuple], c: _Checks, skip: np.ndarray) -> None:
+    """A key repeated within a chunk: the same content is one row (skip the
+    repeat), other content is refused."""
+    key_idx = [TABLE_COLUMNS[kind].index(k) for k in KEYS[kind]]
+    seen: dict = {}
+    for i, r in enumerate(rows):
+        if c.bad[i] or skip[i]:
+            continue
+        k = tuple(r[j] for j in key_idx)
+        if k not in seen:
+            seen[k] = r
+        elif _same(seen[k], r):
+            skip[i] = True
+        else:
+            c.fail(np.arange(len(rows)) == i, KEYS[kind][-1],
+                   f"{' / '.join(map(str, k))} appears twice in the file with different content")
 
 
 def import_dir(store: Store, folder: str | os.PathLike, **kwargs) -> list[ImportResult]:
