@@ -205,13 +205,26 @@ def _neck_candidate(base: pd.Series, judged: pd.Series) -> dict | None:
 
 # --- suggestions ----------------------------------------------------------------
 
-def _pattern_window_stats(store: Store, pattern: str, start: str, end: str, current_rev: str):
-    lots = store.lots_frame(start, end, pattern)
-    rej = store.rejects_by_lot(start, end, pattern)
+def _window_frames(store: Store, patterns: list[str], start: str, end: str) -> dict:
+    """Lots, rejects by lot and zone features of ``patterns`` in the window, fetched
+    once for all of them (per pattern, the queries and the riser assessment would
+    be repeated for every problem pattern)."""
+    lots = store.lots_frame(start, end, patterns)
+    rej = store.rejects_by_lot(start, end, patterns)
+    return {"lots": lots, "rejects": rej.merge(lots[["lot", "pattern"]], on="lot", how="left"),
+            "features": zone_lot_features(store, start, end, patterns)}
+
+
+def _pattern_window_stats(store: Store, pattern: str, start: str, end: str, current_rev: str,
+                          window: dict | None = None):
+    if window is None:
+        window = _window_frames(store, [pattern], start, end)
+    lots = window["lots"][window["lots"]["pattern"] == pattern]
+    rej = window["rejects"][window["rejects"]["pattern"] == pattern]
     rej = rej[rej["result"] == "reject"]
     by_defect = rej.groupby("defect")["quantity"].sum().sort_values(ascending=False)
-    feats = zone_lot_features(store, start, end, pattern)
-    feats = feats[feats["revision"] == current_rev]
+    feats = window["features"]
+    feats = feats[(feats["pattern"] == pattern) & (feats["revision"] == current_rev)]
     zones = feats.groupby("zone").agg(castings=("castings", "sum"),
                                       shrinkage_rejects=("shrinkage_rejects", "sum"))
     return lots, by_defect, zones
@@ -245,13 +258,15 @@ def suggest(store: Store, pattern: str | None = None, target: float = 0.02, week
     sleeves = store.table("sleeves")
     out: list[dict] = []
     revisions = store.revisions_frame()
+    window = _window_frames(store, patterns, first.isoformat(), last.isoformat())
     for pat in patterns:
         out.extend(_suggest_pattern(store, pat, target, first.isoformat(), last.isoformat(), weeks,
-                                    step_mm, model, sleeves, revisions))
+                                    step_mm, model, sleeves, revisions, window))
     return out
 
 
-def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, sleeves, revisions) -> list[dict]:
+def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, sleeves, revisions,
+                     window=None) -> list[dict]:
     info = store.pattern(pat)
     current = revision_in_effect(revisions[revisions["pattern"] == pat], end)
     base_out = {"pattern": pat, "alloy": info["alloy"], "caution": SAFETY_CAUTION}
@@ -260,7 +275,7 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
                  "reason": f"no riser revision of {pat} is in effect on {end}; import its risers first"}]
     rev = current["revision"].iat[0]
     risers = store.risers_frame(pattern=pat, revision=rev)
-    lots, by_defect, zones = _pattern_window_stats(store, pat, start, end, rev)
+    lots, by_defect, zones = _pattern_window_stats(store, pat, start, end, rev, window)
     poured = int(lots["castings"].sum())
     per_year = poured * 52.0 / weeks
     cost_per_scrap = info["casting_weight_kg"] * info["metal_cost_per_kg"] + \

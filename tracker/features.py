@@ -67,7 +67,7 @@ def zone_lot_features(store: Store, start: str | None = None, end: str | None = 
     """
     lots = _lots_with_revision(store, start, end, pattern)
     lots = lots[lots["revision"].notna()] if "revision" in lots else lots.iloc[0:0]
-    design = zone_design(store)
+    design = zone_design(store, pattern)  # one pattern's risers only, when one is asked for
     if lots.empty or design.empty:
         return pd.DataFrame(columns=FEATURE_COLUMNS)
     temp = lots["pour_temp_c"].astype(float)

@@ -462,8 +462,8 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: d
     shr = r[r["defect"] == SHRINKAGE]
     spans = shr.merge(cand[["cid", "pattern", "before_start", "after_end"]], on="pattern")
     spans = spans[(spans["poured_on"] >= spans["before_start"]) & (spans["poured_on"] <= spans["after_end"])]
-    zoned = spans.groupby("cid")["zone"].apply(lambda z: bool(z.notna().any())).reindex(cand["cid"],
-                                                                                        fill_value=False)
+    # vectorised (no Python call per revision); a boolean Series also reindexes when spans is empty
+    zoned = spans["zone"].notna().groupby(spans["cid"]).any().reindex(cand["cid"], fill_value=False)
     use_zones = np.array([bool(z) for z in cand["zones"]]) & zoned.to_numpy(bool)
     cand["basis"] = np.where(~np.array([bool(z) for z in cand["zones"]]), "all zones (no riser changed)",
                              np.where(use_zones, "zones of the changed risers",
