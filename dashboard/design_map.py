@@ -32,8 +32,11 @@ def main() -> None:
     c1, c2, c3 = st.columns([3, 2, 3])
     alloy = c1.selectbox("Alloy (one curve per alloy)", alloys, format_func=alloy_name, key="alloy",
                          index=alloys.index("steel") if "steel" in alloys else 0)
-    period = c2.date_input("Pour period", value=(first, last), min_value=first, max_value=last,
-                           format="YYYY-MM-DD", key="period")
+    # The last year of pours by default: a long log's whole history is slow to
+    # draw and mixes designs long since changed.
+    shown_from = max(first, last - dt.timedelta(weeks=52))
+    period = c2.date_input("Pour period (default: the last 52 weeks)", value=(shown_from, last),
+                           min_value=first, max_value=last, format="YYYY-MM-DD", key="period")
     opts = common.load("pattern_options")
     opts = opts[opts["alloy"] == alloy]
     labels = dict(zip(opts["pattern"], opts["label"]))
