@@ -130,3 +130,59 @@ def test_suggest_cli_json(demo_db, tmp_path, runner):
     res = runner.invoke(main, ["suggest", "--db", str(db), "--target", "2"])
     assert res.exit_code == 1
     assert "target: got 2.0; must be a fraction between 0 and 1" in res.output
+
+
+def _twin_riser_log(tmp_path, store):
+    """A steel plate fed by two undersized side risers with narrow necks, a
+    feeding length beyond 4.5 T, and shrinkage in the plate."""
+    from tracker.ingest import import_dir
+
+    files = {
+        "patterns.csv": "pattern,description,alloy,casting_weight_kg,castings_per_mold,metal_cost_per_kg\n"
+                        "S2,twin-riser plate,steel,40,1,1.8\n",
+        "zones.csv": "pattern,zone,volume_cm3,cooling_area_cm2,thickness_mm,length_mm\nS2,plate,6000,3000,40,400\n",
+        "risers.csv": "pattern,revision,effective_from,riser,zone,placement,top,diameter_mm,height_mm,neck_diameter_mm\n"
+                      "S2,1,2026-01-05,R1,plate,side,blind,110,110,70\nS2,1,2026-01-05,R2,plate,side,blind,110,110,70\n",
+    }
+    lots = ["lot,pattern,poured_on,heat,molds"]
+    insp = ["lot,inspected_on,method,quantity,result,defect,zone"]
+    start = dt.date(2026, 9, 7)
+    for i in range(40):
+        d = start + dt.timedelta(days=i)
+        lots.append(f"S2-{i},S2,{d},H{i},10")
+        rej = 1 + i % 2
+        insp.append(f"S2-{i},{d + dt.timedelta(days=1)},visual,{10 - rej},accept,,")
+        insp.append(f"S2-{i},{d + dt.timedelta(days=1)},visual,{rej},reject,shrinkage,plate")
+    files["lots.csv"] = "\n".join(lots) + "\n"
+    files["inspections.csv"] = "\n".join(insp) + "\n"
+    for name, text in files.items():
+        (tmp_path / name).write_text(text)
+    import_dir(store, tmp_path, today=dt.date(2026, 12, 1))
+
+
+def test_shared_zone_neck_and_feeding_distance(tmp_path, mem_store):
+    _twin_riser_log(tmp_path, mem_store)
+    out = suggest(mem_store, pattern="S2", week="2026-W42", weeks=13)
+    s = out[0]
+    assert s["action"] == "enlarge" and s["riser"] == "R1"
+    assert s["passes_after"]
+    # Neck rule (Wlodawer; DOMAIN.md): M_section < M_neck = d/4 < M_riser, with
+    # the section here half the plate (two risers): M_c = 3000 / 1500 = 2 cm.
+    neck_cm = s["suggested_neck_diameter_mm"] / 10
+    assert 2.0 < neck_cm / 4 < s["suggested_diameter_mm"] / 10 / 6
+    assert "Widen the neck to" in s["reason"]
+    # Bishop-Pellini type rule (from memory): 4.5 x 40 mm = 180 mm < 400 mm.
+    assert "beyond 180 mm (4.5 T)" in s["reason"]
+    assert "R2 on the same zone fail too" in s["reason"]
+    # The log covers 6 of the window's 13 weeks (first pour 2026-09-07 to the
+    # end of W42, 2026-10-18: 42 days): the yearly volume comes from those weeks.
+    assert s["castings_per_year"] == pytest.approx(s["castings_poured"] * 52 / 6)
+
+
+def test_riser_metal_charge_scales_the_extra_cost(tmp_path, mem_store):
+    _twin_riser_log(tmp_path, mem_store)
+    full = suggest(mem_store, pattern="S2", week="2026-W42")[0]
+    part = suggest(mem_store, pattern="S2", week="2026-W42", riser_metal_charge=0.25)[0]
+    assert part["extra_cost_per_year"] == pytest.approx(0.25 * full["extra_cost_per_year"])
+    with pytest.raises(ValueError, match="riser_metal_charge: got 2"):
+        suggest(mem_store, pattern="S2", riser_metal_charge=2)

@@ -155,12 +155,34 @@ def _round_up(x: float, step: float) -> float:
     return math.ceil(x / step - 1e-9) * step
 
 
+def _has_neck(base) -> bool:
+    n = base.get("neck_diameter_mm")
+    return base["placement"] == "side" and n is not None and n == n and n > 0
+
+
+def _neck_for(base, diameter_mm: float, section_modulus_cm: float):
+    """The neck a side riser of ``diameter_mm`` needs: the present one, or
+    widened to M_neck = 1.1 · M_section (d = 4.4 · M_section, in 5 mm steps)
+    while it stays narrower than the riser."""
+    if not _has_neck(base):
+        return "keep"
+    need = _round_up(4.0 * rules.NECK_FACTOR * section_modulus_cm * 10.0, NECK_STEP_MM)
+    now = float(base["neck_diameter_mm"])
+    if now >= need:
+        return "keep"
+    return min(need, diameter_mm - NECK_STEP_MM)
+
+
 def _candidates(base: pd.Series, sleeves: pd.DataFrame, model, target: float, step_mm: float) -> list[dict]:
-    """Candidate rows (dicts for assess_frame) with their action names."""
+    """Candidate rows (dicts for assess_frame) with their action names.
+
+    A side riser's neck is widened with the riser where the present neck
+    would freeze before the section."""
     d0, h0 = float(base["diameter_mm"]), float(base["height_mm"])
     hd = min(max(h0 / d0, 0.5), 3.0)
     share = max(float(base.get("risers_on_zone") or 1), 1.0)
     vc, ac = float(base["volume_cm3"]) / share, float(base["cooling_area_cm2"]) / share
+    mc = vc / ac
     out: list[dict] = []
     sleeved = isinstance(base.get("sleeve"), str) and base.get("sleeve")
     if not sleeved:
@@ -169,7 +191,8 @@ def _candidates(base: pd.Series, sleeves: pd.DataFrame, model, target: float, st
         d = max(_round_up(need.diameter_mm, step_mm), _round_up(d0 + step_mm * 0.5, step_mm))
         cap = max(d, MAX_GROWTH * d0)
         while d <= cap + 1e-9:
-            row = _candidate_row(base, diameter_mm=d, height_mm=round(hd * d, 1))
+            row = _candidate_row(base, diameter_mm=d, height_mm=round(hd * d, 1),
+                                 neck_diameter_mm=_neck_for(base, d, mc))
             row["_action"] = "enlarge"
             out.append(row)
             if model is None:
@@ -184,15 +207,14 @@ def _candidates(base: pd.Series, sleeves: pd.DataFrame, model, target: float, st
             continue  # the neck would be as wide as the sleeve
         if sleeved and s["sleeve"] == base["sleeve"]:
             continue
-        row = _candidate_row(base, sleeve=s)
+        row = _candidate_row(base, sleeve=s, neck_diameter_mm=_neck_for(base, s["inner_diameter_mm"], mc))
         row["_action"] = "enlarge_and_sleeve" if s["inner_diameter_mm"] > d0 + 0.5 else "sleeve"
         out.append(row)
     return out
 
 
 def _neck_candidate(base: pd.Series, judged: pd.Series) -> dict | None:
-    if base["placement"] != "side" or not (base.get("neck_diameter_mm") == base.get("neck_diameter_mm")) \
-            or not base.get("neck_diameter_mm"):
+    if not _has_neck(base):
         return None
     mc = judged["section_modulus_cm"]
     d = _round_up(4.0 * rules.NECK_FACTOR * mc * 10.0, NECK_STEP_MM)  # M_neck = d/4 >= 1.1 M_c
@@ -231,17 +253,24 @@ def _pattern_window_stats(store: Store, pattern: str, start: str, end: str, curr
 
 
 def suggest(store: Store, pattern: str | None = None, target: float = 0.02, week: str | None = None,
-            weeks: int = 13, step_mm: float = DEFAULT_STEP_MM, model=None, refit: bool = False) -> list[dict]:
+            weeks: int = 13, step_mm: float = DEFAULT_STEP_MM, model=None, refit: bool = False,
+            riser_metal_charge: float = 1.0) -> list[dict]:
     """Suggestions for each problem pattern (or for ``pattern`` alone).
 
     target: shrinkage reject rate to reach, fraction (0.02 = 2 %).
     step_mm: the shop's standard riser diameter step, mm.
+    riser_metal_charge: share of the metal cost per kg charged for extra
+    riser metal (1.0: full cost; a shop that remelts its returns pays only
+    melting and losses, so it may set less).
     Returns one dict per problem zone (or per pattern for no_riser_change).
     """
     if not 0 < target < 1:
         raise BadInput("target", target, "must be a fraction between 0 and 1 (0.02 = 2 %)")
     if not step_mm > 0:
         raise BadInput("step_mm", step_mm, "the diameter step must be above 0 mm")
+    if not 0 <= riser_metal_charge <= 1:
+        raise BadInput("riser_metal_charge", riser_metal_charge,
+                       "must be a fraction from 0 to 1 of the metal cost (1 = full cost)")
     week, first, last = review_window(store, week, weeks)
     if pattern is not None:
         store.pattern(pattern)
@@ -261,12 +290,12 @@ def suggest(store: Store, pattern: str | None = None, target: float = 0.02, week
     window = _window_frames(store, patterns, first.isoformat(), last.isoformat())
     for pat in patterns:
         out.extend(_suggest_pattern(store, pat, target, first.isoformat(), last.isoformat(), weeks,
-                                    step_mm, model, sleeves, revisions, window))
+                                    step_mm, model, sleeves, revisions, window, riser_metal_charge))
     return out
 
 
 def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, sleeves, revisions,
-                     window=None) -> list[dict]:
+                     window=None, riser_metal_charge: float = 1.0) -> list[dict]:
     info = store.pattern(pat)
     current = revision_in_effect(revisions[revisions["pattern"] == pat], end)
     base_out = {"pattern": pat, "alloy": info["alloy"], "caution": SAFETY_CAUTION}
@@ -277,7 +306,7 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
     risers = store.risers_frame(pattern=pat, revision=rev)
     lots, by_defect, zones = _pattern_window_stats(store, pat, start, end, rev, window)
     poured = int(lots["castings"].sum())
-    per_year = poured * 52.0 / weeks
+    per_year = poured * 52.0 / _weeks_covered(store, start, end, weeks)
     cost_per_scrap = info["casting_weight_kg"] * info["metal_cost_per_kg"] + \
         (info["processing_cost_per_casting"] or 0.0)
     judged_now = _judge(risers.to_dict("records"), model)
@@ -366,7 +395,7 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
         old_sleeve_cost = float(base["sleeve_unit_cost"]) if base["sleeve_unit_cost"] == base["sleeve_unit_cost"] \
             and base["sleeve_unit_cost"] is not None else 0.0
         judged["extra_cost_per_year"] = per_year * (
-            judged["added_kg_per_casting"] * info["metal_cost_per_kg"]
+            judged["added_kg_per_casting"] * info["metal_cost_per_kg"] * riser_metal_charge
             + judged["sleeve_unit_cost"] - old_sleeve_cost)
         pred = judged["predicted_rate"].fillna(rate)
         judged["scrap_saved_per_year"] = per_year * np.maximum(rate - pred, 0.0) * cost_per_scrap
@@ -400,7 +429,15 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
                   f"modulus (ratio {choice['modulus_ratio']:.2f}), "
                   + ("Caine (margin n/a)" if pd.isna(choice['caine_margin'])
                      else f"Caine (margin {choice['caine_margin']:.2f})")
-                  + f" and feed volume (margin {choice['feed_margin']:.2f})." + note)
+                  + f" and feed volume (margin {choice['feed_margin']:.2f})."
+                  + (f" Widen the neck to {cands[choice.name]['neck_diameter_mm']:.0f} mm with it."
+                     if action != "neck" and _has_neck(base)
+                     and cands[choice.name].get("neck_diameter_mm") != base["neck_diameter_mm"] else "")
+                  + (f" Feeding distance: the zone's feeding length {choice['feeding_length_mm']:.0f} mm is "
+                     f"beyond {choice['feeding_distance_mm']:.0f} mm (4.5 T); no riser size fixes that: add a "
+                     "riser or a chill." if choice["feeding_distance_ok"] == 0.0 else "")
+                  + _siblings_note(jr, k)
+                  + note)
         alts = judged.drop(index=choice.name)
         results.append({
             **common, "riser": base["riser"], "action": action,
@@ -432,6 +469,25 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
                 for _, a in alts.sort_values("extra_cost_per_year").head(8).iterrows()],
         })
     return results
+
+
+def _siblings_note(judged_zone: pd.DataFrame, k: int) -> str:
+    """The zone's other risers that fail a rule too."""
+    others = [r for i, (_, r) in enumerate(judged_zone.iterrows()) if i != k and not r["passes"]]
+    if not others:
+        return ""
+    names = ", ".join(r["riser"] for r in others)
+    return f" Riser(s) {names} on the same zone fail too: give them the same change."
+
+
+def _weeks_covered(store: Store, start: str, end: str, weeks: int) -> float:
+    """Weeks of the window the log covers (a log younger than the window
+    would otherwise understate the yearly volume)."""
+    first, _ = store.pour_span()
+    if first is None or first <= start:
+        return float(weeks)
+    days = (dt.date.fromisoformat(end) - dt.date.fromisoformat(first)).days + 1
+    return min(float(weeks), max(days / 7.0, 1.0))
 
 
 def _nan_none(v):

@@ -15,11 +15,14 @@ from tracker.cli import caution_text, db_option, emit, handle_errors, json_optio
 @click.option("--weeks", type=int, default=13, show_default=True, help="Weeks of history to judge by.")
 @click.option("--step-mm", type=float, default=10.0, show_default=True,
               help="The shop's standard riser diameter step, mm.")
+@click.option("--riser-metal-charge", type=float, default=1.0, show_default=True,
+              help="Share of the metal cost per kg charged for extra riser metal (1 = full cost; "
+                   "less where returns are remelted).")
 @click.option("--refit", is_flag=True, help="Refit the reject model before suggesting.")
 @db_option
 @json_option
 @handle_errors
-def suggest(pattern, target, week, weeks, step_mm, refit, db_path, as_json):
+def suggest(pattern, target, week, weeks, step_mm, riser_metal_charge, refit, db_path, as_json):
     """Suggest riser changes for problem patterns, with yield and cost.
 
     For each zone with shrinkage above the target: enlarge the riser (in
@@ -34,7 +37,8 @@ def suggest(pattern, target, week, weeks, step_mm, refit, db_path, as_json):
     from tracker.advise import suggest as run
 
     with open_store(db_path) as store:
-        rows = run(store, pattern=pattern, target=target, week=week, weeks=weeks, step_mm=step_mm, refit=refit)
+        rows = run(store, pattern=pattern, target=target, week=week, weeks=weeks, step_mm=step_mm, refit=refit,
+                   riser_metal_charge=riser_metal_charge)
     emit(rows, as_json, _format)
 
 
