@@ -110,3 +110,12 @@ def test_newer_schema_is_refused(tmp_path):
     sqlite3.connect(path).execute(f"PRAGMA user_version = {SCHEMA_VERSION + 1}")
     with pytest.raises(Exception, match="newer than this program's"):
         Store(path)
+
+
+def test_patterns_lists_the_current_revision(tmp_path, runner):
+    db = str(tmp_path / "p.db")
+    runner.invoke(main, ["import", str(GOOD), "--db", db])
+    res = runner.invoke(main, ["patterns", "--db", db, "--json"])
+    assert res.exit_code == 0, res.output
+    rows = {r["pattern"]: r for r in json.loads(res.output)}
+    assert rows["T-100"]["revision"] == "A" and rows["T-200"]["alloy"] == "aluminum"

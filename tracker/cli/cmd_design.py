@@ -120,3 +120,31 @@ def check(pattern, on_date, modulus_factor, db_path, as_json):
     click.echo(f"\n{sum(r['passes'] for r in rows)} of {len(rows)} risers pass every rule "
                f"(modulus factor {modulus_factor:g}).")
     click.echo("\n" + caution_text())
+
+
+@main.command()
+@db_option
+@json_option
+@handle_errors
+def patterns(db_path, as_json):
+    """List the patterns in the log with their alloy, weight and current riser revision.
+
+    Example:
+
+        pourback patterns
+    """
+    import datetime as dt
+
+    from tracker.assess import revision_in_effect
+
+    with open_store(db_path) as store:
+        frame = store.table("patterns")
+        current = revision_in_effect(store.revisions_frame(), dt.date.today().isoformat())
+    rows = frame.astype(object).where(frame.notna(), None).to_dict("records")
+    rev = {r.pattern: (r.revision, r.effective_from) for r in current.itertuples()}
+    for r in rows:
+        r["revision"], r["effective_from"] = rev.get(r["pattern"], (None, None))
+    emit(rows, as_json, lambda rs: table(rs, [
+        ("pattern", "pattern"), ("description", "description"), ("alloy", "alloy"),
+        ("casting_weight_kg", "casting (kg)"), ("castings_per_mold", "per mould"),
+        ("revision", "riser revision"), ("effective_from", "since")]))
