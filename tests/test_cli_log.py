@@ -119,3 +119,18 @@ def test_patterns_lists_the_current_revision(tmp_path, runner):
     assert res.exit_code == 0, res.output
     rows = {r["pattern"]: r for r in json.loads(res.output)}
     assert rows["T-100"]["revision"] == "A" and rows["T-200"]["alloy"] == "aluminum"
+
+
+def test_quick_counts_equal_counts_after_imports_corrections_and_a_refused_file(tmp_path):
+    from tracker.errors import BadFile
+    from tracker.ingest import correct_inspection, import_dir, import_file
+
+    with Store(tmp_path / "q.db") as s:
+        import_dir(s, GOOD)
+        correct_inspection(s, 2, {"quantity": 16}, by="QE", reason="recount")
+        bad = tmp_path / "lots.csv"
+        bad.write_text("lot,pattern,poured_on,heat,molds\nZ1,T-100,2026-04-01,H,2\nZ2,NOPE,2026-04-01,H,2\n")
+        with pytest.raises(BadFile):
+            import_file(s, "lots", bad)
+        import_file(s, "lots", GOOD / "lots.csv")
+        assert s.quick_counts() == s.counts()

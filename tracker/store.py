@@ -277,6 +277,13 @@ class Store:
         return {t: self.count(t) for t in ("patterns", "zones", "sleeves", "revisions", "risers",
                                            "lots", "inspections")}
 
+    def quick_counts(self) -> dict[str, int]:
+        """Row counts from the largest rowid: the log never deletes a row (a
+        correction is a new record; a rolled-back import frees its rowids), so
+        it equals COUNT(*) without scanning millions of rows."""
+        return {t: self.conn.execute(f"SELECT COALESCE(MAX(rowid), 0) FROM [{t}]").fetchone()[0]
+                for t in ("patterns", "zones", "sleeves", "revisions", "risers", "lots", "inspections")}
+
     def snapshot(self) -> dict[str, list[tuple]]:
         """Every row of every table (for checks that nothing changed)."""
         names = [r[0] for r in self.conn.execute(

@@ -54,7 +54,7 @@ def start_state(store: Store) -> dict:
     ``ready`` is True when there are patterns, lots and inspections;
     ``missing`` lists the import kinds still empty, in import order.
     """
-    counts = store.counts()
+    counts = store.quick_counts()
     missing = [k for k in ("patterns", "zones", "risers", "lots", "inspections") if counts.get(k, 0) == 0]
     return {"counts": counts, "missing": missing,
             "ready": all(counts.get(k, 0) > 0 for k in ("patterns", "lots", "inspections")),
