@@ -587,7 +587,10 @@ class Store:
         return self._frame(q, [*params, int(per_pattern)])
 
     def pour_span(self) -> tuple[str | None, str | None]:
-        r = self.conn.execute("SELECT MIN(poured_on), MAX(poured_on) FROM lots").fetchone()
+        # Two subqueries: SQLite answers a lone MIN() or MAX() from the index,
+        # but scans every lot for both in one SELECT.
+        r = self.conn.execute("SELECT (SELECT MIN(poured_on) FROM lots), "
+                              "(SELECT MAX(poured_on) FROM lots)").fetchone()
         return r[0], r[1]
 
     def rejects_by_pattern(self, start: str, end: str) -> pd.DataFrame:
