@@ -75,8 +75,7 @@ def fit_model(store: Store, *, alpha: float = 10.0, save: bool = True) -> Shrink
     feats = zone_lot_features(store)
     if feats.empty or feats["castings"].sum() == 0:
         return None
-    model = ShrinkageRejectModel(alpha=alpha).fit(aggregate_for_fit(feats))
-    model.data_until_ = str(feats["poured_on"].max())
+    model = ShrinkageRejectModel(alpha=alpha).fit(aggregate_for_fit(feats))  # sets data_until_
     if save:
         store.save_model(model.to_bytes(), rows=int(model.n_rows_), castings=int(model.n_castings_),
                          data_until=model.data_until_)

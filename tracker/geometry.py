@@ -22,13 +22,6 @@ def check_placement(placement: str) -> str:
     return p
 
 
-def check_top(top: str) -> str:
-    t = str(top).strip().lower()
-    if t not in TOPS:
-        raise BadInput("top", top, "must be open or blind")
-    return t
-
-
 def cylinder_volume(d, h):
     """Volume of a cylinder of diameter d and height h, cm³."""
     d = np.asarray(d, dtype=float)

@@ -475,16 +475,6 @@ class Store:
              + (" WHERE " + " AND ".join(where) if where else "") + " ORDER BY l.poured_on, l.lot")
         return self._frame(q, params)
 
-    def poured_by_day(self, start: str | None = None, end: str | None = None,
-                      pattern=None) -> pd.DataFrame:
-        """Castings poured and lots per pattern and pour date (aggregated in SQL)."""
-        where, params = self._lot_filter(start, end, pattern)
-        q = ("SELECT l.pattern, l.poured_on, COUNT(*) AS lots, SUM(l.molds * p.castings_per_mold) "
-             "AS castings FROM lots l JOIN patterns p ON p.pattern = l.pattern"
-             + (" WHERE " + " AND ".join(where) if where else "")
-             + " GROUP BY l.pattern, l.poured_on")
-        return self._frame(q, params)
-
     def rejects_by_day(self, start: str | None = None, end: str | None = None,
                        pattern=None) -> pd.DataFrame:
         """Current reject and rework quantities per pattern, pour date, result,
