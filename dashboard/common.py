@@ -9,7 +9,6 @@ its data version, so reruns on a big log are fast) and write through
 from __future__ import annotations
 
 import contextlib
-import os
 import re
 
 import streamlit as st
@@ -17,7 +16,7 @@ import streamlit as st
 from tracker import views
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadFile, PourbackError
-from tracker.store import Store, resolve_path
+from tracker.store import Store, absolute_target, display_name
 
 START_COMMANDS = "pourback demo"
 
@@ -41,6 +40,8 @@ def _registry() -> dict:
         "riser_options": views.riser_options,
         "sleeve_options": views.sleeve_options,
         "pour_span": lambda s: s.pour_span(),
+        "plant_options": lambda s: s.plants(),
+        "compare_plants": review.compare_plants,
         "weekly_review": review.weekly_review,
         "design_map": features.design_map,
         "suggest": advise.suggest,
@@ -49,9 +50,14 @@ def _registry() -> dict:
 
 
 def db_path() -> str:
-    """The log's path: $POURBACK_DB (set by ``pourback dashboard``), else ./pourback.db."""
-    path = resolve_path(None)
-    return path if path == ":memory:" else os.path.abspath(path)
+    """The log: $POURBACK_DB (set by ``pourback dashboard``), else ./pourback.db; a
+    file path made absolute, or a postgresql:// URL (print :func:`db_name`)."""
+    return absolute_target(None)
+
+
+def db_name() -> str:
+    """The log's path or URL fit to show (a URL's password masked)."""
+    return display_name(db_path())
 
 
 def open_store() -> Store:
@@ -60,16 +66,40 @@ def open_store() -> Store:
 
 
 @st.cache_data(show_spinner=False, max_entries=256)
-def _cached(path: str, version: tuple, name: str, args: tuple, kwargs: tuple):
+def _cached(path: str, version: tuple, plant: str | None, name: str, args: tuple, kwargs: tuple):
     fn = _registry()[name]
-    with Store(path) as store:
+    with Store(path) as store, store.plant_scope(plant):
         return fn(store, *args, **dict(kwargs))
 
 
-def load(name: str, *args, **kwargs):
-    """``name``'s result on the log, cached until the database file changes."""
+def load(name: str, *args, every_plant: bool = False, **kwargs):
+    """``name``'s result on the log, for the plant picked in the sidebar (every
+    plant with ``every_plant``), cached until the log changes."""
     path = db_path()
-    return _cached(path, views.db_version(path), name, args, tuple(sorted(kwargs.items())))
+    return _cached(path, views.db_version(path), None if every_plant else plant(), name, args,
+                   tuple(sorted(kwargs.items())))
+
+
+# --- plants -------------------------------------------------------------------------------
+
+ALL_PLANTS = "All plants"
+
+
+def plant_picker() -> None:
+    """The sidebar's plant picker (only when the log names plants); every page's
+    figures follow it. Default: all plants."""
+    plants = load("plant_options", every_plant=True)
+    if st.session_state.get("plant") not in (None, ALL_PLANTS, *plants):
+        st.session_state["plant"] = ALL_PLANTS  # a plant no longer in the log
+    if plants:
+        st.sidebar.selectbox("Plant", [ALL_PLANTS, *plants], key="plant",
+                             help="Figures on every page cover this plant's patterns only.")
+
+
+def plant() -> str | None:
+    """The plant picked in the sidebar, None for all plants."""
+    picked = st.session_state.get("plant")
+    return None if picked in (None, ALL_PLANTS) else picked
 
 
 def forget() -> None:

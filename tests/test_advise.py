@@ -118,11 +118,8 @@ def test_what_if_moves_margins_the_right_way(demo_store):
     assert bigger["added_metal_kg_per_mold"] > 0
 
 
-def test_suggest_cli_json(demo_db, tmp_path, runner):
-    import shutil
-
-    db = tmp_path / "d.db"
-    shutil.copy(demo_db, db)
+def test_suggest_cli_json(demo_db, session_logs, runner):
+    db = session_logs.copy(demo_db)
     res = runner.invoke(main, ["suggest", "--db", str(db), "--json"])
     assert res.exit_code == 0, res.output
     rows = json.loads(res.output)

@@ -61,11 +61,11 @@ def _free_port() -> int:
 
 
 @pytest.fixture(scope="module")
-def server(app_demo_db, tmp_path_factory):
+def server(app_demo_file, tmp_path_factory):
     """`pourback dashboard` on a copy of the demo log, on a free port; stopped at the end."""
     folder = tmp_path_factory.mktemp("browser")
     db = folder / "demo.db"
-    shutil.copyfile(app_demo_db, db)
+    shutil.copyfile(app_demo_file, db)
     port = _free_port()
     log = (folder / "server.log").open("w")
     env = {k: v for k, v in os.environ.items() if k != "POURBACK_DB"}

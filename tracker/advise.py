@@ -253,8 +253,9 @@ def _pattern_window_stats(store: Store, pattern: str, start: str, end: str, curr
 
 def suggest(store: Store, pattern: str | None = None, target: float = 0.02, week: str | None = None,
             weeks: int = 13, step_mm: float = DEFAULT_STEP_MM, model=None, refit: bool = False,
-            riser_metal_charge: float = 1.0) -> list[dict]:
-    """Suggestions for each problem pattern (or for ``pattern`` alone).
+            riser_metal_charge: float = 1.0, plant: str | None = None) -> list[dict]:
+    """Suggestions for each problem pattern (or for ``pattern`` alone), of one
+    ``plant`` (default: every plant; the reject model is the whole log's).
 
     target: shrinkage reject rate to reach, fraction (0.02 = 2 %).
     step_mm: the shop's standard riser diameter step, mm.
@@ -270,6 +271,11 @@ def suggest(store: Store, pattern: str | None = None, target: float = 0.02, week
     if not 0 <= riser_metal_charge <= 1:
         raise BadInput("riser_metal_charge", riser_metal_charge,
                        "must be a fraction from 0 to 1 of the metal cost (1 = full cost)")
+    with store.plant_scope(plant):
+        return _suggest(store, pattern, target, week, weeks, step_mm, model, refit, riser_metal_charge)
+
+
+def _suggest(store, pattern, target, week, weeks, step_mm, model, refit, riser_metal_charge) -> list[dict]:
     week, first, last = review_window(store, week, weeks)
     if pattern is not None:
         store.pattern(pattern)
@@ -282,7 +288,8 @@ def suggest(store: Store, pattern: str | None = None, target: float = 0.02, week
     if not patterns:
         return []
     if model is None:
-        model = get_model(store, refit=refit)
+        with store.every_plant():  # the model learns from every plant's history
+            model = get_model(store, refit=refit)
     sleeves = store.table("sleeves")
     out: list[dict] = []
     revisions = store.revisions_frame()

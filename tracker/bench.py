@@ -484,12 +484,12 @@ def _plans(store, calls) -> list[dict]:
         if sql.lstrip().upper().startswith(("SELECT", "WITH")):
             seen.setdefault(name, []).append(sql)
 
-    store.conn.set_trace_callback(trace)
+    store.dialect.conn.set_trace_callback(trace)
     try:
         for call in calls:
             call()
     finally:
-        store.conn.set_trace_callback(None)
+        store.dialect.conn.set_trace_callback(None)
     out = []
     for name, statements in seen.items():
         plans = []

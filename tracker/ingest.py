@@ -28,7 +28,7 @@ import pandas as pd
 
 from tracker import geometry
 from tracker.errors import BadFile, BadRow
-from tracker.store import KEYS, TABLE_COLUMNS, Store
+from tracker.store import DEFAULT_PLANT_KEY, KEYS, TABLE_COLUMNS, Store, retrying
 
 KINDS = ("patterns", "zones", "sleeves", "risers", "lots", "inspections")  # dependency order
 
@@ -43,7 +43,7 @@ SLEEVE_KINDS = ("insulating", "exothermic")
 
 COLUMNS = {  # (required, optional)
     "patterns": (["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
-                  "metal_cost_per_kg"], ["processing_cost_per_casting"]),
+                  "metal_cost_per_kg"], ["processing_cost_per_casting", "plant"]),
     "zones": (["pattern", "zone", "volume_cm3", "cooling_area_cm2"],
               ["thickness_mm", "length_mm", "required_xray_level"]),
     "sleeves": (["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
@@ -55,6 +55,7 @@ COLUMNS = {  # (required, optional)
                     ["defect", "zone", "xray_category", "severity", "serial", "inspector", "notes"]),
 }
 CHUNK_ROWS = 100_000
+PLANT_CODE = r"[A-Za-z0-9][A-Za-z0-9._-]{0,31}"
 MAX_PROBLEMS = 1000  # stop collecting (but keep refusing) past this many
 POUR_TEMP_RANGE_C = (400.0, 1800.0)
 H_OVER_D_SANE = (0.25, 4.0)
@@ -429,8 +430,18 @@ class _Importer:
         per_mold = c.number("castings_per_mold", low=0, whole=True, high=10000)
         cost = c.number("metal_cost_per_kg", low=0, low_inclusive=True, unit="per kg")
         proc = c.number("processing_cost_per_casting", required=False, low=0, low_inclusive=True)
-        return [(p, d, a, w, int(n) if n == n else n, m, _float_or_none(q))
-                for p, d, a, w, n, m, q in zip(pattern, desc, alloy, weight, per_mold, cost, proc)]
+        plant = self._plant(c)
+        return [(p, d, a, w, int(n) if n == n else n, m, _float_or_none(q), f or None)
+                for p, d, a, w, n, m, q, f in zip(pattern, desc, alloy, weight, per_mold, cost, proc, plant)]
+
+    def _plant(self, c: _Checks) -> pd.Series:
+        """The plant column: a short code; empty takes the log's default plant
+        (``pourback init --plant``), or none."""
+        plant = c.text("plant", required=False, max_len=32)
+        c.fail((plant != "") & ~plant.str.fullmatch(PLANT_CODE), "plant",
+               "a plant code is letters, digits, '.', '-' or '_' (e.g. NORTH or plant-2)")
+        default = self.store.get_meta(DEFAULT_PLANT_KEY) or ""
+        return plant.where(plant != "", default)
 
     def _known_patterns(self, c: _Checks, pattern: pd.Series) -> dict:
         info = self.store.patterns_info()
@@ -763,6 +774,19 @@ def _same(a: tuple, b: tuple) -> bool:
 
 # --- public entry points ----------------------------------------------------------
 
+def set_default_plant(store: Store, plant: str) -> None:
+    """Name the plant that patterns imported without a plant column belong to."""
+    import re
+
+    from tracker.errors import BadInput
+
+    plant = str(plant).strip()
+    if not re.fullmatch(PLANT_CODE, plant):
+        raise BadInput("plant", plant, "a plant code is 1 to 32 letters, digits, '.', '-' or '_' "
+                                       "(e.g. NORTH or plant-2)")
+    store.set_meta(DEFAULT_PLANT_KEY, plant)
+
+
 def import_file(store: Store, kind: str, path: str | os.PathLike, *, skip_bad: bool = False,
                 by: str | None = None, today: dt.date | None = None,
                 progress: Callable[[int], None] | None = None,
@@ -776,6 +800,7 @@ def import_file(store: Store, kind: str, path: str | os.PathLike, *, skip_bad: b
                         progress=progress, chunk_rows=chunk_rows)[0]
 
 
+@retrying
 def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, skip_bad: bool = False,
                  by: str | None = None, today: dt.date | None = None,
                  progress: Callable[[int], None] | None = None,
@@ -897,6 +922,7 @@ def write_refused(result: ImportResult, path: str | os.PathLike) -> pathlib.Path
     return path
 
 
+@retrying
 def log_inspection(store: Store, record: dict, *, by: str | None = None,
                    today: dt.date | None = None, source: str = "form") -> int:
     """Validate one inspection result as the import would and store it.
@@ -949,6 +975,7 @@ def _one_record(store: Store, record: dict, *, by, today, source, supersedes: in
         return store.last_insert_id()
 
 
+@retrying
 def correct_inspection(store: Store, record_id: int, changes: dict, *, by: str, reason: str,
                        today: dt.date | None = None) -> int:
     """Supersede record ``record_id`` by a corrected copy; the old one stays in the history.

@@ -1,9 +1,15 @@
-"""The SQLite log: schema, migrations and every SQL statement of the project.
+"""The log: schema, migrations and every SQL statement of the project.
 
-Nothing outside this module writes SQL. Reads return pandas DataFrames or
-plain dicts; writes run in ``BEGIN IMMEDIATE`` transactions so that an import
-is all-or-nothing and concurrent writers wait for each other (WAL mode and a
-busy timeout) instead of failing.
+Nothing outside this module writes SQL. The log lives in an SQLite file (the
+embedded default) or on a PostgreSQL server (a ``postgresql://`` URL). The SQL
+here is written once for both; what differs between the two (connection,
+placeholders, DDL types, schema version, row ids, COPY, the writers' lock,
+retries, query plans) lives in :mod:`tracker.dialect`, used from here only.
+
+Reads return pandas DataFrames or plain dicts; writes run in transactions that
+let one writer in at a time (SQLite's ``BEGIN IMMEDIATE``, PostgreSQL's
+advisory lock), so that an import is all-or-nothing and concurrent writers
+wait for each other instead of failing.
 
 Inspection records are never overwritten: a correction is a new record whose
 ``supersedes`` names the old one; the *current* records are those no other
@@ -14,27 +20,29 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
+import functools
+import hashlib
 import os
 import pathlib
 import sqlite3
-import time
 from typing import Iterable, Iterator
 
 import pandas as pd
-import sqlite_utils
 
+from tracker import dialect as dialects
 from tracker.alloys import ALLOYS
+from tracker.dialect import BUSY_TIMEOUT_MS, LogLocked, data_version, display_name, is_url  # noqa: F401 (re-exported)
 from tracker.errors import NotFound, PourbackError
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 3
-BUSY_TIMEOUT_MS = 30_000
+SCHEMA_VERSION = 4
+DEFAULT_PLANT_KEY = "default_plant"  # meta key set by `pourback init --plant`
 
 # Column order of each import kind's table, as stored.
 TABLE_COLUMNS = {
     "patterns": ["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
-                 "metal_cost_per_kg", "processing_cost_per_casting"],
+                 "metal_cost_per_kg", "processing_cost_per_casting", "plant"],
     "zones": ["pattern", "zone", "volume_cm3", "cooling_area_cm2", "thickness_mm", "length_mm",
               "required_xray_level"],
     "sleeves": ["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
@@ -59,45 +67,69 @@ KEYS = {
 }
 
 
-class LogLocked(PourbackError):
-    """The log stayed locked by another writer longer than the busy timeout."""
-
-
 def resolve_path(path: str | os.PathLike | None = None) -> str:
-    """The database path: the argument, else $POURBACK_DB, else ./pourback.db."""
+    """The log: the argument, else $POURBACK_DB, else ./pourback.db (a file path
+    or a ``postgresql://`` URL)."""
     if path:
         return str(path)
     return os.environ.get(ENV_DB) or DEFAULT_DB
 
 
-# --- migrations -------------------------------------------------------------------
+def _database_errors() -> tuple:
+    try:
+        import psycopg
+    except ImportError:  # pragma: no cover - psycopg is a dependency
+        return (sqlite3.Error,)
+    return (sqlite3.Error, psycopg.Error)
 
-def _migration_1(db: sqlite_utils.Database) -> None:
-    db["alloys"].create({
-        "alloy": str, "name": str, "shrinkage": float, "density_kg_dm3": float,
-        "bare_efficiency": float, "caine_a": float, "caine_b": float, "caine_c": float,
-        "source": str,
-    }, pk="alloy", not_null={"alloy", "shrinkage", "density_kg_dm3", "bare_efficiency"})
-    db["patterns"].create({
-        "pattern": str, "description": str, "alloy": str, "casting_weight_kg": float,
-        "castings_per_mold": int, "metal_cost_per_kg": float,
-        "processing_cost_per_casting": float,
-    }, pk="pattern", foreign_keys=[("alloy", "alloys", "alloy")],
-        not_null={"alloy", "casting_weight_kg", "castings_per_mold", "metal_cost_per_kg"})
-    db["zones"].create({
-        "pattern": str, "zone": str, "volume_cm3": float, "cooling_area_cm2": float,
-        "thickness_mm": float, "length_mm": float, "required_xray_level": int,
-    }, pk=("pattern", "zone"), foreign_keys=[("pattern", "patterns", "pattern")],
-        not_null={"volume_cm3", "cooling_area_cm2"})
-    db["sleeves"].create({
-        "sleeve": str, "kind": str, "inner_diameter_mm": float, "height_mm": float,
-        "modulus_factor": float, "feeding_efficiency": float, "unit_cost": float,
-    }, pk="sleeve", not_null={"kind", "inner_diameter_mm", "height_mm", "modulus_factor",
-                              "feeding_efficiency"})
-    db["revisions"].create({"pattern": str, "revision": str, "effective_from": str},
-                           pk=("pattern", "revision"),
-                           foreign_keys=[("pattern", "patterns", "pattern")],
-                           not_null={"effective_from"})
+
+# What a database may raise that is no fault of the input (the CLI shows it in one line).
+DATABASE_ERRORS = _database_errors()
+
+
+def absolute_target(path: str | os.PathLike | None = None) -> str:
+    """:func:`resolve_path`, with a file path made absolute (a URL stays as it is)."""
+    target = resolve_path(path)
+    return target if is_url(target) or target == ":memory:" else os.path.abspath(target)
+
+
+# --- migrations -------------------------------------------------------------------
+# Each migration is plain SQL in the subset both dialects share, run through
+# ``db.execute`` (a :class:`_Schema`), which maps the column types to the
+# dialect's (INTEGER PRIMARY KEY, REAL, BLOB, TEXT) and ``?`` to its placeholder.
+
+def _migration_1(db: "_Schema") -> None:
+    db.execute("""
+        CREATE TABLE alloys (
+            alloy TEXT PRIMARY KEY NOT NULL, name TEXT, shrinkage REAL NOT NULL,
+            density_kg_dm3 REAL NOT NULL, bare_efficiency REAL NOT NULL,
+            caine_a REAL, caine_b REAL, caine_c REAL, source TEXT
+        )""")
+    db.execute("""
+        CREATE TABLE patterns (
+            pattern TEXT PRIMARY KEY, description TEXT,
+            alloy TEXT NOT NULL REFERENCES alloys(alloy),
+            casting_weight_kg REAL NOT NULL, castings_per_mold INTEGER NOT NULL,
+            metal_cost_per_kg REAL NOT NULL, processing_cost_per_casting REAL
+        )""")
+    db.execute("""
+        CREATE TABLE zones (
+            pattern TEXT REFERENCES patterns(pattern), zone TEXT,
+            volume_cm3 REAL NOT NULL, cooling_area_cm2 REAL NOT NULL,
+            thickness_mm REAL, length_mm REAL, required_xray_level INTEGER,
+            PRIMARY KEY (pattern, zone)
+        )""")
+    db.execute("""
+        CREATE TABLE sleeves (
+            sleeve TEXT PRIMARY KEY, kind TEXT NOT NULL, inner_diameter_mm REAL NOT NULL,
+            height_mm REAL NOT NULL, modulus_factor REAL NOT NULL,
+            feeding_efficiency REAL NOT NULL, unit_cost REAL
+        )""")
+    db.execute("""
+        CREATE TABLE revisions (
+            pattern TEXT REFERENCES patterns(pattern), revision TEXT,
+            effective_from TEXT NOT NULL, PRIMARY KEY (pattern, revision)
+        )""")
     db.execute("""
         CREATE TABLE risers (
             pattern TEXT NOT NULL, revision TEXT NOT NULL, riser TEXT NOT NULL,
@@ -108,11 +140,11 @@ def _migration_1(db: sqlite_utils.Database) -> None:
             FOREIGN KEY (pattern, revision) REFERENCES revisions(pattern, revision),
             FOREIGN KEY (pattern, zone) REFERENCES zones(pattern, zone)
         )""")
-    db["lots"].create({
-        "lot": str, "pattern": str, "poured_on": str, "heat": str, "molds": int,
-        "pour_temp_c": float,
-    }, pk="lot", foreign_keys=[("pattern", "patterns", "pattern")],
-        not_null={"pattern", "poured_on", "molds"})
+    db.execute("""
+        CREATE TABLE lots (
+            lot TEXT PRIMARY KEY, pattern TEXT NOT NULL REFERENCES patterns(pattern),
+            poured_on TEXT NOT NULL, heat TEXT, molds INTEGER NOT NULL, pour_temp_c REAL
+        )""")
     db.execute("""
         CREATE TABLE inspections (
             id INTEGER PRIMARY KEY,
@@ -138,19 +170,17 @@ def _migration_1(db: sqlite_utils.Database) -> None:
     db.execute("CREATE INDEX risers_zone ON risers(pattern, zone)")
     for a in ALLOYS.values():
         c = a.caine
-        db["alloys"].insert({
-            "alloy": a.key, "name": a.name, "shrinkage": a.shrinkage,
-            "density_kg_dm3": a.density_kg_dm3, "bare_efficiency": a.bare_efficiency,
-            "caine_a": c.a if c else None, "caine_b": c.b if c else None,
-            "caine_c": c.c if c else None, "source": a.source,
-        })
+        db.execute("INSERT INTO alloys (alloy, name, shrinkage, density_kg_dm3, bare_efficiency, "
+                   "caine_a, caine_b, caine_c, source) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                   (a.key, a.name, a.shrinkage, a.density_kg_dm3, a.bare_efficiency,
+                    c.a if c else None, c.b if c else None, c.c if c else None, a.source))
 
 
-def _migration_2(db: sqlite_utils.Database) -> None:
-    db["meta"].create({"key": str, "value": str}, pk="key")
+def _migration_2(db: "_Schema") -> None:
+    db.execute("CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT)")
 
 
-def _migration_3(db: sqlite_utils.Database) -> None:
+def _migration_3(db: "_Schema") -> None:
     # Indexes for the review's queries on a large log (checked with EXPLAIN QUERY PLAN
     # by ``python -m tracker.bench``). Lots by pour date carry pattern, lot and molds, so
     # a window's lots are read from the index alone (and come grouped by day and pattern).
@@ -162,7 +192,58 @@ def _migration_3(db: sqlite_utils.Database) -> None:
     db.execute("DROP INDEX inspections_lot")
 
 
-MIGRATIONS = [_migration_1, _migration_2, _migration_3]  # index i brings the schema from version i to i + 1
+def _migration_4(db: "_Schema") -> None:
+    # Plants: a pattern belongs to one plant of a group (None: the log's only plant).
+    db.execute("ALTER TABLE patterns ADD COLUMN plant TEXT")
+    db.execute("CREATE INDEX patterns_plant ON patterns(plant, pattern)")
+
+
+MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4]  # index i brings the schema from version i to i + 1
+
+
+# Tables in an order that inserts parents before children (copy-log); a table not
+# named here is copied after these, in name order.
+COPY_ORDER = ["alloys", "meta", "patterns", "zones", "sleeves", "revisions", "risers", "lots",
+              "inspections", "models"]
+
+
+def _canonical(value) -> str:
+    """One stored value as text, the same from SQLite and PostgreSQL."""
+    if value is None:
+        return "\\N"
+    if isinstance(value, bool):
+        return str(int(value))
+    if isinstance(value, float):
+        return repr(value)
+    if isinstance(value, (bytes, bytearray, memoryview)):
+        return bytes(value).hex()
+    return str(value)
+
+
+class _Schema:
+    """What a migration writes through: DDL and seed rows in the shared subset,
+    mapped to the dialect (see the note above the migrations)."""
+
+    def __init__(self, dialect):
+        self.dialect = dialect
+
+    def execute(self, sql: str, params: Iterable = ()):
+        return self.dialect.execute(self.dialect.ddl(sql), params)
+
+
+def retrying(fn):
+    """Decorate a write ``fn(store, ...)`` so that a transient conflict reported
+    by the database (PostgreSQL: a serialization failure or a deadlock; SQLite: a
+    locked log) runs the whole of it again, after a short pause, instead of
+    reaching the user; the transaction it wrote in was rolled back, so nothing is
+    doubled. Only the outermost call retries (a nested one is inside a
+    transaction that must fail as a whole). Gives up with :class:`LogLocked`."""
+    @functools.wraps(fn)
+    def wrapper(store: "Store", *args, **kwargs):
+        if store.dialect.in_transaction:
+            return fn(store, *args, **kwargs)
+        return store.dialect.retry(lambda: fn(store, *args, **kwargs))
+    return wrapper
 
 
 # --- the store --------------------------------------------------------------------
@@ -170,27 +251,24 @@ MIGRATIONS = [_migration_1, _migration_2, _migration_3]  # index i brings the sc
 class Store:
     """One open connection to the log.
 
-    ``Store(path)`` opens (creating and migrating when needed) the database;
-    use it as a context manager so the connection is closed.
+    ``Store(target)`` opens (creating and migrating when needed) the log in an
+    SQLite file or, for a ``postgresql://`` URL, on a PostgreSQL server; use it
+    as a context manager so the connection is closed. ``path`` is the target
+    as given (a URL keeps its password: print ``name``, which masks it).
     """
 
     def __init__(self, path: str | os.PathLike | None = None, *, create: bool = True):
         self.path = resolve_path(path)
-        if self.path != ":memory:" and not create and not pathlib.Path(self.path).exists():
-            raise NotFound("database", self.path, "run `pourback init` first or pass --db")
-        conn = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
-        self.conn = conn
-        self.db = sqlite_utils.Database(conn)
-        conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
-        conn.execute("PRAGMA foreign_keys = ON")
-        if self.path != ":memory:":
-            self._retry(lambda: conn.execute("PRAGMA journal_mode = WAL"))
-            conn.execute("PRAGMA synchronous = NORMAL")
+        self.name = display_name(self.path)
+        self.dialect = dialects.for_target(self.path, create)
+        self.backend = self.dialect.name
+        self.conn = self.dialect  # execute(sql, params) in the shared SQL
+        self.plant: str | None = None  # set by plant_scope: reads see that plant's patterns only
         self.migrate()
 
     # connection handling
     def close(self) -> None:
-        self.conn.close()
+        self.dialect.close()
 
     def __enter__(self) -> "Store":
         return self
@@ -198,44 +276,61 @@ class Store:
     def __exit__(self, *exc) -> None:
         self.close()
 
-    @staticmethod
-    def _retry(fn, attempts: int = 8):
-        delay = 0.05
-        for i in range(attempts):
-            try:
-                return fn()
-            except sqlite3.OperationalError as exc:
-                if "locked" not in str(exc) and "busy" not in str(exc):
-                    raise
-                if i == attempts - 1:
-                    raise LogLocked("the log is locked by another writer; try again in a moment") from exc
-                time.sleep(delay)
-                delay = min(delay * 2, 1.0)
+    def _retry(self, fn, attempts: int = 8):
+        return self.dialect.retry(fn, attempts)
 
     @contextlib.contextmanager
     def write(self) -> Iterator["Store"]:
         """A write transaction: everything inside commits together or not at all."""
-        if self.conn.in_transaction:
-            with self.db.atomic():
-                yield self
-            return
-        self._retry(lambda: self.conn.execute("BEGIN IMMEDIATE"))
-        try:
+        with self.dialect.write():
             yield self
-        except BaseException:
-            if self.conn.in_transaction:
-                self.conn.execute("ROLLBACK")
-            raise
-        else:
-            self._retry(lambda: self.conn.execute("COMMIT"))
 
     def schema_version(self) -> int:
-        return self.conn.execute("PRAGMA user_version").fetchone()[0]
+        return self.dialect.schema_version()
+
+    # --- plants -------------------------------------------------------------------
+    @contextlib.contextmanager
+    def plant_scope(self, plant: str | None) -> Iterator["Store"]:
+        """Inside, the reads by pour date (lots, records, pours, rejects, notes,
+        poured patterns, revisions, the pour span) see only ``plant``'s patterns.
+        ``None`` keeps the scope as it is (every plant, unless an outer scope
+        chose one); :meth:`every_plant` lifts it."""
+        if plant is None:
+            yield self
+            return
+        if plant not in self.plants():
+            known = ", ".join(self.plants()) or "none yet"
+            raise NotFound("plant", plant, f"the plants in the log are: {known} (the patterns "
+                                           "import's plant column, or `pourback init --plant`)")
+        before, self.plant = self.plant, plant
+        try:
+            yield self
+        finally:
+            self.plant = before
+
+    @contextlib.contextmanager
+    def every_plant(self) -> Iterator["Store"]:
+        """Inside, reads see every plant whatever scope is around."""
+        before, self.plant = self.plant, None
+        try:
+            yield self
+        finally:
+            self.plant = before
+
+    def plants(self) -> list[str]:
+        """The plant codes the log's patterns name, in order."""
+        return [r[0] for r in self.conn.execute(
+            "SELECT DISTINCT plant FROM patterns WHERE plant IS NOT NULL ORDER BY plant")]
+
+    def _plant_filter(self, column: str = "l.pattern") -> tuple[list[str], list]:
+        if self.plant is None:
+            return [], []
+        return [f"{column} IN (SELECT pattern FROM patterns WHERE plant = ?)"], [self.plant]
 
     def migrate(self) -> None:
         version = self.schema_version()
         if version > SCHEMA_VERSION:
-            raise PourbackError(f"database {self.path} has schema version {version}, newer than this "
+            raise PourbackError(f"database {self.name} has schema version {version}, newer than this "
                                 f"program's {SCHEMA_VERSION}; upgrade pourback")
         while version < SCHEMA_VERSION:
             with self.write():
@@ -243,9 +338,9 @@ class Store:
                 version = self.schema_version()
                 if version >= SCHEMA_VERSION:
                     break
-                MIGRATIONS[version](self.db)
+                MIGRATIONS[version](_Schema(self.dialect))
                 version += 1
-                self.conn.execute(f"PRAGMA user_version = {version}")
+                self.dialect.set_schema_version(version)
 
     # --- generic reads -----------------------------------------------------------
     def _frame(self, sql: str, params: Iterable = ()) -> pd.DataFrame:
@@ -258,37 +353,34 @@ class Store:
         if name not in TABLE_COLUMNS and name != "alloys":
             raise NotFound("table", name)
         order = ", ".join(KEYS.get(name, ["alloy"])) if name != "inspections" else "id"
-        return self._frame(f"SELECT * FROM [{name}] ORDER BY {order}")
+        return self._frame(f'SELECT * FROM "{name}" ORDER BY {order}')
 
     def count(self, name: str) -> int:
         # A table name cannot be a parameter: take only the log's own tables.
-        known = {r[0] for r in self.conn.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
-        if name not in known:
+        if name not in self.dialect.table_names():
             raise NotFound("table", name)
-        return self.conn.execute(f"SELECT COUNT(*) FROM [{name}]").fetchone()[0]
+        return self.conn.execute(f'SELECT COUNT(*) FROM "{name}"').fetchone()[0]
 
     def has_rows(self, name: str) -> bool:
         """Whether table ``name`` (one of the import kinds) holds any row."""
         if name not in TABLE_COLUMNS:
             raise NotFound("table", name)
-        return self.conn.execute(f"SELECT EXISTS (SELECT 1 FROM [{name}])").fetchone()[0] == 1
+        return bool(self.conn.execute(f'SELECT EXISTS (SELECT 1 FROM "{name}")').fetchone()[0])
 
     def counts(self) -> dict[str, int]:
         return {t: self.count(t) for t in ("patterns", "zones", "sleeves", "revisions", "risers",
                                            "lots", "inspections")}
 
     def quick_counts(self) -> dict[str, int]:
-        """Row counts from the largest rowid: the log never deletes a row (a
-        correction is a new record; a rolled-back import frees its rowids), so
-        it equals COUNT(*) without scanning millions of rows."""
-        return {t: self.conn.execute(f"SELECT COALESCE(MAX(rowid), 0) FROM [{t}]").fetchone()[0]
+        """Row counts, without scanning millions of rows where the dialect can
+        (SQLite: the largest rowid)."""
+        return {t: self.dialect.quick_count(t)
                 for t in ("patterns", "zones", "sleeves", "revisions", "risers", "lots", "inspections")}
 
     def snapshot(self) -> dict[str, list[tuple]]:
         """Every row of every table (for checks that nothing changed)."""
-        names = [r[0] for r in self.conn.execute(
-            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name")]
-        return {n: sorted(map(repr, self.conn.execute(f"SELECT * FROM [{n}]").fetchall()))
+        names = self.dialect.table_names()
+        return {n: sorted(map(repr, self.conn.execute(f'SELECT * FROM "{n}"').fetchall()))
                 for n in names}
 
     def existing(self, name: str, keys: list[tuple]) -> dict[tuple, tuple]:
@@ -301,14 +393,14 @@ class Store:
         for i in range(0, len(keys), step):
             chunk = keys[i:i + step]
             if len(key_cols) == 1:
-                where = f"[{key_cols[0]}] IN ({', '.join('?' * len(chunk))})"
+                where = f'"{key_cols[0]}" IN ({", ".join("?" * len(chunk))})'
                 params = [k[0] for k in chunk]
             else:
-                one = "(" + " AND ".join(f"[{c}] = ?" for c in key_cols) + ")"
+                one = "(" + " AND ".join(f'"{c}" = ?' for c in key_cols) + ")"
                 where = " OR ".join([one] * len(chunk))
                 params = [v for k in chunk for v in k]
-            sel = ", ".join(f"[{c}]" for c in cols)
-            for row in self.conn.execute(f"SELECT {sel} FROM [{name}] WHERE {where}", params):
+            sel = ", ".join(f'"{c}"' for c in cols)
+            for row in self.conn.execute(f'SELECT {sel} FROM "{name}" WHERE {where}', params):
                 out[tuple(row[cols.index(c)] for c in key_cols)] = tuple(row)
         return out
 
@@ -318,7 +410,7 @@ class Store:
         found = set()
         for i in range(0, len(values), 900):
             chunk = values[i:i + 900]
-            q = f"SELECT [{column}] FROM [{name}] WHERE [{column}] IN ({', '.join('?' * len(chunk))})"
+            q = f'SELECT "{column}" FROM "{name}" WHERE "{column}" IN ({", ".join("?" * len(chunk))})'
             found.update(r[0] for r in self.conn.execute(q, chunk))
         return found
 
@@ -327,12 +419,64 @@ class Store:
         order, without ``id`` for inspections), in key order, ``size`` at a time."""
         cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
         order = ", ".join(KEYS[name]) if name != "inspections" else "id"
-        cur = self.conn.execute(f"SELECT {', '.join(f'[{c}]' for c in cols)} FROM [{name}] ORDER BY {order}")
+        sel = ", ".join(f'"{c}"' for c in cols)
+        cur = self.conn.execute(f'SELECT {sel} FROM "{name}" ORDER BY {order}')
         while True:
             batch = cur.fetchmany(size)
             if not batch:
                 return
             yield batch
+
+    # --- whole tables (copy-log) --------------------------------------------------
+    def log_tables(self) -> list[str]:
+        """Every table of the log, in an order that inserts parents before children."""
+        names = self.dialect.table_names()
+        first = [t for t in COPY_ORDER if t in names]
+        return first + sorted(t for t in names if t not in COPY_ORDER)
+
+    def table_columns(self, name: str) -> list[str]:
+        if name not in self.dialect.table_names():
+            raise NotFound("table", name)
+        cur = self.conn.execute(f'SELECT * FROM "{name}" WHERE 1 = 0')
+        return [d[0] for d in cur.description]
+
+    def iter_table(self, name: str, columns: list[str], size: int = 50_000) -> Iterator[list[tuple]]:
+        """Every row of ``name`` (the given columns), ``size`` at a time, in no set order."""
+        sel = ", ".join(f'"{c}"' for c in columns)
+        cur = self.conn.execute(f'SELECT {sel} FROM "{self._known(name)}"')
+        while True:
+            batch = cur.fetchmany(size)
+            if not batch:
+                return
+            yield batch
+
+    def replace_table(self, name: str, columns: list[str], batches: Iterable[list[tuple]]) -> int:
+        """Empty ``name`` and fill it with ``batches`` (ids included); call inside :meth:`write`."""
+        self.conn.execute(f'DELETE FROM "{self._known(name)}"')
+        n = 0
+        for batch in batches:
+            self.dialect.insert_many(name, columns, batch)
+            n += len(batch)
+        if "id" in columns:
+            self.dialect.after_explicit_ids(name, "id")
+        return n
+
+    def table_checksum(self, name: str, columns: list[str]) -> str:
+        """A checksum of every row of ``name`` (the given columns) that does not
+        depend on row order or backend: the sum, modulo 2**64, of each row's
+        SHA-256 over its values written out the same way on both backends."""
+        total = 0
+        for batch in self.iter_table(name, columns):
+            for row in batch:
+                digest = hashlib.sha256("\x1f".join(map(_canonical, row)).encode("utf-8")).digest()
+                total = (total + int.from_bytes(digest[:8], "big")) % 2**64
+        return f"{total:016x}"
+
+    def _known(self, name: str) -> str:
+        # A table name cannot be a parameter: take only the log's own tables.
+        if name not in self.dialect.table_names():
+            raise NotFound("table", name)
+        return name
 
     # --- writes -------------------------------------------------------------------
     def insert_rows(self, name: str, rows: list[tuple]) -> int:
@@ -340,9 +484,7 @@ class Store:
         if not rows:
             return 0
         cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
-        sql = (f"INSERT INTO [{name}] ({', '.join(f'[{c}]' for c in cols)}) "
-               f"VALUES ({', '.join('?' * len(cols))})")
-        self.conn.executemany(sql, rows)
+        self.dialect.insert_many(name, cols, rows)
         return len(rows)
 
     # --- lookups used by validation ---------------------------------------------
@@ -410,7 +552,7 @@ class Store:
         return r[0] if r else None
 
     def last_insert_id(self) -> int:
-        return self.conn.execute("SELECT last_insert_rowid()").fetchone()[0]
+        return self.dialect.last_insert_id()
 
     def inspections_history(self, lot: str | None = None, limit: int | None = None) -> pd.DataFrame:
         """Every record, superseded ones included, with who superseded them."""
@@ -445,9 +587,8 @@ class Store:
              + "".join(" AND " + w for w in where) + " ORDER BY i.id")
         return self._frame(q, params)
 
-    @staticmethod
-    def _lot_filter(start, end, pattern, alias: str = "l"):
-        where, params = [], []
+    def _lot_filter(self, start, end, pattern, alias: str = "l"):
+        where, params = self._plant_filter(f"{alias}.pattern")
         if start is not None:
             where.append(f"{alias}.poured_on >= ?")
             params.append(str(start))
@@ -512,7 +653,7 @@ class Store:
         ``pattern`` is one code or a list of codes.
         """
         where, params = self._lot_filter(start, end, pattern)
-        cond = " AND ".join(where) or "1"
+        cond = " AND ".join(where) or "1 = 1"
         # All lots per pattern and day, less the few with no current record yet (a NOT
         # EXISTS that stops at a lot's first record): half the work of joining every
         # record to its lot. Castings per mold are applied per group, not per lot.
@@ -531,9 +672,10 @@ class Store:
     def poured_patterns(self, start: str, end: str) -> pd.DataFrame:
         """Every column of the patterns poured from ``start`` to ``end`` (ISO
         strings, inclusive), in code order."""
+        where, params = self._plant_filter("p.pattern")
         return self._frame("SELECT p.* FROM patterns p WHERE p.pattern IN (SELECT l.pattern FROM lots l "
-                           "WHERE l.poured_on >= ? AND l.poured_on <= ?) ORDER BY p.pattern",
-                           (str(start), str(end)))
+                           "WHERE l.poured_on >= ? AND l.poured_on <= ?)" + "".join(" AND " + w for w in where)
+                           + " ORDER BY p.pattern", (str(start), str(end), *params))
 
     def revision_steps(self, start: str, end: str) -> pd.DataFrame:
         """Revisions taking effect from ``start`` to ``end`` (ISO strings, inclusive),
@@ -543,9 +685,11 @@ class Store:
              "SELECT pattern, revision, effective_from, "
              "LAG(revision) OVER w AS previous, LAG(effective_from) OVER w AS previous_from, "
              "LEAD(effective_from) OVER w AS next_from FROM revisions "
-             "WINDOW w AS (PARTITION BY pattern ORDER BY effective_from, revision)) "
-             "WHERE effective_from >= ? AND effective_from <= ? ORDER BY pattern, effective_from, revision")
-        return self._frame(q, (str(start), str(end)))
+             "WINDOW w AS (PARTITION BY pattern ORDER BY effective_from, revision)) s "
+             "WHERE effective_from >= ? AND effective_from <= ?")
+        where, params = self._plant_filter("s.pattern")
+        q += "".join(" AND " + w for w in where) + " ORDER BY pattern, effective_from, revision"
+        return self._frame(q, (str(start), str(end), *params))
 
     def riser_designs(self, patterns: Iterable[str]) -> pd.DataFrame:
         """The stored risers (every revision) of ``patterns``, without joins."""
@@ -556,7 +700,7 @@ class Store:
                   for chunk in (codes[i:i + 900] for i in range(0, len(codes), 900))]
         if not frames:
             return self._frame("SELECT pattern, revision, riser, zone, placement, top, diameter_mm, height_mm, "
-                               "sleeve, neck_diameter_mm FROM risers WHERE 0")
+                               "sleeve, neck_diameter_mm FROM risers WHERE 1 = 0")
         return pd.concat(frames, ignore_index=True)
 
     def reject_notes(self, start: str | None = None, end: str | None = None, pattern=None,
@@ -573,14 +717,16 @@ class Store:
              "WHERE i.result != 'accept' AND i.void = 0 AND TRIM(COALESCE(i.notes, '')) != '' "
              "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
              + "".join(" AND " + w for w in where)
-             + ") WHERE k <= ? ORDER BY pattern, k")
+             + ") ranked WHERE k <= ? ORDER BY pattern, k")
         return self._frame(q, [*params, int(per_pattern)])
 
     def pour_span(self) -> tuple[str | None, str | None]:
         # Two subqueries: SQLite answers a lone MIN() or MAX() from the index,
         # but scans every lot for both in one SELECT.
-        r = self.conn.execute("SELECT (SELECT MIN(poured_on) FROM lots), "
-                              "(SELECT MAX(poured_on) FROM lots)").fetchone()
+        where, params = self._plant_filter("pattern")
+        cond = " WHERE " + where[0] if where else ""
+        r = self.conn.execute(f"SELECT (SELECT MIN(poured_on) FROM lots{cond}), "
+                              f"(SELECT MAX(poured_on) FROM lots{cond})", [*params, *params]).fetchone()
         return r[0], r[1]
 
     def rejects_by_pattern(self, start: str, end: str) -> pd.DataFrame:
@@ -591,22 +737,16 @@ class Store:
         # without statistics scans every record (taking result = 'reject' as selective)
         # or every lot (in pattern order, to save the GROUP BY sort).
         q = ("SELECT l.pattern, SUM(i.quantity) AS rejected "
-             "FROM lots l INDEXED BY lots_poured_on_pattern CROSS JOIN inspections i ON i.lot = l.lot "
+             f"FROM lots l {self.dialect.lots_by_date_hint} {self.dialect.forced_join} inspections i ON i.lot = l.lot "
              "WHERE l.poured_on >= ? AND l.poured_on <= ? AND i.result = 'reject' AND i.void = 0 "
              "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id) "
              "GROUP BY l.pattern")
         return self._frame(q, (str(start), str(end)))
 
     def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
-        """SQLite's plan for one statement (EXPLAIN QUERY PLAN), one line per step,
-        indented by depth."""
-        rows = self.conn.execute("EXPLAIN QUERY PLAN " + sql, tuple(params)).fetchall()
-        depth: dict[int, int] = {0: -1}
-        out = []
-        for node, parent, _, detail in rows:
-            depth[node] = depth.get(parent, -1) + 1
-            out.append("  " * depth[node] + detail)
-        return out
+        """The database's plan for one statement, one line per step (SQLite's
+        EXPLAIN QUERY PLAN indented by depth; PostgreSQL's EXPLAIN)."""
+        return self.dialect.query_plan(sql, params)
 
     # --- design -------------------------------------------------------------------
     def risers_frame(self, pattern: str | None = None, revision: str | None = None) -> pd.DataFrame:
@@ -689,24 +829,22 @@ class Store:
         return None if row is None else dict(zip([d[0] for d in cur.description], row))
 
     # --- maintenance --------------------------------------------------------------
-    def backup(self, dest: str | os.PathLike) -> None:
-        """Copy the log with SQLite's online backup (safe while others write)."""
+    def backup(self, dest: str | os.PathLike) -> dict:
+        """Back the log up to ``dest``, which must not exist.
+
+        SQLite: the online backup API (safe while others write). PostgreSQL:
+        ``pg_dump --format=custom`` when it is installed; the server's own backups
+        stay the plan of record. Returns ``ran`` (whether a backup was written),
+        ``command`` (the pg_dump command, password masked; None on SQLite) and
+        ``note`` (what to know about it).
+        """
         dest = pathlib.Path(dest)
         if dest.exists():
             raise PourbackError(f"backup file {dest} exists already; choose a new name")
-        try:
-            target = sqlite3.connect(str(dest))
-            try:
-                self.conn.backup(target, pages=-1)  # one step: a stepwise copy restarts on every write
-            finally:
-                target.close()
-        except sqlite3.Error as exc:
-            dest.unlink(missing_ok=True)  # never leave a half-written backup behind
-            raise PourbackError(f"could not write the backup {dest} ({exc}); check that its folder "
-                                "exists and has room") from None
+        return self.dialect.backup(dest)
 
     def integrity_check(self) -> str:
-        return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
+        return self.dialect.integrity_check()
 
 
 def restore(backup_file: str | os.PathLike, dest: str | os.PathLike) -> None:

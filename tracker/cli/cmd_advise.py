@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import click
 
-from tracker.cli import caution_text, db_option, emit, handle_errors, json_option, main, open_store, table
+from tracker.cli import (caution_text, db_option, emit, handle_errors, json_option, main, open_store,
+                          plant_option, table)
 
 
 @main.command()
@@ -19,10 +20,11 @@ from tracker.cli import caution_text, db_option, emit, handle_errors, json_optio
               help="Share of the metal cost per kg charged for extra riser metal (1 = full cost; "
                    "less where returns are remelted).")
 @click.option("--refit", is_flag=True, help="Refit the reject model before suggesting.")
+@plant_option
 @db_option
 @json_option
 @handle_errors
-def suggest(pattern, target, week, weeks, step_mm, riser_metal_charge, refit, db_path, as_json):
+def suggest(pattern, target, week, weeks, step_mm, riser_metal_charge, refit, plant, db_path, as_json):
     """Suggest riser changes for problem patterns, with yield and cost.
 
     For each zone with shrinkage above the target: enlarge the riser (in
@@ -38,7 +40,7 @@ def suggest(pattern, target, week, weeks, step_mm, riser_metal_charge, refit, db
 
     with open_store(db_path) as store:
         rows = run(store, pattern=pattern, target=target, week=week, weeks=weeks, step_mm=step_mm, refit=refit,
-                   riser_metal_charge=riser_metal_charge)
+                   riser_metal_charge=riser_metal_charge, plant=plant)
     emit(rows, as_json, _format)
 
 

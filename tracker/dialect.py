@@ -1,0 +1,420 @@
+"""The two database backends of the log: SQLite (the embedded default) and PostgreSQL.
+
+Used by ``tracker/store.py`` only. Every difference between the dialects lives
+here: how a connection opens, placeholders, identifier types in the DDL, the
+schema version, row ids, bulk insert (``executemany`` against ``COPY``), the
+writers' lock, the errors worth retrying, query plans, integrity checks and
+how a change to the log is noticed. ``store.py`` writes its SQL once, in the
+common subset of both (``?`` placeholders, ``"double-quoted"`` identifiers,
+``ON CONFLICT ... DO UPDATE`` upserts), and asks the dialect for the rest.
+
+A log is named by a file path (SQLite) or a ``postgresql://`` URL. The URL's
+password (or ``PGPASSWORD`` / a ``.pgpass`` file, read by libpq) is used to
+connect and never shown: :func:`display_name` masks it.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import pathlib
+import re
+import shlex
+import shutil
+import sqlite3
+import subprocess
+import time
+import urllib.parse
+from typing import Iterable, Iterator
+
+from tracker.errors import NotFound, PourbackError
+
+URL_SCHEMES = ("postgresql://", "postgres://")
+BUSY_TIMEOUT_MS = 30_000
+# How long a PostgreSQL writer waits for the writers' lock before giving up (ms).
+PG_LOCK_TIMEOUT_MS = 600_000
+# pg_advisory_xact_lock key of the writers' lock ("pourback" in ASCII, folded to 63 bits).
+PG_WRITE_LOCK = 0x706F75726261636B
+
+
+class LogLocked(PourbackError):
+    """The log stayed locked by another writer longer than the busy timeout."""
+
+
+def is_url(target) -> bool:
+    """Whether ``target`` names a PostgreSQL log (a ``postgresql://`` URL)."""
+    return isinstance(target, str) and target.startswith(URL_SCHEMES)
+
+
+def display_name(target) -> str:
+    """``target`` fit to print: a URL's password is replaced by ``***``."""
+    target = str(target)
+    if not is_url(target):
+        return target
+    parts = urllib.parse.urlsplit(target)
+    netloc = parts.netloc
+    if "@" in netloc:
+        user, host = netloc.rsplit("@", 1)
+        if ":" in user:
+            user = user.split(":", 1)[0] + ":***"
+        netloc = f"{user}@{host}"
+    query = re.sub(r"(?i)(password=)[^&]*", r"\1***", parts.query)
+    return urllib.parse.urlunsplit((parts.scheme, netloc, parts.path, query, parts.fragment))
+
+
+def for_target(target: str, create: bool) -> "SQLite | PostgreSQL":
+    """The dialect of ``target`` (a path or a URL), connected."""
+    return PostgreSQL(target, create) if is_url(target) else SQLite(target, create)
+
+
+# --- SQLite ------------------------------------------------------------------------------
+
+class SQLite:
+    """The embedded log: one file, WAL mode, writers wait for each other (BEGIN IMMEDIATE)."""
+
+    name = "sqlite"
+    # Fragments of the review's floor query: SQLite without statistics needs to be
+    # told to drive from the pour-date index (see Store.rejects_by_pattern).
+    lots_by_date_hint = "INDEXED BY lots_poured_on_pattern"
+    forced_join = "CROSS JOIN"
+
+    def __init__(self, path: str, create: bool = True):
+        self.target = path
+        if path != ":memory:" and not create and not pathlib.Path(path).exists():
+            raise NotFound("database", path, "run `pourback init` first or pass --db")
+        self.conn = sqlite3.connect(path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
+        self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+        self.conn.execute("PRAGMA foreign_keys = ON")
+        if path != ":memory:":
+            self.retry(lambda: self.conn.execute("PRAGMA journal_mode = WAL"))
+            self.conn.execute("PRAGMA synchronous = NORMAL")
+
+    def close(self) -> None:
+        self.conn.close()
+
+    # errors -----------------------------------------------------------------------
+    @staticmethod
+    def transient(exc: BaseException) -> bool:
+        """Whether ``exc`` means "another writer holds the log; try again"."""
+        return isinstance(exc, sqlite3.OperationalError) and ("locked" in str(exc) or "busy" in str(exc))
+
+    def retry(self, fn, attempts: int = 8):
+        return retry(fn, self.transient, attempts)
+
+    # transactions -----------------------------------------------------------------
+    @contextlib.contextmanager
+    def write(self) -> Iterator[None]:
+        if self.conn.in_transaction:
+            self.conn.execute("SAVEPOINT pourback_nested")
+            try:
+                yield
+            except BaseException:
+                self.conn.execute("ROLLBACK TO SAVEPOINT pourback_nested")
+                self.conn.execute("RELEASE SAVEPOINT pourback_nested")
+                raise
+            else:
+                self.conn.execute("RELEASE SAVEPOINT pourback_nested")
+            return
+        self.retry(lambda: self.conn.execute("BEGIN IMMEDIATE"))
+        try:
+            yield
+        except BaseException:
+            if self.conn.in_transaction:
+                self.conn.execute("ROLLBACK")
+            raise
+        else:
+            self.retry(lambda: self.conn.execute("COMMIT"))
+
+    @property
+    def in_transaction(self) -> bool:
+        return self.conn.in_transaction
+
+    # schema -----------------------------------------------------------------------
+    def ddl(self, sql: str) -> str:
+        return sql
+
+    def schema_version(self) -> int:
+        return self.conn.execute("PRAGMA user_version").fetchone()[0]
+
+    def set_schema_version(self, version: int) -> None:
+        self.conn.execute(f"PRAGMA user_version = {int(version)}")
+
+    def table_names(self) -> list[str]:
+        return [r[0] for r in self.conn.execute(
+            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name")]
+
+    # rows -------------------------------------------------------------------------
+    def execute(self, sql: str, params: Iterable = ()):
+        return self.conn.execute(sql, tuple(params))
+
+    def executemany(self, sql: str, rows: Iterable[tuple]):
+        return self.conn.executemany(sql, rows)
+
+    def insert_many(self, table: str, cols: list[str], rows: list[tuple]) -> None:
+        sql = (f'INSERT INTO "{table}" ({", ".join(f"{chr(34)}{c}{chr(34)}" for c in cols)}) '
+               f"VALUES ({', '.join('?' * len(cols))})")
+        self.conn.executemany(sql, rows)
+
+    def last_insert_id(self) -> int:
+        return self.conn.execute("SELECT last_insert_rowid()").fetchone()[0]
+
+    def after_explicit_ids(self, table: str, column: str) -> None:
+        """Nothing to do: SQLite's next rowid follows the largest one."""
+
+    def quick_count(self, table: str) -> int:
+        # The log never deletes a row (a correction is a new record; a rolled-back
+        # import frees its rowids), so the largest rowid equals COUNT(*) without a scan.
+        return self.conn.execute(f'SELECT COALESCE(MAX(rowid), 0) FROM "{table}"').fetchone()[0]
+
+    def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
+        rows = self.conn.execute("EXPLAIN QUERY PLAN " + sql, tuple(params)).fetchall()
+        depth: dict[int, int] = {0: -1}
+        out = []
+        for node, parent, _, detail in rows:
+            depth[node] = depth.get(parent, -1) + 1
+            out.append("  " * depth[node] + detail)
+        return out
+
+    def integrity_check(self) -> str:
+        return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
+
+    def backup(self, dest: pathlib.Path) -> dict:
+        try:
+            target = sqlite3.connect(str(dest))
+            try:
+                self.conn.backup(target, pages=-1)  # one step: a stepwise copy restarts on every write
+            finally:
+                target.close()
+        except sqlite3.Error as exc:
+            dest.unlink(missing_ok=True)  # never leave a half-written backup behind
+            raise PourbackError(f"could not write the backup {dest} ({exc}); check that its folder "
+                                "exists and has room") from None
+        return {"ran": True, "command": None, "note": "restore it with `pourback restore`"}
+
+
+# --- PostgreSQL --------------------------------------------------------------------------
+
+def _psycopg():
+    try:
+        import psycopg
+    except ImportError:  # pragma: no cover - psycopg is a dependency
+        raise PourbackError("a postgresql:// log needs the psycopg package: "
+                            "pip install 'psycopg[binary]'") from None
+    return psycopg
+
+
+class PostgreSQL:
+    """A log on a PostgreSQL server (psycopg 3).
+
+    The connection runs in autocommit mode, so reads never hold a transaction
+    open; a write is ``BEGIN`` + ``pg_advisory_xact_lock`` (one writer at a time,
+    like SQLite's ``BEGIN IMMEDIATE``, so validation that reads the log before
+    writing stays true at commit) + ``COMMIT``. Inserts go through ``COPY``.
+    """
+
+    name = "postgresql"
+    lots_by_date_hint = ""
+    forced_join = "JOIN"
+
+    def __init__(self, url: str, create: bool = True):
+        psycopg = _psycopg()
+        self.target = url
+        self._sql_cache: dict[str, str] = {}
+        try:
+            self.conn = psycopg.connect(url, autocommit=True, application_name="pourback")
+        except psycopg.Error as exc:
+            reason = " ".join(str(exc).split()) or type(exc).__name__
+            raise PourbackError(f"cannot connect to {display_name(url)}: {reason}; check the host, "
+                                "port, database name and the password (in the URL, PGPASSWORD or "
+                                "~/.pgpass)") from None
+        if not create and self.schema_version() == 0:
+            self.conn.close()
+            raise NotFound("database", display_name(url),
+                           "it holds no pourback log: run `pourback init --db URL` first")
+
+    def close(self) -> None:
+        self.conn.close()
+
+    # errors -----------------------------------------------------------------------
+    @staticmethod
+    def transient(exc: BaseException) -> bool:
+        """Serialization failures and deadlocks: the transaction is safe to run again."""
+        errors = _psycopg().errors
+        return isinstance(exc, (errors.SerializationFailure, errors.DeadlockDetected))
+
+    def retry(self, fn, attempts: int = 8):
+        return retry(fn, self.transient, attempts)
+
+    # transactions -----------------------------------------------------------------
+    @contextlib.contextmanager
+    def write(self) -> Iterator[None]:
+        outer = not self.in_transaction
+        with self.conn.transaction():  # a savepoint when nested
+            if outer:
+                self.conn.execute(f"SET LOCAL lock_timeout = {PG_LOCK_TIMEOUT_MS}")
+                try:
+                    self.conn.execute("SELECT pg_advisory_xact_lock(%s)", (PG_WRITE_LOCK,))
+                except _psycopg().errors.LockNotAvailable:
+                    raise LogLocked(f"another writer held the log for over {PG_LOCK_TIMEOUT_MS // 60000} "
+                                    "minutes; try again when its import has finished") from None
+            yield
+            if outer:
+                # The change counter the dashboard's cache keys on (see data_version).
+                self.conn.execute("UPDATE pourback_schema SET changes = changes + 1")
+
+    @property
+    def in_transaction(self) -> bool:
+        pq = _psycopg().pq
+        return self.conn.info.transaction_status != pq.TransactionStatus.IDLE
+
+    # schema -----------------------------------------------------------------------
+    _DDL = [
+        (re.compile(r"\bINTEGER PRIMARY KEY\b"), "BIGINT GENERATED BY DEFAULT AS IDENTITY PRIMARY KEY"),
+        # SQLite's REAL is 8 bytes; PostgreSQL's is 4.
+        (re.compile(r"\b(REAL|FLOAT)\b"), "DOUBLE PRECISION"),
+        (re.compile(r"\bBLOB\b"), "BYTEA"),
+        # Byte order, as SQLite compares text: reports sort the same on both.
+        (re.compile(r"\bTEXT\b"), 'TEXT COLLATE "C"'),
+    ]
+
+    def ddl(self, sql: str) -> str:
+        for pattern, repl in self._DDL:
+            sql = pattern.sub(repl, sql)
+        return sql
+
+    def schema_version(self) -> int:
+        if self.conn.execute("SELECT to_regclass('pourback_schema')").fetchone()[0] is None:
+            return 0
+        row = self.conn.execute("SELECT version FROM pourback_schema").fetchone()
+        return 0 if row is None else row[0]
+
+    def set_schema_version(self, version: int) -> None:
+        # One row: the schema version (SQLite's user_version) and a count of committed
+        # write transactions (SQLite's file size and mtime, for data_version).
+        self.conn.execute("CREATE TABLE IF NOT EXISTS pourback_schema "
+                          "(version INTEGER NOT NULL, changes BIGINT NOT NULL DEFAULT 0)")
+        if self.conn.execute("UPDATE pourback_schema SET version = %s", (int(version),)).rowcount == 0:
+            self.conn.execute("INSERT INTO pourback_schema (version) VALUES (%s)", (int(version),))
+
+    def table_names(self) -> list[str]:
+        return [r[0] for r in self.conn.execute(
+            "SELECT table_name FROM information_schema.tables WHERE table_schema = current_schema() "
+            "AND table_type = 'BASE TABLE' AND table_name != 'pourback_schema' ORDER BY table_name")]
+
+    # rows -------------------------------------------------------------------------
+    def sql(self, sql: str) -> str:
+        """``?`` placeholders to psycopg's ``%s`` (the store's SQL has no ``?`` or ``%`` in literals)."""
+        out = self._sql_cache.get(sql)
+        if out is None:
+            out = self._sql_cache[sql] = sql.replace("%", "%%").replace("?", "%s")
+        return out
+
+    def execute(self, sql: str, params: Iterable = ()):
+        params = tuple(params)
+        return self.conn.execute(self.sql(sql), params or None)
+
+    def executemany(self, sql: str, rows: Iterable[tuple]):
+        with self.conn.cursor() as cur:
+            cur.executemany(self.sql(sql), rows)
+
+    def insert_many(self, table: str, cols: list[str], rows: list[tuple]) -> None:
+        names = ", ".join(f'"{c}"' for c in cols)
+        with self.conn.cursor() as cur, cur.copy(f'COPY "{table}" ({names}) FROM STDIN') as copy:
+            for row in rows:
+                copy.write_row(row)
+
+    def last_insert_id(self) -> int:
+        # lastval() is per session, and COPY's defaults advance it like INSERT's.
+        return self.conn.execute("SELECT lastval()").fetchone()[0]
+
+    def after_explicit_ids(self, table: str, column: str) -> None:
+        """Move ``table.column``'s identity past the largest id (after rows brought their own)."""
+        self.conn.execute(
+            f"SELECT setval(pg_get_serial_sequence('{table}', '{column}'), "
+            f'COALESCE((SELECT MAX("{column}") FROM "{table}"), 0) + 1, false)')
+
+    def quick_count(self, table: str) -> int:
+        # A rolled-back COPY burns identity values, so MAX(id) is no count here.
+        return self.conn.execute(f'SELECT COUNT(*) FROM "{table}"').fetchone()[0]
+
+    def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
+        return [r[0] for r in self.execute("EXPLAIN " + sql, params).fetchall()]
+
+    def integrity_check(self) -> str:
+        # The server keeps its own files consistent; check that every table answers.
+        for t in self.table_names():
+            self.conn.execute(f'SELECT 1 FROM "{t}" LIMIT 1').fetchall()
+        return "ok"
+
+    def backup(self, dest: pathlib.Path) -> dict:
+        """``pg_dump --format=custom`` of this log's schema into ``dest``; the
+        password goes to pg_dump in PGPASSWORD, never on its command line."""
+        info = self.conn.info
+        params = info.get_parameters()
+        schema = self.conn.execute("SELECT current_schema()").fetchone()[0]
+        args = ["pg_dump", "--format=custom", f"--file={dest}",
+                f"--host={params.get('host', info.host)}", f"--port={info.port}",
+                f"--username={info.user}"]
+        if schema != "public":
+            args.append(f"--schema={schema}")
+        args.append(info.dbname)
+        shown = " ".join(shlex.quote(a) for a in args)
+        note = ("the server's own backups (those its administrators run) are the plan of record; "
+                "this dump is an extra copy. Restore it with pg_restore")
+        exe = shutil.which("pg_dump")
+        if exe is None:
+            return {"ran": False, "command": shown,
+                    "note": "pg_dump is not installed here (Debian: apt-get install postgresql-client); "
+                            "run the command on a machine that has it, the password from PGPASSWORD or "
+                            "~/.pgpass. " + note}
+        env = dict(os.environ)
+        if info.password:
+            env["PGPASSWORD"] = info.password
+        done = subprocess.run([exe, *args[1:]], env=env, capture_output=True, text=True)
+        if done.returncode != 0:
+            dest.unlink(missing_ok=True)
+            reason = (done.stderr.strip().splitlines() or ["no message"])[-1]
+            raise PourbackError(f"pg_dump failed ({reason}); the command was: {shown}")
+        return {"ran": True, "command": shown, "note": note}
+
+
+def retry(fn, transient, attempts: int = 8):
+    """``fn()``, run again after a short, growing pause while it fails with a
+    ``transient`` error; after ``attempts`` tries, :class:`LogLocked`."""
+    delay = 0.05
+    for i in range(attempts):
+        try:
+            return fn()
+        except Exception as exc:
+            if not transient(exc):
+                raise
+            if i == attempts - 1:
+                raise LogLocked("the log is busy with other writers; try again in a moment") from exc
+            time.sleep(delay)
+            delay = min(delay * 2, 1.0)
+
+
+def data_version(target: str) -> tuple:
+    """A value that changes whenever the log changes (a cache key for the dashboard).
+
+    SQLite in WAL mode writes to ``<db>-wal`` first, so both files' size and
+    modification time (ns) count; a missing file gives zeros. PostgreSQL: the
+    count of committed write transactions kept in ``pourback_schema``.
+    """
+    if is_url(target):
+        psycopg = _psycopg()
+        try:
+            with psycopg.connect(target, autocommit=True) as conn:
+                if conn.execute("SELECT to_regclass('pourback_schema')").fetchone()[0] is None:
+                    return (0,)
+                return tuple(conn.execute("SELECT version, changes FROM pourback_schema").fetchone() or (0,))
+        except psycopg.Error:
+            return ("unreachable",)
+    out = []
+    for p in (pathlib.Path(target), pathlib.Path(f"{target}-wal")):
+        try:
+            st = p.stat()
+            out += [st.st_size, st.st_mtime_ns]
+        except OSError:
+            out += [0, 0]
+    return tuple(out)
