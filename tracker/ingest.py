@@ -26,7 +26,7 @@ from typing import Callable, Iterator
 import numpy as np
 import pandas as pd
 
-from tracker import geometry
+from tracker import auth, geometry
 from tracker.errors import BadFile, BadRow
 from tracker.store import KEYS, TABLE_COLUMNS, Store
 
@@ -784,6 +784,7 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
     from tracker.errors import BadInput
 
     today = today or dt.date.today()
+    by = auth.author(store, [auth.TABLE_ACTION.get(k, "design") for k, _ in items], by)
     with store.write():
         results = []
         for kind, path in items:
@@ -797,6 +798,7 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
             if result.refused and not skip_bad:
                 raise BadFile(path.name, result.problems)  # rolls the whole transaction back
             results.append(result)
+        auth.note_write(store, "import", "; ".join(f"{r.kind} {r.file}: {r.added} added" for r in results))
         return results
 
 
@@ -902,8 +904,10 @@ def log_inspection(store: Store, record: dict, *, by: str | None = None,
     """Validate one inspection result as the import would and store it.
 
     ``record`` has the inspection columns; returns the new record id.
-    Each call is a new record (it is never taken as a duplicate).
+    Each call is a new record (it is never taken as a duplicate). While served
+    with sign-in the record carries the signed-in user, whatever ``by`` says.
     """
+    by = auth.author(store, "log", by)
     return _one_record(store, record, by=by, today=today, source=source)
 
 
@@ -958,6 +962,7 @@ def correct_inspection(store: Store, record_id: int, changes: dict, *, by: str, 
     """
     from tracker.errors import BadInput
 
+    by = auth.author(store, "log", by)
     if not str(by or "").strip():
         raise BadInput("by", by, "name who makes the correction")
     if not str(reason or "").strip():
