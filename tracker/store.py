@@ -29,7 +29,7 @@ from tracker.errors import NotFound, PourbackError
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 4
+SCHEMA_VERSION = 5
 BUSY_TIMEOUT_MS = 30_000
 
 # Column order of each import kind's table, as stored.
@@ -163,7 +163,35 @@ def _migration_3(db: sqlite_utils.Database) -> None:
     db.execute("DROP INDEX inspections_lot")
 
 
+# An imported row's key before schema version 4: 40 hex digits (its content's SHA-1), ':'
+# and its occurrence in the file. Keys given since never have ':' at place 41.
+_LEGACY_KEY = "substr(record_key, 41, 1) = ':'"
+
+
 def _migration_4(db: sqlite_utils.Database) -> None:
+    # Inspection rows were keyed by their content and its occurrence in the file, so an
+    # identical row in a second file was taken as "already present" and lost. From now on
+    # a row is keyed by the file it came from (its content digest) and its row number, or
+    # by the source system's record_id. Every stored record keeps its key: none is lost or
+    # merged. Files imported before carry no digest; a row of one is still matched by the
+    # old key (content and occurrence), but only against records from a file of the same
+    # name (``legacy_keys`` in meta says such records exist).
+    db.execute("""
+        CREATE TABLE imports (
+            digest TEXT PRIMARY KEY,
+            file TEXT NOT NULL,
+            bytes INTEGER NOT NULL,
+            last_row INTEGER NOT NULL,
+            segments TEXT NOT NULL,
+            imported_at TEXT NOT NULL,
+            imported_by TEXT
+        )""")
+    db.execute("CREATE INDEX imports_bytes ON imports(bytes)")
+    if db.execute(f"SELECT EXISTS (SELECT 1 FROM inspections WHERE {_LEGACY_KEY})").fetchone()[0]:
+        db.execute("INSERT INTO meta (key, value) VALUES ('legacy_keys', '1')")
+
+
+def _migration_5(db: sqlite_utils.Database) -> None:
     # Accounts, dashboard sessions and the audit of who did what (tracker/auth.py).
     # A password is kept only as its Argon2id hash; a session only as the SHA-256
     # of its token.
@@ -196,7 +224,7 @@ def _migration_4(db: sqlite_utils.Database) -> None:
     db.execute("CREATE INDEX sessions_user ON sessions(user)")
 
 
-MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4]  # index i brings the schema from version i to i + 1
+MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5]  # index i brings the schema from version i to i + 1
 
 
 # --- the store --------------------------------------------------------------------
@@ -434,6 +462,50 @@ class Store:
                 d["methods"][method] = d["methods"].get(method, 0) + qty
                 if result == "reject":
                     d["rejected"] += qty
+        return out
+
+    # --- imported files -------------------------------------------------------------
+    def imports_up_to(self, size: int) -> list[tuple[str, int, int, str]]:
+        """(digest, bytes, last_row, segments) of the imported files of at most
+        ``size`` bytes, shortest first: the files a new file may extend."""
+        return self.conn.execute("SELECT digest, bytes, last_row, segments FROM imports WHERE bytes <= ? "
+                                 "ORDER BY bytes, digest", (int(size),)).fetchall()
+
+    def record_import(self, digest: str, file: str, size: int, last_row: int, segments: str,
+                      by: str | None) -> None:
+        """Remember an imported file (the first import of a content only)."""
+        self.conn.execute("INSERT OR IGNORE INTO imports (digest, file, bytes, last_row, segments, "
+                          "imported_at, imported_by) VALUES (?, ?, ?, ?, ?, ?, ?)",
+                          (digest, file, int(size), int(last_row), segments,
+                           dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"), by))
+
+    def has_legacy_keys(self) -> bool:
+        """Whether the log holds records imported before files were keyed by digest."""
+        return self.get_meta("legacy_keys") == "1"
+
+    def legacy_keys_present(self, keys: Iterable[str], file: str) -> set:
+        """Which of ``keys`` (old content-and-occurrence keys) a record imported
+        from a file named ``file`` holds."""
+        keys = list(dict.fromkeys(keys))
+        found = set()
+        for i in range(0, len(keys), 900):
+            chunk = keys[i:i + 900]
+            q = (f"SELECT record_key FROM inspections WHERE record_key IN ({', '.join('?' * len(chunk))}) "
+                 "AND source = ?")
+            found.update(r[0] for r in self.conn.execute(q, [*chunk, file]))
+        return found
+
+    def records_by_key(self, keys: Iterable[str]) -> dict[str, tuple]:
+        """The stored content (lot .. notes, as TABLE_COLUMNS orders them) of the
+        records with the given keys."""
+        keys = list(dict.fromkeys(keys))
+        cols = TABLE_COLUMNS["inspections"][1:13]
+        out = {}
+        for i in range(0, len(keys), 900):
+            chunk = keys[i:i + 900]
+            q = (f"SELECT record_key, {', '.join(cols)} FROM inspections "
+                 f"WHERE record_key IN ({', '.join('?' * len(chunk))})")
+            out.update((r[0], tuple(r[1:])) for r in self.conn.execute(q, chunk))
         return out
 
     # --- inspections --------------------------------------------------------------
