@@ -273,13 +273,22 @@ class PostgreSQL:
         # SQLite's REAL is 8 bytes; PostgreSQL's is 4.
         (re.compile(r"\b(REAL|FLOAT)\b"), "DOUBLE PRECISION"),
         (re.compile(r"\bBLOB\b"), "BYTEA"),
-        # Byte order, as SQLite compares text: reports sort the same on both.
-        (re.compile(r"\bTEXT\b"), 'TEXT COLLATE "C"'),
+        # Byte order, as SQLite compares text, so reports sort the same on both; a
+        # column that names its own collation keeps it.
+        (re.compile(r"\bTEXT\b(?![^,()]*\bCOLLATE\b)"), 'TEXT COLLATE "C"'),
+        # "user" is reserved in PostgreSQL (it means current_user): quote the column.
+        (re.compile(r'(?<!")\buser\b(?!")'), '"user"'),
     ]
+    # SQLite's NOCASE: an ICU collation that compares without case (for = and ORDER BY).
+    _NOCASE = re.compile(r"\bCOLLATE NOCASE\b")
+    NOCASE_COLLATION = "pourback_nocase"
 
     def ddl(self, sql: str) -> str:
         for pattern, repl in self._DDL:
             sql = pattern.sub(repl, sql)
+        if self._NOCASE.search(sql):
+            self.conn.execute(f"CREATE COLLATION IF NOT EXISTS {self.NOCASE_COLLATION} "
+                              "(provider = icu, locale = 'und-u-ks-level2', deterministic = false)")
         return sql
 
     def schema_version(self) -> int:
@@ -306,7 +315,8 @@ class PostgreSQL:
         """``?`` placeholders to psycopg's ``%s`` (the store's SQL has no ``?`` or ``%`` in literals)."""
         out = self._sql_cache.get(sql)
         if out is None:
-            out = self._sql_cache[sql] = sql.replace("%", "%%").replace("?", "%s")
+            out = self._NOCASE.sub(f"COLLATE {self.NOCASE_COLLATION}", sql.replace("%", "%%").replace("?", "%s"))
+            self._sql_cache[sql] = out
         return out
 
     def execute(self, sql: str, params: Iterable = ()):
