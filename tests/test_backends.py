@@ -211,3 +211,21 @@ def test_a_transient_conflict_is_retried_not_reported(logs, tmp_path, monkeypatc
             log_inspection(s, {"lot": lot, "inspected_on": "2026-03-06", "method": "visual",
                                "quantity": 1, "result": "accept"}, by="test")
         assert s.count("inspections") == before + 1
+
+
+# --- the benchmark on PostgreSQL ------------------------------------------------------------
+
+@pytest.mark.slow
+def test_bench_runs_on_postgresql(tmp_path):
+    from tests.conftest import pg_server
+    from tracker import bench
+
+    report = bench.run(400, sizing_risers=10, repeats=1, dashboard=False, backend="postgresql",
+                       pg_url=pg_server())
+    by = {m["name"]: m for m in report["measures"]}
+    assert report["database"].startswith("PostgreSQL ")
+    assert by["import"]["ours_s"] > 0 and by["import"]["baseline_s"] > 0 and by["import"]["refused"] == 0
+    # Reference: one hand-written SQL aggregate of the week's rejects per pattern.
+    assert by["review_week"]["agrees_with_baseline"] is True
+    assert by["sizing"]["not_measured"]
+    assert report["query_plans"] and all(q["plan"] for q in report["query_plans"])

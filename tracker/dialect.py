@@ -178,6 +178,9 @@ class SQLite:
     def integrity_check(self) -> str:
         return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
 
+    def version(self) -> str:
+        return f"SQLite {sqlite3.sqlite_version}"
+
     def backup(self, dest: pathlib.Path) -> dict:
         try:
             target = sqlite3.connect(str(dest))
@@ -356,6 +359,9 @@ class PostgreSQL:
             self.conn.execute(f'SELECT 1 FROM "{t}" LIMIT 1').fetchall()
         return "ok"
 
+    def version(self) -> str:
+        return "PostgreSQL " + self.conn.execute("SHOW server_version").fetchone()[0].split()[0]
+
     def backup(self, dest: pathlib.Path) -> dict:
         """``pg_dump --format=custom`` of this log's schema into ``dest``; the
         password goes to pg_dump in PGPASSWORD, never on its command line."""
@@ -428,3 +434,30 @@ def data_version(target: str) -> tuple:
         except OSError:
             out += [0, 0]
     return tuple(out)
+
+
+def with_schema(url: str, schema: str) -> str:
+    """``url`` with its search_path set to ``schema`` (libpq's ``options`` parameter)."""
+    parts = urllib.parse.urlsplit(url)
+    query = [(k, v) for k, v in urllib.parse.parse_qsl(parts.query) if k != "options"]
+    query.append(("options", f"-csearch_path={schema}"))
+    return urllib.parse.urlunsplit(parts._replace(query=urllib.parse.urlencode(query)))
+
+
+def new_schema(url: str, schema: str) -> str:
+    """Create ``schema`` afresh (dropping one of that name) on the server at ``url``;
+    the URL of a log in it."""
+    if not re.fullmatch(r"[a-z_][a-z0-9_]{0,62}", schema):
+        raise PourbackError(f"schema: got {schema!r}; use lower-case letters, digits and '_'")
+    with _psycopg().connect(url, autocommit=True) as conn:
+        conn.execute(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE')
+        conn.execute(f'CREATE SCHEMA "{schema}"')
+    return with_schema(url, schema)
+
+
+def drop_schema(url: str, schema: str) -> None:
+    """Drop ``schema`` and everything in it, if it exists."""
+    if not re.fullmatch(r"[a-z_][a-z0-9_]{0,62}", schema):
+        raise PourbackError(f"schema: got {schema!r}; use lower-case letters, digits and '_'")
+    with _psycopg().connect(url, autocommit=True) as conn:
+        conn.execute(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE')

@@ -32,7 +32,8 @@ import pandas as pd
 from tracker import auth
 from tracker import dialect as dialects
 from tracker.alloys import ALLOYS
-from tracker.dialect import BUSY_TIMEOUT_MS, LogLocked, data_version, display_name, is_url  # noqa: F401 (re-exported)
+from tracker.dialect import (BUSY_TIMEOUT_MS, LogLocked, data_version, display_name, drop_schema,  # noqa: F401
+                             is_url, new_schema, with_schema)  # re-exported: callers use store.py only
 from tracker.errors import NotFound, PourbackError
 
 DEFAULT_DB = "pourback.db"
@@ -354,6 +355,10 @@ class Store:
 
     def schema_version(self) -> int:
         return self.dialect.schema_version()
+
+    def server_version(self) -> str:
+        """The database engine and its version, e.g. "SQLite 3.40.1" or "PostgreSQL 15.18"."""
+        return self.dialect.version()
 
     # --- plants -------------------------------------------------------------------
     @contextlib.contextmanager
