@@ -14,9 +14,9 @@ from dashboard import common
 
 st.set_page_config(page_title="Pourback", page_icon=":material/insights:", layout="wide")
 
+LOG = st.Page("log_results.py", title="Log results", icon=":material/edit_note:", url_path="log")
 PAGES = [
-    st.Page("log_results.py", title="Log results", icon=":material/edit_note:", url_path="log",
-            default=True),
+    LOG,
     st.Page("weekly_review.py", title="Weekly review", icon=":material/calendar_view_week:",
             url_path="review"),
     st.Page("design_map.py", title="Design map", icon=":material/scatter_plot:", url_path="design-map"),
@@ -24,7 +24,18 @@ PAGES = [
     st.Page("suggestions.py", title="Suggestions", icon=":material/tune:", url_path="suggestions"),
 ]
 
-page = st.navigation(PAGES)
+
+def _home() -> None:
+    st.switch_page(LOG)
+
+
+# Streamlit serves its default page at "/" whatever its url_path, so "/log" would be
+# "page not found": the default is a hidden page that moves on to /log, and every
+# visible page keeps its own address.
+HOME = st.Page(_home, title="Pourback", url_path="home", default=True, visibility="hidden")
+
+page = st.navigation([HOME, *PAGES])
+common.style()
 
 with common.guard():
     page.run()
