@@ -659,6 +659,24 @@ class Store:
             raise NotFound("lot", code, "import or log the lot first")
         return dict(zip([d[0] for d in cur.description], row))
 
+    def sleeve(self, code: str) -> dict:
+        cur = self.conn.execute("SELECT * FROM sleeves WHERE sleeve = ?", (code,))
+        row = cur.fetchone()
+        if row is None:
+            raise NotFound("sleeve", code, "import it with the sleeve catalogue first")
+        return dict(zip([d[0] for d in cur.description], row))
+
+    def latest_pour_temps(self, patterns: Iterable[str]) -> dict[str, float]:
+        """Pouring temperature (°C) of each pattern's most recent lot that records one."""
+        out = {}
+        for p in dict.fromkeys(patterns):
+            row = self.conn.execute(
+                "SELECT pour_temp_c FROM lots WHERE pattern = ? AND pour_temp_c IS NOT NULL "
+                "ORDER BY poured_on DESC, lot DESC LIMIT 1", (p,)).fetchone()
+            if row is not None:
+                out[p] = float(row[0])
+        return out
+
     def lot_codes(self, limit: int = 500) -> list[str]:
         return [r[0] for r in self.conn.execute(
             "SELECT lot FROM lots ORDER BY poured_on DESC, lot DESC LIMIT ?", (limit,))]
