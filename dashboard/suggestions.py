@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboard import charts, common
+from dashboard import access, charts, common
 from tracker import views
 
 NUMBER = st.column_config.NumberColumn
@@ -121,7 +121,11 @@ def main() -> None:
     week, weeks, target = common.review_controls()
     found = suggestion_list(week, weeks, target)
     st.divider()
-    what_if(found)
+    if access.can("what_if"):
+        what_if(found)
+    else:
+        st.subheader("What if")
+        st.caption(access.not_offered("what_if"))
 
 
 main()
