@@ -140,6 +140,7 @@ class _Command(click.Command):
 
 class _Group(click.Group):
     command_class = _Command
+    group_class = type  # sub-groups (``pourback user``) format their examples the same way
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
