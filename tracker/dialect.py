@@ -27,7 +27,7 @@ import time
 import urllib.parse
 from typing import Iterable, Iterator
 
-from tracker.errors import NotFound, PourbackError
+from tracker.errors import LogLocked, NotFound, PourbackError
 
 URL_SCHEMES = ("postgresql://", "postgres://")
 BUSY_TIMEOUT_MS = 30_000
@@ -35,10 +35,6 @@ BUSY_TIMEOUT_MS = 30_000
 PG_LOCK_TIMEOUT_MS = 600_000
 # pg_advisory_xact_lock key of the writers' lock ("pourback" in ASCII, folded to 63 bits).
 PG_WRITE_LOCK = 0x706F75726261636B
-
-
-class LogLocked(PourbackError):
-    """The log stayed locked by another writer longer than the busy timeout."""
 
 
 def is_url(target) -> bool:

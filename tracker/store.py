@@ -32,9 +32,9 @@ import pandas as pd
 from tracker import auth
 from tracker import dialect as dialects
 from tracker.alloys import ALLOYS
-from tracker.dialect import (BUSY_TIMEOUT_MS, LogLocked, data_version, display_name, drop_schema,  # noqa: F401
+from tracker.dialect import (BUSY_TIMEOUT_MS, data_version, display_name, drop_schema,  # noqa: F401
                              is_url, new_schema, with_schema)  # re-exported: callers use store.py only
-from tracker.errors import NotFound, PourbackError
+from tracker.errors import LogLocked, NotFound, PourbackError  # noqa: F401 (LogLocked re-exported)
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
@@ -847,6 +847,12 @@ class Store:
                               f"(SELECT MAX(poured_on) FROM lots{cond})", [*params, *params]).fetchone()
         return r[0], r[1]
 
+    def last_pour_before(self, day: str) -> str | None:
+        """The newest pour date before ``day`` (ISO string), or None (from the pour-date index)."""
+        where, params = self._plant_filter("pattern")
+        return self.conn.execute("SELECT MAX(poured_on) FROM lots WHERE poured_on < ?"
+                                 + "".join(" AND " + w for w in where), (str(day), *params)).fetchone()[0]
+
     def rejects_by_pattern(self, start: str, end: str) -> pd.DataFrame:
         """Castings rejected (current records) per pattern in lots poured from
         ``start`` to ``end`` (ISO strings, inclusive): one plain aggregate, the
@@ -916,6 +922,24 @@ class Store:
         if row is None:
             raise NotFound("lot", code, "import or log the lot first")
         return dict(zip([d[0] for d in cur.description], row))
+
+    def sleeve(self, code: str) -> dict:
+        cur = self.conn.execute("SELECT * FROM sleeves WHERE sleeve = ?", (code,))
+        row = cur.fetchone()
+        if row is None:
+            raise NotFound("sleeve", code, "import it with the sleeve catalogue first")
+        return dict(zip([d[0] for d in cur.description], row))
+
+    def latest_pour_temps(self, patterns: Iterable[str]) -> dict[str, float]:
+        """Pouring temperature (°C) of each pattern's most recent lot that records one."""
+        out = {}
+        for p in dict.fromkeys(patterns):
+            row = self.conn.execute(
+                "SELECT pour_temp_c FROM lots WHERE pattern = ? AND pour_temp_c IS NOT NULL "
+                "ORDER BY poured_on DESC, lot DESC LIMIT 1", (p,)).fetchone()
+            if row is not None:
+                out[p] = float(row[0])
+        return out
 
     def lot_codes(self, limit: int = 500) -> list[str]:
         return [r[0] for r in self.conn.execute(

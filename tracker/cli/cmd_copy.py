@@ -30,11 +30,12 @@ def copy_log_command(source, dest, as_json):
 
     TO must be a new or empty log. Every table is copied in one transaction and
     checked before it commits: row counts and a checksum per table, and the
-    same weekly review figures on both; any difference writes nothing.
+    same weekly review figures on both; any difference writes nothing. On a
+    server: pourback copy-log plant.db postgresql://pourback@HOST:5432/foundry
 
     Example:
 
-        pourback copy-log plant.db postgresql://pourback@db.example:5432/foundry
+        pourback copy-log pourback.db plant-copy.db
     """
     from tracker.copylog import copy_log
 

@@ -23,25 +23,57 @@ def _who(by: str | None) -> str:
 
 
 @main.command()
+@click.option("--currency", default=None, metavar="CODE",
+              help="Three-letter code of the currency the log's costs are in, e.g. EUR (default EUR; "
+                   "change it later with `pourback settings --currency`).")
 @click.option("--plant", default=None, metavar="CODE",
               help="The plant that patterns imported without a plant column belong to (kept in the log).")
 @db_option
 @handle_errors
-def init(plant, db_path):
+def init(currency, plant, db_path):
     """Create an empty log (or bring an old one up to the current schema).
 
     Example:
 
-        pourback init --db plant.db --plant NORTH
+        pourback init --db plant.db --currency EUR
+        pourback init --db north.db --plant NORTH
     """
+    from tracker import settings as log_settings
     from tracker.ingest import set_default_plant
 
     with open_store(db_path, create=True) as store:
+        if currency is not None:
+            log_settings.set_currency(store, currency)
         if plant is not None:
             set_default_plant(store, plant)
+        code = log_settings.currency(store)
         default = store.get_meta("default_plant")
-        extra = f", default plant {default}" if default else ""
-        click.echo(f"Log ready: {store.name} (schema version {store.schema_version()}{extra})")
+        extra = f"; default plant {default}" if default else ""
+        click.echo(f"Log ready: {store.name} (schema version {store.schema_version()}; money in {code}{extra})")
+
+
+@main.command()
+@click.option("--currency", default=None, metavar="CODE",
+              help="Set the three-letter code of the currency the log's costs are in, e.g. USD.")
+@db_option
+@json_option
+@handle_errors
+def settings(currency, db_path, as_json):
+    """Show the log's settings, or change them (the currency money is counted in).
+
+    Costs already logged are not converted; they are read in the new currency.
+
+    Example:
+
+        pourback settings --currency EUR
+    """
+    from tracker import settings as log_settings
+
+    with open_store(db_path) as store:
+        if currency is not None:
+            log_settings.set_currency(store, currency)
+        data = log_settings.settings(store)
+    emit(data, as_json, lambda d: "\n".join(f"{k}: {v}" for k, v in d.items()))
 
 
 def _count_rows(path: pathlib.Path) -> int:
@@ -147,8 +179,7 @@ def log(lot, inspected_on, method, quantity, result, defect, zone, xray_category
 
     Example:
 
-        pourback log --lot L26-0412 --method xray --quantity 2 --result reject \\
-            --defect shrinkage --zone flange --xray-category CB --severity 4 --inspector QE-ML
+        pourback log --lot L2647-043 --method xray --quantity 1 --result reject --defect shrinkage --zone neck --xray-category CB --severity 4 --inspector QE-ML
     """
     from tracker.ingest import log_inspection
 
@@ -214,7 +245,7 @@ def history(lot, limit, db_path, as_json):
 
     Example:
 
-        pourback history --lot L26-0412
+        pourback history --lot L2647-043
     """
     with open_store(db_path) as store:
         frame = store.inspections_history(lot=lot, limit=limit)
