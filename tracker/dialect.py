@@ -125,6 +125,10 @@ class SQLite:
     def in_transaction(self) -> bool:
         return self.conn.in_transaction
 
+    def commit(self) -> None:
+        """Commit what plain ``execute`` calls wrote (sqlite3 opens a transaction for them)."""
+        self.conn.commit()
+
     # schema -----------------------------------------------------------------------
     def ddl(self, sql: str) -> str:
         return sql
@@ -265,6 +269,9 @@ class PostgreSQL:
     def in_transaction(self) -> bool:
         pq = _psycopg().pq
         return self.conn.info.transaction_status != pq.TransactionStatus.IDLE
+
+    def commit(self) -> None:
+        """Nothing to do: outside :meth:`write` every statement commits by itself."""
 
     # schema -----------------------------------------------------------------------
     _DDL = [
