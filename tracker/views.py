@@ -256,7 +256,7 @@ def risers_by_revision(store: Store, pattern: str) -> pd.DataFrame:
     a["effective_from"] = r["effective_from"].to_numpy()
     a["sleeve"] = a["sleeve"].fillna("none")
     a["caine_margin"] = a["caine_margin"].where(a["caine_applied"].astype(bool))
-    a["failed_rules"] = a["failed_rules"].replace("", "none").str.replace(",", ", ")
+    a["failed_rules"] = a["failed_rules_text"].replace("", "none")
     a = a.sort_values(["effective_from", "revision", "riser"], kind="stable")
     return a[list(DESIGN_COLUMNS)].rename(columns=DESIGN_COLUMNS).reset_index(drop=True)
 
