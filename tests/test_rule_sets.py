@@ -143,6 +143,7 @@ def test_cube_with_two_cooling_faces_is_accepted_and_sized(tmp_path, mem_store):
         "pattern,zone,volume_cm3,cooling_area_cm2,thickness_mm\nC1,boss,1000,200,100\n")
     res = import_dir(mem_store, tmp_path)
     assert [x.added for x in res] == [1, 1]
+    assert "zone boss: modulus 5.00 cm is above a same-volume sphere's 2.07 cm" in res[1].warnings[0]
 
 
 def test_modulus_above_half_the_thickness_is_refused():

@@ -352,6 +352,7 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
         jr = judged_now[judged_now["zone"] == zone]
         lo, hi = wilson_interval(int(z["shrinkage_rejects"]), int(z["castings"]))
         common = {**base_out, "zone": zone, "revision": rev, "castings_poured": poured,
+                  "rule_set": jr["rule_set"].iat[0] if len(jr) else None,
                   "zone_castings": int(z["castings"]), "shrinkage_rejects": int(z["shrinkage_rejects"]),
                   "reject_rate": rate, "reject_rate_low": lo, "reject_rate_high": hi,
                   "yield_before": yield_before, "dominant_defect": by_defect.index[0]}
@@ -566,7 +567,7 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
         "modulus_ratio": float(new["modulus_ratio"]), "caine_margin": _nan_none(new["caine_margin"]),
         "feed_margin": float(new["feed_margin"]), "freezing_ratio": float(new["freezing_ratio"]),
         "volume_ratio": float(new["volume_ratio"]), "neck_ok": _nan_none(new["neck_ok"]),
-        "passes": bool(new["passes"]), "failed_rules": new["failed_rules"],
+        "passes": bool(new["passes"]), "failed_rules": new["failed_rules"], "rule_set": new["rule_set"],
         "predicted_rate": _nan_none(new["predicted_rate"]),
         "predicted_rate_now": _nan_none(now["predicted_rate"]),
         "modulus_ratio_now": float(now["modulus_ratio"]), "caine_margin_now": _nan_none(now["caine_margin"]),

@@ -73,11 +73,12 @@ class ImportResult:
     refused: int = 0
     problems: list[BadRow] = field(default_factory=list)
     refused_rows: list[dict] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)  # rows taken, but worth a look
 
     def to_dict(self) -> dict:
         return {"kind": self.kind, "file": self.file, "rows": self.rows, "added": self.added,
                 "skipped": self.skipped, "refused": self.refused,
-                "problems": [str(p) for p in self.problems]}
+                "problems": [str(p) for p in self.problems], "warnings": list(self.warnings)}
 
 
 # --- reading ----------------------------------------------------------------------
@@ -460,6 +461,12 @@ class _Importer:
         level = c.number("required_xray_level", required=False, low=1, low_inclusive=True, high=5,
                          whole=True)
         self._known_patterns(c, pattern)
+        joined = ~c.bad & ~np.isnan(m) & geometry.exceeds_sphere_modulus(vol.to_numpy(dtype=float),
+                                                                          area.to_numpy(dtype=float))
+        for i in np.flatnonzero(joined)[:MAX_PROBLEMS]:
+            self.result.warnings.append(
+                f"{self.file}, row {int(c.rows[i])}, zone {zone.iloc[i]}: "
+                + geometry.joined_faces_warning(float(vol.iloc[i]), float(area.iloc[i])))
         return [(p, z, v, a, _float_or_none(t), _float_or_none(ln), _int_or_none(lv), _float_or_none(w))
                 for p, z, v, a, t, ln, lv, w in zip(pattern, zone, vol, area, thick, length, level, width)]
 

@@ -670,6 +670,11 @@ class Store:
             raise NotFound("zone", zone, f"pattern {pattern} has the zones {', '.join(names) or '(none)'}")
         return dict(zip([d[0] for d in cur.description], row))
 
+    def zones_frame(self, pattern: str) -> pd.DataFrame:
+        """The zones of one pattern, as stored, by zone code."""
+        return self._frame("SELECT zone, volume_cm3, cooling_area_cm2, thickness_mm, width_mm, length_mm, "
+                           "required_xray_level FROM zones WHERE pattern = ? ORDER BY zone", (pattern,))
+
     def sleeve(self, code: str) -> dict:
         """One sleeve of the catalogue (raises NotFound naming the catalogue)."""
         cur = self.conn.execute("SELECT * FROM sleeves WHERE sleeve = ?", (code,))

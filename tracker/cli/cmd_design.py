@@ -183,7 +183,8 @@ def check(pattern, on_date, modulus_factor, db_path, as_json):
     if as_json:
         emit(rows, True)
         return
-    click.echo(table(rows, [
+    shown = [{**r, "rule_set": (r["rule_set"] or "").replace("_", " ")} for r in rows]
+    click.echo(table(shown, [
         ("pattern", "pattern"), ("revision", "rev"), ("riser", "riser"), ("zone", "zone"),
         ("diameter_mm", "D (mm)"), ("sleeve", "sleeve"), ("modulus_ratio", "M ratio"),
         ("caine_margin", "Caine margin"), ("feed_margin", "feed margin"), ("rule_set", "rule set"),
@@ -217,5 +218,5 @@ def patterns(db_path, as_json):
         r["revision"], r["effective_from"] = rev.get(r["pattern"], (None, None))
     emit(rows, as_json, lambda rs: table(rs, [
         ("pattern", "pattern"), ("description", "description"), ("alloy", "alloy"),
-        ("casting_weight_kg", "casting (kg)"), ("castings_per_mold", "per mould"),
+        ("casting_weight_kg", "casting (kg)"), ("castings_per_mold", "per mould"), ("mould", "mould"),
         ("revision", "riser revision"), ("effective_from", "since")]))
