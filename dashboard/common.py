@@ -33,6 +33,7 @@ def _registry() -> dict:
         "lot_options": views.lot_options,
         "zone_options": views.zone_options,
         "latest_records": views.latest_records,
+        "lot_accounting": views.lot_accounting,
         "week_options": views.week_options,
         "default_week": review.default_week,
         "pattern_weekly": views.pattern_weekly,

@@ -123,12 +123,12 @@ def _lot_with_room(db):
     raise AssertionError("no lot with room in the demo")
 
 
-def _fill_form(at, lot, *, result="reject", defect="sand", name="Test Person"):
+def _fill_form(at, lot, *, result="reject", defect="sand", name="Test Person", method="visual"):
     at.selectbox(key="lot").set_value(lot).run()
-    at.selectbox(key="method").set_value("visual")
+    at.radio(key="method").set_value(method).run()
     at.number_input(key="quantity").set_value(1)
-    at.selectbox(key="result").set_value(result)
-    at.selectbox(key="defect").set_value(defect)
+    at.radio(key="result").set_value(result).run()
+    at.button_group(key="defect").set_value(defect)
     at.text_input(key="inspector").input("QE-T")
     at.text_area(key="notes").input("logged from the dashboard test")
     at.text_input(key="recorded_by").input(name)
@@ -145,6 +145,9 @@ def test_form_writes_a_record_the_review_counts(app_db, monkeypatch):
     assert not at.exception and not at.error, texts(at.error)
     assert any(s.startswith("Saved record") for s in texts(at.success)), texts(at.success)
 
+    latest = at.dataframe[-1].value
+    assert "source" not in latest.columns  # the columns that matter first; the rest behind a toggle
+    at.toggle(key="history_all_columns").set_value(True).run()
     latest = at.dataframe[-1].value
     first = latest.iloc[0]
     assert (first["lot"], first["result"], first["defect"]) == (lot, "reject", "sand")
@@ -175,12 +178,72 @@ def test_form_without_the_loggers_name_writes_nothing(app_db, monkeypatch):
 def test_form_shows_the_librarys_refusal_and_writes_nothing(app_db, monkeypatch):
     lot, _ = _lot_with_room(app_db)
     before = snapshot(app_db)
-    at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot, defect="(none)")
+    at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot, defect=None)
     assert not at.exception
     errors = texts(at.error)
     assert len(errors) == 1 and errors[0].startswith("defect"), errors
     assert "needs the defect found" in errors[0]
     assert snapshot(app_db) == before
+
+
+def test_form_shows_category_and_severity_for_xray_only(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "log_results.py", monkeypatch)
+    keys = lambda: {b.key for b in at.button_group}  # noqa: E731
+    assert at.radio(key="method").value == "visual" and not {"xray_category", "severity"} & keys()
+    at.radio(key="method").set_value("xray").run()
+    assert {"xray_category", "severity"} <= keys()
+    # ASTM E446/E186/E280 categories A-G, severity levels 1 (least) to 5 (from memory)
+    assert [str(o) for o in at.button_group(key="severity").options] == ["1", "2", "3", "4", "5"]
+    at.radio(key="method").set_value("dimensional").run()
+    assert not {"xray_category", "severity"} & keys()
+
+
+def test_after_a_save_the_result_fields_clear_and_the_session_fields_stay(app_db, monkeypatch):
+    lot, _ = _lot_with_room(app_db)
+    at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot)
+    assert any(s.startswith("Saved record") for s in texts(at.success)), texts(at.error)
+    assert at.selectbox(key="lot").value == lot
+    assert at.text_input(key="inspector").value == "QE-T"
+    assert at.text_input(key="recorded_by").value == "Test Person"
+    assert at.date_input(key="inspected_on").value is not None
+    assert at.radio(key="result").value == "accept"
+    assert at.button_group(key="defect").value is None and at.button_group(key="zone").value is None
+    assert at.number_input(key="quantity").value == 1
+    assert at.text_area(key="notes").value == ""
+    # a visual rework after an x-ray reject: nothing of the x-ray record is left to refuse it
+    at.radio(key="method").set_value("xray").run()
+    at.radio(key="result").set_value("reject").run()
+    at.button_group(key="defect").set_value("shrinkage")
+    at.button_group(key="xray_category").set_value("CC")
+    at.button_group(key="severity").set_value(3)
+    at.button(key="save").click().run()
+    assert any(s.startswith("Saved record") for s in texts(at.success)), texts(at.error)
+    at.radio(key="method").set_value("visual").run()
+    at.radio(key="result").set_value("rework").run()
+    at.button_group(key="defect").set_value("sand")
+    at.button(key="save").click().run()
+    assert not at.error, texts(at.error)
+    with Store(app_db) as s:
+        newest = s.inspections_history(limit=1).iloc[0]
+    assert (newest["method"], newest["result"], newest["xray_category"]) == ("visual", "rework", None)
+
+
+def test_form_shows_what_each_method_accounted_for(app_db, monkeypatch):
+    from tracker import views
+
+    lot, _ = _lot_with_room(app_db)
+    at = open_page(app_db, "log_results.py", monkeypatch)
+    at.selectbox(key="lot").set_value(lot).run()
+    with Store(app_db) as s:
+        a = views.lot_accounting(s, lot)
+        totals = s.lot_totals([lot]).get(lot, {"methods": {}})
+    visual = int(totals["methods"].get("visual", 0))
+    line = next(c for c in texts(at.caption) if c.startswith(f"Lot {lot}: "))
+    assert f"**visual** {visual:,} of {a['castings']:,}, {a['castings'] - visual:,} left" in line
+    # ... and it follows a save
+    _fill_form(at, lot)
+    line = next(c for c in texts(at.caption) if c.startswith(f"Lot {lot}: "))
+    assert f"**visual** {visual + 1:,} of {a['castings']:,}, {a['castings'] - visual - 1:,} left" in line
 
 
 def _upload(at, name: str, content: str, by="Test Person"):

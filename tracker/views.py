@@ -22,7 +22,7 @@ import pandas as pd
 from tracker import rules, stats
 from tracker.assess import assess_frame, caine_curve_points, revision_in_effect
 from tracker.errors import BadRow, NotFound
-from tracker.ingest import COLUMNS as IMPORT_COLUMNS
+from tracker.ingest import COLUMNS as IMPORT_COLUMNS, METHODS
 from tracker.settings import DEFAULT_CURRENCY
 from tracker.store import Store
 
@@ -123,6 +123,30 @@ def form_record(values: dict) -> dict:
     return out
 
 
+METHOD_WORDS = {"visual": "visual", "xray": "x-ray", "ut": "ultrasonic (UT)", "mt": "magnetic particle (MT)",
+                "pt": "dye penetrant (PT)", "dimensional": "dimensional"}
+
+
+def lot_accounting(store: Store, lot: str) -> dict:
+    """What the log already holds for ``lot``: castings poured, castings accounted for by
+    each inspection method (current records) and how many are left per method (no
+    method may inspect more castings than were poured), and rejects so far.
+
+    Returns ``castings``, ``rejected``, ``rejects_left`` and ``methods``, a frame with
+    method, "accounted (castings)" and "left (castings)", one row per method.
+    """
+    info = store.lots_info([lot])
+    if lot not in info:
+        raise NotFound("lot", lot, "pick a lot from the list, or import it first (lots.csv)")
+    castings = int(info[lot]["castings"])
+    t = store.lot_totals([lot]).get(lot, {"rejected": 0, "methods": {}})
+    done = [int(t["methods"].get(m, 0)) for m in METHODS]
+    methods = pd.DataFrame({"method": list(METHODS), "accounted (castings)": done,
+                            "left (castings)": [max(castings - d, 0) for d in done]})
+    return {"castings": castings, "rejected": int(t["rejected"]),
+            "rejects_left": max(castings - int(t["rejected"]), 0), "methods": methods}
+
+
 HISTORY_COLUMNS = {
     "id": "record", "lot": "lot", "inspected_on": "inspected on", "method": "method",
     "quantity": "quantity (castings)", "result": "result", "defect": "defect", "zone": "zone",
@@ -132,17 +156,24 @@ HISTORY_COLUMNS = {
 }
 
 
-def latest_records(store: Store, limit: int = 50) -> pd.DataFrame:
-    """The newest ``limit`` inspection records for display, with a status column."""
+# The columns a reader needs first; the rest behind a toggle on a narrow screen.
+HISTORY_FIRST = ["id", "lot", "inspected_on", "method", "quantity", "result", "defect", "zone", "recorded_by",
+                 "status"]
+
+
+def latest_records(store: Store, limit: int = 50, full: bool = True) -> pd.DataFrame:
+    """The newest ``limit`` inspection records for display, with a status column
+    (``full`` False: only the columns that matter first, HISTORY_FIRST)."""
+    keys = list(HISTORY_COLUMNS) if full else HISTORY_FIRST
     h = store.inspections_history(limit=limit)
     if h.empty:
-        return pd.DataFrame(columns=list(HISTORY_COLUMNS.values()))
+        return pd.DataFrame(columns=[HISTORY_COLUMNS[k] for k in keys])
     status = np.where(h["superseded_by"].isna(),
                       np.where(h["void"].astype(bool), "withdrawn", "current"),
                       "superseded by " + h["superseded_by"].astype("Int64").astype(str))
     h = h.assign(status=status)
     h["severity"] = h["severity"].astype("Int64")
-    return h[list(HISTORY_COLUMNS)].rename(columns=HISTORY_COLUMNS).reset_index(drop=True)
+    return h[keys].rename(columns=HISTORY_COLUMNS).reset_index(drop=True)
 
 
 def problems_frame(problems: list[BadRow]) -> pd.DataFrame:
