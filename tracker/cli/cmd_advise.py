@@ -86,6 +86,7 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, db_path, as_json):
         pourback what-if --pattern P-1017 --riser R3 --diameter-mm 130
     """
     from tracker.advise import what_if as run
+    from tracker.assess import rule_words
 
     with open_store(db_path) as store:
         r = run(store, pattern, riser, diameter_mm=diameter_mm, height_mm=height_mm, sleeve=sleeve)
@@ -96,7 +97,8 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, db_path, as_json):
         rows.append({"figure": "yield", "now": r["yield_before"], "changed": r["yield_after"]})
         return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {r['diameter_mm']:.0f} x "
                 f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
-                + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + r['failed_rules']}"
+                + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + rule_words(r['failed_rules'])}"
+                + f" (rule set: {r['rule_set'].replace('_', ' ')})"
                 f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg\n\n" + caution_text())
     emit(r, as_json, human)
 
