@@ -146,3 +146,26 @@ def test_one_reject_from_a_fresh_form_in_8_fields_and_12_clicks(browser, server)
         full_screenshot(pg, "log-results-after-saving", NARROW)
     finally:
         pg.close()
+
+
+def test_html_report_tables_fit_a_tablet(browser, app_demo_db, tmp_path):
+    from tracker.report import render
+    from tracker.review import weekly_review
+    from tracker.store import Store
+
+    with Store(app_demo_db) as s:
+        page = tmp_path / "review.html"
+        page.write_text(render(weekly_review(s), "html"), encoding="utf-8")
+    pg = browser.new_page(viewport={"width": NARROW, "height": 900})
+    try:
+        pg.goto(page.as_uri())
+        widths = pg.evaluate("""() => Array.from(document.querySelectorAll('table')).map(
+            t => [t.closest('section') ? t.closest('section').querySelector('h2').innerText : '',
+                  t.scrollWidth, t.parentElement.clientWidth])""")
+        assert len(widths) >= 4
+        wide = [w for w in widths if w[1] > w[2] + 1]
+        assert wide == [], f"tables wider than the page at {NARROW} px: {wide}"
+        assert pg.evaluate("() => document.documentElement.scrollWidth") <= NARROW
+        pg.screenshot(path=str(ARTIFACTS / f"review-report-{NARROW}.png"), full_page=True)
+    finally:
+        pg.close()

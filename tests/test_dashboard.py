@@ -447,3 +447,92 @@ def test_user_text_in_messages_is_inert_markdown(app_db, monkeypatch):
     assert raw.startswith(r"\[click\]\(x\.example\)")  # no live link
     assert r"\*\*b\*\*" in raw and r"\<i\>" in raw  # no bold, no tag
     assert texts(at.error)[0].startswith("[click](x.example) **b** <i>.csv: refused")
+
+
+# --- design map: designs in use, flagged patterns, links to the pattern file ----------------------
+
+def test_design_map_counts_failing_designs_in_use_only(app_demo_db, monkeypatch):
+    from tracker import views
+    from tracker.features import design_map
+    from tracker.review import default_week, weekly_review
+
+    at = open_page(app_demo_db, "design_map.py", monkeypatch)
+    with Store(app_demo_db) as s:
+        current = views.current_revisions(s)
+        problems = weekly_review(s, default_week(s))["problems"]
+        start, end = at.date_input(key="period").value
+        frame = design_map(s, start=start.isoformat(), end=end.isoformat(), alloy="steel")
+    frame = frame.dropna(subset=["volume_ratio", "freezing_ratio"])
+    in_use = frame[[current.get(p) == str(r) for p, r in zip(frame["pattern"], frame["revision"])]]
+    # the resized riser's old revision (P-1031 revision 1) fails a rule but is superseded
+    old = frame[(frame["pattern"] == "P-1031") & (frame["revision"].astype(str) == "1")]
+    assert len(old) and not old["passes"].astype(bool).all()
+    assert metric(at, "Zones in use whose riser fails a rule") == f"{int((~in_use['passes'].astype(bool)).sum()):,}"
+    el = at.get("vega_lite_chart")[0]
+    dots = next(l for l in layers(json.loads(el.proto.spec)) if mark(l) == "circle")
+    points = chart_data(el, dots)
+    designs = dict(zip(zip(points["pattern"], points["revision"].astype(str)), points["design"]))
+    assert designs[("P-1031", "1")] == "superseded by a later revision"
+    for code in set(points["pattern"]) & set(problems):
+        assert designs[next(k for k in designs if k[0] == code and current.get(code) == k[1])] == \
+            "in use, pattern flagged"
+    # the colour scale covers the highest rate on the map
+    scale = dots["encoding"]["color"]["scale"]
+    assert scale["domain"][0] == 0 and scale["domain"][1] == pytest.approx(points["shrinkage_rate_pct"].max())
+    # a click selects the point's pattern
+    assert json.loads(el.proto.spec)["params"][0]["select"]["fields"] == ["pattern"]
+
+
+def test_choosing_a_pattern_on_the_design_map_opens_its_file(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "design_map.py", monkeypatch)
+    at.selectbox(key="open_pattern").set_value("P-1036").run()
+    assert not at.exception
+    assert texts(at.title) == ["Pattern file"]
+    assert at.selectbox(key="pattern").value == "P-1036"
+
+
+def test_pattern_file_opens_on_the_first_flagged_pattern(app_demo_db, monkeypatch):
+    from tracker.review import default_week, weekly_review
+
+    with Store(app_demo_db) as s:
+        first = weekly_review(s, default_week(s))["problems"][0]
+    at = open_page(app_demo_db, "pattern_file.py", monkeypatch)
+    assert at.selectbox(key="pattern").value == first
+    alloy = metric(at, "Alloy")
+    assert alloy == "Carbon and low-alloy steel"  # the alloy's name, whole
+
+
+# --- weekly review: labelled Pareto, signals, verdicts in words ----------------------------------------
+
+def test_pareto_labels_every_bar_it_shows(app_demo_db, monkeypatch):
+    from tracker.review import default_week, weekly_review
+
+    at = open_page(app_demo_db, "weekly_review.py", monkeypatch)
+    with Store(app_demo_db) as s:
+        r = weekly_review(s, default_week(s))
+    el = next(e for e in at.get("vega_lite_chart") if "cumulative share (%)" in e.proto.spec)
+    spec = json.loads(el.proto.spec)
+    bars = next(l for l in layers(spec) if mark(l) == "bar")
+    data = chart_data(el, bars if "data" in bars else spec)
+    costly = [p for p in r["pareto"]["patterns_by_cost"] if p["scrap_cost"]]
+    assert len(costly) > 12 and len(data) == 12
+    assert data["pattern"].tolist()[:11] == [p["pattern"] for p in costly[:11]]
+    assert data["pattern"].iat[-1] == f"the other {len(costly) - 11} patterns"
+    assert data["value"].sum() == pytest.approx(sum(p["scrap_cost"] for p in costly))
+    axis = bars["encoding"]["x"]["axis"]
+    assert axis["labelOverlap"] is False  # no label dropped to make room
+
+
+def test_review_page_shows_the_chart_signals(app_demo_db, monkeypatch):
+    from tracker.review import default_week, weekly_review
+
+    at = open_page(app_demo_db, "weekly_review.py", monkeypatch)
+    with Store(app_demo_db) as s:
+        r = weekly_review(s, default_week(s))
+    signalled = {p["pattern"] for p in r["patterns"] if p["signal_rules"] or p["signal_rules_window"]}
+    assert signalled, "the demo has run-rule and limit signals"
+    table = next(d.value for d in at.dataframe if list(d.value.columns) == ["pattern", "signal", "when", "flagged"])
+    assert set(table["pattern"]) == signalled
+    runs = [p["pattern"] for p in r["patterns"] if "run_of_8" in (p["signal_rules"] or p["signal_rules_window"])]
+    for code in runs:
+        assert "8 or more weeks on one side" in table.set_index("pattern").loc[code, "signal"]

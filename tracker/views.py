@@ -253,8 +253,8 @@ DESIGN_COLUMNS = {
 # The two halves of ``risers_by_revision``, for two narrower tables.
 DESIGN_PART = ["revision", "effective from", "riser", "zone", "placement", "top", "diameter (mm)",
                "height (mm)", "sleeve", "riser weight (kg)"]
-MARGIN_PART = ["revision", "riser", "zone", "zone modulus (cm)", "riser modulus (cm)", "modulus ratio",
-               "Caine margin", "feed margin", "rule set", "passes all rules", "failed rules", "notes"]
+MARGIN_PART = ["revision", "riser", "zone", "passes all rules", "failed rules", "modulus ratio", "Caine margin",
+               "feed margin", "rule set", "zone modulus (cm)", "riser modulus (cm)", "notes"]  # verdict first
 
 
 def pattern_summary(store: Store, pattern: str) -> dict:
