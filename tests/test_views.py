@@ -276,7 +276,14 @@ def test_filter_design_map():
 def test_design_map_summary_and_table():
     f = views.filter_design_map(_map_frame(), "steel")
     assert views.design_map_summary(f) == {"zones": 2, "castings": 300, "shrinkage_rejects": 11,
-                                           "failing": 1, "rate_pct": pytest.approx(11 / 3)}
+                                           "failing": 1, "superseded": 0, "flagged_patterns": 0,
+                                           "rate_pct": pytest.approx(11 / 3), "max_rate_pct": 10.0}
+    # a later revision of A: its zones are superseded, shown apart and not counted as failing
+    old = views.filter_design_map(_map_frame(), "steel", current={"A": "2"}, flagged=["A"])
+    assert old["design"].tolist() == [views.SUPERSEDED] * 2
+    assert views.design_map_summary(old)["failing"] == 0 and views.design_map_summary(old)["superseded"] == 2
+    now = views.filter_design_map(_map_frame(), "steel", current={"A": "1"}, flagged=["A"])
+    assert now["design"].tolist() == [views.IN_USE_FLAGGED] * 2 and views.design_map_summary(now)["failing"] == 1
     t = views.design_map_table(f)
     assert t["zone"].tolist() == ["z1", "z2"]  # worst rate first
     assert "shrinkage rate (%)" in t.columns and "castings poured" in t.columns
