@@ -798,6 +798,13 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
 
 # --- what-if ----------------------------------------------------------------------
 
+def same_kind_sleeve(catalogue: pd.DataFrame, kind: str, diameter_mm: float) -> dict | None:
+    """The catalogue's sleeve of ``kind`` with an inner diameter of
+    ``diameter_mm`` (to 0.5 mm), as a dict; None where there is none."""
+    hit = catalogue[(catalogue["kind"] == kind) & ((catalogue["inner_diameter_mm"] - diameter_mm).abs() < 0.5)]
+    return None if hit.empty else hit.iloc[0].to_dict()
+
+
 def _resolve_sleeve(cat: pd.DataFrame, base: pd.Series, sleeve, diameter_mm):
     """The sleeve row a what-if asks for: "keep", None (bare) or a catalogue
     row. A diameter with a sleeve (given, or kept) takes the catalogue's
@@ -815,13 +822,13 @@ def _resolve_sleeve(cat: pd.DataFrame, base: pd.Series, sleeve, diameter_mm):
     s = hit.iloc[0].to_dict()
     if diameter_mm is None or abs(diameter_mm - float(s["inner_diameter_mm"])) < 0.5:
         return s
-    same = cat[(cat["kind"] == s["kind"]) & ((cat["inner_diameter_mm"] - diameter_mm).abs() < 0.5)]
-    if same.empty:
+    same = same_kind_sleeve(cat, s["kind"], diameter_mm)
+    if same is None:
         sizes = ", ".join(f"{d:g}" for d in sorted(cat.loc[cat["kind"] == s["kind"], "inner_diameter_mm"]))
         raise BadInput("diameter_mm", diameter_mm,
                        f"the catalogue has no {s['kind']} sleeve of that inner diameter ({s['kind']} sleeves: "
                        f"{sizes} mm); pick one of those sizes, or a bare riser (sleeve none)")
-    return same.iloc[0].to_dict()
+    return same
 
 
 def _what_if_row(base: pd.Series, sleeve, diameter_mm, height_mm, neck_diameter_mm) -> pd.Series:
@@ -843,6 +850,31 @@ def _what_if_row(base: pd.Series, sleeve, diameter_mm, height_mm, neck_diameter_
     if neck_diameter_mm != "keep":
         row["neck_diameter_mm"] = np.nan if neck_diameter_mm is None else float(neck_diameter_mm)
     return row
+
+
+def _differs(base: pd.Series, row: pd.Series) -> bool:
+    """Whether a what-if row changes the stored riser (size, sleeve or neck)."""
+    for c in ("diameter_mm", "height_mm", "neck_diameter_mm"):
+        a, b = _nan_none(base[c]), _nan_none(row[c])
+        if (a is None) != (b is None) or (a is not None and abs(a - b) > 1e-9):
+            return True
+    return _sleeve_or_none(base["sleeve"]) != _sleeve_or_none(row["sleeve"])
+
+
+def _what_if_money(designs: dict, k, row: pd.Series, money: pd.DataFrame, model) -> tuple[dict, list[str]]:
+    """The money of one changed riser (stored row ``k`` changed to ``row``),
+    priced by ``_price`` as a suggestion is; and the risers it changes (none
+    where ``row`` is the stored riser)."""
+    base = designs["risers"].loc[k]
+    zone = pd.DataFrame({"pattern": [base["pattern"]], "zone": [base["zone"]], "primary": [k]}).rename_axis("_z")
+    priced, rate_now = _price(pd.DataFrame([row]).assign(_z=0, _cand=0, action="what_if"), zone, designs,
+                              money, model, 1.0)
+    m = money.loc[base["pattern"]]
+    if not _differs(base, row):
+        return _no_change_money(m, rate_now.get(0)), []
+    j = designs["judged"]
+    siblings = j[(j["zone"] == base["zone"]) & ~j["full_ok"] & (j.index != k)]["riser"].tolist()
+    return _money_fields(priced.iloc[0], m), [base["riser"]] + siblings
 
 
 def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = None,
@@ -887,21 +919,13 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
     win = _window_statistics(store, [pattern], start, end, weeks)
     pats = store.table("patterns")
     money = _money(pats[pats["pattern"] == pattern], designs, win, charge)
-    m = money.loc[pattern]
     wz = win["zones"]
     wz = wz[(wz["pattern"] == pattern) & (wz["revision"] == rev) & (wz["zone"] == base["zone"])]
-    zone = pd.DataFrame({"pattern": [pattern], "zone": [base["zone"]], "primary": [k]}).rename_axis("_z")
-    cand = pd.DataFrame([row]).assign(_z=0, _cand=0, action="what_if")
-    priced, _ = _price(cand, zone, designs, money, model, 1.0)
-    c = priced.iloc[0]
-    siblings = [r for r, ok in zip(designs["judged"]["riser"], designs["judged"]["full_ok"])
-                if not ok and r != riser and designs["judged"].loc[designs["judged"]["riser"] == r, "zone"].iat[0]
-                == base["zone"]]
+    figures, changed = _what_if_money(designs, k, row, money, model)
     new = _judge(pd.DataFrame([row]))
     now, new = designs["judged"].loc[k], new.iloc[0]
     castings = int(wz["castings"].sum())
     observed = float(wz["shrinkage_rejects"].sum()) / castings if castings else None
-    money = _money_fields(c, m)
     return {
         "pattern": pattern, "revision": rev, "riser": riser, "zone": base["zone"], "alloy": info["alloy"],
         "diameter_mm": float(new["diameter_mm"]), "height_mm": float(new["height_mm"]),
@@ -914,7 +938,7 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
         "modulus_ratio_now": float(now["modulus_ratio"]), "caine_margin_now": _nan_none(now["caine_margin"]),
         "feed_margin_now": float(now["feed_margin"]),
         "observed_rate": observed, "zone_castings": castings, "week": week, "weeks": int(weeks),
-        "predicted_rate": money["predicted_rate_after"], **money,
-        "changed_risers": [riser] + siblings, "yield_before": float(m["yield_before"]),
+        "predicted_rate": figures["predicted_rate_after"], **figures, "changed": bool(changed),
+        "changed_risers": changed, "yield_before": float(money.loc[pattern, "yield_before"]),
         "caution": SAFETY_CAUTION,
     }

@@ -153,7 +153,7 @@ def _what_if_text(r: dict) -> str:
             f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
             + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + r['failed_rules']}"
             f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg\n\n"
-            + table(money) + f"\npays off: {'yes' if r['pays_off'] else 'no'}"
+            + table(money) + "\npays off: " + ("yes" if r["pays_off"] else "no" if r["changed"] else "- (no change)")
             + (f" (priced with the same change on {', '.join(also)}, which fail the rules on the same zone)"
                if also else "")
             + f"\n{basis_note} Cost per scrapped casting {_money(r['cost_per_scrapped_casting'])}; remelt "
