@@ -73,7 +73,7 @@ def trend(df: pd.DataFrame, target_pct: float) -> alt.LayerChart | alt.Chart:
 
 
 def p_chart(df: pd.DataFrame) -> alt.LayerChart | alt.Chart:
-    """One pattern's weekly reject rate (%) inside its band of 3-sigma limits, centre line drawn."""
+    """One pattern's weekly reject rate (%) inside its band of control limits (exact binomial), centre line drawn."""
     if df.empty:
         return _empty("no weeks to chart")
     base = alt.Chart(df).encode(x=_week_axis(df))

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboard import charts, common
+from dashboard import access, charts, common
 from tracker import advise, views
 
 NUMBER = st.column_config.NumberColumn
@@ -204,7 +204,11 @@ def main() -> None:
                                         "Common practice 0.2 to 0.4 of the metal price; shop practice varies."))
     found = suggestion_list(week, weeks, target, charge)
     st.divider()
-    what_if(found, week, weeks, charge)
+    if access.can("what_if"):
+        what_if(found, week, weeks, charge)
+    else:
+        st.subheader("What if")
+        st.caption(access.not_offered("what_if"))
 
 
 main()

@@ -169,7 +169,7 @@ def test_demo_scrap_cost_and_rework(demo_review, demo_csv):
 
 
 @needs_demo
-def test_demo_pchart_limits_match_nist_formula(demo_review, demo_csv):
+def test_demo_pchart_limits_are_binomial_probability_limits(demo_review, demo_csv):
     lots = window_lots(demo_csv, demo_review)
     insp = demo_csv["inspections"].merge(lots[["lot", "week"]], on="lot")
     weeks = [p["label"] for p in demo_review["patterns"][0]["pchart"]]
@@ -180,7 +180,7 @@ def test_demo_pchart_limits_match_nist_formula(demo_review, demo_csv):
         n = mine.groupby("week")["castings"].sum().reindex(weeks, fill_value=0).to_numpy(float)
         k = (insp[(insp["lot"].isin(mine["lot"])) & (insp["result"] == "reject")]
              .groupby("week")["quantity"].sum().reindex(weeks, fill_value=0).to_numpy(float))
-        # NIST/SEMATECH e-Handbook 6.3.3.2: p-bar = sum k / sum n, limits p-bar +- 3 sqrt(p-bar(1-p-bar)/n_i)
+        # NIST/SEMATECH e-Handbook 6.3.3.2: p-bar = sum k / sum n
         pbar = k.sum() / n.sum()
         for i, pt in enumerate(p["pchart"]):
             assert pt["inspected"] == n[i]
@@ -188,10 +188,10 @@ def test_demo_pchart_limits_match_nist_formula(demo_review, demo_csv):
             if n[i] == 0:
                 assert pt["ucl"] is None and pt["p"] is None and not pt["signal"]
                 continue
-            half = 3 * math.sqrt(pbar * (1 - pbar) / n[i])
             assert pt["centre"] == pytest.approx(pbar, rel=1e-12)
-            assert pt["ucl"] == pytest.approx(min(pbar + half, 1.0), rel=1e-12)
-            assert pt["lcl"] == pytest.approx(max(pbar - half, 0.0), abs=1e-15)
+            # scipy.stats.binom.ppf: 0.135 % quantiles of Binomial(n_i, p-bar), as rates
+            assert pt["ucl"] == pytest.approx(sps.binom.ppf(0.99865, n[i], pbar) / n[i], rel=1e-12)
+            assert pt["lcl"] == pytest.approx(sps.binom.ppf(0.00135, n[i], pbar) / n[i], abs=1e-15)
 
 
 def test_signal_in_review_week_makes_a_problem(tmp_path):
@@ -202,18 +202,22 @@ def test_signal_in_review_week_makes_a_problem(tmp_path):
         r = weekly_review(s, "2026-W20", weeks=13, target=0.5)
     p = by_code(r)
     high, low = p["S-HIGH"], p["S-LOW"]
-    # NIST/SEMATECH e-Handbook 6.3.3.2: p-bar = 42 / 1300, UCL = p-bar + 3 sqrt(p-bar (1 - p-bar) / 100)
+    # NIST/SEMATECH e-Handbook 6.3.3.2: p-bar = 42 / 1300; scipy.stats.binom: the upper limit is
+    # the 99.865 % quantile of Binomial(100, p-bar), and 30 rejects lie far beyond it
     pbar = 42 / 1300
-    assert high["pchart"][-1]["ucl"] == pytest.approx(pbar + 3 * math.sqrt(pbar * (1 - pbar) / 100))
+    assert high["pchart"][-1]["ucl"] == pytest.approx(sps.binom.ppf(0.99865, 100, pbar) / 100)
+    assert sps.binom.sf(29, 100, pbar) < 0.00135
     assert high["pchart"][-1]["beyond"] and not any(pt["beyond"] for pt in high["pchart"][:-1])
     # the quiet weeks all lie below the pooled centre: a run, but on the good side
     assert all(pt["run"] for pt in high["pchart"][:-1])
     assert high["signal"] and high["signal_rules"] == ["beyond_limit", "run_of_8"]
     assert high["signal_high_rules"] == ["beyond_limit"]
     assert high["problem"] and high["problem_reasons"] == ["signal:beyond_limit"]
-    # a drop below the lower limit (NIST: p-bar - 3 sigma = 0.0055 here) is a signal, not a problem
+    # a drop below the lower limit is a signal, not a problem; scipy.stats.binom:
+    # P(X = 0) for Binomial(100, 120 / 1300) is below 0.135 %
     pbar = 120 / 1300
-    assert low["pchart"][-1]["lcl"] == pytest.approx(pbar - 3 * math.sqrt(pbar * (1 - pbar) / 100))
+    assert sps.binom.pmf(0, 100, pbar) < 0.00135
+    assert low["pchart"][-1]["lcl"] == pytest.approx(sps.binom.ppf(0.00135, 100, pbar) / 100)
     assert low["signal"] and low["signal_rules"] == ["beyond_limit"] and low["signal_high_rules"] == []
     assert not low["problem"] and low["problem_reasons"] == []
     assert r["problems"] == ["S-HIGH"]

@@ -86,51 +86,90 @@ WORKED_K = [12, 15, 8, 10, 4, 7, 16, 9, 14, 10, 5, 6, 17, 12, 22]
 WORKED_N = [300, 350, 200, 320, 150, 240, 400, 260, 330, 280, 120, 180, 380, 300, 420]
 
 
-def test_p_chart_limits_match_handbook_formula():
+def _exact_limits(n, p):
+    """Probability limits by their definition, searched count by count with scipy.stats.binom.
+
+    High: the smallest count with P(X > high) ≤ 0.135 %; low: the smallest
+    count with P(X ≤ low) ≥ 0.135 % (Φ(−3) = 0.00135, NIST/SEMATECH 6.3.3.2).
+    """
+    counts = np.arange(n + 1)
+    high = counts[np.argmax(sps.binom.sf(counts, n, p) <= 0.00135)]
+    low = counts[np.argmax(sps.binom.cdf(counts, n, p) >= 0.00135)]
+    return low, high
+
+
+def test_p_chart_limits_are_exact_binomial_probability_limits():
     chart = stats.p_chart(WORKED_K, WORKED_N)
-    # NIST/SEMATECH e-Handbook 6.3.3.2: p̄ = Σ defectives / Σ inspected,
-    # UCL = p̄ + 3·sqrt(p̄(1 − p̄)/n_i), LCL = p̄ − 3·sqrt(p̄(1 − p̄)/n_i), LCL < 0 set to 0
+    # NIST/SEMATECH e-Handbook 6.3.3.2: p̄ = Σ defectives / Σ inspected
     pbar = sum(WORKED_K) / sum(WORKED_N)
     for i, (k, n) in enumerate(zip(WORKED_K, WORKED_N)):
-        half = 3 * math.sqrt(pbar * (1 - pbar) / n)
+        low, high = _exact_limits(n, pbar)
         assert chart["centre"][i] == pytest.approx(pbar, rel=1e-12)
         assert chart["p"][i] == pytest.approx(k / n, rel=1e-12)
-        assert chart["ucl"][i] == pytest.approx(pbar + half, rel=1e-12)
-        assert chart["lcl"][i] == pytest.approx(max(0.0, pbar - half), abs=1e-15)
+        # scipy.stats.binom: the 0.135 % quantiles of Binomial(n_i, p̄), as rates
+        assert chart["ucl"][i] == pytest.approx(high / n, rel=1e-12)
+        assert chart["lcl"][i] == pytest.approx(low / n, abs=1e-15)
+        assert chart["ucl"][i] == pytest.approx(sps.binom.ppf(0.99865, n, pbar) / n, rel=1e-12)
+        assert chart["lcl"][i] == pytest.approx(sps.binom.ppf(0.00135, n, pbar) / n, abs=1e-15)
     assert list(chart.columns) == ["label", "rejected", "inspected", "p", "centre", "lcl",
                                    "ucl", "beyond", "run", "signal"]
     assert chart["rejected"].tolist() == WORKED_K
     assert chart["label"].tolist() == list(range(len(WORKED_K)))
 
 
+def test_probability_limits_close_to_handbook_three_sigma_at_large_n():
+    # With n·p̄ large the binomial is near normal (NIST/SEMATECH e-Handbook
+    # 6.3.3.2): the exact limits lie near n·p̄ ± 3·sqrt(n·p̄(1 − p̄)), moved up by
+    # the skewness term of the Cornish-Fisher expansion, (3² − 1)/6 · (1 − 2p̄)
+    # counts (from memory), and within one count of that.
+    n, pbar = np.array([2000, 5000, 20000]), 0.05
+    low, high = stats.probability_limits(n, pbar)
+    half = 3 * np.sqrt(n * pbar * (1 - pbar))
+    skew = (3 ** 2 - 1) / 6 * (1 - 2 * pbar)
+    assert np.all(np.abs(high - (n * pbar + half + skew)) <= 1.0)
+    assert np.all(np.abs(low - (n * pbar - half + skew)) <= 1.0)
+
+
 def test_p_chart_baseline_centre_and_labels():
     weeks = [f"2026-W{w:02d}" for w in range(1, 16)]
     chart = stats.p_chart(WORKED_K, WORKED_N, labels=weeks, centre=0.02)
-    # NIST/SEMATECH e-Handbook 6.3.3.2 limits, with p̄ the known (baseline) value
-    expected_ucl = [0.02 + 3 * math.sqrt(0.02 * 0.98 / n) for n in WORKED_N]
+    # scipy.stats.binom quantiles at the known (baseline) rate, each week's own n
+    expected_ucl = [_exact_limits(n, 0.02)[1] / n for n in WORKED_N]
     np.testing.assert_allclose(chart["ucl"], expected_ucl, rtol=1e-12)
     assert (chart["centre"] == 0.02).all()
     assert chart["label"].tolist() == weeks
 
 
 def test_p_chart_lower_limit_breach_counts_only_when_positive():
-    # Baseline 10 % on 1000 castings: LCL = 0.1 − 3·sqrt(0.09/1000) > 0.
     chart = stats.p_chart([100, 60, 100], [1000, 1000, 1000], centre=0.10)
-    # NIST/SEMATECH e-Handbook 6.3.3.2 lower limit
-    lcl = 0.10 - 3 * math.sqrt(0.10 * 0.90 / 1000)
-    assert 0.06 < lcl
+    # scipy.stats.binom: P(X < 60) for Binomial(1000, 0.10) is far below 0.135 %
+    assert sps.binom.cdf(59, 1000, 0.10) < 0.00135
     assert chart["beyond"].tolist() == [False, True, False]
-    # Small samples: LCL clips to 0, so a week with no rejects is no signal.
+    # Small samples: P(X = 0) for Binomial(50, 0.02) is 36 %, so the lower
+    # limit is 0 and a week with no rejects is no signal.
+    assert sps.binom.pmf(0, 50, 0.02) > 0.00135
     chart = stats.p_chart([0, 2, 1], [50, 50, 50], centre=0.02)
     assert (chart["lcl"] == 0).all()
     assert not chart["beyond"].any()
 
 
-def test_p_chart_upper_limit_clipped_at_one():
+def test_improvement_shows_below_exact_lower_limit():
+    # 100 castings at a 10 % baseline: scipy.stats.binom gives P(X ≤ 1) = 0.03 %,
+    # so a week with 1 reject is below the lower limit, which 3-sigma
+    # (0.1 − 3·0.03 = 0.01, a count of 1) could not show.
+    assert sps.binom.cdf(1, 100, 0.10) < 0.00135
+    chart = stats.p_chart([1, 10], [100, 100], centre=0.10)
+    assert chart["beyond"].tolist() == [True, False]
+    assert chart["lcl"][0] == pytest.approx(_exact_limits(100, 0.10)[0] / 100)
+
+
+def test_p_chart_upper_limit_at_most_one():
     chart = stats.p_chart([1, 1], [2, 2], centre=0.5)
-    # NIST/SEMATECH e-Handbook 6.3.3.2: 0.5 + 3·sqrt(0.25/2) > 1, clipped to 1
-    assert 0.5 + 3 * math.sqrt(0.25 / 2) > 1
+    # scipy.stats.binom: Binomial(2, 0.5) puts 25 % on 0 and on 2, so no
+    # count lies beyond 0.135 % on either side: limits 0 and n
+    assert sps.binom.pmf(2, 2, 0.5) > 0.00135
     assert (chart["ucl"] == 1.0).all() and (chart["lcl"] == 0.0).all()
+    assert not chart["beyond"].any()
 
 
 def test_p_chart_keeps_empty_weeks_without_signal():
@@ -216,50 +255,55 @@ def test_stable_series_is_not_flagged():
     assert not chart["signal"].any()
 
 
-def _handbook_limits(pbar, n):
-    # NIST/SEMATECH e-Handbook 6.3.3.2
-    half = 3 * np.sqrt(pbar * (1 - pbar) / n)
-    return np.maximum(pbar - half, 0.0), np.minimum(pbar + half, 1.0)
+def _binomial_tail(n, p, low, high):
+    """P(X > high) + P(X < low) for X ~ Binomial(n, p), by scipy."""
+    return sps.binom.sf(high, n, p) + sps.binom.cdf(low - 1, n, p)
 
 
-def _binomial_tail(n, p, lcl, ucl):
-    """P(X/n > ucl) + P(X/n < lcl, lcl > 0) for X ~ Binomial(n, p), by scipy."""
-    above = sps.binom.sf(np.floor(n * ucl), n, p)
-    below = np.where(lcl > 0, sps.binom.cdf(np.ceil(n * lcl) - 1, n, p), 0.0)
-    return above + below
+@pytest.mark.parametrize("n", [10, 30, 100])
+@pytest.mark.parametrize("p0", [0.01, 0.03, 0.1])
+def test_beyond_limit_false_alarm_rate_known_centre(n, p0):
+    rng = np.random.default_rng(int(n * 1000 + p0 * 100))
+    weeks = 400_000
+    k = rng.binomial(n, p0, size=weeks)
+    observed = int(stats.p_chart(k, np.full(weeks, n), centre=p0)["beyond"].sum())
+    low, high = _exact_limits(n, p0)
+    # scipy.stats.binom: each tail beyond the limits holds at most 0.135 %
+    assert sps.binom.sf(high, n, p0) <= 0.00135
+    assert sps.binom.cdf(low - 1, n, p0) <= 0.00135
+    prob = _binomial_tail(n, p0, low, high)
+    expected = weeks * prob
+    sd = math.sqrt(weeks * prob * (1 - prob))
+    assert abs(observed - expected) < 4 * sd + 1, (observed, expected, sd)
+    assert observed / weeks < 2 * 0.00135 + 4 * sd / weeks
 
 
-def test_beyond_limit_false_alarm_rate_known_centre():
-    rng = np.random.default_rng(2026)
-    series, weeks, p0 = 2000, 52, 0.03
-    n = rng.integers(200, 600, size=(series, weeks))
-    k = rng.binomial(n, p0)
-    observed = sum(int(stats.p_chart(k[s], n[s], centre=p0)["beyond"].sum())
-                   for s in range(series))
-    lcl, ucl = _handbook_limits(p0, n)
-    # scipy.stats.binom tail probabilities beyond the handbook limits
-    prob = _binomial_tail(n, p0, lcl, ucl)
-    expected = prob.sum()
-    sd = math.sqrt((prob * (1 - prob)).sum())
-    assert abs(observed - expected) < 4 * sd, (observed, expected, sd)
-    # Binomial tails are not the normal 0.27 %; it should still be the same order.
-    assert 0.0005 < expected / n.size < 0.006
+def test_three_sigma_limits_would_alarm_too_often_at_small_np():
+    # The reason for exact limits, checked with scipy.stats.binom: at n = 30 and
+    # p = 1 % the NIST 6.3.3.2 normal-approximation upper limit
+    # 0.01 + 3·sqrt(0.01·0.99/30) = 6.4 % sits below 2 rejects (6.7 %), so an
+    # in-control week signals with P(X ≥ 2), over ten times the nominal 0.135 %.
+    ucl = 0.01 + 3 * math.sqrt(0.01 * 0.99 / 30)
+    assert sps.binom.sf(math.floor(30 * ucl), 30, 0.01) > 10 * 0.00135
+    low, high = stats.probability_limits(30, 0.01)
+    assert sps.binom.sf(high, 30, 0.01) <= 0.00135
 
 
 def test_beyond_limit_false_alarm_rate_estimated_centre():
     rng = np.random.default_rng(47)
-    series, weeks, p0 = 1000, 52, 0.03
-    n = rng.integers(200, 600, size=(series, weeks))
+    series, weeks, p0 = 4000, 52, 0.03
+    n = rng.integers(10, 101, size=(series, weeks))
     k = rng.binomial(n, p0)
-    observed = 0
-    expected = 0.0
-    for s in range(series):
-        observed += int(stats.p_chart(k[s], n[s])["beyond"].sum())
-        lcl, ucl = _handbook_limits(k[s].sum() / n[s].sum(), n[s])
-        # scipy.stats.binom tail at the true rate for this series' own limits
-        expected += _binomial_tail(n[s], p0, lcl, ucl).sum()
-    # The limits move with the data, so allow a wider band than above.
-    assert 0.75 * expected < observed < 1.25 * expected, (observed, expected)
+    observed = sum(int(stats.p_chart(k[s], n[s])["beyond"].sum()) for s in range(series))
+    pbar = (k.sum(axis=1) / n.sum(axis=1))[:, None]
+    # scipy.stats.binom.ppf: each series' own limits from its p̄; the chance of
+    # a point beyond them at the true rate, by scipy.stats.binom
+    low, high = sps.binom.ppf(0.00135, n, pbar), sps.binom.ppf(0.99865, n, pbar)
+    prob = _binomial_tail(n, p0, low, high)
+    expected = prob.sum()
+    sd = math.sqrt((prob * (1 - prob)).sum())
+    # The limits move with the data; the count still follows their tails.
+    assert abs(observed - expected) < 4 * sd, (observed, expected, sd)
 
 
 def test_run_of_eight_false_alarm_rate():

@@ -706,7 +706,8 @@ def _html_revision(review: dict, r: dict) -> str:
 
 
 PCHART_LEGEND = ('<p class="legend">How to read the charts. Dots: weekly reject rate (%). Solid line: the pattern\'s rate over '
-                   'the window. Dashed: control limits (3 sigma for each week\'s castings inspected). '
+                   'the window. Dashed: control limits (exact binomial limits for each week\'s castings inspected: an '
+                   'in-control week falls beyond either with at most 0.135 % chance). '
                    'Diamonds: weeks that break a rule (beyond a limit, or 8 in a row on one side); '
                    'filled red above the centre (more rejects), hollow below it (fewer).</p>')
 

@@ -23,8 +23,9 @@ Counting rules
 
 A pattern is a *problem* when any of these holds (``problem_reasons``):
 ``signal:beyond_limit`` / ``signal:run_of_8`` — its weekly p-chart over the
-window (NIST/SEMATECH e-Handbook 6.3.3.2, centre = the pattern's pooled rate
-over the window; the rules of :func:`tracker.stats.p_chart`) signals in the
+window (centre = the pattern's pooled rate over the window, NIST/SEMATECH
+e-Handbook 6.3.3.2; exact binomial probability limits for each week's castings
+inspected; the rules of :func:`tracker.stats.p_chart`) signals in the
 review week or the week before at a point above the centre (a low-side
 signal means fewer rejects: reported in ``signal_rules`` but not a problem);
 ``shrinkage_above_target`` — the Wilson lower bound of its shrinkage reject
@@ -193,13 +194,15 @@ def _nested(s: pd.Series) -> dict:
 def p_charts(rejected: np.ndarray, inspected: np.ndarray) -> dict[str, np.ndarray]:
     """Weekly p-charts of many patterns at once: one row per pattern, one column per week.
 
-    The same rules as :func:`tracker.stats.p_chart`, array-wise: NIST/SEMATECH
-    e-Handbook 6.3.3.2 centre p̄ = Σk / Σn of the row and limits
-    p̄ ± 3·√(p̄(1 − p̄)/nᵢ) clipped to 0..1; "beyond" above the upper limit or
-    below a lower limit above 0; "run" a point in 8 or more consecutive points
-    on one side of the centre (a point on the centre breaks a run, a week with
-    nothing inspected is skipped). Returns arrays ``p``, ``centre`` (one per
-    row), ``lcl``, ``ucl``, ``beyond``, ``run``, ``signal``.
+    The same rules as :func:`tracker.stats.p_chart`, array-wise: centre
+    p̄ = Σk / Σn of the row (NIST/SEMATECH e-Handbook 6.3.3.2), exact binomial
+    probability limits for each week's own n (0.135 % of Binomial(nᵢ, p̄)
+    beyond each, :func:`tracker.stats.probability_limits`); "beyond" a count
+    above the upper limit or below the lower; "run" a point in 8 or more
+    consecutive points on one side of the centre (a point on the centre breaks
+    a run, a week with nothing inspected is skipped). Returns arrays ``p``,
+    ``centre`` (one per row), ``lcl``, ``ucl``, ``beyond``, ``run``,
+    ``signal``.
     """
     k = np.asarray(rejected, dtype=float)
     n = np.asarray(inspected, dtype=float)
@@ -208,12 +211,12 @@ def p_charts(rejected: np.ndarray, inspected: np.ndarray) -> dict[str, np.ndarra
         pbar = np.where(total > 0, k.sum(axis=1) / total, np.nan)
         seen = n > 0
         p = np.where(seen, k / n, np.nan)
-        sigma = np.where(seen, np.sqrt(pbar[:, None] * (1.0 - pbar[:, None]) / n), np.nan)
-    lcl = np.clip(pbar[:, None] - stats.SIGMA_LIMITS * sigma, 0.0, 1.0)
-    ucl = np.clip(pbar[:, None] + stats.SIGMA_LIMITS * sigma, 0.0, 1.0)
+    low, high = stats.probability_limits(n, pbar[:, None])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        lcl, ucl = low / n, high / n
     judged = seen & np.isfinite(pbar)[:, None]
     with np.errstate(invalid="ignore"):
-        beyond = judged & ((p > ucl) | ((lcl > 0) & (p < lcl)))
+        beyond = judged & ((k > high) | (k < low))
         side = np.sign(p - pbar[:, None])
     side[np.isclose(p, pbar[:, None], rtol=1e-12, atol=0.0)] = 0.0
     run = np.zeros(k.shape, dtype=bool)

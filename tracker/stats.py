@@ -5,7 +5,14 @@ database or formats output.
 
 - Reject rate p = rejected / inspected with a Wilson score interval.
 - p-chart with varying sample size (NIST/SEMATECH e-Handbook of Statistical
-  Methods, 6.3.3.2): centre p̄ = Σk / Σn, limits p̄ ± 3·√(p̄(1 − p̄)/nᵢ).
+  Methods, 6.3.3.2): centre p̄ = Σk / Σn. The limits are exact binomial
+  probability limits for each period's own n: the counts with 0.135 % of the
+  Binomial(nᵢ, p̄) distribution beyond them on each side
+  (``scipy.stats.binom.ppf``), the tail the handbook's 3-sigma limits aim at.
+  The normal approximation p̄ ± 3·√(p̄(1 − p̄)/nᵢ) is poor when nᵢ·p̄ is below
+  about 5 (the handbook's binomial assumptions): at 30 castings and a 2 %
+  rate it signals an in-control week about ten times too often, and its
+  lower limit stays at 0, so an improvement never shows as a point.
   Signal rules: a point beyond a limit; a run of 8 or more points on one side
   of the centre (Western Electric / Nelson run rule).
 - Before/after comparison of two reject rates: Fisher's exact test and a
@@ -29,7 +36,9 @@ from scipy import stats as _sps
 
 from tracker.errors import BadInput
 
-SIGMA_LIMITS = 3.0
+# Probability in each tail beyond a control limit: the normal distribution's
+# share beyond 3 sigma, Φ(−3) = 0.00135 (NIST/SEMATECH e-Handbook 6.3.3.2).
+TAIL = 0.00135
 RUN_LENGTH = 8
 RULES = ("beyond_limit", "run_of_8")
 CHART_COLUMNS = ("label", "rejected", "inspected", "p", "centre", "lcl", "ucl",
@@ -148,12 +157,38 @@ def _run_member(side: np.ndarray, length: int = RUN_LENGTH) -> np.ndarray:
     return (sizes[group] >= length) & (side != 0)
 
 
+def probability_limits(inspected, centre) -> tuple[np.ndarray, np.ndarray]:
+    """Exact binomial probability limits, as counts, of a p-chart point.
+
+    For each period with n = ``inspected`` castings judged against the reject
+    rate ``centre`` (fractions 0..1; the two broadcast), returns
+    ``(low, high)``: ``high`` is the smallest count with at most ``TAIL``
+    (0.135 %) of Binomial(n, centre) above it, ``low`` the smallest count
+    with at least 0.135 % at or below it, both from
+    ``scipy.stats.binom.ppf``. A point signals when its rejected count lies
+    above ``high`` or below ``low``; ``low`` = 0 cannot be breached. The
+    limits as rates are ``low / n`` and ``high / n``. n = 0 or an unknown
+    centre gives NaN.
+    """
+    n, c = np.broadcast_arrays(np.asarray(inspected, dtype=float), np.asarray(centre, dtype=float))
+    low = np.full(n.shape, np.nan)
+    high = np.full(n.shape, np.nan)
+    ok = (n > 0) & np.isfinite(c)
+    if ok.any():
+        # A chart repeats the same (n, centre) pair often: compute each once.
+        pairs, inverse = np.unique(np.stack([n[ok], c[ok]]), axis=1, return_inverse=True)
+        inverse = inverse.ravel()
+        low[ok] = _sps.binom.ppf(TAIL, pairs[0], pairs[1])[inverse]
+        high[ok] = _sps.binom.ppf(1.0 - TAIL, pairs[0], pairs[1])[inverse]
+    return low, high
+
+
 def p_chart(rejected, inspected, labels=None, *, centre: float | None = None) -> pd.DataFrame:
     """p-chart of reject rate with a sample size that varies point to point.
 
-    Follows NIST/SEMATECH e-Handbook 6.3.3.2: centre p̄ = Σ rejected / Σ
-    inspected, limits p̄ ± 3·√(p̄(1 − p̄)/nᵢ), the lower clipped at 0 and the
-    upper at 1.
+    Centre p̄ = Σ rejected / Σ inspected (NIST/SEMATECH e-Handbook 6.3.3.2);
+    limits are exact binomial probability limits for each period's own n
+    (:func:`probability_limits`: 0.135 % of Binomial(nᵢ, p̄) beyond each).
 
     Parameters
     ----------
@@ -170,8 +205,9 @@ def p_chart(rejected, inspected, labels=None, *, centre: float | None = None) ->
     pandas.DataFrame
         One row per period, in input order, with columns ``label``,
         ``rejected``, ``inspected`` (int), ``p`` (rejected / inspected),
-        ``centre``, ``lcl``, ``ucl`` (fractions), and booleans ``beyond``
-        (above ucl, or below lcl where lcl > 0 — a zero lower limit cannot be
+        ``centre``, ``lcl``, ``ucl`` (fractions: the limit counts over
+        inspected), and booleans ``beyond`` (rejected above the upper limit
+        count or below the lower one; a zero lower limit cannot be
         breached), ``run`` (the point is one of 8 or more consecutive points
         on the same side of the centre; a point exactly on the centre breaks
         a run) and ``signal`` (beyond or run).
@@ -204,13 +240,13 @@ def p_chart(rejected, inspected, labels=None, *, centre: float | None = None) ->
     seen = n > 0
     with np.errstate(invalid="ignore", divide="ignore"):
         p = np.where(seen, k / n, np.nan)
-        sigma = np.where(seen, np.sqrt(pbar * (1.0 - pbar) / n), np.nan)
-    lcl = np.clip(pbar - SIGMA_LIMITS * sigma, 0.0, 1.0)
-    ucl = np.clip(pbar + SIGMA_LIMITS * sigma, 0.0, 1.0)
+    low, high = probability_limits(n, pbar)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        lcl, ucl = low / n, high / n
 
     judged = seen & np.isfinite(pbar)
-    # NaN comparisons are False, so unseen periods never count as beyond.
-    beyond = judged & ((p > ucl) | ((lcl > 0) & (p < lcl)))
+    # Judged on the counts; NaN comparisons are False, so unseen periods never count.
+    beyond = judged & ((k > high) | (k < low))
 
     side = np.sign(p - pbar)
     # k/n and Σk/Σn are each one correctly rounded division, so equal
