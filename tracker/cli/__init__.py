@@ -5,9 +5,11 @@ No computation lives here; every command is a thin layer over ``tracker``.
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import json
 import math
+import os
 import sys
 
 import click
@@ -17,6 +19,7 @@ from tracker import __version__
 from tracker.alloys import ALLOYS
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import PourbackError
+from tracker.steps import Steps, terminal  # noqa: F401 (Steps is used by the commands)
 
 
 # --- output -----------------------------------------------------------------------
@@ -99,6 +102,29 @@ def handle_errors(fn):
 
 
 json_option = click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
+
+
+# --- progress on standard error ----------------------------------------------------------
+
+def stderr_is_terminal() -> bool:
+    """True when standard error is a terminal (progress is shown only then)."""
+    return terminal(sys.stderr)
+
+
+def show_progress(as_json: bool = False) -> bool:
+    """Progress is shown on a terminal only, and never with ``--json``."""
+    return not as_json and stderr_is_terminal()
+
+
+@contextlib.contextmanager
+def progress_bar(as_json: bool, length: int, label: str):
+    """A click progress bar on standard error, drawn on a terminal only and never with ``--json``."""
+    if show_progress(as_json):
+        with click.progressbar(length=length, label=label, show_eta=True, file=sys.stderr) as bar:
+            yield bar
+        return
+    with open(os.devnull, "w") as sink, click.progressbar(length=length, label=label, file=sink) as bar:
+        yield bar
 
 
 # --- commands ---------------------------------------------------------------------
