@@ -55,8 +55,11 @@ def db_path() -> str:
 
 
 def open_store() -> Store:
-    """A new connection to the log (close it: use ``with``)."""
-    return Store(db_path())
+    """A new connection to the log for a write (close it: use ``with``): made as
+    the signed-in user, whose role the library checks on every write."""
+    from dashboard import access
+
+    return access.open_store(db_path())
 
 
 @st.cache_data(show_spinner=False, max_entries=256)

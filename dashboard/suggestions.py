@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboard import charts, common
+from dashboard import access, charts, common
 from tracker import views
 
 NUMBER = st.column_config.NumberColumn
@@ -127,7 +127,11 @@ def main() -> None:
                                    step=0.5, format="%.1f", key="target"))
     found = suggestion_list(week, weeks, target)
     st.divider()
-    what_if(found)
+    if access.can("what_if"):
+        what_if(found)
+    else:
+        st.subheader("What if")
+        st.caption(access.not_offered("what_if"))
 
 
 main()

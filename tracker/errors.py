@@ -60,3 +60,38 @@ class NotFound(PourbackError, LookupError):
         self.key = key
         msg = f"unknown {kind} {key!r}"
         super().__init__(msg + (f"; {hint}" if hint else ""))
+
+
+class PermissionDenied(PourbackError, PermissionError):
+    """The signed-in user's role may not do what was asked; nothing was written."""
+
+    def __init__(self, user: str, role: str | None, action: str, allowed: list[str], what: str):
+        self.user = user
+        self.role = role
+        self.action = action
+        as_role = f" (role {role})" if role else ""
+        who = " or ".join(allowed) if allowed else "no role"
+        super().__init__(f"{user}{as_role} may not {what}; nothing was written. That needs the role {who}: "
+                         "sign in as such a user, or ask an admin to give you an account with it")
+
+
+class SignInRefused(PourbackError):
+    """A sign-in failed: unknown user, wrong password, disabled or locked account.
+
+    The message never says which of user name or password was wrong, and never
+    holds the password."""
+
+
+class AccountLocked(SignInRefused):
+    """Too many failed sign-ins in a row: the account is locked for a while."""
+
+    def __init__(self, user: str, until: str, failures: int, minutes: int):
+        self.user = user
+        self.until = until
+        super().__init__(f"{user} is locked after {failures} failed sign-ins in a row, for {minutes} minutes "
+                         f"(until {until} UTC); wait, or ask an admin to set a new password with "
+                         f"`pourback user passwd {user}`")
+
+
+class SessionExpired(PourbackError):
+    """A dashboard session ended (idle too long, signed out, or its account disabled)."""

@@ -16,6 +16,7 @@ import csv
 import datetime as dt
 import hashlib
 import itertools
+import json
 import os
 import pathlib
 import re
@@ -26,7 +27,7 @@ from typing import Callable, Iterator
 import numpy as np
 import pandas as pd
 
-from tracker import geometry
+from tracker import auth, geometry
 from tracker.errors import BadFile, BadRow
 from tracker.store import KEYS, TABLE_COLUMNS, Store
 
@@ -52,7 +53,8 @@ COLUMNS = {  # (required, optional)
                 "diameter_mm", "height_mm"], ["sleeve", "neck_diameter_mm"]),
     "lots": (["lot", "pattern", "poured_on", "heat", "molds"], ["pour_temp_c"]),
     "inspections": (["lot", "inspected_on", "method", "quantity", "result"],
-                    ["defect", "zone", "xray_category", "severity", "serial", "inspector", "notes"]),
+                    ["defect", "zone", "xray_category", "severity", "serial", "inspector", "notes",
+                     "record_id"]),
 }
 CHUNK_ROWS = 100_000
 MAX_PROBLEMS = 1000  # stop collecting (but keep refusing) past this many
@@ -81,12 +83,16 @@ class ImportResult:
 
 # --- reading ----------------------------------------------------------------------
 
-def _read_chunks(path: pathlib.Path, kind: str, chunk_rows: int) -> Iterator[pd.DataFrame]:
-    """Chunks of the file as all-string frames with a ``_row`` column (file row number)."""
+def _read_chunks(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict | None = None
+                 ) -> Iterator[pd.DataFrame]:
+    """Chunks of the file as all-string frames with a ``_row`` column (file row
+    number). ``shape["last_row"]`` is set to the file's last row number, blank
+    rows included."""
+    shape = {} if shape is None else shape
     name = path.name
     suffix = path.suffix.lower()
     if suffix in (".xlsx", ".xlsm"):
-        yield from _read_xlsx(path, kind, chunk_rows)
+        yield from _read_xlsx(path, kind, chunk_rows, shape)
         return
     if suffix not in (".csv", ".txt", ""):
         raise BadFile(name, [], f"{name}: unknown file type {suffix!r}; use .csv or .xlsx")
@@ -108,6 +114,7 @@ def _read_chunks(path: pathlib.Path, kind: str, chunk_rows: int) -> Iterator[pd.
             chunk = _normalise(chunk)
             chunk["_row"] = np.arange(offset, offset + len(chunk)) + 2
             offset += len(chunk)
+            shape["last_row"] = offset + 1
             blank = (chunk.drop(columns="_row") == "").all(axis=1)
             yield chunk[~blank]
         if first:
@@ -187,7 +194,7 @@ def _check_records(name: str, kind: str, reader) -> int:
     return width
 
 
-def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int) -> Iterator[pd.DataFrame]:
+def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict) -> Iterator[pd.DataFrame]:
     name = path.name
     try:
         book = pd.ExcelFile(path, engine="openpyxl")
@@ -213,6 +220,7 @@ def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int) -> Iterator[pd.Da
     # Date cells arrive as timestamps: keep the date part only.
     frame = frame.apply(lambda s: s.str.replace(r"^(\d{4}-\d{2}-\d{2}) 00:00:00$", r"\1", regex=True))
     frame["_row"] = np.arange(len(frame)) + 2
+    shape["last_row"] = len(frame) + 1
     blank = (frame.drop(columns="_row") == "").all(axis=1)
     frame = frame[~blank]
     for i in range(0, max(len(frame), 1), chunk_rows):
@@ -224,8 +232,14 @@ def _normalise(chunk: pd.DataFrame) -> pd.DataFrame:
     return chunk.apply(lambda s: s.astype(str).str.strip()) if len(chunk) else chunk
 
 
+REPORT_COLUMNS = ("row", "reason")  # added by the refused-rows report; ignored on import
+
+
 def _check_header(name: str, kind: str, columns: list[str]) -> None:
     cols = [str(c).strip().lower().lstrip("\ufeff") for c in columns]
+    if all(c in cols for c in REPORT_COLUMNS):
+        # A refused-rows report, its rows fixed, is imported as it is.
+        cols = [c for c in cols if c not in REPORT_COLUMNS]
     required, optional = COLUMNS[kind]
     missing = [c for c in required if c not in cols]
     unknown = [c for c in cols if c not in required and c not in optional]
@@ -241,6 +255,80 @@ def _check_header(name: str, kind: str, columns: list[str]) -> None:
         raise BadFile(name, [], f"{name}, row 1 (header): {'; '.join(parts)}. A {kind} file has the "
                                 f"columns {', '.join(required)}"
                                 + (f" and optionally {', '.join(optional)}" if optional else ""))
+
+
+# --- which file a row came from ------------------------------------------------------
+
+DIGEST_CHARS = 32  # of the SHA-256 hex digest: 128 bits
+
+
+@dataclass
+class FileIdentity:
+    """A file's content digest and the segments its rows are keyed by.
+
+    ``segments`` is a list of ``[digest, last_row]``: row r takes the digest of
+    the first segment whose last_row is at least r (None: no end). A file that
+    extends an imported one (the same bytes, then more rows) keeps that file's
+    segments for those rows, so re-importing a file that grew adds only the rows
+    after them; any other file is a segment of its own.
+    """
+
+    digest: str
+    size: int
+    segments: list
+
+    def keys(self, rows: np.ndarray) -> list[str]:
+        out = np.empty(len(rows), dtype=object)
+        todo = np.ones(len(rows), dtype=bool)
+        for digest, last in self.segments:
+            here = todo if last is None else todo & (rows <= last)
+            out[here] = [f"f{digest}:{int(r)}" for r in rows[here]]
+            todo &= ~here
+        return out.tolist()
+
+
+def file_identity(store: Store, path: pathlib.Path) -> FileIdentity:
+    """Read ``path`` once: its digest, and the imported file it extends if any."""
+    size = path.stat().st_size
+    known = store.imports_up_to(size)
+    by_size: dict[int, dict] = {}
+    for digest, nbytes, last_row, segments in known:
+        by_size.setdefault(nbytes, {})[digest] = (last_row, segments)
+    bounds = sorted(b for b in by_size if b > 0)
+    h = hashlib.sha256()
+    best = None  # (bytes, last_row, segments) of the longest imported file this one starts with
+    done = 0
+    last_byte = b""
+    with path.open("rb") as fh:
+        for bound in bounds + [None]:
+            while bound is None or done < bound:
+                want = _BLOCK_BYTES if bound is None else min(_BLOCK_BYTES, bound - done)
+                block = fh.read(want)
+                if not block:
+                    break
+                h.update(block)
+                done += len(block)
+                last_byte = block[-1:]
+            if bound is None or done < bound:
+                break
+            hit = by_size[bound].get(h.hexdigest()[:DIGEST_CHARS])
+            if hit is not None and bound < size and last_byte not in (b"\n", b"\r"):
+                # A prefix counts only where a row ends: else its last row went on.
+                following = fh.read(1)
+                fh.seek(done)
+                if following not in (b"\n", b"\r"):
+                    hit = None
+            if hit is not None:
+                best = (bound, *hit)
+    digest = h.hexdigest()[:DIGEST_CHARS]
+    if best is None:
+        return FileIdentity(digest, size, [[digest, None]])
+    nbytes, last_row, segments = best
+    segments = json.loads(segments)
+    if nbytes == size:
+        return FileIdentity(digest, size, segments)
+    segments[-1][1] = last_row
+    return FileIdentity(digest, size, segments + [[digest, None]])
 
 
 # --- column checks ----------------------------------------------------------------
@@ -392,7 +480,7 @@ class _Importer:
     """Validates and writes one file of one kind inside an open write transaction."""
 
     def __init__(self, store: Store, kind: str, file: str, today: dt.date, by: str | None,
-                 result: ImportResult, exclude: tuple = ()):
+                 result: ImportResult, exclude: tuple = (), identity: FileIdentity | None = None):
         self.store = store
         self.exclude = tuple(exclude)  # record ids left out of the lot totals (a correction)
         self.kind = kind
@@ -401,7 +489,7 @@ class _Importer:
         self.by = by
         self.result = result
         self.now = dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds")
-        # inspections: occurrence counting of identical rows across chunks
+        # inspections: occurrence counting of identical rows across chunks (old keys)
         self._seen_digests = np.zeros(0, dtype=np.uint64)
         self._seen_counts = np.zeros(0, dtype=np.int64)
         self._lot_index: dict[str, int] = {}
@@ -414,6 +502,9 @@ class _Importer:
         # rows could repeat and no earlier totals for their lots: no need to look them up.
         # (Rows written by this file's earlier chunks never collide: keys count occurrences.)
         self._log_was_empty = kind == "inspections" and not store.has_rows("inspections")
+        self.identity = identity  # the file's digest and segments (None: a record typed in)
+        self.legacy = kind == "inspections" and not self._log_was_empty and store.has_legacy_keys()
+        self._ids_in_file: dict[str, tuple] = {}  # record_id -> (row, content) seen in this file
 
     # each returns (rows to insert as tuples, keys) for the good rows of the chunk
     def validate(self, c: _Checks) -> list[tuple]:
@@ -578,6 +669,7 @@ class _Importer:
         serial = c.text("serial", required=False)
         inspector = c.text("inspector", required=False, max_len=100)
         notes = c.text("notes", required=False, max_len=2000)
+        rid = c.text("record_id", required=False, max_len=64)
         c.fail(result.isin(["reject", "rework"]) & (defect == ""), "defect",
                lambda i: f"a {result.iloc[i]} row needs the defect found; use one of {', '.join(DEFECTS)}")
         c.fail((cat != "") & (method != "xray"), "xray_category",
@@ -614,26 +706,73 @@ class _Importer:
         c.fail(graded & (sev_a <= np.nan_to_num(level, nan=9)) & (result == "reject").to_numpy(), "result",
                lambda i: f"got 'reject'; severity {int(sev_a[i])} meets zone {zone.iloc[i]}'s required "
                          f"level {int(level[i])}: the casting is acceptable on radiography")
-        canon = [lot, on, method, qty.fillna(0).astype(np.int64).astype(str), result, defect, zone, cat,
-                 sev.fillna(0).astype(np.int64).astype(str).replace("0", ""), serial, inspector, notes]
-        # Row-wise DataFrame.agg is ~100x slower on large files; zip the columns' lists instead.
-        joined = ["\x1f".join(t) for t in zip(*(col.tolist() for col in canon))]
-        digests = [hashlib.sha1(s.encode("utf-8")).hexdigest() for s in joined]
-        occurrence = self._occurrences(np.array([int(d[:16], 16) for d in digests], dtype=np.uint64))
-        keys = [f"{d}:{n}" for d, n in zip(digests, occurrence)]
-        # sorted: neighbouring keys share index pages
-        present = set() if self._log_was_empty else self.store.keys_present("inspections", "record_key",
-                                                                              sorted(keys))
-        new = np.array([k not in present for k in keys], dtype=bool)
-        self._check_lot_totals(c, lot, method, result, qty, known, new, info)
-        self.already_present = ~new
         # Column by column (blank text and NaN as NULL, as _none / _int_or_none give them),
         # then zipped into rows: a Python call per cell is most of an import's time.
         columns = [lot_l, on.tolist(), method.tolist(), _ints(qty), result.tolist(), _nulls(defect),
-                   _nulls(zone), _nulls(cat), _ints(sev), _nulls(serial), _nulls(inspector), _nulls(notes),
-                   keys]
+                   _nulls(zone), _nulls(cat), _ints(sev), _nulls(serial), _nulls(inspector), _nulls(notes)]
+        keys, present = self._record_keys(c, rid, columns, [lot, on, method, qty, result, defect, zone, cat,
+                                                             sev, serial, inspector, notes])
+        new = ~present
+        self._check_lot_totals(c, lot, method, result, qty, known, new, info)
+        self.already_present = present
         fixed = (self.now, self.by, self.file, None, 0, None)
-        return list(zip(*columns, *(itertools.repeat(v, len(keys)) for v in fixed)))
+        return list(zip(*columns, keys, *(itertools.repeat(v, len(keys)) for v in fixed)))
+
+    def _record_keys(self, c: _Checks, rid: pd.Series, columns: list, canon: list) -> tuple[list, np.ndarray]:
+        """Each row's record key and whether it is already present.
+
+        A row with a ``record_id`` is keyed by it: present when stored (or earlier
+        in the file) with the same content, refused when with other content. Any
+        other row is keyed by its file's digest and its row number (see
+        :class:`FileIdentity`), so a second file's identical row is a new record.
+        """
+        rid_l = rid.tolist()
+        has_id = np.array([r != "" for r in rid_l], dtype=bool)
+        if self.identity is None:  # a record typed in: its key is given by the caller
+            keys = [f"{self.file}:{uuid.uuid4().hex}" for _ in rid_l]
+        else:
+            keys = self.identity.keys(c.rows)
+        for i in np.flatnonzero(has_id):
+            keys[i] = f"id:{rid_l[i]}"
+        present_keys = set() if self._log_was_empty else self.store.keys_present(
+            "inspections", "record_key", sorted(keys))  # sorted: neighbouring keys share index pages
+        present = np.array([k in present_keys for k in keys], dtype=bool)
+        if has_id.any():
+            stored = self.store.records_by_key([keys[i] for i in np.flatnonzero(has_id & present)])
+            for i in np.flatnonzero(has_id & ~c.bad):
+                content = tuple(col[i] for col in columns)
+                earlier = stored.get(keys[i])
+                where = "stored already"
+                if earlier is None and rid_l[i] in self._ids_in_file:
+                    row, earlier = self._ids_in_file[rid_l[i]]
+                    where = f"on row {row} of this file"
+                    present[i] = True
+                elif earlier is None:
+                    self._ids_in_file[rid_l[i]] = (int(c.rows[i]), content)
+                    continue
+                if not _same(earlier, content):
+                    cols = TABLE_COLUMNS["inspections"][1:13]
+                    diff = [col for col, a, b in zip(cols, earlier, content) if not _same_value(a, b)]
+                    c.fail(np.arange(len(keys)) == i, "record_id",
+                           f"record {rid_l[i]} is {where} with other {', '.join(diff)}; a record is "
+                           "imported once: correct the stored one with `pourback correct`")
+        if self.legacy and (~has_id & ~present).any():
+            legacy = self._legacy_keys(canon)
+            found = self.store.legacy_keys_present([legacy[i] for i in np.flatnonzero(~has_id & ~present)],
+                                                   self.file)
+            present |= ~has_id & np.array([k in found for k in legacy], dtype=bool)
+        return keys, present
+
+    def _legacy_keys(self, canon: list) -> list[str]:
+        """The keys rows were given before schema version 4: SHA-1 of the row's
+        content and how many identical rows came before it in the file."""
+        lot, on, method, qty, result, defect, zone, cat, sev, serial, inspector, notes = canon
+        canon = [lot, on, method, qty.fillna(0).astype(np.int64).astype(str), result, defect, zone, cat,
+                 sev.fillna(0).astype(np.int64).astype(str).replace("0", ""), serial, inspector, notes]
+        joined = ["\x1f".join(t) for t in zip(*(col.tolist() for col in canon))]
+        digests = [hashlib.sha1(s.encode("utf-8")).hexdigest() for s in joined]
+        occurrence = self._occurrences(np.array([int(d[:16], 16) for d in digests], dtype=np.uint64))
+        return [f"{d}:{n}" for d, n in zip(digests, occurrence)]
 
     def _occurrences(self, d: np.ndarray) -> np.ndarray:
         """For each digest, how many identical rows came before it in this file."""
@@ -784,6 +923,7 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
     from tracker.errors import BadInput
 
     today = today or dt.date.today()
+    by = auth.author(store, [auth.TABLE_ACTION.get(k, "design") for k, _ in items], by)
     with store.write():
         results = []
         for kind, path in items:
@@ -797,6 +937,7 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
             if result.refused and not skip_bad:
                 raise BadFile(path.name, result.problems)  # rolls the whole transaction back
             results.append(result)
+        auth.note_write(store, "import", "; ".join(f"{r.kind} {r.file}: {r.added} added" for r in results))
         return results
 
 
@@ -805,8 +946,10 @@ def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, to
     """Validate one file chunk by chunk inside the open transaction and write
     its good rows (none once a row is refused, unless ``skip_bad``)."""
     result = ImportResult(kind=kind, file=path.name)
-    imp = _Importer(store, kind, path.name, today, by, result)
-    for chunk in _read_chunks(path, kind, chunk_rows):
+    identity = file_identity(store, path) if kind == "inspections" else None
+    imp = _Importer(store, kind, path.name, today, by, result, identity=identity)
+    shape: dict = {}
+    for chunk in _read_chunks(path, kind, chunk_rows, shape):
         if not len(chunk):
             continue
         c = _Checks(path.name, chunk, result)
@@ -843,6 +986,9 @@ def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, to
             stored_revs = {(p, r) for p, r, _ in new_revs}
             rows_new = [r for r in imp.pending_risers if (r[0], r[1]) in stored_revs]
             result.added += store.insert_rows("risers", rows_new)
+    if identity is not None and result.added and not (result.refused and not skip_bad):
+        store.record_import(identity.digest, path.name, identity.size, shape.get("last_row", 1),
+                            json.dumps(identity.segments), by)
     return result
 
 
@@ -902,8 +1048,10 @@ def log_inspection(store: Store, record: dict, *, by: str | None = None,
     """Validate one inspection result as the import would and store it.
 
     ``record`` has the inspection columns; returns the new record id.
-    Each call is a new record (it is never taken as a duplicate).
+    Each call is a new record (it is never taken as a duplicate). While served
+    with sign-in the record carries the signed-in user, whatever ``by`` says.
     """
+    by = auth.author(store, "log", by)
     return _one_record(store, record, by=by, today=today, source=source)
 
 
@@ -958,6 +1106,7 @@ def correct_inspection(store: Store, record_id: int, changes: dict, *, by: str, 
     """
     from tracker.errors import BadInput
 
+    by = auth.author(store, "log", by)
     if not str(by or "").strip():
         raise BadInput("by", by, "name who makes the correction")
     if not str(reason or "").strip():

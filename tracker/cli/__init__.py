@@ -157,6 +157,8 @@ from tracker.cli import cmd_review  # noqa: E402,F401
 from tracker.cli import cmd_log  # noqa: E402,F401
 from tracker.cli import cmd_app  # noqa: E402,F401
 from tracker.cli import cmd_advise  # noqa: E402,F401
+from tracker.cli import cmd_thermal  # noqa: E402,F401
+from tracker.cli import cmd_users  # noqa: E402,F401
 
 if __name__ == "__main__":  # pragma: no cover
     main(prog_name="pourback")
