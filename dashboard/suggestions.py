@@ -12,7 +12,8 @@ KEEP, BARE = "keep", "none"
 
 
 def suggestion_list(week: str, weeks: int, target: float) -> list[dict]:
-    found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks)
+    found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks,
+                        status="Pricing riser changes for the problem patterns")
     st.subheader("Suggested changes")
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")

@@ -138,7 +138,8 @@ def main() -> None:
         common.start_message(state, "a review")
         return
     week, weeks, target = controls(common.load("week_options"))
-    review = common.load("weekly_review", week=week, weeks=weeks, target=target / 100.0)
+    review = common.load("weekly_review", week=week, weeks=weeks, target=target / 100.0,
+                         status=f"Computing the review of {week} ({weeks} weeks)")
     if not review["patterns"]:
         st.info(f"Nothing was poured in the {weeks} weeks up to {week}. Pick another week.")
         return

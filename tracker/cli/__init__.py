@@ -117,9 +117,10 @@ def show_progress(as_json: bool = False) -> bool:
 
 
 @contextlib.contextmanager
-def progress_bar(as_json: bool, length: int, label: str):
-    """A click progress bar on standard error, drawn on a terminal only and never with ``--json``."""
-    if show_progress(as_json):
+def progress_bar(show: bool, length: int, label: str):
+    """A click progress bar on standard error; drawn only when ``show`` (see
+    :func:`show_progress`), else updates go nowhere."""
+    if show:
         with click.progressbar(length=length, label=label, show_eta=True, file=sys.stderr) as bar:
             yield bar
         return

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import click
 
-from tracker.cli import caution_text, db_option, emit, handle_errors, json_option, main, open_store, table
+from tracker.cli import (Steps, caution_text, db_option, emit, handle_errors, json_option, main, open_store,
+                         show_progress, table)
 
 
 @main.command()
@@ -36,7 +37,8 @@ def suggest(pattern, target, week, weeks, step_mm, riser_metal_charge, refit, db
     """
     from tracker.advise import suggest as run
 
-    with open_store(db_path) as store:
+    with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
+        steps.step("Suggesting riser changes" + (" (refitting the model first)" if refit else ""))
         rows = run(store, pattern=pattern, target=target, week=week, weeks=weeks, step_mm=step_mm, refit=refit,
                    riser_metal_charge=riser_metal_charge)
     emit(rows, as_json, _format)
@@ -120,13 +122,16 @@ def fit_model(alpha, folds, db_path, as_json):
     from tracker.features import aggregate_for_fit, zone_lot_features
     from tracker.model import ShrinkageRejectModel, cross_validate
 
-    with open_store(db_path) as store:
+    with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
+        steps.step("Fitting the reject model")
         model = fit(store, alpha=alpha)
         if model is None:
             raise click.ClickException("the log has no lots under a known riser design; import risers and lots first")
+        steps.step("Reading the features for cross-validation")
         feats = aggregate_for_fit(zone_lot_features(store))
         cv = None
         if feats["pattern"].nunique() >= 2:
+            steps.step(f"Cross-validating ({folds} folds, grouped by pattern)")
             cv = cross_validate(feats, n_splits=folds, model=ShrinkageRejectModel(alpha=alpha))
     coef = model.coefficients_.to_dict("records")
     data = {"fitted_on": model.fitted_on_, "rows": int(model.n_rows_), "castings": int(model.n_castings_),
