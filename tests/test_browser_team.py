@@ -12,15 +12,14 @@ Skipped without /usr/bin/chromium or playwright, unless POURBACK_REQUIRE_BROWSER
 import datetime as dt
 import os
 import shutil
-import socket
 import subprocess
 import sys
-import time
 import urllib.request
 
 import pytest
 
-from test_browser import CHROMIUM, CHROMIUM_ARGS, _lot_with_room, choose, screenshot, settle
+from test_browser import (CHROMIUM, CHROMIUM_ARGS, _free_port, _lot_with_room, choose, running_dashboard,
+                          screenshot, settle)
 from test_browser import sync_playwright  # noqa: F401 - the fixture
 from tracker import auth
 from tracker.errors import PermissionDenied
@@ -32,12 +31,6 @@ pytestmark = pytest.mark.browser
 HOST = "127.0.0.2"
 PASSWORD = "pour floor tablet 9"
 USERS = {"boss": "admin", "bench": "inspector", "room": "reviewer", "locky": "reviewer"}
-
-
-def _free_port() -> int:
-    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
-        s.bind((HOST, 0))
-        return s.getsockname()[1]
 
 
 def _dashboard(db, port, log_path):
@@ -64,7 +57,7 @@ def plain_log(app_demo_db, tmp_path_factory):
 
 
 def test_refuses_to_start_beyond_loopback_without_an_admin(plain_log, tmp_path):
-    port = _free_port()
+    port = _free_port(HOST)
     proc = _dashboard(plain_log, port, tmp_path / "server.log")
     try:
         assert proc.wait(timeout=60) == 1
@@ -85,24 +78,8 @@ def team_server(app_demo_db, tmp_path_factory):
     with Store(db) as s:
         for name, role in USERS.items():
             auth.add_user(s, name, role, PASSWORD, by="test")
-    port = _free_port()
-    proc = _dashboard(db, port, folder / "server.log")
-    try:
-        deadline = time.monotonic() + 90
-        while not _answers(port):
-            if proc.poll() is not None:
-                pytest.fail("the dashboard exited early:\n" + (folder / "server.log").read_text())
-            if time.monotonic() > deadline:
-                pytest.fail("the dashboard did not answer within 90 s")
-            time.sleep(0.3)
-        yield {"url": f"http://{HOST}:{port}", "db": db, "log": folder / "server.log", "pages": []}
-    finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=15)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-            proc.wait(timeout=5)
+    with running_dashboard(db, folder, HOST) as base:
+        yield {"url": base, "db": db, "log": folder / "server.log", "pages": []}
 
 
 @pytest.fixture(scope="module")
