@@ -6,6 +6,7 @@ import streamlit as st
 
 from dashboard import access, charts, common
 from tracker import views
+from tracker.assess import rule_words
 
 NUMBER = st.column_config.NumberColumn
 KEEP, BARE = "keep", "none"
@@ -96,7 +97,7 @@ def what_if(found: list[dict]) -> None:
                 delta=delta(result["feed_margin"], result["feed_margin_now"]))
     failed = [r for r in result["failed_rules"].split(",") if r]
     c[3].metric("Rules", "all pass" if result["passes"] else f"{len(failed)} failed",
-                help=None if result["passes"] else "failed: " + ", ".join(failed))
+                help=None if result["passes"] else "failed: " + rule_words(failed))
     c = st.columns(4)
     now, new = result.get("predicted_rate_now"), result.get("predicted_rate")
     c[0].metric("Predicted shrinkage rate", common.pct(None if new is None else 100 * new, 2),
@@ -119,13 +120,7 @@ def main() -> None:
     if not state["ready"] or not state["has_design"]:
         common.start_message(state, "suggestions (they need risers, lots and inspections)")
         return
-    weeks_available = common.load("week_options")
-    c1, c2, c3 = st.columns([2, 1, 1])
-    week = c1.selectbox("Review week (ISO week of pour)", weeks_available, key="week")
-    weeks = int(c2.number_input("Weeks in the window", min_value=1, max_value=104, value=13, step=1,
-                                key="weeks"))
-    target = float(c3.number_input("Target shrinkage rate (%)", min_value=0.1, max_value=50.0, value=2.0,
-                                   step=0.5, format="%.1f", key="target"))
+    week, weeks, target = common.review_controls()
     found = suggestion_list(week, weeks, target)
     st.divider()
     if access.can("what_if"):

@@ -5,15 +5,14 @@ from __future__ import annotations
 import click
 
 from tracker.cli import (Steps, caution_text, db_option, emit, handle_errors, json_option, main, open_store,
-                         show_progress, table)
+                         show_progress, table, target_option, week_option, weeks_option)
 
 
 @main.command()
 @click.option("--pattern", default=None, help="Only this pattern (default: every problem pattern of the review).")
-@click.option("--target", type=float, default=0.02, show_default=True,
-              help="Shrinkage reject rate to reach, fraction (0.02 = 2 %).")
-@click.option("--week", default=None, help="Review week, e.g. 2026-W47 (default: the week of the latest pour).")
-@click.option("--weeks", type=int, default=13, show_default=True, help="Weeks of history to judge by.")
+@target_option
+@week_option
+@weeks_option
 @click.option("--step-mm", type=float, default=10.0, show_default=True,
               help="The shop's standard riser diameter step, mm.")
 @click.option("--riser-metal-charge", type=float, default=1.0, show_default=True,
@@ -88,6 +87,7 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, db_path, as_json):
         pourback what-if --pattern P-1017 --riser R3 --diameter-mm 130
     """
     from tracker.advise import what_if as run
+    from tracker.assess import rule_words
 
     with open_store(db_path) as store:
         r = run(store, pattern, riser, diameter_mm=diameter_mm, height_mm=height_mm, sleeve=sleeve)
@@ -98,7 +98,8 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, db_path, as_json):
         rows.append({"figure": "yield", "now": r["yield_before"], "changed": r["yield_after"]})
         return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {r['diameter_mm']:.0f} x "
                 f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
-                + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + r['failed_rules']}"
+                + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + rule_words(r['failed_rules'])}"
+                + f" (rule set: {r['rule_set'].replace('_', ' ')})"
                 f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg\n\n" + caution_text())
     emit(r, as_json, human)
 
