@@ -6,6 +6,7 @@ import streamlit as st
 
 from dashboard import access, charts, common
 from tracker import advise, views
+from tracker.assess import rule_words
 
 NUMBER = st.column_config.NumberColumn
 KEEP, BARE = "keep", "none"
@@ -13,7 +14,8 @@ MONEY = views.MONEY_UNIT
 
 
 def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list[dict]:
-    found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge)
+    found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge,
+                        status="Pricing riser changes for the problem patterns")
     st.subheader("Suggested changes")
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")
@@ -135,7 +137,7 @@ def _rule_metrics(result: dict) -> None:
                 delta=_delta(result["feed_margin"], result["feed_margin_now"]))
     failed = [r for r in result["failed_rules"].split(",") if r]
     c[3].metric("Rules", "all pass" if result["passes"] else f"{len(failed)} failed",
-                help=None if result["passes"] else "failed: " + ", ".join(failed))
+                help=None if result["passes"] else "failed: " + rule_words(failed))
     if failed:
         st.caption(common.md_escape("Rules failed: " + ", ".join(f.replace("_", " ") for f in failed) + "."))
 
@@ -190,14 +192,9 @@ def main() -> None:
     if not state["ready"] or not state["has_design"]:
         common.start_message(state, "suggestions (they need risers, lots and inspections)")
         return
-    weeks_available = common.load("week_options")
-    c1, c2, c3, c4 = st.columns([2, 1, 1, 1])
-    week = c1.selectbox("Review week (ISO week of pour)", weeks_available, key="week")
-    weeks = int(c2.number_input("Weeks in the window", min_value=1, max_value=104, value=13, step=1,
-                                key="weeks"))
-    target = float(c3.number_input("Target shrinkage rate (%)", min_value=0.1, max_value=50.0, value=2.0,
-                                   step=0.5, format="%.1f", key="target"))
-    charge = float(c4.number_input("Remelt charge (share of metal price)", min_value=0.0, max_value=1.0,
+    week, weeks, target = common.review_controls()
+    c1, _ = st.columns([1, 3])
+    charge = float(c1.number_input("Remelt charge (share of metal price)", min_value=0.0, max_value=1.0,
                                    value=advise.DEFAULT_REMELT_CHARGE, step=0.05, format="%.2f", key="remelt",
                                    help="What is lost on each kg poured that does not ship (scrapped "
                                         "castings, extra riser metal): melting, handling, melt loss. "

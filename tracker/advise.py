@@ -53,14 +53,14 @@ import math
 import numpy as np
 import pandas as pd
 
-from tracker import rules
-from tracker.assess import assess_frame, revision_in_effect
+from tracker import limits, rules
+from tracker.assess import assess_frame, revision_in_effect, rule_words
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadInput, NotFound
 from tracker.features import aggregate_for_fit, weakest_margins, zone_lot_features
 from tracker.model import ShrinkageRejectModel
-from tracker.sizing import size_risers
-from tracker.stats import iso_week, week_start, wilson_interval
+from tracker.sizing import neck_needed_mm, size_risers
+from tracker.stats import week_start, wilson_interval
 from tracker.store import Store
 
 ACTIONS = ("enlarge", "sleeve", "enlarge_and_sleeve", "neck", "no_riser_change")
@@ -115,7 +115,7 @@ def fit_model(store: Store, *, alpha: float = 10.0, save: bool = True) -> Shrink
 
 def get_model(store: Store, refit: bool = False) -> ShrinkageRejectModel | None:
     """The stored model if it was fitted on the log as it is now, else a new fit."""
-    from tracker.model import IncompatibleModel
+    from tracker.errors import IncompatibleModel
 
     if not refit:
         saved = store.latest_model()
@@ -132,11 +132,11 @@ def get_model(store: Store, refit: bool = False) -> ShrinkageRejectModel | None:
 
 def review_window(store: Store, week: str | None, weeks: int) -> tuple[str, dt.date, dt.date]:
     """(ISO week, first day, last day) of a window of ``weeks`` ending with ``week``."""
-    if int(weeks) < 1:
-        raise BadInput("weeks", weeks, "must be a whole number of weeks, 1 or more")
+    from tracker.review import default_week
+
+    weeks = limits.check_weeks(weeks)
     if week is None:
-        _, last = store.pour_span()
-        week = iso_week(last) if last else iso_week(dt.date.today())
+        week = default_week(store)
     monday = week_start(week)
     return week, monday - dt.timedelta(weeks=int(weeks) - 1), monday + dt.timedelta(days=6)
 
@@ -227,7 +227,8 @@ def _judge(risers: pd.DataFrame) -> pd.DataFrame:
     a.index = risers.index
     a["thickness_mm"] = risers["thickness_mm"].astype(float).to_numpy()
     a["pour_temp_dev_c"] = 0.0  # the pattern's usual (median) pouring temperature, before and after
-    a["rules_ok"] = a["modulus_ok"] & a["feed_ok"] & (a["caine_ok"].fillna(1.0) == 1.0)
+    a["rules_ok"] = (a["modulus_ok"] & a["feed_ok"] & (a["caine_ok"].fillna(1.0) == 1.0)
+                     & ~a["oversized"].astype(bool))
     a["full_ok"] = a["rules_ok"] & (a["neck_ok"].isna() | (a["neck_ok"] == 1.0))
     a["weight_kg"] = riser_weight_kg(a["riser_volume_cm3"], risers["density_kg_dm3"])
     a["sleeve_unit_cost"] = risers["sleeve_unit_cost"].astype(float).fillna(0.0).to_numpy()
@@ -247,10 +248,14 @@ def _designs(store: Store, patterns: list[str], on: str, revision: str | None = 
 
 
 def _comfortable(j: pd.DataFrame) -> pd.Series:
-    """Risers that pass every rule with margin (COMFORT)."""
+    """Risers that pass every rule with margin (COMFORT), the modulus ratio
+    against the one the riser's own rule set asks (pressure control for
+    ductile iron asks less)."""
     caine = j["caine_margin"].astype(float)
+    required = j["modulus_required_ratio"].astype(float).fillna(rules.DEFAULT_MODULUS_FACTOR) \
+        if "modulus_required_ratio" in j else rules.DEFAULT_MODULUS_FACTOR
     return (j["rules_ok"]
-            & (j["modulus_ratio"] >= rules.DEFAULT_MODULUS_FACTOR * COMFORT["modulus_ratio"])
+            & (j["modulus_ratio"] >= required * COMFORT["modulus_ratio"])
             & (caine.isna() | (caine >= COMFORT["caine_margin"]))
             & (j["feed_margin"] >= COMFORT["feed_margin"]))
 
@@ -287,17 +292,24 @@ def _section_modulus_cm(rows: pd.DataFrame) -> np.ndarray:
         rows["cooling_area_cm2"].astype(float).to_numpy() / share)
 
 
-def _neck_needed_mm(mc_cm) -> np.ndarray:
-    """Neck diameter for M_neck = 1.1 · M_section (a bar neck: M = d/4), in 5 mm steps."""
-    return _round_up(4.0 * rules.NECK_FACTOR * np.asarray(mc_cm) * 10.0, NECK_STEP_MM)
+def _neck_needed_mm(alloys, mc_cm, now_mm=None) -> np.ndarray:
+    """The neck each row's rule set asks (``sizing.neck_needed_mm``: M_neck =
+    1.1 · M_section, or inside 0.5-0.8 · M_section under pressure control),
+    in 5 mm steps; NaN where the present neck ``now_mm`` meets it."""
+    now = [None] * len(alloys) if now_mm is None else [None if v != v else float(v) for v in now_mm]
+    need = [neck_needed_mm(a, m, n) for a, m, n in zip(alloys, np.asarray(mc_cm, dtype=float), now)]
+    return _round_up(np.array([np.nan if v is None else v for v in need], dtype=float), NECK_STEP_MM)
 
 
 def _neck_for(rows: pd.DataFrame, diameter_mm) -> np.ndarray:
     """The neck each side riser of ``diameter_mm`` needs: the present one, or
-    widened to M_neck = 1.1 · M_section while it stays narrower than the riser."""
+    the one its rule set asks while it stays narrower than the riser."""
     now = rows["neck_diameter_mm"].astype(float).to_numpy()
-    need = _neck_needed_mm(_section_modulus_cm(rows))
-    widen = _has_neck(rows) & (now < need)
+    has = _has_neck(rows)
+    need = np.full(len(rows), np.nan)
+    if has.any():
+        need[has] = _neck_needed_mm(rows["alloy"].to_numpy()[has], _section_modulus_cm(rows)[has], now[has])
+    widen = has & ~np.isnan(need)
     return np.where(widen, np.minimum(need, np.asarray(diameter_mm, dtype=float) - NECK_STEP_MM), now)
 
 
@@ -312,13 +324,14 @@ def _enlarge_candidates(bases: pd.DataFrame, step_mm: float, with_model: bool) -
     hd = np.clip(h0 / d0, 0.5, 3.0)
     share = np.maximum(b["risers_on_zone"].astype(float).fillna(1.0).to_numpy(), 1.0)
     need = np.empty(len(b))
-    for alloy in b["alloy"].unique():
-        m = (b["alloy"] == alloy).to_numpy()
+    mould = b["mould"].map(rules.check_mould) if "mould" in b else pd.Series(rules.check_mould(None), b.index)
+    for alloy, mo in set(zip(b["alloy"], mould)):
+        m = ((b["alloy"] == alloy) & (mould == mo)).to_numpy()
         need[m] = size_risers(b["volume_cm3"].to_numpy(float)[m] / share[m],
                               b["cooling_area_cm2"].to_numpy(float)[m] / share[m], alloy,
                               b["placement"].to_numpy()[m], hd[m], 1.0,
                               efficiency=b["bare_efficiency"].to_numpy(float)[m],
-                              shrinkage=b["shrinkage"].to_numpy(float)[m])["diameter_mm"]
+                              shrinkage=b["shrinkage"].to_numpy(float)[m], mould=mo)["diameter_mm"]
     first = np.maximum(_round_up(need, step_mm), _round_up(d0 + step_mm * 0.5, step_mm))
     cap = np.maximum(first, MAX_GROWTH * d0)
     steps = np.floor((cap - first) / step_mm + 1e-9).astype(int) + 1 if with_model else np.ones(len(b), int)
@@ -355,7 +368,7 @@ def _sleeve_candidates(bases: pd.DataFrame, sleeves: pd.DataFrame) -> pd.DataFra
 def _neck_candidates(bases: pd.DataFrame, judged: pd.DataFrame) -> pd.DataFrame:
     """A wider neck (M_neck = 1.1 · M_section) where the present one fails
     and the wider one stays below the riser."""
-    need = _neck_needed_mm(judged["section_modulus_cm"].to_numpy(float))
+    need = _neck_needed_mm(bases["alloy"].to_numpy(), judged["section_modulus_cm"].to_numpy(float))
     ok = (_has_neck(bases) & (judged["neck_ok"].to_numpy() == 0.0)
           & (need / 40.0 < judged["riser_modulus_cm"].to_numpy(float))
           & (need < bases["diameter_mm"].to_numpy(float)))
@@ -528,7 +541,7 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
              else f"Caine (margin {choice['caine_margin']:.2f})")
     text = (f"{_change_text(choice['action'], base['riser'], d0, choice)}: shrinkage in zone {zone['zone']} "
             f"observed {zone['rate']:.1%} ({int(zone['shrinkage_rejects'])} of {int(zone['castings'])} "
-            f"castings){predicted}; the present riser fails: {now['failed_rules'] or 'none'}. ")
+            f"castings){predicted}; the present riser fails: {rule_words(now['failed_rules']) or 'none'}. ")
     text += (f"The new one passes modulus (ratio {choice['modulus_ratio']:.2f}), {caine} and feed volume "
              f"(margin {choice['feed_margin']:.2f})." if choice["full_ok"] else
              f"The new one: modulus ratio {choice['modulus_ratio']:.2f}, {caine}, feed margin "
@@ -538,7 +551,7 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
         text += f" Widen the neck to {choice['neck_diameter_mm']:.0f} mm with it."
     if choice["feeding_distance_ok"] == 0.0:
         text += (f" Feeding distance: the zone's feeding length {choice['feeding_length_mm']:.0f} mm is "
-                 f"beyond {choice['feeding_distance_mm']:.0f} mm (4.5 T); no riser size fixes that: add a "
+                 f"beyond {choice['feeding_distance_mm']:.0f} mm; no riser size fixes that: add a "
                  "riser or a chill.")
     if siblings:
         text += (f" Riser(s) {', '.join(siblings)} on the same zone fail too: "
@@ -669,12 +682,14 @@ def _alternatives(zone_priced: list[dict], choice_id, m) -> list[dict]:
     return out
 
 
-def suggest(store: Store, pattern: str | None = None, target: float = 0.02, week: str | None = None,
-            weeks: int = 13, step_mm: float = DEFAULT_STEP_MM, model=None, refit: bool = False,
+def suggest(store: Store, pattern: str | None = None, target: float = limits.TARGET_DEFAULT,
+            week: str | None = None, weeks: int = limits.WEEKS_DEFAULT, step_mm: float = DEFAULT_STEP_MM,
+            model=None, refit: bool = False,
             remelt_charge: float | None = None, riser_metal_charge: float | None = None) -> list[dict]:
     """Suggestions for each problem pattern (or for ``pattern`` alone).
 
-    target: shrinkage reject rate to reach, fraction (0.02 = 2 %).
+    target: the target reject rate (``tracker.limits``), fraction (0.02 = 2 %): the
+    review flags patterns by it, and a zone's shrinkage rate is brought down to it.
     step_mm: the shop's standard riser diameter step, mm.
     remelt_charge: share of the metal price per kg lost on metal poured that
     does not ship (scrapped castings and extra riser metal alike; default
@@ -683,8 +698,7 @@ def suggest(store: Store, pattern: str | None = None, target: float = 0.02, week
     The predicted rates are the model's for the present and the changed
     design (RATE_BASIS); see the module docstring for the money.
     """
-    if not 0 < target < 1:
-        raise BadInput("target", target, "must be a fraction between 0 and 1 (0.02 = 2 %)")
+    target = limits.check_target(target)
     if not step_mm > 0:
         raise BadInput("step_mm", step_mm, "the diameter step must be above 0 mm")
     charge = _remelt_charge(remelt_charge, riser_metal_charge)
@@ -767,7 +781,7 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
     zone_j = ctx["risers_by_zone"][(z["pattern"], z["zone"])]
     siblings = [r for i, r, ok in zip(zone_j.index, zone_j["riser"], zone_j["full_ok"])
                 if i != z["primary"] and not ok]
-    common = {**_empty_fields(), **base_out, "zone": z["zone"], "riser": base["riser"],
+    common = {**_empty_fields(), **base_out, "zone": z["zone"], "riser": base["riser"], "rule_set": now["rule_set"],
               "zone_castings": int(z["castings"]), "shrinkage_rejects": int(z["shrinkage_rejects"]),
               "reject_rate": float(z["rate"]), "reject_rate_low": lo, "reject_rate_high": hi,
               "current_diameter_mm": float(base["diameter_mm"]), "current_sleeve": _sleeve_or_none(base["sleeve"])}
@@ -880,7 +894,7 @@ def _what_if_money(designs: dict, k, row: pd.Series, money: pd.DataFrame, model)
 def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = None,
             height_mm: float | None = None, sleeve: str | None = "keep",
             neck_diameter_mm: float | None | str = "keep", revision: str | None = None,
-            model=None, week: str | None = None, weeks: int = 13,
+            model=None, week: str | None = None, weeks: int = limits.WEEKS_DEFAULT,
             remelt_charge: float | None = None, riser_metal_charge: float | None = None) -> dict:
     """Margins, predicted shrinkage rate, yield and money of a changed riser.
 
@@ -934,7 +948,7 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
         "modulus_ratio": float(new["modulus_ratio"]), "caine_margin": _nan_none(new["caine_margin"]),
         "feed_margin": float(new["feed_margin"]), "freezing_ratio": float(new["freezing_ratio"]),
         "volume_ratio": float(new["volume_ratio"]), "neck_ok": _nan_none(new["neck_ok"]),
-        "passes": bool(new["passes"]), "failed_rules": new["failed_rules"],
+        "passes": bool(new["passes"]), "failed_rules": new["failed_rules"], "rule_set": new["rule_set"],
         "modulus_ratio_now": float(now["modulus_ratio"]), "caine_margin_now": _nan_none(now["caine_margin"]),
         "feed_margin_now": float(now["feed_margin"]),
         "observed_rate": observed, "zone_castings": castings, "week": week, "weeks": int(weeks),

@@ -21,14 +21,15 @@ MARGIN_COLS = ["modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "
 FEATURE_COLUMNS = [
     "lot", "pattern", "revision", "zone", "riser", "poured_on", "alloy", "castings", "shrinkage_rejects",
     "modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "freezing_ratio", "sleeve_kind",
-    "pour_temp_dev_c", "thickness_mm", "passes",
+    "pour_temp_dev_c", "thickness_mm", "passes", "rule_set", "modulus_target",
 ]
 
 
 def weakest_margins(assessed: pd.DataFrame, keys) -> pd.DataFrame:
     """Per group of ``keys``: each margin's minimum over the group's risers
-    (MARGIN_COLS), the alloy and thickness, and the sleeve kind of the riser
-    lowest on Caine's margin, then on the modulus ratio.
+    (MARGIN_COLS), the alloy, thickness and rule set, the sleeve kind of the
+    riser lowest on Caine's margin, then on the modulus ratio, and the
+    largest modulus ratio the zone's rule set asks (``modulus_target``).
 
     ``assessed`` is from ``assess_frame`` with a ``thickness_mm`` column. This
     is how the model sees a zone fed by several risers, in its training table
@@ -39,8 +40,11 @@ def weakest_margins(assessed: pd.DataFrame, keys) -> pd.DataFrame:
     a = a.sort_values(keys + ["_caine_sort", "modulus_ratio"], kind="stable")
     g = a.groupby(keys, sort=False)
     out = g[MARGIN_COLS].min()
-    first = g[["alloy", "sleeve_kind", "thickness_mm"]].first()
-    return out.join(first).reset_index()
+    first = g[[c for c in ("alloy", "sleeve_kind", "thickness_mm", "rule_set") if c in a]].first()
+    out = out.join(first)
+    if "modulus_required_ratio" in a:  # the zone's rule set asks the largest of its risers' ratios
+        out["modulus_target"] = g["modulus_required_ratio"].max()
+    return out.reset_index()
 
 
 def zone_design(store: Store, pattern=None) -> pd.DataFrame:
@@ -50,7 +54,8 @@ def zone_design(store: Store, pattern=None) -> pd.DataFrame:
         risers = risers[risers["pattern"].isin(list(pattern))].reset_index(drop=True)
     if risers.empty:
         return pd.DataFrame(columns=["pattern", "revision", "effective_from", "zone", "riser", "alloy",
-                                     "sleeve_kind", "thickness_mm", "passes"] + MARGIN_COLS)
+                                     "sleeve_kind", "thickness_mm", "passes", "rule_set",
+                                     "modulus_target"] + MARGIN_COLS)
     a = assess_frame(risers)
     a["thickness_mm"] = risers["thickness_mm"].astype(float).to_numpy()
     keys = ["pattern", "revision", "zone"]
@@ -109,7 +114,8 @@ def aggregate_for_fit(features: pd.DataFrame, temp_bin_c: float = 5.0) -> pd.Dat
     f = features.copy()
     f["_tbin"] = np.round(f["pour_temp_dev_c"].fillna(0.0) / temp_bin_c) * temp_bin_c
     keys = ["pattern", "revision", "zone", "_tbin"]
-    first = {c: "first" for c in ["riser", "alloy", "sleeve_kind", "thickness_mm", "passes"] + MARGIN_COLS}
+    first = {c: "first" for c in ["riser", "alloy", "sleeve_kind", "thickness_mm", "passes", "rule_set",
+                                  "modulus_target"] + MARGIN_COLS}
     out = f.groupby(keys, as_index=False).agg(castings=("castings", "sum"),
                                               shrinkage_rejects=("shrinkage_rejects", "sum"),
                                               poured_on=("poured_on", "max"), **{
@@ -124,7 +130,7 @@ def design_map(store: Store, start: str | None = None, end: str | None = None, a
     f = zone_lot_features(store, start, end, pattern)
     cols = ["pattern", "revision", "zone", "riser", "alloy", "volume_ratio", "freezing_ratio",
             "modulus_ratio", "caine_margin", "feed_margin", "passes", "sleeve_kind", "lots", "castings",
-            "shrinkage_rejects", "shrinkage_rate", "wilson_low", "wilson_high"]
+            "shrinkage_rejects", "shrinkage_rate", "wilson_low", "wilson_high", "rule_set", "modulus_target"]
     if f.empty:
         return pd.DataFrame(columns=cols)
     if alloy:
@@ -134,6 +140,7 @@ def design_map(store: Store, start: str | None = None, end: str | None = None, a
         freezing_ratio=("freezing_ratio", "first"), modulus_ratio=("modulus_ratio", "first"),
         caine_margin=("caine_margin", "first"), feed_margin=("feed_margin", "first"),
         passes=("passes", "first"), sleeve_kind=("sleeve_kind", "first"), lots=("lot", "count"),
+        rule_set=("rule_set", "first"), modulus_target=("modulus_target", "first"),
         castings=("castings", "sum"), shrinkage_rejects=("shrinkage_rejects", "sum"))
     g["shrinkage_rate"] = g["shrinkage_rejects"] / g["castings"]
     lo, hi = wilson_interval(g["shrinkage_rejects"].to_numpy(), g["castings"].to_numpy())

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import click
 
-from tracker.cli import caution_text, db_option, emit, handle_errors, json_option, main, open_store, table
+from tracker.cli import (Steps, caution_text, db_option, emit, handle_errors, json_option, main, open_store,
+                         show_progress, table, target_option, week_option, weeks_option)
 
 
 def _pct(v, digits: int = 1) -> str | None:
@@ -27,10 +28,9 @@ basis_note = ("Money basis: the predicted rates now and after are both the rejec
 
 @main.command()
 @click.option("--pattern", default=None, help="Only this pattern (default: every problem pattern of the review).")
-@click.option("--target", type=float, default=0.02, show_default=True,
-              help="Shrinkage reject rate to reach, fraction (0.02 = 2 %).")
-@click.option("--week", default=None, help="Review week, e.g. 2026-W47 (default: the week of the latest pour).")
-@click.option("--weeks", type=int, default=13, show_default=True, help="Weeks of history to judge by.")
+@target_option
+@week_option
+@weeks_option
 @click.option("--step-mm", type=float, default=10.0, show_default=True,
               help="The shop's standard riser diameter step, mm.")
 @remelt_option
@@ -60,7 +60,8 @@ def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, db_path
     """
     from tracker.advise import suggest as run
 
-    with open_store(db_path) as store:
+    with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
+        steps.step("Suggesting riser changes" + (" (refitting the model first)" if refit else ""))
         rows = run(store, pattern=pattern, target=target, week=week, weeks=weeks, step_mm=step_mm, refit=refit,
                    remelt_charge=remelt_charge)
     emit(rows, as_json, _format)
@@ -110,9 +111,8 @@ def _format(rows: list[dict]) -> str:
 @click.option("--height-mm", type=float, default=None, help="New height, mm.")
 @click.option("--sleeve", default="keep", show_default=True,
               help="Catalogue sleeve code, 'none' for a bare riser, or keep.")
-@click.option("--week", default=None, help="Last week of the window the money is priced on (default: the "
-                                           "week of the latest pour).")
-@click.option("--weeks", type=int, default=13, show_default=True, help="Weeks of history to price by.")
+@week_option
+@weeks_option
 @remelt_option
 @db_option
 @json_option
@@ -137,6 +137,8 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, week, weeks, remelt_
 
 
 def _what_if_text(r: dict) -> str:
+    from tracker.assess import rule_words
+
     rows = [{"figure": k.replace("_", " "), "now": r.get(k + "_now"), "changed": r[k]} for k in
             ("modulus_ratio", "caine_margin", "feed_margin")]
     rows += [{"figure": "shrinkage rate, observed", "now": _pct(r["observed_rate"], 2), "changed": None},
@@ -151,7 +153,8 @@ def _what_if_text(r: dict) -> str:
     also = [x for x in r["changed_risers"] if x != r["riser"]]
     return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {r['diameter_mm']:.0f} x "
             f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
-            + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + r['failed_rules']}"
+            + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + rule_words(r['failed_rules'])}"
+            + f" (rule set: {r['rule_set'].replace('_', ' ')})"
             f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg\n\n"
             + table(money) + "\npays off: " + ("yes" if r["pays_off"] else "no" if r["changed"] else "- (no change)")
             + (f" (priced with the same change on {', '.join(also)}, which fail the rules on the same zone)"
@@ -179,13 +182,16 @@ def fit_model(alpha, folds, db_path, as_json):
     from tracker.features import aggregate_for_fit, zone_lot_features
     from tracker.model import ShrinkageRejectModel, cross_validate
 
-    with open_store(db_path) as store:
+    with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
+        steps.step("Fitting the reject model")
         model = fit(store, alpha=alpha)
         if model is None:
             raise click.ClickException("the log has no lots under a known riser design; import risers and lots first")
+        steps.step("Reading the features for cross-validation")
         feats = aggregate_for_fit(zone_lot_features(store))
         cv = None
         if feats["pattern"].nunique() >= 2:
+            steps.step(f"Cross-validating ({folds} folds, grouped by pattern)")
             cv = cross_validate(feats, n_splits=folds, model=ShrinkageRejectModel(alpha=alpha))
     coef = model.coefficients_.to_dict("records")
     data = {"fitted_on": model.fitted_on_, "rows": int(model.n_rows_), "castings": int(model.n_castings_),

@@ -6,18 +6,15 @@ import pathlib
 
 import click
 
-from tracker.cli import db_option, emit, handle_errors, main, open_store
+from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, show_progress, target_option,
+                         week_option, weeks_option)
 from tracker.report import FORMATS
 
 
 @main.command()
-@click.option("--week", default=None, metavar="YYYY-Www",
-              help="ISO week to review, e.g. 2026-W47 (default: the week of the latest pour).")
-@click.option("--weeks", type=click.IntRange(1, 520), default=13, show_default=True,
-              help="Weeks of history in the window, the review week included.")
-@click.option("--target", type=float, default=0.02, show_default=True,
-              help="Target reject rate as a fraction (0.02 = 2 %); a pattern whose rate is "
-                   "surely above it is flagged.")
+@week_option
+@weeks_option
+@target_option
 @click.option("--format", "fmt", type=click.Choice(FORMATS), default=None,
               help="Output format [default: table].")
 @click.option("--json", "as_json", is_flag=True, help="Shorthand for --format json.")
@@ -43,9 +40,12 @@ def review(week, weeks, target, fmt, as_json, out_path, db_path):
     from tracker.report import render
     from tracker.review import weekly_review
 
-    with open_store(db_path) as store:
-        data = weekly_review(store, week=week, weeks=weeks, target=target)
-    text = render(data, fmt)
+    with Steps(show_progress(fmt == "json")) as steps:
+        with open_store(db_path) as store:
+            steps.step(f"Reviewing {week or 'the latest week'} ({weeks} weeks)")
+            data = weekly_review(store, week=week, weeks=weeks, target=target)
+        steps.step(f"Writing the {fmt} review")
+        text = render(data, fmt)
     if out_path:
         path = pathlib.Path(out_path)
         try:
