@@ -6,8 +6,8 @@ import pathlib
 
 import click
 
-from tracker.cli import (db_option, emit, handle_errors, main, open_store, plant_option, target_option,
-                          week_option, weeks_option)
+from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, plant_option, show_progress,
+                          target_option, week_option, weeks_option)
 from tracker.report import FORMATS
 
 
@@ -50,13 +50,16 @@ def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, a
     from tracker.report import render, render_plants
     from tracker.review import compare_plants as compare, weekly_review
 
-    with open_store(db_path) as store:
-        if compare_plants:
-            data = compare(store, alloy, week=week, weeks=weeks, target=target)
-            text = render_plants(data, fmt)
-        else:
-            data = weekly_review(store, week=week, weeks=weeks, target=target, plant=plant)
-            text = render(data, fmt)
+    with Steps(show_progress(fmt == "json")) as steps:
+        with open_store(db_path) as store:
+            if compare_plants:
+                steps.step(f"Comparing the plants for {alloy}")
+                data = compare(store, alloy, week=week, weeks=weeks, target=target)
+            else:
+                steps.step(f"Reviewing {week or 'the latest week'} ({weeks} weeks)")
+                data = weekly_review(store, week=week, weeks=weeks, target=target, plant=plant)
+        steps.step(f"Writing the {fmt} review")
+        text = render_plants(data, fmt) if compare_plants else render(data, fmt)
     if out_path:
         path = pathlib.Path(out_path)
         try:
