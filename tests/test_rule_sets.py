@@ -236,8 +236,13 @@ def test_size_from_the_logged_zone_rounds_to_the_step(tmp_path, runner):
                                "--db", str(db), "--json"])
     assert res.exit_code == 0, res.output
     d = json.loads(res.output)
-    # The zone's volume 2000 cm³, area 1100 cm², T 40, W 300, L 150 (tests/data/good).
-    ref = size_riser(2000, 1100, "steel", "side", thickness_mm=40, width_mm=300, length_mm=150)
+    # The zone's volume 2000 cm³, area 1100 cm², T 40, W 300, L 150, and the mean pour
+    # temperature of T-100's lots (tests/data/good), as written in the files.
+    lots = [r.split(",") for r in (GOOD / "lots.csv").read_text().splitlines()[1:]]
+    temps = [float(r[5]) for r in lots if r[1] == "T-100" and len(r) > 5 and r[5]]
+    ref = size_riser(2000, 1100, "steel", "side", thickness_mm=40, width_mm=300, length_mm=150,
+                     pour_temp_c=sum(temps) / len(temps))
+    assert d["pour_temp_c"] == pytest.approx(sum(temps) / len(temps))
     assert d["diameter_mm"] == pytest.approx(ref.diameter_mm)
     assert d["rounded_diameter_mm"] == math.ceil(ref.diameter_mm / 25) * 25
     # Bishop-Pellini plate (W/T = 7.5): 4.5 x 40 = 180 mm >= 150 mm.

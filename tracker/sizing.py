@@ -452,8 +452,9 @@ def round_up_diameter(size: RiserSize, step_mm: float) -> dict:
 
 def size_zone(store, pattern: str, zone: str, **options) -> RiserSize:
     """Size the riser of a stored zone: its volume, cooling area, thickness,
-    width and length, and its pattern's alloy and mould come from the log;
-    ``options`` as :func:`size_riser` (a given one wins over the log's)."""
+    width and length, its pattern's alloy and mould, and the mean pour
+    temperature of the pattern's lots come from the log; ``options`` as
+    :func:`size_riser` (a given one wins over the log's)."""
     z = store.zone(pattern, zone)
 
     def val(key):
@@ -461,7 +462,7 @@ def size_zone(store, pattern: str, zone: str, **options) -> RiserSize:
         return None if v is None or (isinstance(v, float) and math.isnan(v)) else v
 
     logged = {"mould": val("mould"), "thickness_mm": val("thickness_mm"), "width_mm": val("width_mm"),
-              "length_mm": val("length_mm")}
+              "length_mm": val("length_mm"), "pour_temp_c": store.mean_pour_temp(pattern)}
     for k, v in logged.items():
         if options.get(k) is None:
             options[k] = v

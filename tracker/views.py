@@ -222,7 +222,7 @@ DESIGN_COLUMNS = {
 DESIGN_PART = ["revision", "effective from", "riser", "zone", "placement", "top", "diameter (mm)",
                "height (mm)", "sleeve", "riser weight (kg)"]
 MARGIN_PART = ["revision", "riser", "zone", "zone modulus (cm)", "riser modulus (cm)", "modulus ratio",
-               "Caine margin", "feed margin", "rule set", "passes all rules", "failed rules", "notes"]
+               "Caine margin", "feed margin", "passes all rules", "failed rules", "rule set", "notes"]
 
 
 def pattern_summary(store: Store, pattern: str) -> dict:
