@@ -281,3 +281,32 @@ def test_mould_on_the_pattern_reaches_check(tmp_path, mem_store):
     assert got["mould"] == "rigid" and got["rule_set"] == "pressure_control"
     assert got["passes"], got["notes"]
     assert mem_store.table("zones")["width_mm"].tolist() == [250.0]
+
+
+def test_suggest_narrows_a_wide_pressure_control_neck(tmp_path, mem_store):
+    import datetime as dt
+
+    from tracker.advise import suggest
+
+    # A ductile-iron riser with a steel-style 80 mm neck (M_neck = 2.0 cm = 1.1 M_s) and
+    # shrinkage in its zone: pressure control (Karsay, from memory) asks the neck to
+    # freeze as expansion starts, 0.5-0.8 x M_s = 0.91-1.45 cm, i.e. 36-58 mm round.
+    files = {"patterns.csv": "pattern,description,alloy,casting_weight_kg,castings_per_mold,metal_cost_per_kg,"
+                             "mould\nD1,hub,ductile_iron,20,1,1.5,rigid\n",
+             "zones.csv": f"pattern,zone,volume_cm3,cooling_area_cm2\nD1,hub,{VC},{AC}\n",
+             "risers.csv": "pattern,revision,effective_from,riser,zone,placement,top,diameter_mm,height_mm,"
+                           "neck_diameter_mm\nD1,1,2026-01-05,R1,hub,side,blind,110,110,80\n"}
+    lots, insp = ["lot,pattern,poured_on,heat,molds"], ["lot,inspected_on,method,quantity,result,defect,zone"]
+    for i in range(40):
+        day = dt.date(2026, 9, 7) + dt.timedelta(days=i)
+        lots.append(f"L{i},D1,{day},H{i},10")
+        insp.append(f"L{i},{day + dt.timedelta(days=1)},visual,8,accept,,")
+        insp.append(f"L{i},{day + dt.timedelta(days=1)},visual,2,reject,shrinkage,hub")
+    files["lots.csv"], files["inspections.csv"] = "\n".join(lots) + "\n", "\n".join(insp) + "\n"
+    for name, text in files.items():
+        (tmp_path / name).write_text(text)
+    import_dir(mem_store, tmp_path, today=dt.date(2026, 12, 1))
+    s = suggest(mem_store, pattern="D1", week="2026-W42", weeks=13)[0]
+    assert s["rule_set"] == "pressure_control" and s["action"] == "neck"
+    assert 4 * 0.5 * MS * 10 <= s["suggested_neck_diameter_mm"] <= 4 * 0.8 * MS * 10
+    assert s["reason"].startswith("narrow the neck of riser R1") and "fails: neck." in s["reason"]

@@ -162,6 +162,12 @@ def _has_neck(base) -> bool:
     return base["placement"] == "side" and n is not None and n == n and n > 0
 
 
+def _neck_verb(base, cand: dict) -> str:
+    """"narrow" where the candidate's neck is narrower (pressure control), else "widen"."""
+    new, old = cand.get("neck_diameter_mm"), base.get("neck_diameter_mm")
+    return "narrow" if new is not None and old is not None and new == new and new < old else "widen"
+
+
 def _neck_for(base, diameter_mm: float, section_modulus_cm: float):
     """The neck a side riser of ``diameter_mm`` needs: the present one, or the
     one its rule set asks (``sizing.neck_needed_mm``: M_neck = 1.1 · M_section,
@@ -361,16 +367,18 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
         base = zr.iloc[k]
         now = jr.iloc[k]
         w_old = float(riser_w[zr.index[k]])
-        if now["rules_ok"] and _comfortable(now):
+        if now["rules_ok"] and _comfortable(now) and now["neck_ok"] != 0.0:
             hints = []
             if now["feeding_distance_ok"] == 0.0:
                 hints.append(f"the zone's feeding length {now['feeding_length_mm']:.0f} mm is beyond the "
                              f"riser's feeding distance {now['feeding_distance_mm']:.0f} mm: add a riser "
                              "or a chill to shorten it")
             elif pd.isna(now["feeding_distance_ok"]):
-                hints.append("feeding distance was not checked (give the zone's thickness and length)")
+                hints.append("feeding distance was not judged (give the zone's thickness, width and length)")
             if now["neck_ok"] == 0.0:
-                hints.append("the neck freezes before the section: widen it")
+                hints.append("the neck is outside its rule set's range: make its modulus 0.5-0.8 x the "
+                             "section's (pressure control)" if now["rule_set"] == "pressure_control"
+                             else "the neck freezes before the section: widen it")
             hints.append("check pouring temperature and speed, and the riser contact (neck) on the pattern")
             results.append({**_empty_fields(), **common, "riser": base["riser"],
                             "action": "no_riser_change",
@@ -427,7 +435,7 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
                 "sleeve": f"fit sleeve {choice['sleeve']} to riser {base['riser']}",
                 "enlarge_and_sleeve": f"change riser {base['riser']} to sleeve {choice['sleeve']} "
                                       f"({choice['diameter_mm']:.0f} mm)",
-                "neck": f"widen the neck of riser {base['riser']}"}[action]
+                "neck": f"{_neck_verb(base, cands[choice.name])} the neck of riser {base['riser']}"}[action]
         fails = rule_words(now["failed_rules"]) or "none"
         reason = (f"{what}: shrinkage in zone {zone} at {rate:.1%} ({int(z['shrinkage_rejects'])} of "
                   f"{int(z['castings'])} castings); the present riser fails: {fails}. The new one passes "
@@ -435,7 +443,8 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
                   + ("Caine (margin n/a)" if pd.isna(choice['caine_margin'])
                      else f"Caine (margin {choice['caine_margin']:.2f})")
                   + f" and feed volume (margin {choice['feed_margin']:.2f})."
-                  + (f" Widen the neck to {cands[choice.name]['neck_diameter_mm']:.0f} mm with it."
+                  + (f" {_neck_verb(base, cands[choice.name]).capitalize()} the neck to "
+                     f"{cands[choice.name]['neck_diameter_mm']:.0f} mm with it."
                      if action != "neck" and _has_neck(base)
                      and cands[choice.name].get("neck_diameter_mm") != base["neck_diameter_mm"] else "")
                   + (f" Feeding distance: the zone's feeding length {choice['feeding_length_mm']:.0f} mm is "
