@@ -46,6 +46,7 @@ def test_pressure_control_neck_that_passes():
     assert r.rule_set == "pressure_control"
     neck_mm = 4 * 0.65 * MS * 10  # round neck: M = d/4
     assert r.neck_diameter_mm == pytest.approx(neck_mm)
+    assert "Karsay" in r.source and "from memory" in r.source
     got = _judge(diameter_mm=r.diameter_mm, neck_mm=neck_mm, mould="rigid")
     assert got["rule_set"] == "pressure_control"
     assert got["neck_ok"] == 1.0
