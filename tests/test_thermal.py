@@ -303,3 +303,15 @@ def test_case_validation_names_the_field():
         build(ThermalCase("steel", "side", 50, 300, 300, 100, 100, neck_diameter_mm=150))
     with pytest.raises(BadInput, match="sleeve-factor"):
         build(ThermalCase("steel", "side", 50, 300, 300, 100, 100, sleeve_factor=3.0))
+
+
+def test_check_thermal_adds_thermal_ok_and_last_to_freeze(runner, demo_db):
+    result = runner.invoke(main, ["check", "--db", str(demo_db), "--pattern", "P-1004", "--thermal", "--json"])
+    assert result.exit_code == 0, result.output
+    rows = json.loads(result.output)
+    assert rows and all(isinstance(r["thermal_ok"], bool) and r["last_to_freeze"] in ("riser", "section")
+                        for r in rows)
+    plain = runner.invoke(main, ["check", "--db", str(demo_db), "--pattern", "P-1004"])
+    assert "last to freeze" not in plain.output
+    table = runner.invoke(main, ["check", "--db", str(demo_db), "--pattern", "P-1004", "--thermal"])
+    assert "last to freeze" in table.output

@@ -1,0 +1,92 @@
+"""The thermal check where the rules are used: check, what-if and suggest.
+
+Every solve goes through :func:`solve_case`, which keeps recent results (a
+case is a frozen dataclass), so a riser judged twice is solved once.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+import time
+
+import pandas as pd
+
+from tracker.thermal import ThermalCase, ThermalResult, run
+from tracker.thermal.cases import case_from_row, pour_temp_for
+
+# `suggest` checks its risers thermally by default when all problem zones'
+# solves are expected to take at most this long (the issue: "fits in a minute").
+AUTO_BUDGET_S = 60.0
+THERMAL_COLUMNS = ("thermal_ok", "last_to_freeze")
+
+
+@functools.lru_cache(maxsize=128)
+def solve_case(case: ThermalCase, cells_across: int | None = None) -> ThermalResult:
+    """``run(case)``, kept for reuse."""
+    return run(case, cells_across=cells_across)
+
+
+def check_row(row: dict, pour_temp_c: float | None = None, mould: str = "silica_sand") -> ThermalResult:
+    """The thermal check of one riser row (a ``Store.risers_frame`` row or a candidate built from one)."""
+    return solve_case(case_from_row(row, pour_temp_c, mould))
+
+
+def fields(result: ThermalResult) -> dict:
+    """The few figures that go beside a riser's rule margins."""
+    return {"thermal_ok": bool(result.thermal_ok), "last_to_freeze": result.last_to_freeze,
+            "freeze_ratio": _finite(result.freeze_ratio), "isolated_liquid": bool(result.isolated_liquid),
+            "min_niyama": _finite(result.min_niyama)}
+
+
+def _finite(v):
+    return None if v is None or not math.isfinite(v) else float(v)
+
+
+def thermal_columns(store, judged: pd.DataFrame, columns=THERMAL_COLUMNS) -> pd.DataFrame:
+    """``judged`` (rows with pattern, revision, riser) with the thermal check's ``columns``
+    (any of :func:`fields`' keys) added."""
+    out = judged.copy()
+    for c in columns:
+        out[c] = None
+    if judged.empty:
+        return out
+    rows = pd.concat([store.risers_frame(pattern=p) for p in judged["pattern"].unique()], ignore_index=True)
+    rows = rows.set_index(["pattern", "revision", "riser"])
+    temps = {}
+    for i, r in judged.iterrows():
+        key = (r["pattern"], r["revision"], r["riser"])
+        row = rows.loc[key].to_dict()
+        row.update(zip(("pattern", "revision", "riser"), key))
+        if r["pattern"] not in temps:
+            temps[r["pattern"]] = pour_temp_for(store, r["pattern"], row["alloy"])
+        found = fields(check_row(row, temps[r["pattern"]]))
+        for k in columns:
+            out.at[i, k] = found[k]
+    return out
+
+
+@functools.lru_cache(maxsize=1)
+def reference_solve_s() -> float:
+    """Wall time of one solve at the default resolution on this machine (measured once)."""
+    case = ThermalCase("steel", "top", 50.0, 300.0, 300.0, 155.0, 155.0)
+    t0 = time.perf_counter()
+    run(case, keep_maps=False)
+    return time.perf_counter() - t0
+
+
+def auto_enabled(zones: int, budget_s: float = AUTO_BUDGET_S) -> bool:
+    """Whether ``zones`` solves are expected to fit in ``budget_s``."""
+    return zones == 0 or zones * reference_solve_s() <= budget_s
+
+
+def first_passing(rows: list[dict], pour_temp_c: float | None = None) -> tuple[int | None, list]:
+    """Index of the first row (in the caller's order of preference) that passes
+    the thermal check, and the results solved on the way (None where none passes)."""
+    results = []
+    for i, row in enumerate(rows):
+        r = check_row(row, pour_temp_c)
+        results.append(r)
+        if r.thermal_ok:
+            return i, results
+    return None, results
