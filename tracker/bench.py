@@ -18,6 +18,9 @@ a floor or a plain alternative:
 - ``sizing``: ``size_risers`` against ``size_riser`` (scipy's brentq) in a
   Python loop, with the largest difference in diameter;
 - ``suggestions``: ``suggest`` for every problem pattern, model fit included;
+- ``thermal_solve``: one thermal solve at the default resolution (target 5 s,
+  500 MB); ``thermal_suggestions``: the thermal check of every suggestion's
+  proposed riser;
 - ``dashboard_*``: first render and a rerun of the weekly review and design
   map pages with Streamlit's AppTest, where those pages exist.
 
@@ -67,10 +70,12 @@ TARGETS = {  # name -> (kind, limit); "ratio_max": ours/baseline <= limit, "spee
     "review_52w": ("seconds_max", 2.0),
     "sizing": ("speedup_min", 50.0),
     "suggestions": ("seconds_max", 30.0),
+    "thermal_solve": ("seconds_max", 5.0),
     "dashboard_review": ("seconds_max", 3.0),
     "dashboard_design_map": ("seconds_max", 3.0),
 }
 IMPORT_MEMORY_MB = 1024.0
+THERMAL_MEMORY_MB = 500.0
 SIZING_TOLERANCE_MM = 0.01
 
 # --- the invented foundry ---------------------------------------------------------------
@@ -589,6 +594,30 @@ def _c_suggest(db: str, week: str) -> dict:
             "peak_rss_mb": _peak_mb()}
 
 
+def _c_thermal_solve() -> dict:
+    from tracker.thermal import ThermalCase, run
+
+    # the README's worked example: a 155 mm top riser on a 300 x 300 x 50 mm steel plate
+    case = ThermalCase("steel", "top", 50.0, 300.0, 300.0, 155.0, 155.0)
+    secs, r = _timed(run, case, keep_maps=False)
+    return {"ours_s": secs, "cells": r.cells, "grid": list(r.grid), "time_step_s": r.time_step_s,
+            "steps": r.steps, "thermal_ok": r.thermal_ok, "peak_rss_mb": _peak_mb()}
+
+
+def _c_thermal_suggestions(db: str, week: str) -> dict:
+    from tracker.advise import suggest
+    from tracker.store import Store
+    from tracker.thermal.checks import check_suggestions
+
+    with Store(db, create=False) as store:
+        found = suggest(store, week=week)
+        secs, checks = _timed(check_suggestions, store, found)
+    done = [c for c in checks if c is not None]
+    return {"ours_s": secs, "suggestions": len(found), "solves": len(done),
+            "thermal_ok": sum(c["thermal_ok"] for c in done),
+            "per_solve_s": secs / len(done) if done else None, "peak_rss_mb": _peak_mb()}
+
+
 def _dashboard_pages() -> dict:
     """The weekly review and design map page files, where they exist."""
     root = pathlib.Path(__file__).resolve().parents[1] / "dashboard"
@@ -710,6 +739,17 @@ def run(lots: int = DEFAULT_LOTS, *, keep: str | os.PathLike | None = None, seed
                                  note="suggest(refit=True) for every problem pattern of the review "
                                       "week's 13-week window, the model fit included", **sg))
 
+        th = _in_child(_c_thermal_solve)
+        m = _measure("thermal_solve", th.pop("ours_s"), None, th.pop("peak_rss_mb"),
+                     memory_target=f"peak RSS < {THERMAL_MEMORY_MB:g} MB",
+                     note="one thermal solve at the default resolution (README's worked example)", **th)
+        m["met"] = bool(m["met"] and m["peak_rss_mb"] < THERMAL_MEMORY_MB)
+        measures.append(m)
+        ts = _in_child(_c_thermal_suggestions, str(ours_db), gen["review_week"])
+        measures.append(_measure("thermal_suggestions", ts.pop("ours_s"), None, ts.pop("peak_rss_mb"),
+                                 note="the thermal check of every suggestion's proposed riser "
+                                      "(suggest itself not timed)", **ts))
+
         pages = _dashboard_pages() if dashboard else {}
         for name in ("dashboard_review", "dashboard_design_map"):
             if name not in pages:
@@ -787,6 +827,13 @@ def format_report(report: dict) -> str:
         if x["name"] == "suggestions" and x.get("ours_s") is not None:
             lines.append(f"suggestions: {x['suggestions']} for {x['problem_patterns']} problem patterns "
                          f"({x['riser_changes']} riser changes), model fit included")
+        if x["name"] == "thermal_solve" and x.get("cells") is not None:
+            lines.append(f"thermal_solve: grid {x['grid'][0]} x {x['grid'][1]} = {x['cells']:,} cells, "
+                         f"time step {x['time_step_s']:.2f} s, {x['steps']} steps; {x['memory_target']}")
+        if x["name"] == "thermal_suggestions" and x.get("suggestions") is not None:
+            per = "-" if x["per_solve_s"] is None else _fmt_s(x["per_solve_s"])
+            lines.append(f"thermal_suggestions: {x['solves']} proposed risers of {x['suggestions']} "
+                         f"suggestions solved ({per} each), {x['thermal_ok']} pass the thermal check")
         if x["name"].startswith("dashboard") and x.get("first_s") is not None:
             lines.append(f"{x['name']}: {x['page']}: first render {_fmt_s(x['first_s'])}, rerun "
                          f"{_fmt_s(x['rerun_s'])}" + (f"; errors: {x['errors']}" if x["errors"] else ""))

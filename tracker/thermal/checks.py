@@ -90,3 +90,29 @@ def first_passing(rows: list[dict], pour_temp_c: float | None = None) -> tuple[i
         if r.thermal_ok:
             return i, results
     return None, results
+
+
+def suggestion_row(store, suggestion: dict) -> dict | None:
+    """The riser row a suggestion proposes (None where it proposes no riser)."""
+    s = suggestion
+    if s.get("suggested_diameter_mm") is None or not s.get("riser"):
+        return None
+    rows = store.risers_frame(pattern=s["pattern"], revision=s["revision"])
+    row = rows[rows["riser"] == s["riser"]].iloc[0].to_dict()
+    row.update(diameter_mm=s["suggested_diameter_mm"],
+               height_mm=s.get("suggested_height_mm") or row["height_mm"])
+    sleeve = s.get("suggested_sleeve")
+    row["sleeve_factor"] = float(store.sleeve(sleeve)["modulus_factor"]) if sleeve else None
+    if s.get("suggested_neck_diameter_mm") is not None:
+        row["neck_diameter_mm"] = s["suggested_neck_diameter_mm"]
+    return row
+
+
+def check_suggestions(store, suggestions: list[dict]) -> list[dict | None]:
+    """The thermal check (``fields``) of each suggestion's proposed riser, None where it proposes none."""
+    out = []
+    for s in suggestions:
+        row = suggestion_row(store, s)
+        out.append(None if row is None else
+                   fields(check_row(row, pour_temp_for(store, s["pattern"], row["alloy"]))))
+    return out
