@@ -14,29 +14,29 @@ from dashboard import charts, common
 def show(view: dict, key: str) -> None:
     """Draw one thermal result (``tracker.thermal.views.view``)."""
     s = view["summary"]
-    c = st.columns(5)
+    c = st.columns(3)
     c[0].metric("Thermal check", "pass" if s["thermal_ok"] else "fail")
     c[1].metric("Last to freeze", s["last_to_freeze"])
     c[2].metric("Freezing ratio riser / section", f"{s['freeze_ratio']:.2f}")
-    c[3].metric("Section / riser freezing (min)",
-                f"{s['section_freeze_s'] / 60:.1f} / {s['riser_freeze_s'] / 60:.1f}")
+    c = st.columns(3)
+    c[0].metric("Section freezing (min)", f"{s['section_freeze_s'] / 60:.1f}")
+    c[1].metric("Riser freezing (min)", f"{s['riser_freeze_s'] / 60:.1f}")
     ny = "-" if s["min_niyama"] is None else f"{s['min_niyama']:.2f}"
     thr = "no threshold" if s["niyama_threshold"] is None else f"threshold {s['niyama_threshold']:g}"
-    c[4].metric(f"Minimum Niyama {s['niyama_unit']}", ny, help=f"{thr}; {s['niyama_source']}")
+    c[2].metric("Minimum Niyama", ny, help=f"{s['niyama_unit']}; {thr}; {s['niyama_source']}")
     if s["reasons"]:
         st.warning(common.md_escape("Fails: " + "; ".join(s["reasons"]) + "."))
-    left, right = st.columns(2)
-    with left:
-        st.markdown("**Freezing time** (min; + marks the last point to freeze; the narrow box beside a "
-                    "sleeved riser is its sleeve)")
-        st.altair_chart(charts.thermal_freezing_map(view["cells"], view["outline"], s["last_point_mm"],
-                                                    s["x_label"]), key=f"{key}_freeze")
-    with right:
-        st.markdown(f"**Niyama in the section** ({s['niyama_unit']}"
-                    + ("" if s["niyama_threshold"] is None
-                       else f"; orange: below the threshold {s['niyama_threshold']:g}") + ")")
-        st.altair_chart(charts.thermal_niyama_map(view["cells"], view["outline"], s["niyama_threshold"],
-                                                  s["niyama_unit"], s["x_label"]), key=f"{key}_niyama")
+    # stacked, each at its own width: the maps keep one mm scale on both axes
+    st.markdown("**Freezing time** (min; + marks the last point to freeze; the narrow box beside a "
+                "sleeved riser is its sleeve)")
+    st.altair_chart(charts.thermal_freezing_map(view["cells"], view["outline"], s["last_point_mm"],
+                                                s["x_label"]), key=f"{key}_freeze", width="content")
+    st.markdown(f"**Niyama in the section** ({s['niyama_unit']}"
+                + ("" if s["niyama_threshold"] is None
+                   else f"; orange: below the threshold {s['niyama_threshold']:g}") + ")")
+    st.altair_chart(charts.thermal_niyama_map(view["cells"], view["outline"], s["niyama_threshold"],
+                                              s["niyama_unit"], s["x_label"]), key=f"{key}_niyama",
+                    width="content")
     st.caption(common.md_escape(
         f"{s['model'].capitalize()} model, {s['grid'][0]} × {s['grid'][1]} = {s['cells']:,} cells "
         f"({s['cell_mm']:.1f} mm in the section), time step {s['time_step_s']:.1f} s, pouring at "
