@@ -14,7 +14,7 @@ from dashboard import access, common
 
 st.set_page_config(page_title="Pourback", page_icon=":material/insights:", layout="wide")
 
-# file, title, icon, address; the first is the start page
+# file, title, icon, address; "/" opens the first (through HOME below)
 SPECS = [
     ("log_results.py", "Log results", ":material/edit_note:", "log"),
     ("weekly_review.py", "Weekly review", ":material/calendar_view_week:", "review"),
@@ -22,17 +22,29 @@ SPECS = [
     ("pattern_file.py", "Pattern file", ":material/folder_open:", "pattern"),
     ("suggestions.py", "Suggestions", ":material/tune:", "suggestions"),
 ]
+HOME_URL = "home"  # the hidden start page at "/" (see HOME below)
 TEAM = ("team.py", "Team", ":material/group:", "team")  # admins, signed in
 
 # Served with sign-in, a visitor sees the sign-in form and nothing else until signed in.
-if not access.gate(common.db_path(), [url for *_, url in (*SPECS, TEAM)]):
+if not access.gate(common.db_path(), [HOME_URL, *(url for *_, url in (*SPECS, TEAM))]):
     st.stop()
 if access.session() is not None and access.can("users"):
     SPECS.append(TEAM)
-PAGES = [st.Page(file, title=title, icon=icon, url_path=url, default=i == 0)
-         for i, (file, title, icon, url) in enumerate(SPECS)]
+PAGES = [st.Page(file, title=title, icon=icon, url_path=url) for file, title, icon, url in SPECS]
+LOG = PAGES[0]
 
-page = st.navigation(PAGES)
+
+def _home() -> None:
+    st.switch_page(LOG)
+
+
+# Streamlit serves its default page at "/" whatever its url_path, so "/log" would be
+# "page not found": the default is a hidden page that moves on to /log, and every
+# visible page keeps its own address.
+HOME = st.Page(_home, title="Pourback", url_path=HOME_URL, default=True, visibility="hidden")
+
+page = st.navigation([HOME, *PAGES])
+common.style()
 
 with common.guard():
     page.run()

@@ -62,6 +62,26 @@ class NotFound(PourbackError, LookupError):
         super().__init__(msg + (f"; {hint}" if hint else ""))
 
 
+class LogLocked(PourbackError):
+    """The log stayed locked by another writer longer than the busy timeout."""
+
+
+class MissingColumn(PourbackError, ValueError):
+    """A feature table lacks columns the shrinkage model needs."""
+
+    def __init__(self, missing, needed, table: str = "features"):
+        self.missing = list(missing)
+        self.needed = list(needed)
+        names = ", ".join(repr(c) for c in self.missing)
+        super().__init__(
+            f"{table}: missing column(s) {names}; the shrinkage model needs columns "
+            f"{', '.join(self.needed)} (the design engine adds them to each lot and zone)")
+
+
+class IncompatibleModel(PourbackError, ValueError):
+    """A saved model blob cannot be loaded by this install."""
+
+
 class PermissionDenied(PourbackError, PermissionError):
     """The signed-in user's role may not do what was asked; nothing was written."""
 

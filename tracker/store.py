@@ -25,7 +25,7 @@ import sqlite_utils
 
 from tracker import auth
 from tracker.alloys import ALLOYS
-from tracker.errors import NotFound, PourbackError
+from tracker.errors import LogLocked, NotFound, PourbackError
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
@@ -58,10 +58,6 @@ KEYS = {
     "lots": ["lot"],
     "inspections": ["record_key"],
 }
-
-
-class LogLocked(PourbackError):
-    """The log stayed locked by another writer longer than the busy timeout."""
 
 
 def resolve_path(path: str | os.PathLike | None = None) -> str:
@@ -693,6 +689,11 @@ class Store:
         r = self.conn.execute("SELECT (SELECT MIN(poured_on) FROM lots), "
                               "(SELECT MAX(poured_on) FROM lots)").fetchone()
         return r[0], r[1]
+
+    def last_pour_before(self, day: str) -> str | None:
+        """The newest pour date before ``day`` (ISO string), or None (from the pour-date index)."""
+        return self.conn.execute("SELECT MAX(poured_on) FROM lots WHERE poured_on < ?",
+                                 (str(day),)).fetchone()[0]
 
     def rejects_by_pattern(self, start: str, end: str) -> pd.DataFrame:
         """Castings rejected (current records) per pattern in lots poured from

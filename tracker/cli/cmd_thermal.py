@@ -50,8 +50,7 @@ def thermal(pattern, zone, riser, alloy, length_mm, width_mm, thickness_mm, diam
 
         pourback thermal --pattern P-1004 --zone body
 
-        pourback thermal --alloy steel --length-mm 300 --width-mm 300 --thickness-mm 50
-            --diameter-mm 155 --height-mm 155 --placement top
+        pourback thermal --alloy steel --length-mm 300 --width-mm 300 --thickness-mm 50 --diameter-mm 155 --height-mm 155 --placement top
     """
     from tracker.thermal import run
     from tracker.thermal.cases import case_from_log
