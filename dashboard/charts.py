@@ -194,14 +194,14 @@ def margins(df: pd.DataFrame) -> alt.Chart:
 
 # --- thermal check ------------------------------------------------------------------
 
-def _thermal_frame(cells: pd.DataFrame, x_title: str, width: int = 420):
+def _thermal_frame(cells: pd.DataFrame, x_title: str, width: int = 520):
     """Axes in mm at one scale for x and z, so the bodies keep their shape."""
     x0, x1 = float(cells["x0"].min()), float(cells["x1"].max())
     z0, z1 = float(cells["z0"].min()), float(cells["z1"].max())
     pad = 0.04 * max(x1 - x0, z1 - z0)
     x0, x1, z0, z1 = x0 - pad, x1 + pad, z0 - pad, z1 + pad
-    height = int(min(max(width * (z1 - z0) / (x1 - x0), 120), 520))
-    width = int(height * (x1 - x0) / (z1 - z0)) if height in (120, 520) else width
+    height = int(min(max(width * (z1 - z0) / (x1 - x0), 120), 600))
+    width = int(height * (x1 - x0) / (z1 - z0)) if height in (120, 600) else width
     x = alt.Scale(domain=[x0, x1], nice=False, zero=False)
     z = alt.Scale(domain=[z0, z1], nice=False, zero=False)
     return x, z, width, height
