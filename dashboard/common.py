@@ -54,7 +54,8 @@ def _registry() -> dict:
 def _thermal_registry() -> dict:
     from tracker.thermal import views as thermal_views
 
-    return {"pattern_thermal": thermal_views.pattern_thermal}
+    return {"pattern_thermal": thermal_views.pattern_thermal,
+            "what_if_thermal": thermal_views.what_if_view}
 
 
 def db_path() -> str:

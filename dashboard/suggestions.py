@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboard import access, charts, common
+from dashboard import access, charts, common, thermal_view
 from tracker import views
 
 NUMBER = st.column_config.NumberColumn
@@ -109,6 +109,7 @@ def what_if(found: list[dict]) -> None:
     if failed:
         st.caption(common.md_escape("Rules failed: " + ", ".join(f.replace("_", " ") for f in failed) + "."))
     st.altair_chart(charts.margins(views.what_if_margins(result)), width="stretch", key="whatif_chart")
+    thermal_view.what_if_section(result)
 
 
 def main() -> None:

@@ -58,3 +58,15 @@ def pattern_section(code: str) -> None:
     for tab, v in zip(tabs, views):
         with tab:
             show(v, f"thermal_{v['riser']}")
+
+
+def what_if_section(result: dict) -> None:
+    """The thermal check of a what-if's changed riser (on request: it solves)."""
+    st.markdown("**Thermal check**")
+    if not st.toggle("Solve the changed riser and its zone (a few seconds)", key="whatif_thermal"):
+        return
+    keep = {k: result.get(k) for k in ("pattern", "revision", "riser", "diameter_mm", "height_mm", "sleeve",
+                                       "neck_diameter_mm")}
+    with st.spinner("Solving..."):
+        view = common.load("what_if_thermal", keep)
+    show(view, "whatif_thermal")

@@ -298,9 +298,12 @@ def test_cli_from_the_log(runner, demo_db):
     assert result.exit_code != 0 and "unknown zone 'nope'" in result.output
 
 
-def test_case_validation_names_the_field():
-    with pytest.raises(BadInput, match="neck-diameter-mm"):
-        build(ThermalCase("steel", "side", 50, 300, 300, 100, 100, neck_diameter_mm=150))
+def test_case_validation_names_the_field(runner):
+    result = runner.invoke(main, _ARGS + ["--neck-diameter-mm", "200"])
+    assert result.exit_code != 0 and "neck-diameter-mm: got 200.0; a neck wider than the riser" in result.output
+    # a stored riser whose neck is wider than a smaller what-if diameter: narrowed, and said so
+    b = build(ThermalCase("steel", "side", 50, 300, 300, 100, 100, neck_diameter_mm=150))
+    assert any("wider than the riser" in n for n in b.notes)
     with pytest.raises(BadInput, match="sleeve-factor"):
         build(ThermalCase("steel", "side", 50, 300, 300, 100, 100, sleeve_factor=3.0))
 
@@ -315,3 +318,14 @@ def test_check_thermal_adds_thermal_ok_and_last_to_freeze(runner, demo_db):
     assert "last to freeze" not in plain.output
     table = runner.invoke(main, ["check", "--db", str(demo_db), "--pattern", "P-1004", "--thermal"])
     assert "last to freeze" in table.output
+
+
+def test_what_if_thermal_adds_the_changed_risers_check(runner, demo_db):
+    args = ["what-if", "--db", str(demo_db), "--pattern", "P-1004", "--riser", "R2"]
+    small = json.loads(runner.invoke(main, args + ["--diameter-mm", "80", "--thermal", "--json"]).output)
+    big = json.loads(runner.invoke(main, args + ["--diameter-mm", "160", "--thermal", "--json"]).output)
+    # Chvorinov's rule (1940): a much smaller riser freezes before its section, a much larger one after it
+    assert small["last_to_freeze"] == "section" and small["thermal_ok"] is False
+    assert big["last_to_freeze"] == "riser" and big["thermal_ok"] is True
+    plain = json.loads(runner.invoke(main, args + ["--diameter-mm", "160", "--json"]).output)
+    assert "thermal_ok" not in plain

@@ -40,3 +40,16 @@ def test_pattern_file_thermal_view_draws_maps_and_the_caution(app_demo_db, monke
     assert any({"rect", "rule", "point"} <= set(_marks(s)) for s in maps)
     # the caution as a reader sees it (markdown escapes removed)
     assert any(THERMAL_CAUTION in re.sub(r"\\(.)", r"\1", i.value) for i in at.info)
+
+
+def test_what_if_thermal_view_solves_the_changed_riser(app_demo_db, monkeypatch):
+    monkeypatch.setenv("POURBACK_DB", str(app_demo_db))
+    at = AppTest.from_file(str(APP), default_timeout=180)
+    at.run()
+    at.switch_page("suggestions.py").run()
+    assert not at.exception, [e.value for e in at.exception]
+    at.toggle(key="whatif_thermal").set_value(True).run()
+    assert not at.exception, [e.value for e in at.exception]
+    assert "Thermal check" in [m.label for m in at.metric]
+    specs = [json.loads(el.proto.spec) for el in at.get("vega_lite_chart")]
+    assert any({"rect", "rule", "point"} <= set(_marks(s)) for s in specs)

@@ -75,10 +75,12 @@ def _format(rows: list[dict]) -> str:
 @click.option("--height-mm", type=float, default=None, help="New height, mm.")
 @click.option("--sleeve", default="keep", show_default=True,
               help="Catalogue sleeve code, 'none' for a bare riser, or keep.")
+@click.option("--thermal", is_flag=True,
+              help="Add the thermal check of the changed riser (a solidification solve): thermal_ok, last_to_freeze.")
 @db_option
 @json_option
 @handle_errors
-def what_if(pattern, riser, diameter_mm, height_mm, sleeve, db_path, as_json):
+def what_if(pattern, riser, diameter_mm, height_mm, sleeve, thermal, db_path, as_json):
     """Show the margins, predicted rate and yield of a changed riser.
 
     Example:
@@ -89,6 +91,11 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, db_path, as_json):
 
     with open_store(db_path) as store:
         r = run(store, pattern, riser, diameter_mm=diameter_mm, height_mm=height_mm, sleeve=sleeve)
+        if thermal:
+            from tracker.thermal.checks import what_if_fields
+
+            t = what_if_fields(store, r)
+            r.update(thermal_ok=t["thermal_ok"], last_to_freeze=t["last_to_freeze"])
 
     def human(r):
         rows = [{"figure": k, "now": r.get(k + "_now"), "changed": r[k]} for k in
@@ -97,7 +104,9 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, db_path, as_json):
         return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {r['diameter_mm']:.0f} x "
                 f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
                 + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + r['failed_rules']}"
-                f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg\n\n" + caution_text())
+                f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg"
+                + (f"\nthermal check: {'pass' if r['thermal_ok'] else 'fail'}, last to freeze: "
+                   f"{r['last_to_freeze']}" if "thermal_ok" in r else "") + "\n\n" + caution_text())
     emit(r, as_json, human)
 
 

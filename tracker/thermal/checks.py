@@ -27,6 +27,13 @@ def solve_case(case: ThermalCase, cells_across: int | None = None) -> ThermalRes
     return run(case, cells_across=cells_across)
 
 
+def row_fields(store, row: dict) -> dict:
+    """``fields`` of one riser row, with the pattern's pouring temperature, and its case
+    (``thermal_case``, a plain dict the dashboard's view takes)."""
+    case = case_from_row(row, pour_temp_for(store, row["pattern"], row["alloy"]))
+    return {**fields(solve_case(case)), "thermal_case": case.to_dict()}
+
+
 def check_row(row: dict, pour_temp_c: float | None = None, mould: str = "silica_sand") -> ThermalResult:
     """The thermal check of one riser row (a ``Store.risers_frame`` row or a candidate built from one)."""
     return solve_case(case_from_row(row, pour_temp_c, mould))
@@ -92,20 +99,40 @@ def first_passing(rows: list[dict], pour_temp_c: float | None = None) -> tuple[i
     return None, results
 
 
+def changed_row(store, pattern: str, revision: str, riser: str, diameter_mm: float,
+                height_mm: float | None = None, sleeve: str | None = None,
+                neck_diameter_mm: float | None = None) -> dict:
+    """The stored riser row with a changed diameter, height, sleeve (catalogue code or
+    None for bare) and, where given, neck."""
+    rows = store.risers_frame(pattern=pattern, revision=revision)
+    hit = rows[rows["riser"] == riser]
+    if hit.empty:
+        from tracker.errors import NotFound
+
+        raise NotFound("riser", riser, f"{pattern} revision {revision} has " + ", ".join(rows["riser"]))
+    row = hit.iloc[0].to_dict()
+    row.update(diameter_mm=float(diameter_mm), height_mm=float(height_mm or row["height_mm"]))
+    row["sleeve_factor"] = float(store.sleeve(sleeve)["modulus_factor"]) if sleeve else None
+    if neck_diameter_mm is not None:
+        row["neck_diameter_mm"] = float(neck_diameter_mm)
+    return row
+
+
+def what_if_fields(store, result: dict) -> dict:
+    """``row_fields`` of the changed riser of a what-if result (``tracker.advise.what_if``)."""
+    row = changed_row(store, result["pattern"], result["revision"], result["riser"], result["diameter_mm"],
+                      result.get("height_mm"), result.get("sleeve"), result.get("neck_diameter_mm"))
+    return row_fields(store, row)
+
+
 def suggestion_row(store, suggestion: dict) -> dict | None:
     """The riser row a suggestion proposes (None where it proposes no riser)."""
     s = suggestion
     if s.get("suggested_diameter_mm") is None or not s.get("riser"):
         return None
-    rows = store.risers_frame(pattern=s["pattern"], revision=s["revision"])
-    row = rows[rows["riser"] == s["riser"]].iloc[0].to_dict()
-    row.update(diameter_mm=s["suggested_diameter_mm"],
-               height_mm=s.get("suggested_height_mm") or row["height_mm"])
-    sleeve = s.get("suggested_sleeve")
-    row["sleeve_factor"] = float(store.sleeve(sleeve)["modulus_factor"]) if sleeve else None
-    if s.get("suggested_neck_diameter_mm") is not None:
-        row["neck_diameter_mm"] = s["suggested_neck_diameter_mm"]
-    return row
+    return changed_row(store, s["pattern"], s["revision"], s["riser"], s["suggested_diameter_mm"],
+                       s.get("suggested_height_mm"), s.get("suggested_sleeve"),
+                       s.get("suggested_neck_diameter_mm"))
 
 
 def check_suggestions(store, suggestions: list[dict]) -> list[dict | None]:

@@ -72,3 +72,11 @@ def pattern_thermal(store, pattern: str) -> list[dict]:
         res = solve_case(case_from_row(row, pour_temp_for(store, pattern, row["alloy"])))
         out.append({"riser": row["riser"], "zone": row["zone"], **view(res)})
     return out
+
+
+def what_if_view(store, result: dict) -> dict:
+    """The thermal view of a what-if's changed riser (``tracker.advise.what_if``'s result)."""
+    from tracker.thermal.checks import solve_case, what_if_fields
+    from tracker.thermal.model import ThermalCase
+
+    return view(solve_case(ThermalCase(**what_if_fields(store, result)["thermal_case"])))
