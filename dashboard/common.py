@@ -38,6 +38,7 @@ def _registry() -> dict:
         "pattern_weekly": views.pattern_weekly,
         "pattern_summary": views.pattern_summary,
         "risers_by_revision": views.risers_by_revision,
+        "pattern_zones": views.pattern_zones,
         "revision_marks": views.revision_marks,
         "caine_curve": views.caine_curve,
         "riser_options": views.riser_options,

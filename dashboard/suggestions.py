@@ -6,6 +6,7 @@ import streamlit as st
 
 from dashboard import access, charts, common, thermal_view
 from tracker import views
+from tracker.assess import rule_words
 
 NUMBER = st.column_config.NumberColumn
 KEEP, BARE = "keep", "none"
@@ -95,7 +96,7 @@ def what_if(found: list[dict]) -> None:
                 delta=delta(result["feed_margin"], result["feed_margin_now"]))
     failed = [r for r in result["failed_rules"].split(",") if r]
     c[3].metric("Rules", "all pass" if result["passes"] else f"{len(failed)} failed",
-                help=None if result["passes"] else "failed: " + ", ".join(failed))
+                help=None if result["passes"] else "failed: " + rule_words(failed))
     c = st.columns(4)
     now, new = result.get("predicted_rate_now"), result.get("predicted_rate")
     c[0].metric("Predicted shrinkage rate", common.pct(None if new is None else 100 * new, 2),

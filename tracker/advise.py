@@ -31,12 +31,12 @@ import numpy as np
 import pandas as pd
 
 from tracker import geometry, limits, rules
-from tracker.assess import assess_frame, revision_in_effect
+from tracker.assess import assess_frame, revision_in_effect, rule_words
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadInput, NotFound
 from tracker.features import aggregate_for_fit, zone_lot_features
 from tracker.model import ShrinkageRejectModel
-from tracker.sizing import size_riser
+from tracker.sizing import neck_needed_mm, size_riser
 from tracker.stats import week_start, wilson_interval
 from tracker.store import Store
 
@@ -138,14 +138,17 @@ def _judge(rows: list[dict], model, pour_temp_dev_c: float = 0.0) -> pd.DataFram
     a = assess_frame(frame)
     a["thickness_mm"] = frame["thickness_mm"].astype(float).to_numpy()
     a["pour_temp_dev_c"] = pour_temp_dev_c
-    a["rules_ok"] = a["modulus_ok"] & a["feed_ok"] & (a["caine_ok"].fillna(1.0) == 1.0)
+    a["rules_ok"] = (a["modulus_ok"] & a["feed_ok"] & (a["caine_ok"].fillna(1.0) == 1.0)
+                     & ~a["oversized"].astype(bool))
     a["predicted_rate"] = model.predict_rate(a) if model is not None else np.nan
     a["sleeve_unit_cost"] = frame["sleeve_unit_cost"].astype(float).fillna(0.0).to_numpy()
     return a
 
 
 def _comfortable(r) -> bool:
-    return (r["modulus_ratio"] >= rules.DEFAULT_MODULUS_FACTOR * COMFORT["modulus_ratio"]
+    # the ratio the riser's own rule set asks (pressure control for ductile iron asks less)
+    return (r["modulus_ratio"] >= r.get("modulus_required_ratio", rules.DEFAULT_MODULUS_FACTOR)
+            * COMFORT["modulus_ratio"]
             and (pd.isna(r["caine_margin"]) or r["caine_margin"] >= COMFORT["caine_margin"])
             and r["feed_margin"] >= COMFORT["feed_margin"])
 
@@ -160,16 +163,16 @@ def _has_neck(base) -> bool:
 
 
 def _neck_for(base, diameter_mm: float, section_modulus_cm: float):
-    """The neck a side riser of ``diameter_mm`` needs: the present one, or
-    widened to M_neck = 1.1 · M_section (d = 4.4 · M_section, in 5 mm steps)
+    """The neck a side riser of ``diameter_mm`` needs: the present one, or the
+    one its rule set asks (``sizing.neck_needed_mm``: M_neck = 1.1 · M_section,
+    or inside 0.5-0.8 · M_section under pressure control), in 5 mm steps,
     while it stays narrower than the riser."""
     if not _has_neck(base):
         return "keep"
-    need = _round_up(4.0 * rules.NECK_FACTOR * section_modulus_cm * 10.0, NECK_STEP_MM)
-    now = float(base["neck_diameter_mm"])
-    if now >= need:
+    need = neck_needed_mm(base["alloy"], section_modulus_cm, float(base["neck_diameter_mm"]))
+    if need is None:
         return "keep"
-    return min(need, diameter_mm - NECK_STEP_MM)
+    return min(_round_up(need, NECK_STEP_MM), diameter_mm - NECK_STEP_MM)
 
 
 def _candidates(base: pd.Series, sleeves: pd.DataFrame, model, target: float, step_mm: float) -> list[dict]:
@@ -186,7 +189,8 @@ def _candidates(base: pd.Series, sleeves: pd.DataFrame, model, target: float, st
     sleeved = isinstance(base.get("sleeve"), str) and base.get("sleeve")
     if not sleeved:
         need = size_riser(vc, ac, base["alloy"], base["placement"], hd, 1.0,
-                          efficiency=float(base["bare_efficiency"]), shrinkage=float(base["shrinkage"]))
+                          efficiency=float(base["bare_efficiency"]), shrinkage=float(base["shrinkage"]),
+                          mould=base.get("mould"))
         d = max(_round_up(need.diameter_mm, step_mm), _round_up(d0 + step_mm * 0.5, step_mm))
         cap = max(d, MAX_GROWTH * d0)
         while d <= cap + 1e-9:
@@ -216,7 +220,8 @@ def _neck_candidate(base: pd.Series, judged: pd.Series) -> dict | None:
     if not _has_neck(base):
         return None
     mc = judged["section_modulus_cm"]
-    d = _round_up(4.0 * rules.NECK_FACTOR * mc * 10.0, NECK_STEP_MM)  # M_neck = d/4 >= 1.1 M_c
+    need = neck_needed_mm(base["alloy"], mc)  # the rule set's neck, d = 4 M_neck
+    d = _round_up(need, NECK_STEP_MM)
     if d / 40.0 >= judged["riser_modulus_cm"] or d >= float(base["diameter_mm"]):
         return None
     row = _candidate_row(base, neck_diameter_mm=d)
@@ -347,6 +352,7 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
         jr = judged_now[judged_now["zone"] == zone]
         lo, hi = wilson_interval(int(z["shrinkage_rejects"]), int(z["castings"]))
         common = {**base_out, "zone": zone, "revision": rev, "castings_poured": poured,
+                  "rule_set": jr["rule_set"].iat[0] if len(jr) else None,
                   "zone_castings": int(z["castings"]), "shrinkage_rejects": int(z["shrinkage_rejects"]),
                   "reject_rate": rate, "reject_rate_low": lo, "reject_rate_high": hi,
                   "yield_before": yield_before, "dominant_defect": by_defect.index[0]}
@@ -422,7 +428,7 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
                 "enlarge_and_sleeve": f"change riser {base['riser']} to sleeve {choice['sleeve']} "
                                       f"({choice['diameter_mm']:.0f} mm)",
                 "neck": f"widen the neck of riser {base['riser']}"}[action]
-        fails = now["failed_rules"] or "none"
+        fails = rule_words(now["failed_rules"]) or "none"
         reason = (f"{what}: shrinkage in zone {zone} at {rate:.1%} ({int(z['shrinkage_rejects'])} of "
                   f"{int(z['castings'])} castings); the present riser fails: {fails}. The new one passes "
                   f"modulus (ratio {choice['modulus_ratio']:.2f}), "
@@ -433,7 +439,7 @@ def _suggest_pattern(store, pat, target, start, end, weeks, step_mm, model, slee
                      if action != "neck" and _has_neck(base)
                      and cands[choice.name].get("neck_diameter_mm") != base["neck_diameter_mm"] else "")
                   + (f" Feeding distance: the zone's feeding length {choice['feeding_length_mm']:.0f} mm is "
-                     f"beyond {choice['feeding_distance_mm']:.0f} mm (4.5 T); no riser size fixes that: add a "
+                     f"beyond {choice['feeding_distance_mm']:.0f} mm; no riser size fixes that: add a "
                      "riser or a chill." if choice["feeding_distance_ok"] == 0.0 else "")
                   + _siblings_note(jr, k)
                   + note)
@@ -561,7 +567,7 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
         "modulus_ratio": float(new["modulus_ratio"]), "caine_margin": _nan_none(new["caine_margin"]),
         "feed_margin": float(new["feed_margin"]), "freezing_ratio": float(new["freezing_ratio"]),
         "volume_ratio": float(new["volume_ratio"]), "neck_ok": _nan_none(new["neck_ok"]),
-        "passes": bool(new["passes"]), "failed_rules": new["failed_rules"],
+        "passes": bool(new["passes"]), "failed_rules": new["failed_rules"], "rule_set": new["rule_set"],
         "predicted_rate": _nan_none(new["predicted_rate"]),
         "predicted_rate_now": _nan_none(now["predicted_rate"]),
         "modulus_ratio_now": float(now["modulus_ratio"]), "caine_margin_now": _nan_none(now["caine_margin"]),

@@ -21,7 +21,7 @@ MARGIN_COLS = ["modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "
 FEATURE_COLUMNS = [
     "lot", "pattern", "revision", "zone", "riser", "poured_on", "alloy", "castings", "shrinkage_rejects",
     "modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "freezing_ratio", "sleeve_kind",
-    "pour_temp_dev_c", "thickness_mm", "passes",
+    "pour_temp_dev_c", "thickness_mm", "passes", "rule_set", "modulus_target",
 ]
 
 
@@ -30,7 +30,8 @@ def zone_design(store: Store, pattern=None) -> pd.DataFrame:
     risers = store.risers_frame(pattern=pattern if isinstance(pattern, str) else None)
     if risers.empty:
         return pd.DataFrame(columns=["pattern", "revision", "effective_from", "zone", "riser", "alloy",
-                                     "sleeve_kind", "thickness_mm", "passes"] + MARGIN_COLS)
+                                     "sleeve_kind", "thickness_mm", "passes", "rule_set",
+                                     "modulus_target"] + MARGIN_COLS)
     a = assess_frame(risers)
     a["thickness_mm"] = risers["thickness_mm"].astype(float).to_numpy()
     a["caine_sort"] = a["caine_margin"].fillna(np.inf)
@@ -39,6 +40,7 @@ def zone_design(store: Store, pattern=None) -> pd.DataFrame:
     out = g.agg(effective_from=("effective_from", "first"), alloy=("alloy", "first"),
                 riser=("riser", lambda s: "+".join(sorted(s))), sleeve_kind=("sleeve_kind", "first"),
                 thickness_mm=("thickness_mm", "first"), passes=("passes", "all"),
+                rule_set=("rule_set", "first"), modulus_target=("modulus_required_ratio", "max"),
                 modulus_ratio=("modulus_ratio", "min"), caine_margin=("caine_margin", "min"),
                 feed_margin=("feed_margin", "min"), volume_ratio=("volume_ratio", "min"),
                 freezing_ratio=("freezing_ratio", "min")).reset_index()
@@ -94,7 +96,8 @@ def aggregate_for_fit(features: pd.DataFrame, temp_bin_c: float = 5.0) -> pd.Dat
     f = features.copy()
     f["_tbin"] = np.round(f["pour_temp_dev_c"].fillna(0.0) / temp_bin_c) * temp_bin_c
     keys = ["pattern", "revision", "zone", "_tbin"]
-    first = {c: "first" for c in ["riser", "alloy", "sleeve_kind", "thickness_mm", "passes"] + MARGIN_COLS}
+    first = {c: "first" for c in ["riser", "alloy", "sleeve_kind", "thickness_mm", "passes", "rule_set",
+                                  "modulus_target"] + MARGIN_COLS}
     out = f.groupby(keys, as_index=False).agg(castings=("castings", "sum"),
                                               shrinkage_rejects=("shrinkage_rejects", "sum"),
                                               poured_on=("poured_on", "max"), **{
@@ -109,7 +112,7 @@ def design_map(store: Store, start: str | None = None, end: str | None = None, a
     f = zone_lot_features(store, start, end, pattern)
     cols = ["pattern", "revision", "zone", "riser", "alloy", "volume_ratio", "freezing_ratio",
             "modulus_ratio", "caine_margin", "feed_margin", "passes", "sleeve_kind", "lots", "castings",
-            "shrinkage_rejects", "shrinkage_rate", "wilson_low", "wilson_high"]
+            "shrinkage_rejects", "shrinkage_rate", "wilson_low", "wilson_high", "rule_set", "modulus_target"]
     if f.empty:
         return pd.DataFrame(columns=cols)
     if alloy:
@@ -119,6 +122,7 @@ def design_map(store: Store, start: str | None = None, end: str | None = None, a
         freezing_ratio=("freezing_ratio", "first"), modulus_ratio=("modulus_ratio", "first"),
         caine_margin=("caine_margin", "first"), feed_margin=("feed_margin", "first"),
         passes=("passes", "first"), sleeve_kind=("sleeve_kind", "first"), lots=("lot", "count"),
+        rule_set=("rule_set", "first"), modulus_target=("modulus_target", "first"),
         castings=("castings", "sum"), shrinkage_rejects=("shrinkage_rejects", "sum"))
     g["shrinkage_rate"] = g["shrinkage_rejects"] / g["castings"]
     lo, hi = wilson_interval(g["shrinkage_rejects"].to_numpy(), g["castings"].to_numpy())

@@ -29,15 +29,15 @@ from tracker.errors import LogLocked, NotFound, PourbackError
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 5
+SCHEMA_VERSION = 6
 BUSY_TIMEOUT_MS = 30_000
 
 # Column order of each import kind's table, as stored.
 TABLE_COLUMNS = {
     "patterns": ["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
-                 "metal_cost_per_kg", "processing_cost_per_casting"],
+                 "metal_cost_per_kg", "processing_cost_per_casting", "mould"],
     "zones": ["pattern", "zone", "volume_cm3", "cooling_area_cm2", "thickness_mm", "length_mm",
-              "required_xray_level"],
+              "required_xray_level", "width_mm"],
     "sleeves": ["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
                 "feeding_efficiency", "unit_cost"],
     "revisions": ["pattern", "revision", "effective_from"],
@@ -220,7 +220,15 @@ def _migration_5(db: sqlite_utils.Database) -> None:
     db.execute("CREATE INDEX sessions_user ON sessions(user)")
 
 
-MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5]  # index i brings the schema from version i to i + 1
+def _migration_6(db: sqlite_utils.Database) -> None:
+    # The mould a pattern is moulded in (green_sand or rigid; empty = green sand): ductile
+    # iron's pressure-control rules depend on it. A zone's width, for the feeding-distance
+    # rules of bars and plates (width over thickness).
+    db.execute("ALTER TABLE patterns ADD COLUMN mould TEXT")
+    db.execute("ALTER TABLE zones ADD COLUMN width_mm REAL")
+
+
+MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6]  # index i brings the schema from version i to i + 1
 
 
 # --- the store --------------------------------------------------------------------
@@ -735,7 +743,7 @@ class Store:
              "s.kind AS sleeve_kind, s.modulus_factor AS sleeve_factor, "
              "s.feeding_efficiency AS sleeve_efficiency, s.unit_cost AS sleeve_unit_cost, "
              "z.volume_cm3, z.cooling_area_cm2, z.thickness_mm, z.length_mm, z.required_xray_level, "
-             "p.alloy, p.casting_weight_kg, p.castings_per_mold, a.shrinkage, a.bare_efficiency, "
+             "z.width_mm, p.mould, p.alloy, p.casting_weight_kg, p.castings_per_mold, a.shrinkage, a.bare_efficiency, "
              "a.density_kg_dm3, a.caine_a, a.caine_b, a.caine_c, "
              "(SELECT COUNT(*) FROM risers r2 WHERE r2.pattern = r.pattern "
              " AND r2.revision = r.revision AND r2.zone = r.zone) AS risers_on_zone "
@@ -760,6 +768,33 @@ class Store:
         row = cur.fetchone()
         if row is None:
             raise NotFound("pattern", code, "see `pourback patterns` for the patterns in the log")
+        return dict(zip([d[0] for d in cur.description], row))
+
+    def zone(self, pattern: str, zone: str) -> dict:
+        """One zone with its pattern's alloy and mould (raises NotFound naming the zones)."""
+        self.pattern(pattern)
+        cur = self.conn.execute("SELECT z.*, p.alloy, p.mould FROM zones z JOIN patterns p "
+                                "ON p.pattern = z.pattern WHERE z.pattern = ? AND z.zone = ?", (pattern, zone))
+        row = cur.fetchone()
+        if row is None:
+            names = [r[0] for r in self.conn.execute(
+                "SELECT zone FROM zones WHERE pattern = ? ORDER BY zone", (pattern,))]
+            raise NotFound("zone", zone, f"pattern {pattern} has the zones {', '.join(names) or '(none)'}")
+        return dict(zip([d[0] for d in cur.description], row))
+
+    def zones_frame(self, pattern: str) -> pd.DataFrame:
+        """The zones of one pattern, as stored, by zone code."""
+        return self._frame("SELECT zone, volume_cm3, cooling_area_cm2, thickness_mm, width_mm, length_mm, "
+                           "required_xray_level FROM zones WHERE pattern = ? ORDER BY zone", (pattern,))
+
+    def sleeve(self, code: str) -> dict:
+        """One sleeve of the catalogue (raises NotFound naming the catalogue)."""
+        cur = self.conn.execute("SELECT * FROM sleeves WHERE sleeve = ?", (code,))
+        row = cur.fetchone()
+        if row is None:
+            names = [r[0] for r in self.conn.execute("SELECT sleeve FROM sleeves ORDER BY sleeve")]
+            raise NotFound("sleeve", code, "the log's catalogue holds " + (", ".join(names) or "no sleeve; "
+                                                                            "import sleeves.csv"))
         return dict(zip([d[0] for d in cur.description], row))
 
     def lot(self, code: str) -> dict:

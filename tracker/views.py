@@ -213,8 +213,8 @@ DESIGN_COLUMNS = {
     "placement": "placement", "top": "top", "diameter_mm": "diameter (mm)", "height_mm": "height (mm)",
     "sleeve": "sleeve", "section_modulus_cm": "zone modulus (cm)", "riser_modulus_cm": "riser modulus (cm)",
     "modulus_ratio": "modulus ratio", "caine_margin": "Caine margin", "feed_margin": "feed margin",
-    "riser_weight_kg": "riser weight (kg)", "passes": "passes all rules", "failed_rules": "failed rules",
-    "notes": "notes",
+    "riser_weight_kg": "riser weight (kg)", "rule_set": "rule set", "passes": "passes all rules",
+    "failed_rules": "failed rules", "notes": "notes",
 }
 
 
@@ -222,7 +222,7 @@ DESIGN_COLUMNS = {
 DESIGN_PART = ["revision", "effective from", "riser", "zone", "placement", "top", "diameter (mm)",
                "height (mm)", "sleeve", "riser weight (kg)"]
 MARGIN_PART = ["revision", "riser", "zone", "zone modulus (cm)", "riser modulus (cm)", "modulus ratio",
-               "Caine margin", "feed margin", "passes all rules", "failed rules", "notes"]
+               "Caine margin", "feed margin", "rule set", "passes all rules", "failed rules", "notes"]
 
 
 def pattern_summary(store: Store, pattern: str) -> dict:
@@ -238,6 +238,24 @@ def pattern_summary(store: Store, pattern: str) -> dict:
             "first_pour": lots["poured_on"].min() if not lots.empty else None,
             "last_pour": lots["poured_on"].max() if not lots.empty else None,
             "revisions": store.revisions_frame(pattern).to_dict("records")}
+
+
+ZONE_COLUMNS = {  # the feeding-distance geometry first: it must show at a tablet's width
+    "zone": "zone", "thickness_mm": "thickness (mm)", "width_mm": "width (mm)",
+    "length_mm": "feeding length (mm)", "section": "section", "modulus_cm": "modulus (cm)",
+    "volume_cm3": "volume (cm³)", "cooling_area_cm2": "cooling area (cm²)", "required_xray_level": "x-ray level",
+}
+
+
+def pattern_zones(store: Store, pattern: str) -> pd.DataFrame:
+    """The zones of ``pattern`` for display: size, modulus V/A, thickness, width,
+    feeding length and the section's shape for the feeding distance (bar or
+    plate by width over thickness; blank where either is missing)."""
+    store.pattern(pattern)
+    z = store.zones_frame(pattern)
+    z["modulus_cm"] = z["volume_cm3"].astype(float) / z["cooling_area_cm2"].astype(float)
+    z["section"] = rules.section_shape(z["thickness_mm"].astype(float), z["width_mm"].astype(float))
+    return z[list(ZONE_COLUMNS)].rename(columns=ZONE_COLUMNS)
 
 
 def risers_by_revision(store: Store, pattern: str) -> pd.DataFrame:
@@ -257,7 +275,8 @@ def risers_by_revision(store: Store, pattern: str) -> pd.DataFrame:
     a["effective_from"] = r["effective_from"].to_numpy()
     a["sleeve"] = a["sleeve"].fillna("none")
     a["caine_margin"] = a["caine_margin"].where(a["caine_applied"].astype(bool))
-    a["failed_rules"] = a["failed_rules"].replace("", "none").str.replace(",", ", ")
+    a["failed_rules"] = a["failed_rules_text"].replace("", "none")
+    a["rule_set"] = a["rule_set"].str.replace("_", " ")
     a = a.sort_values(["effective_from", "revision", "riser"], kind="stable")
     return a[list(DESIGN_COLUMNS)].rename(columns=DESIGN_COLUMNS).reset_index(drop=True)
 

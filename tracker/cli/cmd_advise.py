@@ -88,6 +88,7 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, thermal, db_path, as
         pourback what-if --pattern P-1017 --riser R3 --diameter-mm 130
     """
     from tracker.advise import what_if as run
+    from tracker.assess import rule_words
 
     with open_store(db_path) as store:
         r = run(store, pattern, riser, diameter_mm=diameter_mm, height_mm=height_mm, sleeve=sleeve)
@@ -103,7 +104,8 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, thermal, db_path, as
         rows.append({"figure": "yield", "now": r["yield_before"], "changed": r["yield_after"]})
         return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {r['diameter_mm']:.0f} x "
                 f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
-                + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + r['failed_rules']}"
+                + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + rule_words(r['failed_rules'])}"
+                + f" (rule set: {r['rule_set'].replace('_', ' ')})"
                 f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg"
                 + (f"\nthermal check: {'pass' if r['thermal_ok'] else 'fail'}, last to freeze: "
                    f"{r['last_to_freeze']}" if "thermal_ok" in r else "") + "\n\n" + caution_text())
