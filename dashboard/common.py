@@ -80,10 +80,26 @@ def _cached(path: str, version: tuple, name: str, args: tuple, kwargs: tuple):
         return fn(store, *args, **dict(kwargs))
 
 
-def load(name: str, *args, **kwargs):
-    """``name``'s result on the log, cached until the database file changes."""
+_COMPUTED: set = set()  # the loads this server process has computed (and cached)
+
+
+def load(name: str, *args, status: str | None = None, **kwargs):
+    """``name``'s result on the log, cached until the database file changes.
+
+    ``status``: for a load that can take seconds on a big log, the label of
+    a Streamlit status element shown while it is computed (not when the
+    result comes from the cache); it is cleared when the result is in.
+    """
     path = db_path()
-    return _cached(path, views.db_version(path), name, args, tuple(sorted(kwargs.items())))
+    key = (path, views.db_version(path), name, args, tuple(sorted(kwargs.items())))
+    if status is None or key in _COMPUTED:
+        return _cached(*key)
+    box = st.empty()
+    with box.status(status + " ...", expanded=False):
+        result = _cached(*key)
+    box.empty()
+    _COMPUTED.add(key)
+    return result
 
 
 def forget() -> None:

@@ -44,7 +44,8 @@ def main() -> None:
                               format_func=labels.get, key="patterns")
     start, end = (period if isinstance(period, (tuple, list)) and len(period) == 2 else (first, last))
 
-    frame = common.load("design_map", start=start.isoformat(), end=end.isoformat(), alloy=alloy)
+    frame = common.load("design_map", start=start.isoformat(), end=end.isoformat(), alloy=alloy,
+                        status=f"Reading the zone features of {start} to {end}")
     points = views.filter_design_map(frame, alloy, patterns)
     if points.empty:
         st.info("No zone of this alloy was poured in the period (under a known riser design). "

@@ -101,8 +101,15 @@ def upload_file() -> None:
     with common.guard(), tempfile.TemporaryDirectory(prefix="pourback-upload-") as tmp:
         path = pathlib.Path(tmp) / (pathlib.Path(upload.name).name or f"upload.{kind}.csv")
         path.write_bytes(upload.getvalue())
-        with common.open_store() as store:
-            res = import_file(store, kind, path, by=by)
+        with common.open_store() as store, st.status(f"Importing {kind} ...", expanded=False) as box:
+            done = [0]
+
+            def progress(rows: int) -> None:
+                done[0] += rows
+                box.update(label=f"Importing {kind}: {done[0]:,} rows checked ...")
+
+            res = import_file(store, kind, path, by=by, progress=progress)
+            box.update(label=f"Imported {kind}: {res.rows:,} rows", state="complete")
         common.forget()
         st.success(f"Imported {common.md_escape(res.file)}: {res.rows:,} rows read, {res.added:,} added, "
                    f"{res.skipped:,} already present.")

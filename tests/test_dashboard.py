@@ -338,7 +338,10 @@ def test_suggestions_and_what_if(app_demo_db, monkeypatch):
     hit = change[(change["pattern"] == "P-1017") & (change["riser"] == "R3")]
     assert len(hit) == 1 and hit["action"].iat[0] != "no riser change"
     balance = next(d.value for d in at.dataframe if "yield after (%)" in d.value.columns)
-    assert {"added metal (kg per mold)", "balance (currency units/year)"} <= set(balance.columns)
+    assert {"added metal (kg per mold)", "balance (currency units/year)", "pays off"} <= set(balance.columns)
+    # observed and predicted rates side by side, labelled
+    cols = balance.columns.tolist()
+    assert cols.index("observed now (%)") + 1 == cols.index("predicted now (%)")
     # The what-if opens on the first suggested riser: P-1017 R3, a bare 100 mm riser failing rules.
     assert at.selectbox(key="whatif_riser").value == ("P-1017", "R3")
     # modulus, Caine, neck, and feed volume once the liquid contraction (1.6 % per 100 K, steel) is fed
@@ -350,15 +353,46 @@ def test_suggestions_and_what_if(app_demo_db, monkeypatch):
     # The modulus of a cylinder with H/D kept grows with D: 130/100 times larger.
     assert after == pytest.approx(before * 1.3, abs=0.01)
     assert metric(at, "Rules") == "all pass"
-    assert metric(at, "Yield changed") != metric(at, "Yield now")
+    assert [m for m in at.metric if m.label == "Yield changed"][0].delta.startswith("-")
 
 
 def test_what_if_with_a_catalogue_sleeve(app_demo_db, monkeypatch):
     at = open_page(app_demo_db, "suggestions.py", monkeypatch)
-    at.selectbox(key="whatif_sleeve_P-1017_R3").set_value("IS-100").run()
+    box = at.selectbox(key="whatif_sleeve_P-1017_R3")
+    # the catalogue sorted by inner diameter, after "keep" and "none"
+    with Store(app_demo_db) as s:
+        cat = s.table("sleeves")
+    codes = [o.split(" · ")[0] for o in box.options[2:]]  # the labels start with the sleeve code
+    order = cat.set_index("sleeve").loc[codes, "inner_diameter_mm"].tolist()
+    assert box.options[0].startswith("keep") and box.options[1].startswith("no sleeve")
+    assert order == sorted(order) and len(order) == len(cat)
+    box.set_value("IS-130").run()
     assert not at.exception and not at.error
-    assert at.number_input(key="whatif_dia_P-1017_R3").disabled
-    assert any("sleeve IS-100" in m for m in texts(at.markdown))
+    # choosing a sleeve shows its diameter
+    assert at.number_input(key="whatif_dia_P-1017_R3").value == 130.0
+    assert any("sleeve IS-130" in m for m in texts(at.markdown))
+
+
+def test_what_if_bigger_riser_and_sleeve_with_money(app_demo_db, monkeypatch):
+    from tracker.advise import what_if
+
+    at = open_page(app_demo_db, "suggestions.py", monkeypatch)
+    at.selectbox(key="whatif_riser").set_value(("P-1036", "R2")).run()  # exothermic XS-90 in the demo
+    at.number_input(key="whatif_dia_P-1036_R2").set_value(120.0).run()
+    assert not at.exception and not at.error
+    assert at.selectbox(key="whatif_sleeve_P-1036_R2").value == "XS-120"
+    assert any("120 x 150 mm, sleeve XS-120" in m for m in texts(at.markdown))
+    with Store(app_demo_db) as s:
+        want = what_if(s, "P-1036", "R2", sleeve="XS-120", week=at.selectbox(key="week").value)
+    for label, key in (("Extra riser metal (per year)", "extra_metal_cost_per_year"),
+                       ("Sleeves (per year)", "sleeve_cost_per_year"),
+                       ("Scrap saved (per year)", "scrap_saved_per_year"), ("Yearly balance", "yearly_balance")):
+        assert metric(at, label) == f"{want[key]:,.0f}"
+    assert metric(at, "Predicted rate now (model)") == f"{100 * want['predicted_rate_now']:.2f} %"
+    # a size the catalogue does not have in that kind: one message, no traceback
+    at.number_input(key="whatif_dia_P-1036_R2").set_value(130.0).run()
+    assert not at.exception
+    assert any("no exothermic sleeve of that inner diameter" in e for e in texts(at.error))
 
 
 # --- errors and user text ---------------------------------------------------------------------------

@@ -298,15 +298,18 @@ def test_filter_design_map_on_the_demo(demo_store):
 def test_suggestions_table_percentages_and_order():
     rows = [{"pattern": "P", "zone": "z", "riser": "R1", "action": "enlarge_and_sleeve",
              "current_diameter_mm": 90.0, "current_sleeve": None, "suggested_diameter_mm": 120.0,
-             "suggested_sleeve": "XS-120", "reject_rate": 0.12, "predicted_rate_after": 0.005,
-             "added_metal_kg_per_mold": 3.5, "yield_before": 0.65, "yield_after": 0.6,
-             "yearly_balance": 1000.0, "reason": "why not", "extra": 1}]
+             "suggested_sleeve": "XS-120", "reject_rate": 0.12, "predicted_rate_now": 0.033,
+             "predicted_rate_after": 0.005, "added_metal_kg_per_mold": 3.5, "yield_before": 0.65,
+             "yield_after": 0.6, "scrap_saved_per_year": 1500.0, "extra_cost_per_year": 500.0,
+             "yearly_balance": 1000.0, "pays_off": True, "reason": "why not", "extra": 1}]
     t = views.suggestions_table(rows)
     assert t.columns.tolist() == list(views.SUGGESTION_COLUMNS.values())
     r = t.iloc[0]
     assert r["action"] == "enlarge and sleeve"
-    assert r["reject rate now (%)"] == pytest.approx(12.0)
+    assert r["observed now (%)"] == pytest.approx(12.0)
+    assert r["predicted now (%)"] == pytest.approx(3.3)
     assert r["predicted after (%)"] == pytest.approx(0.5)
+    assert r["pays off"] == "yes" and r["balance (currency units/year)"] == 1000.0
     assert r["yield after (%)"] == pytest.approx(60.0)
     assert r["now: sleeve"] == "none"
     assert set(views.CHANGE_PART) <= set(t.columns) and set(views.BALANCE_PART) <= set(t.columns)
@@ -320,6 +323,19 @@ def test_suggestions_table_blank_sleeve_without_a_riser():
     t = views.suggestions_table(rows)
     assert t["now: sleeve"].tolist() == [None, "none"]
     assert t["suggested: sleeve"].tolist() == [None, "none"]
+
+
+def test_suggestions_table_no_change_shows_no_money():
+    rows = [{"pattern": "P", "zone": None, "riser": None, "action": "no_riser_change", "reject_rate": 0.05,
+             "predicted_rate_now": None, "predicted_rate_after": None, "yearly_balance": 0.0,
+             "scrap_saved_per_year": 0.0, "extra_cost_per_year": 0.0, "pays_off": False}]
+    r = views.suggestions_table(rows).iloc[0]
+    assert r["pays off"] is None and np.isnan(r["balance (currency units/year)"])
+
+
+def test_sleeve_options_smallest_first(demo_store):
+    s = views.sleeve_options(demo_store)
+    assert s["inner_diameter_mm"].is_monotonic_increasing and len(s) == len(demo_store.table("sleeves"))
 
 
 def test_suggestions_table_empty():

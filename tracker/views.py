@@ -367,21 +367,24 @@ def design_map_table(frame: pd.DataFrame) -> pd.DataFrame:
 
 # --- suggestions ---------------------------------------------------------------------
 
+MONEY_UNIT = "currency units/year"
 SUGGESTION_COLUMNS = {
     "pattern": "pattern", "zone": "zone", "riser": "riser", "action": "action",
     "current_diameter_mm": "now: diameter (mm)", "current_sleeve": "now: sleeve",
     "suggested_diameter_mm": "suggested: diameter (mm)", "suggested_sleeve": "suggested: sleeve",
-    "reject_rate_pct": "reject rate now (%)", "predicted_rate_after_pct": "predicted after (%)",
+    "reject_rate_pct": "observed now (%)", "predicted_rate_now_pct": "predicted now (%)",
+    "predicted_rate_after_pct": "predicted after (%)",
     "added_metal_kg_per_mold": "added metal (kg per mold)",
     "yield_before_pct": "yield now (%)", "yield_after_pct": "yield after (%)",
-    "yearly_balance": "balance (currency units/year)", "reason": "why",
+    "scrap_saved_per_year": f"scrap saved ({MONEY_UNIT})", "extra_cost_per_year": f"extra cost ({MONEY_UNIT})",
+    "yearly_balance": f"balance ({MONEY_UNIT})", "pays_off": "pays off", "reason": "why",
 }
 # The two halves of ``suggestions_table``: what to change, and what it brings.
 CHANGE_PART = ["pattern", "zone", "riser", "action", "now: diameter (mm)", "now: sleeve",
                "suggested: diameter (mm)", "suggested: sleeve"]
-BALANCE_PART = ["pattern", "zone", "reject rate now (%)", "predicted after (%)",
-                "added metal (kg per mold)", "yield now (%)", "yield after (%)",
-                "balance (currency units/year)"]
+BALANCE_PART = ["pattern", "zone", "observed now (%)", "predicted now (%)", "predicted after (%)",
+                f"balance ({MONEY_UNIT})", "pays off", f"scrap saved ({MONEY_UNIT})", f"extra cost ({MONEY_UNIT})",
+                "added metal (kg per mold)", "yield now (%)", "yield after (%)"]
 
 
 def _pct(series: pd.Series) -> pd.Series:
@@ -391,13 +394,22 @@ def _pct(series: pd.Series) -> pd.Series:
 def suggestions_table(suggestions: list[dict]) -> pd.DataFrame:
     """Suggestions (``tracker.advise.suggest``) as a display table, rates and yields in %.
 
-    Columns the suggestions lack are left out; the order is SUGGESTION_COLUMNS'.
+    The observed rate and the model's rates now and after stand side by
+    side; a row that changes nothing shows no predicted-after rate and no
+    money. Columns the suggestions lack are left out; the order is
+    SUGGESTION_COLUMNS'.
     """
     if not suggestions:
         return pd.DataFrame(columns=list(SUGGESTION_COLUMNS.values()))
     s = pd.DataFrame(suggestions)
+    changes = s["action"] != "no_riser_change"
     s["action"] = s["action"].str.replace("_", " ")
-    for key in ("reject_rate", "predicted_rate_after", "yield_before", "yield_after"):
+    for key in ("predicted_rate_after", "scrap_saved_per_year", "extra_cost_per_year", "yearly_balance"):
+        if key in s:
+            s[key] = pd.to_numeric(s[key], errors="coerce").where(changes)
+    if "pays_off" in s:
+        s["pays_off"] = np.where(changes, np.where(s["pays_off"].fillna(False).astype(bool), "yes", "no"), None)
+    for key in ("reject_rate", "predicted_rate_now", "predicted_rate_after", "yield_before", "yield_after"):
         if key in s:
             s[f"{key}_pct"] = _pct(s[key])
     has_riser = s["riser"].notna() if "riser" in s else pd.Series(False, index=s.index)
@@ -455,11 +467,12 @@ def riser_options(store: Store, on: str | None = None) -> pd.DataFrame:
 
 
 def sleeve_options(store: Store) -> pd.DataFrame:
-    """The sleeve catalogue with a picker label (kind, inner diameter, height, factor)."""
+    """The sleeve catalogue, smallest inner diameter first, with a picker label
+    (kind, inner diameter, height, factor)."""
     s = store.table("sleeves")
     if s.empty:
         return pd.DataFrame(columns=["sleeve", "kind", "inner_diameter_mm", "label"])
-    s = s.copy()
+    s = s.sort_values(["inner_diameter_mm", "height_mm", "kind", "sleeve"], kind="stable")
     s["label"] = (s["sleeve"] + " · " + s["kind"] + " · " + s["inner_diameter_mm"].map(lambda v: f"{v:g}")
                   + " x " + s["height_mm"].map(lambda v: f"{v:g}") + " mm · factor "
                   + s["modulus_factor"].map(lambda v: f"{v:g}"))

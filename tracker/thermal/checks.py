@@ -143,3 +143,91 @@ def check_suggestions(store, suggestions: list[dict]) -> list[dict | None]:
         out.append(None if row is None else
                    fields(check_row(row, pour_temp_for(store, s["pattern"], row["alloy"]))))
     return out
+
+
+# --- suggest: the thermal filter before the choice ------------------------------------
+
+MAX_SOLVES_PER_ZONE = 6
+
+
+def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
+           max_solves: int = MAX_SOLVES_PER_ZONE) -> tuple[pd.DataFrame, dict]:
+    """The thermal check before ``choose`` (``tracker.advise``'s choice of one candidate per zone).
+
+    The candidate ``choose`` takes for a zone is solved; where it fails, it no
+    longer counts as passing every rule and the next one ``choose`` takes is
+    solved, up to ``max_solves`` per zone. Where none tried passes, the zone
+    keeps its rule-based choice. ``priced`` is indexed by candidate (``_cand``)
+    with the zone in ``_z``; ``cands`` holds each candidate's riser row.
+    Returns (priced with ``thermal_ok`` and ``last_to_freeze``, a note per zone).
+    """
+    priced = priced.copy()
+    priced["thermal_ok"] = None
+    priced["last_to_freeze"] = None
+    rows = cands.set_index("_cand")
+    pours: dict = {}
+    tries: dict = {}
+    failed: dict = {}
+    done: set = set()
+    original = priced["full_ok"].copy()
+    while True:
+        chosen = choose(priced)
+        work = [(z, c) for z, c in chosen.iterrows() if z not in done]
+        if not work:
+            break
+        for z, c in work:
+            cand = c["_cand"]
+            if priced.at[cand, "thermal_ok"] is not None or int(c["tier"]) == 2:
+                done.add(z)
+                continue
+            row = rows.loc[cand].to_dict()
+            key = (row["pattern"], row["alloy"])
+            if key not in pours:
+                pours[key] = pour_temp_for(store, *key)
+            r = check_row(row, pours[key])
+            priced.at[cand, "thermal_ok"] = bool(r.thermal_ok)
+            priced.at[cand, "last_to_freeze"] = r.last_to_freeze
+            tries[z] = tries.get(z, 0) + 1
+            if r.thermal_ok:
+                done.add(z)
+                continue
+            failed.setdefault(z, []).append((row.get("action"), row["diameter_mm"], r.reasons))
+            priced.at[cand, "full_ok"] = False
+            if tries[z] >= max_solves:
+                done.add(z)
+    notes = {}
+    chosen = choose(priced)
+    for z, c in chosen.iterrows():
+        ok = priced.at[c["_cand"], "thermal_ok"]
+        fails = failed.get(z, [])
+        if ok is True and not fails:
+            notes[z] = (" Thermal check: passes (the riser freezes last, nothing cut off, Niyama at or above "
+                        "the threshold where one applies).")
+        elif ok is True:
+            first = fails[0]
+            notes[z] = (f" Thermal check: the first choice ({first[0]}, {first[1]:.0f} mm) fails ("
+                        + "; ".join(first[2]) + f"); this is the next candidate that passes"
+                        + (f" ({len(fails)} failed before it)." if len(fails) > 1 else "."))
+        elif fails:
+            # none tried passes: keep the rule-based choice, say so
+            zone_c = priced["_z"] == z
+            priced.loc[zone_c, "full_ok"] = original[zone_c]
+            notes[z] = (f" Thermal check: none of the {len(fails)} candidates tried passes ("
+                        + "; ".join(fails[0][2]) + "); the rule-based choice stands: confirm it by a full "
+                        "solidification simulation or a trial pour.")
+    return priced, notes
+
+
+def suggest_filter(store, priced: pd.DataFrame, cands: pd.DataFrame, zones: int, thermal: bool | None,
+                   choose) -> tuple[pd.DataFrame, dict]:
+    """``narrow`` where ``thermal`` is True, or where it is None (the default) and the
+    ``zones`` solves are expected to fit in AUTO_BUDGET_S; else ``priced`` as it is,
+    with a note per zone where the default left the check out."""
+    if not len(priced) or thermal is False:
+        return priced, {}
+    if thermal is None and not auto_enabled(zones):
+        note = (f" Thermal check not run: {zones} zones would take about "
+                f"{zones * reference_solve_s():.0f} s, over the {AUTO_BUDGET_S:.0f} s a default run allows "
+                "(ask for it with --thermal).")
+        return priced, {z: note for z in priced["_z"].unique()}
+    return narrow(store, priced, cands, choose)
