@@ -326,13 +326,15 @@ def _enlarge_candidates(bases: pd.DataFrame, step_mm: float, with_model: bool) -
     share = np.maximum(b["risers_on_zone"].astype(float).fillna(1.0).to_numpy(), 1.0)
     need = np.empty(len(b))
     mould = b["mould"].map(rules.check_mould) if "mould" in b else pd.Series(rules.check_mould(None), b.index)
-    for alloy, mo in set(zip(b["alloy"], mould)):
-        m = ((b["alloy"] == alloy) & (mould == mo)).to_numpy()
+    # one call per alloy, mould and shrinkage: the feed rule takes one shrinkage per call
+    shrink = b["shrinkage"].astype(float)
+    for alloy, mo, beta in set(zip(b["alloy"], mould, shrink)):
+        m = ((b["alloy"] == alloy) & (mould == mo) & (shrink == beta)).to_numpy()
         need[m] = size_risers(b["volume_cm3"].to_numpy(float)[m] / share[m],
                               b["cooling_area_cm2"].to_numpy(float)[m] / share[m], alloy,
                               b["placement"].to_numpy()[m], hd[m], 1.0,
                               efficiency=b["bare_efficiency"].to_numpy(float)[m],
-                              shrinkage=b["shrinkage"].to_numpy(float)[m], mould=mo)["diameter_mm"]
+                              shrinkage=float(beta), mould=mo)["diameter_mm"]
     first = np.maximum(_round_up(need, step_mm), _round_up(d0 + step_mm * 0.5, step_mm))
     cap = np.maximum(first, MAX_GROWTH * d0)
     steps = np.floor((cap - first) / step_mm + 1e-9).astype(int) + 1 if with_model else np.ones(len(b), int)
