@@ -255,7 +255,7 @@ def _comfortable(j: pd.DataFrame) -> pd.Series:
     caine = j["caine_margin"].astype(float)
     required = j["modulus_required_ratio"].astype(float).fillna(rules.DEFAULT_MODULUS_FACTOR) \
         if "modulus_required_ratio" in j else rules.DEFAULT_MODULUS_FACTOR
-    return (j["rules_ok"]
+    return (j["rules_ok"] & (j["neck_ok"] != 0.0)  # a failing neck never "passes every rule"
             & (j["modulus_ratio"] >= required * COMFORT["modulus_ratio"])
             & (caine.isna() | (caine >= COMFORT["caine_margin"]))
             & (j["feed_margin"] >= COMFORT["feed_margin"]))
@@ -369,8 +369,9 @@ def _sleeve_candidates(bases: pd.DataFrame, sleeves: pd.DataFrame) -> pd.DataFra
 
 
 def _neck_candidates(bases: pd.DataFrame, judged: pd.DataFrame) -> pd.DataFrame:
-    """A wider neck (M_neck = 1.1 · M_section) where the present one fails
-    and the wider one stays below the riser."""
+    """The neck the rule set asks (M_neck = 1.1 · M_section, or 0.5-0.8 ·
+    M_section under pressure control) where the present one fails and the
+    new one stays below the riser."""
     need = _neck_needed_mm(bases["alloy"].to_numpy(), judged["section_modulus_cm"].to_numpy(float))
     ok = (_has_neck(bases) & (judged["neck_ok"].to_numpy() == 0.0)
           & (need / 40.0 < judged["riser_modulus_cm"].to_numpy(float))
@@ -504,12 +505,22 @@ def _money_text(v: float) -> str:
     return f"{v:,.0f}"
 
 
-def _change_text(action: str, riser: str, d0: float, c) -> str:
+def _neck_verb(old_mm, new_mm) -> str:
+    """"narrow" where the new neck is narrower (a pressure-control neck), "widen"
+    where wider, "change" where the old one is not known."""
+    old, new = _nan_none(old_mm), _nan_none(new_mm)
+    if old is None or new is None:
+        return "change"
+    return "narrow" if new < old else "widen"
+
+
+def _change_text(action: str, riser: str, d0: float, c, neck0=None) -> str:
     return {"enlarge": f"enlarge riser {riser} from {d0:.0f} to {c['diameter_mm']:.0f} mm "
                        f"(height {c['height_mm']:.0f} mm)",
             "sleeve": f"fit sleeve {c['sleeve']} to riser {riser}",
             "enlarge_and_sleeve": f"change riser {riser} to sleeve {c['sleeve']} ({c['diameter_mm']:.0f} mm)",
-            "neck": f"widen the neck of riser {riser} to {c['neck_diameter_mm']:.0f} mm"}[action]
+            "neck": f"{_neck_verb(neck0, c['neck_diameter_mm'])} the neck of riser {riser} "
+                    f"to {c['neck_diameter_mm']:.0f} mm"}[action]
 
 
 def _pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float) -> str:
@@ -542,7 +553,7 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
                  f"{choice['predicted_rate_after']:.1%} after")
     caine = ("Caine (margin n/a)" if pd.isna(choice["caine_margin"])
              else f"Caine (margin {choice['caine_margin']:.2f})")
-    text = (f"{_change_text(choice['action'], base['riser'], d0, choice)}: shrinkage in zone {zone['zone']} "
+    text = (f"{_change_text(choice['action'], base['riser'], d0, choice, base['neck_diameter_mm'])}: shrinkage in zone {zone['zone']} "
             f"observed {zone['rate']:.1%} ({int(zone['shrinkage_rejects'])} of {int(zone['castings'])} "
             f"castings){predicted}; the present riser fails: {rule_words(now['failed_rules']) or 'none'}. ")
     text += (f"The new one passes modulus (ratio {choice['modulus_ratio']:.2f}), {caine} and feed volume "
@@ -551,7 +562,8 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
              f"{choice['feed_margin']:.2f}.")
     neck_now = _nan_none(base["neck_diameter_mm"])
     if choice["action"] != "neck" and neck_now is not None and choice["neck_diameter_mm"] != neck_now:
-        text += f" Widen the neck to {choice['neck_diameter_mm']:.0f} mm with it."
+        text += (f" {_neck_verb(neck_now, choice['neck_diameter_mm']).capitalize()} the neck to "
+                 f"{choice['neck_diameter_mm']:.0f} mm with it.")
     if choice["feeding_distance_ok"] == 0.0:
         text += (f" Feeding distance: the zone's feeding length {choice['feeding_length_mm']:.0f} mm is "
                  f"beyond {choice['feeding_distance_mm']:.0f} mm; no riser size fixes that: add a "
@@ -580,9 +592,7 @@ def _comfortable_text(base, now, rate: float) -> str:
                      f"riser's feeding distance {now['feeding_distance_mm']:.0f} mm: add a riser "
                      "or a chill to shorten it")
     elif pd.isna(now["feeding_distance_ok"]):
-        hints.append("feeding distance was not checked (give the zone's thickness and length)")
-    if now["neck_ok"] == 0.0:
-        hints.append("the neck freezes before the section: widen it")
+        hints.append("feeding distance was not judged (give the zone's thickness, width and length)")
     hints.append("check pouring temperature and speed, and the riser contact (neck) on the pattern")
     caine = "n/a" if pd.isna(now["caine_margin"]) else f"{now['caine_margin']:.2f}"
     return (f"riser {base['riser']} already passes every rule with margin (modulus ratio "
