@@ -62,6 +62,7 @@ from tracker.model import ShrinkageRejectModel
 from tracker.sizing import neck_needed_mm, size_risers
 from tracker.stats import week_start, wilson_interval
 from tracker.store import Store
+from tracker.thermal import checks as thermal_checks
 
 ACTIONS = ("enlarge", "sleeve", "enlarge_and_sleeve", "neck", "no_riser_change")
 MIN_REJECTS = 3
@@ -698,10 +699,13 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
             week: str | None = None, weeks: int = limits.WEEKS_DEFAULT, step_mm: float = DEFAULT_STEP_MM,
             model=None, refit: bool = False,
             remelt_charge: float | None = None, riser_metal_charge: float | None = None,
-            plant: str | None = None) -> list[dict]:
+            thermal: bool | None = None, plant: str | None = None) -> list[dict]:
     """Suggestions for each problem pattern (or for ``pattern`` alone), of one
     ``plant`` (default: every plant; the reject model is the whole log's).
 
+    thermal: check each chosen riser by a solidification solve and take the
+    next candidate where it fails (``tracker.thermal.checks``); None: only
+    where all problem zones' solves fit in a minute.
     target: the target reject rate (``tracker.limits``), fraction (0.02 = 2 %): the
     review flags patterns by it, and a zone's shrinkage rate is brought down to it.
     step_mm: the shop's standard riser diameter step, mm.
@@ -717,10 +721,10 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
         raise BadInput("step_mm", step_mm, "the diameter step must be above 0 mm")
     charge = _remelt_charge(remelt_charge, riser_metal_charge)
     with store.plant_scope(plant):
-        return _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge)
+        return _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge, thermal)
 
 
-def _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge) -> list[dict]:
+def _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge, thermal) -> list[dict]:
     week, first, last = review_window(store, week, weeks)
     start, end = first.isoformat(), last.isoformat()
     if pattern is not None:
@@ -745,13 +749,14 @@ def _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge)
     to_change = zones[~zones["comfortable"]]
     cands = _candidates(to_change, designs, store.table("sleeves"), step_mm, model is not None)
     priced, rate_now = _price(cands, zones, designs, money, model, target)
+    priced, thermal_notes = thermal_checks.suggest_filter(store, priced, cands, len(to_change), thermal, _choose)
     chosen = _choose(priced) if len(priced) else priced.assign(_cand=[], tier=[])
     ctx = {"win": win, "designs": designs, "money": money.to_dict("index"), "target": target, "start": start,
            "end": end, "alloy": dict(zip(pats["pattern"], pats["alloy"])), "rate_now": rate_now.to_dict(),
            "current": designs["current"].to_dict(), "chosen": chosen.to_dict("index"),
            "defects": _groups(win["defects"], "pattern"), "zone_stats": _groups(win["zones"], "pattern"),
            "zones": _groups(zones, "pattern"), "priced": _records_by(priced.reset_index(), "_z"),
-           "risers_by_zone": _groups(designs["judged"], ["pattern", "zone"])}
+           "risers_by_zone": _groups(designs["judged"], ["pattern", "zone"]), "thermal_notes": thermal_notes}
     out: list[dict] = []
     for pat in patterns:
         out.extend(_pattern_records(pat, ctx))
@@ -825,7 +830,8 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
         "caine_margin_before": _nan_none(now["caine_margin"]), "caine_margin_after": _nan_none(choice["caine_margin"]),
         "feed_margin_before": float(now["feed_margin"]), "feed_margin_after": float(choice["feed_margin"]),
         "passes_after": bool(choice["full_ok"]), "meets_target": bool(choice["meets_target"]),
-        "reason": _reason_text(z, base, now, choice, zone_priced, siblings),
+        "reason": _reason_text(z, base, now, choice, zone_priced, siblings) + ctx["thermal_notes"].get(z_id, ""),
+        "thermal_ok": choice.get("thermal_ok"), "last_to_freeze": choice.get("last_to_freeze"),
         "alternatives": _alternatives(zone_priced, c_id, m),
     }
 
