@@ -539,6 +539,20 @@ def _pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float)
                    f"{_money_text(c['yearly_balance'])} a year).")
 
 
+def _how_chosen(choice: dict, zone_priced: list[dict]) -> str:
+    """How the choice was made (``_choose``'s tier), in words."""
+    if choice["tier"] == 0:
+        return " Of the changes that pass every rule and reach the target, this one has the highest yearly balance."
+    if choice["tier"] == 2:
+        return " No candidate meets every rule; size this riser by hand."
+    if pd.isna(choice["predicted_rate_after"]):
+        return (" (No reject model: the log has no history to fit it; this is the cheapest change that passes "
+                "every rule.)")
+    lowest = min(c["predicted_rate_after"] for c in zone_priced if c["full_ok"])
+    return (f" No candidate reaches the target rate by the model (the lowest predicted is {lowest:.1%}); of "
+            "those that pass every rule, this one has the highest yearly balance.")
+
+
 def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], siblings: list[str]) -> str:
     """Why this change: the zone's rates, the rules before and after, the
     neck, feeding distance, the zone's other risers, the money and how the
@@ -567,16 +581,7 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
         text += (f" Riser(s) {', '.join(siblings)} on the same zone fail too: "
                  + ("give them the same change (priced with it)." if choice["action"] != "neck" else
                     "widen their necks as well (not priced here)."))
-    text += {0: " Of the changes that pass every rule and reach the target, this one has the highest "
-                "yearly balance.",
-             1: (f" No candidate reaches the target rate by the model (the lowest predicted is "
-                 f"{min(c['predicted_rate_after'] for c in zone_priced if c['full_ok']):.1%}); of those that pass "
-                 "every rule, this one "
-                 "has the highest yearly balance.")
-                if not pd.isna(choice["predicted_rate_after"])
-                else " (No reject model: the log has no history to fit it; this is the cheapest change that "
-                     "passes every rule.)",
-             2: " No candidate meets every rule; size this riser by hand."}[int(choice["tier"])]
+    text += _how_chosen(choice, zone_priced)
     return text + _pays_off_text(choice, zone_priced, base["riser"], d0)
 
 
