@@ -62,6 +62,7 @@ from tracker.model import ShrinkageRejectModel
 from tracker.sizing import neck_needed_mm, size_risers
 from tracker.stats import week_start, wilson_interval
 from tracker.store import Store
+from tracker.thermal import checks as thermal_checks
 
 ACTIONS = ("enlarge", "sleeve", "enlarge_and_sleeve", "neck", "no_riser_change")
 MIN_REJECTS = 3
@@ -254,7 +255,7 @@ def _comfortable(j: pd.DataFrame) -> pd.Series:
     caine = j["caine_margin"].astype(float)
     required = j["modulus_required_ratio"].astype(float).fillna(rules.DEFAULT_MODULUS_FACTOR) \
         if "modulus_required_ratio" in j else rules.DEFAULT_MODULUS_FACTOR
-    return (j["rules_ok"]
+    return (j["rules_ok"] & (j["neck_ok"] != 0.0)  # a failing neck never "passes every rule"
             & (j["modulus_ratio"] >= required * COMFORT["modulus_ratio"])
             & (caine.isna() | (caine >= COMFORT["caine_margin"]))
             & (j["feed_margin"] >= COMFORT["feed_margin"]))
@@ -325,13 +326,15 @@ def _enlarge_candidates(bases: pd.DataFrame, step_mm: float, with_model: bool) -
     share = np.maximum(b["risers_on_zone"].astype(float).fillna(1.0).to_numpy(), 1.0)
     need = np.empty(len(b))
     mould = b["mould"].map(rules.check_mould) if "mould" in b else pd.Series(rules.check_mould(None), b.index)
-    for alloy, mo in set(zip(b["alloy"], mould)):
-        m = ((b["alloy"] == alloy) & (mould == mo)).to_numpy()
+    # one call per alloy, mould and shrinkage: the feed rule takes one shrinkage per call
+    shrink = b["shrinkage"].astype(float)
+    for alloy, mo, beta in set(zip(b["alloy"], mould, shrink)):
+        m = ((b["alloy"] == alloy) & (mould == mo) & (shrink == beta)).to_numpy()
         need[m] = size_risers(b["volume_cm3"].to_numpy(float)[m] / share[m],
                               b["cooling_area_cm2"].to_numpy(float)[m] / share[m], alloy,
                               b["placement"].to_numpy()[m], hd[m], 1.0,
-                              efficiency=float(b["bare_efficiency"].to_numpy(float)[m][0]),  # the alloy's
-                              shrinkage=float(b["shrinkage"].to_numpy(float)[m][0]), mould=mo)["diameter_mm"]
+                              efficiency=b["bare_efficiency"].to_numpy(float)[m],
+                              shrinkage=float(beta), mould=mo)["diameter_mm"]
     first = np.maximum(_round_up(need, step_mm), _round_up(d0 + step_mm * 0.5, step_mm))
     cap = np.maximum(first, MAX_GROWTH * d0)
     steps = np.floor((cap - first) / step_mm + 1e-9).astype(int) + 1 if with_model else np.ones(len(b), int)
@@ -366,8 +369,9 @@ def _sleeve_candidates(bases: pd.DataFrame, sleeves: pd.DataFrame) -> pd.DataFra
 
 
 def _neck_candidates(bases: pd.DataFrame, judged: pd.DataFrame) -> pd.DataFrame:
-    """A wider neck (M_neck = 1.1 · M_section) where the present one fails
-    and the wider one stays below the riser."""
+    """The neck the rule set asks (M_neck = 1.1 · M_section, or 0.5-0.8 ·
+    M_section under pressure control) where the present one fails and the
+    new one stays below the riser."""
     need = _neck_needed_mm(bases["alloy"].to_numpy(), judged["section_modulus_cm"].to_numpy(float))
     ok = (_has_neck(bases) & (judged["neck_ok"].to_numpy() == 0.0)
           & (need / 40.0 < judged["riser_modulus_cm"].to_numpy(float))
@@ -511,12 +515,22 @@ def _money_text(v: float) -> str:
     return f"{v:,.0f}"
 
 
-def _change_text(action: str, riser: str, d0: float, c) -> str:
+def _neck_verb(old_mm, new_mm) -> str:
+    """"narrow" where the new neck is narrower (a pressure-control neck), "widen"
+    where wider, "change" where the old one is not known."""
+    old, new = _nan_none(old_mm), _nan_none(new_mm)
+    if old is None or new is None:
+        return "change"
+    return "narrow" if new < old else "widen"
+
+
+def _change_text(action: str, riser: str, d0: float, c, neck0=None) -> str:
     return {"enlarge": f"enlarge riser {riser} from {d0:.0f} to {c['diameter_mm']:.0f} mm "
                        f"(height {c['height_mm']:.0f} mm)",
             "sleeve": f"fit sleeve {c['sleeve']} to riser {riser}",
             "enlarge_and_sleeve": f"change riser {riser} to sleeve {c['sleeve']} ({c['diameter_mm']:.0f} mm)",
-            "neck": f"widen the neck of riser {riser} to {c['neck_diameter_mm']:.0f} mm"}[action]
+            "neck": f"{_neck_verb(neck0, c['neck_diameter_mm'])} the neck of riser {riser} "
+                    f"to {c['neck_diameter_mm']:.0f} mm"}[action]
 
 
 def _pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float) -> str:
@@ -563,7 +577,7 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
                  f"{choice['predicted_rate_after']:.1%} after")
     caine = ("Caine (margin n/a)" if pd.isna(choice["caine_margin"])
              else f"Caine (margin {choice['caine_margin']:.2f})")
-    text = (f"{_change_text(choice['action'], base['riser'], d0, choice)}: shrinkage in zone {zone['zone']} "
+    text = (f"{_change_text(choice['action'], base['riser'], d0, choice, base['neck_diameter_mm'])}: shrinkage in zone {zone['zone']} "
             f"observed {zone['rate']:.1%} ({int(zone['shrinkage_rejects'])} of {int(zone['castings'])} "
             f"castings){predicted}; the present riser fails: {rule_words(now['failed_rules']) or 'none'}. ")
     text += (f"The new one passes modulus (ratio {choice['modulus_ratio']:.2f}), {caine} and feed volume "
@@ -572,7 +586,8 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
              f"{choice['feed_margin']:.2f}.")
     neck_now = _nan_none(base["neck_diameter_mm"])
     if choice["action"] != "neck" and neck_now is not None and choice["neck_diameter_mm"] != neck_now:
-        text += f" Widen the neck to {choice['neck_diameter_mm']:.0f} mm with it."
+        text += (f" {_neck_verb(neck_now, choice['neck_diameter_mm']).capitalize()} the neck to "
+                 f"{choice['neck_diameter_mm']:.0f} mm with it.")
     if choice["feeding_distance_ok"] == 0.0:
         text += (f" Feeding distance: the zone's feeding length {choice['feeding_length_mm']:.0f} mm is "
                  f"beyond {choice['feeding_distance_mm']:.0f} mm; no riser size fixes that: add a "
@@ -592,9 +607,7 @@ def _comfortable_text(base, now, rate: float) -> str:
                      f"riser's feeding distance {now['feeding_distance_mm']:.0f} mm: add a riser "
                      "or a chill to shorten it")
     elif pd.isna(now["feeding_distance_ok"]):
-        hints.append("feeding distance was not checked (give the zone's thickness and length)")
-    if now["neck_ok"] == 0.0:
-        hints.append("the neck freezes before the section: widen it")
+        hints.append("feeding distance was not judged (give the zone's thickness, width and length)")
     hints.append("check pouring temperature and speed, and the riser contact (neck) on the pattern")
     caine = "n/a" if pd.isna(now["caine_margin"]) else f"{now['caine_margin']:.2f}"
     return (f"riser {base['riser']} already passes every rule with margin (modulus ratio "
@@ -700,9 +713,13 @@ def _alternatives(zone_priced: list[dict], choice_id, m) -> list[dict]:
 def suggest(store: Store, pattern: str | None = None, target: float = limits.TARGET_DEFAULT,
             week: str | None = None, weeks: int = limits.WEEKS_DEFAULT, step_mm: float = DEFAULT_STEP_MM,
             model=None, refit: bool = False,
-            remelt_charge: float | None = None, riser_metal_charge: float | None = None) -> list[dict]:
+            remelt_charge: float | None = None, riser_metal_charge: float | None = None,
+            thermal: bool | None = None) -> list[dict]:
     """Suggestions for each problem pattern (or for ``pattern`` alone).
 
+    thermal: check each chosen riser by a solidification solve and take the
+    next candidate where it fails (``tracker.thermal.checks``); None: only
+    where all problem zones' solves fit in a minute.
     target: the target reject rate (``tracker.limits``), fraction (0.02 = 2 %): the
     review flags patterns by it, and a zone's shrinkage rate is brought down to it.
     step_mm: the shop's standard riser diameter step, mm.
@@ -740,13 +757,15 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
     to_change = zones[~zones["comfortable"]]
     cands = _candidates(to_change, designs, store.table("sleeves"), step_mm, model is not None)
     priced, rate_now = _price(cands, zones, designs, money, model, target)
+    priced, thermal_notes = thermal_checks.suggest_filter(store, priced, cands, len(to_change), thermal, _choose)
     chosen = _choose(priced) if len(priced) else priced.assign(_cand=[], tier=[])
     ctx = {"win": win, "designs": designs, "money": money.to_dict("index"), "target": target, "start": start,
            "end": end, "alloy": dict(zip(pats["pattern"], pats["alloy"])), "rate_now": rate_now.to_dict(),
            "current": designs["current"].to_dict(), "chosen": chosen.to_dict("index"),
            "defects": _groups(win["defects"], "pattern"), "zone_stats": _groups(win["zones"], "pattern"),
            "zones": _groups(zones, "pattern"), "priced": _records_by(priced.reset_index(), "_z"),
-           "risers_by_zone": _groups(designs["judged"], ["pattern", "zone"])}
+           "risers_by_zone": _groups(designs["judged"][["pattern", "zone", "riser", "full_ok"]], ["pattern", "zone"]),
+           "thermal_notes": thermal_notes}
     out: list[dict] = []
     for pat in patterns:
         out.extend(_pattern_records(pat, ctx))
@@ -820,7 +839,8 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
         "caine_margin_before": _nan_none(now["caine_margin"]), "caine_margin_after": _nan_none(choice["caine_margin"]),
         "feed_margin_before": float(now["feed_margin"]), "feed_margin_after": float(choice["feed_margin"]),
         "passes_after": bool(choice["full_ok"]), "meets_target": bool(choice["meets_target"]),
-        "reason": _reason_text(z, base, now, choice, zone_priced, siblings),
+        "reason": _reason_text(z, base, now, choice, zone_priced, siblings) + ctx["thermal_notes"].get(z_id, ""),
+        "thermal_ok": choice.get("thermal_ok"), "last_to_freeze": choice.get("last_to_freeze"),
         "alternatives": _alternatives(zone_priced, c_id, m),
     }
 
