@@ -208,3 +208,61 @@ def margins(df: pd.DataFrame) -> alt.Chart:
         tooltip=[alt.Tooltip("rule:N"), alt.Tooltip("design:N"),
                  alt.Tooltip("margin:Q", format=".2f")],
     ).properties(height=180)
+
+
+# --- thermal check ------------------------------------------------------------------
+
+def _thermal_frame(cells: pd.DataFrame, x_title: str, width: int = 520):
+    """Axes in mm at one scale for x and z, so the bodies keep their shape."""
+    x0, x1 = float(cells["x0"].min()), float(cells["x1"].max())
+    z0, z1 = float(cells["z0"].min()), float(cells["z1"].max())
+    pad = 0.04 * max(x1 - x0, z1 - z0)
+    x0, x1, z0, z1 = x0 - pad, x1 + pad, z0 - pad, z1 + pad
+    height = int(min(max(width * (z1 - z0) / (x1 - x0), 120), 600))
+    width = int(height * (x1 - x0) / (z1 - z0)) if height in (120, 600) else width
+    x = alt.Scale(domain=[x0, x1], nice=False, zero=False)
+    z = alt.Scale(domain=[z0, z1], nice=False, zero=False)
+    return x, z, width, height
+
+
+def _outline_layer(outline: pd.DataFrame, xs, zs):
+    return alt.Chart(outline).mark_rule(color="#000000", strokeWidth=1.2).encode(
+        x=alt.X("x:Q", scale=xs), y=alt.Y("z:Q", scale=zs), x2="x2:Q", y2="z2:Q")
+
+
+def thermal_freezing_map(cells: pd.DataFrame, outline: pd.DataFrame, last_point, x_title: str) -> alt.LayerChart:
+    """Freezing time of every metal cell (min), the bodies' outlines, the last point to freeze."""
+    xs, zs, w, h = _thermal_frame(cells, x_title)
+    heat = alt.Chart(cells).mark_rect().encode(
+        x=alt.X("x0:Q", scale=xs, title=x_title), x2="x1:Q",
+        y=alt.Y("z0:Q", scale=zs, title="z (mm), height"), y2="z1:Q",
+        color=alt.Color("freeze_min:Q", title="freezing time (min)", scale=alt.Scale(scheme="inferno")),
+        tooltip=[alt.Tooltip("body:N"), alt.Tooltip("freeze_min:Q", title="freezing time (min)", format=".1f")])
+    last = pd.DataFrame({"x": [last_point[0]], "z": [last_point[1]], "label": ["last to freeze"]})
+    mark = alt.Chart(last).mark_point(shape="cross", size=260, color="#1fa3ff", strokeWidth=3, filled=True).encode(
+        x=alt.X("x:Q", scale=xs), y=alt.Y("z:Q", scale=zs), tooltip=["label:N"])
+    text = alt.Chart(last).mark_text(align="left", dx=10, dy=-10, color="#1fa3ff", fontWeight="bold").encode(
+        x=alt.X("x:Q", scale=xs), y=alt.Y("z:Q", scale=zs), text="label:N")
+    return alt.layer(heat, _outline_layer(outline, xs, zs), mark, text).properties(width=w, height=h)
+
+
+def thermal_niyama_map(cells: pd.DataFrame, outline: pd.DataFrame, threshold, unit: str,
+                       x_title: str) -> alt.LayerChart:
+    """Niyama value of the section's cells; cells below the threshold in the attention colour."""
+    sec = cells[cells["body"] == "section"].dropna(subset=["niyama"])
+    xs, zs, w, h = _thermal_frame(cells, x_title)
+    base = alt.Chart(sec).mark_rect().encode(
+        x=alt.X("x0:Q", scale=xs, title=x_title), x2="x1:Q",
+        y=alt.Y("z0:Q", scale=zs, title="z (mm), height"), y2="z1:Q",
+        color=alt.Color("niyama:Q", title=f"Niyama {unit}",
+                        scale=alt.Scale(scheme="blues", domain=[0, 4.0 * (threshold or 1.0)], clamp=True)),
+        tooltip=[alt.Tooltip("niyama:Q", title=f"Niyama {unit}", format=".2f")])
+    layers = [base]
+    if threshold is not None:
+        low = sec[sec["niyama"] < threshold]
+        if not low.empty:
+            layers.append(alt.Chart(low).mark_rect(color=ATTENTION).encode(
+                x=alt.X("x0:Q", scale=xs), x2="x1:Q", y=alt.Y("z0:Q", scale=zs), y2="z1:Q",
+                tooltip=[alt.Tooltip("niyama:Q", title=f"Niyama below {threshold:g}", format=".2f")]))
+    layers.append(_outline_layer(outline, xs, zs))
+    return alt.layer(*layers).properties(width=w, height=h)

@@ -50,7 +50,15 @@ def _registry() -> dict:
         "design_map": features.design_map,
         "suggest": advise.suggest,
         "what_if": advise.what_if,
+        **_thermal_registry(),
     }
+
+
+def _thermal_registry() -> dict:
+    from tracker.thermal import views as thermal_views
+
+    return {"pattern_thermal": thermal_views.pattern_thermal,
+            "what_if_thermal": thermal_views.what_if_view}
 
 
 def db_path() -> str:

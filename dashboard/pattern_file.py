@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboard import charts, common
+from dashboard import charts, common, thermal_view
 from tracker import views
 
 NUMBER = st.column_config.NumberColumn
@@ -78,6 +78,8 @@ def main() -> None:
                    "alloy's curve (0 or more passes; blank where the alloy has no constants). Feed margin "
                    "= metal the riser can give over what the zone needs, as a share of the need "
                    "(0 or more passes).")
+
+        thermal_view.pattern_section(code)
 
     st.subheader("Pours and rejects over time")
     weekly = common.load("pattern_weekly", code)

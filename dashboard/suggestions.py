@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboard import access, charts, common
+from dashboard import access, charts, common, thermal_view
 from tracker import advise, views
 from tracker.assess import rule_words
 
@@ -14,8 +14,9 @@ MONEY = views.MONEY_UNIT
 
 
 def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list[dict]:
+    # the page stays quick: the thermal check is in what-if below (and `pourback suggest --thermal`)
     found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge,
-                        status="Pricing riser changes for the problem patterns")
+                        thermal=False, status="Pricing riser changes for the problem patterns")
     st.subheader("Suggested changes")
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")
@@ -116,6 +117,7 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
     _rate_metrics(result)
     _money_metrics(result)
     st.altair_chart(charts.margins(views.what_if_margins(result)), width="stretch", key="whatif_chart")
+    thermal_view.what_if_section(result)
 
 
 def _delta(new, now, fmt="{:+.2f}", unit=""):

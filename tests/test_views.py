@@ -297,7 +297,10 @@ def test_filter_design_map_on_the_demo(demo_store):
     zone = f.set_index("zone")
     # The planted story: flange-B (undersized R3) scraps far more than its twin flange-A.
     assert zone.loc["flange-B", "shrinkage_rate_pct"] > 5 * zone.loc["flange-A", "shrinkage_rate_pct"]
-    assert zone.loc["flange-B", "rules_text"] == "fails a rule"
+    assert zone.loc["flange-B", "rules_text"] == "fails a rule (modulus sequence)"
+    # Ductile iron is judged by pressure control, and the map says so.
+    di = views.filter_design_map(design_map(demo_store), "ductile_iron")
+    assert di["rules_text"].str.endswith("(pressure control)").all()
 
 
 # --- suggestions ---------------------------------------------------------------------------

@@ -62,6 +62,7 @@ from tracker.model import ShrinkageRejectModel
 from tracker.sizing import neck_needed_mm, size_risers
 from tracker.stats import week_start, wilson_interval
 from tracker.store import Store
+from tracker.thermal import checks as thermal_checks
 
 ACTIONS = ("enlarge", "sleeve", "enlarge_and_sleeve", "neck", "no_riser_change")
 MIN_REJECTS = 3
@@ -254,7 +255,7 @@ def _comfortable(j: pd.DataFrame) -> pd.Series:
     caine = j["caine_margin"].astype(float)
     required = j["modulus_required_ratio"].astype(float).fillna(rules.DEFAULT_MODULUS_FACTOR) \
         if "modulus_required_ratio" in j else rules.DEFAULT_MODULUS_FACTOR
-    return (j["rules_ok"]
+    return (j["rules_ok"] & (j["neck_ok"] != 0.0)  # a failing neck never "passes every rule"
             & (j["modulus_ratio"] >= required * COMFORT["modulus_ratio"])
             & (caine.isna() | (caine >= COMFORT["caine_margin"]))
             & (j["feed_margin"] >= COMFORT["feed_margin"]))
@@ -368,8 +369,9 @@ def _sleeve_candidates(bases: pd.DataFrame, sleeves: pd.DataFrame) -> pd.DataFra
 
 
 def _neck_candidates(bases: pd.DataFrame, judged: pd.DataFrame) -> pd.DataFrame:
-    """A wider neck (M_neck = 1.1 · M_section) where the present one fails
-    and the wider one stays below the riser."""
+    """The neck the rule set asks (M_neck = 1.1 · M_section, or 0.5-0.8 ·
+    M_section under pressure control) where the present one fails and the
+    new one stays below the riser."""
     need = _neck_needed_mm(bases["alloy"].to_numpy(), judged["section_modulus_cm"].to_numpy(float))
     ok = (_has_neck(bases) & (judged["neck_ok"].to_numpy() == 0.0)
           & (need / 40.0 < judged["riser_modulus_cm"].to_numpy(float))
@@ -422,6 +424,31 @@ def _changed_rows(cands: pd.DataFrame, zones: pd.DataFrame, designs: dict) -> pd
     return pd.concat([prim, own], ignore_index=True)
 
 
+def _predict(model, frames: list[pd.DataFrame]) -> list[np.ndarray]:
+    """The model's rate for each row of each frame, in one prediction (NaN without a model)."""
+    both = pd.concat([f.assign(pour_temp_dev_c=0.0) for f in frames], ignore_index=True)
+    rates = model.predict_rate(both) if model is not None and len(both) else np.full(len(both), np.nan)
+    return np.split(np.asarray(rates, dtype=float), np.cumsum([len(f) for f in frames])[:-1])
+
+
+def _per_candidate(cands: pd.DataFrame, new: pd.DataFrame, judged_now: pd.DataFrame) -> pd.DataFrame:
+    """Per candidate: the primary riser's size and margins, whether every
+    riser it changes passes, and the added metal and sleeve cost per casting
+    summed over them."""
+    old = judged_now.loc[new["_old"]]
+    new = new.assign(added_kg=new["weight_kg"].to_numpy() - old["weight_kg"].to_numpy(),
+                     sleeve_change=new["sleeve_unit_cost"].to_numpy() - old["sleeve_unit_cost"].to_numpy())
+    per = new.groupby("_cand").agg(added_kg_per_casting=("added_kg", "sum"),
+                                   sleeve_change_per_casting=("sleeve_change", "sum"), full_ok=("full_ok", "all"))
+    prim = new.drop_duplicates("_cand").set_index("_cand")  # the primary riser comes first
+    out = cands.set_index("_cand")[["_z", "action", "neck_diameter_mm"]].join(per)
+    for c in ("diameter_mm", "height_mm", "sleeve", "modulus_ratio", "caine_margin", "feed_margin",
+              "feeding_distance_ok", "feeding_distance_mm", "feeding_length_mm", "weight_kg"):
+        out[c] = prim[c]
+    out["full_ok"] = out["full_ok"].astype(bool)
+    return out
+
+
 def _price(cands: pd.DataFrame, zones: pd.DataFrame, designs: dict, money: pd.DataFrame, model,
            target: float) -> tuple[pd.DataFrame, pd.Series]:
     """Every candidate judged, predicted and priced in one pass.
@@ -433,38 +460,23 @@ def _price(cands: pd.DataFrame, zones: pd.DataFrame, designs: dict, money: pd.Da
     judged_now = designs["judged"]
     zone_risers = zones[["pattern", "zone"]].rename_axis("_z").reset_index().merge(
         judged_now.assign(_old=judged_now.index), on=["pattern", "zone"])
-    now = weakest_margins(zone_risers, ["_z"]).assign(pour_temp_dev_c=0.0)
+    now = weakest_margins(zone_risers, ["_z"])
     if cands.empty:
-        rates = model.predict_rate(now) if model is not None and len(now) else np.full(len(now), np.nan)
-        return cands.set_index("_cand"), pd.Series(rates, index=now["_z"].to_numpy(), dtype=float)
+        return cands.set_index("_cand"), pd.Series(_predict(model, [now])[0], index=now["_z"].to_numpy())
     rows = _changed_rows(cands, zones, designs).reset_index(drop=True)
-    new = _judge(rows)
-    new["_cand"], new["_old"] = rows["_cand"].to_numpy(), rows["_old"].to_numpy()
+    new = _judge(rows).assign(_cand=rows["_cand"].to_numpy(), _old=rows["_old"].to_numpy())
     # the zone after: the changed risers and the zone's others as they are
     others = cands[["_cand", "_z"]].merge(zone_risers, on="_z")
     others = others[~others.set_index(["_cand", "_old"]).index.isin(new.set_index(["_cand", "_old"]).index)]
     after = weakest_margins(pd.concat([new, others.drop(columns="_z")], ignore_index=True), ["_cand"])
-    both = pd.concat([now, after.assign(pour_temp_dev_c=0.0)], ignore_index=True)
-    rates = model.predict_rate(both) if model is not None and len(both) else np.full(len(both), np.nan)
-    rate_now = pd.Series(rates[:len(now)], index=now["_z"].to_numpy())
-    rate_after = pd.Series(rates[len(now):], index=after["_cand"].to_numpy())
+    rate_now, rate_after = _predict(model, [now, after])
+    rate_now = pd.Series(rate_now, index=now["_z"].to_numpy())
 
-    old = judged_now.loc[new["_old"]]
-    new["added_kg"] = new["weight_kg"].to_numpy() - old["weight_kg"].to_numpy()
-    new["sleeve_change"] = new["sleeve_unit_cost"].to_numpy() - old["sleeve_unit_cost"].to_numpy()
-    per = new.groupby("_cand").agg(added_kg_per_casting=("added_kg", "sum"),
-                                   sleeve_change_per_casting=("sleeve_change", "sum"),
-                                   all_ok=("full_ok", "all"))
-    prim = new.drop_duplicates("_cand").set_index("_cand")  # the primary riser comes first
-    out = cands.set_index("_cand")[["_z", "action", "neck_diameter_mm"]].join(per)
-    for c in ("diameter_mm", "height_mm", "sleeve", "modulus_ratio", "caine_margin", "feed_margin",
-              "feeding_distance_ok", "feeding_distance_mm", "feeding_length_mm", "weight_kg"):
-        out[c] = prim[c]
-    out["full_ok"] = out["all_ok"].astype(bool)
+    out = _per_candidate(cands, new, judged_now)
     m = money.loc[zones.loc[out["_z"], "pattern"].to_numpy()]
     n = m["castings_per_year"].to_numpy()
     out["predicted_rate_now"] = rate_now.loc[out["_z"]].to_numpy()
-    out["predicted_rate_after"] = rate_after.loc[out.index].to_numpy()
+    out["predicted_rate_after"] = pd.Series(rate_after, index=after["_cand"].to_numpy()).loc[out.index].to_numpy()
     out["extra_metal_cost_per_year"] = (n * out["added_kg_per_casting"].to_numpy()
                                         * m["metal_cost_per_kg"].to_numpy() * m["remelt_charge"].to_numpy())
     out["sleeve_cost_per_year"] = n * out["sleeve_change_per_casting"].to_numpy()
@@ -503,12 +515,22 @@ def _money_text(v: float) -> str:
     return f"{v:,.0f}"
 
 
-def _change_text(action: str, riser: str, d0: float, c) -> str:
+def _neck_verb(old_mm, new_mm) -> str:
+    """"narrow" where the new neck is narrower (a pressure-control neck), "widen"
+    where wider, "change" where the old one is not known."""
+    old, new = _nan_none(old_mm), _nan_none(new_mm)
+    if old is None or new is None:
+        return "change"
+    return "narrow" if new < old else "widen"
+
+
+def _change_text(action: str, riser: str, d0: float, c, neck0=None) -> str:
     return {"enlarge": f"enlarge riser {riser} from {d0:.0f} to {c['diameter_mm']:.0f} mm "
                        f"(height {c['height_mm']:.0f} mm)",
             "sleeve": f"fit sleeve {c['sleeve']} to riser {riser}",
             "enlarge_and_sleeve": f"change riser {riser} to sleeve {c['sleeve']} ({c['diameter_mm']:.0f} mm)",
-            "neck": f"widen the neck of riser {riser} to {c['neck_diameter_mm']:.0f} mm"}[action]
+            "neck": f"{_neck_verb(neck0, c['neck_diameter_mm'])} the neck of riser {riser} "
+                    f"to {c['neck_diameter_mm']:.0f} mm"}[action]
 
 
 def _pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float) -> str:
@@ -531,6 +553,20 @@ def _pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float)
                    f"{_money_text(c['yearly_balance'])} a year).")
 
 
+def _how_chosen(choice: dict, zone_priced: list[dict]) -> str:
+    """How the choice was made (``_choose``'s tier), in words."""
+    if choice["tier"] == 0:
+        return " Of the changes that pass every rule and reach the target, this one has the highest yearly balance."
+    if choice["tier"] == 2:
+        return " No candidate meets every rule; size this riser by hand."
+    if pd.isna(choice["predicted_rate_after"]):
+        return (" (No reject model: the log has no history to fit it; this is the cheapest change that passes "
+                "every rule.)")
+    lowest = min(c["predicted_rate_after"] for c in zone_priced if c["full_ok"])
+    return (f" No candidate reaches the target rate by the model (the lowest predicted is {lowest:.1%}); of "
+            "those that pass every rule, this one has the highest yearly balance.")
+
+
 def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], siblings: list[str]) -> str:
     """Why this change: the zone's rates, the rules before and after, the
     neck, feeding distance, the zone's other risers, the money and how the
@@ -541,7 +577,7 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
                  f"{choice['predicted_rate_after']:.1%} after")
     caine = ("Caine (margin n/a)" if pd.isna(choice["caine_margin"])
              else f"Caine (margin {choice['caine_margin']:.2f})")
-    text = (f"{_change_text(choice['action'], base['riser'], d0, choice)}: shrinkage in zone {zone['zone']} "
+    text = (f"{_change_text(choice['action'], base['riser'], d0, choice, base['neck_diameter_mm'])}: shrinkage in zone {zone['zone']} "
             f"observed {zone['rate']:.1%} ({int(zone['shrinkage_rejects'])} of {int(zone['castings'])} "
             f"castings){predicted}; the present riser fails: {rule_words(now['failed_rules']) or 'none'}. ")
     text += (f"The new one passes modulus (ratio {choice['modulus_ratio']:.2f}), {caine} and feed volume "
@@ -550,7 +586,8 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
              f"{choice['feed_margin']:.2f}.")
     neck_now = _nan_none(base["neck_diameter_mm"])
     if choice["action"] != "neck" and neck_now is not None and choice["neck_diameter_mm"] != neck_now:
-        text += f" Widen the neck to {choice['neck_diameter_mm']:.0f} mm with it."
+        text += (f" {_neck_verb(neck_now, choice['neck_diameter_mm']).capitalize()} the neck to "
+                 f"{choice['neck_diameter_mm']:.0f} mm with it.")
     if choice["feeding_distance_ok"] == 0.0:
         text += (f" Feeding distance: the zone's feeding length {choice['feeding_length_mm']:.0f} mm is "
                  f"beyond {choice['feeding_distance_mm']:.0f} mm; no riser size fixes that: add a "
@@ -559,16 +596,7 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
         text += (f" Riser(s) {', '.join(siblings)} on the same zone fail too: "
                  + ("give them the same change (priced with it)." if choice["action"] != "neck" else
                     "widen their necks as well (not priced here)."))
-    text += {0: " Of the changes that pass every rule and reach the target, this one has the highest "
-                "yearly balance.",
-             1: (f" No candidate reaches the target rate by the model (the lowest predicted is "
-                 f"{min(c['predicted_rate_after'] for c in zone_priced if c['full_ok']):.1%}); of those that pass "
-                 "every rule, this one "
-                 "has the highest yearly balance.")
-                if not pd.isna(choice["predicted_rate_after"])
-                else " (No reject model: the log has no history to fit it; this is the cheapest change that "
-                     "passes every rule.)",
-             2: " No candidate meets every rule; size this riser by hand."}[int(choice["tier"])]
+    text += _how_chosen(choice, zone_priced)
     return text + _pays_off_text(choice, zone_priced, base["riser"], d0)
 
 
@@ -579,9 +607,7 @@ def _comfortable_text(base, now, rate: float) -> str:
                      f"riser's feeding distance {now['feeding_distance_mm']:.0f} mm: add a riser "
                      "or a chill to shorten it")
     elif pd.isna(now["feeding_distance_ok"]):
-        hints.append("feeding distance was not checked (give the zone's thickness and length)")
-    if now["neck_ok"] == 0.0:
-        hints.append("the neck freezes before the section: widen it")
+        hints.append("feeding distance was not judged (give the zone's thickness, width and length)")
     hints.append("check pouring temperature and speed, and the riser contact (neck) on the pattern")
     caine = "n/a" if pd.isna(now["caine_margin"]) else f"{now['caine_margin']:.2f}"
     return (f"riser {base['riser']} already passes every rule with margin (modulus ratio "
@@ -687,9 +713,13 @@ def _alternatives(zone_priced: list[dict], choice_id, m) -> list[dict]:
 def suggest(store: Store, pattern: str | None = None, target: float = limits.TARGET_DEFAULT,
             week: str | None = None, weeks: int = limits.WEEKS_DEFAULT, step_mm: float = DEFAULT_STEP_MM,
             model=None, refit: bool = False,
-            remelt_charge: float | None = None, riser_metal_charge: float | None = None) -> list[dict]:
+            remelt_charge: float | None = None, riser_metal_charge: float | None = None,
+            thermal: bool | None = None) -> list[dict]:
     """Suggestions for each problem pattern (or for ``pattern`` alone).
 
+    thermal: check each chosen riser by a solidification solve and take the
+    next candidate where it fails (``tracker.thermal.checks``); None: only
+    where all problem zones' solves fit in a minute.
     target: the target reject rate (``tracker.limits``), fraction (0.02 = 2 %): the
     review flags patterns by it, and a zone's shrinkage rate is brought down to it.
     step_mm: the shop's standard riser diameter step, mm.
@@ -727,13 +757,15 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
     to_change = zones[~zones["comfortable"]]
     cands = _candidates(to_change, designs, store.table("sleeves"), step_mm, model is not None)
     priced, rate_now = _price(cands, zones, designs, money, model, target)
+    priced, thermal_notes = thermal_checks.suggest_filter(store, priced, cands, len(to_change), thermal, _choose)
     chosen = _choose(priced) if len(priced) else priced.assign(_cand=[], tier=[])
     ctx = {"win": win, "designs": designs, "money": money.to_dict("index"), "target": target, "start": start,
            "end": end, "alloy": dict(zip(pats["pattern"], pats["alloy"])), "rate_now": rate_now.to_dict(),
            "current": designs["current"].to_dict(), "chosen": chosen.to_dict("index"),
            "defects": _groups(win["defects"], "pattern"), "zone_stats": _groups(win["zones"], "pattern"),
            "zones": _groups(zones, "pattern"), "priced": _records_by(priced.reset_index(), "_z"),
-           "risers_by_zone": _groups(designs["judged"], ["pattern", "zone"])}
+           "risers_by_zone": _groups(designs["judged"][["pattern", "zone", "riser", "full_ok"]], ["pattern", "zone"]),
+           "thermal_notes": thermal_notes}
     out: list[dict] = []
     for pat in patterns:
         out.extend(_pattern_records(pat, ctx))
@@ -807,7 +839,8 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
         "caine_margin_before": _nan_none(now["caine_margin"]), "caine_margin_after": _nan_none(choice["caine_margin"]),
         "feed_margin_before": float(now["feed_margin"]), "feed_margin_after": float(choice["feed_margin"]),
         "passes_after": bool(choice["full_ok"]), "meets_target": bool(choice["meets_target"]),
-        "reason": _reason_text(z, base, now, choice, zone_priced, siblings),
+        "reason": _reason_text(z, base, now, choice, zone_priced, siblings) + ctx["thermal_notes"].get(z_id, ""),
+        "thermal_ok": choice.get("thermal_ok"), "last_to_freeze": choice.get("last_to_freeze"),
         "alternatives": _alternatives(zone_priced, c_id, m),
     }
 

@@ -26,6 +26,9 @@ a floor or a plain alternative:
   the model, as ``pourback fit-model`` does);
 - ``suggestions``: ``suggest`` for every problem pattern with the stored
   model (fitted beforehand, as the dashboard uses it);
+- ``thermal_solve``: one thermal solve at the default resolution (target 5 s,
+  500 MB); ``thermal_suggestions``: the thermal check of every suggestion's
+  proposed riser;
 - ``dashboard_*``: first render and a rerun of the weekly review, design
   map and suggestions pages with Streamlit's AppTest, where those pages
   exist (the suggestions page with the stored model).
@@ -78,11 +81,13 @@ TARGETS = {  # name -> (kind, limit); "ratio_max": ours/baseline <= limit, "spee
     "sizing": ("speedup_min", 50.0),
     "fit_model": ("seconds_max", 30.0),
     "suggestions": ("seconds_max", 5.0),
+    "thermal_solve": ("seconds_max", 5.0),
     "dashboard_review": ("seconds_max", 3.0),
     "dashboard_design_map": ("seconds_max", 3.0),
     "dashboard_suggestions": ("seconds_max", 3.0),
 }
 IMPORT_MEMORY_MB = 1024.0
+THERMAL_MEMORY_MB = 500.0
 SIZING_TOLERANCE_MM = 0.01
 
 # --- the invented foundry ---------------------------------------------------------------
@@ -632,11 +637,35 @@ def _c_suggest(db: str, week: str) -> dict:
 
     with Store(db, create=False) as store:
         load_s, model = _timed(get_model, store)  # the stored model (fitted by _c_fit)
-        secs, out = _timed(suggest, store, week=week, model=model)
+        secs, out = _timed(suggest, store, week=week, model=model, thermal=False)
     return {"ours_s": secs + load_s, "model_load_s": load_s, "suggestions": len(out),
             "problem_patterns": len({s["pattern"] for s in out}),
             "riser_changes": sum(1 for s in out if s.get("action") != "no_riser_change"),
             "peak_rss_mb": _peak_mb()}
+
+
+def _c_thermal_solve() -> dict:
+    from tracker.thermal import ThermalCase, run
+
+    # the README's worked example: a 155 mm top riser on a 300 x 300 x 50 mm steel plate
+    case = ThermalCase("steel", "top", 50.0, 300.0, 300.0, 155.0, 155.0)
+    secs, r = _timed(run, case, keep_maps=False)
+    return {"ours_s": secs, "cells": r.cells, "grid": list(r.grid), "time_step_s": r.time_step_s,
+            "steps": r.steps, "thermal_ok": r.thermal_ok, "peak_rss_mb": _peak_mb()}
+
+
+def _c_thermal_suggestions(db: str, week: str) -> dict:
+    from tracker.advise import suggest
+    from tracker.store import Store
+    from tracker.thermal.checks import check_suggestions
+
+    with Store(db, create=False) as store:
+        found = suggest(store, week=week)
+        secs, checks = _timed(check_suggestions, store, found)
+    done = [c for c in checks if c is not None]
+    return {"ours_s": secs, "suggestions": len(found), "solves": len(done),
+            "thermal_ok": sum(c["thermal_ok"] for c in done),
+            "per_solve_s": secs / len(done) if done else None, "peak_rss_mb": _peak_mb()}
 
 
 def _dashboard_pages() -> dict:
@@ -775,6 +804,17 @@ def run(lots: int = DEFAULT_LOTS, *, keep: str | os.PathLike | None = None, seed
                                  note="suggest for every problem pattern of the review week's 13-week "
                                       "window with the stored model (loading it included)", **sg))
 
+        th = _in_child(_c_thermal_solve)
+        m = _measure("thermal_solve", th.pop("ours_s"), None, th.pop("peak_rss_mb"),
+                     memory_target=f"peak RSS < {THERMAL_MEMORY_MB:g} MB",
+                     note="one thermal solve at the default resolution (README's worked example)", **th)
+        m["met"] = bool(m["met"] and m["peak_rss_mb"] < THERMAL_MEMORY_MB)
+        measures.append(m)
+        ts = _in_child(_c_thermal_suggestions, str(ours_db), gen["review_week"])
+        measures.append(_measure("thermal_suggestions", ts.pop("ours_s"), None, ts.pop("peak_rss_mb"),
+                                 note="the thermal check of every suggestion's proposed riser "
+                                      "(suggest itself not timed)", **ts))
+
         pages = _dashboard_pages() if dashboard else {}
         for name in ("dashboard_review", "dashboard_design_map", "dashboard_suggestions"):
             if name not in pages:
@@ -863,6 +903,13 @@ def format_report(report: dict) -> str:
             lines.append(f"suggestions: {x['suggestions']} for {x['problem_patterns']} problem patterns "
                          f"({x['riser_changes']} riser changes), the stored model (loaded in "
                          f"{_fmt_s(x['model_load_s'])})")
+        if x["name"] == "thermal_solve" and x.get("cells") is not None:
+            lines.append(f"thermal_solve: grid {x['grid'][0]} x {x['grid'][1]} = {x['cells']:,} cells, "
+                         f"time step {x['time_step_s']:.2f} s, {x['steps']} steps; {x['memory_target']}")
+        if x["name"] == "thermal_suggestions" and x.get("suggestions") is not None:
+            per = "-" if x["per_solve_s"] is None else _fmt_s(x["per_solve_s"])
+            lines.append(f"thermal_suggestions: {x['solves']} proposed risers of {x['suggestions']} "
+                         f"suggestions solved ({per} each), {x['thermal_ok']} pass the thermal check")
         if x["name"].startswith("dashboard") and x.get("first_s") is not None:
             lines.append(f"{x['name']}: {x['page']}: first render {_fmt_s(x['first_s'])}, rerun "
                          f"{_fmt_s(x['rerun_s'])}" + (f"; errors: {x['errors']}" if x["errors"] else ""))

@@ -386,6 +386,9 @@ def filter_design_map(frame: pd.DataFrame, alloy: str | None = None,
             f[f"{key}_pct"] = _pct(f[key])
     if "passes" in f:
         f["rules_text"] = np.where(f["passes"].astype(bool), "passes every rule", "fails a rule")
+        if "rule_set" in f:  # which rule set judged it: pressure control for ductile iron
+            f["rules_text"] = f["rules_text"] + " (" + f["rule_set"].fillna("").astype(str).str.replace(
+                "_", " ") + ")"
     if current is not None and "revision" in f:
         f["superseded"] = [current.get(p) not in (None, str(r)) for p, r in zip(f["pattern"], f["revision"])]
     else:

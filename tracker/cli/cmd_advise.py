@@ -35,10 +35,13 @@ basis_note = ("Money basis: the predicted rates now and after are both the rejec
               help="The shop's standard riser diameter step, mm.")
 @remelt_option
 @click.option("--refit", is_flag=True, help="Refit the reject model before suggesting.")
+@click.option("--thermal/--no-thermal", default=None,
+              help="Check each chosen riser by a solidification solve, taking the next candidate where it "
+                   "fails (default: on when the solves of all problem zones fit in a minute).")
 @db_option
 @json_option
 @handle_errors
-def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, db_path, as_json):
+def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, thermal, db_path, as_json):
     """Suggest riser changes for problem patterns, with yield and money.
 
     For each zone with shrinkage above the target: enlarge the riser (in
@@ -63,7 +66,7 @@ def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, db_path
     with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
         steps.step("Suggesting riser changes" + (" (refitting the model first)" if refit else ""))
         rows = run(store, pattern=pattern, target=target, week=week, weeks=weeks, step_mm=step_mm, refit=refit,
-                   remelt_charge=remelt_charge)
+                   remelt_charge=remelt_charge, thermal=thermal)
     emit(rows, as_json, _format)
 
 
@@ -114,10 +117,12 @@ def _format(rows: list[dict]) -> str:
 @week_option
 @weeks_option
 @remelt_option
+@click.option("--thermal", is_flag=True,
+              help="Add the thermal check of the changed riser (a solidification solve): thermal_ok, last_to_freeze.")
 @db_option
 @json_option
 @handle_errors
-def what_if(pattern, riser, diameter_mm, height_mm, sleeve, week, weeks, remelt_charge, db_path, as_json):
+def what_if(pattern, riser, diameter_mm, height_mm, sleeve, week, weeks, remelt_charge, thermal, db_path, as_json):
     """Show the margins, predicted rate, yield and money of a changed riser.
 
     The money is priced as in `suggest`, on the same basis: the reject
@@ -133,6 +138,11 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, week, weeks, remelt_
     with open_store(db_path) as store:
         r = run(store, pattern, riser, diameter_mm=diameter_mm, height_mm=height_mm, sleeve=sleeve, week=week,
                 weeks=weeks, remelt_charge=remelt_charge)
+        if thermal:
+            from tracker.thermal.checks import what_if_fields
+
+            t = what_if_fields(store, r)
+            r.update(thermal_ok=t["thermal_ok"], last_to_freeze=t["last_to_freeze"])
     emit(r, as_json, _what_if_text)
 
 
@@ -155,7 +165,9 @@ def _what_if_text(r: dict) -> str:
             f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
             + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + rule_words(r['failed_rules'])}"
             + f" (rule set: {r['rule_set'].replace('_', ' ')})"
-            f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg\n\n"
+            f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg"
+            + (f"\nthermal check: {'pass' if r['thermal_ok'] else 'fail'}, last to freeze: {r['last_to_freeze']}"
+               if "thermal_ok" in r else "") + "\n\n"
             + table(money) + "\npays off: " + ("yes" if r["pays_off"] else "no" if r["changed"] else "- (no change)")
             + (f" (priced with the same change on {', '.join(also)}, which fail the rules on the same zone)"
                if also else "")
