@@ -11,13 +11,14 @@ from __future__ import annotations
 import contextlib
 import os
 import re
+import sqlite3
 
 import streamlit as st
 
 from tracker import views
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadFile, PourbackError
-from tracker.store import Store, resolve_path
+from tracker.store import Store, log_error, resolve_path
 
 START_COMMANDS = "pourback demo"
 
@@ -55,14 +56,15 @@ def db_path() -> str:
 
 
 def open_store() -> Store:
-    """A new connection to the log (close it: use ``with``)."""
-    return Store(db_path())
+    """A new connection to the log (close it: use ``with``). A missing log is an
+    error, never created here: only ``pourback init`` and ``demo`` create one."""
+    return Store(db_path(), create=False)
 
 
 @st.cache_data(show_spinner=False, max_entries=256)
 def _cached(path: str, version: tuple, name: str, args: tuple, kwargs: tuple):
     fn = _registry()[name]
-    with Store(path) as store:
+    with Store(path, create=False) as store:
         return fn(store, *args, **dict(kwargs))
 
 
@@ -120,11 +122,17 @@ def show_error(exc: PourbackError) -> None:
 
 @contextlib.contextmanager
 def guard():
-    """Run a block; a library error is shown with :func:`show_error` instead of raised."""
+    """Run a block; a library error is shown with :func:`show_error` instead of
+    raised, and so is a failure of the machine (SQLite, a file that cannot be
+    written): one line, never a traceback."""
     try:
         yield
     except PourbackError as exc:
         show_error(exc)
+    except sqlite3.Error as exc:
+        show_error(log_error(exc, db_path()))
+    except OSError as exc:
+        st.error(md_escape(f"could not read or write {exc.filename or 'a file'}: {exc.strerror or exc}"))
 
 
 # --- page furniture -----------------------------------------------------------------------

@@ -111,7 +111,7 @@ ROW_CASES = [
      "got 'unobtainium'; alloy must be one of aluminum, aluminum_bronze, cast_iron_brass, "
      "ductile_iron, gray_iron, silicon_bronze, steel"),
     ("weight-text", "patterns", {"casting_weight_kg": "heavy"}, "casting_weight_kg",
-     "got 'heavy'; casting_weight_kg must be a number above 0 kg"),
+     "got 'heavy'; casting_weight_kg must be a number of at least 0.001 and at most 300,000 kg"),
     ("per-mold-fraction", "patterns", {"castings_per_mold": "1.5"}, "castings_per_mold",
      "got '1.5'; castings_per_mold must be a whole number above 0 and at most 10,000"),
     ("per-mold-huge", "patterns", {"castings_per_mold": "1e300"}, "castings_per_mold",
@@ -119,13 +119,13 @@ ROW_CASES = [
     ("per-mold-zero", "patterns", {"castings_per_mold": "0"}, "castings_per_mold",
      "got '0'; castings_per_mold must be a whole number above 0 and at most 10,000"),
     ("metal-cost-negative", "patterns", {"metal_cost_per_kg": "-1"}, "metal_cost_per_kg",
-     "got '-1'; metal_cost_per_kg must be a number of at least 0 per kg"),
+     "got '-1'; metal_cost_per_kg must be a number of at least 0 and at most 100,000 per kg"),
     ("pattern-blank", "patterns", {"pattern": ""}, "pattern", "got ''; pattern is required"),
     # zones
     ("zone-unknown-pattern", "zones", {"pattern": "T-999"}, "pattern",
      "got 'T-999'; unknown pattern; import it in patterns.csv first or check the code"),
     ("zone-volume-zero", "zones", {"volume_cm3": "0"}, "volume_cm3",
-     "got '0'; volume_cm3 must be a number above 0 cm³"),
+     "got '0'; volume_cm3 must be a number of at least 0.001 and at most 100,000,000 cm³"),
     ("zone-area-below-sphere", "zones", {"cooling_area_cm2": "10"}, "cooling_area_cm2",
      "got '10'; cooling area is smaller than a sphere of that volume would have; "
      "check the units (cm² and cm³)"),
@@ -143,7 +143,7 @@ ROW_CASES = [
      "got 'bottom'; placement must be one of top, side"),
     ("top-unknown", "risers", {"top": "wide"}, "top", "got 'wide'; top must be one of open, blind"),
     ("riser-zone-missing", "risers", {"zone": "web"}, "zone",
-     "got 'web'; pattern T-100 has no such zone; import it in zones.csv first"),
+     "got 'web'; pattern T-100 has no such zone; its zones are body, flange; import it in zones.csv first"),
     ("riser-sleeve-unknown", "risers", {"sleeve": "INS-999"}, "sleeve",
      "got 'INS-999'; unknown sleeve; import it in sleeves.csv first"),
     ("riser-sleeve-diameter", "risers", {"sleeve": "INS-100"}, "diameter_mm",
@@ -217,7 +217,7 @@ ROW_CASES = [
                                        "defect": ""}, "result",
      "got 'accept'; category D (cracks, hot tears) is not acceptable at any level"),
     ("insp-zone-unknown", "inspections", {"zone": "flange"}, "zone",
-     "got 'flange'; pattern T-200 has no such zone"),
+     "got 'flange'; pattern T-200 has no such zone; its zones are boss"),
     ("notes-control-chars", "inspections", {"notes": "bad\x07bell"}, "notes",
      "got 'bad\\x07bell'; notes holds control characters"),
 ]
@@ -272,7 +272,9 @@ FILE_CASES = [
      + b"L3,2026-03-06,visual,1,accept,,,,,,QE-B,caf\xe9\n",
      "inspections.csv, row 3: byte 0xe9 is not UTF-8 text; save the file as UTF-8 "
      "(CSV UTF-8 in a spreadsheet program)"),
-    ("utf16", "lots", new_file("lots").encode("utf-16"), "lots.csv, row 1: byte 0xff is not UTF-8 text"),
+    ("utf16", "lots", new_file("lots").encode("utf-16"),
+     "lots.csv: the file is UTF-16 text (it starts with a UTF-16 byte-order mark), not UTF-8; save it as CSV "
+     "UTF-8 (comma delimited) in the spreadsheet program"),
     ("unclosed-quote", "inspections", HEADER + '\nL3,2026-03-06,visual,1,accept,,,,,,QE,"never closed\n',
      "inspections.csv: not a readable CSV (Error tokenizing data. C error: EOF inside string"),
     ("extra-filled-cell", "lots", "lot,pattern,poured_on,heat,molds\nL4,T-100,2026-04-01,H4,5,1600\n",
@@ -375,8 +377,8 @@ def test_riser_before_its_zones_refuses_the_whole_folder(tmp_path):
         assert s.counts()["patterns"] == 0
     msg = str(info.value)
     assert "risers.csv: refused, nothing written (3 bad row(s)):" in msg
-    assert "risers.csv, row 2, column zone: got 'flange'; pattern T-100 has no such zone; import it in " \
-           "zones.csv first" in msg
+    assert "risers.csv, row 2, column zone: got 'flange'; pattern T-100 has no such zone; it has no zones yet; " \
+           "import it in zones.csv first" in msg
     assert "risers.csv, row 4, column zone: got 'boss'; pattern T-200 has no such zone;" in msg
 
 
@@ -523,6 +525,7 @@ def test_skip_bad_keeps_good_riser_revisions(store, tmp_path):
 
 def test_cli_skip_bad_writes_a_refused_csv(runner, tmp_path):
     db = tmp_path / "log.db"
+    assert runner.invoke(main, ["init", "--db", str(db)]).exit_code == 0
     result = runner.invoke(main, ["import", str(GOOD), "--db", str(db)])
     assert result.exit_code == 0, result.output
     path = tmp_path / "lots.csv"
@@ -544,6 +547,7 @@ def test_cli_skip_bad_writes_a_refused_csv(runner, tmp_path):
 
 def test_cli_refusal_is_one_clear_error_without_traceback(runner, tmp_path):
     db = tmp_path / "log.db"
+    assert runner.invoke(main, ["init", "--db", str(db)]).exit_code == 0
     assert runner.invoke(main, ["import", str(GOOD), "--db", str(db)]).exit_code == 0
     path = tmp_path / "lots.csv"
     path.write_text(new_file("lots", {"molds": "0"}), encoding="utf-8")

@@ -178,8 +178,7 @@ def test_form_shows_the_librarys_refusal_and_writes_nothing(app_db, monkeypatch)
     at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot, defect="(none)")
     assert not at.exception
     errors = texts(at.error)
-    assert len(errors) == 1 and errors[0].startswith("defect"), errors
-    assert "needs the defect found" in errors[0]
+    assert len(errors) == 1 and errors[0].startswith("Defect: pick one for a reject"), errors
     assert snapshot(app_db) == before
 
 

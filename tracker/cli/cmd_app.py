@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+import contextlib
 import os
 import pathlib
+import signal
 import sqlite3
 import subprocess
 import sys
@@ -36,11 +38,35 @@ def streamlit_argv(host: str, port: int) -> list[str]:
             "--client.toolbarMode", "minimal"]
 
 
-def _launch(argv: list[str], env: dict) -> None:
-    """Hand the process over to Streamlit (same PID, so stopping this command stops the server)."""
-    if os.name == "posix":
-        os.execvpe(argv[0], argv, env)
-    raise SystemExit(subprocess.call(argv, env=env))  # pragma: no cover - not POSIX
+def _launch(argv: list[str], env: dict) -> int:
+    """Run Streamlit as a child and wait for it; SIGTERM, SIGINT and SIGHUP sent to
+    this process are passed on to the child, so stopping this command by its
+    process id stops the server too (and frees the port). Returns the child's
+    exit status."""
+    child = subprocess.Popen(argv, env=env)
+    forwarded = (signal.SIGTERM, signal.SIGINT) + ((signal.SIGHUP,) if hasattr(signal, "SIGHUP") else ())
+
+    def forward(signum, _frame):
+        with contextlib.suppress(ProcessLookupError):
+            child.send_signal(signum)
+
+    previous = {s: signal.signal(s, forward) for s in forwarded}
+    try:
+        while True:
+            try:
+                return child.wait()
+            except KeyboardInterrupt:  # pragma: no cover - a second Ctrl+C while waiting
+                forward(signal.SIGINT, None)
+    finally:
+        for s, handler in previous.items():
+            signal.signal(s, handler)
+        if child.poll() is None:  # never leave the server behind
+            child.terminate()
+            try:
+                child.wait(timeout=10)
+            except subprocess.TimeoutExpired:
+                child.kill()
+                child.wait()
 
 
 def _url(host: str, port: int) -> str:
@@ -54,12 +80,24 @@ def serve(db: pathlib.Path, host: str, port: int) -> None:
     if host not in LOOPBACK:
         click.echo(f"Note: the dashboard has no login; anyone who can reach {host}:{port} can read the "
                    "log and record results.", err=True)
-    _launch(streamlit_argv(host, port), env)
+    status = _launch(streamlit_argv(host, port), env)
+    if status:
+        # Streamlit stopped by a signal (negative) is a normal stop; other codes are its own failure.
+        if status > 0:
+            raise PourbackError(f"the dashboard server stopped with exit status {status}; see its messages "
+                                "above")
 
 
 port_option = click.option("--port", type=click.IntRange(1, 65535), default=DEFAULT_PORT, show_default=True,
                            help="Port to serve the dashboard on.")
-host_option = click.option("--host", default=DEFAULT_HOST, show_default=True,
+def _check_host(ctx, param, value: str) -> str:
+    if not value.strip():
+        raise click.BadParameter(f"got {value!r}; give an address such as 127.0.0.1 (this computer only) "
+                                 "or 0.0.0.0 (every network interface)")
+    return value.strip()
+
+
+host_option = click.option("--host", default=DEFAULT_HOST, show_default=True, callback=_check_host,
                            help="Address to bind; the default keeps the dashboard on this computer.")
 
 
@@ -73,7 +111,8 @@ def dashboard(db_path, port, host):
     """Open the dashboard (log results, weekly review, design map, pattern
     file, suggestions) in the browser, on the log in --db.
 
-    A missing log file is created empty; the dashboard then shows how to start.
+    The log must exist (create it with `pourback init`, or build the demo
+    log with `pourback demo`); stopping this command stops the server.
 
     Example:
 
@@ -82,7 +121,7 @@ def dashboard(db_path, port, host):
     from tracker.store import Store, resolve_path
 
     db = pathlib.Path(resolve_path(db_path)).resolve()
-    with Store(db):  # create or migrate before the first page opens
+    with Store(db, create=False):  # migrate before the first page opens
         pass
     serve(db, host, port)
 
