@@ -681,6 +681,7 @@ class _Importer:
         self.identity = identity  # the file's digest and segments (None: a record typed in)
         self.legacy = kind == "inspections" and not self._log_was_empty and store.has_legacy_keys()
         self._ids_in_file: dict[str, tuple] = {}  # record_id -> (row, content) seen in this file
+        self.codes_seen: dict[tuple, list] = {}  # folded code -> new codes of this file (look-alikes)
 
     # each returns (rows to insert as tuples, keys) for the good rows of the chunk
     def validate(self, c: _Checks) -> list[tuple]:
@@ -1223,6 +1224,8 @@ def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, to
             _repeated_keys(kind, rows, c, skip)
         c.finish()
         good = [r for r, b, sk in zip(rows, c.bad, skip) if not b and not sk]
+        if kind in LOOKALIKE_CODES:
+            _warn_lookalikes(store, kind, rows, c, skip, result, imp.codes_seen)
         result.skipped += int((skip & ~c.bad).sum())
         result.refused += int(c.bad.sum())
         for i in np.flatnonzero(c.bad):
@@ -1253,6 +1256,37 @@ def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, to
         store.record_import(identity.digest, path.name, identity.size, shape.get("last_row", 1),
                             json.dumps(identity.segments), by)
     return result
+
+
+LOOKALIKE_CODES = {"patterns": "pattern", "sleeves": "sleeve", "lots": "lot", "zones": "zone"}
+
+
+def _warn_lookalikes(store: Store, kind: str, rows: list[tuple], c: _Checks, skip: np.ndarray,
+                     result: ImportResult, seen: dict) -> None:
+    """Warn where a new code differs from a stored one (or one earlier in the
+    file) only by case or Unicode compatibility form ("l26-0412" beside "L26-0412")."""
+    column = LOOKALIKE_CODES[kind]
+    at = TABLE_COLUMNS[kind].index(column)
+    new = [(i, r) for i, r in enumerate(rows) if not c.bad[i] and not skip[i]]
+    if not new:
+        return
+    if kind == "zones":
+        stored = {}
+        for p, z in store.zone_levels():
+            stored.setdefault((p, fold(z)), []).append(z)
+        key = lambda r: (r[0], fold(r[at]))  # noqa: E731
+    else:
+        stored = {(k,): v for k, v in store.codes_alike(kind, [r[at] for _, r in new]).items()}
+        key = lambda r: (r[at].lower(),)  # noqa: E731
+    for i, r in new:
+        k = key(r)
+        others = [o for o in stored.get(k, []) + seen.get(k, []) if o != r[at]]
+        if others:
+            where = f" of pattern {r[0]}" if kind == "zones" else ""
+            result.warnings.append(
+                f"row {int(c.rows[i])}, column {column}: {r[at]!r} is new but differs from the {column}{where} "
+                f"{others[0]!r} only by case or character form; check that it is not the same {column}")
+        seen.setdefault(k, []).append(r[at])
 
 
 def _repeated_keys(kind: str, rows: list[tuple], c: _Checks, skip: np.ndarray) -> None:
@@ -1391,7 +1425,15 @@ def correct_inspection(store: Store, record_id: int, changes: dict, *, by: str, 
         old = store.inspection(record_id)
         newer = store.superseded_by(record_id)
         if newer is not None:
+            if store.inspection(newer)["void"]:
+                raise BadInput("record", record_id, f"it was withdrawn by record {newer}; a withdrawn record "
+                                                    "stays withdrawn: log the result again as a new record")
             raise BadInput("record", record_id, f"it was already corrected by record {newer}; correct that one")
+        if old["void"]:
+            # Correcting the withdrawal itself would bring the record back into the counts unseen.
+            raise BadInput("record", record_id, f"it is the withdrawal of record {old['supersedes']}; a "
+                                                "withdrawn record stays withdrawn: log the result again as a "
+                                                "new record")
         void = bool(changes.pop("void", False))
         rec = {k: old.get(k) for k in sum(COLUMNS["inspections"], [])}
         rec.update({k: v for k, v in changes.items() if k in rec})

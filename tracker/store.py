@@ -29,7 +29,7 @@ from tracker.errors import (DiskFull, LogError, LogLocked, LogNotFound, LogReadO
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 4
+SCHEMA_VERSION = 5
 BUSY_TIMEOUT_MS = 30_000
 NOTICE_AFTER_MS = 1_000  # say that a write waits for another writer after this long
 
@@ -188,7 +188,13 @@ def _migration_4(db: sqlite_utils.Database) -> None:
         db.execute("INSERT INTO meta (key, value) VALUES ('legacy_keys', '1')")
 
 
-MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4]  # index i brings the schema from version i to i + 1
+def _migration_5(db: sqlite_utils.Database) -> None:
+    # A new lot code that differs from a stored one only by case ("l26-0412" beside
+    # "L26-0412") is imported with a warning: found through this index, not a scan.
+    db.execute("CREATE INDEX lots_lot_lower ON lots(lower(lot))")
+
+
+MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5]  # index i brings the schema from version i to i + 1
 
 
 # --- the store --------------------------------------------------------------------
@@ -500,6 +506,19 @@ class Store:
                 d["methods"][method] = d["methods"].get(method, 0) + qty
                 if result == "reject":
                     d["rejected"] += qty
+        return out
+
+    def codes_alike(self, name: str, codes: Iterable[str]) -> dict[str, list[str]]:
+        """Stored codes of ``name`` (patterns, sleeves, lots) equal to one of
+        ``codes`` when ASCII case is ignored, by lower-cased code."""
+        column = {"patterns": "pattern", "sleeves": "sleeve", "lots": "lot"}[name]
+        low = list(dict.fromkeys(c.lower() for c in codes))
+        out: dict[str, list[str]] = {}
+        for i in range(0, len(low), 900):
+            chunk = low[i:i + 900]
+            q = (f"SELECT [{column}] FROM [{name}] WHERE lower([{column}]) IN ({', '.join('?' * len(chunk))})")
+            for (code,) in self.conn.execute(q, chunk):
+                out.setdefault(code.lower(), []).append(code)
         return out
 
     # --- imported files -------------------------------------------------------------
@@ -839,20 +858,33 @@ class Store:
 
     # --- maintenance --------------------------------------------------------------
     def backup(self, dest: str | os.PathLike) -> None:
-        """Copy the log with SQLite's online backup (safe while others write)."""
+        """Copy the log with SQLite's online backup (safe while others write).
+
+        The copy is written under a temporary name beside ``dest`` and renamed
+        when complete, so a backup stopped part-way (a crash, SIGKILL, a full
+        disk) never leaves a file under the backup's name."""
         dest = pathlib.Path(dest)
         if dest.exists():
             raise PourbackError(f"backup file {dest} exists already; choose a new name")
+        if not dest.parent.is_dir():
+            raise PourbackError(f"could not write the backup {dest}: the folder {dest.parent} does not exist")
+        part = dest.with_name(f".{dest.name}.{os.getpid()}.partial")
         try:
-            target = sqlite3.connect(str(dest))
+            target = sqlite3.connect(str(part))
             try:
                 self.conn.backup(target, pages=-1)  # one step: a stepwise copy restarts on every write
             finally:
                 target.close()
-        except sqlite3.Error as exc:
-            dest.unlink(missing_ok=True)  # never leave a half-written backup behind
+            with open(part, "rb+") as fh:
+                os.fsync(fh.fileno())
+            os.replace(part, dest)
+        except (sqlite3.Error, OSError) as exc:
+            for p in (part, pathlib.Path(f"{part}-journal")):
+                p.unlink(missing_ok=True)  # never leave a half-written backup behind
+            if isinstance(exc, sqlite3.Error) and "full" in str(exc) or getattr(exc, "errno", None) == 28:
+                raise DiskFull(dest) from None
             raise PourbackError(f"could not write the backup {dest} ({exc}); check that its folder "
-                                "exists and has room") from None
+                                "can be written and has room") from None
 
     def integrity_check(self) -> str:
         return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
@@ -862,8 +894,17 @@ def restore(backup_file: str | os.PathLike, dest: str | os.PathLike) -> None:
     """Restore a backup into ``dest`` (which must not exist), checking it first."""
     if pathlib.Path(dest).exists():
         raise PourbackError(f"{dest} exists already; restore into a new file")
+    backup_file = pathlib.Path(backup_file)
+    if backup_file.name.endswith(".partial") and backup_file.name.startswith("."):
+        raise PourbackError(f"backup {backup_file} is a partial backup, left by a backup that was stopped "
+                            "part-way; it is not complete: use another backup (and delete this file)")
+    for side in ("-journal", "-wal"):
+        if pathlib.Path(f"{backup_file}{side}").exists():
+            raise PourbackError(f"backup {backup_file} is incomplete: {backup_file}{side} lies beside it, left "
+                                "by a copy that was stopped part-way; use another backup (a file written by "
+                                "`pourback backup` has no such file beside it)")
     # Read-only: checking a backup must never change it.
-    src = sqlite3.connect(pathlib.Path(backup_file).resolve().as_uri() + "?mode=ro", uri=True)
+    src = sqlite3.connect(backup_file.resolve().as_uri() + "?mode=ro", uri=True)
     try:
         try:
             ok = src.execute("PRAGMA integrity_check").fetchone()[0]

@@ -12,7 +12,8 @@ from tracker.cli import caution_text, db_option, emit, handle_errors, json_optio
 @click.option("--target", type=float, default=0.02, show_default=True,
               help="Shrinkage reject rate to reach, fraction (0.02 = 2 %).")
 @click.option("--week", default=None, help="Review week, e.g. 2026-W47 (default: the week of the latest pour).")
-@click.option("--weeks", type=int, default=13, show_default=True, help="Weeks of history to judge by.")
+@click.option("--weeks", type=click.IntRange(1, 520), default=13, show_default=True,
+              help="Weeks of history to judge by.")
 @click.option("--step-mm", type=float, default=10.0, show_default=True,
               help="The shop's standard riser diameter step, mm.")
 @click.option("--riser-metal-charge", type=float, default=1.0, show_default=True,
@@ -104,7 +105,7 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, db_path, as_json):
 @main.command("fit-model")
 @click.option("--alpha", type=float, default=10.0, show_default=True,
               help="Pull toward the rule-based prior, in castings (more: leans on the rules).")
-@click.option("--folds", type=int, default=5, show_default=True, help="Cross-validation folds (grouped by pattern).")
+@click.option("--folds", type=click.IntRange(2, 100), default=5, show_default=True, help="Cross-validation folds (grouped by pattern).")
 @db_option
 @json_option
 @handle_errors

@@ -12,6 +12,8 @@ import click
 from tracker.cli import db_option, emit, handle_errors, json_option, main, open_store, table
 from tracker.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES
 
+MAX_RECORD_ID = 2**63 - 1  # SQLite's largest integer
+
 
 def _who(by: str | None) -> str:
     if by:
@@ -159,7 +161,7 @@ def log(lot, inspected_on, method, quantity, result, defect, zone, xray_category
 
 
 @main.command()
-@click.argument("record_id", type=int)
+@click.argument("record_id", type=click.IntRange(1, MAX_RECORD_ID))
 @click.option("--reason", required=True, help="Why the record is corrected.")
 @click.option("--by", default=None, help="Who corrects it (default: login name).")
 @click.option("--void", is_flag=True, help="Withdraw the record (entered in error).")
@@ -200,7 +202,8 @@ def correct(record_id, reason, by, void, db_path, as_json, **changes):
 
 @main.command()
 @click.option("--lot", default=None, help="Only this lot.")
-@click.option("--limit", type=int, default=50, show_default=True, help="Newest records to show.")
+@click.option("--limit", type=click.IntRange(1, 1_000_000), default=50, show_default=True,
+              help="Newest records to show.")
 @db_option
 @json_option
 @handle_errors
