@@ -135,6 +135,17 @@ def guard():
         st.error(md_escape(f"could not read or write {exc.filename or 'a file'}: {exc.strerror or exc}"))
 
 
+# --- downloads ---------------------------------------------------------------------------
+
+def download_csv(frame, label: str, file_name: str, key: str) -> None:
+    """A download of ``frame`` as CSV, every cell through the project's formula
+    guard (the tables' built-in download is off: ``client.disableDataExport``)."""
+    from tracker.report import csv_bytes
+
+    st.download_button(label, data=csv_bytes(frame), file_name=file_name, mime="text/csv", key=key,
+                       icon=":material/download:", disabled=frame is None or len(frame) == 0)
+
+
 # --- page furniture -----------------------------------------------------------------------
 
 def header(title: str, intro: str) -> None:

@@ -106,8 +106,10 @@ def latest(state: dict) -> None:
         return
     n = st.number_input("Records to show (newest first)", min_value=10, max_value=1000, value=50, step=10,
                         key="history_limit")
-    st.dataframe(common.load("latest_records", limit=int(n)), hide_index=True, width="stretch",
-                 key="latest_records_table", placeholder="")
+    records = common.load("latest_records", limit=int(n))
+    st.dataframe(records, hide_index=True, width="stretch", key="latest_records_table", placeholder="")
+    common.download_csv(records, "Download these records (CSV)", "pourback-latest-records.csv",
+                        key="download_latest_records")
 
 
 def main() -> None:

@@ -148,11 +148,14 @@ def main() -> None:
     scrap(review)
     trend(review)
     st.subheader("Patterns in the window")
-    st.dataframe(views.review_patterns_table(review), hide_index=True, width="stretch",
+    patterns = views.review_patterns_table(review)
+    st.dataframe(patterns, hide_index=True, width="stretch",
                  key="patterns_table",
                  placeholder="",
                  column_config={"reject rate (%)": st.column_config.NumberColumn(format="%.2f"),
                                 "scrap cost (currency units)": st.column_config.NumberColumn(format="%.0f")})
+    common.download_csv(patterns, "Download the patterns table (CSV)", f"pourback-patterns-{review['week']}.csv",
+                        key="download_patterns")
     control(review)
     revisions(review)
 

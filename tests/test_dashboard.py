@@ -239,7 +239,8 @@ def test_review_headline_charts_and_report(app_demo_db, monkeypatch):
     assert "cumulative share (%)" in titles and "ISO week of pour" in titles
     # The p-chart opens on the first flagged pattern.
     assert at.selectbox(key="chart_pattern").value == r["problems"][0]
-    assert [b.label for b in at.get("download_button")] == ["Download this review as HTML"]
+    assert [b.label for b in at.get("download_button")] == ["Download this review as HTML",
+                                                         "Download the patterns table (CSV)"]
     # The planted revision of P-1031 is judged an improvement.
     assert any("P-1031 revision 2" in m for m in texts(at.markdown))
     assert any("**Verdict:** improved" == m for m in texts(at.markdown))

@@ -31,7 +31,8 @@ def test_dashboard_command_line(runner, launched, tmp_path):
     assert argv == [sys.executable, "-m", "streamlit", "run", str(cmd_app.app_path()),
                     "--server.address", "127.0.0.1", "--server.port", "8765",
                     "--server.headless", "true", "--browser.gatherUsageStats", "false",
-                    "--server.fileWatcherType", "none", "--client.toolbarMode", "minimal"]
+                    "--server.fileWatcherType", "none", "--client.toolbarMode", "minimal",
+                    "--client.disableDataExport", "true"]
     assert cmd_app.app_path().name == "app.py" and cmd_app.app_path().parent.name == "dashboard"
     assert env["POURBACK_DB"] == str(db.resolve())
     assert f"Dashboard on {db.resolve()}: http://127.0.0.1:8765" in res.output

@@ -297,6 +297,8 @@ def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict) -> I
     raw = pd.read_excel(book, sheet_name=sheet, dtype=str, keep_default_na=False, header=None, nrows=1)
     _check_header(name, kind, [str(c) for c in raw.iloc[0]] if len(raw) else cols)
     frame = _normalise(frame)
+    if (frame == "").to_numpy().any():
+        _check_uncalculated(path, sheet, frame)
     # Date cells arrive as timestamps: keep the date part only.
     frame = frame.apply(lambda s: s.str.replace(r"^(\d{4}-\d{2}-\d{2}) 00:00:00$", r"\1", regex=True))
     frame["_row"] = np.arange(len(frame)) + 2
@@ -305,6 +307,32 @@ def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict) -> I
     frame = frame[~blank]
     for i in range(0, max(len(frame), 1), chunk_rows):
         yield frame.iloc[i:i + chunk_rows]
+
+
+def _check_uncalculated(path: pathlib.Path, sheet: str, frame: pd.DataFrame) -> None:
+    """Refuse formula cells whose value was never calculated (a workbook written
+    by a program that stores formulas without their results): they read as
+    blank, and a blank would be taken for a value left out."""
+    import openpyxl
+
+    book = openpyxl.load_workbook(path, read_only=True, data_only=False)
+    try:
+        problems = []
+        cols = list(frame.columns)
+        empty = (frame == "").to_numpy()
+        for r, values in enumerate(book[sheet].iter_rows(min_row=2, values_only=True)):
+            if r >= len(frame):
+                break
+            for j, v in enumerate(values[:len(cols)]):
+                if empty[r, j] and isinstance(v, str) and v.startswith("="):
+                    problems.append(BadRow(path.name, r + 2, cols[j],
+                                           f"the cell holds the formula {cut(v, 40)} whose value was never "
+                                           "calculated; open the file in a spreadsheet program, save it (that "
+                                           "calculates every formula) and import it again"))
+    finally:
+        book.close()
+    if problems:
+        raise BadFile(path.name, problems)
 
 
 def _normalise(chunk: pd.DataFrame) -> pd.DataFrame:

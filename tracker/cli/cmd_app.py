@@ -35,7 +35,10 @@ def streamlit_argv(host: str, port: int) -> list[str]:
     return [sys.executable, "-m", "streamlit", "run", str(app_path()),
             "--server.address", host, "--server.port", str(port), "--server.headless", "true",
             "--browser.gatherUsageStats", "false", "--server.fileWatcherType", "none",
-            "--client.toolbarMode", "minimal"]
+            "--client.toolbarMode", "minimal",
+            # The tables' own CSV download writes cells unguarded: it is off, and the
+            # pages offer downloads through tracker.report.csv_bytes instead.
+            "--client.disableDataExport", "true"]
 
 
 def _launch(argv: list[str], env: dict) -> int:
