@@ -10,21 +10,41 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboard import common
+from dashboard import access, common
 
 st.set_page_config(page_title="Pourback", page_icon=":material/insights:", layout="wide")
 
-PAGES = [
-    st.Page("log_results.py", title="Log results", icon=":material/edit_note:", url_path="log",
-            default=True),
-    st.Page("weekly_review.py", title="Weekly review", icon=":material/calendar_view_week:",
-            url_path="review"),
-    st.Page("design_map.py", title="Design map", icon=":material/scatter_plot:", url_path="design-map"),
-    st.Page("pattern_file.py", title="Pattern file", icon=":material/folder_open:", url_path="pattern"),
-    st.Page("suggestions.py", title="Suggestions", icon=":material/tune:", url_path="suggestions"),
+# file, title, icon, address; "/" opens the first (through HOME below)
+SPECS = [
+    ("log_results.py", "Log results", ":material/edit_note:", "log"),
+    ("weekly_review.py", "Weekly review", ":material/calendar_view_week:", "review"),
+    ("design_map.py", "Design map", ":material/scatter_plot:", "design-map"),
+    ("pattern_file.py", "Pattern file", ":material/folder_open:", "pattern"),
+    ("suggestions.py", "Suggestions", ":material/tune:", "suggestions"),
 ]
+HOME_URL = "home"  # the hidden start page at "/" (see HOME below)
+TEAM = ("team.py", "Team", ":material/group:", "team")  # admins, signed in
 
-page = st.navigation(PAGES)
+# Served with sign-in, a visitor sees the sign-in form and nothing else until signed in.
+if not access.gate(common.db_path(), [HOME_URL, *(url for *_, url in (*SPECS, TEAM))]):
+    st.stop()
+if access.session() is not None and access.can("users"):
+    SPECS.append(TEAM)
+PAGES = [st.Page(file, title=title, icon=icon, url_path=url) for file, title, icon, url in SPECS]
+LOG = PAGES[0]
+
+
+def _home() -> None:
+    st.switch_page(LOG)
+
+
+# Streamlit serves its default page at "/" whatever its url_path, so "/log" would be
+# "page not found": the default is a hidden page that moves on to /log, and every
+# visible page keeps its own address.
+HOME = st.Page(_home, title="Pourback", url_path=HOME_URL, default=True, visibility="hidden")
+
+page = st.navigation([HOME, *PAGES])
+common.style()
 
 with common.guard():
     page.run()
@@ -34,6 +54,7 @@ common.caution()
 
 # After the page, so the counts include what the page just wrote.
 with st.sidebar:
+    access.sidebar(common.db_path())
     st.caption("Log file")
     st.text(common.db_path())
     with common.guard():

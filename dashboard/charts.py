@@ -29,14 +29,15 @@ def pareto(df: pd.DataFrame, item: str, value_title: str, item_title: str) -> al
     if df.empty:
         return _empty("nothing rejected in this window")
     order = df[item].tolist()
+    # every bar keeps its label: the frame holds at most a dozen bars (the rest in one)
     base = alt.Chart(df).encode(x=alt.X(f"{item}:N", sort=order, title=item_title,
-                                        axis=alt.Axis(labelAngle=-45)))
+                                        axis=alt.Axis(labelAngle=-45, labelOverlap=False, labelLimit=200)))
     tips = [alt.Tooltip(f"{item}:N", title=item_title),
             alt.Tooltip("value:Q", title=value_title, format=",.0f"),
             alt.Tooltip("share_pct:Q", title="share (%)", format=".1f"),
             alt.Tooltip("cumulative_pct:Q", title="cumulative share (%)", format=".1f")]
     bars = base.mark_bar(color=INK).encode(
-        y=alt.Y("value:Q", title=value_title),
+        y=alt.Y("value:Q", title=value_title, axis=alt.Axis(format=",.0f")),
         opacity=alt.condition("datum.vital_few", alt.value(1.0), alt.value(0.45)),
         tooltip=tips)
     line = base.mark_line(color=ATTENTION, point=alt.OverlayMarkDef(color=ATTENTION)).encode(
@@ -50,7 +51,7 @@ def _week_axis(df: pd.DataFrame) -> alt.X:
                  axis=alt.Axis(labelAngle=-45, labelOverlap=True))
 
 
-def trend(df: pd.DataFrame, target_pct: float) -> alt.LayerChart | alt.Chart:
+def trend(df: pd.DataFrame, target_pct: float, cost_title: str = "scrap cost") -> alt.LayerChart | alt.Chart:
     """Weekly reject rate (%) of all patterns with its 95 % Wilson band and the target."""
     if df.empty:
         return _empty("no pours in this window")
@@ -60,7 +61,7 @@ def trend(df: pd.DataFrame, target_pct: float) -> alt.LayerChart | alt.Chart:
             alt.Tooltip("reject_rate_pct:Q", title="reject rate (%)", format=".2f"),
             alt.Tooltip("wilson_low_pct:Q", title="low bound (%)", format=".2f"),
             alt.Tooltip("wilson_high_pct:Q", title="high bound (%)", format=".2f"),
-            alt.Tooltip("scrap_cost:Q", title="scrap cost (currency units)", format=",.0f")]
+            alt.Tooltip("scrap_cost:Q", title=cost_title, format=",.0f")]
     base = alt.Chart(df).encode(x=_week_axis(df))
     band = base.mark_area(color=CONTEXT, opacity=0.3).encode(
         y=alt.Y("wilson_low_pct:Q", title="reject rate (% of castings inspected)"), y2="wilson_high_pct:Q")

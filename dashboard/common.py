@@ -9,13 +9,14 @@ its data version, so reruns on a big log are fast) and write through
 from __future__ import annotations
 
 import contextlib
+import datetime as dt
 import os
 import re
 import sqlite3
 
 import streamlit as st
 
-from tracker import views
+from tracker import limits, views
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadFile, PourbackError
 from tracker.store import Store, log_error, resolve_path
@@ -34,6 +35,7 @@ def _registry() -> dict:
         "zone_options": views.zone_options,
         "latest_records": views.latest_records,
         "week_options": views.week_options,
+        "default_week": review.default_week,
         "pattern_weekly": views.pattern_weekly,
         "pattern_summary": views.pattern_summary,
         "risers_by_revision": views.risers_by_revision,
@@ -56,9 +58,13 @@ def db_path() -> str:
 
 
 def open_store() -> Store:
-    """A new connection to the log (close it: use ``with``). A missing log is an
-    error, never created here: only ``pourback init`` and ``demo`` create one."""
-    return Store(db_path(), create=False)
+    """A new connection to the log for a write (close it: use ``with``): made as
+    the signed-in user, whose role the library checks on every write. A missing
+    log is an error, never created here: only ``pourback init`` and ``demo``
+    create one."""
+    from dashboard import access
+
+    return access.open_store(db_path())
 
 
 @st.cache_data(show_spinner=False, max_entries=256)
@@ -147,6 +153,72 @@ def download_csv(frame, label: str, file_name: str, key: str) -> None:
 
 
 # --- page furniture -----------------------------------------------------------------------
+
+def review_controls() -> tuple[str, int, float]:
+    """Review week, weeks in the window and target reject rate (%), the same on every page:
+    the week opens on the last complete week with pours; limits from ``tracker.limits``."""
+    weeks_available = load("week_options")
+    default = load("default_week", today=dt.date.today().isoformat())
+    c1, c2, c3 = st.columns([2, 1, 1])
+    week = c1.selectbox("Review week (ISO week of pour)", weeks_available, key="week",
+                        index=weeks_available.index(default) if default in weeks_available else 0,
+                        help="Opens on the last complete week with pours; a week still running is "
+                             "never the default.")
+    weeks = c2.number_input("Weeks in the window", min_value=limits.WEEKS_MIN, max_value=limits.WEEKS_MAX,
+                            value=limits.WEEKS_DEFAULT, step=1, key="weeks", help=limits.WEEKS_HELP)
+    target = c3.number_input("Target reject rate (%)", min_value=100 * limits.TARGET_MIN,
+                             max_value=100 * limits.TARGET_MAX, value=100 * limits.TARGET_DEFAULT, step=0.5,
+                             format="%.1f", key="target", help=limits.TARGET_HELP.replace("a fraction", "%"))
+    return week, int(weeks), float(target)
+
+
+# Below this window width (px) the sidebar starts collapsed: a tablet's 800 px then
+# gives the page its whole width (the menu stays one tap away, top left).
+NARROW_PX = 1000
+
+_STYLE = """
+<style>
+/* metric labels and values wrap instead of being cut off with an ellipsis */
+[data-testid="stMetricLabel"], [data-testid="stMetricLabel"] * ,
+[data-testid="stMetricValue"], [data-testid="stMetricValue"] * {
+  white-space: normal !important; overflow: visible !important; text-overflow: clip !important;
+}
+[data-testid="stMetricValue"] > div { overflow-wrap: anywhere; }
+@media (max-width: %(narrow)dpx) {
+  [data-testid="stMetricValue"] { font-size: 1.6rem !important; }
+  [data-testid="stMainBlockContainer"] { padding-left: 1.5rem !important; padding-right: 1.5rem !important; }
+}
+</style>
+"""
+
+_COLLAPSE = """
+<script>
+(function () {
+  // once per browser tab: a reader who opens the menu again keeps it open
+  const KEY = "pourback-sidebar-collapsed";
+  if (window.innerWidth >= %(narrow)d || window.sessionStorage.getItem(KEY)) { return; }
+  let tries = 0;
+  const timer = window.setInterval(function () {
+    const button = document.querySelector('[data-testid="stSidebarCollapseButton"] button');
+    if (button && button.getAttribute("aria-expanded") === "true") {
+      button.click();
+      window.sessionStorage.setItem(KEY, "1");
+      window.clearInterval(timer);
+    } else if (++tries > 50) {
+      window.clearInterval(timer);
+    }
+  }, 100);
+})();
+</script>
+"""
+
+
+def style() -> None:
+    """The dashboard's layout rules: wrapping metrics, and the sidebar collapsed below NARROW_PX."""
+    st.html(_STYLE % {"narrow": NARROW_PX})
+    with st.sidebar:
+        st.html(_COLLAPSE % {"narrow": NARROW_PX}, unsafe_allow_javascript=True)
+
 
 def header(title: str, intro: str) -> None:
     st.title(title)

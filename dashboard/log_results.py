@@ -8,7 +8,8 @@ import tempfile
 
 import streamlit as st
 
-from dashboard import common
+from dashboard import access, common
+from tracker.auth import MAX_UPLOAD_MB, TABLE_ACTION
 from tracker import views
 from tracker.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES, import_file, log_inspection
 
@@ -25,6 +26,9 @@ KIND_HELP = {
 
 def record_form(state: dict) -> None:
     st.subheader("Record an inspection result")
+    if not access.can("log"):
+        st.caption(access.not_offered("log"))
+        return
     lots = common.load("lot_options")
     if lots.empty:
         st.caption("No lots in the log yet: import patterns, zones, sleeves, risers and lots below, "
@@ -51,14 +55,13 @@ def record_form(state: dict) -> None:
         c1, c2, c3 = st.columns(3)
         inspector = c1.text_input("Inspector", key="inspector", max_chars=100)
         serial = c2.text_input("Casting serial (optional)", key="serial", max_chars=100)
-        recorded_by = c3.text_input("Your name (required; recorded as who logged it)", key="recorded_by",
-                                    max_chars=100)
+        recorded_by = access.author_field(c3, "Your name (required; recorded as who logged it)", "recorded_by")
         notes = st.text_area("Notes", key="notes", max_chars=2000, height=80)
         saved = st.form_submit_button("Save record", type="primary", key="save")
 
     if not saved:
         return
-    if not recorded_by.strip():
+    if not recorded_by:
         st.error("Name the person logging the result: the record keeps who logged it.")
         return
     record = views.form_record({
@@ -67,7 +70,7 @@ def record_form(state: dict) -> None:
         "severity": severity, "serial": serial, "inspector": inspector, "notes": notes})
     with common.guard():
         with common.open_store() as store:
-            rid = log_inspection(store, record, by=recorded_by.strip(), source="dashboard")
+            rid = log_inspection(store, record, by=recorded_by, source="dashboard")
         common.forget()
         n = int(quantity)
         st.success(f"Saved record {rid}: lot {common.md_escape(lot)}, {n} casting{'s' if n != 1 else ''}, "
@@ -76,24 +79,30 @@ def record_form(state: dict) -> None:
 
 def upload_file() -> None:
     st.subheader("Import a file")
+    kinds = [k for k in KINDS if access.can(TABLE_ACTION[k])]
+    if not kinds:
+        st.caption(access.not_offered("log"))
+        return
     st.caption("One bad row refuses the whole file and nothing is written; every refused row is "
                "listed with its row number (the header is row 1), column and reason.")
     c1, c2 = st.columns([1, 2])
-    kind = c1.selectbox("What the file holds", KINDS, index=KINDS.index("inspections"), key="kind")
+    kind = c1.selectbox("What the file holds", kinds, index=kinds.index("inspections"), key="kind")
     c2.caption("Columns: " + KIND_HELP[kind])
-    upload = st.file_uploader("CSV (UTF-8) or Excel workbook (.xlsx)", type=["csv", "xlsx"], key="upload")
-    by = st.text_input("Your name (required; recorded with each imported record)", key="import_by",
-                       max_chars=100)
+    upload = st.file_uploader(f"CSV (UTF-8) or Excel workbook (.xlsx), at most {MAX_UPLOAD_MB} MB",
+                              type=["csv", "xlsx"], key="upload",
+                              help=f"{MAX_UPLOAD_MB} MB holds about 70,000 CSV rows: more than a day's "
+                                   "inspection and lot files. Import bigger files with `pourback import`.")
+    by = access.author_field(st, "Your name (required; recorded with each imported record)", "import_by")
     if not st.button("Import file", key="import", disabled=upload is None):
         return
-    if not by.strip():
+    if not by:
         st.error("Name the person importing the file: each record keeps who logged it.")
         return
     with common.guard(), tempfile.TemporaryDirectory(prefix="pourback-upload-") as tmp:
         path = pathlib.Path(tmp) / (pathlib.Path(upload.name).name or f"upload.{kind}.csv")
         path.write_bytes(upload.getvalue())
         with common.open_store() as store:
-            res = import_file(store, kind, path, by=by.strip())
+            res = import_file(store, kind, path, by=by)
         common.forget()
         st.success(f"Imported {common.md_escape(res.file)}: {res.rows:,} rows read, {res.added:,} added, "
                    f"{res.skipped:,} already present.")

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboard import charts, common
+from dashboard import access, charts, common
 from tracker import views
 
 NUMBER = st.column_config.NumberColumn
@@ -118,16 +118,14 @@ def main() -> None:
     if not state["ready"] or not state["has_design"]:
         common.start_message(state, "suggestions (they need risers, lots and inspections)")
         return
-    weeks_available = common.load("week_options")
-    c1, c2, c3 = st.columns([2, 1, 1])
-    week = c1.selectbox("Review week (ISO week of pour)", weeks_available, key="week")
-    weeks = int(c2.number_input("Weeks in the window", min_value=1, max_value=104, value=13, step=1,
-                                key="weeks"))
-    target = float(c3.number_input("Target shrinkage rate (%)", min_value=0.1, max_value=50.0, value=2.0,
-                                   step=0.5, format="%.1f", key="target"))
+    week, weeks, target = common.review_controls()
     found = suggestion_list(week, weeks, target)
     st.divider()
-    what_if(found)
+    if access.can("what_if"):
+        what_if(found)
+    else:
+        st.subheader("What if")
+        st.caption(access.not_offered("what_if"))
 
 
 main()

@@ -8,16 +8,6 @@ from dashboard import charts, common
 from tracker import views
 
 
-def controls(weeks_available: list[str]) -> tuple[str, int, float]:
-    c1, c2, c3 = st.columns([2, 1, 1])
-    week = c1.selectbox("Review week (ISO week of pour)", weeks_available, key="week")
-    weeks = c2.number_input("Weeks in the window", min_value=1, max_value=104, value=13, step=1,
-                            key="weeks")
-    target = c3.number_input("Target reject rate (%)", min_value=0.0, max_value=50.0, value=2.0, step=0.5,
-                             format="%.1f", key="target")
-    return week, int(weeks), float(target)
-
-
 def headline(review: dict) -> None:
     h = views.review_headline(review)
     st.markdown(f"**Week {review['week']}** ({review['week_start']} to {review['week_end']}); "
@@ -33,9 +23,9 @@ def headline(review: dict) -> None:
         c[2].metric(f"Reject rate, {name}", common.pct(t["reject_rate_pct"], 2),
                     help=f"95 % range {common.pct(t['wilson_low_pct'], 2)} to "
                          f"{common.pct(t['wilson_high_pct'], 2)}; target {h['target_pct']:g} %")
-        c[3].metric(f"Scrap cost, {name} (currency units)", common.money(t["scrap_cost"]))
+        c[3].metric(f"Scrap cost, {name} ({h['currency']})", common.money(t["scrap_cost"]))
     flagged = h["problems"]
-    st.markdown(f"**Patterns flagged:** {len(flagged)} of {h['patterns']} poured"
+    st.markdown(f"**Patterns flagged:** {len(flagged)} of {h['patterns']:,} poured"
                 + (": " + common.md_escape(", ".join(flagged)) if flagged else ""))
 
 
@@ -55,23 +45,27 @@ def changes(review: dict) -> None:
         c3.text("\n".join(ch["rate_moves"]) or "none")
 
 
+PARETO_BARS = 12  # the largest 11 and one bar for the rest: every bar keeps its label
+
+
 def scrap(review: dict) -> None:
     st.subheader("Where the scrap is")
     c1, c2 = st.columns(2)
     of = c1.radio("Rank", ["patterns", "defects"], horizontal=True, key="pareto_of")
     by = c2.radio("By", ["cost", "count"], horizontal=True, key="pareto_by",
                   format_func={"cost": "scrap cost", "count": "castings rejected"}.get)
-    data = views.review_pareto(review, of, by)
+    data = views.review_pareto(review, of, by, top=PARETO_BARS)
     item = "pattern" if of == "patterns" else "defect"
-    value = "scrap cost (currency units)" if by == "cost" else "castings rejected"
-    st.altair_chart(charts.pareto(data, item, value, item), width="stretch")
-    st.caption("Bars: the window's scrap, largest first (faded after the items that make up 80 %). "
-               "Line: cumulative share (%, right axis).")
+    value = views.money_head("scrap cost", review) if by == "cost" else "castings rejected"
+    st.altair_chart(charts.pareto(data, item, value, item), width="stretch", key="pareto_chart")
+    st.caption(f"Bars: the window's scrap, largest first (faded after the items that make up 80 %); at most "
+               f"{PARETO_BARS} bars, the last one holding all the rest. Line: cumulative share (%, right axis).")
 
 
 def trend(review: dict) -> None:
     st.subheader("Trend")
-    st.altair_chart(charts.trend(views.review_trend(review), 100.0 * review["target"]), width="stretch")
+    st.altair_chart(charts.trend(views.review_trend(review), 100.0 * review["target"],
+                                 views.money_head("scrap cost", review)), width="stretch", key="trend_chart")
     st.caption("All patterns: weekly reject rate with its 95 % range (shaded), against the target.")
 
 
@@ -84,9 +78,9 @@ def control(review: dict) -> None:
     labels = {p["pattern"]: p["pattern"] + (" · flagged" if p["problem"] else "") for p in rows}
     code = st.selectbox("Pattern", codes, index=default, format_func=labels.get, key="chart_pattern")
     chart = views.review_pchart(review, code)
-    st.altair_chart(charts.p_chart(chart), width="stretch")
+    st.altair_chart(charts.p_chart(chart), width="stretch", key="pchart_chart")
     row = next(p for p in rows if p["pattern"] == code)
-    fired = views.signal_words(row["signal_rules"])
+    fired = views.signal_words(row["signal_rules"], row["signal_high_rules"])
     why = views.reason_words(row["problem_reasons"])
     st.caption("Weekly reject rate against the pattern's centre (dashed: its rate over the window); the "
                "shaded bar of each week runs between its limits, 3 standard errors either side of the "
@@ -95,28 +89,53 @@ def control(review: dict) -> None:
                + (f"Flagged: {why}." if why else "Not flagged."))
 
 
+def signals(review: dict) -> None:
+    st.subheader("Chart signals")
+    table = views.review_signals(review)
+    if table.empty:
+        st.caption("No pattern's control chart signals in this window.")
+        return
+    st.dataframe(table, hide_index=True, width="stretch", key="signals_table")
+    st.caption("Signal rules on each pattern's weekly chart (NIST/SEMATECH e-Handbook 6.3.3.2; Western "
+               "Electric run rule): a point beyond a limit, or 8 or more weeks in a row on one side of the "
+               "centre. A signal on the low side means fewer rejects than usual and does not flag a pattern.")
+
+
 def revisions(review: dict) -> None:
     st.subheader("Riser revisions under judgement")
     table = views.review_revisions_table(review)
     if table.empty:
-        st.caption("No riser revision took effect in this window or is still waiting for data.")
+        st.caption("No riser revision took effect in this window or is still waiting for a verdict.")
         return
     for row in table.to_dict("records"):
         with st.container(border=True):
-            c1, c2, c3 = st.columns([3, 2, 1])
-            c1.markdown(common.md_escape(f"{row['pattern']} revision {row['revision']}, "
-                                         f"in effect from {row['effective from']}"))
-            c1.caption(common.md_escape(row["what changed"]))
-            c2.markdown(common.md_escape(f"Before: {row['before: shrinkage rejects']}"))
-            c2.markdown(common.md_escape(f"After: {row['after: shrinkage rejects']}"))
-            p = row["p-value (Fisher)"]
-            d = row["change (% points)"]
-            c3.markdown("**Verdict:** " + common.md_escape(row["verdict"]))
-            c3.caption(("" if d != d else f"change {d:+.1f} % points")
-                       + ("" if p is None or p != p else f"; Fisher's exact test p = {p:.2g}"))
+            st.markdown(common.md_escape(f"{row['pattern']} revision {row['revision']}, in effect from "
+                                         f"{row['effective from']}")
+                        + ("" if row["took effect in the window"] == "yes" else
+                           " · *took effect before this window; still awaiting a verdict*"))
+            st.markdown("**Verdict:** " + common.md_escape(row["verdict in words"]) + ".",
+                        help=common.md_escape(row["statistics"]))
+            st.caption(common.md_escape(f"What changed: {row['what changed']}. Before: "
+                                        f"{row['before: shrinkage rejects']}; after: "
+                                        f"{row['after: shrinkage rejects']}."))
     st.caption("Shrinkage rejects of castings inspected, in the zones of the changed risers: lots poured "
-               "under the previous revision against lots poured since. 'Not enough data yet' means the "
-               "castings since the change are too few to tell a halving of the rate from chance.")
+               "under the previous revision against lots poured since. A revision stays here until it has "
+               "a verdict. Hover the ? for the statistics behind a verdict.")
+
+
+def patterns(review: dict) -> None:
+    st.subheader("Patterns in the window")
+    full = st.toggle("Show every column", key="patterns_all_columns",
+                     help="Poured castings, the 95 % range of the rate, shrinkage rejects and chart signals.")
+    cost = views.money_head("scrap cost", review)
+    st.dataframe(views.review_patterns_table(review, full=full), hide_index=True, width="stretch",
+                 key="patterns_table", placeholder="",
+                 column_config={"reject rate (%)": st.column_config.NumberColumn(format="%.2f"),
+                                "rejected (castings)": st.column_config.NumberColumn(format="localized"),
+                                "poured (castings)": st.column_config.NumberColumn(format="localized"),
+                                cost: st.column_config.NumberColumn(format="localized")})
+    common.download_csv(views.review_patterns_table(review, full=True), "Download the patterns table (CSV)",
+                        f"pourback-patterns-{review['week']}.csv", key="download_patterns")
 
 
 def download(review: dict) -> None:
@@ -137,7 +156,7 @@ def main() -> None:
     if not state["ready"]:
         common.start_message(state, "a review")
         return
-    week, weeks, target = controls(common.load("week_options"))
+    week, weeks, target = common.review_controls()
     review = common.load("weekly_review", week=week, weeks=weeks, target=target / 100.0)
     if not review["patterns"]:
         st.info(f"Nothing was poured in the {weeks} weeks up to {week}. Pick another week.")
@@ -147,16 +166,9 @@ def main() -> None:
     changes(review)
     scrap(review)
     trend(review)
-    st.subheader("Patterns in the window")
-    patterns = views.review_patterns_table(review)
-    st.dataframe(patterns, hide_index=True, width="stretch",
-                 key="patterns_table",
-                 placeholder="",
-                 column_config={"reject rate (%)": st.column_config.NumberColumn(format="%.2f"),
-                                "scrap cost (currency units)": st.column_config.NumberColumn(format="%.0f")})
-    common.download_csv(patterns, "Download the patterns table (CSV)", f"pourback-patterns-{review['week']}.csv",
-                        key="download_patterns")
+    patterns(review)
     control(review)
+    signals(review)
     revisions(review)
 
 

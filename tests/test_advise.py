@@ -129,7 +129,7 @@ def test_suggest_cli_json(demo_db, tmp_path, runner):
     assert rows and all(k in rows[0] for k in KEYS)
     res = runner.invoke(main, ["suggest", "--db", str(db), "--target", "2"])
     assert res.exit_code == 1
-    assert "target: got 2.0; must be a fraction between 0 and 1" in res.output
+    assert "target: got 2.0; the target reject rate is a fraction from 0 to 0.5" in res.output
 
 
 def _twin_riser_log(tmp_path, store):

@@ -243,7 +243,10 @@ def test_review_headline_charts_and_report(app_demo_db, monkeypatch):
                                                          "Download the patterns table (CSV)"]
     # The planted revision of P-1031 is judged an improvement.
     assert any("P-1031 revision 2" in m for m in texts(at.markdown))
-    assert any("**Verdict:** improved" == m for m in texts(at.markdown))
+    # the verdict in plain words first (the statistics are in its help tooltip)
+    verdict = next(m for m in at.markdown if m.value.startswith("**Verdict:**"))
+    assert texts([verdict])[0].startswith("**Verdict:** improved: shrinkage fell from ")
+    assert "Fisher's exact test p =" in re.sub(r"\\(.)", r"\1", verdict.help)
 
 
 def test_review_follows_the_week_picker(app_demo_db, monkeypatch):
@@ -320,9 +323,10 @@ def test_pattern_file_shows_revisions_and_marks_them(app_demo_db, monkeypatch):
 def test_pattern_file_opens_on_the_query_parameter(app_demo_db, monkeypatch):
     monkeypatch.setenv("POURBACK_DB", str(app_demo_db))
     at = AppTest.from_file(str(APP), default_timeout=60)
+    at.run()
+    at.switch_page("pattern_file.py")
     at.query_params["pattern"] = "P-1036"
     at.run()
-    at.switch_page("pattern_file.py").run()
     assert at.selectbox(key="pattern").value == "P-1036"
 
 

@@ -32,6 +32,7 @@ def test_dashboard_command_line(runner, launched, tmp_path):
                     "--server.address", "127.0.0.1", "--server.port", "8765",
                     "--server.headless", "true", "--browser.gatherUsageStats", "false",
                     "--server.fileWatcherType", "none", "--client.toolbarMode", "minimal",
+                    "--server.enableXsrfProtection", "true", "--server.maxUploadSize", "10",
                     "--client.disableDataExport", "true"]
     assert cmd_app.app_path().name == "app.py" and cmd_app.app_path().parent.name == "dashboard"
     assert env["POURBACK_DB"] == str(db.resolve())
@@ -65,12 +66,12 @@ def test_dashboard_uses_pourback_db(runner, launched, tmp_path, monkeypatch):
     assert "--server.port" in launched[0][0] and launched[0][0][launched[0][0].index("--server.port") + 1] == "8501"
 
 
-def test_dashboard_other_host_warns(runner, launched, tmp_path):
+def test_dashboard_other_host_refuses_without_an_admin(runner, launched, tmp_path):
     res = runner.invoke(main, ["dashboard", "--db", str(_log(tmp_path / "x.db")), "--host", "0.0.0.0"])
-    assert res.exit_code == 0, res.output
-    argv = launched[0][0]
-    assert argv[argv.index("--server.address") + 1] == "0.0.0.0"
-    assert "Note: the dashboard has no login; anyone who can reach 0.0.0.0:8501" in res.output
+    assert res.exit_code == 1
+    assert "Error: refusing to serve the dashboard on 0.0.0.0: beyond this computer" in res.output
+    assert "pourback user add NAME --role admin" in res.output
+    assert not launched
 
 
 def test_dashboard_refuses_a_bad_port(runner, launched, tmp_path):

@@ -12,7 +12,7 @@ import re
 import pytest
 
 from tracker import stats
-from tracker.cautions import SAFETY_CAUTION
+from tracker.cautions import SAFETY_CAUTION, SAFETY_CAUTION_SHORT
 from tracker.errors import BadInput
 from tracker.ingest import import_dir
 from tracker.report import ALERT, FORMATS, render, safe_cell
@@ -116,9 +116,11 @@ def test_unknown_format_is_refused(empty_review):
 def test_text_table_states_units(demo_review):
     text = render(demo_review, "table")
     for head in ("Poured (castings)", "Rejected (castings)", "Reject rate (%)", "95 % interval (%)",
-                 "Scrap cost", "Shrinkage rejects (castings)"):
+                 "Scrap cost (EUR)", "Shrinkage rejects (castings)"):
         assert head in text
-    assert "CAUTION: " + SAFETY_CAUTION in text
+    # the terminal gets the caution once, in its two-line form naming where the full text is
+    assert text.count("CAUTION") == 1 and SAFETY_CAUTION_SHORT in text
+    assert len(SAFETY_CAUTION_SHORT.splitlines()) == 2 and "README.md" in SAFETY_CAUTION_SHORT
 
 
 # --- HTML ---------------------------------------------------------------------------------

@@ -372,7 +372,8 @@ def test_empty_log_gives_empty_review():
     assert all(w["poured"] == 0 and w["reject_rate"] is None for w in r["trend"]["overall"])
     assert r["totals"]["window"]["rejected"] == 0 and r["totals"]["window"]["reject_rate"] is None
     assert r["changes"]["new_problems"] == [] and r["changes"]["rate_moves"] == []
-    assert r_default["week"] == stats.iso_week(dt.date.today())
+    # nothing poured: the default is the last week that has ended
+    assert r_default["week"] == stats.iso_week(dt.date.today() - dt.timedelta(weeks=1))
     json.dumps(r, allow_nan=False)
 
 

@@ -30,14 +30,14 @@ import math
 import numpy as np
 import pandas as pd
 
-from tracker import geometry, rules
+from tracker import geometry, limits, rules
 from tracker.assess import assess_frame, revision_in_effect
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadInput, NotFound
 from tracker.features import aggregate_for_fit, zone_lot_features
 from tracker.model import ShrinkageRejectModel
 from tracker.sizing import size_riser
-from tracker.stats import iso_week, week_start, wilson_interval
+from tracker.stats import week_start, wilson_interval
 from tracker.store import Store
 
 ACTIONS = ("enlarge", "sleeve", "enlarge_and_sleeve", "neck", "no_riser_change")
@@ -84,7 +84,7 @@ def fit_model(store: Store, *, alpha: float = 10.0, save: bool = True) -> Shrink
 
 def get_model(store: Store, refit: bool = False) -> ShrinkageRejectModel | None:
     """The stored model if it was fitted on the log as it is now, else a new fit."""
-    from tracker.model import IncompatibleModel
+    from tracker.errors import IncompatibleModel
 
     if not refit:
         saved = store.latest_model()
@@ -101,11 +101,11 @@ def get_model(store: Store, refit: bool = False) -> ShrinkageRejectModel | None:
 
 def review_window(store: Store, week: str | None, weeks: int) -> tuple[str, dt.date, dt.date]:
     """(ISO week, first day, last day) of a window of ``weeks`` ending with ``week``."""
-    if int(weeks) < 1:
-        raise BadInput("weeks", weeks, "must be a whole number of weeks, 1 or more")
+    from tracker.review import default_week
+
+    weeks = limits.check_weeks(weeks)
     if week is None:
-        _, last = store.pour_span()
-        week = iso_week(last) if last else iso_week(dt.date.today())
+        week = default_week(store)
     monday = week_start(week)
     return week, monday - dt.timedelta(weeks=int(weeks) - 1), monday + dt.timedelta(days=6)
 
@@ -251,20 +251,20 @@ def _pattern_window_stats(store: Store, pattern: str, start: str, end: str, curr
     return lots, by_defect, zones
 
 
-def suggest(store: Store, pattern: str | None = None, target: float = 0.02, week: str | None = None,
-            weeks: int = 13, step_mm: float = DEFAULT_STEP_MM, model=None, refit: bool = False,
+def suggest(store: Store, pattern: str | None = None, target: float = limits.TARGET_DEFAULT, week: str | None = None,
+            weeks: int = limits.WEEKS_DEFAULT, step_mm: float = DEFAULT_STEP_MM, model=None, refit: bool = False,
             riser_metal_charge: float = 1.0) -> list[dict]:
     """Suggestions for each problem pattern (or for ``pattern`` alone).
 
-    target: shrinkage reject rate to reach, fraction (0.02 = 2 %).
+    target: the target reject rate (``tracker.limits``), fraction (0.02 = 2 %): the
+    review flags patterns by it, and a zone's shrinkage rate is brought down to it.
     step_mm: the shop's standard riser diameter step, mm.
     riser_metal_charge: share of the metal cost per kg charged for extra
     riser metal (1.0: full cost; a shop that remelts its returns pays only
     melting and losses, so it may set less).
     Returns one dict per problem zone (or per pattern for no_riser_change).
     """
-    if not 0 < target < 1:
-        raise BadInput("target", target, "must be a fraction between 0 and 1 (0.02 = 2 %)")
+    target = limits.check_target(target)
     if not step_mm > 0:
         raise BadInput("step_mm", step_mm, "the diameter step must be above 0 mm")
     if not 0 <= riser_metal_charge <= 1:

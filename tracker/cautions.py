@@ -8,3 +8,9 @@ SAFETY_CAUTION = (
     "simulation or trial pours and by inspection to the governing specification; "
     "local codes, customer specifications and licensed practice take precedence."
 )
+
+# The command line's form: two lines, once per output, saying where the full text is.
+SAFETY_CAUTION_SHORT = (
+    "CAUTION: screening estimate only; the responsible methods engineer must confirm every riser\n"
+    "(simulation or trial pours, inspection). Full caution: README.md 'Cautions', the dashboard, any report."
+)

@@ -81,6 +81,57 @@ class NotFound(PourbackError, LookupError):
         super().__init__(msg + (f"; {hint}" if hint else ""))
 
 
+class MissingColumn(PourbackError, ValueError):
+    """A feature table lacks columns the shrinkage model needs."""
+
+    def __init__(self, missing, needed, table: str = "features"):
+        self.missing = list(missing)
+        self.needed = list(needed)
+        names = ", ".join(repr(c) for c in self.missing)
+        super().__init__(
+            f"{table}: missing column(s) {names}; the shrinkage model needs columns "
+            f"{', '.join(self.needed)} (the design engine adds them to each lot and zone)")
+
+
+class IncompatibleModel(PourbackError, ValueError):
+    """A saved model blob cannot be loaded by this install."""
+
+
+class PermissionDenied(PourbackError, PermissionError):
+    """The signed-in user's role may not do what was asked; nothing was written."""
+
+    def __init__(self, user: str, role: str | None, action: str, allowed: list[str], what: str):
+        self.user = user
+        self.role = role
+        self.action = action
+        as_role = f" (role {role})" if role else ""
+        who = " or ".join(allowed) if allowed else "no role"
+        super().__init__(f"{user}{as_role} may not {what}; nothing was written. That needs the role {who}: "
+                         "sign in as such a user, or ask an admin to give you an account with it")
+
+
+class SignInRefused(PourbackError):
+    """A sign-in failed: unknown user, wrong password, disabled or locked account.
+
+    The message never says which of user name or password was wrong, and never
+    holds the password."""
+
+
+class AccountLocked(SignInRefused):
+    """Too many failed sign-ins in a row: the account is locked for a while."""
+
+    def __init__(self, user: str, until: str, failures: int, minutes: int):
+        self.user = user
+        self.until = until
+        super().__init__(f"{user} is locked after {failures} failed sign-ins in a row, for {minutes} minutes "
+                         f"(until {until} UTC); wait, or ask an admin to set a new password with "
+                         f"`pourback user passwd {user}`")
+
+
+class SessionExpired(PourbackError):
+    """A dashboard session ended (idle too long, signed out, or its account disabled)."""
+
+
 # --- the log file itself ---------------------------------------------------------------
 
 class LogError(PourbackError):

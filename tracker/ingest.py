@@ -28,7 +28,7 @@ from typing import Callable, Iterator
 import numpy as np
 import pandas as pd
 
-from tracker import geometry
+from tracker import auth, geometry
 from tracker.errors import BadFile, BadRecord, BadRow, cut
 from tracker.limits import EARLIEST_DATE, RANGES, latest_date
 from tracker.store import KEYS, TABLE_COLUMNS, Store
@@ -1154,6 +1154,7 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
         raise BadInput("decimal", decimal, "the decimal mark is '.' or ','")
     if sep == decimal:
         raise BadInput("decimal", decimal, f"the decimal mark cannot be the separator {sep!r} too")
+    by = auth.author(store, [auth.TABLE_ACTION.get(k, "design") for k, _ in items], by)
     reports: list[_RefusedReport] = []
     try:
         with store.write():
@@ -1173,6 +1174,7 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
                 if result.refused and not skip_bad:
                     raise result.refusal()  # rolls the whole transaction back
                 results.append(result)
+            auth.note_write(store, "import", "; ".join(f"{r.kind} {r.file}: {r.added} added" for r in results))
             # The refused rows' reports are complete before the good rows are committed.
             for report, result in zip(reports, results):
                 result.refused_file = report.publish()
@@ -1373,8 +1375,10 @@ def log_inspection(store: Store, record: dict, *, by: str | None = None,
     """Validate one inspection result as the import would and store it.
 
     ``record`` has the inspection columns; returns the new record id.
-    Each call is a new record (it is never taken as a duplicate).
+    Each call is a new record (it is never taken as a duplicate). While served
+    with sign-in the record carries the signed-in user, whatever ``by`` says.
     """
+    by = auth.author(store, "log", by)
     return _one_record(store, record, by=by, today=today, source=source)
 
 
@@ -1445,6 +1449,7 @@ def correct_inspection(store: Store, record_id: int, changes: dict, *, by: str, 
     """
     from tracker.errors import BadInput
 
+    by = auth.author(store, "log", by)
     if not str(by or "").strip():
         raise BadInput("by", by, "name who makes the correction")
     if not str(reason or "").strip():

@@ -51,7 +51,7 @@ from sklearn.model_selection import GroupKFold
 from sklearn.utils.validation import check_array, check_is_fitted, check_scalar
 
 from tracker import __version__ as _POURBACK_VERSION
-from tracker.errors import BadInput, BadRow, PourbackError
+from tracker.errors import BadInput, BadRow, IncompatibleModel, MissingColumn, PourbackError  # noqa: F401 (re-exported)
 from tracker.rules import DEFAULT_MODULUS_FACTOR
 
 SHORTFALL_TERMS = ("modulus_shortfall", "freezing_shortfall", "caine_shortfall", "feed_shortfall")
@@ -83,22 +83,6 @@ THICKNESS_CLIP_LOG2 = 4.0  # 16 times thicker or thinner than the median section
 
 BLOB_MAGIC = b"POURBACK-SHRINKAGE-MODEL\n"
 BLOB_FORMAT = 1
-
-
-class MissingColumn(PourbackError, ValueError):
-    """The feature table lacks columns the model needs."""
-
-    def __init__(self, missing, needed, table: str = "features"):
-        self.missing = list(missing)
-        self.needed = list(needed)
-        names = ", ".join(repr(c) for c in self.missing)
-        super().__init__(
-            f"{table}: missing column(s) {names}; the shrinkage model needs columns "
-            f"{', '.join(self.needed)} (the design engine adds them to each lot and zone)")
-
-
-class IncompatibleModel(PourbackError, ValueError):
-    """A saved model blob cannot be loaded by this install."""
 
 
 # --- validation -----------------------------------------------------------------

@@ -9,7 +9,7 @@ goes through ``html.escape``. The CSV is the per-pattern table, every cell
 through :func:`safe_cell` so a spreadsheet never runs one as a formula.
 
 Rates are shown in % (the review holds fractions 0..1); counts are castings;
-costs are in the log's currency units.
+costs are in the log's currency, named by its code (``review["currency"]``).
 """
 
 from __future__ import annotations
@@ -21,7 +21,8 @@ import json
 import math
 import re
 
-from tracker.cautions import SAFETY_CAUTION
+from tracker.cautions import SAFETY_CAUTION, SAFETY_CAUTION_SHORT
+from tracker.settings import DEFAULT_CURRENCY
 
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 FORMATS = ("table", "md", "html", "csv", "json")
@@ -104,6 +105,11 @@ def money(v) -> str:
     return f"{v:,.0f}" if _num(v) else "-"
 
 
+def cost_head(review) -> str:
+    """"Scrap cost (EUR)": the heading of a money column, naming the log's currency."""
+    return f"Scrap cost ({review.get('currency') or DEFAULT_CURRENCY})"
+
+
 def pval(v) -> str:
     if not _num(v):
         return "-"
@@ -144,7 +150,7 @@ def _pattern_columns(review):
         ("Reject rate (%)", lambda p: pct(p["reject_rate"])),
         (f"{c} interval (%)", lambda p: _interval(p["wilson_low"], p["wilson_high"])),
         ("Shrinkage rejects (castings)", lambda p: count(p["shrinkage_rejected"])),
-        ("Scrap cost", lambda p: money(p["scrap_cost"])),
+        (cost_head(review), lambda p: money(p["scrap_cost"])),
         ("Week rate (%)", lambda p: pct(p.get("week_reject_rate"))),
         ("Signal", _signal_text),
         ("Problem", lambda p: yes(p["problem"])),
@@ -163,22 +169,22 @@ TERMINAL_HEADS = ("Pattern", "Poured (castings)", "Rejected (castings)", "Reject
                   "Signal", "Problem")
 
 
-def _trend_columns():
+def _trend_columns(review):
     return [
         ("Week", lambda w: w["week"]),
         ("Poured (castings)", lambda w: count(w["poured"])),
         ("Inspected (castings)", lambda w: count(w["inspected"])),
         ("Rejected (castings)", lambda w: count(w["rejected"])),
         ("Reject rate (%)", lambda w: pct(w["reject_rate"])),
-        ("Scrap cost", lambda w: money(w["scrap_cost"])),
+        (cost_head(review), lambda w: money(w["scrap_cost"])),
     ]
 
 
-def _defect_columns():
+def _defect_columns(review):
     return [
         ("Defect", lambda d: d["defect"]),
         ("Rejected (castings)", lambda d: count(d["rejected"])),
-        ("Scrap cost", lambda d: money(d["scrap_cost"])),
+        (cost_head(review), lambda d: money(d["scrap_cost"])),
         ("Share of cost (%)", lambda d: pct(d["share"])),
         ("Cumulative (%)", lambda d: pct(d["cumulative_share"])),
     ]
@@ -264,7 +270,7 @@ def _totals_rows(review):
         {"k": "Reject rate (%)", "a": pct(win["reject_rate"], 2), "b": pct(wk["reject_rate"], 2)},
         {"k": f"{c} interval (%)", "a": _interval(win["wilson_low"], win["wilson_high"]),
          "b": _interval(wk["wilson_low"], wk["wilson_high"])},
-        {"k": "Scrap cost", "a": money(win["scrap_cost"]), "b": money(wk["scrap_cost"])},
+        {"k": cost_head(review), "a": money(win["scrap_cost"]), "b": money(wk["scrap_cost"])},
     ]
 
 
@@ -298,14 +304,15 @@ def render_table(review: dict) -> str:
     out += [f"  {p['pattern']}: {reason_text(p['problem_reasons'])}" for p in probs] or ["  (none)"]
     out += ["", f"Changes since {review['changes']['previous_week']}"]
     out += ["  " + s for s in _change_lines(review)]
-    cols = [c for c in _pattern_columns(review) if c[0].endswith(TERMINAL_HEADS)]
+    cols = [c for c in _pattern_columns(review) if c[0].startswith(TERMINAL_HEADS)
+            or c[0].endswith(TERMINAL_HEADS)]
     out += ["", "Patterns, whole window, by scrap cost", _text_table(review["patterns"], cols)]
-    out += ["", "Scrap by defect, whole window", _text_table(review["defects"], _defect_columns())]
-    out += ["", "Weekly trend, all patterns", _text_table(review["trend"]["overall"], _trend_columns())]
+    out += ["", "Scrap by defect, whole window", _text_table(review["defects"], _defect_columns(review))]
+    out += ["", "Weekly trend, all patterns", _text_table(review["trend"]["overall"], _trend_columns(review))]
     out += ["", "Riser revisions (shrinkage rejects in the changed risers' zones)"]
     out += _revision_lines(review) or ["  (none)"]
     if review["revisions"]:
-        out += ["", "CAUTION: " + SAFETY_CAUTION]
+        out += ["", SAFETY_CAUTION_SHORT]
     return "\n".join(out) + "\n"
 
 
@@ -342,8 +349,8 @@ def render_md(review: dict) -> str:
     out += [f"- {_md_cell(s)}" for s in _change_lines(review)]
     out += ["", "## Patterns, whole window, by scrap cost", "",
             _md_table(review["patterns"], _pattern_columns(review)), "",
-            "## Scrap by defect", "", _md_table(review["defects"], _defect_columns()), "",
-            "## Weekly trend", "", _md_table(review["trend"]["overall"], _trend_columns()), "",
+            "## Scrap by defect", "", _md_table(review["defects"], _defect_columns(review)), "",
+            "## Weekly trend", "", _md_table(review["trend"]["overall"], _trend_columns(review)), "",
             "## Riser revisions", "", _md_table(review["revisions"], _revision_columns()), ""]
     if review["revisions"]:
         out += [f"> **Caution.** {_md_cell(SAFETY_CAUTION)}", ""]
@@ -541,7 +548,7 @@ def svg_pareto(review: dict) -> str:
                                           "cumulative_share": 1.0}]
     top = (max([r["scrap_cost"] for r in rows] or [1.0]))
     f = _Frame(len(rows), top, height=300, bottom=78, y2=True)
-    body = f.axes("Scrap cost", [r["pattern"] for r in rows], rotate=True)
+    body = f.axes(cost_head(review), [r["pattern"] for r in rows], rotate=True)
     bw = f.slot() * 0.7
     for i, r in enumerate(rows):
         y = f.y(r["scrap_cost"])
@@ -753,9 +760,9 @@ def render_html(review: dict) -> str:
     cards = [
         ("Review week: rejected (castings)", count(wk["rejected"])),
         ("Review week: reject rate (%)", pct(wk["reject_rate"], 2)),
-        ("Review week: scrap cost", money(wk["scrap_cost"])),
+        (f"Review week: {cost_head(review).lower()}", money(wk["scrap_cost"])),
         ("Window: reject rate (%)", pct(win["reject_rate"], 2)),
-        ("Window: scrap cost", money(win["scrap_cost"])),
+        (f"Window: {cost_head(review).lower()}", money(win["scrap_cost"])),
         ("Patterns needing attention", str(len(probs))),
     ]
     out.append('<div class="cards">' + "".join(
@@ -787,7 +794,7 @@ def render_html(review: dict) -> str:
     out.append(svg_trend(review))
     out.append(f'<p class="legend">Line: reject rate (%) of each week\'s inspected castings; band: its {c} '
                'interval; dashed red: target.</p>')
-    cols = _trend_columns()
+    cols = _trend_columns(review)
     out.append(_html_table(review["trend"]["overall"], cols, _numeric_heads(cols)) + "</section>")
 
     out.append("<section><h2>Scrap by pattern</h2>")
@@ -798,7 +805,7 @@ def render_html(review: dict) -> str:
     out.append(_html_table(review["patterns"], cols, _numeric_heads(cols),
                            row_class=lambda p: "problem" if p["problem"] else "") + "</section>")
 
-    cols = _defect_columns()
+    cols = _defect_columns(review)
     out.append("<section><h2>Scrap by defect</h2>"
                + _html_table(review["defects"], cols, _numeric_heads(cols)) + "</section>")
 
@@ -823,8 +830,8 @@ def render_html(review: dict) -> str:
         out.append("<section><h2>Inspectors' notes, review week</h2>"
                    + _html_table(review["notes"], cols, {"Castings"}) + "</section>")
 
-    out.append(f"<footer>Rates: {_e(review.get('rate_basis', ''))}. Counts in castings; costs in the "
-               "log's currency units; weights in kg. Rework is counted apart and is not scrap. "
+    out.append(f"<footer>Rates: {_e(review.get('rate_basis', ''))}. Counts in castings; costs in "
+               f"{_e(review.get('currency') or DEFAULT_CURRENCY)}; weights in kg. Rework is counted apart and is not scrap. "
                "Rejects count against the week the lot was poured.</footer></body></html>")
     return "\n".join(out) + "\n"
 

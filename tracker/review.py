@@ -18,7 +18,7 @@ Counting rules
 - ``rejected``: castings of current records (not superseded, not void) with
   result "reject"; ``reworked``: result "rework", counted apart and not scrap.
 - ``scrap_cost`` = rejected × (casting_weight_kg × metal_cost_per_kg +
-  processing_cost_per_casting), in the log's currency units.
+  processing_cost_per_casting), in the log's currency (``currency``, an ISO code).
 - Rates, shares and limits are fractions 0..1 (the reports show %).
 
 A pattern is a *problem* when any of these holds (``problem_reasons``):
@@ -33,9 +33,9 @@ rate over the window lies above ``target``; ``rejects_above_target`` — the sam
 for all rejects.
 
 Riser revisions: every revision that took effect inside the window, and every
-revision in effect at the window's start that took effect at most ``weeks``
-weeks before it and is still ``not_enough_data`` as of the review week's end
-(older revisions are left to earlier reviews, which bounds the work). Lots
+revision in effect at the window's start that is still ``not_enough_data`` as
+of the review week's end, however long ago it took effect: a change stays
+under judgement until it has a verdict. Lots
 poured under the previous revision (at most ``weeks`` weeks before the change)
 are compared with lots poured from the change to the review week's end (or to
 the next revision) by :func:`tracker.stats.compare_rates` (Fisher's exact
@@ -50,9 +50,9 @@ import math
 import numpy as np
 import pandas as pd
 
-from tracker import stats
+from tracker import limits, stats
 from tracker.cautions import SAFETY_CAUTION
-from tracker.errors import BadInput
+from tracker.settings import currency
 from tracker.store import Store
 
 SHRINKAGE = "shrinkage"
@@ -60,6 +60,7 @@ LATEST_WEEKS = 2          # the review week and the one before
 NO_ZONE = "(no zone)"
 NO_DEFECT = "(no defect given)"
 RATE_MOVES_SHOWN = 5
+EARLIEST_DAY = "0001-01-01"  # "from the start of the log" for date filters
 NOTES_PER_PATTERN = 3
 RISER_FIELDS = ("zone", "placement", "top", "diameter_mm", "height_mm", "sleeve", "neck_diameter_mm")
 RATE_BASIS = "castings rejected / castings inspected (castings poured in lots with an inspection record)"
@@ -82,23 +83,6 @@ PATTERN_KEYS = [
 
 
 # --- helpers --------------------------------------------------------------------------
-
-def _check_weeks(weeks) -> int:
-    if isinstance(weeks, bool) or not isinstance(weeks, (int, np.integer)) or not 1 <= weeks <= 520:
-        raise BadInput("weeks", weeks, "weeks must be a whole number from 1 to 520, e.g. 13")
-    return int(weeks)
-
-
-def _check_target(target) -> float:
-    try:
-        t = float(target)
-    except (TypeError, ValueError):
-        t = math.nan
-    if not 0.0 <= t < 1.0:
-        raise BadInput("target", target, "the target reject rate is a fraction from 0 to below 1, "
-                                         "e.g. 0.02 for 2 %")
-    return t
-
 
 def jsonable(obj):
     """JSON-ready copy: numpy scalars to Python, NaN/inf to None, dates to ISO text."""
@@ -416,12 +400,13 @@ def _period_sums(frame: pd.DataFrame, cand: pd.DataFrame, value_cols: list[str],
 def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: dt.date,
                pours: pd.DataFrame, rejects: pd.DataFrame, confidence: float) -> list[dict]:
     first, review_end = _iso(mondays[0]), _iso(mondays[-1] + dt.timedelta(days=6))
-    horizon = _iso(mondays[0] - dt.timedelta(weeks=weeks))
-    revs = store.revision_steps(horizon, review_end)
+    # every revision up to the review week: one still without a verdict stays under
+    # judgement however long ago it took effect (the revisions table is small)
+    revs = store.revision_steps(EARLIEST_DAY, review_end)
     if revs.empty:
         return []
     inside = (revs["effective_from"] >= first) & (revs["effective_from"] <= review_end)
-    pending = ((revs["effective_from"] < first) & (revs["effective_from"] >= horizon)
+    pending = ((revs["effective_from"] < first)
                & revs["previous"].notna() & (revs["next_from"].isna() | (revs["next_from"] > first)))
     cand = revs[inside | pending].reset_index(drop=True)
     if cand.empty:
@@ -525,7 +510,24 @@ def _cid_sums(counted: pd.DataFrame, cand: pd.DataFrame, start: str, end: str) -
 
 # --- the review ---------------------------------------------------------------------------
 
-def weekly_review(store: Store, week: str | None = None, weeks: int = 13, target: float = 0.02,
+def default_week(store: Store, today: dt.date | str | None = None) -> str:
+    """The week a review opens on: the last complete ISO week with pours.
+
+    That is the ISO week of the newest pour dated before the Monday of
+    ``today``'s week (default: the computer's date), so a week that has only
+    started, and a lot poured today, never move it. A log with no pour before
+    this week gives the week of its newest pour; an empty log, last week.
+    """
+    today = dt.date.fromisoformat(today) if isinstance(today, str) else (today or dt.date.today())
+    this_monday = today - dt.timedelta(days=today.weekday())
+    last = store.last_pour_before(_iso(this_monday))
+    if last is None:
+        _, last = store.pour_span()
+    return stats.iso_week(last if last else this_monday - dt.timedelta(weeks=1))
+
+
+def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEEKS_DEFAULT,
+                  target: float = limits.TARGET_DEFAULT,
                   *, confidence: float = 0.95) -> dict:
     """The scrap review of ISO week ``week`` and the weeks before it.
 
@@ -534,9 +536,8 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = 13, target
     store : Store
         The open log.
     week : str, optional
-        ISO week "YYYY-Www", e.g. "2026-W47"; default the week of the latest
-        pour in the log (this week when the log is empty). Anything else
-        raises ``BadInput``.
+        ISO week "YYYY-Www", e.g. "2026-W47"; default the last complete week
+        with pours (:func:`default_week`). Anything else raises ``BadInput``.
     weeks : int
         Weeks in the window, the review week included (default 13).
     target : float
@@ -549,7 +550,7 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = 13, target
     -------
     dict, JSON-ready (plain Python types; undefined figures are None)
         ``week``, ``week_start``, ``week_end``, ``window`` (first_week,
-        last_week, start, end, weeks), ``target``, ``confidence``,
+        last_week, start, end, weeks), ``target``, ``confidence``, ``currency``,
         ``rate_basis``, ``units``, ``totals`` (window and review week),
         ``patterns`` (one dict per pattern poured in the window, keys
         ``PATTERN_KEYS`` plus ``pchart`` (one dict per week, keys
@@ -561,11 +562,10 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = 13, target
         the previous week's review), ``notes`` (newest inspectors' notes on
         rejects of problem patterns in the review week) and ``caution``.
     """
-    weeks = _check_weeks(weeks)
-    target = _check_target(target)
+    weeks = limits.check_weeks(weeks)
+    target = limits.check_target(target)
     if week is None:
-        _, last = store.pour_span()
-        week = stats.iso_week(last if last else dt.date.today())
+        week = default_week(store)
     monday = stats.week_start(week)
     week = stats.iso_week(monday)
     mondays = [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)]
@@ -619,6 +619,7 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = 13, target
         "reject_rate": last["reject_rate"], "wilson_low": last["wilson_low"],
         "wilson_high": last["wilson_high"], "scrap_cost": float(last["scrap_cost"])}}
 
+    money = currency(store)
     notes = []
     if problems:
         notes = _records(store.reject_notes(_iso(monday), _iso(week_end), problems, NOTES_PER_PATTERN))
@@ -627,7 +628,8 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = 13, target
         "week": week, "week_start": _iso(monday), "week_end": _iso(week_end),
         "window": {"first_week": now["labels"][0], "last_week": week, "start": _iso(mondays[0]),
                    "end": _iso(week_end), "weeks": weeks},
-        "target": target, "confidence": confidence, "rate_basis": RATE_BASIS, "units": UNITS,
+        "target": target, "confidence": confidence, "rate_basis": RATE_BASIS,
+        "currency": money, "units": {**UNITS, "scrap_cost": money},
         "totals": totals,
     })
     return {

@@ -23,13 +23,14 @@ from typing import Callable, Iterable, Iterator
 import pandas as pd
 import sqlite_utils
 
+from tracker import auth
 from tracker.alloys import ALLOYS
 from tracker.errors import (DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog,  # noqa: F401
                             NotFound, PourbackError)
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 5
+SCHEMA_VERSION = 6
 BUSY_TIMEOUT_MS = 30_000
 NOTICE_AFTER_MS = 1_000  # say that a write waits for another writer after this long
 
@@ -189,12 +190,45 @@ def _migration_4(db: sqlite_utils.Database) -> None:
 
 
 def _migration_5(db: sqlite_utils.Database) -> None:
+    # Accounts, dashboard sessions and the audit of who did what (tracker/auth.py).
+    # A password is kept only as its Argon2id hash; a session only as the SHA-256
+    # of its token.
+    db.execute("""
+        CREATE TABLE users (
+            name TEXT PRIMARY KEY COLLATE NOCASE,
+            role TEXT NOT NULL,
+            password_hash TEXT NOT NULL,
+            enabled INTEGER NOT NULL DEFAULT 1,
+            failed_sign_ins INTEGER NOT NULL DEFAULT 0,
+            locked_until TEXT,
+            created_at TEXT NOT NULL, created_by TEXT,
+            password_set_at TEXT NOT NULL,
+            last_sign_in TEXT
+        )""")
+    db.execute("""
+        CREATE TABLE sessions (
+            token_sha256 TEXT PRIMARY KEY,
+            user TEXT NOT NULL REFERENCES users(name),
+            started_at TEXT NOT NULL, last_seen TEXT NOT NULL,
+            ended_at TEXT, end_reason TEXT
+        )""")
+    db.execute("""
+        CREATE TABLE audit (
+            id INTEGER PRIMARY KEY,
+            at TEXT NOT NULL, event TEXT NOT NULL,
+            user TEXT, subject TEXT, detail TEXT, via TEXT
+        )""")
+    db.execute("CREATE INDEX audit_at ON audit(at)")
+    db.execute("CREATE INDEX sessions_user ON sessions(user)")
+
+
+def _migration_6(db: sqlite_utils.Database) -> None:
     # A new lot code that differs from a stored one only by case ("l26-0412" beside
     # "L26-0412") is imported with a warning: found through this index, not a scan.
     db.execute("CREATE INDEX lots_lot_lower ON lots(lower(lot))")
 
 
-MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5]  # index i brings the schema from version i to i + 1
+MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6]  # index i brings the schema from version i to i + 1
 
 
 # --- the store --------------------------------------------------------------------
@@ -231,9 +265,13 @@ class Store:
     has waited a second for another writer and goes on waiting.
     """
 
-    def __init__(self, path: str | os.PathLike | None = None, *, create: bool = True,
+    def __init__(self, path: str | os.PathLike | None = None, *, create: bool = True, actor=None,
                  on_wait: Callable[[str], None] | None = None):
         self.path = resolve_path(path)
+        # Who writes through this connection: None for the local desk (the command
+        # line, a dashboard on loopback without sign-in), else a signed-in
+        # ``tracker.auth.Session`` whose role every write is checked against.
+        self.actor = actor
         self.on_wait = on_wait
         self.conn = None
         memory = self.path == ":memory:"
@@ -450,6 +488,7 @@ class Store:
         """Insert rows (tuples in TABLE_COLUMNS order, without ``id`` for inspections)."""
         if not rows:
             return 0
+        auth.require(self, auth.TABLE_ACTION[name])
         cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
         sql = (f"INSERT INTO [{name}] ({', '.join(f'[{c}]' for c in cols)}) "
                f"VALUES ({', '.join('?' * len(cols))})")
@@ -751,6 +790,11 @@ class Store:
                               "(SELECT MAX(poured_on) FROM lots)").fetchone()
         return r[0], r[1]
 
+    def last_pour_before(self, day: str) -> str | None:
+        """The newest pour date before ``day`` (ISO string), or None (from the pour-date index)."""
+        return self.conn.execute("SELECT MAX(poured_on) FROM lots WHERE poured_on < ?",
+                                 (str(day),)).fetchone()[0]
+
     def rejects_by_pattern(self, start: str, end: str) -> pd.DataFrame:
         """Castings rejected (current records) per pattern in lots poured from
         ``start`` to ``end`` (ISO strings, inclusive): one plain aggregate, the
@@ -827,6 +871,24 @@ class Store:
             raise NotFound("lot", code, "import or log the lot first")
         return dict(zip([d[0] for d in cur.description], row))
 
+    def sleeve(self, code: str) -> dict:
+        cur = self.conn.execute("SELECT * FROM sleeves WHERE sleeve = ?", (code,))
+        row = cur.fetchone()
+        if row is None:
+            raise NotFound("sleeve", code, "import it with the sleeve catalogue first")
+        return dict(zip([d[0] for d in cur.description], row))
+
+    def latest_pour_temps(self, patterns: Iterable[str]) -> dict[str, float]:
+        """Pouring temperature (°C) of each pattern's most recent lot that records one."""
+        out = {}
+        for p in dict.fromkeys(patterns):
+            row = self.conn.execute(
+                "SELECT pour_temp_c FROM lots WHERE pattern = ? AND pour_temp_c IS NOT NULL "
+                "ORDER BY poured_on DESC, lot DESC LIMIT 1", (p,)).fetchone()
+            if row is not None:
+                out[p] = float(row[0])
+        return out
+
     def lot_codes(self, limit: int = 500) -> list[str]:
         return [r[0] for r in self.conn.execute(
             "SELECT lot FROM lots ORDER BY poured_on DESC, lot DESC LIMIT ?", (limit,))]
@@ -837,12 +899,14 @@ class Store:
         return default if row is None else row[0]
 
     def set_meta(self, key: str, value: str) -> None:
+        auth.require(self, "settings")
         with self.write():
             self.conn.execute("INSERT INTO meta (key, value) VALUES (?, ?) "
                               "ON CONFLICT(key) DO UPDATE SET value = excluded.value", (key, value))
 
     # --- model --------------------------------------------------------------------
     def save_model(self, blob: bytes, rows: int, castings: int, data_until: str | None) -> int:
+        auth.require(self, "fit_model")
         with self.write():
             self.conn.execute("INSERT INTO models (fitted_at, rows, castings, data_until, blob) "
                               "VALUES (?, ?, ?, ?, ?)",
@@ -856,6 +920,81 @@ class Store:
         row = cur.fetchone()
         return None if row is None else dict(zip([d[0] for d in cur.description], row))
 
+    # --- accounts, sessions and the audit (tracker/auth.py) -------------------------
+    USER_COLUMNS = ("name", "role", "enabled", "failed_sign_ins", "locked_until", "created_at",
+                    "created_by", "password_set_at", "last_sign_in")
+
+    def users_frame(self) -> pd.DataFrame:
+        """Every account without its password hash, by name."""
+        return self._frame(f"SELECT {', '.join(self.USER_COLUMNS)} FROM users ORDER BY name COLLATE NOCASE")
+
+    def user_account(self, name: str) -> dict | None:
+        """One account (name matched without case) WITH its password hash, for
+        ``tracker.auth`` to verify a password; never shown or exported."""
+        cur = self.conn.execute(f"SELECT {', '.join(self.USER_COLUMNS)}, password_hash FROM users "
+                                "WHERE name = ?", (name,))
+        row = cur.fetchone()
+        return None if row is None else dict(zip([d[0] for d in cur.description], row))
+
+    def insert_user(self, name: str, role: str, password_hash: str, at: str, by: str | None) -> None:
+        self.conn.execute("INSERT INTO users (name, role, password_hash, enabled, failed_sign_ins, "
+                          "created_at, created_by, password_set_at) VALUES (?, ?, ?, 1, 0, ?, ?, ?)",
+                          (name, role, password_hash, at, by, at))
+
+    _USER_UPDATABLE = {"role", "password_hash", "enabled", "failed_sign_ins", "locked_until",
+                       "password_set_at", "last_sign_in"}
+
+    def update_user(self, name: str, **fields) -> None:
+        unknown = set(fields) - self._USER_UPDATABLE
+        if unknown:
+            raise ValueError(f"not a user column: {', '.join(sorted(unknown))}")
+        sets = ", ".join(f"[{k}] = ?" for k in fields)
+        self.conn.execute(f"UPDATE users SET {sets} WHERE name = ?", (*fields.values(), name))
+
+    def enabled_users(self, role: str | None = None) -> int:
+        """How many enabled accounts the log holds (of ``role`` only, if given)."""
+        q = "SELECT COUNT(*) FROM users WHERE enabled = 1" + (" AND role = ?" if role else "")
+        return self.conn.execute(q, (role,) if role else ()).fetchone()[0]
+
+    def insert_session(self, token_sha256: str, user: str, at: str) -> None:
+        self.conn.execute("INSERT INTO sessions (token_sha256, user, started_at, last_seen) VALUES (?, ?, ?, ?)",
+                          (token_sha256, user, at, at))
+
+    def session_row(self, token_sha256: str) -> dict | None:
+        cur = self.conn.execute("SELECT token_sha256, user, started_at, last_seen, ended_at, end_reason "
+                                "FROM sessions WHERE token_sha256 = ?", (token_sha256,))
+        row = cur.fetchone()
+        return None if row is None else dict(zip([d[0] for d in cur.description], row))
+
+    def touch_session(self, token_sha256: str, at: str) -> None:
+        self.conn.execute("UPDATE sessions SET last_seen = ? WHERE token_sha256 = ? AND ended_at IS NULL",
+                          (at, token_sha256))
+
+    def end_sessions(self, at: str, reason: str, *, token_sha256: str | None = None,
+                     user: str | None = None) -> int:
+        """End one session (by token hash) or every open session of ``user``."""
+        if token_sha256 is not None:
+            cur = self.conn.execute("UPDATE sessions SET ended_at = ?, end_reason = ? "
+                                    "WHERE token_sha256 = ? AND ended_at IS NULL", (at, reason, token_sha256))
+        else:
+            cur = self.conn.execute("UPDATE sessions SET ended_at = ?, end_reason = ? "
+                                    "WHERE user = ? AND ended_at IS NULL", (at, reason, user))
+        return cur.rowcount
+
+    def insert_audit(self, at: str, event: str, user: str | None, subject: str | None,
+                     detail: str | None, via: str | None) -> None:
+        self.conn.execute("INSERT INTO audit (at, event, user, subject, detail, via) VALUES (?, ?, ?, ?, ?, ?)",
+                          (at, event, user, subject, detail, via))
+
+    def audit_frame(self, since: str | None = None) -> pd.DataFrame:
+        """The audit, oldest first; ``since`` (an ISO date or time) keeps entries at or after it."""
+        q = "SELECT id, at, event, user, subject, detail, via FROM audit"
+        params: tuple = ()
+        if since is not None:
+            q += " WHERE at >= ?"
+            params = (str(since),)
+        return self._frame(q + " ORDER BY id", params)
+
     # --- maintenance --------------------------------------------------------------
     def backup(self, dest: str | os.PathLike) -> None:
         """Copy the log with SQLite's online backup (safe while others write).
@@ -863,6 +1002,7 @@ class Store:
         The copy is written under a temporary name beside ``dest`` and renamed
         when complete, so a backup stopped part-way (a crash, SIGKILL, a full
         disk) never leaves a file under the backup's name."""
+        auth.require(self, "backup")
         dest = pathlib.Path(dest)
         if dest.exists():
             raise PourbackError(f"backup file {dest} exists already; choose a new name")

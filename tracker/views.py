@@ -23,6 +23,7 @@ from tracker import rules, stats
 from tracker.assess import assess_frame, caine_curve_points, revision_in_effect
 from tracker.errors import BadRow, NotFound
 from tracker.ingest import COLUMNS as IMPORT_COLUMNS
+from tracker.settings import DEFAULT_CURRENCY
 from tracker.store import Store
 
 NONE = "(none)"  # the "no value" choice of an optional picker
@@ -457,13 +458,15 @@ VERDICT_WORDS = {"improved": "improved", "worse": "worse", "no_clear_change": "n
                  "not_enough_data": "not enough data yet"}
 
 
-def signal_words(names) -> str:
-    """Signal rule names (``tracker.stats.RULES``) in words ("" for none)."""
+def signal_words(names, high=None) -> str:
+    """Signal rule names (``tracker.stats.RULES``) in words ("" for none). With ``high``
+    (the rules that fired above the centre), a signal below it is marked "(low: fewer rejects)"."""
     if names is None or (isinstance(names, float) and math.isnan(names)):
         return ""
     if isinstance(names, str):
         names = [r for r in names.split(",") if r]
-    return ", ".join(RULE_WORDS.get(r, str(r)) for r in names)
+    mark = (lambda r: "") if high is None else (lambda r: "" if r in set(high) else " (low: fewer rejects)")
+    return ", ".join(RULE_WORDS.get(r, str(r)) + mark(r) for r in names)
 
 
 def reason_words(reasons) -> str:
@@ -489,6 +492,7 @@ def review_headline(review: dict) -> dict:
                      "wilson_low_pct": 100.0 * _num(t.get("wilson_low")),
                      "wilson_high_pct": 100.0 * _num(t.get("wilson_high")),
                      "scrap_cost": _num(t["scrap_cost"])}
+    out["currency"] = review.get("currency") or DEFAULT_CURRENCY
     out["problems"] = list(review.get("problems") or [])
     out["patterns"] = len(review.get("patterns") or [])
     out["target_pct"] = 100.0 * _num(review.get("target"))
@@ -496,11 +500,19 @@ def review_headline(review: dict) -> dict:
 
 
 PATTERN_TABLE = {
-    "pattern": "pattern",
-    "poured": "poured (castings)", "rejected": "rejected (castings)", "reject_rate_pct": "reject rate (%)",
-    "range_text": "95 % range (%)", "shrinkage_rejected": "of which shrinkage (castings)",
-    "scrap_cost": "scrap cost (currency units)", "flag_text": "flagged because",
+    "pattern": "pattern", "reject_rate_pct": "reject rate (%)", "rejected": "rejected (castings)",
+    "scrap_cost": "scrap cost", "flag_text": "flagged because",
+    "poured": "poured (castings)", "range_text": "95 % range (%)",
+    "shrinkage_rejected": "of which shrinkage (castings)", "signal_text": "chart signals (latest 2 weeks)",
 }
+# The columns a reader needs first (a narrow screen shows these; the rest behind a toggle).
+PATTERN_TABLE_FIRST = 5
+
+
+def money_head(name: str, review_or_code) -> str:
+    """A money column's heading with the log's currency code: "scrap cost (EUR)"."""
+    code = review_or_code.get("currency") if isinstance(review_or_code, dict) else review_or_code
+    return f"{name} ({code or DEFAULT_CURRENCY})"
 
 
 def _range(lo, hi) -> str:
@@ -509,20 +521,29 @@ def _range(lo, hi) -> str:
     return f"{100 * lo:.1f} to {100 * hi:.1f}"
 
 
-def review_patterns_table(review: dict) -> pd.DataFrame:
-    """The review's pattern rows for display, by scrap cost: rates in %, flags in words."""
+def review_patterns_table(review: dict, full: bool = True) -> pd.DataFrame:
+    """The review's pattern rows for display, by scrap cost: rates in %, flags and chart
+    signals in words, cost headed with the log's currency. ``full`` False keeps the
+    columns that matter first (pattern, rate, rejects, cost, why flagged)."""
+    names = {**PATTERN_TABLE, "scrap_cost": money_head("scrap cost", review)}
+    keys = list(PATTERN_TABLE)[:None if full else PATTERN_TABLE_FIRST]
     rows = review.get("patterns") or []
     if not rows:
-        return pd.DataFrame(columns=list(PATTERN_TABLE.values()))
+        return pd.DataFrame(columns=[names[k] for k in keys])
     p = pd.DataFrame(rows)
     p["reject_rate_pct"] = _pct(p["reject_rate"])
     p["range_text"] = [_range(lo, hi) for lo, hi in zip(p["wilson_low"], p["wilson_high"])]
     p["flag_text"] = p["problem_reasons"].map(reason_words)
-    return p[list(PATTERN_TABLE)].rename(columns=PATTERN_TABLE).reset_index(drop=True)
+    p["signal_text"] = [signal_words(r, high) for r, high in zip(p["signal_rules"], p["signal_high_rules"])]
+    p["scrap_cost"] = p["scrap_cost"].astype(float).round(0)  # whole currency units
+    return p[keys].rename(columns=names).reset_index(drop=True)
 
 
-def review_pareto(review: dict, of: str = "patterns", by: str = "cost") -> pd.DataFrame:
+def review_pareto(review: dict, of: str = "patterns", by: str = "cost", top: int | None = None) -> pd.DataFrame:
     """Pareto rows of the review (``of`` patterns or defects, ``by`` cost or count), largest first.
+
+    With ``top``, at most ``top`` bars: the largest ``top - 1`` items and one bar
+    for all the rest ("the other 12 patterns"), so a chart can label every bar.
 
     Columns: the item (``pattern`` or ``defect``), ``value`` (scrap cost in
     currency units, or castings rejected), ``share_pct``,
@@ -543,7 +564,14 @@ def review_pareto(review: dict, of: str = "patterns", by: str = "cost") -> pd.Da
     d["share_pct"] = _pct(d["share"])
     d["cumulative_pct"] = _pct(d["cumulative_share"])
     d["rank"] = np.arange(1, len(d) + 1)
-    return d[cols]
+    d = d[cols]
+    if top is not None and len(d) > top:
+        rest = d.iloc[top - 1:]
+        d = pd.concat([d.iloc[:top - 1], pd.DataFrame([{
+            item: f"the other {len(rest)} {of}", "value": rest["value"].sum(),
+            "share_pct": rest["share_pct"].sum(), "cumulative_pct": 100.0,
+            "vital_few": False, "rank": top}])], ignore_index=True)
+    return d
 
 
 def review_trend(review: dict) -> pd.DataFrame:
@@ -585,12 +613,72 @@ REVISION_TABLE = {
     "pattern": "pattern", "revision": "revision", "effective_from": "effective from",
     "change_text": "what changed", "before_text": "before: shrinkage rejects",
     "after_text": "after: shrinkage rejects", "difference_pct": "change (% points)",
-    "p_value": "p-value (Fisher)", "verdict_text": "verdict",
+    "p_value": "p-value (Fisher)", "verdict_text": "verdict", "sentence": "verdict in words",
+    "details": "statistics", "in_window_text": "took effect in the window",
 }
 
 
+def _chance_words(p) -> str:
+    """How likely a before/after difference is to be chance, from Fisher's p-value."""
+    if p is None or p != p:
+        return ""
+    if p < 0.001:
+        return "very unlikely to be chance"
+    if p < 0.01:
+        return "unlikely to be chance"
+    if p < 0.05:
+        return "probably not chance"
+    return "could well be chance"
+
+
+def _rate_words(rate) -> str:
+    return "-" if rate is None or rate != rate else f"{100 * rate:.1f} %".replace(".0 %", " %")
+
+
+def verdict_sentence(rev: dict) -> str:
+    """A riser revision's verdict in plain words first, e.g. "improved: shrinkage fell from
+    12.2 % to 0 %, very unlikely to be chance" (the statistics are in :func:`verdict_details`)."""
+    v = rev.get("verdict")
+    before, after = _rate_words(rev.get("rate_before")), _rate_words(rev.get("rate_after"))
+    chance = _chance_words(rev.get("p_value"))
+    n_after = int((rev.get("after") or {}).get("inspected") or 0)
+    if v == "improved":
+        return f"improved: shrinkage fell from {before} to {after}, {chance}"
+    if v == "worse":
+        return f"worse: shrinkage rose from {before} to {after}, {chance}"
+    if v == "no_clear_change":
+        return f"no clear change: shrinkage went from {before} to {after}, which {chance}"
+    if n_after == 0:
+        return "not enough data yet: no castings poured since the change have been inspected"
+    return (f"not enough data yet: shrinkage {before} before, {after} in the {n_after:,} castings "
+            "inspected since; too few to tell a halving of the rate from chance")
+
+
+def verdict_details(rev: dict) -> str:
+    """The statistics behind a verdict, for a help tooltip."""
+    parts = []
+    d, lo, hi = rev.get("difference"), rev.get("diff_low"), rev.get("diff_high")
+    if d is not None and d == d:
+        parts.append(f"change {100 * d:+.1f} % points"
+                     + (f" (95 % interval {100 * lo:+.1f} to {100 * hi:+.1f})" if lo is not None and lo == lo
+                        else ""))
+    p = rev.get("p_value")
+    if p is not None and p == p:
+        parts.append(f"Fisher's exact test p = {p:.2g} (the chance of a difference this large if the "
+                     "revision changed nothing)")
+    power = rev.get("power_to_halve")
+    if power is not None and power == power:
+        parts.append(f"with these numbers of castings a real halving of the rate would show with "
+                     f"about {100 * power:.0f} % chance (80 % or more is needed before 'no clear change' "
+                     "counts as a finding)")
+    b, a = rev.get("before") or {}, rev.get("after") or {}
+    parts.append(f"before: {b.get('shrinkage_rejected', 0):,} of {b.get('inspected', 0):,} castings; "
+                 f"after: {a.get('shrinkage_rejected', 0):,} of {a.get('inspected', 0):,} castings")
+    return "; ".join(parts) + "."
+
+
 def _share(part: dict, rate) -> str:
-    return (f"{part['shrinkage_rejected']} of {part['inspected']} castings"
+    return (f"{part['shrinkage_rejected']:,} of {part['inspected']:,} castings"
             + ("" if rate is None else f" ({100 * rate:.1f} %)"))
 
 
@@ -612,8 +700,28 @@ def review_revisions_table(review: dict) -> pd.DataFrame:
             "after_text": _share(r["after"], r.get("rate_after")),
             "difference_pct": 100.0 * _num(r.get("difference")),
             "verdict_text": VERDICT_WORDS.get(r.get("verdict"), str(r.get("verdict"))),
+            "sentence": verdict_sentence(r), "details": verdict_details(r),
+            "in_window_text": "yes" if r.get("took_effect_in_window", True) else "no, still awaiting a verdict",
         })
     return pd.DataFrame(out)[list(REVISION_TABLE)].rename(columns=REVISION_TABLE)
+
+
+def review_signals(review: dict) -> pd.DataFrame:
+    """Run-rule and limit signals of the patterns' p-charts, in words: one row per
+    pattern whose chart signals in the latest two weeks (``when`` "latest weeks") or
+    only earlier in the window (``when`` "earlier in the window"). A signal below the
+    centre means fewer rejects and is marked so; it does not flag a pattern."""
+    cols = ["pattern", "signal", "when", "flagged"]
+    out = []
+    for p in review.get("patterns") or []:
+        latest = list(p.get("signal_rules") or [])
+        if latest:
+            out.append({"pattern": p["pattern"], "signal": signal_words(latest, p.get("signal_high_rules") or []),
+                        "when": "latest 2 weeks", "flagged": "yes" if p.get("problem") else "no"})
+        elif p.get("signal_rules_window"):
+            out.append({"pattern": p["pattern"], "signal": signal_words(p["signal_rules_window"]),
+                        "when": "earlier in the window", "flagged": "yes" if p.get("problem") else "no"})
+    return pd.DataFrame(out, columns=cols)
 
 
 def review_changes(review: dict) -> dict:

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import errno
 import functools
+import inspect
 import json
 import math
 import sqlite3
@@ -15,9 +16,9 @@ import sys
 import click
 import numpy as np
 
-from tracker import __version__
+from tracker import __version__, limits
 from tracker.alloys import ALLOYS
-from tracker.cautions import SAFETY_CAUTION
+from tracker.cautions import SAFETY_CAUTION_SHORT
 from tracker.errors import PourbackError
 
 
@@ -86,7 +87,9 @@ def _cell(v) -> str:
 
 
 def caution_text() -> str:
-    return "CAUTION: " + SAFETY_CAUTION
+    """The caution in its short command-line form (two lines; the full text is in the README,
+    the dashboard and the reports)."""
+    return SAFETY_CAUTION_SHORT
 
 
 def handle_errors(fn):
@@ -122,10 +125,47 @@ def os_error_text(exc: OSError) -> str:
 
 json_option = click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
 
+# The review window and the target: one name, default and help for `review` and `suggest`;
+# the library checks the values (tracker.limits), so the range is checked in one place.
+week_option = click.option("--week", default=None, metavar="YYYY-Www",
+                           help="ISO week to review, e.g. 2026-W47 (default: the last complete week "
+                                "with pours; a week still running is never the default).")
+weeks_option = click.option("--weeks", type=int, default=limits.WEEKS_DEFAULT, show_default=True,
+                            help=limits.WEEKS_HELP)
+target_option = click.option("--target", type=float, default=limits.TARGET_DEFAULT, show_default=True,
+                             help=limits.TARGET_HELP)
+
 
 # --- commands ---------------------------------------------------------------------
 
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+class _Command(click.Command):
+    """A command whose help keeps its ``Example:`` block verbatim: one command per
+    line, never rewrapped, so each line pastes into a terminal and runs."""
+
+    def format_help_text(self, ctx, formatter):
+        text = inspect.cleandoc(self.help or "").partition("\f")[0]
+        prose, sep, example = text.partition("Example:")
+        if prose.strip():
+            formatter.write_paragraph()
+            with formatter.indentation():
+                formatter.write_text(prose.strip())
+        if sep:
+            formatter.write_paragraph()
+            with formatter.indentation():
+                formatter.write_text("Example:")
+                formatter.write_paragraph()
+                with formatter.indentation():
+                    for line in example.strip("\n").splitlines():
+                        formatter.write(f"{'':>{formatter.current_indent}}{line.strip()}\n" if line.strip()
+                                        else "\n")
+
+
+class _Group(click.Group):
+    command_class = _Command
+    group_class = type  # sub-groups (``pourback user``) format their examples the same way
+
+
+@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="pourback")
 def main():
     """Pourback: riser design tied to the scrap it causes.
@@ -155,6 +195,8 @@ from tracker.cli import cmd_review  # noqa: E402,F401
 from tracker.cli import cmd_log  # noqa: E402,F401
 from tracker.cli import cmd_app  # noqa: E402,F401
 from tracker.cli import cmd_advise  # noqa: E402,F401
+from tracker.cli import cmd_thermal  # noqa: E402,F401
+from tracker.cli import cmd_users  # noqa: E402,F401
 
 if __name__ == "__main__":  # pragma: no cover
     main(prog_name="pourback")

@@ -4,16 +4,15 @@ from __future__ import annotations
 
 import click
 
-from tracker.cli import caution_text, db_option, emit, handle_errors, json_option, main, open_store, table
+from tracker.cli import (caution_text, db_option, emit, handle_errors, json_option, main, open_store, table,
+                         target_option, week_option, weeks_option)
 
 
 @main.command()
 @click.option("--pattern", default=None, help="Only this pattern (default: every problem pattern of the review).")
-@click.option("--target", type=float, default=0.02, show_default=True,
-              help="Shrinkage reject rate to reach, fraction (0.02 = 2 %).")
-@click.option("--week", default=None, help="Review week, e.g. 2026-W47 (default: the week of the latest pour).")
-@click.option("--weeks", type=click.IntRange(1, 520), default=13, show_default=True,
-              help="Weeks of history to judge by.")
+@target_option
+@week_option
+@weeks_option
 @click.option("--step-mm", type=float, default=10.0, show_default=True,
               help="The shop's standard riser diameter step, mm.")
 @click.option("--riser-metal-charge", type=float, default=1.0, show_default=True,

@@ -14,13 +14,13 @@ import tempfile
 import click
 
 import tracker
+from tracker import auth
 from tracker.cli import emit, handle_errors, json_option, main
 from tracker.errors import PourbackError
 
 DEFAULT_DEMO_DB = "pourback-demo.db"
 DEFAULT_PORT = 8501
 DEFAULT_HOST = "127.0.0.1"
-LOOPBACK = ("127.0.0.1", "localhost", "::1")
 
 
 def app_path() -> pathlib.Path:
@@ -30,15 +30,20 @@ def app_path() -> pathlib.Path:
     return pathlib.Path(dashboard.__file__).resolve().parent / "app.py"
 
 
-def streamlit_argv(host: str, port: int) -> list[str]:
-    """The command line that serves the dashboard."""
-    return [sys.executable, "-m", "streamlit", "run", str(app_path()),
+def streamlit_argv(host: str, port: int, tls: tuple[str, str] | None = None) -> list[str]:
+    """The command line that serves the dashboard (XSRF protection on, uploads
+    capped at auth.MAX_UPLOAD_MB, HTTPS with ``tls`` = (certificate, key))."""
+    argv = [sys.executable, "-m", "streamlit", "run", str(app_path()),
             "--server.address", host, "--server.port", str(port), "--server.headless", "true",
             "--browser.gatherUsageStats", "false", "--server.fileWatcherType", "none",
-            "--client.toolbarMode", "minimal",
+            "--client.toolbarMode", "minimal", "--server.enableXsrfProtection", "true",
+            "--server.maxUploadSize", str(auth.MAX_UPLOAD_MB),
             # The tables' own CSV download writes cells unguarded: it is off, and the
             # pages offer downloads through tracker.report.csv_bytes instead.
             "--client.disableDataExport", "true"]
+    if tls:
+        argv += ["--server.sslCertFile", tls[0], "--server.sslKeyFile", tls[1]]
+    return argv
 
 
 def _launch(argv: list[str], env: dict) -> int:
@@ -72,23 +77,36 @@ def _launch(argv: list[str], env: dict) -> int:
                 child.wait()
 
 
-def _url(host: str, port: int) -> str:
+def _url(host: str, port: int, tls: bool = False) -> str:
     shown = f"[{host}]" if ":" in host else host
-    return f"http://{shown}:{port}"
+    return f"{'https' if tls else 'http'}://{shown}:{port}"
 
 
-def serve(db: pathlib.Path, host: str, port: int) -> None:
-    env = {**os.environ, "POURBACK_DB": str(db)}
-    click.echo(f"Dashboard on {db}: {_url(host, port)}  (stop with Ctrl+C)")
-    if host not in LOOPBACK:
-        click.echo(f"Note: the dashboard has no login; anyone who can reach {host}:{port} can read the "
-                   "log and record results.", err=True)
-    status = _launch(streamlit_argv(host, port), env)
-    if status:
+NO_TLS_WARNING = ("Warning: served beyond this computer without TLS: user names, passwords and results cross "
+                  "the network readable by anyone on it. Serve with --tls-cert FILE --tls-key FILE.")
+
+
+def serve(db: pathlib.Path, host: str, port: int, *, require_login: bool = False,
+          tls: tuple[str, str] | None = None, idle_hours: float | None = None) -> None:
+    """Check the log may be served on ``host`` (refusing beyond loopback without an
+    enabled admin account), then hand over to Streamlit."""
+    from tracker.store import Store
+
+    idle = auth.check_idle_hours(auth.DEFAULT_IDLE_HOURS if idle_hours is None else idle_hours)
+    with Store(db, create=False) as store:  # migrate before the first page opens; never create
+        sign_in = auth.check_can_serve(store, host, require_login)
+    env = {**os.environ, "POURBACK_DB": str(db), "POURBACK_SIGN_IN": "1" if sign_in else "0",
+           "POURBACK_IDLE_HOURS": f"{idle:g}", "POURBACK_TLS": "1" if tls else "0",
+           "POURBACK_HOST": host}
+    click.echo(f"Dashboard on {db}: {_url(host, port, bool(tls))}  (stop with Ctrl+C)")
+    if sign_in:
+        click.echo(f"Every visitor signs in; a session ends after {idle:g} hours without activity.")
+    if not auth.is_loopback(host) and not tls:
+        click.echo(NO_TLS_WARNING, err=True)
+    status = _launch(streamlit_argv(host, port, tls), env)
+    if status and status > 0:
         # Streamlit stopped by a signal (negative) is a normal stop; other codes are its own failure.
-        if status > 0:
-            raise PourbackError(f"the dashboard server stopped with exit status {status}; see its messages "
-                                "above")
+        raise PourbackError(f"the dashboard server stopped with exit status {status}; see its messages above")
 
 
 port_option = click.option("--port", type=click.IntRange(1, 65535), default=DEFAULT_PORT, show_default=True,
@@ -101,7 +119,8 @@ def _check_host(ctx, param, value: str) -> str:
 
 
 host_option = click.option("--host", default=DEFAULT_HOST, show_default=True, callback=_check_host,
-                           help="Address to bind; the default keeps the dashboard on this computer.")
+                           help="Address to bind; the default keeps the dashboard on this computer. Any other "
+                                "address needs an enabled admin account, and every visitor signs in.")
 
 
 @main.command()
@@ -109,24 +128,36 @@ host_option = click.option("--host", default=DEFAULT_HOST, show_default=True, ca
               help="Log database file (default $POURBACK_DB, else ./pourback.db).")
 @port_option
 @host_option
+@click.option("--require-login", is_flag=True,
+              help="Ask every visitor to sign in on this computer too (always asked beyond it).")
+@click.option("--tls-cert", type=click.Path(exists=True, dir_okay=False), default=None,
+              help="Certificate file (PEM) to serve HTTPS with; give --tls-key with it.")
+@click.option("--tls-key", type=click.Path(exists=True, dir_okay=False), default=None,
+              help="Private key file (PEM) of --tls-cert.")
+@click.option("--idle-hours", type=float, default=8.0, show_default=True,
+              help="A signed-in session ends after this many hours without activity.")
 @handle_errors
-def dashboard(db_path, port, host):
+def dashboard(db_path, port, host, require_login, tls_cert, tls_key, idle_hours):
     """Open the dashboard (log results, weekly review, design map, pattern
     file, suggestions) in the browser, on the log in --db.
 
     The log must exist (create it with `pourback init`, or build the demo
     log with `pourback demo`); stopping this command stops the server.
+    On any address but 127.0.0.1, ::1 or localhost it refuses to start unless
+    the log has an enabled admin account, and asks every visitor to sign in.
 
     Example:
 
         pourback dashboard --db plant.db --port 8502
+        pourback dashboard --db plant.db --host 0.0.0.0 --tls-cert cert.pem --tls-key key.pem
     """
-    from tracker.store import Store, resolve_path
+    from tracker.store import resolve_path
 
+    if bool(tls_cert) != bool(tls_key):
+        raise click.UsageError("give --tls-cert and --tls-key together (the certificate and its private key)")
     db = pathlib.Path(resolve_path(db_path)).resolve()
-    with Store(db, create=False):  # migrate before the first page opens
-        pass
-    serve(db, host, port)
+    tls = (str(pathlib.Path(tls_cert).resolve()), str(pathlib.Path(tls_key).resolve())) if tls_cert else None
+    serve(db, host, port, require_login=require_login, tls=tls, idle_hours=idle_hours)
 
 
 # --- demo ------------------------------------------------------------------------------
@@ -215,6 +246,10 @@ def demo_command(db_path, no_dashboard, port, host, as_json):
         pourback demo --db /tmp/demo.db --port 8502
     """
     target = pathlib.Path(db_path).resolve()
+    if not no_dashboard and not auth.is_loopback(host):
+        raise click.UsageError(f"the demo log has no accounts, so it is served on this computer only; drop "
+                               f"--host {host}, or build it with --no-dashboard, add an admin with `pourback user "
+                               "add NAME --role admin --db FILE` and serve it with `pourback dashboard`")
     built = build_demo(target)
     built.update(url=_url(host, port), host=host, port=port, opening=not no_dashboard)
     emit(built, as_json, _format_demo)

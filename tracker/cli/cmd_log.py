@@ -25,17 +25,49 @@ def _who(by: str | None) -> str:
 
 
 @main.command()
+@click.option("--currency", default=None, metavar="CODE",
+              help="Three-letter code of the currency the log's costs are in, e.g. EUR (default EUR; "
+                   "change it later with `pourback settings --currency`).")
 @db_option
 @handle_errors
-def init(db_path):
+def init(currency, db_path):
     """Create an empty log (or bring an old one up to the current schema).
 
     Example:
 
-        pourback init --db plant.db
+        pourback init --db plant.db --currency EUR
     """
+    from tracker import settings as log_settings
+
     with open_store(db_path, create=True) as store:
-        click.echo(f"Log ready: {store.path} (schema version {store.schema_version()})")
+        if currency is not None:
+            log_settings.set_currency(store, currency)
+        code = log_settings.currency(store)
+        click.echo(f"Log ready: {store.path} (schema version {store.schema_version()}; money in {code})")
+
+
+@main.command()
+@click.option("--currency", default=None, metavar="CODE",
+              help="Set the three-letter code of the currency the log's costs are in, e.g. USD.")
+@db_option
+@json_option
+@handle_errors
+def settings(currency, db_path, as_json):
+    """Show the log's settings, or change them (the currency money is counted in).
+
+    Costs already logged are not converted; they are read in the new currency.
+
+    Example:
+
+        pourback settings --currency EUR
+    """
+    from tracker import settings as log_settings
+
+    with open_store(db_path) as store:
+        if currency is not None:
+            log_settings.set_currency(store, currency)
+        data = log_settings.settings(store)
+    emit(data, as_json, lambda d: "\n".join(f"{k}: {v}" for k, v in d.items()))
 
 
 def _count_rows(path: pathlib.Path) -> int:
@@ -145,8 +177,7 @@ def log(lot, inspected_on, method, quantity, result, defect, zone, xray_category
 
     Example:
 
-        pourback log --lot L26-0412 --method xray --quantity 2 --result reject \\
-            --defect shrinkage --zone flange --xray-category CB --severity 4 --inspector QE-ML
+        pourback log --lot L2647-043 --method xray --quantity 1 --result reject --defect shrinkage --zone neck --xray-category CB --severity 4 --inspector QE-ML
     """
     from tracker.ingest import log_inspection
 
@@ -213,7 +244,7 @@ def history(lot, limit, db_path, as_json):
 
     Example:
 
-        pourback history --lot L26-0412
+        pourback history --lot L2647-043
     """
     with open_store(db_path) as store:
         frame = store.inspections_history(lot=lot, limit=limit)

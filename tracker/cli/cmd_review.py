@@ -6,18 +6,14 @@ import pathlib
 
 import click
 
-from tracker.cli import db_option, emit, handle_errors, main, open_store
+from tracker.cli import db_option, emit, handle_errors, main, open_store, target_option, week_option, weeks_option
 from tracker.report import FORMATS
 
 
 @main.command()
-@click.option("--week", default=None, metavar="YYYY-Www",
-              help="ISO week to review, e.g. 2026-W47 (default: the week of the latest pour).")
-@click.option("--weeks", type=click.IntRange(1, 520), default=13, show_default=True,
-              help="Weeks of history in the window, the review week included.")
-@click.option("--target", type=float, default=0.02, show_default=True,
-              help="Target reject rate as a fraction (0.02 = 2 %); a pattern whose rate is "
-                   "surely above it is flagged.")
+@week_option
+@weeks_option
+@target_option
 @click.option("--format", "fmt", type=click.Choice(FORMATS), default=None,
               help="Output format [default: table].")
 @click.option("--json", "as_json", is_flag=True, help="Shorthand for --format json.")

@@ -1,0 +1,363 @@
+"""How a casting section and its riser become a 2-D thermal model.
+
+Two models, chosen from the riser's placement and the section's shape:
+
+- **axisymmetric (r–z)** for a top riser on a compact section: the riser is
+  a cylinder of its own diameter and height on the axis, standing on its
+  neck (a round neck of the neck diameter, half a neck diameter long) or
+  directly on the section; the section is a disc of the zone's thickness T
+  whose plan area is the zone's (length × width where given, otherwise
+  volume / T, so the disc holds the zone's volume).
+- **planar (x–z)** for a side riser, and for a top riser on a long plate
+  (length over width above 2): a cut along the section's length, taken as
+  infinitely deep. A cut of infinite depth cools only through two faces, so
+  each body keeps its 3-D modulus instead of its 3-D width: the section's
+  2-D thickness is 2 × its cross-section modulus (W·T/(W + T), or 2·V/A of
+  the zone where the width is unknown), the riser keeps its height H and
+  gets the width that gives its 2-D modulus the 3-D riser's (D/2 at H = D),
+  a round neck of diameter N becomes a slab of height N/2 (modulus N/4). The
+  section runs from the riser (the plate's fed end) over its length to a
+  free end; a top riser on a long plate stands at its middle and the model
+  is one half, the middle a plane of symmetry.
+
+What this ignores: the section's real plan shape (corners, bosses, other
+sections joined to it), heat flow across the depth of a planar cut, mould
+filling (the metal starts at the pouring temperature everywhere), fluid flow
+and shrinkage in the liquid, the air gap, an open riser top (treated as
+blind, like the rules), and properties varying with temperature.
+
+A sleeve is a layer of its wall thickness (12 % of the riser diameter,
+10-30 mm; from memory) around the riser's wall whose conductivity gives the
+sleeve's modulus extension factor (``_sleeve_k``). The
+mould is sand at 20 °C, deep enough that the heat does not reach its edge.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import asdict, dataclass
+
+import numpy as np
+
+from tracker import geometry, rules
+from tracker.errors import BadInput
+from tracker.thermal import properties as props
+from tracker.thermal.solver import MOULD, NECK, RISER, SECTION, SLEEVE, Grid, PhaseCurve, solve
+
+LONG_PLATE_RATIO = 2.0          # length / width above which a top riser's section is planar
+NECK_LENGTH_SHARE = 0.5         # neck length as a share of its diameter (from memory: short necks)
+DEFAULT_CELLS_ACROSS = 8        # cells across the section's thickness at default resolution
+MAX_CELLS = 12_000              # coarser where a fine grid would hold more cells
+STEPS_PER_SECTION = 100         # time steps within the section's estimated freezing time
+GROWTH = 1.3                    # cell growth into the mould
+
+
+@dataclass(frozen=True)
+class ThermalCase:
+    """One riser on one casting section, in mm and °C.
+
+    length_mm is the section's length from the riser to its free end (side
+    riser) or its full length (top riser); width_mm its width (None where not
+    known, then volume_cm3 and area_cm2 stand in).
+    """
+
+    alloy: str
+    placement: str
+    thickness_mm: float
+    length_mm: float | None
+    width_mm: float | None
+    diameter_mm: float
+    height_mm: float
+    neck_diameter_mm: float | None = None
+    sleeve_factor: float = 1.0
+    pour_temp_c: float | None = None
+    mould: str = "silica_sand"
+    volume_cm3: float | None = None
+    area_cm2: float | None = None
+    label: str = ""
+
+    def to_dict(self) -> dict:
+        return asdict(self)
+
+
+def validate(case: ThermalCase) -> ThermalCase:
+    geometry.check_placement(case.placement)
+    for name in ("thickness_mm", "diameter_mm", "height_mm"):
+        v = getattr(case, name)
+        if v is None or not math.isfinite(v) or v <= 0:
+            raise BadInput(name.replace("_", "-"), v, "must be a length above 0 mm")
+    for name in ("length_mm", "width_mm", "neck_diameter_mm"):
+        v = getattr(case, name)
+        if v is not None and (not math.isfinite(v) or v <= 0):
+            raise BadInput(name.replace("_", "-"), v, "must be a length above 0 mm, or left out")
+    if case.length_mm is None and case.volume_cm3 is None:
+        raise BadInput("length-mm", None, "give the section's length and width (or the zone's volume)")
+    if not (1.0 <= case.sleeve_factor <= 2.0):
+        raise BadInput("sleeve-factor", case.sleeve_factor,
+                       "a sleeve's modulus extension factor lies between 1.0 (bare sand) and 2.0")
+    a = props.thermal_alloy(case.alloy)
+    props.mould(case.mould)
+    if case.pour_temp_c is not None and not (a.liquidus_c < case.pour_temp_c < a.liquidus_c + 500):
+        raise BadInput("pour-temp-c", case.pour_temp_c,
+                       f"must lie above the {case.alloy} liquidus {a.liquidus_c:g} °C and within 500 K of it")
+    if case.neck_diameter_mm is not None and case.neck_diameter_mm > case.diameter_mm:
+        raise BadInput("neck-diameter-mm", case.neck_diameter_mm,
+                       f"a neck wider than the riser ({case.diameter_mm:g} mm) is not a neck; give at most the riser diameter")
+    return case
+
+
+def model_kind(case: ThermalCase) -> str:
+    if case.placement == "side":
+        return "planar"
+    if case.length_mm and case.width_mm:
+        lo, hi = sorted((case.length_mm, case.width_mm))
+        if hi / lo > LONG_PLATE_RATIO:
+            return "planar"
+    return "axisymmetric"
+
+
+@dataclass
+class Built:
+    grid: Grid
+    k: np.ndarray
+    heat: np.ndarray
+    t_init: np.ndarray
+    curve: PhaseCurve
+    alloy: props.ThermalAlloy
+    model: str
+    pour_temp_c: float
+    dt: float
+    t_max: float
+    cell_mm: float
+    section_estimate_s: float
+    riser_estimate_s: float
+    notes: list
+
+
+@functools.lru_cache(maxsize=512)
+def _sleeve_k(factor: float, wall_mm: float, modulus_mm: float, alloy_key: str, mould_key: str,
+              pour: float) -> float:
+    """Conductivity of a sleeve wall that gives the modulus extension factor f, W/(m·K).
+
+    Found by 1-D solves of the riser wall: a plate of the riser's modulus M
+    (half thickness M) against sand, bare and behind a sleeve layer of the
+    wall thickness; the sleeve's conductivity is set so that the sleeved
+    plate freezes f² times later than the bare one (Chvorinov's rule with the
+    effective modulus f·M). An exothermic sleeve is treated the same way
+    through its catalogue factor, which already holds its heat release: the
+    documented simplification of this model.
+    """
+    from scipy import optimize
+
+    alloy = props.thermal_alloy(alloy_key)
+    mould_ = props.mould(mould_key)
+    cell = modulus_mm / 6.0
+
+    t_est = _chvorinov_b(alloy, mould_, pour) * (modulus_mm / 10.0) ** 2
+
+    def freeze(k_sleeve, dt, t_max):
+        pts = [0.0, modulus_mm] + ([modulus_mm + wall_mm] if k_sleeve else [])
+        ze = _axis(pts, cell, 0.0, 250.0)
+        zc = 0.5 * (ze[1:] + ze[:-1])
+        region = np.where(zc < modulus_mm, SECTION,
+                          np.where(zc < modulus_mm + (wall_mm if k_sleeve else 0.0), SLEEVE, MOULD))[:, None]
+        k = np.where(region == SECTION, alloy.conductivity_w_mk,
+                     np.where(region == SLEEVE, k_sleeve or 1.0, mould_.conductivity_w_mk))
+        heat = np.where(region == SECTION, alloy.volumetric_heat,
+                        np.where(region == SLEEVE, props.SLEEVE_DENSITY_KG_M3 * props.SLEEVE_SPECIFIC_HEAT_J_KGK,
+                                 mould_.volumetric_heat))
+        grid = Grid(np.array([0.0, 0.001]), ze / 1000.0, region, False)
+        out = solve(grid, k, heat, PhaseCurve.from_alloy(alloy),
+                    np.where(region == SECTION, pour, props.MOULD_INITIAL_C), dt, t_max)
+        st = out.solid_time_s[region == SECTION]
+        return float(np.max(st)) if not np.isnan(st).any() else t_max
+
+    bare = freeze(None, t_est / 40.0, 20.0 * t_est)
+    target = factor**2 * bare
+    lo, hi = math.log(0.01), math.log(mould_.conductivity_w_mk * 2)
+    try:
+        return float(math.exp(optimize.brentq(lambda lk: freeze(math.exp(lk), bare / 40.0, 1.5 * target) - target, lo, hi, xtol=0.05)))
+    except ValueError:
+        return 0.01       # even the best insulator tried does not reach f²: take it
+
+
+def _chvorinov_b(alloy: props.ThermalAlloy, mould_: props.Mould, pour: float) -> float:
+    """Mould constant from properties, s/cm² (Flemings 1974 via tracker.rules)."""
+    t_melt = 0.5 * (alloy.liquidus_c + alloy.solidus_c)
+    return rules.mould_constant_from_properties(
+        alloy.density_kg_m3, alloy.latent_j_kg, alloy.specific_heat_j_kgk,
+        max(pour - alloy.liquidus_c, 0.0), t_melt, props.MOULD_INITIAL_C,
+        mould_.conductivity_w_mk, mould_.density_kg_m3, mould_.specific_heat_j_kgk)
+
+
+def _axis(breaks, h, lo_margin, hi_margin, growth=GROWTH):
+    """Cell edges (mm): uniform cells of about h between breaks, graded into the margins."""
+    b = np.unique(np.round(np.asarray(breaks, dtype=float), 6))
+    keep = [b[0]]
+    for v in b[1:]:
+        if v - keep[-1] > 0.3 * h:
+            keep.append(v)
+        else:
+            keep[-1] = max(keep[-1], v) if len(keep) > 1 else keep[-1]
+    b = np.array(keep)
+    edges = [b[0]]
+    for lo, hi in zip(b[:-1], b[1:]):
+        n = max(1, int(round((hi - lo) / h)))
+        edges.extend(np.linspace(lo, hi, n + 1)[1:])
+    edges = np.array(edges)
+
+    def grade(margin):
+        out, size, pos = [], h, 0.0
+        while pos < margin - 1e-9:
+            size = min(size * growth, 4.0 * h)
+            pos += size
+            out.append(pos)
+        return np.array(out)
+
+    if lo_margin > 0:
+        edges = np.concatenate([edges[0] - grade(lo_margin)[::-1], edges])
+    if hi_margin > 0:
+        edges = np.concatenate([edges, edges[-1] + grade(hi_margin)])
+    return edges
+
+
+def _paint(xe, ze, rects):
+    xc = 0.5 * (xe[1:] + xe[:-1])
+    zc = 0.5 * (ze[1:] + ze[:-1])
+    region = np.full((zc.size, xc.size), MOULD, dtype=np.int8)
+    for x0, x1, z0, z1, code in rects:
+        inx = (xc > x0) & (xc < x1)
+        inz = (zc > z0) & (zc < z1)
+        region[np.ix_(inz, inx)] = code
+    return region
+
+
+def section_dims(case: ThermalCase, kind: str) -> tuple[float, float]:
+    """(thickness, extent) of the section in the model, mm.
+
+    axisymmetric: (T, disc radius); planar: (2-D thickness, length from the
+    riser or, for a top riser, half the length).
+    """
+    t = case.thickness_mm
+    if kind == "axisymmetric":
+        if case.length_mm and case.width_mm:
+            plan = case.length_mm * case.width_mm
+        else:
+            plan = case.volume_cm3 * 1000.0 / t
+        return t, math.sqrt(plan / math.pi)
+    if case.width_mm:
+        t2 = case.width_mm * t / (case.width_mm + t)
+    elif case.volume_cm3 and case.area_cm2:
+        t2 = min(t, 20.0 * case.volume_cm3 / case.area_cm2)
+    else:
+        t2 = t
+    if case.length_mm:
+        length = case.length_mm
+    else:
+        length = math.sqrt(case.volume_cm3 * 1000.0 / t)
+    if case.placement == "top":
+        length /= 2.0
+    return t2, length
+
+
+def build(case: ThermalCase, cells_across: int = DEFAULT_CELLS_ACROSS,
+          steps_per_section: int = STEPS_PER_SECTION) -> Built:
+    """The grid, properties and time step of one case."""
+    case = validate(case)
+    alloy = props.thermal_alloy(case.alloy)
+    mould_ = props.mould(case.mould)
+    pour = case.pour_temp_c if case.pour_temp_c is not None else alloy.pour_temp_c
+    kind = model_kind(case)
+    notes = []
+    d, hgt = case.diameter_mm, case.height_mm
+    t_sec, extent = section_dims(case, kind)
+    m_riser = float(geometry.cylinder_modulus(d / 10, hgt / 10, case.placement))     # cm
+    b = _chvorinov_b(alloy, mould_, pour)
+    m_sec = t_sec * extent / (2 * extent + 2 * t_sec) / 10.0 if kind == "axisymmetric" else t_sec / 20.0
+    t_sec_est = b * m_sec**2
+    t_riser_est = b * (case.sleeve_factor * m_riser) ** 2
+    sleeved = case.sleeve_factor > 1.0 + 1e-9
+    wall = props.sleeve_wall_mm(d) if sleeved else 0.0
+    k_sleeve = _sleeve_k(round(case.sleeve_factor, 3), round(wall, 1), round(m_riser * 10, 1), alloy.key,
+                         mould_.key, round(pour)) if sleeved else mould_.conductivity_w_mk
+    alpha = mould_.conductivity_w_mk / mould_.volumetric_heat
+    t_end = 1.5 * max(t_sec_est, t_riser_est)
+    margin = float(np.clip(3.5 * math.sqrt(alpha * t_end) * 1000.0, 25.0, 250.0))
+
+    h = t_sec / cells_across
+    neck_d = case.neck_diameter_mm
+    rects = []
+    if kind == "axisymmetric":
+        r_sec = extent
+        r_riser = d / 2.0
+        ln = NECK_LENGTH_SHARE * neck_d if neck_d else 0.0
+        z_rb = t_sec + ln
+        z_rt = z_rb + hgt
+        if sleeved:
+            rects.append((r_riser, r_riser + wall, z_rb, z_rt, SLEEVE))
+        rects.append((0.0, r_riser, z_rb, z_rt, RISER))
+        if neck_d:
+            rects.append((0.0, neck_d / 2.0, t_sec, z_rb, NECK))
+        rects.append((0.0, r_sec, 0.0, t_sec, SECTION))
+        xb = [0.0, r_riser, r_sec] + ([r_riser + wall] if sleeved else []) + ([neck_d / 2] if neck_d else [])
+        zb = [0.0, t_sec, z_rb, z_rt]
+        x_lo, x_hi = 0.0, margin
+        if r_riser + wall > r_sec:
+            notes.append("riser wider than the section's equivalent disc")
+    else:
+        if case.placement == "side":
+            w = 2.0 * m_riser * 10 * hgt / (hgt - 2.0 * m_riser * 10)
+            n2 = min(neck_d / 2.0, t_sec, hgt) if neck_d else min(t_sec, hgt)
+            ln = max(NECK_LENGTH_SHARE * neck_d if neck_d else 0.0, wall)
+            zc = min(t_sec / 2.0, hgt - n2 / 2.0)
+            x_r1 = -ln
+            x_r0 = x_r1 - w
+            if sleeved:
+                rects.append((x_r0 - wall, x_r1 + wall, 0.0, hgt, SLEEVE))
+            rects.append((x_r0, x_r1, 0.0, hgt, RISER))
+            if ln > 0:
+                rects.append((x_r1 - 1e-6, 0.0, zc - n2 / 2.0, zc + n2 / 2.0, NECK))
+            rects.append((0.0, extent, 0.0, t_sec, SECTION))
+            xb = [x_r0, x_r1, 0.0, extent] + ([x_r0 - wall, x_r1 + wall] if sleeved else [])
+            zb = [0.0, t_sec, hgt, zc - n2 / 2.0, zc + n2 / 2.0]
+            x_lo, x_hi = margin, margin
+        else:
+            w = 2.0 * m_riser * 10 * hgt / (hgt - m_riser * 10)
+            n2 = min(neck_d / 2.0, w) if neck_d else 0.0
+            ln = NECK_LENGTH_SHARE * neck_d if neck_d else 0.0
+            z_rb = t_sec + ln
+            z_rt = z_rb + hgt
+            if sleeved:
+                rects.append((w / 2.0, w / 2.0 + wall, z_rb, z_rt, SLEEVE))
+            rects.append((0.0, w / 2.0, z_rb, z_rt, RISER))
+            if neck_d:
+                rects.append((0.0, n2 / 2.0, t_sec, z_rb, NECK))
+            rects.append((0.0, extent, 0.0, t_sec, SECTION))
+            xb = [0.0, w / 2.0, extent] + ([w / 2 + wall] if sleeved else []) + ([n2 / 2] if neck_d else [])
+            zb = [0.0, t_sec, z_rb, z_rt]
+            x_lo, x_hi = 0.0, margin
+    span_x = max(xb) - min(xb)
+    span_z = max(zb) - min(zb)
+    # keep the cell count bounded: coarser cells on very large models
+    est = (span_x / h + 2 * 8) * (span_z / h + 2 * 8)
+    if est > MAX_CELLS:
+        h *= math.sqrt(est / MAX_CELLS)
+    xe = _axis(xb, h, x_lo, x_hi)
+    ze = _axis(zb, h, margin, margin)
+    region = _paint(xe, ze, rects)
+    k = np.full(region.shape, mould_.conductivity_w_mk)
+    heat = np.full(region.shape, mould_.volumetric_heat)
+    metal = np.isin(region, (SECTION, RISER, NECK))
+    k[metal] = alloy.conductivity_w_mk
+    heat[metal] = alloy.volumetric_heat
+    k[region == SLEEVE] = k_sleeve
+    heat[region == SLEEVE] = props.SLEEVE_DENSITY_KG_M3 * props.SLEEVE_SPECIFIC_HEAT_J_KGK
+    t_init = np.where(metal, pour, props.MOULD_INITIAL_C)
+    grid = Grid(xe / 1000.0, ze / 1000.0, region, kind == "axisymmetric")
+    dt = t_sec_est / steps_per_section
+    return Built(grid, k, heat, t_init, PhaseCurve.from_alloy(alloy), alloy, kind, pour, dt,
+                 8.0 * max(t_sec_est, t_riser_est), h, t_sec_est, t_riser_est, notes)
+
+
+__all__ = ["ThermalCase", "Built", "build", "model_kind", "validate"]

@@ -1,0 +1,321 @@
+"""Transient 2-D heat conduction with latent heat by the enthalpy method.
+
+The unknown in every cell is its enthalpy per volume H (J/m³); temperature
+and liquid fraction follow from H through the alloy's curve (Voller and
+Prakash, 1987: a fixed grid, no front tracking). Each time step is split
+into an implicit step along x (or r) and one along z (locally
+one-dimensional splitting, the order alternating between steps); each
+split step is a set of tridiagonal systems solved together by LAPACK's
+``gtsv``, with Newton iterations on H for the latent heat (the source
+linearisation of Voller and Swaminathan, 1991, written for H). Implicit
+steps have no stability limit, so the time step follows the freezing time,
+not the metal's conductivity.
+
+Finite volumes on a rectilinear grid, planar (per metre of depth) or
+axisymmetric (r from the axis). Faces between cells conduct with the
+series (harmonic) conductance of the two half cells; the outer faces are
+adiabatic, so the heat the metal loses stays in the mould (the energy
+balance is exact up to the Newton tolerance). Units: SI inside (m, s, K).
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import ndimage
+from scipy.linalg import lapack
+
+# region codes of the cells
+MOULD, SLEEVE, SECTION, RISER, NECK, FIXED = 0, 1, 2, 3, 4, 5
+
+NEWTON_TOL_K = 1e-3
+NEWTON_MAX = 12
+
+
+@dataclass
+class Grid:
+    """Cell edges (m), the region of every cell, and whether r–z axisymmetric."""
+
+    x_edges: np.ndarray
+    z_edges: np.ndarray
+    region: np.ndarray          # (nz, nx) int
+    axisymmetric: bool
+
+    @property
+    def shape(self):
+        return self.region.shape
+
+    @property
+    def xc(self):
+        return 0.5 * (self.x_edges[1:] + self.x_edges[:-1])
+
+    @property
+    def zc(self):
+        return 0.5 * (self.z_edges[1:] + self.z_edges[:-1])
+
+    def volumes(self) -> np.ndarray:
+        dz = np.diff(self.z_edges)[:, None]
+        if self.axisymmetric:
+            return np.pi * np.diff(self.x_edges**2)[None, :] * dz
+        return np.diff(self.x_edges)[None, :] * dz
+
+
+@dataclass
+class PhaseCurve:
+    """The metal's H(T) as a piecewise-linear table, per volume."""
+
+    t: np.ndarray   # ascending temperatures, °C
+    h: np.ndarray   # enthalpy per volume at those temperatures, J/m³
+    liquidus: float
+    solidus: float
+    volumetric_heat: float
+    volumetric_latent: float
+
+    @classmethod
+    def from_alloy(cls, alloy) -> "PhaseCurve":
+        pts = sorted(alloy.fs_curve, key=lambda p: (p[0], -p[1]))
+        t = np.array([p[0] for p in pts], dtype=float)
+        fl = 1.0 - np.array([p[1] for p in pts], dtype=float)
+        c, lv = alloy.volumetric_heat, alloy.volumetric_latent
+        lo, hi = -1e6, 1e6
+        t = np.concatenate([[lo], t, [hi]])
+        fl = np.concatenate([[0.0], fl, [1.0]])
+        return cls(t, c * t + lv * fl, float(t[1:-1].max()), float(t[1:-1].min()), c, lv)
+
+    def temperature(self, h):
+        return np.interp(h, self.h, self.t)
+
+    def slope(self, h):
+        """dT/dH on the segment holding h."""
+        seg = np.clip(np.searchsorted(self.h, h) - 1, 0, len(self.h) - 2)
+        return (np.diff(self.t) / np.diff(self.h))[seg]
+
+    def enthalpy(self, t):
+        """H at temperature t (liquid side where the curve is isothermal)."""
+        t = np.asarray(t, dtype=float)
+        # np.interp takes the last of equal abscissae: the liquid end of a plateau
+        return np.interp(t, self.t, self.h)
+
+    def liquid_fraction(self, h):
+        c, lv = self.volumetric_heat, self.volumetric_latent
+        return np.clip((h - c * self.temperature(h)) / lv, 0.0, 1.0)
+
+    @property
+    def h_solidus(self) -> float:
+        return self.volumetric_heat * self.solidus
+
+
+@dataclass
+class SolveOutput:
+    grid: Grid
+    time_step_s: float
+    steps: int
+    end_time_s: float
+    solid_time_s: np.ndarray        # (nz, nx), time each metal cell became solid (nan elsewhere)
+    niyama: np.ndarray              # (nz, nx), Ny at the evaluation temperature, (°C·min)^0.5/cm
+    temperature_c: np.ndarray       # final
+    h_initial: np.ndarray
+    h_final: np.ndarray
+    isolated_share: float           # largest share of the section's volume cut off from the riser
+    isolated_time_s: float | None
+    isolated_at_m: tuple | None
+    newton_max: int
+    solve_s: float
+    history: list = field(default_factory=list)
+
+
+def conductances(grid: Grid, k: np.ndarray):
+    """Face conductances G (W/K) across x faces (nz, nx+1) and z faces (nz+1, nx)."""
+    xe, ze = grid.x_edges, grid.z_edges
+    dx, dz = np.diff(xe), np.diff(ze)
+    nz, nx = grid.shape
+    gx = np.zeros((nz, nx + 1))
+    gz = np.zeros((nz + 1, nx))
+    rx = (dx / 2.0)[None, :] / k          # half-cell resistances (per unit face area)
+    rz = (dz / 2.0)[:, None] / k
+    if grid.axisymmetric:
+        ax = 2.0 * np.pi * xe[1:-1][None, :] * dz[:, None]
+        az = np.pi * np.diff(xe**2)[None, :]
+    else:
+        ax = np.broadcast_to(dz[:, None], (nz, nx - 1))
+        az = dx[None, :]
+    gx[:, 1:-1] = ax / (rx[:, :-1] + rx[:, 1:])
+    gz[1:-1, :] = az / (rz[:-1, :] + rz[1:, :])
+    return gx, gz
+
+
+class _Sweep:
+    """One direction's tridiagonal structure, flattened line after line."""
+
+    def __init__(self, g_faces: np.ndarray, vol: np.ndarray, transpose: bool):
+        # g_faces: (lines, n+1) conductances along each line (both ends zero)
+        self.transpose = transpose
+        self.glo = g_faces[:, :-1].ravel().copy()
+        self.ghi = g_faces[:, 1:].ravel().copy()
+        self.vol = vol.ravel().copy()
+        self.n = self.glo.size
+
+    def flat(self, a):
+        return (a.T if self.transpose else a).ravel()
+
+    def unflat(self, v, shape):
+        if self.transpose:
+            return v.reshape(shape[1], shape[0]).T
+        return v.reshape(shape)
+
+
+def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
+          t_init: np.ndarray, dt: float, t_max: float, *,
+          track: bool = True, niyama_share: float = 0.1,
+          feeding_fraction: float = 0.7, record_times=()) -> SolveOutput:
+    """Run the solve until every metal cell is solid (or ``t_max`` s).
+
+    k: conductivity W/(m·K) per cell; heat: rho·c J/(m³·K) per cell (the
+    metal's is ``curve.volumetric_heat``); t_init: °C per cell. Metal cells
+    are those whose region is SECTION, RISER or NECK; FIXED cells keep their
+    temperature (a wall held at constant temperature).
+    record_times: times (s) at which to keep a copy of the liquid fraction.
+    """
+    start = time.perf_counter()
+    shape = grid.shape
+    region = grid.region
+    metal = np.isin(region, (SECTION, RISER, NECK))
+    fixed = region == FIXED
+    vol = grid.volumes()
+    gx, gz = conductances(grid, k)
+    sweeps = [_Sweep(gx, vol, False), _Sweep(gz.T, vol.T, True)]
+    for s in sweeps:
+        s.metal = s.flat(metal)
+        s.fixed = s.flat(fixed)
+        s.heat = s.flat(heat)
+
+    h = np.where(metal, curve.enthalpy(t_init), heat * t_init)
+    h0 = h.copy()
+    temp = np.where(metal, curve.temperature(h), h / heat)
+
+    c, lv = curve.volumetric_heat, curve.volumetric_latent
+    h_sol = curve.h_solidus
+    t_eval = curve.solidus + niyama_share * (curve.liquidus - curve.solidus)
+    h_eval = float(curve.enthalpy(t_eval))
+    fs_feed_h = float(np.interp(1.0 - feeding_fraction, (curve.h - c * curve.t) / lv, curve.h)) \
+        if lv > 0 else h_sol
+
+    solid_time = np.full(shape, np.nan)
+    niyama = np.full(shape, np.nan)
+    solid_time[metal & (h < h_sol)] = 0.0
+    sec = region == SECTION
+    sec_vol = float(vol[sec].sum()) or 1.0
+    feeder = np.isin(region, (RISER,))
+    iso_share, iso_time, iso_at = 0.0, None, None
+    newton_max = 0
+    xc, zc = grid.xc, grid.zc
+    history = []
+    rec = sorted(record_times)
+
+    t = 0.0
+    step = 0
+    while t < t_max - 1e-9:
+        order = sweeps if step % 2 == 0 else sweeps[::-1]
+        h_prev, temp_prev = h, temp
+        for s in order:
+            hv, it = _implicit_1d(s, s.flat(h), dt, curve)
+            newton_max = max(newton_max, it)
+            h = s.unflat(hv, shape).copy()
+        temp = np.where(metal, curve.temperature(h), h / heat)
+        t_new = t + dt
+        if track:
+            m = metal & np.isnan(solid_time) & (h < h_sol)
+            if m.any():
+                frac = (h_prev[m] - h_sol) / np.maximum(h_prev[m] - h[m], 1e-30)
+                solid_time[m] = t + dt * np.clip(frac, 0.0, 1.0)
+            m = metal & np.isnan(niyama) & (h_prev >= h_eval) & (h < h_eval)
+            if m.any():
+                gzz, gxx = _gradient(temp, zc, xc)
+                grad = np.hypot(gxx[m], gzz[m]) / 100.0           # K/m -> °C/cm
+                rate = (temp_prev[m] - temp[m]) / dt * 60.0       # °C/min
+                niyama[m] = grad / np.sqrt(np.maximum(rate, 1e-12))
+            liquid = metal & (h > fs_feed_h)
+            if (liquid & sec).any():
+                lab, n = ndimage.label(liquid)
+                fed = np.zeros(n + 1, bool)
+                fed[np.unique(lab[liquid & feeder])] = True
+                fed[0] = True
+                cut = sec & ~fed[lab]
+                if cut.any():
+                    share = float(vol[cut].sum()) / sec_vol
+                    if share > iso_share:
+                        iso_share, iso_time = share, t_new
+                        w = vol[cut]
+                        zz, xx = np.nonzero(cut)
+                        iso_at = (float(np.average(xc[xx], weights=w)), float(np.average(zc[zz], weights=w)))
+        while rec and rec[0] <= t_new + 1e-9:
+            rec.pop(0)
+            history.append((t_new, np.where(metal, curve.liquid_fraction(h), np.nan)))
+        t = t_new
+        step += 1
+        if not (metal & (h >= h_sol)).any():
+            break
+    return SolveOutput(grid, dt, step, t, solid_time, niyama, temp, h0, h, iso_share, iso_time,
+                       iso_at, newton_max, time.perf_counter() - start, history)
+
+
+def _gradient(temp, zc, xc):
+    """dT/dz and dT/dx at cell centres (zero along an axis of one cell)."""
+    gz = np.gradient(temp, zc, axis=0) if zc.size > 1 else np.zeros_like(temp)
+    gx = np.gradient(temp, xc, axis=1) if xc.size > 1 else np.zeros_like(temp)
+    return gz, gx
+
+
+def _implicit_1d(s: _Sweep, h_old: np.ndarray, dt: float, curve: PhaseCurve):
+    """Backward-Euler step of dH/dt = div(k grad T) along one direction, Newton on H."""
+    a = s.vol / dt
+    glo, ghi = s.glo, s.ghi
+    metal, fixed, heat = s.metal, s.fixed, s.heat
+    h = h_old.copy()
+    seg = curve_segment(curve, h)
+    h_last = t_last = None
+    has_fixed = bool(fixed.any())
+    for it in range(1, NEWTON_MAX + 1):
+        temp = np.where(metal, curve.temperature(h), h / heat)
+        slope = np.where(metal, curve.slope(h), 1.0 / heat)
+        if h_last is not None:
+            # A cell that crossed a kink of T(H) takes the chord of its last two
+            # iterates (a secant step): a tangent step can cycle across a kink.
+            dh_last = h - h_last
+            crossed = metal & (np.abs(dh_last) > 1e-9 * np.abs(h))
+            chord = (temp[crossed] - t_last[crossed]) / dh_last[crossed]
+            slope[crossed] = np.maximum(chord, 0.0)
+        slope[fixed] = 0.0
+        flux = np.zeros_like(h)
+        q = ghi[:-1] * np.diff(temp)    # heat from cell i+1 into cell i
+        flux[:-1] += q
+        flux[1:] -= q
+        res = a * (h - h_old) - flux
+        res[fixed] = 0.0
+        diag = a + (glo + ghi) * slope
+        lower = -glo[1:] * slope[:-1]
+        upper = -ghi[:-1] * slope[1:]
+        if has_fixed:
+            lower[fixed[1:]] = 0.0
+            upper[fixed[:-1]] = 0.0
+        *_, dh, info = lapack.dgtsv(lower, diag, upper, -res, overwrite_b=True)
+        if info != 0:  # pragma: no cover - a singular system means a bad grid
+            raise RuntimeError(f"tridiagonal solve failed (info={info})")
+        h_last, t_last = h, temp
+        h = h + dh
+        new_seg = curve_segment(curve, h)
+        # T(H) is piecewise linear: once no metal cell changes segment after a
+        # tangent step, the linearised system was the exact one.
+        if it == 1 and np.array_equal(new_seg[metal], seg[metal]):
+            return h, it
+        change = np.abs(np.where(metal, curve.temperature(h), h / heat) - temp)
+        if np.max(change[~fixed]) < NEWTON_TOL_K:
+            return h, it
+        seg = new_seg
+    return h, NEWTON_MAX
+
+
+def curve_segment(curve: PhaseCurve, h: np.ndarray) -> np.ndarray:
+    return np.searchsorted(curve.h, h)
