@@ -91,3 +91,14 @@ RANGES = {
     "neck_diameter_mm": (2.0, 3_000.0, "mm"),
     "unit_cost": (0.0, 100_000.0, "per sleeve"),
 }
+
+
+def check_review_week(week: str, monday: dt.date) -> dt.date:
+    """The Monday of a review week, or ``BadInput`` when the week lies outside
+    the years a log can hold (the calendar's own ends, year 1 and 9999, would
+    overflow the window around the week)."""
+    last = latest_date(dt.date.today()).year
+    if not EARLIEST_DATE.year <= monday.year <= last:
+        raise BadInput("week", week, f"the log holds dates from {EARLIEST_DATE.year} to {last} only; give a week "
+                                     "in those years")
+    return monday

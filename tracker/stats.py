@@ -514,14 +514,6 @@ def week_start(week: str) -> _dt.date:
             hint = "write it as YYYY-Www, e.g. 2026-W47"
         raise BadInput("week", week, hint)
     year, num = int(m.group(1)), int(m.group(2))
-    from tracker.limits import EARLIEST_DATE, latest_date
-
-    last = latest_date(_dt.date.today()).year
-    if not EARLIEST_DATE.year <= year <= last:
-        # A log holds no date outside these years (tracker.limits); the calendar's own ends
-        # (year 1, 9999) would overflow the window before or after the week.
-        raise BadInput("week", week, f"the log holds dates from {EARLIEST_DATE.year} to {last} only; give a "
-                                     "week in those years")
     # 28 December always falls in the last ISO week of its year.
     weeks_in_year = _dt.date(year, 12, 28).isocalendar()[1]
     if not 1 <= num <= weeks_in_year:

@@ -102,7 +102,6 @@ def import_(kind_or_dir, file, skip_bad, sep, decimal, by, db_path, as_json):
 
         pourback import patterns patterns.csv
         pourback import sample_data
-        pourback import inspections shift2.csv --sep ';' --decimal ','
     """
     from tracker.ingest import import_files
 
