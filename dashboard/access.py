@@ -84,7 +84,7 @@ def gate(path: str, url_paths: list[str]) -> bool:
                 st.session_state[_KEY] = auth.check_session(store, current)
             return True
         except SessionExpired as exc:
-            del st.session_state[_KEY]
+            st.session_state.clear()
             st.session_state[_NOTE] = str(exc)
     form = lambda: _sign_in_page(path)  # noqa: E731
     st.navigation([st.Page(form, title="Sign in", url_path=u, default=i == 0) for i, u in enumerate(url_paths)],
@@ -111,8 +111,7 @@ def _sign_in_page(path: str) -> None:
         with Store(path) as store:
             st.session_state[_KEY] = auth.sign_in(store, name, password, idle_hours=idle_hours())
     except SignInRefused as exc:
-        text = str(exc).replace("`", "")
-        st.error(text[0].upper() + text[1:] + ".", icon=":material/lock:")
+        st.error(str(exc).replace("`", "") + ".", icon=":material/lock:")
         return
     finally:
         password = None  # noqa: F841 - not kept past this run
@@ -128,7 +127,7 @@ def sidebar(path: str) -> None:
     if st.button("Sign out", key="sign_out"):
         with Store(path) as store:
             auth.sign_out(store, s)
-        del st.session_state[_KEY]
+        st.session_state.clear()  # nothing of this user's widgets is left for the next one
         st.rerun()
     if s.role == "admin" and served_without_tls():
         st.warning(NO_TLS_TEXT, icon=":material/lock_open:")

@@ -18,22 +18,44 @@ def main() -> None:
     if opts.empty:
         common.start_message(state, "a pattern file")
         return
-    labels = dict(zip(opts["pattern"], opts["label"]))
+    flagged = common.flagged_patterns()
+    labels = {code: label + (" · flagged" if code in flagged else "")
+              for code, label in zip(opts["pattern"], opts["label"])}
+    # the pattern asked for in the address (?pattern=P-1031), else the first one the review flags
     wanted = st.query_params.get("pattern")
-    index = list(labels).index(wanted) if wanted in labels else 0
+    first = next((p for p in flagged if p in labels), None)
+    index = list(labels).index(wanted) if wanted in labels else (list(labels).index(first) if first else 0)
     code = st.selectbox("Pattern", list(labels), index=index, format_func=labels.get, key="pattern")
+    if code != wanted:
+        st.query_params["pattern"] = code  # the address names the pattern shown
 
     info = common.load("pattern_summary", code)
-    c = st.columns(6)
-    c[0].metric("Alloy", info["alloy"])
+    c = st.columns(3)
+    c[0].metric("Alloy", info.get("alloy_name") or info["alloy"], help=f"alloy key: {info['alloy']}")
     c[1].metric("Casting weight (kg)", f"{info['casting_weight_kg']:g}")
-    c[2].metric("Castings per mold", f"{info['castings_per_mold']}")
-    c[3].metric("Lots poured", f"{info['lots']:,}")
-    c[4].metric("Castings poured", f"{info['poured']:,}")
-    c[5].metric("Reject rate, all time", common.pct(info["reject_rate_pct"], 2),
+    c[2].metric("Castings per mold", f"{info['castings_per_mold']:,}")
+    c = st.columns(3)
+    c[0].metric("Lots poured", f"{info['lots']:,}")
+    c[1].metric("Castings poured", f"{info['poured']:,}")
+    c[2].metric("Reject rate, all time", common.pct(info["reject_rate_pct"], 2),
                 help=f"{info['rejected']:,} of {info['inspected']:,} castings inspected")
-    if info["first_pour"]:
-        st.caption(f"Poured from {info['first_pour']} to {info['last_pour']}.")
+    mould = info["mould"].replace("_", " ") if info.get("mould") else "not given, taken as green sand"
+    st.caption((f"Poured from {info['first_pour']} to {info['last_pour']}. " if info["first_pour"] else "")
+               + f"Mould: {mould} (ductile iron's pressure-control rules depend on it).")
+
+    st.subheader("Zones")
+    zones = common.load("pattern_zones", code)
+    if zones.empty:
+        st.info("No zones are logged for this pattern yet: import them (zones.csv).")
+    else:
+        st.dataframe(zones, hide_index=True, width="stretch", key="zones_table", placeholder="",
+                     column_config={"volume (cm³)": NUMBER(format="%.0f"),
+                                    "cooling area (cm²)": NUMBER(format="%.0f"),
+                                    "modulus (cm)": NUMBER(format="%.2f"), "thickness (mm)": NUMBER(format="%.0f"),
+                                    "width (mm)": NUMBER(format="%.0f"), "feeding length (mm)": NUMBER(format="%.0f")})
+        st.caption("Width and thickness tell a bar from a plate for the feeding distance (steel, Bishop and "
+                   "Pellini): bar at width = thickness, plate from 5 × thickness, interpolated between. "
+                   "Where thickness, width or length is missing, the feeding distance is not judged.")
 
     st.subheader("Risers by revision")
     design = common.load("risers_by_revision", code)
@@ -51,7 +73,8 @@ def main() -> None:
                          "modulus ratio": NUMBER(format="%.2f"), "Caine margin": NUMBER(format="%+.2f"),
                          "feed margin": NUMBER(format="%+.2f")})
         st.caption("Modulus ratio = effective riser modulus (sleeve factor included) / modulus of the zone "
-                   "it feeds; the modulus rule asks 1.2 or more. Caine margin = freezing ratio above the "
+                   "it feeds; the modulus rule asks 1.2 or more (ductile iron, judged by pressure control: "
+                   "1.2 × the neck's modulus, the neck 0.5-0.8 × the zone's). Caine margin = freezing ratio above the "
                    "alloy's curve (0 or more passes; blank where the alloy has no constants). Feed margin "
                    "= metal the riser can give over what the zone needs, as a share of the need "
                    "(0 or more passes).")

@@ -81,11 +81,16 @@ def test_revision_in_effect_follows_pour_date(good_store, tmp_path):
 
 def test_feeding_distance_only_where_given_and_for_steel(good_store):
     frame = check(good_store, on="2026-06-01").set_index("zone")
-    # Bishop-Pellini type rule (from memory): 4.5 x 40 mm = 180 mm >= 150 mm.
+    # Bishop-Pellini plate rule (from memory): 300 mm wide is over 5 T, a plate:
+    # 4.5 x 40 mm = 180 mm >= 150 mm.
     assert frame.loc["flange", "feeding_distance_mm"] == pytest.approx(180.0)
     assert frame.loc["flange", "feeding_distance_ok"] == 1.0
-    assert "not checked" in frame.loc["body", "notes"]
-    assert "steel plates" in frame.loc["boss", "notes"]
+    assert "by the plate rule" in frame.loc["flange", "notes"]
+    # No thickness, width or length: not judged, never a pass or a fail.
+    assert np.isnan(frame.loc["body", "feeding_distance_ok"])
+    assert "feeding distance not judged (give the zone's thickness_mm, width_mm, length_mm)" \
+        in frame.loc["body", "notes"]
+    assert "not judged (the published rule is for steel)" in frame.loc["boss", "notes"]
 
 
 def test_zone_shared_by_two_risers_splits_the_section():

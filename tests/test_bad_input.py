@@ -37,9 +37,9 @@ TODAY = dt.date(2026, 6, 1)
 NEW = {
     "patterns": {"pattern": "T-300", "description": "new cover", "alloy": "steel",
                  "casting_weight_kg": "5", "castings_per_mold": "1", "metal_cost_per_kg": "1.8",
-                 "processing_cost_per_casting": "10"},
+                 "processing_cost_per_casting": "10", "mould": ""},
     "zones": {"pattern": "T-100", "zone": "neck", "volume_cm3": "500", "cooling_area_cm2": "400",
-              "thickness_mm": "20", "length_mm": "60", "required_xray_level": "2"},
+              "thickness_mm": "30", "length_mm": "60", "required_xray_level": "2", "width_mm": ""},
     "sleeves": {"sleeve": "EXO-150", "kind": "exothermic", "inner_diameter_mm": "150",
                 "height_mm": "160", "modulus_factor": "1.4", "feeding_efficiency": "0.4",
                 "unit_cost": "7"},
@@ -121,14 +121,18 @@ ROW_CASES = [
     ("metal-cost-negative", "patterns", {"metal_cost_per_kg": "-1"}, "metal_cost_per_kg",
      "got '-1'; metal_cost_per_kg must be a number of at least 0 and at most 100,000 per kg"),
     ("pattern-blank", "patterns", {"pattern": ""}, "pattern", "got ''; pattern is required"),
+    ("mould-unknown", "patterns", {"mould": "clay"}, "mould", "got 'clay'; mould must be one of green_sand, rigid"),
     # zones
     ("zone-unknown-pattern", "zones", {"pattern": "T-999"}, "pattern",
      "got 'T-999'; unknown pattern; import it in patterns.csv first or check the code"),
     ("zone-volume-zero", "zones", {"volume_cm3": "0"}, "volume_cm3",
      "got '0'; volume_cm3 must be a number of at least 0.001 and at most 100,000,000 cm³"),
-    ("zone-area-below-sphere", "zones", {"cooling_area_cm2": "10"}, "cooling_area_cm2",
-     "got '10'; cooling area is smaller than a sphere of that volume would have; "
-     "check the units (cm² and cm³)"),
+    # A plate of thickness T cooling on both faces has V/A = T/2 (geometry): 500/10 = 50 cm > 1.5 cm.
+    ("zone-modulus-above-half-thickness", "zones", {"cooling_area_cm2": "10"}, "cooling_area_cm2",
+     "got '10'; the modulus V/A = 50.00 cm is above half the thickness (1.50 cm), more than a plate "
+     "of that thickness cooling on both faces can have; check the units (cm², cm³, mm)"),
+    ("zone-width-negative", "zones", {"width_mm": "-5"}, "width_mm",
+     "got '-5'; width_mm must be a number of at least 0.1 and at most 20,000 mm"),
     ("zone-level-six", "zones", {"required_xray_level": "6"}, "required_xray_level",
      "got '6'; required_xray_level must be a whole number of at least 1 and at most 5"),
     # sleeves

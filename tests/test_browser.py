@@ -7,6 +7,7 @@ Without /usr/bin/chromium or playwright the test is skipped, unless
 POURBACK_REQUIRE_BROWSER=1 (CI sets it), when it fails instead.
 """
 
+import contextlib
 import os
 import pathlib
 import shutil
@@ -54,25 +55,23 @@ def sync_playwright():
     return sync_playwright
 
 
-def _free_port() -> int:
+def _free_port(host: str = "127.0.0.1") -> int:
     with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
-        s.bind(("127.0.0.1", 0))
+        s.bind((host, 0))
         return s.getsockname()[1]
 
 
-@pytest.fixture(scope="module")
-def server(app_demo_db, tmp_path_factory):
-    """`pourback dashboard` on a copy of the demo log, on a free port; stopped at the end."""
-    folder = tmp_path_factory.mktemp("browser")
-    db = folder / "demo.db"
-    shutil.copyfile(app_demo_db, db)
-    port = _free_port()
+@contextlib.contextmanager
+def running_dashboard(db, folder, host: str = "127.0.0.1", port: int | None = None):
+    """`pourback dashboard` on ``db`` at ``host`` (a free port), until the block ends;
+    yields its base URL. Fails the test when it exits or does not answer in 90 s."""
+    port = port or _free_port(host)
     log = (folder / "server.log").open("w")
     env = {k: v for k, v in os.environ.items() if k != "POURBACK_DB"}
     proc = subprocess.Popen([sys.executable, "-m", "tracker", "dashboard", "--db", str(db),
-                             "--port", str(port), "--host", "127.0.0.1"],
+                             "--port", str(port), "--host", host],
                             stdout=log, stderr=subprocess.STDOUT, env=env, cwd=folder)
-    base = f"http://127.0.0.1:{port}"
+    base = f"http://{host}:{port}"
     try:
         deadline = time.monotonic() + 90
         while True:
@@ -87,7 +86,7 @@ def server(app_demo_db, tmp_path_factory):
             if time.monotonic() > deadline:
                 pytest.fail("the dashboard did not answer within 90 s:\n" + (folder / "server.log").read_text())
             time.sleep(0.3)
-        yield {"url": base, "db": db, "pid": proc.pid}
+        yield base
     finally:
         proc.terminate()
         try:
@@ -96,6 +95,16 @@ def server(app_demo_db, tmp_path_factory):
             proc.kill()
             proc.wait(timeout=5)
         log.close()
+
+
+@pytest.fixture(scope="module")
+def server(app_demo_db, tmp_path_factory):
+    """`pourback dashboard` on a copy of the demo log, on a free port; stopped at the end."""
+    folder = tmp_path_factory.mktemp("browser")
+    db = folder / "demo.db"
+    shutil.copyfile(app_demo_db, db)
+    with running_dashboard(db, folder) as base:
+        yield {"url": base, "db": db}
 
 
 @pytest.fixture(scope="module")
@@ -175,10 +184,14 @@ def test_log_one_result_through_the_form(page, server):
     open_page(page, server["url"], "", "Log results")
     choose(page, "Lot (newest first", lot)
     settle(page)
-    choose(page, "Method", "visual")
-    choose(page, "Result", "reject")
-    choose(page, "Defect (reject and rework)", "sand")
+    page.get_by_role("radiogroup", name="Method").get_by_text("visual", exact=True).click()
+    settle(page)
+    page.get_by_role("radiogroup", name="Result").get_by_text("reject", exact=True).click()
+    settle(page)
+    page.get_by_role("radiogroup", name="Defect (reject and rework)").get_by_role("radio", name="sand").click()
+    settle(page)
     page.get_by_label("Inspector").fill("QE-BR")
+    page.get_by_text("Serial and notes (optional)").click()
     page.get_by_label("Notes").fill("browser test record")
     page.get_by_label("Your name (required; recorded as who logged it)").fill("Browser Test")
     page.get_by_role("button", name="Save record").click()

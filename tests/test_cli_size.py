@@ -34,7 +34,7 @@ def test_size_human_output_has_units_and_caution(runner):
     (["--volume-cm3", "-1", "--area-cm2", "10"], "Error: volume_cm3: got -1.0; section volume must be a number above 0 cm³"),
     (["--volume-cm3", "0", "--area-cm2", "10"], "Error: volume_cm3: got 0.0"),
     (["--volume-cm3", "100", "--area-cm2", "150", "--h-over-d", "3.1"], "Error: h_over_d: got 3.1; H/D must lie between 0.5 and 3.0"),
-    (["--volume-cm3", "100", "--area-cm2", "150", "--efficiency", "0.02"], "Error: efficiency: got 0.02; must be above the shrinkage 0.035"),
+    (["--volume-cm3", "100", "--area-cm2", "150", "--efficiency", "0.02"], "Error: efficiency: got 0.02; must be above the metal to feed 0.0462 (shrinkage 0.035 + liquid contraction 0.0112)"),
 ])
 def test_size_bad_input_one_line_no_traceback(runner, args, message):
     res = runner.invoke(main, ["size", "--alloy", "steel", *args])

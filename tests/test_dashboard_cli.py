@@ -159,3 +159,68 @@ def test_sample_dir_is_next_to_the_package():
     import tracker
 
     assert cmd_app.sample_dir() == cmd_app.pathlib.Path(tracker.__file__).resolve().parent.parent / "sample_data"
+
+
+# --- serving to a team ------------------------------------------------------------------
+
+def _admin(db, role="admin"):
+    from argon2 import PasswordHasher
+
+    from tracker import auth
+
+    with Store(db) as s:
+        auth.HASHER, old = PasswordHasher(time_cost=1, memory_cost=8, parallelism=1), auth.HASHER
+        try:
+            auth.add_user(s, "boss", role, "a long enough passphrase", by="test")
+        finally:
+            auth.HASHER = old
+
+
+def test_beyond_loopback_with_an_admin_asks_for_sign_in_and_warns_without_tls(runner, launched, tmp_path):
+    db = tmp_path / "team.db"
+    _admin(db)
+    res = runner.invoke(main, ["dashboard", "--db", str(db), "--host", "0.0.0.0", "--idle-hours", "10"])
+    assert res.exit_code == 0, res.output
+    [(argv, env)] = launched
+    assert (env["POURBACK_SIGN_IN"], env["POURBACK_IDLE_HOURS"], env["POURBACK_TLS"]) == ("1", "10", "0")
+    assert "Every visitor signs in; a session ends after 10 hours without activity." in res.output
+    assert "Warning: served beyond this computer without TLS" in res.output
+    # XSRF protection stays on; uploads are capped
+    assert argv[argv.index("--server.enableXsrfProtection") + 1] == "true"
+    assert argv[argv.index("--server.maxUploadSize") + 1] == "10"
+
+
+def test_tls_options_go_to_streamlit(runner, launched, tmp_path):
+    db = tmp_path / "team.db"
+    _admin(db)
+    cert, key = tmp_path / "cert.pem", tmp_path / "key.pem"
+    cert.write_text("certificate")
+    key.write_text("key")
+    res = runner.invoke(main, ["dashboard", "--db", str(db), "--host", "0.0.0.0", "--port", "8443",
+                               "--tls-cert", str(cert), "--tls-key", str(key)])
+    assert res.exit_code == 0, res.output
+    [(argv, env)] = launched
+    assert argv[-4:] == ["--server.sslCertFile", str(cert), "--server.sslKeyFile", str(key)]
+    assert env["POURBACK_TLS"] == "1" and "https://0.0.0.0:8443" in res.output
+    assert "without TLS" not in res.output
+    res = runner.invoke(main, ["dashboard", "--db", str(db), "--tls-cert", str(cert)])
+    assert res.exit_code == 2 and "give --tls-cert and --tls-key together" in res.output
+
+
+def test_require_login_on_loopback(runner, launched, tmp_path):
+    db = tmp_path / "desk.db"
+    res = runner.invoke(main, ["dashboard", "--db", str(db), "--require-login"])
+    assert res.exit_code == 1 and "no enabled account to sign in with" in res.output
+    _admin(db, role="inspector")
+    res = runner.invoke(main, ["dashboard", "--db", str(db), "--require-login"])
+    assert res.exit_code == 0, res.output
+    assert launched[-1][1]["POURBACK_SIGN_IN"] == "1"
+    assert "without TLS" not in res.output  # on loopback the traffic stays on this computer
+    res = runner.invoke(main, ["dashboard", "--db", str(db)])
+    assert launched[-1][1]["POURBACK_SIGN_IN"] == "0"
+
+
+def test_demo_is_served_on_loopback_only(runner, launched, tmp_path):
+    res = runner.invoke(main, ["demo", "--db", str(tmp_path / "d.db"), "--host", "0.0.0.0"])
+    assert res.exit_code == 2 and "the demo log has no accounts" in res.output
+    assert not launched and not (tmp_path / "d.db").exists()

@@ -86,7 +86,7 @@ def _riser_verdicts(data):
             mn = geometry.bar_neck_modulus(float(r["neck_diameter_mm"]) / 10)
             ok &= bool(rules.neck_ok(mn, mc, mr))
         if alloy.key == "steel" and z["thickness_mm"] and z["length_mm"]:
-            ok &= float(z["length_mm"]) <= rules.feeding_distance_mm(float(z["thickness_mm"]))
+            ok &= float(z["length_mm"]) <= rules.plate_feeding_distance_mm(float(z["thickness_mm"]))
         out[(r["pattern"], int(r["revision"]), r["riser"])] = (r["zone"], bool(ok))
     return out
 

@@ -139,7 +139,7 @@ def test_vectorised_equals_scalar_on_1000_random_cases():
     (dict(volume_cm3=-5, area_cm2=10), "volume_cm3: got -5.0"),
     (dict(volume_cm3=100, area_cm2=150, h_over_d=0.4), "h_over_d: got 0.4; H/D must lie between 0.5 and 3.0"),
     (dict(volume_cm3=100, area_cm2=150, h_over_d=3.5), "h_over_d: got 3.5"),
-    (dict(volume_cm3=100, area_cm2=150, efficiency=0.03), "efficiency: got 0.03; must be above the shrinkage"),
+    (dict(volume_cm3=100, area_cm2=150, efficiency=0.03), "efficiency: got 0.03; must be above the metal to feed"),
 ])
 def test_bad_input_is_refused(kwargs, message):
     with pytest.raises(ValueError) as exc:

@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 
 from tracker import geometry, rules
-from tracker.alloys import CaineConstants
+from tracker.alloys import ALLOYS, CaineConstants
 from tracker.errors import NotFound
 from tracker.store import Store
 
@@ -26,7 +26,48 @@ RESULT_COLUMNS = [
     "caine_margin", "caine_ok", "feed_margin", "feed_ok", "neck_modulus_cm", "neck_ok",
     "feeding_distance_mm", "feeding_length_mm", "feeding_distance_ok", "riser_volume_cm3",
     "riser_weight_kg", "passes", "failed_rules", "notes",
+    "rule_set", "mould", "modulus_required_ratio", "liquid_contraction", "feed_fraction",
+    "neck_min_modulus_cm", "neck_max_modulus_cm", "oversized", "riser_needed", "section_shape",
+    "width_mm", "failed_rules_text",
 ]
+
+# How each failed rule reads in a sentence (``rule_words``).
+RULE_WORDS = {
+    "modulus": "modulus", "caine": "Caine", "feed_volume": "feed volume", "neck": "neck",
+    "feeding_distance": "feeding distance", "oversized": "oversized riser",
+}
+
+
+def rule_words(failed_rules) -> str:
+    """Failed rule keys ("modulus,caine,feed_volume" or a list) as words:
+    "modulus, Caine, feed volume"; "" where none failed."""
+    if failed_rules is None or (isinstance(failed_rules, float) and failed_rules != failed_rules):
+        return ""
+    keys = failed_rules.split(",") if isinstance(failed_rules, str) else list(failed_rules)
+    return ", ".join(RULE_WORDS.get(k.strip(), k.strip().replace("_", " ")) for k in keys if k.strip())
+
+
+def _alloy_constants(keys: np.ndarray) -> dict[str, np.ndarray]:
+    """Rule set and liquid-contraction constants per row from ``ALLOYS`` (an
+    alloy the program does not know is judged by the modulus sequence,
+    without liquid contraction)."""
+    known = [ALLOYS.get(str(k)) for k in keys]
+    return {
+        "pc": np.array([a is not None and a.rule_set == "pressure_control" for a in known], dtype=bool),
+        "graphitic": np.array([a is not None and a.graphitic for a in known], dtype=bool),
+        "per_100k": np.array([np.nan if a is None or a.liquid_contraction_per_100k is None
+                              else a.liquid_contraction_per_100k for a in known], dtype=float),
+        "liquidus": np.array([np.nan if a is None or a.liquidus_c is None else a.liquidus_c
+                              for a in known], dtype=float),
+        "superheat": np.array([np.nan if a is None or a.default_superheat_k is None
+                               else a.default_superheat_k for a in known], dtype=float),
+    }
+
+
+def _moulds(values, n: int) -> np.ndarray:
+    if values is None:
+        return np.full(n, rules.DEFAULT_MOULD, dtype=object)
+    return np.array([rules.check_mould(v) for v in values], dtype=object)
 
 
 def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MODULUS_FACTOR) -> pd.DataFrame:
@@ -34,8 +75,18 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
 
     Needs the columns diameter_mm, height_mm, placement, volume_cm3,
     cooling_area_cm2, shrinkage, bare_efficiency, caine_a/b/c, and may have
-    sleeve_factor, sleeve_efficiency, neck_diameter_mm, thickness_mm,
-    length_mm, risers_on_zone, density_kg_dm3.
+    alloy, mould, sleeve_factor, sleeve_efficiency, neck_diameter_mm,
+    thickness_mm, width_mm, length_mm, risers_on_zone, density_kg_dm3 and
+    pour_temp_c (else the alloy's default superheat).
+
+    Each row is judged by its alloy's rule set (``rule_set``): the modulus
+    sequence (Wlodawer's modulus rule, Caine, feed volume, neck 1.1 x the
+    section for non-graphitic alloys) or, for ductile iron, pressure control
+    (Karsay): the neck freezes as graphite expansion starts (0.5-0.8 x the
+    section's modulus), the riser outlasts the neck (factor x M_neck) and
+    holds the liquid contraction (plus a green-sand mould-wall allowance); a
+    riser of a steel's size is flagged ``oversized``; in a rigid mould a
+    section of modulus 2.5 cm or more may need no riser.
     """
     df = risers.copy()
     n = len(df)
@@ -43,6 +94,10 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
     def col(name, default=np.nan):
         return df[name].astype(float).to_numpy() if name in df else np.full(n, default, dtype=float)
 
+    alloy_keys = df["alloy"].astype(str).to_numpy() if "alloy" in df else np.full(n, "", dtype=object)
+    k = _alloy_constants(alloy_keys)
+    pc = k["pc"]
+    mould = _moulds(df["mould"].to_numpy() if "mould" in df else None, n)
     d = col("diameter_mm") / 10.0
     h = col("height_mm") / 10.0
     top = (df["placement"].astype(str) == "top").to_numpy()
@@ -53,7 +108,13 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
     mc = vc / ac
     f = np.where(np.isnan(col("sleeve_factor")), 1.0, col("sleeve_factor"))
     eff = np.where(np.isnan(col("sleeve_efficiency")), col("bare_efficiency"), col("sleeve_efficiency"))
-    beta = col("shrinkage")
+    # the metal to feed: solidification shrinkage (0 under pressure control in a rigid
+    # mould) plus liquid contraction from the pour temperature to the liquidus
+    beta = np.where(pc & (mould == "rigid"), 0.0, col("shrinkage"))
+    pour = col("pour_temp_c")
+    pour = np.where(np.isnan(pour), k["liquidus"] + k["superheat"], pour)
+    liquid = np.nan_to_num(k["per_100k"] * np.maximum(pour - k["liquidus"], 0.0) / 100.0, nan=0.0)
+    need = np.maximum(beta, 0.0) + liquid
     vr = geometry.cylinder_volume(d, h)
     m_geo = np.where(top, geometry.cylinder_modulus(d, h, "top"), geometry.cylinder_modulus(d, h, "side"))
     mr = rules.effective_modulus(m_geo, f)
@@ -65,14 +126,37 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
     with np.errstate(divide="ignore", invalid="ignore"):
         xc = np.where(caine_applied & (y > b), a / (y - b) + c, np.where(caine_applied, np.inf, np.nan))
         margin = np.where(caine_applied, np.where(np.isfinite(xc), x - xc, -np.inf), np.nan)
-    fm = rules.feed_margin(vr, vc, beta, eff)
+    fm = rules.feed_margin(vr, vc, need, eff)
     neck = col("neck_diameter_mm") / 10.0
     neck_m = geometry.bar_neck_modulus(neck)
+    # modulus sequence: neck at least 1.1 x the section (non-graphitic alloys) and below the riser
+    seq_neck = rules.neck_ok(neck_m, mc, mr, np.where(k["graphitic"], 1.0, rules.NECK_FACTOR))
+    neck_lo, neck_hi = rules.pc_neck_window(mc)
+    neck_lo = np.where(pc, neck_lo, np.where(k["graphitic"], mc, rules.NECK_FACTOR * mc))
+    neck_hi = np.where(pc, neck_hi, mr)
     neck_ok = np.where(np.isnan(neck), np.nan,
-                       rules.neck_ok(neck_m, mc, mr).astype(float))
-    steel = (df["alloy"].astype(str) == "steel").to_numpy() if "alloy" in df else np.zeros(n, bool)
-    thick, length = col("thickness_mm"), col("length_mm")
-    fd = np.where(steel & ~np.isnan(thick), rules.feeding_distance_mm(thick), np.nan)
+                       np.where(pc, rules.pc_neck_ok(neck_m, mc) & (neck_m < mr), seq_neck).astype(float))
+    # what the modulus rule asks, as a ratio to the section's modulus
+    required = np.where(pc, rules.pc_required_riser_modulus(mc, np.where(neck_ok == 1.0, neck_m, np.nan),
+                                                            modulus_factor) / mc,
+                        modulus_factor)
+    riser_needed = ~(pc & rules.riserless_possible(mc, mould))
+    required = np.where(riser_needed, required, 0.0)
+    modulus_ok = ratio >= required * (1 - 1e-9)
+    feed_ok = (fm >= -1e-9) | ~riser_needed
+    # pressure control: oversized where the riser reaches 1.2 x the larger of the section's
+    # modulus and the least riser the modulus and feed rules ask at this H/D
+    hd = np.where(d > 0, h / d, 1.0)
+    kk = np.where(top, geometry.modulus_per_diameter(hd, "top"), geometry.modulus_per_diameter(hd, "side"))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        v_need = rules.feed_min_volume(vc, need, eff)
+    least = np.maximum(required * mc, f * kk * geometry.diameter_for_volume(np.maximum(v_need, 0.0), hd))
+    over = pc & rules.oversized(mr, mc, least, modulus_factor)
+
+    shape = rules.section_shape(col("thickness_mm"), col("width_mm"))
+    steel = alloy_keys == "steel"
+    thick, width, length = col("thickness_mm"), col("width_mm"), col("length_mm")
+    fd = np.where(steel, rules.feeding_distance_mm(thick, width, share), np.nan)
     fd_ok = np.where(np.isnan(fd) | np.isnan(length), np.nan, (length <= fd + 1e-9).astype(float))
 
     out = pd.DataFrame({k: df[k].to_numpy() if k in df else None for k in
@@ -88,7 +172,7 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
     out["riser_geometric_modulus_cm"] = m_geo
     out["modulus_ratio"] = ratio
     out["modulus_factor"] = modulus_factor
-    out["modulus_ok"] = ratio >= modulus_factor * (1 - 1e-9)
+    out["modulus_ok"] = modulus_ok
     out["freezing_ratio"] = x
     out["volume_ratio"] = y
     out["caine_applied"] = caine_applied
@@ -96,7 +180,7 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
     out["caine_margin"] = margin
     out["caine_ok"] = np.where(caine_applied, margin >= -1e-9, np.nan)
     out["feed_margin"] = fm
-    out["feed_ok"] = fm >= -1e-9
+    out["feed_ok"] = feed_ok
     out["neck_modulus_cm"] = neck_m
     out["neck_ok"] = neck_ok
     out["feeding_distance_mm"] = fd
@@ -104,34 +188,77 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
     out["feeding_distance_ok"] = fd_ok
     out["riser_volume_cm3"] = vr
     out["riser_weight_kg"] = vr * col("density_kg_dm3", np.nan) / 1000.0
+    out["rule_set"] = np.where(pc, "pressure_control", "modulus_sequence")
+    out["mould"] = mould
+    out["modulus_required_ratio"] = required
+    out["liquid_contraction"] = liquid
+    out["feed_fraction"] = need
+    out["neck_min_modulus_cm"] = neck_lo
+    out["neck_max_modulus_cm"] = neck_hi
+    out["oversized"] = over
+    out["riser_needed"] = riser_needed
+    out["section_shape"] = shape
+    out["width_mm"] = width
+    joined = geometry.exceeds_sphere_modulus(vc, ac)
     failed, notes = [], []
     for i in range(n):
         fl = []
-        if not out["modulus_ok"].iat[i]:
+        if not modulus_ok[i]:
             fl.append("modulus")
         if caine_applied[i] and not margin[i] >= -1e-9:
             fl.append("caine")
-        if not out["feed_ok"].iat[i]:
+        if not feed_ok[i]:
             fl.append("feed_volume")
         if neck_ok[i] == 0.0:
             fl.append("neck")
         if fd_ok[i] == 0.0:
             fl.append("feeding_distance")
+        if over[i]:
+            fl.append("oversized")
         failed.append(fl)
-        nt = []
-        if not caine_applied[i]:
-            nt.append("Caine not applied: no constants for this alloy")
-        if not steel[i]:
-            nt.append("feeding distance not checked (the rule is for steel plates)")
-        elif np.isnan(fd_ok[i]):
-            nt.append("feeding distance not checked (give the zone's thickness_mm and length_mm)")
-        if share[i] > 1:
-            nt.append(f"zone shared by {int(share[i])} risers: each judged on an equal share")
-        notes.append("; ".join(nt))
+        notes.append("; ".join(_notes(i, pc, caine_applied, steel, fd_ok, thick, width, length, share,
+                                      neck, neck_ok, neck_m, neck_lo, neck_hi, top, riser_needed, mc,
+                                      mould, over, joined, shape)))
     out["passes"] = [not fl for fl in failed]
     out["failed_rules"] = [",".join(fl) for fl in failed]
     out["notes"] = notes
+    out["failed_rules_text"] = [rule_words(fl) for fl in failed]
     return out[RESULT_COLUMNS]
+
+
+def _notes(i, pc, caine_applied, steel, fd_ok, thick, width, length, share, neck, neck_ok, neck_m,
+           neck_lo, neck_hi, top, riser_needed, mc, mould, over, joined, shape) -> list[str]:
+    nt = []
+    if pc[i]:
+        nt.append(f"judged by pressure control ({str(mould[i]).replace('_', ' ')} mould)")
+        if not riser_needed[i]:
+            nt.append(f"section modulus {mc[i]:.2f} cm >= {rules.PC_RISERLESS_MODULUS_CM:g} cm in a rigid "
+                      "mould: may be cast without a riser")
+        if np.isnan(neck[i]):
+            nt.append("neck not judged: " + ("a top riser has no neck; pressure control needs one"
+                                              if top[i] else "give neck_diameter_mm"))
+        elif neck_ok[i] == 0.0:
+            side = "wide: the expansion pushes metal back into the riser" if neck_m[i] > neck_hi[i]                 else "narrow: it freezes before the liquid contraction ends"
+            nt.append(f"neck modulus {neck_m[i]:.2f} cm outside {neck_lo[i]:.2f}-{neck_hi[i]:.2f} cm, too {side}")
+        if over[i]:
+            nt.append("oversized: the riser outlasts the section as a steel riser must; pressure control "
+                      "needs it to outlast the neck only")
+    elif not caine_applied[i]:
+        nt.append("Caine not applied: no constants for this alloy")
+    if not steel[i]:
+        nt.append("feeding distance not judged (the published rule is for steel)")
+    elif np.isnan(fd_ok[i]):
+        missing = [name for name, v in (("thickness_mm", thick[i]), ("width_mm", width[i]),
+                                        ("length_mm", length[i])) if np.isnan(v)]
+        nt.append(f"feeding distance not judged (give the zone's {', '.join(missing)})")
+    else:
+        nt.append(f"feeding distance by the {shape[i]} rule"
+                  + (", between risers" if share[i] > 1 else ", to the section's end"))
+    if share[i] > 1:
+        nt.append(f"zone shared by {int(share[i])} risers: each judged on an equal share")
+    if joined[i]:
+        nt.append("modulus above a same-volume sphere's: right only where faces are joined to other metal")
+    return nt
 
 
 def revision_in_effect(revisions: pd.DataFrame, on: str) -> pd.DataFrame:

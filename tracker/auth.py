@@ -346,7 +346,7 @@ def sign_in(store, name: str, password: str, *, idle_hours: float = DEFAULT_IDLE
     name = str(name or "").strip()
     password = password if isinstance(password, str) else ""
     acc = store.user_account(name) if NAME_RULE.fullmatch(name) else None
-    wrong = SignInRefused("the user name or the password is wrong (names are matched without case); "
+    wrong = SignInRefused("The user name or the password is wrong (names are matched without case); "
                           f"after {LOCK_AFTER_FAILURES} wrong passwords in a row an account is locked "
                           f"for {LOCK_MINUTES} minutes")
     if acc is None or not acc["enabled"]:

@@ -226,7 +226,7 @@ def riser_margins(alloy, section_volume_cm3: float, section_area_cm2: float, pla
         out["neck_modulus_cm"] = mn
         out["neck_ok"] = bool(rules.neck_ok(mn, mc, mr))
     if alloy.key == "steel" and thickness_mm and length_mm:
-        fd = float(rules.feeding_distance_mm(thickness_mm))
+        fd = float(rules.plate_feeding_distance_mm(thickness_mm))
         out.update(feeding_distance_mm=fd, length_mm=float(length_mm),
                    distance_ok=bool(length_mm <= fd))
     verdicts = [out[k] for k in ("modulus_ok", "caine_ok", "feed_ok", "neck_ok", "distance_ok")]
@@ -460,7 +460,10 @@ def _design(alloy: Alloy, z: ZoneSpec, design: tuple) -> tuple[float, float, str
             if ok or arg:
                 return s.inner_diameter_mm, s.height_mm, s.sleeve, n
         kind, arg = "scale", 1.0  # no catalogue sleeve is big enough: a bare riser
-    r = size_riser(vc, ac, alloy, z.placement, z.h_over_d)
+    # The invented foundry sizes by the modulus sequence and solidification shrinkage
+    # alone (pour temperature at the liquidus: no liquid contraction), ductile iron too.
+    r = size_riser(vc, ac, alloy, z.placement, z.h_over_d, pour_temp_c=alloy.liquidus_c,
+                   rule_set="modulus_sequence")
     if arg >= 1.0:
         d = _ceil_to(r.diameter_mm * arg, 10.0)
         h = _ceil_to(d * z.h_over_d, 10.0)

@@ -21,28 +21,48 @@ MARGIN_COLS = ["modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "
 FEATURE_COLUMNS = [
     "lot", "pattern", "revision", "zone", "riser", "poured_on", "alloy", "castings", "shrinkage_rejects",
     "modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "freezing_ratio", "sleeve_kind",
-    "pour_temp_dev_c", "thickness_mm", "passes",
+    "pour_temp_dev_c", "thickness_mm", "passes", "rule_set", "modulus_target",
 ]
+
+
+def weakest_margins(assessed: pd.DataFrame, keys) -> pd.DataFrame:
+    """Per group of ``keys``: each margin's minimum over the group's risers
+    (MARGIN_COLS), the alloy, thickness and rule set, the sleeve kind of the
+    riser lowest on Caine's margin, then on the modulus ratio, and the
+    largest modulus ratio the zone's rule set asks (``modulus_target``).
+
+    ``assessed`` is from ``assess_frame`` with a ``thickness_mm`` column. This
+    is how the model sees a zone fed by several risers, in its training table
+    and in every prediction made for suggestions.
+    """
+    keys = list(keys)
+    a = assessed.assign(_caine_sort=assessed["caine_margin"].astype(float).fillna(np.inf))
+    a = a.sort_values(keys + ["_caine_sort", "modulus_ratio"], kind="stable")
+    g = a.groupby(keys, sort=False)
+    out = g[MARGIN_COLS].min()
+    first = g[[c for c in ("alloy", "sleeve_kind", "thickness_mm", "rule_set") if c in a]].first()
+    out = out.join(first)
+    if "modulus_required_ratio" in a:  # the zone's rule set asks the largest of its risers' ratios
+        out["modulus_target"] = g["modulus_required_ratio"].max()
+    return out.reset_index()
 
 
 def zone_design(store: Store, pattern=None) -> pd.DataFrame:
     """Per pattern, revision and zone: the weakest riser's assessed margins."""
     risers = store.risers_frame(pattern=pattern if isinstance(pattern, str) else None)
+    if pattern is not None and not isinstance(pattern, str):
+        risers = risers[risers["pattern"].isin(list(pattern))].reset_index(drop=True)
     if risers.empty:
         return pd.DataFrame(columns=["pattern", "revision", "effective_from", "zone", "riser", "alloy",
-                                     "sleeve_kind", "thickness_mm", "passes"] + MARGIN_COLS)
+                                     "sleeve_kind", "thickness_mm", "passes", "rule_set",
+                                     "modulus_target"] + MARGIN_COLS)
     a = assess_frame(risers)
     a["thickness_mm"] = risers["thickness_mm"].astype(float).to_numpy()
-    a["caine_sort"] = a["caine_margin"].fillna(np.inf)
-    a = a.sort_values(["pattern", "revision", "zone", "caine_sort", "modulus_ratio"])
-    g = a.groupby(["pattern", "revision", "zone"], sort=False)
-    out = g.agg(effective_from=("effective_from", "first"), alloy=("alloy", "first"),
-                riser=("riser", lambda s: "+".join(sorted(s))), sleeve_kind=("sleeve_kind", "first"),
-                thickness_mm=("thickness_mm", "first"), passes=("passes", "all"),
-                modulus_ratio=("modulus_ratio", "min"), caine_margin=("caine_margin", "min"),
-                feed_margin=("feed_margin", "min"), volume_ratio=("volume_ratio", "min"),
-                freezing_ratio=("freezing_ratio", "min")).reset_index()
-    return out
+    keys = ["pattern", "revision", "zone"]
+    g = a.groupby(keys, sort=False)
+    rest = g.agg(effective_from=("effective_from", "first"), riser=("riser", lambda s: "+".join(sorted(s))),
+                 passes=("passes", "all")).reset_index()
+    return weakest_margins(a, keys).merge(rest, on=keys)
 
 
 def _lots_with_revision(store: Store, start, end, pattern) -> pd.DataFrame:
@@ -94,7 +114,8 @@ def aggregate_for_fit(features: pd.DataFrame, temp_bin_c: float = 5.0) -> pd.Dat
     f = features.copy()
     f["_tbin"] = np.round(f["pour_temp_dev_c"].fillna(0.0) / temp_bin_c) * temp_bin_c
     keys = ["pattern", "revision", "zone", "_tbin"]
-    first = {c: "first" for c in ["riser", "alloy", "sleeve_kind", "thickness_mm", "passes"] + MARGIN_COLS}
+    first = {c: "first" for c in ["riser", "alloy", "sleeve_kind", "thickness_mm", "passes", "rule_set",
+                                  "modulus_target"] + MARGIN_COLS}
     out = f.groupby(keys, as_index=False).agg(castings=("castings", "sum"),
                                               shrinkage_rejects=("shrinkage_rejects", "sum"),
                                               poured_on=("poured_on", "max"), **{
@@ -109,7 +130,7 @@ def design_map(store: Store, start: str | None = None, end: str | None = None, a
     f = zone_lot_features(store, start, end, pattern)
     cols = ["pattern", "revision", "zone", "riser", "alloy", "volume_ratio", "freezing_ratio",
             "modulus_ratio", "caine_margin", "feed_margin", "passes", "sleeve_kind", "lots", "castings",
-            "shrinkage_rejects", "shrinkage_rate", "wilson_low", "wilson_high"]
+            "shrinkage_rejects", "shrinkage_rate", "wilson_low", "wilson_high", "rule_set", "modulus_target"]
     if f.empty:
         return pd.DataFrame(columns=cols)
     if alloy:
@@ -119,6 +140,7 @@ def design_map(store: Store, start: str | None = None, end: str | None = None, a
         freezing_ratio=("freezing_ratio", "first"), modulus_ratio=("modulus_ratio", "first"),
         caine_margin=("caine_margin", "first"), feed_margin=("feed_margin", "first"),
         passes=("passes", "first"), sleeve_kind=("sleeve_kind", "first"), lots=("lot", "count"),
+        rule_set=("rule_set", "first"), modulus_target=("modulus_target", "first"),
         castings=("castings", "sum"), shrinkage_rejects=("shrinkage_rejects", "sum"))
     g["shrinkage_rate"] = g["shrinkage_rejects"] / g["castings"]
     lo, hi = wilson_interval(g["shrinkage_rejects"].to_numpy(), g["castings"].to_numpy())

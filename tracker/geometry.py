@@ -89,3 +89,26 @@ def diameter_for_volume(volume, h_over_d):
     v = np.asarray(volume, dtype=float)
     r = np.asarray(h_over_d, dtype=float)
     return np.cbrt(4.0 * v / (np.pi * r))
+
+
+def sphere_modulus_for_volume(volume):
+    """Modulus of a sphere of the given volume, cm: the largest any body of
+    that volume can have with all its faces cooling."""
+    v = np.asarray(volume, dtype=float)
+    return sphere_modulus(np.cbrt(6.0 * v / np.pi))
+
+
+def exceeds_sphere_modulus(volume, cooling_area):
+    """True where V/A is above a same-volume sphere's modulus: possible only
+    where faces are joined to other metal (a boss inside a casting)."""
+    v = np.asarray(volume, dtype=float)
+    return v / np.asarray(cooling_area, dtype=float) > sphere_modulus_for_volume(v) * (1 + 1e-9)
+
+
+def joined_faces_warning(volume, cooling_area) -> str:
+    """The warning text where V/A exceeds a same-volume sphere's modulus, else ''."""
+    if not bool(exceeds_sphere_modulus(volume, cooling_area)):
+        return ""
+    m, ms = float(volume) / float(cooling_area), float(sphere_modulus_for_volume(volume))
+    return (f"modulus {m:.2f} cm is above a same-volume sphere's {ms:.2f} cm: right only where "
+            "faces are joined to other metal; check the cooling area (cm²) and volume (cm³)")

@@ -43,12 +43,13 @@ XRAY_CATEGORIES = ("A", "B", "CA", "CB", "CC", "CD", "D", "E", "F", "G")
 GRADED_CATEGORIES = ("A", "B", "CA", "CB", "CC", "CD")  # graded in severity levels 1-5
 NEVER_ACCEPTABLE = ("D", "E")  # cracks and hot tears: not acceptable at any level
 SLEEVE_KINDS = ("insulating", "exothermic")
+MOULDS = ("green_sand", "rigid")  # tracker.rules.MOULDS; empty = green sand
 
 COLUMNS = {  # (required, optional)
     "patterns": (["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
-                  "metal_cost_per_kg"], ["processing_cost_per_casting"]),
+                  "metal_cost_per_kg"], ["processing_cost_per_casting", "mould"]),
     "zones": (["pattern", "zone", "volume_cm3", "cooling_area_cm2"],
-              ["thickness_mm", "length_mm", "required_xray_level"]),
+              ["thickness_mm", "length_mm", "required_xray_level", "width_mm"]),
     "sleeves": (["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
                  "feeding_efficiency"], ["unit_cost"]),
     "risers": (["pattern", "revision", "effective_from", "riser", "zone", "placement", "top",
@@ -725,8 +726,9 @@ class _Importer:
         per_mold = c.number("castings_per_mold", low=0, whole=True, high=10000)
         cost = c.measure("metal_cost_per_kg")
         proc = c.measure("processing_cost_per_casting", required=False)
-        return [(p, d, a, w, int(n) if n == n else n, m, _float_or_none(q))
-                for p, d, a, w, n, m, q in zip(pattern, desc, alloy, weight, per_mold, cost, proc)]
+        mould = c.code("mould", MOULDS, required=False)
+        return [(p, d, a, w, int(n) if n == n else n, m, _float_or_none(q), _none(ml))
+                for p, d, a, w, n, m, q, ml in zip(pattern, desc, alloy, weight, per_mold, cost, proc, mould)]
 
     def _known_patterns(self, c: _Checks, pattern: pd.Series) -> dict:
         info = self.store.patterns_info()
@@ -739,19 +741,29 @@ class _Importer:
         zone = c.text("zone", max_len=64)
         vol = c.measure("volume_cm3")
         area = c.measure("cooling_area_cm2")
-        # A section's cooling area can never be below a sphere's of the same volume.
-        sphere_area = geometry.sphere_area(np.cbrt(6.0 * vol.fillna(1.0).to_numpy() / np.pi))
-        c.fail(vol.notna().to_numpy() & area.notna().to_numpy()
-               & (area.fillna(0).to_numpy() < sphere_area * (1 - 1e-9)),
-               "cooling_area_cm2", "cooling area is smaller than a sphere of that volume would have; "
-                                   "check the units (cm² and cm³)")
         thick = c.measure("thickness_mm", required=False)
+        # A section of thickness T cooling on both faces has a modulus of at most T/2 (a
+        # plate). Below a same-volume sphere's area is possible where faces are joined to
+        # other metal: `check` notes it, the import takes it.
+        m = (vol / area).to_numpy(dtype=float)
+        c.fail(thick.notna().to_numpy() & ~np.isnan(m) & (m > thick.to_numpy(dtype=float) / 20.0 * (1 + 1e-9)),
+               "cooling_area_cm2",
+               lambda i: f"the modulus V/A = {m[i]:.2f} cm is above half the thickness "
+                         f"({thick.iloc[i] / 20.0:.2f} cm), more than a plate of that thickness cooling on "
+                         "both faces can have; check the units (cm², cm³, mm)")
         length = c.measure("length_mm", required=False)
+        width = c.measure("width_mm", required=False)
         level = c.number("required_xray_level", required=False, low=1, low_inclusive=True, high=5,
                          whole=True)
         self._known_patterns(c, pattern)
-        return [(p, z, v, a, _float_or_none(t), _float_or_none(ln), _int_or_none(lv))
-                for p, z, v, a, t, ln, lv in zip(pattern, zone, vol, area, thick, length, level)]
+        joined = ~c.bad & ~np.isnan(m) & geometry.exceeds_sphere_modulus(vol.to_numpy(dtype=float),
+                                                                          area.to_numpy(dtype=float))
+        for i in np.flatnonzero(joined)[:MAX_PROBLEMS]:
+            self.result.warnings.append(
+                f"{self.file}, row {int(c.rows[i])}, zone {zone.iloc[i]}: "
+                + geometry.joined_faces_warning(float(vol.iloc[i]), float(area.iloc[i])))
+        return [(p, z, v, a, _float_or_none(t), _float_or_none(ln), _int_or_none(lv), _float_or_none(w))
+                for p, z, v, a, t, ln, lv, w in zip(pattern, zone, vol, area, thick, length, level, width)]
 
     def _sleeves(self, c: _Checks) -> list[tuple]:
         sleeve = c.text("sleeve", max_len=64)

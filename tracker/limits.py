@@ -84,6 +84,7 @@ RANGES = {
     "cooling_area_cm2": (0.01, 1e7, "cm²"),
     "thickness_mm": (0.1, 5_000.0, "mm"),
     "length_mm": (0.1, 20_000.0, "mm"),
+    "width_mm": (0.1, 20_000.0, "mm"),
     # sleeves and risers
     "inner_diameter_mm": (5.0, 3_000.0, "mm"),
     "diameter_mm": (5.0, 3_000.0, "mm"),

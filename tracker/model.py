@@ -10,6 +10,8 @@ term                    value per row                                      sign
 ======================  =================================================  =========
 modulus_shortfall       max(0, modulus_target - modulus_ratio)             >= 0
 freezing_shortfall      max(0, freezing_target - freezing_ratio)           >= 0
+                        (a row's own ``modulus_target`` column, where given,
+                        replaces the estimator's: its alloy's rule set)
 caine_shortfall         max(0, -caine_margin), 0 where NaN (no constants)  >= 0
 feed_shortfall          max(0, -feed_margin)                               >= 0
 pour_temp_dev_10c       pour_temp_dev_c / 10, 0 where unknown              free
@@ -261,9 +263,19 @@ class ShrinkageRejectModel(BaseEstimator):
         frz = _numeric(X, "freezing_ratio", allow_inf=True)
         caine = _numeric(X, "caine_margin", allow_nan=True, allow_inf=True)
         feed = _numeric(X, "feed_margin", allow_inf=True)
+        # A row's own rule set may ask another modulus ratio (``modulus_target``, as
+        # ``tracker.assess``'s modulus_required_ratio: 0.96 under ductile iron's pressure
+        # control, 0 where no riser is needed); the freezing target scales with it.
+        mod_t = np.full(len(mod), float(self.modulus_target))
+        for name in ("modulus_target", "modulus_required_ratio"):
+            if name in X:
+                row_t = _numeric(X, name, allow_nan=True)
+                mod_t = np.where(np.isnan(row_t), mod_t, row_t)
+                break
+        frz_t = self.freezing_target * mod_t / self.modulus_target
         s = np.column_stack([
-            np.clip(self.modulus_target - mod, 0.0, self.modulus_target),
-            np.clip(self.freezing_target - frz, 0.0, self.freezing_target),
+            np.clip(mod_t - mod, 0.0, mod_t),
+            np.clip(frz_t - frz, 0.0, frz_t),
             np.clip(np.nan_to_num(-caine, nan=0.0), 0.0, CAINE_SHORTFALL_CLIP),
             np.clip(-feed, 0.0, FEED_SHORTFALL_CLIP),
         ])

@@ -8,8 +8,16 @@ Units: modulus in cm, volume in cm³, time in the unit of the mould constant
 - Caine's method (Caine, 1949): freezing ratio X = M_r / M_c, volume ratio
   Y = V_r / V_c; sound when X lies above X = a / (Y - b) + c.
 - Feed volume: eps · V_r >= beta · (V_c + V_r).
-- Feeding distance, steel plates (Bishop-Pellini type rule, from memory):
-  about 4.5 T from the riser to a free end.
+- Feed volume adds the liquid contraction from the pour temperature to the
+  liquidus to the solidification shrinkage.
+- Neck of a side riser: the modulus sequence section : neck : riser =
+  1 : 1.1 : 1.2 (Wlodawer; common practice) for steel and the non-graphitic
+  alloys; M_section < M_neck < M_riser for grey iron.
+- Feeding distance, steel (Bishop and Pellini's rules, US Naval Research
+  Laboratory, about 1950; figures from memory): plates and bars, with the end
+  zone where the section ends and the shorter reach between two risers.
+- Ductile iron: pressure-control risering (Karsay's published approach;
+  figures from memory), see ``pressure_control``.
 """
 
 from __future__ import annotations
@@ -24,7 +32,20 @@ from tracker.errors import BadInput
 DEFAULT_MODULUS_FACTOR = 1.2
 DEFAULT_CHVORINOV_N = 2.0
 NECK_FACTOR = 1.1  # M_neck about 1.1 · M_section for a side riser (Wlodawer; common practice)
-FEEDING_DISTANCE_FACTOR = 4.5  # 2 T riser zone + 2.5 T end zone (from memory)
+FEEDING_DISTANCE_FACTOR = 4.5  # plate: 2 T riser zone + 2.5 T end zone (Bishop-Pellini, from memory)
+PLATE_RISER_ZONE_T = 2.0       # plate: a riser feeds 2 T each way by itself (Bishop-Pellini, from memory)
+PLATE_END_ZONE_T = 2.5         # plate: end effect where the plate ends (Bishop-Pellini, from memory)
+BAR_END_COEFF_IN = 6.0         # square bar: 6 · sqrt(T) inches to a free end, T in inches (Bishop-Pellini, from memory)
+PLATE_WIDTH_RATIO = 5.0        # a plate is at least about 5 T wide (Bishop-Pellini, from memory)
+MM_PER_INCH = 25.4
+# Pressure control (Karsay's ductile-iron risering; figures from memory): the neck
+# freezes when graphite expansion starts, at a modulus of about 0.5-0.8 of the
+# casting's significant modulus; rigid moulds let heavy sections (modulus above
+# about 2.5 cm) be cast without a riser.
+PC_NECK_RATIO = (0.5, 0.8)
+PC_RISERLESS_MODULUS_CM = 2.5
+MOULDS = ("green_sand", "rigid")
+DEFAULT_MOULD = "green_sand"   # the less rigid mould: the safe side where the foundry does not say
 
 
 # --- Chvorinov ----------------------------------------------------------------
@@ -97,10 +118,103 @@ def modulus_ok(riser_modulus, section_modulus, factor=DEFAULT_MODULUS_FACTOR):
     return modulus_ratio(riser_modulus, section_modulus) >= np.asarray(factor) * (1 - 1e-9)
 
 
-def neck_ok(neck_modulus, section_modulus, riser_modulus):
-    """M_section < M_neck < M_riser, the neck freezing between the two."""
+def neck_ok(neck_modulus, section_modulus, riser_modulus, factor=1.0):
+    """factor · M_section <= M_neck < M_riser, the neck freezing between the two.
+
+    ``factor`` is NECK_FACTOR (1.1, the modulus sequence 1 : 1.1 : 1.2) for
+    steel and the non-graphitic alloys; 1.0 (strictly above the section) for
+    grey iron. Array-valued ``factor`` is allowed.
+    """
     n = np.asarray(neck_modulus, dtype=float)
-    return (n > np.asarray(section_modulus)) & (n < np.asarray(riser_modulus))
+    f = np.asarray(factor, dtype=float)
+    lower = np.where(f > 1.0, n >= f * np.asarray(section_modulus) * (1 - 1e-9),
+                     n > np.asarray(section_modulus))
+    return lower & (n < np.asarray(riser_modulus))
+
+
+def neck_factor(alloy) -> float:
+    """The neck's ratio to the section modulus: 1.1 for non-graphitic alloys, else 1.0."""
+    return 1.0 if alloy.graphitic else NECK_FACTOR
+
+
+# --- pressure control (ductile iron) -------------------------------------------
+
+def check_mould(mould) -> str:
+    m = DEFAULT_MOULD if mould is None or (isinstance(mould, float) and mould != mould) \
+        else str(mould).strip().lower().replace(" ", "_").replace("-", "_")
+    if m == "":
+        m = DEFAULT_MOULD
+    if m not in MOULDS:
+        raise BadInput("mould", mould, "must be green_sand or rigid (chemically bonded, "
+                       "no-bake or other rigid moulds)")
+    return m
+
+
+def pc_neck_window(section_modulus):
+    """(lowest, highest) neck modulus for pressure control, cm (0.5-0.8 · M_s)."""
+    m = np.asarray(section_modulus, dtype=float)
+    return PC_NECK_RATIO[0] * m, PC_NECK_RATIO[1] * m
+
+
+def pc_neck_ok(neck_modulus, section_modulus):
+    """The neck freezes as expansion starts: 0.5 · M_s <= M_neck <= 0.8 · M_s."""
+    lo, hi = pc_neck_window(section_modulus)
+    n = np.asarray(neck_modulus, dtype=float)
+    return (n >= lo * (1 - 1e-9)) & (n <= hi * (1 + 1e-9))
+
+
+def pc_required_riser_modulus(section_modulus, neck_modulus=np.nan, factor=DEFAULT_MODULUS_FACTOR):
+    """Riser modulus pressure control needs, cm: the riser outlasts its neck,
+    factor · M_neck, with the neck at the top of its window where none is given."""
+    n = np.asarray(neck_modulus, dtype=float)
+    top = PC_NECK_RATIO[1] * np.asarray(section_modulus, dtype=float)
+    return np.asarray(factor, dtype=float) * np.where(np.isnan(n), top, n)
+
+
+def riserless_possible(section_modulus, mould):
+    """Rigid mould and a heavy section (M_s >= 2.5 cm): may be cast without a riser."""
+    rigid = np.asarray(mould) == "rigid"
+    return rigid & (np.asarray(section_modulus, dtype=float) >= PC_RISERLESS_MODULUS_CM)
+
+
+def oversized(riser_modulus, section_modulus, least_riser_modulus, factor=DEFAULT_MODULUS_FACTOR):
+    """Pressure control: a riser at or above factor · the larger of the section's
+    modulus and the least riser the rules need outlasts the section as a steel
+    riser must; it costs yield and, with a wide neck, lets the expansion push
+    metal back into the riser."""
+    ref = np.maximum(np.asarray(section_modulus, dtype=float), np.asarray(least_riser_modulus, dtype=float))
+    return np.asarray(riser_modulus, dtype=float) >= np.asarray(factor) * ref * (1 - 1e-9)
+
+
+def feed_fraction(alloy, mould=None, pour_temp_c=None, shrinkage=None):
+    """(solidification part, liquid part) of the metal a riser must supply, fractions.
+
+    Liquid contraction from the pour temperature (else liquidus + the alloy's
+    default superheat) to the liquidus. The solidification part is the
+    alloy's shrinkage (``shrinkage`` overrides it); under pressure control it
+    is 0 in a rigid mould (graphite expansion feeds it) and the alloy's
+    shrinkage (or ``shrinkage``), read as the green-sand mould-wall
+    allowance, otherwise.
+    """
+    beta = alloy.shrinkage if shrinkage is None else float(shrinkage)
+    if alloy.rule_set == "pressure_control" and check_mould(mould) == "rigid":
+        beta = 0.0
+    return beta, liquid_contraction(alloy, pour_temp_c)
+
+
+def liquid_contraction(alloy, pour_temp_c=None):
+    """Volumetric liquid contraction from pour temperature to liquidus, fraction.
+
+    0 where the alloy has no figure; the alloy's default superheat where
+    ``pour_temp_c`` is None or NaN. Accepts arrays of temperatures.
+    """
+    if alloy.liquid_contraction_per_100k is None or alloy.liquidus_c is None:
+        return 0.0 if np.ndim(pour_temp_c) == 0 else np.zeros(np.shape(pour_temp_c))
+    default = alloy.liquidus_c + (alloy.default_superheat_k or 0.0)
+    t = default if pour_temp_c is None else np.where(np.isnan(np.asarray(pour_temp_c, dtype=float)),
+                                                      default, pour_temp_c)
+    out = alloy.liquid_contraction_per_100k * np.maximum(np.asarray(t, dtype=float) - alloy.liquidus_c, 0.0) / 100.0
+    return float(out) if np.ndim(out) == 0 else out
 
 
 # --- Caine ----------------------------------------------------------------------
@@ -122,14 +236,18 @@ def caine_ok(freezing_ratio, volume_ratio, caine: CaineConstants):
 
 # --- feed volume ----------------------------------------------------------------
 
-def check_efficiency(efficiency, shrinkage):
+def check_efficiency(efficiency, shrinkage, liquid=0.0):
+    """Refuse an efficiency that cannot feed ``shrinkage`` + ``liquid`` (fractions)."""
     if not (0 < efficiency <= 1):
         raise BadInput("efficiency", efficiency, "must be a fraction above 0 and at most 1 (0.14 = 14 %)")
     if not (-0.5 < shrinkage < 0.5):
         raise BadInput("shrinkage", shrinkage, "must be a fraction between -0.5 and 0.5 (0.035 = 3.5 %)")
-    if efficiency <= shrinkage:
+    need = max(shrinkage, 0.0) + liquid
+    if efficiency <= need:
+        what = (f"the shrinkage {shrinkage:g}" if not liquid else
+                f"the metal to feed {need:.4g} (shrinkage {shrinkage:g} + liquid contraction {liquid:.4g})")
         raise BadInput("efficiency", efficiency,
-                       f"must be above the shrinkage {shrinkage}; a riser that can give less "
+                       f"must be above {what}; a riser that can give less "
                        "than the metal shrinks can never feed")
 
 
@@ -157,6 +275,59 @@ def feed_margin(riser_volume, section_volume, shrinkage, efficiency):
 
 # --- feeding distance -----------------------------------------------------------
 
-def feeding_distance_mm(thickness_mm):
-    """Distance a riser feeds along a steel plate of thickness T, mm (4.5 T)."""
-    return FEEDING_DISTANCE_FACTOR * np.asarray(thickness_mm, dtype=float)
+def plate_feeding_distance_mm(thickness_mm, between_risers=False):
+    """Steel plate (width >= 5 T), mm: 4.5 T from the riser to a free end
+    (2 T riser zone + 2.5 T end zone); between two risers each feeds its
+    2 T riser zone, 4 T apart (Bishop-Pellini, from memory)."""
+    t = np.asarray(thickness_mm, dtype=float)
+    zone = np.where(np.asarray(between_risers, dtype=bool), PLATE_RISER_ZONE_T,
+                    PLATE_RISER_ZONE_T + PLATE_END_ZONE_T)
+    return zone * t
+
+
+def bar_feeding_distance_mm(thickness_mm, between_risers=False):
+    """Square steel bar, mm: 6 · sqrt(T) inches to a free end (T in inches;
+    Bishop-Pellini, from memory), never more than a plate of the same T.
+
+    The bar rule was found on bars of about 2 in and up; below about 45 mm it
+    would reach further than the plate rule, which no bar does, so the plate
+    value caps it. Between two risers: the same share of the reach as in a
+    plate, 2 T of 4.5 T (an assumption made here, not a published figure).
+    """
+    t = np.asarray(thickness_mm, dtype=float)
+    end = np.minimum(BAR_END_COEFF_IN * np.sqrt(t / MM_PER_INCH) * MM_PER_INCH,
+                     plate_feeding_distance_mm(t))
+    share = PLATE_RISER_ZONE_T / (PLATE_RISER_ZONE_T + PLATE_END_ZONE_T)
+    return np.where(np.asarray(between_risers, dtype=bool), share * end, end)
+
+
+def feeding_distance_mm(thickness_mm, width_mm, risers_on_zone=1):
+    """Reach of one riser along a steel section of cross-section T x W, mm.
+
+    The section is a bar at W/T = 1 and a plate from W/T = 5 (the smaller of
+    the two sizes is taken as T); in between the reach is interpolated
+    linearly on W/T. With one riser on the zone the reach runs to the
+    section's end (end zone included); with two or more it is the riser's own
+    zone, half the distance between two risers. NaN (not judged) where T or W
+    is missing.
+    """
+    a = np.asarray(thickness_mm, dtype=float)
+    b = np.asarray(width_mm, dtype=float)
+    t, w = np.fmin(a, b), np.fmax(a, b)
+    t = np.where(np.isnan(a) | np.isnan(b), np.nan, t)
+    between = np.asarray(risers_on_zone, dtype=float) > 1
+    with np.errstate(invalid="ignore", divide="ignore"):
+        s = np.clip((w / t - 1.0) / (PLATE_WIDTH_RATIO - 1.0), 0.0, 1.0)
+    out = (1 - s) * bar_feeding_distance_mm(t, between) + s * plate_feeding_distance_mm(t, between)
+    return out if out.ndim else float(out)
+
+
+def section_shape(thickness_mm, width_mm) -> np.ndarray:
+    """'bar', 'plate', 'between bar and plate' or '' (unknown) by W/T."""
+    a = np.asarray(thickness_mm, dtype=float)
+    b = np.asarray(width_mm, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r = np.fmax(a, b) / np.fmin(a, b)
+    return np.where(np.isnan(r), "", np.where(r <= 1 + 1e-9, "bar",
+                                              np.where(r >= PLATE_WIDTH_RATIO - 1e-9, "plate",
+                                                       "between bar and plate")))

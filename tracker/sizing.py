@@ -12,36 +12,57 @@ moduli in cm.
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass
+import math
+from dataclasses import asdict, dataclass, replace
 
 import numpy as np
 
 from tracker import geometry, rules
-from tracker.alloys import Alloy, get_alloy
+from tracker.alloys import RULE_SETS, Alloy, get_alloy
 from tracker.errors import BadInput
 
 H_OVER_D_RANGE = (0.5, 3.0)
 RULES = ("caine", "modulus", "feed_volume")
+# A sleeved riser feeds with more of its volume than a bare one. Where neither
+# the efficiency nor a catalogue sleeve is given, a sleeved riser takes the low
+# end of the insulating-sleeve range 25-35 % (DOMAIN.md, from memory): the safe
+# side, since exothermic sleeves give 30-45 %.
+SLEEVED_EFFICIENCY = 0.25
+SLEEVED_EFFICIENCY_SOURCE = ("sleeved riser, common-practice default 25 % (low end of the insulating "
+                             "range 25-35 %, from memory)")
 
 
 def _as_alloy(alloy) -> Alloy:
     return alloy if isinstance(alloy, Alloy) else get_alloy(alloy)
 
 
-def validate_section(volume_cm3, area_cm2):
+def validate_section(volume_cm3, area_cm2, thickness_mm=None):
+    """Refuse sections no body can have: volume or cooling area not above 0,
+    or (where the thickness is given) a modulus above T/2, the modulus of a
+    plate of thickness T cooling on both faces.
+
+    A modulus above a same-volume sphere's is possible where faces are joined
+    to other metal: it is a warning (``geometry.joined_faces_warning``), not a
+    refusal.
+    """
     v = np.asarray(volume_cm3, dtype=float)
     a = np.asarray(area_cm2, dtype=float)
     if not np.all(np.isfinite(v)) or np.any(v <= 0):
         raise BadInput("volume_cm3", _first_bad(v, v <= 0), "section volume must be a number above 0 cm³")
     if not np.all(np.isfinite(a)) or np.any(a <= 0):
         raise BadInput("area_cm2", _first_bad(a, a <= 0), "cooling area must be a number above 0 cm²")
-    # A body's modulus can never exceed that of a sphere of the same volume.
-    sphere_m = geometry.sphere_modulus(np.cbrt(6.0 * v / np.pi))
-    bad = (v / a) > sphere_m * (1 + 1e-9)
-    if np.any(bad):
-        raise BadInput("area_cm2", _first_bad(a, bad),
-                       "cooling area is smaller than a sphere of that volume would have; "
-                       "check the units (cm² and cm³)")
+    if thickness_mm is not None:
+        t = np.asarray(thickness_mm, dtype=float)
+        if np.any(~np.isnan(t) & (t <= 0)):
+            raise BadInput("thickness_mm", _first_bad(t, t <= 0), "thickness must be above 0 mm")
+        bad = ~np.isnan(t) & (v / a > t / 20.0 * (1 + 1e-9))
+        if np.any(bad):
+            i = int(np.argmax(np.atleast_1d(bad)))
+            m = float(np.atleast_1d(v / a)[i])
+            raise BadInput("area_cm2", float(np.atleast_1d(a)[i]),
+                           f"the modulus V/A = {m:.2f} cm is above half the thickness "
+                           f"({float(np.atleast_1d(t)[i]) / 20.0:.2f} cm), more than a plate of that "
+                           "thickness cooling on both faces can have; check the units (cm², cm³, mm)")
 
 
 def _first_bad(arr, mask):
@@ -121,9 +142,12 @@ def caine_min_diameter_cm(section_volume, section_modulus, a, b, c, k, h_over_d,
 
 
 def size_arrays(section_volume, section_area, *, a, b, c, top, h_over_d, sleeve_factor,
-                modulus_factor, efficiency, shrinkage):
+                modulus_factor, efficiency, shrinkage, modulus_basis=1.0):
     """Core vectorised sizing over arrays (cm units). ``top`` is a bool array
-    (True for a top riser). Returns a dict of arrays."""
+    (True for a top riser); ``shrinkage`` is all the metal to feed (fraction);
+    the modulus rule asks modulus_factor · modulus_basis · M_section
+    (basis 1 for the modulus sequence, the neck's 0.8 for pressure control).
+    Returns a dict of arrays."""
     vc = np.asarray(section_volume, dtype=float)
     mc = vc / np.asarray(section_area, dtype=float)
     hd = np.asarray(h_over_d, dtype=float)
@@ -131,7 +155,7 @@ def size_arrays(section_volume, section_area, *, a, b, c, top, h_over_d, sleeve_
                  geometry.modulus_per_diameter(hd, "top"),
                  geometry.modulus_per_diameter(hd, "side"))
     f = np.asarray(sleeve_factor, dtype=float)
-    d_mod = np.asarray(modulus_factor, dtype=float) * mc / (f * k)
+    d_mod = np.asarray(modulus_factor, dtype=float) * np.asarray(modulus_basis, dtype=float) * mc / (f * k)
     v_feed = rules.feed_min_volume(vc, shrinkage, efficiency)
     d_feed = geometry.diameter_for_volume(v_feed, hd)
     d_caine = caine_min_diameter_cm(vc, mc, a, b, c, k, hd, f)
@@ -143,21 +167,65 @@ def size_arrays(section_volume, section_area, *, a, b, c, top, h_over_d, sleeve_
             "feed_cm": np.broadcast_to(d_feed, d.shape), "governing": gov, "section_modulus": mc, "k": k}
 
 
+def default_efficiency(alloy: Alloy, sleeve_factor=1.0):
+    """Feeding efficiency where none is given: SLEEVED_EFFICIENCY for a sleeved
+    riser (factor above 1), the alloy's bare-sand value otherwise."""
+    f = np.asarray(sleeve_factor, dtype=float)
+    out = np.where(f > 1.0, SLEEVED_EFFICIENCY, alloy.bare_efficiency)
+    return out if out.ndim else float(out)
+
+
+def modulus_basis(alloy: Alloy) -> float:
+    """What the modulus rule's factor multiplies, as a share of M_section: 1
+    (the riser outlasts the section) or, under pressure control, the top of
+    the neck window, 0.8 (the riser outlasts its neck)."""
+    return rules.PC_NECK_RATIO[1] if alloy.rule_set == "pressure_control" else 1.0
+
+
+def suggested_neck_mm(alloy: Alloy, section_modulus_cm, placement="side"):
+    """Round neck diameter for a side riser, mm (d = 4 · M_neck): 1.1 · M_s for
+    the modulus sequence; the middle of the 0.5-0.8 · M_s window under
+    pressure control. NaN for a top riser."""
+    ratio = (sum(rules.PC_NECK_RATIO) / 2.0 if alloy.rule_set == "pressure_control"
+             else rules.NECK_FACTOR)
+    d = 4.0 * ratio * np.asarray(section_modulus_cm, dtype=float) * 10.0
+    return np.where(np.char.lower(np.asarray(placement, dtype=str)) == "side", d, np.nan)
+
+
+def neck_needed_mm(alloy, section_modulus_cm: float, now_mm: float | None = None) -> float | None:
+    """The round neck (mm) a side riser's rule set asks, or None where the
+    present ``now_mm`` already meets it: at least 1.1 · M_s (d = 4 · M_neck)
+    for the modulus sequence; inside 0.5-0.8 · M_s (the middle where outside)
+    under pressure control."""
+    alloy = _as_alloy(alloy)
+    mc = float(section_modulus_cm)
+    if alloy.rule_set == "pressure_control":
+        lo, hi = (4.0 * r * mc * 10.0 for r in rules.PC_NECK_RATIO)
+        if now_mm is not None and lo * (1 - 1e-9) <= now_mm <= hi * (1 + 1e-9):
+            return None
+        return float(suggested_neck_mm(alloy, mc))
+    need = 4.0 * rules.NECK_FACTOR * mc * 10.0
+    return None if now_mm is not None and now_mm >= need * (1 - 1e-9) else need
+
+
 def size_risers(section_volume_cm3, section_area_cm2, alloy, placement="side", h_over_d=1.0,
                 sleeve_factor=1.0, modulus_factor=rules.DEFAULT_MODULUS_FACTOR,
-                efficiency=None, shrinkage=None):
+                efficiency=None, shrinkage=None, mould=None, pour_temp_c=None):
     """Size many risers of one alloy at once; returns a dict of numpy arrays.
 
     Keys as in :class:`RiserSize` (diameters in mm). ``placement`` may be a
-    single "top"/"side" or an array of them.
+    single "top"/"side" or an array of them. ``mould`` (green_sand or rigid)
+    matters for ductile iron only; ``pour_temp_c`` (else the alloy's default
+    superheat) sets the liquid contraction.
     """
     alloy = _as_alloy(alloy)
-    eff = alloy.bare_efficiency if efficiency is None else efficiency
-    beta = alloy.shrinkage if shrinkage is None else shrinkage
+    mould = rules.check_mould(mould)
+    eff = default_efficiency(alloy, sleeve_factor) if efficiency is None else efficiency
+    beta, liquid = rules.feed_fraction(alloy, mould, pour_temp_c, shrinkage)
     validate_section(section_volume_cm3, section_area_cm2)
     validate_design_options(h_over_d, sleeve_factor, modulus_factor)
-    for e, s in np.broadcast(np.asarray(eff, dtype=float), np.asarray(beta, dtype=float)):
-        rules.check_efficiency(float(e), float(s))
+    for e, li in np.broadcast(np.asarray(eff, dtype=float), np.asarray(liquid, dtype=float)):
+        rules.check_efficiency(float(e), beta, float(li))
     pl = np.char.lower(np.asarray(placement, dtype=str))
     if not np.all(np.isin(pl, geometry.PLACEMENTS)):
         raise BadInput("placement", str(pl[~np.isin(pl, geometry.PLACEMENTS)].flat[0]), "must be top or side")
@@ -165,30 +233,39 @@ def size_risers(section_volume_cm3, section_area_cm2, alloy, placement="side", h
     a, b, c = (np.nan, np.nan, np.nan) if cn is None else (cn.a, cn.b, cn.c)
     r = size_arrays(section_volume_cm3, section_area_cm2, a=a, b=b, c=c, top=(pl == "top"),
                     h_over_d=h_over_d, sleeve_factor=sleeve_factor, modulus_factor=modulus_factor,
-                    efficiency=eff, shrinkage=beta)
+                    efficiency=eff, shrinkage=max(beta, 0.0) + np.asarray(liquid, dtype=float),
+                    modulus_basis=modulus_basis(alloy))
     d = r["diameter_cm"]
     hd = np.asarray(h_over_d, dtype=float)
     vr = geometry.cylinder_volume(d, hd * d)
     mr = r["k"] * d * np.asarray(sleeve_factor, dtype=float)
     vc = np.asarray(section_volume_cm3, dtype=float)
+    mc = np.broadcast_to(r["section_modulus"], d.shape)
     return {
         "diameter_mm": d * 10.0,
         "height_mm": hd * d * 10.0,
         "riser_volume_cm3": vr,
         "riser_modulus_cm": mr,
-        "section_modulus_cm": np.broadcast_to(r["section_modulus"], d.shape),
+        "section_modulus_cm": mc,
         "freezing_ratio": mr / r["section_modulus"],
         "volume_ratio": vr / vc,
         "caine_min_diameter_mm": r["caine_cm"] * 10.0,
         "modulus_min_diameter_mm": r["modulus_cm"] * 10.0,
         "feed_min_diameter_mm": r["feed_cm"] * 10.0,
         "governing_rule": np.asarray(RULES)[r["governing"]],
+        "neck_diameter_mm": np.broadcast_to(suggested_neck_mm(alloy, mc, pl), d.shape),
+        "riser_needed": ~np.broadcast_to(rules.riserless_possible(mc, mould) if
+                                         alloy.rule_set == "pressure_control" else False, d.shape),
     }
 
 
 @dataclass(frozen=True)
 class RiserSize:
-    """The smallest cylindrical riser meeting every rule, for one section."""
+    """The smallest cylindrical riser meeting every rule, for one section.
+
+    shrinkage is the solidification part of the metal to feed, liquid_contraction
+    the part from the pour temperature to the liquidus; feed_fraction their sum.
+    """
 
     alloy: str
     placement: str
@@ -212,32 +289,84 @@ class RiserSize:
     caine_margin: float | None
     freezing_time_ratio: float
     riser_weight_kg: float
+    rule_set: str = "modulus_sequence"
+    rule_set_text: str = ""
+    mould: str = rules.DEFAULT_MOULD
+    liquid_contraction: float = 0.0
+    pour_temp_c: float | None = None
+    feed_fraction: float = 0.0
+    efficiency_source: str = ""
+    sleeve: str | None = None
+    neck_diameter_mm: float | None = None
+    neck_modulus_cm: float | None = None
+    riser_needed: bool = True
+    thickness_mm: float | None = None
+    width_mm: float | None = None
+    section_shape: str = ""
+    feeding_distance_mm: float | None = None
+    feeding_length_mm: float | None = None
+    feeding_distance_ok: bool | None = None
+    warnings: tuple = ()
+    notes: tuple = ()
 
     def to_dict(self) -> dict:
-        return asdict(self)
+        d = asdict(self)
+        d["warnings"], d["notes"] = list(self.warnings), list(self.notes)
+        return d
 
 
 def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str = "side",
                h_over_d: float = 1.0, sleeve_factor: float = 1.0,
                modulus_factor: float = rules.DEFAULT_MODULUS_FACTOR,
-               efficiency: float | None = None, shrinkage: float | None = None) -> RiserSize:
+               efficiency: float | None = None, shrinkage: float | None = None, *,
+               mould: str | None = None, pour_temp_c: float | None = None,
+               thickness_mm: float | None = None, width_mm: float | None = None,
+               length_mm: float | None = None, sleeve: dict | None = None,
+               rule_set: str | None = None) -> RiserSize:
     """Size one riser (the scalar path: Caine's root by scipy's brentq).
 
     volume_cm3, area_cm2: the fed section's volume and cooling area.
+    mould: green_sand (default) or rigid; matters for ductile iron only.
+    pour_temp_c: pour temperature, °C (default: liquidus + the alloy's superheat).
+    thickness_mm: the section's thickness, where known (checks M <= T/2).
+    width_mm, length_mm: with the thickness, the feeding distance of a steel
+    section (bar, plate or between, by W/T) against the feeding length.
+    sleeve: a catalogue sleeve (dict with sleeve, modulus_factor,
+    feeding_efficiency): its factor and efficiency are used.
+    Without ``efficiency``, a sleeved riser (factor above 1) feeds with
+    SLEEVED_EFFICIENCY, a bare one with the alloy's bare-sand value.
+    rule_set: judge by another rule set than the alloy's (RULE_SETS key), for
+    a comparison.
     """
     from scipy.optimize import brentq
 
     alloy = _as_alloy(alloy)
+    if rule_set is not None:
+        if rule_set not in RULE_SETS:
+            raise BadInput("rule_set", rule_set, "must be one of " + ", ".join(RULE_SETS))
+        alloy = replace(alloy, rule_set=rule_set)
     placement = geometry.check_placement(placement)
-    eff = alloy.bare_efficiency if efficiency is None else float(efficiency)
-    beta = alloy.shrinkage if shrinkage is None else float(shrinkage)
-    validate_section(volume_cm3, area_cm2)
+    mould = rules.check_mould(mould)
+    sleeve_code = None if sleeve is None else sleeve["sleeve"]
+    if efficiency is not None:
+        eff, eff_src = float(efficiency), "given"
+    elif sleeve is not None:
+        eff, eff_src = float(sleeve["feeding_efficiency"]), f"sleeve {sleeve_code} from the log's catalogue"
+    elif sleeve_factor > 1.0:
+        eff, eff_src = SLEEVED_EFFICIENCY, SLEEVED_EFFICIENCY_SOURCE
+    else:
+        eff, eff_src = alloy.bare_efficiency, "bare sand, the alloy's value (from memory)"
+    if sleeve is not None:
+        sleeve_factor = float(sleeve["modulus_factor"])
+    beta, liquid = rules.feed_fraction(alloy, mould, pour_temp_c, shrinkage)
+    validate_section(volume_cm3, area_cm2, thickness_mm)
     validate_design_options(h_over_d, sleeve_factor, modulus_factor)
-    rules.check_efficiency(eff, beta)
+    rules.check_efficiency(eff, beta, liquid)
+    need = max(beta, 0.0) + liquid
     vc, mc = float(volume_cm3), float(volume_cm3) / float(area_cm2)
     k = float(geometry.modulus_per_diameter(h_over_d, placement))
-    d_mod = modulus_factor * mc / (sleeve_factor * k)
-    d_feed = float(geometry.diameter_for_volume(rules.feed_min_volume(vc, beta, eff), h_over_d))
+    d_mod = modulus_factor * modulus_basis(alloy) * mc / (sleeve_factor * k)
+    d_feed = float(geometry.diameter_for_volume(rules.feed_min_volume(vc, need, eff), h_over_d))
     d_caine = None
     if alloy.caine is not None:
         cn = alloy.caine
@@ -259,6 +388,32 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
     mr = sleeve_factor * k * d
     x, y = mr / mc, vr / vc
     margin = None if alloy.caine is None else float(rules.caine_margin(x, y, alloy.caine))
+    neck = float(suggested_neck_mm(alloy, mc, placement))
+    pc = alloy.rule_set == "pressure_control"
+    needed = not (pc and bool(rules.riserless_possible(mc, mould)))
+    warn = geometry.joined_faces_warning(vc, float(area_cm2))
+    notes = []
+    if pc:
+        notes.append(f"pressure control ({mould.replace('_', ' ')} mould): the riser feeds the liquid "
+                     f"contraction{'' if mould == 'rigid' else ' and the mould-wall allowance'} until "
+                     "graphite expansion starts; the neck freezes then (modulus "
+                     f"{rules.PC_NECK_RATIO[0]:g}-{rules.PC_NECK_RATIO[1]:g} x the section's)")
+        if not needed:
+            notes.append(f"section modulus {mc:.2f} cm >= {rules.PC_RISERLESS_MODULUS_CM:g} cm in a rigid "
+                         "mould: the section may be cast without a riser (Karsay, from memory)")
+    fd = fd_ok = None
+    shape = ""
+    if thickness_mm is not None and width_mm is not None:
+        shape = str(rules.section_shape(thickness_mm, width_mm))
+    if alloy.key == "steel" and thickness_mm is not None and width_mm is not None:
+        fd = float(rules.feeding_distance_mm(thickness_mm, width_mm))
+        fd_ok = None if length_mm is None else bool(length_mm <= fd + 1e-9)
+    if alloy.key != "steel":
+        notes.append("feeding distance not judged (the published rule is for steel)")
+    elif fd is None or fd_ok is None:
+        notes.append("feeding distance not judged (give "
+                     + ", ".join(n for n, v in (("--thickness-mm", thickness_mm), ("--width-mm", width_mm),
+                                                ("--length-mm", length_mm)) if v is None) + ")")
     return RiserSize(
         alloy=alloy.key, placement=placement, h_over_d=float(h_over_d),
         sleeve_factor=float(sleeve_factor), modulus_factor=float(modulus_factor),
@@ -271,4 +426,44 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
         governing_rule=governing, caine_margin=margin,
         freezing_time_ratio=x ** rules.DEFAULT_CHVORINOV_N,
         riser_weight_kg=vr * alloy.density_kg_dm3 / 1000.0,
+        rule_set=alloy.rule_set, rule_set_text=RULE_SETS[alloy.rule_set], mould=mould,
+        liquid_contraction=liquid,
+        pour_temp_c=None if alloy.liquidus_c is None else float(
+            pour_temp_c if pour_temp_c is not None else alloy.liquidus_c + (alloy.default_superheat_k or 0.0)),
+        feed_fraction=need, efficiency_source=eff_src, sleeve=sleeve_code,
+        neck_diameter_mm=None if np.isnan(neck) else neck,
+        neck_modulus_cm=None if np.isnan(neck) else neck / 40.0,
+        riser_needed=needed, thickness_mm=thickness_mm, width_mm=width_mm, section_shape=shape,
+        feeding_distance_mm=fd, feeding_length_mm=length_mm, feeding_distance_ok=fd_ok,
+        warnings=(warn,) if warn else (), notes=tuple(notes),
     )
+
+
+def round_up_diameter(size: RiserSize, step_mm: float) -> dict:
+    """The sized riser rounded up to the shop's diameter step: diameter and
+    height (same H/D) in mm, and the rounded riser's volume, cm³."""
+    if not (step_mm > 0):
+        raise BadInput("step_mm", step_mm, "the diameter step must be above 0 mm (for example 10)")
+    d = math.ceil(size.diameter_mm / step_mm - 1e-9) * step_mm
+    h = size.h_over_d * d
+    return {"step_mm": float(step_mm), "rounded_diameter_mm": float(d), "rounded_height_mm": float(h),
+            "rounded_riser_volume_cm3": float(geometry.cylinder_volume(d / 10.0, h / 10.0))}
+
+
+def size_zone(store, pattern: str, zone: str, **options) -> RiserSize:
+    """Size the riser of a stored zone: its volume, cooling area, thickness,
+    width and length, and its pattern's alloy and mould come from the log;
+    ``options`` as :func:`size_riser` (a given one wins over the log's)."""
+    z = store.zone(pattern, zone)
+
+    def val(key):
+        v = z.get(key)
+        return None if v is None or (isinstance(v, float) and math.isnan(v)) else v
+
+    logged = {"mould": val("mould"), "thickness_mm": val("thickness_mm"), "width_mm": val("width_mm"),
+              "length_mm": val("length_mm")}
+    for k, v in logged.items():
+        if options.get(k) is None:
+            options[k] = v
+    return size_riser(float(z["volume_cm3"]), float(z["cooling_area_cm2"]), options.pop("alloy", None)
+                      or z["alloy"], **options)

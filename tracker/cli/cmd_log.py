@@ -9,7 +9,8 @@ import pathlib
 
 import click
 
-from tracker.cli import db_option, emit, handle_errors, json_option, main, open_store, table
+from tracker.cli import (db_option, emit, handle_errors, json_option, main, open_store, progress_bar, show_progress,
+                         table)
 from tracker.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES
 
 MAX_RECORD_ID = 2**63 - 1  # SQLite's largest integer
@@ -120,9 +121,7 @@ def import_(kind_or_dir, file, skip_bad, sep, decimal, by, db_path, as_json):
         items = [(kind_or_dir, pathlib.Path(file))]
     total = sum(_count_rows(pathlib.Path(p)) for _, p in items)
     with open_store(db_path) as store:
-        show = total >= 5000 and not as_json
-        with click.progressbar(length=total, label="Importing", file=None if show else open(os.devnull, "w"),
-                               show_eta=True) as bar:
+        with progress_bar(show_progress(as_json) and total >= 5000, total, "Importing") as bar:
             results = import_files(store, items, skip_bad=skip_bad, by=_who(by), progress=bar.update,
                                    sep=sep, decimal=decimal,
                                    refused_to=lambda p: pathlib.Path(p).with_suffix(".refused.csv"))
@@ -139,6 +138,7 @@ def _format_import(results: list[dict]) -> str:
         if r.get("refused_file"):
             lines.append(f"{r['file']}: {r['refused']} row(s) refused, written to {r['refused_file']}:")
             lines.extend("  " + p for p in r["problems"][:20])
+        lines.extend("warning: " + w for w in r.get("warnings", [])[:20])
     return "\n".join(lines)
 
 
