@@ -138,7 +138,6 @@ def _format_import(results: list[dict]) -> str:
         if r.get("refused_file"):
             lines.append(f"{r['file']}: {r['refused']} row(s) refused, written to {r['refused_file']}:")
             lines.extend("  " + p for p in r["problems"][:20])
-        lines.extend("warning: " + w for w in r.get("warnings", [])[:20])
     return "\n".join(lines)
 
 
