@@ -208,7 +208,7 @@ def test_tls_options_go_to_streamlit(runner, launched, tmp_path):
 
 
 def test_require_login_on_loopback(runner, launched, tmp_path):
-    db = tmp_path / "desk.db"
+    db = _log(tmp_path / "desk.db")
     res = runner.invoke(main, ["dashboard", "--db", str(db), "--require-login"])
     assert res.exit_code == 1 and "no enabled account to sign in with" in res.output
     _admin(db, role="inspector")

@@ -44,6 +44,7 @@ COMMANDS = {
     "settings": [],
     "thermal": ["--pattern", "T-100", "--zone", "flange"],
     "user": ["list"],
+    "size": ["--pattern", "T-100", "--zone", "flange"],
 }
 
 
