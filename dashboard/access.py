@@ -57,7 +57,7 @@ def open_store(path: str) -> Store:
     """A connection whose writes are made, and checked, as the signed-in user."""
     if sign_in_required() and session() is None:
         raise SessionExpired("not signed in; sign in again")
-    return Store(path, actor=session())
+    return Store(path, actor=session(), create=False)
 
 
 def author_field(container, label: str, key: str) -> str:

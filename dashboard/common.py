@@ -12,13 +12,14 @@ import contextlib
 import datetime as dt
 import os
 import re
+import sqlite3
 
 import streamlit as st
 
 from tracker import limits, views
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadFile, PourbackError
-from tracker.store import Store, resolve_path
+from tracker.store import Store, log_error, resolve_path
 
 START_COMMANDS = "pourback demo"
 
@@ -69,7 +70,9 @@ def db_path() -> str:
 
 def open_store() -> Store:
     """A new connection to the log for a write (close it: use ``with``): made as
-    the signed-in user, whose role the library checks on every write."""
+    the signed-in user, whose role the library checks on every write. A missing
+    log is an error, never created here: only ``pourback init`` and ``demo``
+    create one."""
     from dashboard import access
 
     return access.open_store(db_path())
@@ -78,7 +81,7 @@ def open_store() -> Store:
 @st.cache_data(show_spinner=False, max_entries=256)
 def _cached(path: str, version: tuple, name: str, args: tuple, kwargs: tuple):
     fn = _registry()[name]
-    with Store(path) as store:
+    with Store(path, create=False) as store:
         return fn(store, *args, **dict(kwargs))
 
 
@@ -152,11 +155,28 @@ def show_error(exc: PourbackError) -> None:
 
 @contextlib.contextmanager
 def guard():
-    """Run a block; a library error is shown with :func:`show_error` instead of raised."""
+    """Run a block; a library error is shown with :func:`show_error` instead of
+    raised, and so is a failure of the machine (SQLite, a file that cannot be
+    written): one line, never a traceback."""
     try:
         yield
     except PourbackError as exc:
         show_error(exc)
+    except sqlite3.Error as exc:
+        show_error(log_error(exc, db_path()))
+    except OSError as exc:
+        st.error(md_escape(f"could not read or write {exc.filename or 'a file'}: {exc.strerror or exc}"))
+
+
+# --- downloads ---------------------------------------------------------------------------
+
+def download_csv(frame, label: str, file_name: str, key: str) -> None:
+    """A download of ``frame`` as CSV, every cell through the project's formula
+    guard (the tables' built-in download is off: ``client.disableDataExport``)."""
+    from tracker.report import csv_bytes
+
+    st.download_button(label, data=csv_bytes(frame), file_name=file_name, mime="text/csv", key=key,
+                       icon=":material/download:", disabled=frame is None or len(frame) == 0)
 
 
 # --- page furniture -----------------------------------------------------------------------

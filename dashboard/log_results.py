@@ -190,8 +190,10 @@ def latest(state: dict) -> None:
                         key="history_limit")
     full = c2.toggle("Show every column", key="history_all_columns",
                      help="x-ray category, severity, inspector, notes, when and from where it was recorded.")
-    st.dataframe(common.load("latest_records", limit=int(n), full=full), hide_index=True, width="stretch",
-                 key="latest_records_table", placeholder="")
+    records = common.load("latest_records", limit=int(n), full=full)
+    st.dataframe(records, hide_index=True, width="stretch", key="latest_records_table", placeholder="")
+    common.download_csv(records, "Download these records (CSV)", "pourback-latest-records.csv",
+                        key="download_latest_records")
 
 
 def main() -> None:

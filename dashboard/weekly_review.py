@@ -134,6 +134,8 @@ def patterns(review: dict) -> None:
                                 "rejected (castings)": st.column_config.NumberColumn(format="localized"),
                                 "poured (castings)": st.column_config.NumberColumn(format="localized"),
                                 cost: st.column_config.NumberColumn(format="localized")})
+    common.download_csv(views.review_patterns_table(review, full=True), "Download the patterns table (CSV)",
+                        f"pourback-patterns-{review['week']}.csv", key="download_patterns")
 
 
 def download(review: dict) -> None:

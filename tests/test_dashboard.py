@@ -181,8 +181,7 @@ def test_form_shows_the_librarys_refusal_and_writes_nothing(app_db, monkeypatch)
     at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot, defect=None)
     assert not at.exception
     errors = texts(at.error)
-    assert len(errors) == 1 and errors[0].startswith("defect"), errors
-    assert "needs the defect found" in errors[0]
+    assert len(errors) == 1 and errors[0].startswith("Defect: pick one for a reject"), errors
     assert snapshot(app_db) == before
 
 
@@ -303,7 +302,8 @@ def test_review_headline_charts_and_report(app_demo_db, monkeypatch):
     assert "cumulative share (%)" in titles and "ISO week of pour" in titles
     # The p-chart opens on the first flagged pattern.
     assert at.selectbox(key="chart_pattern").value == r["problems"][0]
-    assert [b.label for b in at.get("download_button")] == ["Download this review as HTML"]
+    assert [b.label for b in at.get("download_button")] == ["Download this review as HTML",
+                                                         "Download the patterns table (CSV)"]
     # The planted revision of P-1031 is judged an improvement.
     assert any("P-1031 revision 2" in m for m in texts(at.markdown))
     # the verdict in plain words first (the statistics are in its help tooltip)

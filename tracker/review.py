@@ -704,7 +704,7 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEE
     target = limits.check_target(target)
     if week is None:
         week = default_week(store)
-    monday = stats.week_start(week)
+    monday = limits.check_review_week(week, stats.week_start(week))
     week = stats.iso_week(monday)
     mondays = [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)]
     previous = [m - dt.timedelta(weeks=1) for m in mondays]

@@ -18,19 +18,21 @@ import os
 import pathlib
 import sqlite3
 import time
-from typing import Iterable, Iterator
+from typing import Callable, Iterable, Iterator
 
 import pandas as pd
 import sqlite_utils
 
 from tracker import auth
 from tracker.alloys import ALLOYS
-from tracker.errors import LogLocked, NotFound, PourbackError
+from tracker.errors import (DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog,  # noqa: F401
+                            NotFound, PourbackError)
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 6
+SCHEMA_VERSION = 7
 BUSY_TIMEOUT_MS = 30_000
+NOTICE_AFTER_MS = 1_000  # say that a write waits for another writer after this long
 
 # Column order of each import kind's table, as stored.
 TABLE_COLUMNS = {
@@ -228,39 +230,99 @@ def _migration_6(db: sqlite_utils.Database) -> None:
     db.execute("ALTER TABLE zones ADD COLUMN width_mm REAL")
 
 
-MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6]  # index i brings the schema from version i to i + 1
+def _migration_7(db: sqlite_utils.Database) -> None:
+    # A new lot code that differs from a stored one only by case ("l26-0412" beside
+    # "L26-0412") is imported with a warning: found through this index, not a scan.
+    db.execute("CREATE INDEX lots_lot_lower ON lots(lower(lot))")
+
+
+MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6,
+              _migration_7]  # index i brings the schema from version i to i + 1
 
 
 # --- the store --------------------------------------------------------------------
+
+def log_error(exc: sqlite3.Error, path: str) -> PourbackError:
+    """The one-line error a user sees for an SQLite failure on the log at ``path``."""
+    msg = str(exc)
+    low = msg.lower()
+    if "readonly" in low or "read-only" in low:
+        return LogReadOnly(path)
+    if "disk is full" in low or "database or disk is full" in low:
+        return DiskFull(path)
+    if "not a database" in low or "malformed" in low:
+        return NotALog(path, f"SQLite says: {msg}")
+    if "unable to open" in low:
+        parent = pathlib.Path(path).parent
+        if not parent.is_dir():
+            return LogError(path, f"cannot open the log {path}: the folder {parent} does not exist; check "
+                                  "the path given with --db (or $POURBACK_DB)")
+        if pathlib.Path(path).is_dir():
+            return LogError(path, f"cannot open the log {path}: it is a folder; give the log's file with --db")
+        return LogError(path, f"cannot open the log {path} ({msg}); check that the file and its folder can "
+                              "be read and written")
+    return LogError(path, f"the log {path} could not be used ({msg}); nothing was written")
+
 
 class Store:
     """One open connection to the log.
 
     ``Store(path)`` opens (creating and migrating when needed) the database;
-    use it as a context manager so the connection is closed.
+    use it as a context manager so the connection is closed. With
+    ``create=False`` a missing file is an error (only ``pourback init`` and
+    ``demo`` create a log). ``on_wait`` is called with a message when a write
+    has waited a second for another writer and goes on waiting.
     """
 
-    def __init__(self, path: str | os.PathLike | None = None, *, create: bool = True, actor=None):
+    def __init__(self, path: str | os.PathLike | None = None, *, create: bool = True, actor=None,
+                 on_wait: Callable[[str], None] | None = None):
         self.path = resolve_path(path)
         # Who writes through this connection: None for the local desk (the command
         # line, a dashboard on loopback without sign-in), else a signed-in
         # ``tracker.auth.Session`` whose role every write is checked against.
         self.actor = actor
-        if self.path != ":memory:" and not create and not pathlib.Path(self.path).exists():
-            raise NotFound("database", self.path, "run `pourback init` first or pass --db")
-        conn = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
-        self.conn = conn
-        self.db = sqlite_utils.Database(conn)
-        conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
-        conn.execute("PRAGMA foreign_keys = ON")
-        if self.path != ":memory:":
-            self._retry(lambda: conn.execute("PRAGMA journal_mode = WAL"))
-            conn.execute("PRAGMA synchronous = NORMAL")
-        self.migrate()
+        self.on_wait = on_wait
+        self.conn = None
+        memory = self.path == ":memory:"
+        if not memory and not create and not pathlib.Path(self.path).exists():
+            raise LogNotFound(self.path)
+        if not memory and pathlib.Path(self.path).is_dir():
+            raise LogError(self.path, f"cannot open the log {self.path}: it is a folder; give the log's "
+                                      "file with --db")
+        try:
+            if not memory and not create and pathlib.Path(self.path).stat().st_size == 0:
+                raise NotALog(self.path, "the file is empty")
+            conn = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
+            self.conn = conn
+            self.db = sqlite_utils.Database(conn)
+            conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+            conn.execute("PRAGMA foreign_keys = ON")
+            self._check_foreign()
+            if not memory:
+                self._retry(lambda: conn.execute("PRAGMA journal_mode = WAL"))
+                conn.execute("PRAGMA synchronous = NORMAL")
+            self.migrate()
+        except sqlite3.Error as exc:
+            self.close()
+            raise log_error(exc, self.path) from None
+        except BaseException:
+            self.close()
+            raise
+
+    def _check_foreign(self) -> None:
+        """Refuse an SQLite database of another program (its tables, no schema version)."""
+        if self.schema_version() != 0:
+            return
+        tables = [r[0] for r in self.conn.execute(
+            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name LIMIT 4")]
+        if tables:
+            raise NotALog(self.path, "an SQLite database of another program, with the tables "
+                                     + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else ""))
 
     # connection handling
     def close(self) -> None:
-        self.conn.close()
+        if self.conn is not None:
+            self.conn.close()
 
     def __enter__(self) -> "Store":
         return self
@@ -268,8 +330,7 @@ class Store:
     def __exit__(self, *exc) -> None:
         self.close()
 
-    @staticmethod
-    def _retry(fn, attempts: int = 8):
+    def _retry(self, fn, attempts: int = 8):
         delay = 0.05
         for i in range(attempts):
             try:
@@ -278,26 +339,53 @@ class Store:
                 if "locked" not in str(exc) and "busy" not in str(exc):
                     raise
                 if i == attempts - 1:
-                    raise LogLocked("the log is locked by another writer; try again in a moment") from exc
+                    raise LogLocked(self.path, BUSY_TIMEOUT_MS / 1000) from None
                 time.sleep(delay)
                 delay = min(delay * 2, 1.0)
 
+    def _begin(self) -> None:
+        """BEGIN IMMEDIATE: wait a second for another writer, say so, then wait the rest."""
+        first = min(NOTICE_AFTER_MS, BUSY_TIMEOUT_MS)
+        self.conn.execute(f"PRAGMA busy_timeout = {first}")
+        try:
+            try:
+                self.conn.execute("BEGIN IMMEDIATE")
+                return
+            except sqlite3.OperationalError as exc:
+                if "locked" not in str(exc) and "busy" not in str(exc):
+                    raise
+            if self.on_wait is not None:
+                self.on_wait(f"The log {self.path} is locked by another writer; waiting up to "
+                             f"{(BUSY_TIMEOUT_MS - first) / 1000:g} s more ...")
+            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS - first}")
+            self._retry(lambda: self.conn.execute("BEGIN IMMEDIATE"))
+        finally:
+            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+
     @contextlib.contextmanager
     def write(self) -> Iterator["Store"]:
-        """A write transaction: everything inside commits together or not at all."""
+        """A write transaction: everything inside commits together or not at all.
+
+        An SQLite failure (read-only file, full disk, a lock held too long)
+        rolls it back and becomes one :class:`LogError`."""
         if self.conn.in_transaction:
             with self.db.atomic():
                 yield self
             return
-        self._retry(lambda: self.conn.execute("BEGIN IMMEDIATE"))
+        try:
+            self._begin()
+        except sqlite3.Error as exc:
+            raise log_error(exc, self.path) from None
         try:
             yield self
-        except BaseException:
-            if self.conn.in_transaction:
-                self.conn.execute("ROLLBACK")
-            raise
-        else:
             self._retry(lambda: self.conn.execute("COMMIT"))
+        except BaseException as exc:
+            if self.conn.in_transaction:
+                with contextlib.suppress(sqlite3.Error):
+                    self.conn.execute("ROLLBACK")
+            if isinstance(exc, sqlite3.Error):
+                raise log_error(exc, self.path) from None
+            raise
 
     def schema_version(self) -> int:
         return self.conn.execute("PRAGMA user_version").fetchone()[0]
@@ -474,6 +562,19 @@ class Store:
                 d["methods"][method] = d["methods"].get(method, 0) + qty
                 if result == "reject":
                     d["rejected"] += qty
+        return out
+
+    def codes_alike(self, name: str, codes: Iterable[str]) -> dict[str, list[str]]:
+        """Stored codes of ``name`` (patterns, sleeves, lots) equal to one of
+        ``codes`` when ASCII case is ignored, by lower-cased code."""
+        column = {"patterns": "pattern", "sleeves": "sleeve", "lots": "lot"}[name]
+        low = list(dict.fromkeys(c.lower() for c in codes))
+        out: dict[str, list[str]] = {}
+        for i in range(0, len(low), 900):
+            chunk = low[i:i + 900]
+            q = (f"SELECT [{column}] FROM [{name}] WHERE lower([{column}]) IN ({', '.join('?' * len(chunk))})")
+            for (code,) in self.conn.execute(q, chunk):
+                out.setdefault(code.lower(), []).append(code)
         return out
 
     # --- imported files -------------------------------------------------------------
@@ -992,21 +1093,34 @@ class Store:
 
     # --- maintenance --------------------------------------------------------------
     def backup(self, dest: str | os.PathLike) -> None:
-        """Copy the log with SQLite's online backup (safe while others write)."""
+        """Copy the log with SQLite's online backup (safe while others write).
+
+        The copy is written under a temporary name beside ``dest`` and renamed
+        when complete, so a backup stopped part-way (a crash, SIGKILL, a full
+        disk) never leaves a file under the backup's name."""
         auth.require(self, "backup")
         dest = pathlib.Path(dest)
         if dest.exists():
             raise PourbackError(f"backup file {dest} exists already; choose a new name")
+        if not dest.parent.is_dir():
+            raise PourbackError(f"could not write the backup {dest}: the folder {dest.parent} does not exist")
+        part = dest.with_name(f".{dest.name}.{os.getpid()}.partial")
         try:
-            target = sqlite3.connect(str(dest))
+            target = sqlite3.connect(str(part))
             try:
                 self.conn.backup(target, pages=-1)  # one step: a stepwise copy restarts on every write
             finally:
                 target.close()
-        except sqlite3.Error as exc:
-            dest.unlink(missing_ok=True)  # never leave a half-written backup behind
+            with open(part, "rb+") as fh:
+                os.fsync(fh.fileno())
+            os.replace(part, dest)
+        except (sqlite3.Error, OSError) as exc:
+            for p in (part, pathlib.Path(f"{part}-journal")):
+                p.unlink(missing_ok=True)  # never leave a half-written backup behind
+            if isinstance(exc, sqlite3.Error) and "full" in str(exc) or getattr(exc, "errno", None) == 28:
+                raise DiskFull(dest) from None
             raise PourbackError(f"could not write the backup {dest} ({exc}); check that its folder "
-                                "exists and has room") from None
+                                "can be written and has room") from None
 
     def integrity_check(self) -> str:
         return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
@@ -1016,8 +1130,17 @@ def restore(backup_file: str | os.PathLike, dest: str | os.PathLike) -> None:
     """Restore a backup into ``dest`` (which must not exist), checking it first."""
     if pathlib.Path(dest).exists():
         raise PourbackError(f"{dest} exists already; restore into a new file")
+    backup_file = pathlib.Path(backup_file)
+    if backup_file.name.endswith(".partial") and backup_file.name.startswith("."):
+        raise PourbackError(f"backup {backup_file} is a partial backup, left by a backup that was stopped "
+                            "part-way; it is not complete: use another backup (and delete this file)")
+    for side in ("-journal", "-wal"):
+        if pathlib.Path(f"{backup_file}{side}").exists():
+            raise PourbackError(f"backup {backup_file} is incomplete: {backup_file}{side} lies beside it, left "
+                                "by a copy that was stopped part-way; use another backup (a file written by "
+                                "`pourback backup` has no such file beside it)")
     # Read-only: checking a backup must never change it.
-    src = sqlite3.connect(pathlib.Path(backup_file).resolve().as_uri() + "?mode=ro", uri=True)
+    src = sqlite3.connect(backup_file.resolve().as_uri() + "?mode=ro", uri=True)
     try:
         try:
             ok = src.execute("PRAGMA integrity_check").fetchone()[0]

@@ -178,7 +178,7 @@ def _what_if_text(r: dict) -> str:
 @main.command("fit-model")
 @click.option("--alpha", type=float, default=10.0, show_default=True,
               help="Pull toward the rule-based prior, in castings (more: leans on the rules).")
-@click.option("--folds", type=int, default=5, show_default=True, help="Cross-validation folds (grouped by pattern).")
+@click.option("--folds", type=click.IntRange(2, 100), default=5, show_default=True, help="Cross-validation folds (grouped by pattern).")
 @db_option
 @json_option
 @handle_errors
