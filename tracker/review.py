@@ -529,11 +529,21 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: d
     p["pattern"] = remap[p["pattern"]]
     r = {k: v[remap[rejects["pattern"]] >= 0] for k, v in rejects.items()}
     r["pattern"] = remap[r["pattern"]]
-    earliest = min(before_start)
-    if earliest < _iso(fetched_from):
-        upto = _iso(fetched_from - dt.timedelta(days=1))
-        more_p = _pour_arrays(store.pours_by_day(earliest, upto, mine, columns=True), index)
-        more_r = _reject_arrays(store.rejects_by_day(earliest, upto, mine, columns=True), index)
+    # Each pattern is read back from its own earliest comparison start, not all from the
+    # earliest of all: patterns are grouped by that start's year, one fetch per group
+    # (a revision under judgement for years reads years of its pattern's lots).
+    upto = _iso(fetched_from - dt.timedelta(days=1))
+    since: dict[str, str] = {}
+    for code, start in zip(cand["pattern"], before_start):
+        if start <= upto:
+            since[code] = min(since.get(code, start), start)
+    groups: dict[str, list[str]] = {}
+    for code, start in sorted(since.items(), key=lambda kv: kv[1]):
+        groups.setdefault(start[:4], []).append(code)
+    for codes_in in groups.values():
+        start = since[codes_in[0]]
+        more_p = _pour_arrays(store.pours_by_day(start, upto, codes_in, columns=True), index)
+        more_r = _reject_arrays(store.rejects_by_day(start, upto, codes_in, columns=True), index)
         p = {k: np.concatenate([more_p[k], p[k]]) for k in p}
         r = {k: np.concatenate([more_r[k], r[k]]) for k in r}
     r = {k: v[r["reject"]] for k, v in r.items()}
