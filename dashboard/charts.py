@@ -101,30 +101,48 @@ def p_chart(df: pd.DataFrame) -> alt.LayerChart | alt.Chart:
     return alt.layer(band, centre, line, pts).properties(height=HEIGHT)
 
 
+PICK = "pick"  # the design map's point selection: the pattern clicked
+
+
 def design_map(points: pd.DataFrame, curve: pd.DataFrame | None) -> alt.LayerChart:
     """Each riser zone at (volume ratio, freezing ratio), sized by castings poured and
-    shaded by its shrinkage reject rate; the alloy's Caine curve where it has one."""
+    shaded by its shrinkage reject rate (the scale runs from 0 to the highest rate
+    shown); the alloy's Caine curve where it has one. Designs a later revision
+    superseded are faded; zones of patterns the review flags get a thick dark ring.
+    Clicking a point selects its pattern (selection ``PICK``)."""
     x = alt.X("volume_ratio:Q", title="volume ratio Y = riser volume / zone volume (no unit)",
               scale=alt.Scale(zero=False, nice=True))
     y = alt.Y("freezing_ratio:Q", title="freezing ratio X = riser modulus / zone modulus (no unit)",
               scale=alt.Scale(zero=False, nice=True))
     tips = [alt.Tooltip("pattern:N", title="pattern"), alt.Tooltip("zone:N", title="zone"),
             alt.Tooltip("riser:N", title="riser"), alt.Tooltip("revision:N", title="revision"),
-            alt.Tooltip("castings:Q", title="castings poured"),
-            alt.Tooltip("shrinkage_rejects:Q", title="shrinkage rejects (castings)"),
+            alt.Tooltip("design:N", title="design"),
+            alt.Tooltip("castings:Q", title="castings poured", format=","),
+            alt.Tooltip("shrinkage_rejects:Q", title="shrinkage rejects (castings)", format=","),
             alt.Tooltip("shrinkage_rate_pct:Q", title="shrinkage reject rate (%)", format=".2f"),
             alt.Tooltip("wilson_low_pct:Q", title="rate, low bound (%)", format=".2f"),
             alt.Tooltip("wilson_high_pct:Q", title="rate, high bound (%)", format=".2f"),
             alt.Tooltip("volume_ratio:Q", title="volume ratio", format=".2f"),
             alt.Tooltip("freezing_ratio:Q", title="freezing ratio", format=".2f"),
             alt.Tooltip("rules_text:N", title="rules")]
-    dots = alt.Chart(points).mark_circle(stroke=INK, strokeWidth=0.6, opacity=0.85).encode(
+    top = float(points["shrinkage_rate_pct"].max()) if len(points) else 0.0
+    top = top if top == top and top > 0 else 1.0
+    designs = ["in use", "in use, pattern flagged", "superseded by a later revision"]
+    pick = alt.selection_point(name=PICK, fields=["pattern"], on="click", clear="dblclick")
+    dots = alt.Chart(points).mark_circle().encode(
         x=x, y=y,
         size=alt.Size("castings:Q", title="castings poured", scale=alt.Scale(range=[30, 900])),
         color=alt.Color("shrinkage_rate_pct:Q", title="shrinkage rejects (% of castings poured)",
-                        scale=alt.Scale(scheme="goldred", domainMin=0),
-                        legend=alt.Legend(orient="top", gradientLength=220, titleLimit=400)),
-        tooltip=tips)
+                        scale=alt.Scale(scheme="goldred", domain=[0, top], clamp=True),
+                        legend=alt.Legend(orient="top", gradientLength=220, titleLimit=400, format=".1f",
+                                          values=[0, round(top / 2, 1), round(top, 1)])),
+        opacity=alt.Opacity("design:N", scale=alt.Scale(domain=designs, range=[0.9, 0.95, 0.22]), legend=None),
+        stroke=alt.Stroke("design:N", title="design", scale=alt.Scale(domain=designs, range=["#ffffff", INK, CONTEXT]),
+                          legend=alt.Legend(orient="right", labelLimit=160, symbolType="circle", symbolSize=160,
+                                            symbolFillColor="#f2c66d", symbolStrokeWidth=2.5)),
+        strokeWidth=alt.StrokeWidth("design:N", scale=alt.Scale(domain=designs, range=[0.8, 3, 0.6]),
+                                    legend=None),
+        tooltip=tips).add_params(pick)
     layers = []
     if curve is not None and not curve.empty:
         c = curve.assign(series="Caine curve (sound above it)")
@@ -190,3 +208,61 @@ def margins(df: pd.DataFrame) -> alt.Chart:
         tooltip=[alt.Tooltip("rule:N"), alt.Tooltip("design:N"),
                  alt.Tooltip("margin:Q", format=".2f")],
     ).properties(height=180)
+
+
+# --- thermal check ------------------------------------------------------------------
+
+def _thermal_frame(cells: pd.DataFrame, x_title: str, width: int = 520):
+    """Axes in mm at one scale for x and z, so the bodies keep their shape."""
+    x0, x1 = float(cells["x0"].min()), float(cells["x1"].max())
+    z0, z1 = float(cells["z0"].min()), float(cells["z1"].max())
+    pad = 0.04 * max(x1 - x0, z1 - z0)
+    x0, x1, z0, z1 = x0 - pad, x1 + pad, z0 - pad, z1 + pad
+    height = int(min(max(width * (z1 - z0) / (x1 - x0), 120), 600))
+    width = int(height * (x1 - x0) / (z1 - z0)) if height in (120, 600) else width
+    x = alt.Scale(domain=[x0, x1], nice=False, zero=False)
+    z = alt.Scale(domain=[z0, z1], nice=False, zero=False)
+    return x, z, width, height
+
+
+def _outline_layer(outline: pd.DataFrame, xs, zs):
+    return alt.Chart(outline).mark_rule(color="#000000", strokeWidth=1.2).encode(
+        x=alt.X("x:Q", scale=xs), y=alt.Y("z:Q", scale=zs), x2="x2:Q", y2="z2:Q")
+
+
+def thermal_freezing_map(cells: pd.DataFrame, outline: pd.DataFrame, last_point, x_title: str) -> alt.LayerChart:
+    """Freezing time of every metal cell (min), the bodies' outlines, the last point to freeze."""
+    xs, zs, w, h = _thermal_frame(cells, x_title)
+    heat = alt.Chart(cells).mark_rect().encode(
+        x=alt.X("x0:Q", scale=xs, title=x_title), x2="x1:Q",
+        y=alt.Y("z0:Q", scale=zs, title="z (mm), height"), y2="z1:Q",
+        color=alt.Color("freeze_min:Q", title="freezing time (min)", scale=alt.Scale(scheme="inferno")),
+        tooltip=[alt.Tooltip("body:N"), alt.Tooltip("freeze_min:Q", title="freezing time (min)", format=".1f")])
+    last = pd.DataFrame({"x": [last_point[0]], "z": [last_point[1]], "label": ["last to freeze"]})
+    mark = alt.Chart(last).mark_point(shape="cross", size=260, color="#1fa3ff", strokeWidth=3, filled=True).encode(
+        x=alt.X("x:Q", scale=xs), y=alt.Y("z:Q", scale=zs), tooltip=["label:N"])
+    text = alt.Chart(last).mark_text(align="left", dx=10, dy=-10, color="#1fa3ff", fontWeight="bold").encode(
+        x=alt.X("x:Q", scale=xs), y=alt.Y("z:Q", scale=zs), text="label:N")
+    return alt.layer(heat, _outline_layer(outline, xs, zs), mark, text).properties(width=w, height=h)
+
+
+def thermal_niyama_map(cells: pd.DataFrame, outline: pd.DataFrame, threshold, unit: str,
+                       x_title: str) -> alt.LayerChart:
+    """Niyama value of the section's cells; cells below the threshold in the attention colour."""
+    sec = cells[cells["body"] == "section"].dropna(subset=["niyama"])
+    xs, zs, w, h = _thermal_frame(cells, x_title)
+    base = alt.Chart(sec).mark_rect().encode(
+        x=alt.X("x0:Q", scale=xs, title=x_title), x2="x1:Q",
+        y=alt.Y("z0:Q", scale=zs, title="z (mm), height"), y2="z1:Q",
+        color=alt.Color("niyama:Q", title=f"Niyama {unit}",
+                        scale=alt.Scale(scheme="blues", domain=[0, 4.0 * (threshold or 1.0)], clamp=True)),
+        tooltip=[alt.Tooltip("niyama:Q", title=f"Niyama {unit}", format=".2f")])
+    layers = [base]
+    if threshold is not None:
+        low = sec[sec["niyama"] < threshold]
+        if not low.empty:
+            layers.append(alt.Chart(low).mark_rect(color=ATTENTION).encode(
+                x=alt.X("x0:Q", scale=xs), x2="x1:Q", y=alt.Y("z0:Q", scale=zs), y2="z1:Q",
+                tooltip=[alt.Tooltip("niyama:Q", title=f"Niyama below {threshold:g}", format=".2f")]))
+    layers.append(_outline_layer(outline, xs, zs))
+    return alt.layer(*layers).properties(width=w, height=h)

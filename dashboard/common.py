@@ -33,8 +33,10 @@ def _registry() -> dict:
         "lot_options": views.lot_options,
         "zone_options": views.zone_options,
         "latest_records": views.latest_records,
+        "lot_accounting": views.lot_accounting,
         "week_options": views.week_options,
         "default_week": review.default_week,
+        "current_revisions": views.current_revisions,
         "pattern_weekly": views.pattern_weekly,
         "pattern_summary": views.pattern_summary,
         "risers_by_revision": views.risers_by_revision,
@@ -48,7 +50,15 @@ def _registry() -> dict:
         "design_map": features.design_map,
         "suggest": advise.suggest,
         "what_if": advise.what_if,
+        **_thermal_registry(),
     }
+
+
+def _thermal_registry() -> dict:
+    from tracker.thermal import views as thermal_views
+
+    return {"pattern_thermal": thermal_views.pattern_thermal,
+            "what_if_thermal": thermal_views.what_if_view}
 
 
 def db_path() -> str:
@@ -150,6 +160,33 @@ def guard():
 
 
 # --- page furniture -----------------------------------------------------------------------
+
+def default_review() -> dict:
+    """The review the pages open on (default week, weeks and target), cached."""
+    week = load("default_week", today=dt.date.today().isoformat())
+    return load("weekly_review", week=week, weeks=limits.WEEKS_DEFAULT, target=limits.TARGET_DEFAULT)
+
+
+def flagged_patterns() -> list[str]:
+    """The patterns the default review flags, worst first ([] for a log without pours)."""
+    state = load("start_state")
+    return list(default_review()["problems"]) if state["ready"] else []
+
+
+_GOTO = "pourback_open_pattern"
+
+
+def open_pattern_later(code: str) -> None:
+    """From a widget callback: open ``code``'s pattern file on the rerun that follows."""
+    st.session_state[_GOTO] = code
+
+
+def follow_pattern_link() -> None:
+    """Switch to the pattern file asked for by :func:`open_pattern_later`, if any."""
+    code = st.session_state.pop(_GOTO, None)
+    if code:
+        st.switch_page("pattern_file.py", query_params={"pattern": code})
+
 
 def review_controls() -> tuple[str, int, float]:
     """Review week, weeks in the window and target reject rate (%), the same on every page:

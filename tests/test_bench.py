@@ -7,8 +7,9 @@ import pytest
 
 from tracker import bench
 
-MEASURES = ["import", "review_week", "review_13w", "review_52w", "sizing", "suggestions",
-            "dashboard_review", "dashboard_design_map"]
+MEASURES = ["import", "review_week", "review_13w", "review_52w", "sizing", "fit_model", "suggestions",
+            "thermal_solve", "thermal_suggestions", "dashboard_review", "dashboard_design_map",
+            "dashboard_suggestions"]
 KEYS = {"name", "ours_s", "baseline_s", "ratio", "target", "met", "peak_rss_mb"}
 
 

@@ -298,8 +298,66 @@ def test_cli_from_the_log(runner, demo_db):
     assert result.exit_code != 0 and "unknown zone 'nope'" in result.output
 
 
-def test_case_validation_names_the_field():
-    with pytest.raises(BadInput, match="neck-diameter-mm"):
-        build(ThermalCase("steel", "side", 50, 300, 300, 100, 100, neck_diameter_mm=150))
+def test_case_validation_names_the_field(runner):
+    result = runner.invoke(main, _ARGS + ["--neck-diameter-mm", "200"])
+    assert result.exit_code != 0 and "neck-diameter-mm: got 200.0; a neck wider than the riser" in result.output
+    # a stored riser whose neck is wider than a smaller what-if diameter: narrowed, and said so
+    b = build(ThermalCase("steel", "side", 50, 300, 300, 100, 100, neck_diameter_mm=150))
+    assert any("wider than the riser" in n for n in b.notes)
     with pytest.raises(BadInput, match="sleeve-factor"):
         build(ThermalCase("steel", "side", 50, 300, 300, 100, 100, sleeve_factor=3.0))
+
+
+def test_check_thermal_adds_thermal_ok_and_last_to_freeze(runner, demo_db):
+    result = runner.invoke(main, ["check", "--db", str(demo_db), "--pattern", "P-1004", "--thermal", "--json"])
+    assert result.exit_code == 0, result.output
+    rows = json.loads(result.output)
+    assert rows and all(isinstance(r["thermal_ok"], bool) and r["last_to_freeze"] in ("riser", "section")
+                        for r in rows)
+    plain = runner.invoke(main, ["check", "--db", str(demo_db), "--pattern", "P-1004"])
+    assert "last to freeze" not in plain.output
+    table = runner.invoke(main, ["check", "--db", str(demo_db), "--pattern", "P-1004", "--thermal"])
+    assert "last to freeze" in table.output
+
+
+def test_what_if_thermal_adds_the_changed_risers_check(runner, demo_db):
+    args = ["what-if", "--db", str(demo_db), "--pattern", "P-1004", "--riser", "R2"]
+    small = json.loads(runner.invoke(main, args + ["--diameter-mm", "80", "--thermal", "--json"]).output)
+    big = json.loads(runner.invoke(main, args + ["--diameter-mm", "160", "--thermal", "--json"]).output)
+    # Chvorinov's rule (1940): a much smaller riser freezes before its section, a much larger one after it
+    assert small["last_to_freeze"] == "section" and small["thermal_ok"] is False
+    assert big["last_to_freeze"] == "riser" and big["thermal_ok"] is True
+    plain = json.loads(runner.invoke(main, args + ["--diameter-mm", "160", "--json"]).output)
+    assert "thermal_ok" not in plain
+
+
+def _choose_cheapest_passing(priced):
+    """A stand-in for tracker.advise's choice: per zone, the cheapest candidate passing the rules."""
+    p = priced.assign(tier=np.where(priced["full_ok"], 0, 2)).rename_axis("_cand").reset_index()
+    p = p.sort_values(["_z", "tier", "extra_cost_per_year"], kind="stable")
+    return p.groupby("_z").head(1).set_index("_z")
+
+
+def test_suggest_filter_takes_the_next_candidate_that_passes(demo_store):
+    import pandas as pd
+
+    from tracker.thermal.checks import narrow, suggest_filter
+
+    base = demo_store.risers_frame(pattern="P-1004")
+    base = base[base["riser"] == "R2"].iloc[0].to_dict()
+    # zone 0: an 80 mm riser (cheapest) then 160 mm; zone 1: 160 mm only
+    cands = pd.DataFrame([{**base, "diameter_mm": 80.0, "height_mm": 80.0, "_z": 0, "action": "enlarge"},
+                          {**base, "diameter_mm": 160.0, "height_mm": 160.0, "_z": 0, "action": "enlarge"},
+                          {**base, "diameter_mm": 160.0, "height_mm": 160.0, "_z": 1, "action": "enlarge"}])
+    cands = cands.rename_axis("_cand").reset_index()
+    priced = pd.DataFrame({"_z": [0, 0, 1], "full_ok": [True, True, True],
+                           "extra_cost_per_year": [1.0, 2.0, 2.0]}).rename_axis("_cand")
+    out, notes = narrow(demo_store, priced, cands, _choose_cheapest_passing)
+    chosen = _choose_cheapest_passing(out)
+    # Chvorinov's rule (1940): the 80 mm riser freezes before its section, the 160 mm one after it
+    assert chosen.loc[0, "_cand"] == 1 and out.at[0, "thermal_ok"] is False and out.at[1, "thermal_ok"] is True
+    assert "the first choice (enlarge, 80 mm) fails" in notes[0] and "next candidate that passes" in notes[0]
+    assert "passes" in notes[1]
+    # switched off: nothing solved, nothing changed
+    same, none = suggest_filter(demo_store, priced, cands, 2, False, _choose_cheapest_passing)
+    assert none == {} and "thermal_ok" not in same

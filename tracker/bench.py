@@ -22,9 +22,16 @@ a floor or a plain alternative:
   trend) against their own floors, measured the same way;
 - ``sizing``: ``size_risers`` against ``size_riser`` (scipy's brentq) in a
   Python loop, with the largest difference in diameter;
-- ``suggestions``: ``suggest`` for every problem pattern, model fit included;
-- ``dashboard_*``: first render and a rerun of the weekly review and design
-  map pages with Streamlit's AppTest, where those pages exist.
+- ``fit_model``: ``fit_model`` on the whole history, on its own (it stores
+  the model, as ``pourback fit-model`` does);
+- ``suggestions``: ``suggest`` for every problem pattern with the stored
+  model (fitted beforehand, as the dashboard uses it);
+- ``thermal_solve``: one thermal solve at the default resolution (target 5 s,
+  500 MB); ``thermal_suggestions``: the thermal check of every suggestion's
+  proposed riser;
+- ``dashboard_*``: first render and a rerun of the weekly review, design
+  map and suggestions pages with Streamlit's AppTest, where those pages
+  exist (the suggestions page with the stored model).
 
 Each measure runs in a fresh child process (forked from a parent that holds
 no data); its peak memory is that process's ``getrusage(RUSAGE_SELF).ru_maxrss``
@@ -72,11 +79,15 @@ TARGETS = {  # name -> (kind, limit); "ratio_max": ours/baseline <= limit, "spee
     "review_week": ("ratio_max", 2.5),
     "review_52w": ("ratio_max", 2.5),
     "sizing": ("speedup_min", 50.0),
-    "suggestions": ("seconds_max", 30.0),
+    "fit_model": ("seconds_max", 30.0),
+    "suggestions": ("seconds_max", 5.0),
+    "thermal_solve": ("seconds_max", 5.0),
     "dashboard_review": ("seconds_max", 3.0),
     "dashboard_design_map": ("seconds_max", 3.0),
+    "dashboard_suggestions": ("seconds_max", 3.0),
 }
 IMPORT_MEMORY_MB = 1024.0
+THERMAL_MEMORY_MB = 500.0
 SIZING_TOLERANCE_MM = 0.01
 
 # --- the invented foundry ---------------------------------------------------------------
@@ -617,15 +628,51 @@ def _c_sizing(n: int, seed: int, repeats: int) -> dict:
             "max_abs_diff_mm": float(np.max(np.abs(d_ours - d_base))), "peak_rss_mb": _peak_mb()}
 
 
-def _c_suggest(db: str, week: str) -> dict:
-    from tracker.advise import suggest
+def _c_fit(db: str) -> dict:
+    from tracker.advise import fit_model
     from tracker.store import Store
 
     with Store(db, create=False) as store:
-        secs, out = _timed(suggest, store, week=week, refit=True)
-    return {"ours_s": secs, "suggestions": len(out), "problem_patterns": len({s["pattern"] for s in out}),
+        secs, model = _timed(fit_model, store)
+    return {"ours_s": secs, "rows": int(model.n_rows_), "castings": int(model.n_castings_),
+            "peak_rss_mb": _peak_mb()}
+
+
+def _c_suggest(db: str, week: str) -> dict:
+    from tracker.advise import get_model, suggest
+    from tracker.store import Store
+
+    with Store(db, create=False) as store:
+        load_s, model = _timed(get_model, store)  # the stored model (fitted by _c_fit)
+        secs, out = _timed(suggest, store, week=week, model=model, thermal=False)
+    return {"ours_s": secs + load_s, "model_load_s": load_s, "suggestions": len(out),
+            "problem_patterns": len({s["pattern"] for s in out}),
             "riser_changes": sum(1 for s in out if s.get("action") != "no_riser_change"),
             "peak_rss_mb": _peak_mb()}
+
+
+def _c_thermal_solve() -> dict:
+    from tracker.thermal import ThermalCase, run
+
+    # the README's worked example: a 155 mm top riser on a 300 x 300 x 50 mm steel plate
+    case = ThermalCase("steel", "top", 50.0, 300.0, 300.0, 155.0, 155.0)
+    secs, r = _timed(run, case, keep_maps=False)
+    return {"ours_s": secs, "cells": r.cells, "grid": list(r.grid), "time_step_s": r.time_step_s,
+            "steps": r.steps, "thermal_ok": r.thermal_ok, "peak_rss_mb": _peak_mb()}
+
+
+def _c_thermal_suggestions(db: str, week: str) -> dict:
+    from tracker.advise import suggest
+    from tracker.store import Store
+    from tracker.thermal.checks import check_suggestions
+
+    with Store(db, create=False) as store:
+        found = suggest(store, week=week)
+        secs, checks = _timed(check_suggestions, store, found)
+    done = [c for c in checks if c is not None]
+    return {"ours_s": secs, "suggestions": len(found), "solves": len(done),
+            "thermal_ok": sum(c["thermal_ok"] for c in done),
+            "per_solve_s": secs / len(done) if done else None, "peak_rss_mb": _peak_mb()}
 
 
 def _dashboard_pages() -> dict:
@@ -639,15 +686,26 @@ def _dashboard_pages() -> dict:
             found["dashboard_review"] = p
         elif "design" in stem and "map" in stem and "dashboard_design_map" not in found:
             found["dashboard_design_map"] = p
+        elif "suggest" in stem and "dashboard_suggestions" not in found:
+            found["dashboard_suggestions"] = p
     return found
 
 
-def _c_dashboard(db: str, page: str) -> dict:
+def _c_dashboard(db: str, page: str, warm: bool = False) -> dict:
+    """First render and rerun of one page. ``warm``: import the libraries a
+    page needs before the clock starts, as a running dashboard has (the
+    render then counts the page's own work)."""
     os.environ["POURBACK_DB"] = db
     from streamlit import logger as st_logger
     from streamlit.testing.v1 import AppTest
 
     st_logger.set_log_level("error")  # no "bare mode" warnings in the middle of the report
+    if warm:
+        import altair  # noqa: F401
+
+        import tracker.advise  # noqa: F401
+        import tracker.review  # noqa: F401
+        import tracker.views  # noqa: F401
 
     at = AppTest.from_file(page, default_timeout=900)
     first, _ = _timed(at.run)
@@ -745,22 +803,39 @@ def run(lots: int = DEFAULT_LOTS, *, keep: str | os.PathLike | None = None, seed
         m["met"] = bool(m["met"] and m["max_abs_diff_mm"] <= SIZING_TOLERANCE_MM)
         measures.append(m)
 
+        ft = _in_child(_c_fit, str(ours_db))
+        measures.append(_measure("fit_model", ft.pop("ours_s"), None, ft.pop("peak_rss_mb"),
+                                 note="fit_model on the whole history, stored in the log", **ft))
         sg = _in_child(_c_suggest, str(ours_db), gen["review_week"])
         measures.append(_measure("suggestions", sg.pop("ours_s"), None, sg.pop("peak_rss_mb"),
-                                 note="suggest(refit=True) for every problem pattern of the review "
-                                      "week's 13-week window, the model fit included", **sg))
+                                 note="suggest for every problem pattern of the review week's 13-week "
+                                      "window with the stored model (loading it included)", **sg))
+
+        th = _in_child(_c_thermal_solve)
+        m = _measure("thermal_solve", th.pop("ours_s"), None, th.pop("peak_rss_mb"),
+                     memory_target=f"peak RSS < {THERMAL_MEMORY_MB:g} MB",
+                     note="one thermal solve at the default resolution (README's worked example)", **th)
+        m["met"] = bool(m["met"] and m["peak_rss_mb"] < THERMAL_MEMORY_MB)
+        measures.append(m)
+        ts = _in_child(_c_thermal_suggestions, str(ours_db), gen["review_week"])
+        measures.append(_measure("thermal_suggestions", ts.pop("ours_s"), None, ts.pop("peak_rss_mb"),
+                                 note="the thermal check of every suggestion's proposed riser "
+                                      "(suggest itself not timed)", **ts))
 
         pages = _dashboard_pages() if dashboard else {}
-        for name in ("dashboard_review", "dashboard_design_map"):
+        for name in ("dashboard_review", "dashboard_design_map", "dashboard_suggestions"):
             if name not in pages:
                 measures.append(_measure(name, not_measured="no dashboard pages" if dashboard
                                          else "dashboard measures switched off"))
                 continue
-            d = _in_child(_c_dashboard, str(ours_db), str(pages[name]))
-            m = _measure(name, d["rerun_s"], None, d["peak_rss_mb"], first_s=d["first_s"],
-                         rerun_s=d["rerun_s"], page=str(pages[name].relative_to(pages[name].parents[1])),
-                         errors=d["errors"],
-                         note="ours_s is the rerun (pages cache their loads on the database file); "
+            first = name == "dashboard_suggestions"  # its target is the first render, stored model
+            d = _in_child(_c_dashboard, str(ours_db), str(pages[name]), first)
+            m = _measure(name, d["first_s"] if first else d["rerun_s"], None, d["peak_rss_mb"],
+                         first_s=d["first_s"], rerun_s=d["rerun_s"],
+                         page=str(pages[name].relative_to(pages[name].parents[1])), errors=d["errors"],
+                         note="ours_s is the first render with the stored model, libraries imported "
+                              "beforehand as in a running dashboard" if first else
+                              "ours_s is the rerun (pages cache their loads on the database file); "
                               "first_s is the first render")
             if d["errors"]:
                 m["met"] = False
@@ -831,9 +906,19 @@ def format_report(report: dict) -> str:
         if x["name"] == "sizing" and x.get("ours_s"):
             lines.append(f"sizing: {x['risers']:,} risers; max |diameter difference| "
                          f"{x['max_abs_diff_mm']:.2e} mm (tolerance {x['tolerance_mm']} mm)")
+        if x["name"] == "fit_model" and x.get("ours_s") is not None:
+            lines.append(f"fit_model: {x['rows']:,} rows ({x['castings']:,} castings), stored in the log")
         if x["name"] == "suggestions" and x.get("ours_s") is not None:
             lines.append(f"suggestions: {x['suggestions']} for {x['problem_patterns']} problem patterns "
-                         f"({x['riser_changes']} riser changes), model fit included")
+                         f"({x['riser_changes']} riser changes), the stored model (loaded in "
+                         f"{_fmt_s(x['model_load_s'])})")
+        if x["name"] == "thermal_solve" and x.get("cells") is not None:
+            lines.append(f"thermal_solve: grid {x['grid'][0]} x {x['grid'][1]} = {x['cells']:,} cells, "
+                         f"time step {x['time_step_s']:.2f} s, {x['steps']} steps; {x['memory_target']}")
+        if x["name"] == "thermal_suggestions" and x.get("suggestions") is not None:
+            per = "-" if x["per_solve_s"] is None else _fmt_s(x["per_solve_s"])
+            lines.append(f"thermal_suggestions: {x['solves']} proposed risers of {x['suggestions']} "
+                         f"suggestions solved ({per} each), {x['thermal_ok']} pass the thermal check")
         if x["name"].startswith("dashboard") and x.get("first_s") is not None:
             lines.append(f"{x['name']}: {x['page']}: first render {_fmt_s(x['first_s'])}, rerun "
                          f"{_fmt_s(x['rerun_s'])}" + (f"; errors: {x['errors']}" if x["errors"] else ""))

@@ -855,6 +855,12 @@ class Store:
             raise NotFound("zone", zone, f"pattern {pattern} has the zones {', '.join(names) or '(none)'}")
         return dict(zip([d[0] for d in cur.description], row))
 
+    def mean_pour_temp(self, pattern: str) -> float | None:
+        """Mean pour temperature of the pattern's lots that give one, °C (None if none do)."""
+        r = self.conn.execute("SELECT AVG(pour_temp_c) FROM lots WHERE pattern = ? AND pour_temp_c IS NOT NULL",
+                              (pattern,)).fetchone()
+        return None if r is None or r[0] is None else float(r[0])
+
     def zones_frame(self, pattern: str) -> pd.DataFrame:
         """The zones of one pattern, as stored, by zone code."""
         return self._frame("SELECT zone, volume_cm3, cooling_area_cm2, thickness_mm, width_mm, length_mm, "

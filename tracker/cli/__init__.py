@@ -69,7 +69,7 @@ def table(rows: list[dict], columns: list[tuple[str, str]] | None = None) -> str
 
 def _numeric(s: str) -> bool:
     try:
-        float(s.rstrip("%"))
+        float(s.replace(",", "").rstrip("%").strip())
         return True
     except ValueError:
         return False

@@ -159,10 +159,12 @@ def _format_size(d: dict) -> str:
 @click.option("--on", "on_date", default=None, help="Judge the revision in effect on this date (YYYY-MM-DD).")
 @click.option("--modulus-factor", type=float, default=1.2, show_default=True,
               help="Modulus rule factor: M_riser >= factor x M_section.")
+@click.option("--thermal", is_flag=True,
+              help="Add the thermal check per riser (a solidification solve each): thermal_ok, last_to_freeze.")
 @db_option
 @json_option
 @handle_errors
-def check(pattern, on_date, modulus_factor, db_path, as_json):
+def check(pattern, on_date, modulus_factor, thermal, db_path, as_json):
     """Judge every riser of the current revision by the rules.
 
     For each riser: modulus ratio against the factor, Caine margin, feed
@@ -176,6 +178,10 @@ def check(pattern, on_date, modulus_factor, db_path, as_json):
 
     with open_store(db_path) as store:
         frame = run_check(store, pattern=pattern, on=on_date, modulus_factor=modulus_factor)
+        if thermal:
+            from tracker.thermal.checks import thermal_columns
+
+            frame = thermal_columns(store, frame)
     rows = frame.astype(object).where(frame.notna(), None).to_dict("records")
     for r in rows:
         for k in ("caine_ok", "neck_ok", "feeding_distance_ok"):
@@ -188,7 +194,8 @@ def check(pattern, on_date, modulus_factor, db_path, as_json):
         ("pattern", "pattern"), ("revision", "rev"), ("riser", "riser"), ("zone", "zone"),
         ("diameter_mm", "D (mm)"), ("sleeve", "sleeve"), ("modulus_ratio", "M ratio"),
         ("caine_margin", "Caine margin"), ("feed_margin", "feed margin"), ("rule_set", "rule set"),
-        ("passes", "passes"), ("failed_rules_text", "fails")]))
+        ("passes", "passes"), ("failed_rules_text", "fails")]
+        + ([("thermal_ok", "thermal ok"), ("last_to_freeze", "last to freeze")] if thermal else [])))
     click.echo(f"\n{sum(r['passes'] for r in rows)} of {len(rows)} risers pass every rule "
                f"(modulus factor {modulus_factor:g}).")
     click.echo("\n" + caution_text())

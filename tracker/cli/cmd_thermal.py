@@ -80,6 +80,10 @@ def thermal(pattern, zone, riser, alloy, length_mm, width_mm, thickness_mm, diam
                            "--thickness-mm, --diameter-mm, --height-mm and --placement")
         if sleeve and sleeve_factor is not None:
             raise BadInput("sleeve-factor", sleeve_factor, "give --sleeve or --sleeve-factor, not both")
+        if neck_diameter_mm is not None and neck_diameter_mm > diameter_mm:
+            raise BadInput("neck-diameter-mm", neck_diameter_mm,
+                           f"a neck wider than the riser ({diameter_mm:g} mm) is not a neck; "
+                           "give at most the riser diameter")
         factor = 1.0 if sleeve_factor is None else sleeve_factor
         if sleeve:
             with open_store(db_path) as store:

@@ -4,11 +4,12 @@ A zone in the log has a volume, a cooling area and, where given, a
 thickness and a length (the feeding length, from the riser to the farthest
 point it feeds). A side riser's section is that long; a top riser stands at
 the middle of a section twice that long. The width is volume / (length ×
-thickness) where the length is known; the thickness,
+thickness) where the log gives none and the length is known; the thickness,
 where missing, is that of a plate of the zone's modulus (2·V/A). A zone fed
 by several risers gives each an equal share of its volume, as the rule
-check does. The pouring temperature is that of the pattern's latest lot
-that records one, else the alloy's default.
+check does. The pattern's mould (green sand or rigid) is silica sand or
+chemically bonded sand. The pouring temperature is that of the pattern's
+latest lot that records one, else the alloy's default.
 """
 
 from __future__ import annotations
@@ -20,6 +21,10 @@ import pandas as pd
 
 from tracker.errors import BadInput, NotFound
 from tracker.thermal.model import ThermalCase
+
+# The log's mould (rigidity, ``tracker.rules.MOULDS``) as a thermal mould: a rigid
+# mould is taken as chemically bonded sand, green sand as silica sand (common practice).
+MOULD_OF_RIGIDITY = {"green_sand": "silica_sand", "rigid": "chemically_bonded"}
 
 
 def _num(v):
@@ -39,7 +44,8 @@ def case_from_row(row: dict, pour_temp_c: float | None = None, mould: str = "sil
     length = _num(row.get("length_mm"))
     if length and str(row["placement"]) == "top":
         length *= 2.0      # the log's length runs from the riser to the far end; the riser sits mid-section
-    width = vol * 1000.0 / (length * thick) if length else None
+    width = _num(row.get("width_mm")) or (vol * 1000.0 / (length * thick) if length else None)
+    mould = MOULD_OF_RIGIDITY.get(str(row.get("mould") or "").strip().lower(), mould)
     return ThermalCase(
         alloy=str(row["alloy"]), placement=str(row["placement"]), thickness_mm=thick,
         length_mm=length, width_mm=width, diameter_mm=_num(row["diameter_mm"]),

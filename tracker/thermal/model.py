@@ -101,9 +101,6 @@ def validate(case: ThermalCase) -> ThermalCase:
     if case.pour_temp_c is not None and not (a.liquidus_c < case.pour_temp_c < a.liquidus_c + 500):
         raise BadInput("pour-temp-c", case.pour_temp_c,
                        f"must lie above the {case.alloy} liquidus {a.liquidus_c:g} °C and within 500 K of it")
-    if case.neck_diameter_mm is not None and case.neck_diameter_mm > case.diameter_mm:
-        raise BadInput("neck-diameter-mm", case.neck_diameter_mm,
-                       f"a neck wider than the riser ({case.diameter_mm:g} mm) is not a neck; give at most the riser diameter")
     return case
 
 
@@ -287,6 +284,9 @@ def build(case: ThermalCase, cells_across: int = DEFAULT_CELLS_ACROSS,
 
     h = t_sec / cells_across
     neck_d = case.neck_diameter_mm
+    if neck_d is not None and neck_d > d:
+        notes.append(f"the neck ({neck_d:g} mm) is wider than the riser: taken as wide as the riser ({d:g} mm)")
+        neck_d = d
     rects = []
     if kind == "axisymmetric":
         r_sec = extent

@@ -20,6 +20,7 @@ balance is exact up to the Newton tolerance). Units: SI inside (m, s, K).
 
 from __future__ import annotations
 
+import functools
 import time
 from dataclasses import dataclass, field
 
@@ -84,13 +85,13 @@ class PhaseCurve:
         fl = np.concatenate([[0.0], fl, [1.0]])
         return cls(t, c * t + lv * fl, float(t[1:-1].max()), float(t[1:-1].min()), c, lv)
 
+    @functools.cached_property
+    def slopes(self) -> np.ndarray:
+        """dT/dH of each segment of the table."""
+        return np.diff(self.t) / np.diff(self.h)
+
     def temperature(self, h):
         return np.interp(h, self.h, self.t)
-
-    def slope(self, h):
-        """dT/dH on the segment holding h."""
-        seg = np.clip(np.searchsorted(self.h, h) - 1, 0, len(self.h) - 2)
-        return (np.diff(self.t) / np.diff(self.h))[seg]
 
     def enthalpy(self, t):
         """H at temperature t (liquid side where the curve is isothermal)."""
@@ -187,9 +188,9 @@ def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
     gx, gz = conductances(grid, k)
     sweeps = [_Sweep(gx, vol, False), _Sweep(gz.T, vol.T, True)]
     for s in sweeps:
-        s.metal = s.flat(metal)
         s.fixed = s.flat(fixed)
-        s.heat = s.flat(heat)
+        s.metal_idx = np.flatnonzero(s.flat(metal))
+        s.inv_heat = 1.0 / s.flat(heat)
 
     h = np.where(metal, curve.enthalpy(t_init), heat * t_init)
     h0 = h.copy()
@@ -268,36 +269,49 @@ def _gradient(temp, zc, xc):
     return gz, gx
 
 
+def _state(curve: PhaseCurve, h: np.ndarray, mi: np.ndarray, inv_heat: np.ndarray):
+    """(segment of each metal cell, temperature, dT/dH) at enthalpy h."""
+    hm = h[mi]
+    seg = np.clip(np.searchsorted(curve.h, hm) - 1, 0, curve.h.size - 2)
+    sm = curve.slopes[seg]
+    temp = h * inv_heat
+    temp[mi] = curve.t[seg] + sm * (hm - curve.h[seg])
+    slope = inv_heat.copy()
+    slope[mi] = sm
+    return seg, temp, slope
+
+
 def _implicit_1d(s: _Sweep, h_old: np.ndarray, dt: float, curve: PhaseCurve):
     """Backward-Euler step of dH/dt = div(k grad T) along one direction, Newton on H."""
     a = s.vol / dt
     glo, ghi = s.glo, s.ghi
-    metal, fixed, heat = s.metal, s.fixed, s.heat
+    fixed, mi, inv_heat = s.fixed, s.metal_idx, s.inv_heat
     h = h_old.copy()
-    seg = curve_segment(curve, h)
+    seg, temp, slope = _state(curve, h, mi, inv_heat)
     h_last = t_last = None
     has_fixed = bool(fixed.any())
     for it in range(1, NEWTON_MAX + 1):
-        temp = np.where(metal, curve.temperature(h), h / heat)
-        slope = np.where(metal, curve.slope(h), 1.0 / heat)
         if h_last is not None:
             # A cell that crossed a kink of T(H) takes the chord of its last two
             # iterates (a secant step): a tangent step can cycle across a kink.
-            dh_last = h - h_last
-            crossed = metal & (np.abs(dh_last) > 1e-9 * np.abs(h))
-            chord = (temp[crossed] - t_last[crossed]) / dh_last[crossed]
-            slope[crossed] = np.maximum(chord, 0.0)
-        slope[fixed] = 0.0
+            dh_last = (h - h_last)[mi]
+            moved = np.abs(dh_last) > 1e-9 * np.abs(h[mi])
+            chord = (temp[mi] - t_last[mi])[moved] / dh_last[moved]
+            sl = slope[mi]
+            sl[moved] = np.maximum(chord, 0.0)
+            slope[mi] = sl
+        if has_fixed:
+            slope[fixed] = 0.0
         flux = np.zeros_like(h)
         q = ghi[:-1] * np.diff(temp)    # heat from cell i+1 into cell i
         flux[:-1] += q
         flux[1:] -= q
         res = a * (h - h_old) - flux
-        res[fixed] = 0.0
         diag = a + (glo + ghi) * slope
         lower = -glo[1:] * slope[:-1]
         upper = -ghi[:-1] * slope[1:]
         if has_fixed:
+            res[fixed] = 0.0
             lower[fixed[1:]] = 0.0
             upper[fixed[:-1]] = 0.0
         *_, dh, info = lapack.dgtsv(lower, diag, upper, -res, overwrite_b=True)
@@ -305,17 +319,15 @@ def _implicit_1d(s: _Sweep, h_old: np.ndarray, dt: float, curve: PhaseCurve):
             raise RuntimeError(f"tridiagonal solve failed (info={info})")
         h_last, t_last = h, temp
         h = h + dh
-        new_seg = curve_segment(curve, h)
+        new_seg, temp, slope = _state(curve, h, mi, inv_heat)
         # T(H) is piecewise linear: once no metal cell changes segment after a
         # tangent step, the linearised system was the exact one.
-        if it == 1 and np.array_equal(new_seg[metal], seg[metal]):
+        if it == 1 and np.array_equal(new_seg, seg):
             return h, it
-        change = np.abs(np.where(metal, curve.temperature(h), h / heat) - temp)
-        if np.max(change[~fixed]) < NEWTON_TOL_K:
+        change = np.abs(temp - t_last)
+        if has_fixed:
+            change[fixed] = 0.0
+        if change.max() < NEWTON_TOL_K:
             return h, it
         seg = new_seg
     return h, NEWTON_MAX
-
-
-def curve_segment(curve: PhaseCurve, h: np.ndarray) -> np.ndarray:
-    return np.searchsorted(curve.h, h)

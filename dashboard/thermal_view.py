@@ -1,0 +1,72 @@
+"""The thermal view: freezing-time and Niyama maps of one riser and its section.
+
+Shown in the pattern file (each riser of the current revision) and in what-if
+(the changed riser). The solve is a screening estimate; the caution says so.
+"""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from dashboard import charts, common
+
+
+def show(view: dict, key: str) -> None:
+    """Draw one thermal result (``tracker.thermal.views.view``)."""
+    s = view["summary"]
+    c = st.columns(3)
+    c[0].metric("Thermal check", "pass" if s["thermal_ok"] else "fail")
+    c[1].metric("Last to freeze", s["last_to_freeze"])
+    c[2].metric("Freezing ratio riser / section", f"{s['freeze_ratio']:.2f}")
+    c = st.columns(3)
+    c[0].metric("Section freezing (min)", f"{s['section_freeze_s'] / 60:.1f}")
+    c[1].metric("Riser freezing (min)", f"{s['riser_freeze_s'] / 60:.1f}")
+    ny = "-" if s["min_niyama"] is None else f"{s['min_niyama']:.2f}"
+    thr = "no threshold" if s["niyama_threshold"] is None else f"threshold {s['niyama_threshold']:g}"
+    c[2].metric("Minimum Niyama", ny, help=f"{s['niyama_unit']}; {thr}; {s['niyama_source']}")
+    if s["reasons"]:
+        st.warning(common.md_escape("Fails: " + "; ".join(s["reasons"]) + "."))
+    # stacked, each at its own width: the maps keep one mm scale on both axes
+    st.markdown("**Freezing time** (min; + marks the last point to freeze; the narrow box beside a "
+                "sleeved riser is its sleeve)")
+    st.altair_chart(charts.thermal_freezing_map(view["cells"], view["outline"], s["last_point_mm"],
+                                                s["x_label"]), key=f"{key}_freeze", width="content")
+    st.markdown(f"**Niyama in the section** ({s['niyama_unit']}"
+                + ("" if s["niyama_threshold"] is None
+                   else f"; orange: below the threshold {s['niyama_threshold']:g}") + ")")
+    st.altair_chart(charts.thermal_niyama_map(view["cells"], view["outline"], s["niyama_threshold"],
+                                              s["niyama_unit"], s["x_label"]), key=f"{key}_niyama",
+                    width="content")
+    st.caption(common.md_escape(
+        f"{s['model'].capitalize()} model, {s['grid'][0]} × {s['grid'][1]} = {s['cells']:,} cells "
+        f"({s['cell_mm']:.1f} mm in the section), time step {s['time_step_s']:.1f} s, pouring at "
+        f"{s['pour_temp_c']:.0f} °C, solved in {s['solve_s']:.1f} s. " + " ".join(s["notes"])))
+    st.info(common.md_escape(s["caution"]), icon=":material/warning:")
+
+
+def pattern_section(code: str) -> None:
+    """The thermal check of each riser of the pattern's current revision (on request: it solves)."""
+    st.subheader("Thermal check")
+    if not st.toggle("Solve the current revision's risers (a few seconds per riser)", key="thermal_on"):
+        st.caption("A 2-D solidification solve of each riser and the zone it feeds: where the last liquid is, "
+                   "whether the zone's last liquid stays connected to the riser, and the Niyama criterion.")
+        return
+    with st.spinner("Solving..."):
+        views = common.load("pattern_thermal", code)
+    labels = [f"{v['riser']} on {v['zone']} ({'pass' if v['summary']['thermal_ok'] else 'fail'})" for v in views]
+    tabs = st.tabs(labels)
+    for tab, v in zip(tabs, views):
+        with tab:
+            show(v, f"thermal_{v['riser']}")
+
+
+def what_if_section(result: dict) -> None:
+    """The thermal check of a what-if's changed riser (on request: it solves)."""
+    st.markdown("**Thermal check**")
+    if not st.toggle("Solve the changed riser and its zone (a few seconds)", key="whatif_thermal"):
+        return
+    keep = {k: result.get(k) for k in ("pattern", "revision", "riser", "diameter_mm", "height_mm", "sleeve",
+                                       "neck_diameter_mm")}
+    with st.spinner("Solving..."):
+        view = common.load("what_if_thermal", keep)
+    show(view, "whatif_thermal")
