@@ -138,7 +138,7 @@ def design_map(points: pd.DataFrame, curve: pd.DataFrame | None) -> alt.LayerCha
                                           values=[0, round(top / 2, 1), round(top, 1)])),
         opacity=alt.Opacity("design:N", scale=alt.Scale(domain=designs, range=[0.9, 0.95, 0.22]), legend=None),
         stroke=alt.Stroke("design:N", title="design", scale=alt.Scale(domain=designs, range=["#ffffff", INK, CONTEXT]),
-                          legend=alt.Legend(orient="right", labelLimit=160, symbolType="circle", symbolSize=160,
+                          legend=alt.Legend(orient="bottom", labelLimit=260, symbolType="circle", symbolSize=160,
                                             symbolFillColor="#f2c66d", symbolStrokeWidth=2.5)),
         strokeWidth=alt.StrokeWidth("design:N", scale=alt.Scale(domain=designs, range=[0.8, 3, 0.6]),
                                     legend=None),

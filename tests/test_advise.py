@@ -292,6 +292,27 @@ def test_pays_off_text_names_the_cheapest_passing_change():
     assert chosen.loc[0, "_cand"] == 1 and chosen.loc[0, "tier"] == 1
 
 
+def test_the_reason_says_how_each_choice_was_made():
+    from tracker.advise import _choose, _how_chosen
+
+    # Invented candidates: none passes every rule (tier 2), then one passes
+    # without reaching the target (tier 1), then no model at all.
+    priced = pd.DataFrame({"_z": 0, "action": "enlarge", "full_ok": [False, False],
+                           "meets_target": [False, False], "predicted_rate_after": [0.05, 0.04],
+                           "extra_cost_per_year": [100.0, 300.0], "yearly_balance": [50.0, 20.0]},
+                          index=pd.Index([0, 1], name="_cand"))
+    for full_ok, tier, words in (([False, False], 2, "size this riser by hand"),
+                                 ([False, True], 1, "the lowest predicted is 4.0%")):
+        p = priced.assign(full_ok=full_ok)
+        chosen = _choose(p).loc[0]
+        assert chosen["tier"] == tier
+        records = p.reset_index().to_dict("records")
+        choice = {**records[int(chosen["_cand"])], "tier": tier}
+        assert words in _how_chosen(choice, records)
+    no_model = {"tier": 1, "predicted_rate_after": float("nan")}
+    assert "No reject model" in _how_chosen(no_model, [])
+
+
 def test_remelt_charge_applies_to_scrap_and_riser_metal(demo_store):
     st = story()
     pattern, riser, _ = st["undersized"][0]

@@ -169,3 +169,21 @@ def test_html_report_tables_fit_a_tablet(browser, app_demo_db, tmp_path):
         pg.screenshot(path=str(ARTIFACTS / f"review-report-{NARROW}.png"), full_page=True)
     finally:
         pg.close()
+
+
+def test_clicking_a_point_on_the_design_map_opens_that_patterns_file(browser, server):  # noqa: F811
+    pg = visit(browser, server["url"], "design-map", "Design map", WIDE)
+    try:
+        # Vega draws each zone as an SVG mark labelled with its tooltip (pattern, zone, ...)
+        point = pg.locator('[data-testid="stVegaLiteChart"] [role="graphics-symbol"][aria-label*="pattern: P-1036;"]')
+        point.first.wait_for()
+        point.first.click(force=True)
+        pg.get_by_role("heading", name="Pattern file", level=1).wait_for()
+        settle(pg)
+        assert urllib.parse.urlparse(pg.url).path == "/pattern"
+        assert urllib.parse.parse_qs(urllib.parse.urlparse(pg.url).query)["pattern"] == ["P-1036"]
+        picker = pg.locator('[data-testid="stSelectbox"]').first
+        assert "P-1036" in picker.evaluate("e => e.innerText + ' ' + Array.from(e.querySelectorAll('input'))"
+                                           ".map(i => i.value).join(' ')")  # the picker shows it
+    finally:
+        pg.close()

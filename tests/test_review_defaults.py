@@ -179,3 +179,30 @@ def test_revision_with_a_verdict_leaves_once_outside_the_window(tmp_path):
     assert rev["p_value"] == pytest.approx(sps.fisher_exact([[132, 968], [0, 800]]).pvalue, rel=1e-9)
     assert rev["verdict"] == "improved"
     assert later["revisions"] == []
+
+
+def test_review_page_keeps_a_revision_awaiting_its_verdict(tmp_path, monkeypatch):
+    import csv
+
+    from tests.test_dashboard import open_page, texts
+
+    folder = _revision_log(tmp_path / "log", after_lots=1, after_molds=1)
+    with open(folder / "lots.csv", "a", newline="", encoding="utf-8") as fh:  # one small lot much later
+        csv.writer(fh).writerow(["V-late", "V-1", "2026-10-01", "H", 1])
+    with open(folder / "inspections.csv", encoding="utf-8") as fh:
+        head = next(csv.reader(fh))
+    row = {"lot": "V-late", "inspected_on": "2026-10-01", "method": "xray", "quantity": 10, "result": "accept"}
+    with open(folder / "inspections.csv", "a", newline="", encoding="utf-8") as fh:
+        csv.writer(fh).writerow([row.get(k, "") for k in head])
+    db = tmp_path / "log.db"
+    with Store(db) as s:
+        import_dir(s, folder, today=TODAY)
+        week = default_week(s)
+    assert week == iso(dt.date(2026, 10, 1))
+    at = open_page(db, "weekly_review.py", monkeypatch)
+    at.number_input(key="weeks").set_value(3).run()
+    assert not at.exception
+    lines = texts(at.markdown)
+    head = next(m for m in lines if m.startswith("V-1 revision 2"))
+    assert "took effect before this window; still awaiting a verdict" in head
+    assert any(m.startswith("**Verdict:** not enough data yet") for m in lines)

@@ -424,6 +424,31 @@ def _changed_rows(cands: pd.DataFrame, zones: pd.DataFrame, designs: dict) -> pd
     return pd.concat([prim, own], ignore_index=True)
 
 
+def _predict(model, frames: list[pd.DataFrame]) -> list[np.ndarray]:
+    """The model's rate for each row of each frame, in one prediction (NaN without a model)."""
+    both = pd.concat([f.assign(pour_temp_dev_c=0.0) for f in frames], ignore_index=True)
+    rates = model.predict_rate(both) if model is not None and len(both) else np.full(len(both), np.nan)
+    return np.split(np.asarray(rates, dtype=float), np.cumsum([len(f) for f in frames])[:-1])
+
+
+def _per_candidate(cands: pd.DataFrame, new: pd.DataFrame, judged_now: pd.DataFrame) -> pd.DataFrame:
+    """Per candidate: the primary riser's size and margins, whether every
+    riser it changes passes, and the added metal and sleeve cost per casting
+    summed over them."""
+    old = judged_now.loc[new["_old"]]
+    new = new.assign(added_kg=new["weight_kg"].to_numpy() - old["weight_kg"].to_numpy(),
+                     sleeve_change=new["sleeve_unit_cost"].to_numpy() - old["sleeve_unit_cost"].to_numpy())
+    per = new.groupby("_cand").agg(added_kg_per_casting=("added_kg", "sum"),
+                                   sleeve_change_per_casting=("sleeve_change", "sum"), full_ok=("full_ok", "all"))
+    prim = new.drop_duplicates("_cand").set_index("_cand")  # the primary riser comes first
+    out = cands.set_index("_cand")[["_z", "action", "neck_diameter_mm"]].join(per)
+    for c in ("diameter_mm", "height_mm", "sleeve", "modulus_ratio", "caine_margin", "feed_margin",
+              "feeding_distance_ok", "feeding_distance_mm", "feeding_length_mm", "weight_kg"):
+        out[c] = prim[c]
+    out["full_ok"] = out["full_ok"].astype(bool)
+    return out
+
+
 def _price(cands: pd.DataFrame, zones: pd.DataFrame, designs: dict, money: pd.DataFrame, model,
            target: float) -> tuple[pd.DataFrame, pd.Series]:
     """Every candidate judged, predicted and priced in one pass.
@@ -435,38 +460,23 @@ def _price(cands: pd.DataFrame, zones: pd.DataFrame, designs: dict, money: pd.Da
     judged_now = designs["judged"]
     zone_risers = zones[["pattern", "zone"]].rename_axis("_z").reset_index().merge(
         judged_now.assign(_old=judged_now.index), on=["pattern", "zone"])
-    now = weakest_margins(zone_risers, ["_z"]).assign(pour_temp_dev_c=0.0)
+    now = weakest_margins(zone_risers, ["_z"])
     if cands.empty:
-        rates = model.predict_rate(now) if model is not None and len(now) else np.full(len(now), np.nan)
-        return cands.set_index("_cand"), pd.Series(rates, index=now["_z"].to_numpy(), dtype=float)
+        return cands.set_index("_cand"), pd.Series(_predict(model, [now])[0], index=now["_z"].to_numpy())
     rows = _changed_rows(cands, zones, designs).reset_index(drop=True)
-    new = _judge(rows)
-    new["_cand"], new["_old"] = rows["_cand"].to_numpy(), rows["_old"].to_numpy()
+    new = _judge(rows).assign(_cand=rows["_cand"].to_numpy(), _old=rows["_old"].to_numpy())
     # the zone after: the changed risers and the zone's others as they are
     others = cands[["_cand", "_z"]].merge(zone_risers, on="_z")
     others = others[~others.set_index(["_cand", "_old"]).index.isin(new.set_index(["_cand", "_old"]).index)]
     after = weakest_margins(pd.concat([new, others.drop(columns="_z")], ignore_index=True), ["_cand"])
-    both = pd.concat([now, after.assign(pour_temp_dev_c=0.0)], ignore_index=True)
-    rates = model.predict_rate(both) if model is not None and len(both) else np.full(len(both), np.nan)
-    rate_now = pd.Series(rates[:len(now)], index=now["_z"].to_numpy())
-    rate_after = pd.Series(rates[len(now):], index=after["_cand"].to_numpy())
+    rate_now, rate_after = _predict(model, [now, after])
+    rate_now = pd.Series(rate_now, index=now["_z"].to_numpy())
 
-    old = judged_now.loc[new["_old"]]
-    new["added_kg"] = new["weight_kg"].to_numpy() - old["weight_kg"].to_numpy()
-    new["sleeve_change"] = new["sleeve_unit_cost"].to_numpy() - old["sleeve_unit_cost"].to_numpy()
-    per = new.groupby("_cand").agg(added_kg_per_casting=("added_kg", "sum"),
-                                   sleeve_change_per_casting=("sleeve_change", "sum"),
-                                   all_ok=("full_ok", "all"))
-    prim = new.drop_duplicates("_cand").set_index("_cand")  # the primary riser comes first
-    out = cands.set_index("_cand")[["_z", "action", "neck_diameter_mm"]].join(per)
-    for c in ("diameter_mm", "height_mm", "sleeve", "modulus_ratio", "caine_margin", "feed_margin",
-              "feeding_distance_ok", "feeding_distance_mm", "feeding_length_mm", "weight_kg"):
-        out[c] = prim[c]
-    out["full_ok"] = out["all_ok"].astype(bool)
+    out = _per_candidate(cands, new, judged_now)
     m = money.loc[zones.loc[out["_z"], "pattern"].to_numpy()]
     n = m["castings_per_year"].to_numpy()
     out["predicted_rate_now"] = rate_now.loc[out["_z"]].to_numpy()
-    out["predicted_rate_after"] = rate_after.loc[out.index].to_numpy()
+    out["predicted_rate_after"] = pd.Series(rate_after, index=after["_cand"].to_numpy()).loc[out.index].to_numpy()
     out["extra_metal_cost_per_year"] = (n * out["added_kg_per_casting"].to_numpy()
                                         * m["metal_cost_per_kg"].to_numpy() * m["remelt_charge"].to_numpy())
     out["sleeve_cost_per_year"] = n * out["sleeve_change_per_casting"].to_numpy()
@@ -543,6 +553,20 @@ def _pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float)
                    f"{_money_text(c['yearly_balance'])} a year).")
 
 
+def _how_chosen(choice: dict, zone_priced: list[dict]) -> str:
+    """How the choice was made (``_choose``'s tier), in words."""
+    if choice["tier"] == 0:
+        return " Of the changes that pass every rule and reach the target, this one has the highest yearly balance."
+    if choice["tier"] == 2:
+        return " No candidate meets every rule; size this riser by hand."
+    if pd.isna(choice["predicted_rate_after"]):
+        return (" (No reject model: the log has no history to fit it; this is the cheapest change that passes "
+                "every rule.)")
+    lowest = min(c["predicted_rate_after"] for c in zone_priced if c["full_ok"])
+    return (f" No candidate reaches the target rate by the model (the lowest predicted is {lowest:.1%}); of "
+            "those that pass every rule, this one has the highest yearly balance.")
+
+
 def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], siblings: list[str]) -> str:
     """Why this change: the zone's rates, the rules before and after, the
     neck, feeding distance, the zone's other risers, the money and how the
@@ -572,16 +596,7 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
         text += (f" Riser(s) {', '.join(siblings)} on the same zone fail too: "
                  + ("give them the same change (priced with it)." if choice["action"] != "neck" else
                     "widen their necks as well (not priced here)."))
-    text += {0: " Of the changes that pass every rule and reach the target, this one has the highest "
-                "yearly balance.",
-             1: (f" No candidate reaches the target rate by the model (the lowest predicted is "
-                 f"{min(c['predicted_rate_after'] for c in zone_priced if c['full_ok']):.1%}); of those that pass "
-                 "every rule, this one "
-                 "has the highest yearly balance.")
-                if not pd.isna(choice["predicted_rate_after"])
-                else " (No reject model: the log has no history to fit it; this is the cheapest change that "
-                     "passes every rule.)",
-             2: " No candidate meets every rule; size this riser by hand."}[int(choice["tier"])]
+    text += _how_chosen(choice, zone_priced)
     return text + _pays_off_text(choice, zone_priced, base["riser"], d0)
 
 
@@ -749,7 +764,8 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
            "current": designs["current"].to_dict(), "chosen": chosen.to_dict("index"),
            "defects": _groups(win["defects"], "pattern"), "zone_stats": _groups(win["zones"], "pattern"),
            "zones": _groups(zones, "pattern"), "priced": _records_by(priced.reset_index(), "_z"),
-           "risers_by_zone": _groups(designs["judged"], ["pattern", "zone"]), "thermal_notes": thermal_notes}
+           "risers_by_zone": _groups(designs["judged"][["pattern", "zone", "riser", "full_ok"]], ["pattern", "zone"]),
+           "thermal_notes": thermal_notes}
     out: list[dict] = []
     for pat in patterns:
         out.extend(_pattern_records(pat, ctx))
