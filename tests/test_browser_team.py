@@ -14,6 +14,7 @@ import os
 import shutil
 import subprocess
 import sys
+import time
 import urllib.request
 
 import pytest
@@ -261,3 +262,43 @@ def test_require_login_on_loopback_and_an_idle_session_ends(browser, app_demo_db
             context.close()
     with Store(db) as s:
         assert [r["event"] for r in auth.audit_log(s)][-1] == "session_expired"
+
+
+def test_tls_serves_https(app_demo_db, tmp_path):
+    import ssl
+
+    if not shutil.which("openssl"):
+        pytest.skip("openssl is missing (apt-get install openssl)")
+    cert, key = tmp_path / "cert.pem", tmp_path / "key.pem"
+    subprocess.run(["openssl", "req", "-x509", "-newkey", "rsa:2048", "-nodes", "-keyout", str(key), "-out",
+                    str(cert), "-days", "1", "-subj", f"/CN={HOST}", "-addext", f"subjectAltName=IP:{HOST}"],
+                   check=True, capture_output=True)
+    db = tmp_path / "plant.db"
+    shutil.copyfile(app_demo_db, db)
+    with Store(db) as s:
+        auth.add_user(s, "boss", "admin", PASSWORD, by="test")
+    port = _free_port(HOST)
+    env = {k: v for k, v in os.environ.items() if k != "POURBACK_DB"}
+    proc = subprocess.Popen([sys.executable, "-m", "tracker", "dashboard", "--db", str(db), "--host", HOST,
+                             "--port", str(port), "--tls-cert", str(cert), "--tls-key", str(key)],
+                            stdout=subprocess.PIPE, stderr=subprocess.STDOUT, env=env, cwd=tmp_path, text=True)
+    trust = ssl.create_default_context(cafile=str(cert))  # the self-signed certificate, checked
+    try:
+        for _ in range(300):
+            try:
+                with urllib.request.urlopen(f"https://{HOST}:{port}/_stcore/health", timeout=2,
+                                            context=trust) as r:
+                    assert r.status == 200
+                    break
+            except OSError:
+                assert proc.poll() is None, proc.stdout.read()
+                time.sleep(0.3)
+        else:
+            pytest.fail("no HTTPS answer")
+        # plain HTTP on the same port gets no page
+        assert not _answers(port)
+    finally:
+        proc.terminate()
+        proc.wait(timeout=15)
+    out = proc.stdout.read()
+    assert f"https://{HOST}:{port}" in out and "without TLS" not in out
