@@ -101,30 +101,48 @@ def p_chart(df: pd.DataFrame) -> alt.LayerChart | alt.Chart:
     return alt.layer(band, centre, line, pts).properties(height=HEIGHT)
 
 
+PICK = "pick"  # the design map's point selection: the pattern clicked
+
+
 def design_map(points: pd.DataFrame, curve: pd.DataFrame | None) -> alt.LayerChart:
     """Each riser zone at (volume ratio, freezing ratio), sized by castings poured and
-    shaded by its shrinkage reject rate; the alloy's Caine curve where it has one."""
+    shaded by its shrinkage reject rate (the scale runs from 0 to the highest rate
+    shown); the alloy's Caine curve where it has one. Designs a later revision
+    superseded are faded; zones of patterns the review flags get a thick dark ring.
+    Clicking a point selects its pattern (selection ``PICK``)."""
     x = alt.X("volume_ratio:Q", title="volume ratio Y = riser volume / zone volume (no unit)",
               scale=alt.Scale(zero=False, nice=True))
     y = alt.Y("freezing_ratio:Q", title="freezing ratio X = riser modulus / zone modulus (no unit)",
               scale=alt.Scale(zero=False, nice=True))
     tips = [alt.Tooltip("pattern:N", title="pattern"), alt.Tooltip("zone:N", title="zone"),
             alt.Tooltip("riser:N", title="riser"), alt.Tooltip("revision:N", title="revision"),
-            alt.Tooltip("castings:Q", title="castings poured"),
-            alt.Tooltip("shrinkage_rejects:Q", title="shrinkage rejects (castings)"),
+            alt.Tooltip("design:N", title="design"),
+            alt.Tooltip("castings:Q", title="castings poured", format=","),
+            alt.Tooltip("shrinkage_rejects:Q", title="shrinkage rejects (castings)", format=","),
             alt.Tooltip("shrinkage_rate_pct:Q", title="shrinkage reject rate (%)", format=".2f"),
             alt.Tooltip("wilson_low_pct:Q", title="rate, low bound (%)", format=".2f"),
             alt.Tooltip("wilson_high_pct:Q", title="rate, high bound (%)", format=".2f"),
             alt.Tooltip("volume_ratio:Q", title="volume ratio", format=".2f"),
             alt.Tooltip("freezing_ratio:Q", title="freezing ratio", format=".2f"),
             alt.Tooltip("rules_text:N", title="rules")]
-    dots = alt.Chart(points).mark_circle(stroke=INK, strokeWidth=0.6, opacity=0.85).encode(
+    top = float(points["shrinkage_rate_pct"].max()) if len(points) else 0.0
+    top = top if top == top and top > 0 else 1.0
+    designs = ["in use", "in use, pattern flagged", "superseded by a later revision"]
+    pick = alt.selection_point(name=PICK, fields=["pattern"], on="click", clear="dblclick")
+    dots = alt.Chart(points).mark_circle().encode(
         x=x, y=y,
         size=alt.Size("castings:Q", title="castings poured", scale=alt.Scale(range=[30, 900])),
         color=alt.Color("shrinkage_rate_pct:Q", title="shrinkage rejects (% of castings poured)",
-                        scale=alt.Scale(scheme="goldred", domainMin=0),
-                        legend=alt.Legend(orient="top", gradientLength=220, titleLimit=400)),
-        tooltip=tips)
+                        scale=alt.Scale(scheme="goldred", domain=[0, top], clamp=True),
+                        legend=alt.Legend(orient="top", gradientLength=220, titleLimit=400, format=".1f",
+                                          values=[0, round(top / 2, 1), round(top, 1)])),
+        opacity=alt.Opacity("design:N", scale=alt.Scale(domain=designs, range=[0.9, 0.95, 0.22]), legend=None),
+        stroke=alt.Stroke("design:N", title="design", scale=alt.Scale(domain=designs, range=["#ffffff", INK, CONTEXT]),
+                          legend=alt.Legend(orient="right", labelLimit=160, symbolType="circle", symbolSize=160,
+                                            symbolFillColor="#f2c66d", symbolStrokeWidth=2.5)),
+        strokeWidth=alt.StrokeWidth("design:N", scale=alt.Scale(domain=designs, range=[0.8, 3, 0.6]),
+                                    legend=None),
+        tooltip=tips).add_params(pick)
     layers = []
     if curve is not None and not curve.empty:
         c = curve.assign(series="Caine curve (sound above it)")

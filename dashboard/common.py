@@ -33,8 +33,10 @@ def _registry() -> dict:
         "lot_options": views.lot_options,
         "zone_options": views.zone_options,
         "latest_records": views.latest_records,
+        "lot_accounting": views.lot_accounting,
         "week_options": views.week_options,
         "default_week": review.default_week,
+        "current_revisions": views.current_revisions,
         "pattern_weekly": views.pattern_weekly,
         "pattern_summary": views.pattern_summary,
         "risers_by_revision": views.risers_by_revision,
@@ -72,10 +74,26 @@ def _cached(path: str, version: tuple, name: str, args: tuple, kwargs: tuple):
         return fn(store, *args, **dict(kwargs))
 
 
-def load(name: str, *args, **kwargs):
-    """``name``'s result on the log, cached until the database file changes."""
+_COMPUTED: set = set()  # the loads this server process has computed (and cached)
+
+
+def load(name: str, *args, status: str | None = None, **kwargs):
+    """``name``'s result on the log, cached until the database file changes.
+
+    ``status``: for a load that can take seconds on a big log, the label of
+    a Streamlit status element shown while it is computed (not when the
+    result comes from the cache); it is cleared when the result is in.
+    """
     path = db_path()
-    return _cached(path, views.db_version(path), name, args, tuple(sorted(kwargs.items())))
+    key = (path, views.db_version(path), name, args, tuple(sorted(kwargs.items())))
+    if status is None or key in _COMPUTED:
+        return _cached(*key)
+    box = st.empty()
+    with box.status(status + " ...", expanded=False):
+        result = _cached(*key)
+    box.empty()
+    _COMPUTED.add(key)
+    return result
 
 
 def forget() -> None:
@@ -134,6 +152,33 @@ def guard():
 
 
 # --- page furniture -----------------------------------------------------------------------
+
+def default_review() -> dict:
+    """The review the pages open on (default week, weeks and target), cached."""
+    week = load("default_week", today=dt.date.today().isoformat())
+    return load("weekly_review", week=week, weeks=limits.WEEKS_DEFAULT, target=limits.TARGET_DEFAULT)
+
+
+def flagged_patterns() -> list[str]:
+    """The patterns the default review flags, worst first ([] for a log without pours)."""
+    state = load("start_state")
+    return list(default_review()["problems"]) if state["ready"] else []
+
+
+_GOTO = "pourback_open_pattern"
+
+
+def open_pattern_later(code: str) -> None:
+    """From a widget callback: open ``code``'s pattern file on the rerun that follows."""
+    st.session_state[_GOTO] = code
+
+
+def follow_pattern_link() -> None:
+    """Switch to the pattern file asked for by :func:`open_pattern_later`, if any."""
+    code = st.session_state.pop(_GOTO, None)
+    if code:
+        st.switch_page("pattern_file.py", query_params={"pattern": code})
+
 
 def review_controls() -> tuple[str, int, float]:
     """Review week, weeks in the window and target reject rate (%), the same on every page:

@@ -1,4 +1,10 @@
-"""Log results: record one inspection result, import a file, see the latest records."""
+"""Log results: record one inspection result, import a file, see the latest records.
+
+The bench form is built for one result at a time with few clicks: method,
+result, defect, zone, category and severity are one click each; radiography
+category and severity appear only for x-ray; after a save the result-specific
+fields are cleared and lot, date, inspector and name are kept.
+"""
 
 from __future__ import annotations
 
@@ -9,11 +15,12 @@ import tempfile
 import streamlit as st
 
 from dashboard import access, common
-from tracker.auth import MAX_UPLOAD_MB, TABLE_ACTION
 from tracker import views
+from tracker.auth import MAX_UPLOAD_MB, TABLE_ACTION
 from tracker.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES, import_file, log_inspection
 
 NONE = views.NONE
+XRAY = "xray"
 KIND_HELP = {
     "patterns": "pattern, description, alloy, casting_weight_kg, castings_per_mold, metal_cost_per_kg",
     "zones": "pattern, zone, volume_cm3, cooling_area_cm2 (+ thickness_mm, length_mm, required_xray_level)",
@@ -22,6 +29,62 @@ KIND_HELP = {
     "lots": "lot, pattern, poured_on, heat, molds (+ pour_temp_c)",
     "inspections": "lot, inspected_on, method, quantity, result (+ defect, zone, xray_category, ...)",
 }
+# Cleared after each save: what belongs to one result, not to the inspection session.
+RESULT_FIELDS = {"result": RESULTS[0], "defect": None, "zone": None, "xray_category": None, "severity": None,
+                 "quantity": 1, "serial": "", "notes": ""}
+SEVERITIES = [1, 2, 3, 4, 5]
+
+
+def _clear_result_fields() -> None:
+    for key, value in RESULT_FIELDS.items():
+        st.session_state[key] = value
+
+
+def _save(lot: str, castings: int) -> None:
+    """Save button callback: write the record, then clear the result-specific fields."""
+    s = st.session_state
+    signed_in = access.session()
+    by = signed_in.user if signed_in is not None else (s.get("recorded_by") or "").strip()
+    if not by:
+        s["form_message"] = ("error", "Name the person logging the result: the record keeps who logged it.")
+        return
+    xray = s.get("method") == XRAY
+    record = views.form_record({
+        "lot": lot, "inspected_on": s.get("inspected_on"), "method": s.get("method"),
+        "quantity": int(s.get("quantity") or 0), "result": s.get("result"), "defect": s.get("defect"),
+        "zone": s.get("zone"), "xray_category": s.get("xray_category") if xray else None,
+        "severity": s.get("severity") if xray else None, "serial": s.get("serial"),
+        "inspector": s.get("inspector"), "notes": s.get("notes")})
+    try:
+        with common.open_store() as store:
+            rid = log_inspection(store, record, by=by, source="dashboard")
+    except common.PourbackError as exc:
+        s["form_message"] = ("exception", exc)
+        return
+    common.forget()
+    n = record["quantity"]
+    s["form_message"] = ("success", f"Saved record {rid}: lot {common.md_escape(lot)}, {n} casting"
+                                    f"{'s' if n != 1 else ''}, {record['result']}"
+                                    + (f" ({record['defect']})" if record["defect"] else "") + ".")
+    _clear_result_fields()
+
+
+def accounting(lot: str, method: str) -> None:
+    """How many castings of the lot each method has accounted for, and how many are left."""
+    a = common.load("lot_accounting", lot)
+    table = a["methods"]
+    shown = table[(table["accounted (castings)"] > 0) | (table["method"] == method)]
+    parts = [f"**{r['method']}** {r['accounted (castings)']:,} of {a['castings']:,}, "
+             f"{r['left (castings)']:,} left" for r in shown.to_dict("records")]
+    st.caption(f"Lot {common.md_escape(lot)}: {a['castings']:,} castings poured. Accounted for by method: "
+               + "; ".join(parts) + f". Rejected so far: {a['rejected']:,} ({a['rejects_left']:,} more "
+               "can be rejected).")
+
+
+def _defaults() -> None:
+    """Start values of the form's fields (set once; a widget then keeps its own state)."""
+    for key, value in {**RESULT_FIELDS, "method": METHODS[0], "inspected_on": dt.date.today()}.items():
+        st.session_state.setdefault(key, value)
 
 
 def record_form(state: dict) -> None:
@@ -29,52 +92,54 @@ def record_form(state: dict) -> None:
     if not access.can("log"):
         st.caption(access.not_offered("log"))
         return
+    _defaults()
     lots = common.load("lot_options")
     if lots.empty:
         st.caption("No lots in the log yet: import patterns, zones, sleeves, risers and lots below, "
                    "then record their inspection results here.")
         return
     labels = dict(zip(lots["lot"], lots["label"]))
-    lot = st.selectbox("Lot (newest first; type to search)", list(labels), format_func=labels.get,
-                       key="lot")
-    pattern = lots.loc[lots["lot"] == lot, "pattern"].iat[0]
-    zones = common.load("zone_options", pattern)
-
-    with st.form("record", clear_on_submit=False, border=True):
-        c1, c2, c3, c4 = st.columns(4)
-        inspected_on = c1.date_input("Inspected on", value=dt.date.today(), key="inspected_on",
-                                     max_value=dt.date.today(), format="YYYY-MM-DD")
-        method = c2.selectbox("Method", METHODS, key="method")
-        quantity = c3.number_input("Quantity (castings)", min_value=1, value=1, step=1, key="quantity")
-        result = c4.selectbox("Result", RESULTS, key="result")
-        c1, c2, c3, c4 = st.columns(4)
-        defect = c1.selectbox("Defect (reject and rework)", (NONE, *DEFECTS), key="defect")
-        zone = c2.selectbox(f"Zone of the casting ({common.md_escape(pattern)})", (NONE, *zones), key="zone")
-        category = c3.selectbox("Radiography category (x-ray)", (NONE, *XRAY_CATEGORIES), key="xray_category")
-        severity = c4.selectbox("Severity level (1 least – 5)", (NONE, 1, 2, 3, 4, 5), key="severity")
-        c1, c2, c3 = st.columns(3)
-        inspector = c1.text_input("Inspector", key="inspector", max_chars=100)
-        serial = c2.text_input("Casting serial (optional)", key="serial", max_chars=100)
-        recorded_by = access.author_field(c3, "Your name (required; recorded as who logged it)", "recorded_by")
-        notes = st.text_area("Notes", key="notes", max_chars=2000, height=80)
-        saved = st.form_submit_button("Save record", type="primary", key="save")
-
-    if not saved:
-        return
-    if not recorded_by:
-        st.error("Name the person logging the result: the record keeps who logged it.")
-        return
-    record = views.form_record({
-        "lot": lot, "inspected_on": inspected_on, "method": method, "quantity": int(quantity),
-        "result": result, "defect": defect, "zone": zone, "xray_category": category,
-        "severity": severity, "serial": serial, "inspector": inspector, "notes": notes})
-    with common.guard():
-        with common.open_store() as store:
-            rid = log_inspection(store, record, by=recorded_by, source="dashboard")
-        common.forget()
-        n = int(quantity)
-        st.success(f"Saved record {rid}: lot {common.md_escape(lot)}, {n} casting{'s' if n != 1 else ''}, "
-                   f"{result}.")
+    with st.container(border=True):
+        c1, c2 = st.columns([3, 1])
+        lot = c1.selectbox("Lot (newest first; type to search)", list(labels), format_func=labels.get,
+                           key="lot")
+        c2.date_input("Inspected on", key="inspected_on", max_value=dt.date.today(), format="YYYY-MM-DD")
+        row = lots.loc[lots["lot"] == lot].iloc[0]
+        pattern, castings = row["pattern"], int(row["castings"])
+        method = st.radio("Method", METHODS, horizontal=True, key="method",
+                          format_func=views.METHOD_WORDS.get)
+        accounting(lot, method)
+        c1, c2 = st.columns([2, 1])
+        result = c1.radio("Result", RESULTS, horizontal=True, key="result")
+        c2.number_input("Quantity (castings)", min_value=1, step=1, key="quantity")
+        judged = result != "accept"
+        st.pills("Defect (reject and rework)", DEFECTS, key="defect", disabled=not judged,
+                 format_func=lambda d: d.replace("_", " "))
+        zones = common.load("zone_options", pattern)
+        st.pills(f"Zone of the casting ({common.md_escape(pattern)})", zones, key="zone",
+                 disabled=not judged or not zones)
+        if method == XRAY:
+            c1, c2 = st.columns([2, 1])
+            c1.pills("Radiography category", XRAY_CATEGORIES, key="xray_category",
+                     help="Reference-radiograph category: A gas, B sand and slag, C shrinkage (CA-CD), "
+                          "D cracks, E hot tears, F inserts, G mottling.")
+            c2.pills("Severity level (1 least - 5)", SEVERITIES, key="severity")
+        c1, c2 = st.columns(2)
+        c1.text_input("Inspector", key="inspector", max_chars=100)
+        access.author_field(c2, "Your name (required; recorded as who logged it)", "recorded_by")
+        with st.expander("Serial and notes (optional)"):
+            st.text_input("Casting serial", key="serial", max_chars=100)
+            st.text_area("Notes", key="notes", max_chars=2000, height=80)
+        st.button("Save record", type="primary", key="save", on_click=_save, args=(lot, castings))
+    message = st.session_state.pop("form_message", None)
+    if message:
+        kind, what = message
+        if kind == "success":
+            st.success(what)
+        elif kind == "error":
+            st.error(what)
+        else:
+            common.show_error(what)
 
 
 def upload_file() -> None:
@@ -100,8 +165,15 @@ def upload_file() -> None:
     with common.guard(), tempfile.TemporaryDirectory(prefix="pourback-upload-") as tmp:
         path = pathlib.Path(tmp) / (pathlib.Path(upload.name).name or f"upload.{kind}.csv")
         path.write_bytes(upload.getvalue())
-        with common.open_store() as store:
-            res = import_file(store, kind, path, by=by)
+        with common.open_store() as store, st.status(f"Importing {kind} ...", expanded=False) as box:
+            done = [0]
+
+            def progress(rows: int) -> None:
+                done[0] += rows
+                box.update(label=f"Importing {kind}: {done[0]:,} rows checked ...")
+
+            res = import_file(store, kind, path, by=by, progress=progress)
+            box.update(label=f"Imported {kind}: {res.rows:,} rows", state="complete")
         common.forget()
         st.success(f"Imported {common.md_escape(res.file)}: {res.rows:,} rows read, {res.added:,} added, "
                    f"{res.skipped:,} already present.")
@@ -112,9 +184,12 @@ def latest(state: dict) -> None:
     if state["counts"]["inspections"] == 0:
         st.caption("No inspection records yet.")
         return
-    n = st.number_input("Records to show (newest first)", min_value=10, max_value=1000, value=50, step=10,
+    c1, c2 = st.columns([1, 1])
+    n = c1.number_input("Records to show (newest first)", min_value=10, max_value=1000, value=50, step=10,
                         key="history_limit")
-    st.dataframe(common.load("latest_records", limit=int(n)), hide_index=True, width="stretch",
+    full = c2.toggle("Show every column", key="history_all_columns",
+                     help="x-ray category, severity, inspector, notes, when and from where it was recorded.")
+    st.dataframe(common.load("latest_records", limit=int(n), full=full), hide_index=True, width="stretch",
                  key="latest_records_table", placeholder="")
 
 

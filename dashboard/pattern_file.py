@@ -18,19 +18,26 @@ def main() -> None:
     if opts.empty:
         common.start_message(state, "a pattern file")
         return
-    labels = dict(zip(opts["pattern"], opts["label"]))
+    flagged = common.flagged_patterns()
+    labels = {code: label + (" · flagged" if code in flagged else "")
+              for code, label in zip(opts["pattern"], opts["label"])}
+    # the pattern asked for in the address (?pattern=P-1031), else the first one the review flags
     wanted = st.query_params.get("pattern")
-    index = list(labels).index(wanted) if wanted in labels else 0
+    first = next((p for p in flagged if p in labels), None)
+    index = list(labels).index(wanted) if wanted in labels else (list(labels).index(first) if first else 0)
     code = st.selectbox("Pattern", list(labels), index=index, format_func=labels.get, key="pattern")
+    if code != wanted:
+        st.query_params["pattern"] = code  # the address names the pattern shown
 
     info = common.load("pattern_summary", code)
-    c = st.columns(6)
-    c[0].metric("Alloy", info["alloy"])
+    c = st.columns(3)
+    c[0].metric("Alloy", info.get("alloy_name") or info["alloy"], help=f"alloy key: {info['alloy']}")
     c[1].metric("Casting weight (kg)", f"{info['casting_weight_kg']:g}")
-    c[2].metric("Castings per mold", f"{info['castings_per_mold']}")
-    c[3].metric("Lots poured", f"{info['lots']:,}")
-    c[4].metric("Castings poured", f"{info['poured']:,}")
-    c[5].metric("Reject rate, all time", common.pct(info["reject_rate_pct"], 2),
+    c[2].metric("Castings per mold", f"{info['castings_per_mold']:,}")
+    c = st.columns(3)
+    c[0].metric("Lots poured", f"{info['lots']:,}")
+    c[1].metric("Castings poured", f"{info['poured']:,}")
+    c[2].metric("Reject rate, all time", common.pct(info["reject_rate_pct"], 2),
                 help=f"{info['rejected']:,} of {info['inspected']:,} castings inspected")
     mould = info["mould"].replace("_", " ") if info.get("mould") else "not given, taken as green sand"
     st.caption((f"Poured from {info['first_pour']} to {info['last_pour']}. " if info["first_pour"] else "")

@@ -1,19 +1,21 @@
-"""Suggestions: riser changes for flagged patterns with their yield and cost, and a what-if."""
+"""Suggestions: riser changes for flagged patterns with their yield and money, and a what-if."""
 
 from __future__ import annotations
 
 import streamlit as st
 
 from dashboard import access, charts, common
-from tracker import views
+from tracker import advise, views
 from tracker.assess import rule_words
 
 NUMBER = st.column_config.NumberColumn
 KEEP, BARE = "keep", "none"
+MONEY = views.MONEY_UNIT
 
 
-def suggestion_list(week: str, weeks: int, target: float) -> list[dict]:
-    found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks)
+def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list[dict]:
+    found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge,
+                        status="Pricing riser changes for the problem patterns")
     st.subheader("Suggested changes")
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")
@@ -27,15 +29,19 @@ def suggestion_list(week: str, weeks: int, target: float) -> list[dict]:
     st.markdown("**What it brings**")
     st.dataframe(table[views.BALANCE_PART], hide_index=True, width="stretch", key="balance_table",
                  placeholder="", column_config={
-                     "reject rate now (%)": NUMBER(format="%.2f"), "predicted after (%)": NUMBER(format="%.2f"),
+                     "observed now (%)": NUMBER(format="%.2f"), "predicted now (%)": NUMBER(format="%.2f"),
+                     "predicted after (%)": NUMBER(format="%.2f"),
                      "added metal (kg per mold)": NUMBER(format="%+.2f"), "yield now (%)": NUMBER(format="%.1f"),
                      "yield after (%)": NUMBER(format="%.1f"),
-                     "balance (currency units/year)": NUMBER(format="%+,.0f")})
-    st.caption("Reject rate now: shrinkage rejects in the zone (or all rejects where no riser change is "
-               "suggested), % of castings poured in the window. Predicted after: the shop's reject model "
-               "for the changed riser. Yield: casting weight / (casting + riser weight), gating left out. "
-               "Yearly balance: scrap saved less extra metal and sleeves, at this window's pour rate "
-               "(currency units per year).")
+                     f"scrap saved ({MONEY})": NUMBER(format="%,.0f"),
+                     f"extra cost ({MONEY})": NUMBER(format="%,.0f"),
+                     f"balance ({MONEY})": NUMBER(format="%+,.0f")})
+    st.caption("Observed now: shrinkage rejects in the zone (or all rejects where no riser change is "
+               "suggested), % of castings poured in the window. Predicted now and after: the shop's reject "
+               "model for the present and the changed riser; the money is on that one basis: scrap saved = "
+               "castings per year × (predicted now − predicted after) × cost per scrapped casting. Extra "
+               "cost: added riser metal at the remelt charge, and the change in sleeve cost. Yield: casting "
+               "weight / (casting + riser weight), gating left out.")
     for s in found:
         where = " · ".join(str(x) for x in (s["pattern"], s.get("zone"), s.get("riser")) if x)
         with st.expander(common.md_escape(f"{where}: {s['action'].replace('_', ' ')}")):
@@ -43,10 +49,32 @@ def suggestion_list(week: str, weeks: int, target: float) -> list[dict]:
     return found
 
 
-def what_if(found: list[dict]) -> None:
+def _sleeve_picked(sleeves, row, sleeve_key: str, dia_key: str) -> None:
+    """A sleeve picked: show its inner diameter (the riser's own for keep or bare)."""
+    code = st.session_state[sleeve_key]
+    if code == KEEP or code == BARE:
+        st.session_state[dia_key] = float(row["diameter_mm"])
+    else:
+        st.session_state[dia_key] = float(sleeves.loc[sleeves["sleeve"] == code, "inner_diameter_mm"].iat[0])
+
+
+def _diameter_typed(sleeves, row, sleeve_key: str, dia_key: str) -> None:
+    """A diameter typed with a sleeve on: the catalogue's sleeve of the same
+    kind and that size, where there is one (else the what-if says there is none)."""
+    code = st.session_state[sleeve_key]
+    if code == BARE or (code == KEEP and not isinstance(row["sleeve"], str)):
+        return
+    present = row["sleeve"] if code == KEEP else code
+    kind = sleeves.loc[sleeves["sleeve"] == present, "kind"]
+    hit = advise.same_kind_sleeve(sleeves, kind.iat[0], st.session_state[dia_key]) if len(kind) else None
+    if hit is not None:
+        st.session_state[sleeve_key] = hit["sleeve"]
+
+
+def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
     st.subheader("What if")
     st.caption("Change one riser of a pattern's newest revision and see its rule margins, the predicted "
-               "shrinkage rate and the yield. Nothing is saved.")
+               "shrinkage rate, the yield and the money, priced as the suggestions are. Nothing is saved.")
     risers = common.load("riser_options")
     if risers.empty:
         st.info("No risers in the log yet.")
@@ -58,58 +86,103 @@ def what_if(found: list[dict]) -> None:
     key = c1.selectbox("Riser", keys, index=keys.index(first) if first in keys else 0,
                        format_func=labels.get, key="whatif_riser")
     row = risers[(risers["pattern"] == key[0]) & (risers["riser"] == key[1])].iloc[0]
-    sleeves = common.load("sleeve_options")
+    sleeves = common.load("sleeve_options")  # smallest first
     sleeve_labels = {KEEP: "keep as it is" + (f" ({row['sleeve']})" if isinstance(row["sleeve"], str) else
                                               " (no sleeve)"),
                      BARE: "no sleeve (bare riser)", **dict(zip(sleeves["sleeve"], sleeves["label"]))}
-    sleeve = c2.selectbox("Sleeve", list(sleeve_labels), format_func=sleeve_labels.get,
-                          key=f"whatif_sleeve_{key[0]}_{key[1]}")
-    catalogue = sleeve not in (KEEP, BARE)
-    sleeved_now = isinstance(row["sleeve"], str) and sleeve == KEEP
-    diameter = c3.number_input("Diameter (mm)", min_value=10.0, max_value=2000.0,
-                               value=float(row["diameter_mm"]), step=10.0, format="%.0f",
-                               key=f"whatif_dia_{key[0]}_{key[1]}", disabled=catalogue or sleeved_now,
-                               help="A sleeved riser takes the sleeve's inner diameter; the height keeps "
-                                    "the present height / diameter ratio.")
-    changed = None if (catalogue or sleeved_now or diameter == float(row["diameter_mm"])) else float(diameter)
-    result = common.load("what_if", key[0], key[1], diameter_mm=changed,
-                         sleeve=None if sleeve == BARE else sleeve)
-
+    sleeve_key, dia_key = f"whatif_sleeve_{key[0]}_{key[1]}", f"whatif_dia_{key[0]}_{key[1]}"
+    sleeve = c2.selectbox("Sleeve (smallest first)", list(sleeve_labels), format_func=sleeve_labels.get,
+                          key=sleeve_key, on_change=_sleeve_picked, args=(sleeves, row, sleeve_key, dia_key))
+    st.session_state.setdefault(dia_key, float(row["diameter_mm"]))  # set here, moved by the sleeve picked
+    diameter = c3.number_input("Diameter (mm)", min_value=10.0, max_value=2000.0, step=10.0, format="%.0f",
+                               key=dia_key,
+                               on_change=_diameter_typed, args=(sleeves, row, sleeve_key, dia_key),
+                               help="A sleeved riser takes the sleeve's inner diameter and height; a "
+                                    "diameter typed with a sleeve takes the catalogue's sleeve of the same "
+                                    "kind and that size. A bare riser keeps its height / diameter ratio.")
+    changed = None if diameter == float(row["diameter_mm"]) else float(diameter)
+    result = None
+    with common.guard():
+        result = common.load("what_if", key[0], key[1], diameter_mm=changed,
+                             sleeve=None if sleeve == BARE else sleeve, week=week, weeks=weeks,
+                             remelt_charge=charge)
+    if result is None:
+        return
     st.markdown(common.md_escape(
         f"{result['pattern']} revision {result['revision']}, riser {result['riser']} on zone "
         f"{result['zone']}: {result['diameter_mm']:g} x {result['height_mm']:g} mm, "
         + (f"sleeve {result['sleeve']}" if result["sleeve"] else "no sleeve")))
-    def delta(new, now, fmt="{:+.2f}", unit=""):
-        if new is None or now is None or abs(new - now) < 1e-9:
-            return None
-        return fmt.format(new - now) + unit
+    _rule_metrics(result)
+    _rate_metrics(result)
+    _money_metrics(result)
+    st.altair_chart(charts.margins(views.what_if_margins(result)), width="stretch", key="whatif_chart")
 
+
+def _delta(new, now, fmt="{:+.2f}", unit=""):
+    if new is None or now is None or abs(new - now) < 1e-9:
+        return None
+    return fmt.format(new - now) + unit
+
+
+def _rule_metrics(result: dict) -> None:
     c = st.columns(4)
     c[0].metric("Modulus ratio (rule: 1.2 or more)", f"{result['modulus_ratio']:.2f}",
-                delta=delta(result["modulus_ratio"], result["modulus_ratio_now"]))
+                delta=_delta(result["modulus_ratio"], result["modulus_ratio_now"]))
     if result["caine_margin"] is None:
         c[1].metric("Caine margin", "not applied", help="no Caine constants for this alloy")
     else:
         c[1].metric("Caine margin (0 or more passes)", f"{result['caine_margin']:+.2f}",
-                    delta=delta(result["caine_margin"], result["caine_margin_now"]))
+                    delta=_delta(result["caine_margin"], result["caine_margin_now"]))
     c[2].metric("Feed margin (0 or more passes)", f"{result['feed_margin']:+.2f}",
-                delta=delta(result["feed_margin"], result["feed_margin_now"]))
+                delta=_delta(result["feed_margin"], result["feed_margin_now"]))
     failed = [r for r in result["failed_rules"].split(",") if r]
     c[3].metric("Rules", "all pass" if result["passes"] else f"{len(failed)} failed",
                 help=None if result["passes"] else "failed: " + rule_words(failed))
-    c = st.columns(4)
-    now, new = result.get("predicted_rate_now"), result.get("predicted_rate")
-    c[0].metric("Predicted shrinkage rate", common.pct(None if new is None else 100 * new, 2),
-                delta=delta(None if new is None else 100 * new, None if now is None else 100 * now,
-                            unit=" points"),
-                delta_color="inverse", help="now: " + common.pct(None if now is None else 100 * now, 2))
-    c[1].metric("Yield now", common.pct(100 * result["yield_before"]))
-    c[2].metric("Yield changed", common.pct(100 * result["yield_after"]),
-                delta=delta(100 * result["yield_after"], 100 * result["yield_before"], "{:+.1f}", " points"))
-    c[3].metric("Added metal (kg per mold)", f"{result['added_metal_kg_per_mold']:+.2f}")
     if failed:
         st.caption(common.md_escape("Rules failed: " + ", ".join(f.replace("_", " ") for f in failed) + "."))
-    st.altair_chart(charts.margins(views.what_if_margins(result)), width="stretch", key="whatif_chart")
+
+
+def _rate_metrics(result: dict) -> None:
+    def p(v):
+        return None if v is None else 100 * v
+
+    now, new = p(result["predicted_rate_now"]), p(result["predicted_rate_after"])
+    c = st.columns(4)
+    c[0].metric("Observed rate (log)", common.pct(p(result["observed_rate"]), 2),
+                help=f"shrinkage rejects in zone {result['zone']} over the {result['zone_castings']:,} castings "
+                     f"poured under this revision in the {result['weeks']} weeks up to {result['week']}")
+    c[1].metric("Predicted rate now (model)", common.pct(now, 2))
+    c[2].metric("Predicted rate changed (model)", common.pct(new, 2),
+                delta=_delta(new, now, unit=" points"), delta_color="inverse")
+    c[3].metric("Yield changed", common.pct(100 * result["yield_after"]),
+                delta=_delta(100 * result["yield_after"], 100 * result["yield_before"], "{:+.1f}", " points"),
+                help="now: " + common.pct(100 * result["yield_before"]))
+
+
+def _money_metrics(result: dict) -> None:
+    """The money as in the suggestions: two columns, so the labels fit at tablet width."""
+    unit = "; in currency units per year"
+    rows = [("Extra riser metal (per year)", "extra_metal_cost_per_year",
+             f"{result['added_metal_kg_per_mold']:+.2f} kg per mold at the remelt charge" + unit),
+            ("Sleeves (per year)", "sleeve_cost_per_year", "change in sleeve cost per casting" + unit),
+            ("Scrap saved (per year)", "scrap_saved_per_year",
+             "castings per year × (predicted now − predicted changed) × cost per scrapped casting" + unit),
+            ("Yearly balance", "yearly_balance", "scrap saved less extra riser metal and sleeves" + unit)]
+    for pair in (rows[:2], rows[2:]):
+        c = st.columns(2)
+        for col, (label, key, note) in zip(c, pair):
+            delta = None
+            if key == "yearly_balance" and result["changed"]:
+                delta = "pays off" if result["pays_off"] else "does not pay off"
+            col.metric(label, common.money(result[key]), delta=delta, help=note,
+                       delta_color="normal" if result["pays_off"] else "inverse")
+    also = [r for r in result["changed_risers"] if r != result["riser"]]
+    st.caption(common.md_escape(
+        f"Priced as the suggestions are: {result['castings_per_year']:,.0f} castings a year, "
+        f"{common.money(result['cost_per_scrapped_casting'])} per scrapped casting (processing in full, "
+        f"metal at the remelt charge {result['remelt_charge']:g})"
+        + (f"; the same change on {', '.join(also)}, which fail the rules on the same zone" if also else "")
+        + "."))
 
 
 def main() -> None:
@@ -120,10 +193,16 @@ def main() -> None:
         common.start_message(state, "suggestions (they need risers, lots and inspections)")
         return
     week, weeks, target = common.review_controls()
-    found = suggestion_list(week, weeks, target)
+    c1, _ = st.columns([1, 3])
+    charge = float(c1.number_input("Remelt charge (share of metal price)", min_value=0.0, max_value=1.0,
+                                   value=advise.DEFAULT_REMELT_CHARGE, step=0.05, format="%.2f", key="remelt",
+                                   help="What is lost on each kg poured that does not ship (scrapped "
+                                        "castings, extra riser metal): melting, handling, melt loss. "
+                                        "Common practice 0.2 to 0.4 of the metal price; shop practice varies."))
+    found = suggestion_list(week, weeks, target, charge)
     st.divider()
     if access.can("what_if"):
-        what_if(found)
+        what_if(found, week, weeks, charge)
     else:
         st.subheader("What if")
         st.caption(access.not_offered("what_if"))

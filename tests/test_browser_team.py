@@ -196,9 +196,14 @@ def test_an_inspector_logs_a_result_that_carries_their_name(page, team_server):
     assert page.get_by_label("Your name (required; recorded as who logged it)").count() == 0
     choose(page, "Lot (newest first", lot)
     settle(page)
-    choose(page, "Method", "visual")
-    choose(page, "Result", "reject")
-    choose(page, "Defect (reject and rework)", "sand")
+    # the bench form: one click each for method, result and defect; notes behind their expander
+    page.get_by_role("radiogroup", name="Method").get_by_text("visual", exact=True).click()
+    settle(page)
+    page.get_by_role("radiogroup", name="Result").get_by_text("reject", exact=True).click()
+    settle(page)
+    page.get_by_role("radiogroup", name="Defect (reject and rework)").get_by_role("radio", name="sand").click()
+    settle(page)
+    page.get_by_text("Serial and notes (optional)").click()
     page.get_by_label("Notes").fill("logged by a signed-in inspector")
     page.get_by_role("button", name="Save record").click()
     page.get_by_text("Saved record").wait_for()

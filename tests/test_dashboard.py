@@ -123,12 +123,12 @@ def _lot_with_room(db):
     raise AssertionError("no lot with room in the demo")
 
 
-def _fill_form(at, lot, *, result="reject", defect="sand", name="Test Person"):
+def _fill_form(at, lot, *, result="reject", defect="sand", name="Test Person", method="visual"):
     at.selectbox(key="lot").set_value(lot).run()
-    at.selectbox(key="method").set_value("visual")
+    at.radio(key="method").set_value(method).run()
     at.number_input(key="quantity").set_value(1)
-    at.selectbox(key="result").set_value(result)
-    at.selectbox(key="defect").set_value(defect)
+    at.radio(key="result").set_value(result).run()
+    at.button_group(key="defect").set_value(defect)
     at.text_input(key="inspector").input("QE-T")
     at.text_area(key="notes").input("logged from the dashboard test")
     at.text_input(key="recorded_by").input(name)
@@ -145,6 +145,9 @@ def test_form_writes_a_record_the_review_counts(app_db, monkeypatch):
     assert not at.exception and not at.error, texts(at.error)
     assert any(s.startswith("Saved record") for s in texts(at.success)), texts(at.success)
 
+    latest = at.dataframe[-1].value
+    assert "source" not in latest.columns  # the columns that matter first; the rest behind a toggle
+    at.toggle(key="history_all_columns").set_value(True).run()
     latest = at.dataframe[-1].value
     first = latest.iloc[0]
     assert (first["lot"], first["result"], first["defect"]) == (lot, "reject", "sand")
@@ -175,12 +178,72 @@ def test_form_without_the_loggers_name_writes_nothing(app_db, monkeypatch):
 def test_form_shows_the_librarys_refusal_and_writes_nothing(app_db, monkeypatch):
     lot, _ = _lot_with_room(app_db)
     before = snapshot(app_db)
-    at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot, defect="(none)")
+    at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot, defect=None)
     assert not at.exception
     errors = texts(at.error)
     assert len(errors) == 1 and errors[0].startswith("defect"), errors
     assert "needs the defect found" in errors[0]
     assert snapshot(app_db) == before
+
+
+def test_form_shows_category_and_severity_for_xray_only(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "log_results.py", monkeypatch)
+    keys = lambda: {b.key for b in at.button_group}  # noqa: E731
+    assert at.radio(key="method").value == "visual" and not {"xray_category", "severity"} & keys()
+    at.radio(key="method").set_value("xray").run()
+    assert {"xray_category", "severity"} <= keys()
+    # ASTM E446/E186/E280 categories A-G, severity levels 1 (least) to 5 (from memory)
+    assert [str(o) for o in at.button_group(key="severity").options] == ["1", "2", "3", "4", "5"]
+    at.radio(key="method").set_value("dimensional").run()
+    assert not {"xray_category", "severity"} & keys()
+
+
+def test_after_a_save_the_result_fields_clear_and_the_session_fields_stay(app_db, monkeypatch):
+    lot, _ = _lot_with_room(app_db)
+    at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot)
+    assert any(s.startswith("Saved record") for s in texts(at.success)), texts(at.error)
+    assert at.selectbox(key="lot").value == lot
+    assert at.text_input(key="inspector").value == "QE-T"
+    assert at.text_input(key="recorded_by").value == "Test Person"
+    assert at.date_input(key="inspected_on").value is not None
+    assert at.radio(key="result").value == "accept"
+    assert at.button_group(key="defect").value is None and at.button_group(key="zone").value is None
+    assert at.number_input(key="quantity").value == 1
+    assert at.text_area(key="notes").value == ""
+    # a visual rework after an x-ray reject: nothing of the x-ray record is left to refuse it
+    at.radio(key="method").set_value("xray").run()
+    at.radio(key="result").set_value("reject").run()
+    at.button_group(key="defect").set_value("shrinkage")
+    at.button_group(key="xray_category").set_value("CC")
+    at.button_group(key="severity").set_value(3)
+    at.button(key="save").click().run()
+    assert any(s.startswith("Saved record") for s in texts(at.success)), texts(at.error)
+    at.radio(key="method").set_value("visual").run()
+    at.radio(key="result").set_value("rework").run()
+    at.button_group(key="defect").set_value("sand")
+    at.button(key="save").click().run()
+    assert not at.error, texts(at.error)
+    with Store(app_db) as s:
+        newest = s.inspections_history(limit=1).iloc[0]
+    assert (newest["method"], newest["result"], newest["xray_category"]) == ("visual", "rework", None)
+
+
+def test_form_shows_what_each_method_accounted_for(app_db, monkeypatch):
+    from tracker import views
+
+    lot, _ = _lot_with_room(app_db)
+    at = open_page(app_db, "log_results.py", monkeypatch)
+    at.selectbox(key="lot").set_value(lot).run()
+    with Store(app_db) as s:
+        a = views.lot_accounting(s, lot)
+        totals = s.lot_totals([lot]).get(lot, {"methods": {}})
+    visual = int(totals["methods"].get("visual", 0))
+    line = next(c for c in texts(at.caption) if c.startswith(f"Lot {lot}: "))
+    assert f"**visual** {visual:,} of {a['castings']:,}, {a['castings'] - visual:,} left" in line
+    # ... and it follows a save
+    _fill_form(at, lot)
+    line = next(c for c in texts(at.caption) if c.startswith(f"Lot {lot}: "))
+    assert f"**visual** {visual + 1:,} of {a['castings']:,}, {a['castings'] - visual - 1:,} left" in line
 
 
 def _upload(at, name: str, content: str, by="Test Person"):
@@ -338,7 +401,10 @@ def test_suggestions_and_what_if(app_demo_db, monkeypatch):
     hit = change[(change["pattern"] == "P-1017") & (change["riser"] == "R3")]
     assert len(hit) == 1 and hit["action"].iat[0] != "no riser change"
     balance = next(d.value for d in at.dataframe if "yield after (%)" in d.value.columns)
-    assert {"added metal (kg per mold)", "balance (currency units/year)"} <= set(balance.columns)
+    assert {"added metal (kg per mold)", "balance (currency units/year)", "pays off"} <= set(balance.columns)
+    # observed and predicted rates side by side, labelled
+    cols = balance.columns.tolist()
+    assert cols.index("observed now (%)") + 1 == cols.index("predicted now (%)")
     # The what-if opens on the first suggested riser: P-1017 R3, a bare 100 mm riser failing rules.
     assert at.selectbox(key="whatif_riser").value == ("P-1017", "R3")
     # modulus, Caine, neck, and feed volume once the liquid contraction (1.6 % per 100 K, steel) is fed
@@ -350,15 +416,46 @@ def test_suggestions_and_what_if(app_demo_db, monkeypatch):
     # The modulus of a cylinder with H/D kept grows with D: 130/100 times larger.
     assert after == pytest.approx(before * 1.3, abs=0.01)
     assert metric(at, "Rules") == "all pass"
-    assert metric(at, "Yield changed") != metric(at, "Yield now")
+    assert [m for m in at.metric if m.label == "Yield changed"][0].delta.startswith("-")
 
 
 def test_what_if_with_a_catalogue_sleeve(app_demo_db, monkeypatch):
     at = open_page(app_demo_db, "suggestions.py", monkeypatch)
-    at.selectbox(key="whatif_sleeve_P-1017_R3").set_value("IS-100").run()
+    box = at.selectbox(key="whatif_sleeve_P-1017_R3")
+    # the catalogue sorted by inner diameter, after "keep" and "none"
+    with Store(app_demo_db) as s:
+        cat = s.table("sleeves")
+    codes = [o.split(" · ")[0] for o in box.options[2:]]  # the labels start with the sleeve code
+    order = cat.set_index("sleeve").loc[codes, "inner_diameter_mm"].tolist()
+    assert box.options[0].startswith("keep") and box.options[1].startswith("no sleeve")
+    assert order == sorted(order) and len(order) == len(cat)
+    box.set_value("IS-130").run()
     assert not at.exception and not at.error
-    assert at.number_input(key="whatif_dia_P-1017_R3").disabled
-    assert any("sleeve IS-100" in m for m in texts(at.markdown))
+    # choosing a sleeve shows its diameter
+    assert at.number_input(key="whatif_dia_P-1017_R3").value == 130.0
+    assert any("sleeve IS-130" in m for m in texts(at.markdown))
+
+
+def test_what_if_bigger_riser_and_sleeve_with_money(app_demo_db, monkeypatch):
+    from tracker.advise import what_if
+
+    at = open_page(app_demo_db, "suggestions.py", monkeypatch)
+    at.selectbox(key="whatif_riser").set_value(("P-1036", "R2")).run()  # exothermic XS-90 in the demo
+    at.number_input(key="whatif_dia_P-1036_R2").set_value(120.0).run()
+    assert not at.exception and not at.error
+    assert at.selectbox(key="whatif_sleeve_P-1036_R2").value == "XS-120"
+    assert any("120 x 150 mm, sleeve XS-120" in m for m in texts(at.markdown))
+    with Store(app_demo_db) as s:
+        want = what_if(s, "P-1036", "R2", sleeve="XS-120", week=at.selectbox(key="week").value)
+    for label, key in (("Extra riser metal (per year)", "extra_metal_cost_per_year"),
+                       ("Sleeves (per year)", "sleeve_cost_per_year"),
+                       ("Scrap saved (per year)", "scrap_saved_per_year"), ("Yearly balance", "yearly_balance")):
+        assert metric(at, label) == f"{want[key]:,.0f}"
+    assert metric(at, "Predicted rate now (model)") == f"{100 * want['predicted_rate_now']:.2f} %"
+    # a size the catalogue does not have in that kind: one message, no traceback
+    at.number_input(key="whatif_dia_P-1036_R2").set_value(130.0).run()
+    assert not at.exception
+    assert any("no exothermic sleeve of that inner diameter" in e for e in texts(at.error))
 
 
 # --- errors and user text ---------------------------------------------------------------------------
@@ -384,3 +481,92 @@ def test_user_text_in_messages_is_inert_markdown(app_db, monkeypatch):
     assert raw.startswith(r"\[click\]\(x\.example\)")  # no live link
     assert r"\*\*b\*\*" in raw and r"\<i\>" in raw  # no bold, no tag
     assert texts(at.error)[0].startswith("[click](x.example) **b** <i>.csv: refused")
+
+
+# --- design map: designs in use, flagged patterns, links to the pattern file ----------------------
+
+def test_design_map_counts_failing_designs_in_use_only(app_demo_db, monkeypatch):
+    from tracker import views
+    from tracker.features import design_map
+    from tracker.review import default_week, weekly_review
+
+    at = open_page(app_demo_db, "design_map.py", monkeypatch)
+    with Store(app_demo_db) as s:
+        current = views.current_revisions(s)
+        problems = weekly_review(s, default_week(s))["problems"]
+        start, end = at.date_input(key="period").value
+        frame = design_map(s, start=start.isoformat(), end=end.isoformat(), alloy="steel")
+    frame = frame.dropna(subset=["volume_ratio", "freezing_ratio"])
+    in_use = frame[[current.get(p) == str(r) for p, r in zip(frame["pattern"], frame["revision"])]]
+    # the resized riser's old revision (P-1031 revision 1) fails a rule but is superseded
+    old = frame[(frame["pattern"] == "P-1031") & (frame["revision"].astype(str) == "1")]
+    assert len(old) and not old["passes"].astype(bool).all()
+    assert metric(at, "Zones in use whose riser fails a rule") == f"{int((~in_use['passes'].astype(bool)).sum()):,}"
+    el = at.get("vega_lite_chart")[0]
+    dots = next(l for l in layers(json.loads(el.proto.spec)) if mark(l) == "circle")
+    points = chart_data(el, dots)
+    designs = dict(zip(zip(points["pattern"], points["revision"].astype(str)), points["design"]))
+    assert designs[("P-1031", "1")] == "superseded by a later revision"
+    for code in set(points["pattern"]) & set(problems):
+        assert designs[next(k for k in designs if k[0] == code and current.get(code) == k[1])] == \
+            "in use, pattern flagged"
+    # the colour scale covers the highest rate on the map
+    scale = dots["encoding"]["color"]["scale"]
+    assert scale["domain"][0] == 0 and scale["domain"][1] == pytest.approx(points["shrinkage_rate_pct"].max())
+    # a click selects the point's pattern
+    assert json.loads(el.proto.spec)["params"][0]["select"]["fields"] == ["pattern"]
+
+
+def test_choosing_a_pattern_on_the_design_map_opens_its_file(app_demo_db, monkeypatch):
+    at = open_page(app_demo_db, "design_map.py", monkeypatch)
+    at.selectbox(key="open_pattern").set_value("P-1036").run()
+    assert not at.exception
+    assert texts(at.title) == ["Pattern file"]
+    assert at.selectbox(key="pattern").value == "P-1036"
+
+
+def test_pattern_file_opens_on_the_first_flagged_pattern(app_demo_db, monkeypatch):
+    from tracker.review import default_week, weekly_review
+
+    with Store(app_demo_db) as s:
+        first = weekly_review(s, default_week(s))["problems"][0]
+    at = open_page(app_demo_db, "pattern_file.py", monkeypatch)
+    assert at.selectbox(key="pattern").value == first
+    alloy = metric(at, "Alloy")
+    assert alloy == "Carbon and low-alloy steel"  # the alloy's name, whole
+
+
+# --- weekly review: labelled Pareto, signals, verdicts in words ----------------------------------------
+
+def test_pareto_labels_every_bar_it_shows(app_demo_db, monkeypatch):
+    from tracker.review import default_week, weekly_review
+
+    at = open_page(app_demo_db, "weekly_review.py", monkeypatch)
+    with Store(app_demo_db) as s:
+        r = weekly_review(s, default_week(s))
+    el = next(e for e in at.get("vega_lite_chart") if "cumulative share (%)" in e.proto.spec)
+    spec = json.loads(el.proto.spec)
+    bars = next(l for l in layers(spec) if mark(l) == "bar")
+    data = chart_data(el, bars if "data" in bars else spec)
+    costly = [p for p in r["pareto"]["patterns_by_cost"] if p["scrap_cost"]]
+    assert len(costly) > 12 and len(data) == 12
+    assert data["pattern"].tolist()[:11] == [p["pattern"] for p in costly[:11]]
+    assert data["pattern"].iat[-1] == f"the other {len(costly) - 11} patterns"
+    assert data["value"].sum() == pytest.approx(sum(p["scrap_cost"] for p in costly))
+    axis = bars["encoding"]["x"]["axis"]
+    assert axis["labelOverlap"] is False  # no label dropped to make room
+
+
+def test_review_page_shows_the_chart_signals(app_demo_db, monkeypatch):
+    from tracker.review import default_week, weekly_review
+
+    at = open_page(app_demo_db, "weekly_review.py", monkeypatch)
+    with Store(app_demo_db) as s:
+        r = weekly_review(s, default_week(s))
+    signalled = {p["pattern"] for p in r["patterns"] if p["signal_rules"] or p["signal_rules_window"]}
+    assert signalled, "the demo has run-rule and limit signals"
+    table = next(d.value for d in at.dataframe if list(d.value.columns) == ["pattern", "signal", "when", "flagged"])
+    assert set(table["pattern"]) == signalled
+    runs = [p["pattern"] for p in r["patterns"] if "run_of_8" in (p["signal_rules"] or p["signal_rules_window"])]
+    for code in runs:
+        assert "8 or more weeks on one side" in table.set_index("pattern").loc[code, "signal"]

@@ -497,3 +497,19 @@ def test_demo_pcharts_match_stats_p_chart(demo_review):
         assert [pt["signal"] for pt in p["pchart"]] == ref["signal"].tolist()
         assert p["signal_rules"] == stats.latest_signal(ref, 2)
         assert p["signal_rules_window"] == stats.signal_rules(ref)
+
+
+def test_review_floor_holds_the_rows_the_review_counts(demo_store, demo_review):
+    # Plumbing: the benchmark's floor (Store.review_floor) fetches the rows the review
+    # reads; summed by hand they give the review's own totals for the review week.
+    floor = demo_store.review_floor("2026-11-09", "2026-11-22")
+    week = {lot: castings for lot, _, poured_on, castings in floor["lots"] if poured_on >= "2026-11-16"}
+    assert sum(week.values()) == demo_review["totals"]["week"]["poured"]
+    inspected = {lot for lot, *_ in floor["records"] if lot in week}
+    assert sum(week[lot] for lot in inspected) == demo_review["totals"]["week"]["inspected"]
+    assert sum(q for lot, result, _, _, q in floor["records"]
+               if lot in week and result == "reject") == demo_review["totals"]["week"]["rejected"]
+    # one revision in force per pattern poured before the span, plus those taking effect in it
+    poured = {pattern for _, pattern, _, _ in floor["lots"]}
+    assert {pattern for pattern, *_ in floor["risers"]} <= poured
+    assert all(eff <= "2026-11-22" for _, _, eff, *_ in floor["risers"])

@@ -46,6 +46,7 @@ def test_pressure_control_neck_that_passes():
     assert r.rule_set == "pressure_control"
     neck_mm = 4 * 0.65 * MS * 10  # round neck: M = d/4
     assert r.neck_diameter_mm == pytest.approx(neck_mm)
+    assert "Karsay" in r.source and "from memory" in r.source
     got = _judge(diameter_mm=r.diameter_mm, neck_mm=neck_mm, mould="rigid")
     assert got["rule_set"] == "pressure_control"
     assert got["neck_ok"] == 1.0
@@ -236,8 +237,13 @@ def test_size_from_the_logged_zone_rounds_to_the_step(tmp_path, runner):
                                "--db", str(db), "--json"])
     assert res.exit_code == 0, res.output
     d = json.loads(res.output)
-    # The zone's volume 2000 cm³, area 1100 cm², T 40, W 300, L 150 (tests/data/good).
-    ref = size_riser(2000, 1100, "steel", "side", thickness_mm=40, width_mm=300, length_mm=150)
+    # The zone's volume 2000 cm³, area 1100 cm², T 40, W 300, L 150, and the mean pour
+    # temperature of T-100's lots (tests/data/good), as written in the files.
+    lots = [r.split(",") for r in (GOOD / "lots.csv").read_text().splitlines()[1:]]
+    temps = [float(r[5]) for r in lots if r[1] == "T-100" and len(r) > 5 and r[5]]
+    ref = size_riser(2000, 1100, "steel", "side", thickness_mm=40, width_mm=300, length_mm=150,
+                     pour_temp_c=sum(temps) / len(temps))
+    assert d["pour_temp_c"] == pytest.approx(sum(temps) / len(temps))
     assert d["diameter_mm"] == pytest.approx(ref.diameter_mm)
     assert d["rounded_diameter_mm"] == math.ceil(ref.diameter_mm / 25) * 25
     # Bishop-Pellini plate (W/T = 7.5): 4.5 x 40 = 180 mm >= 150 mm.
@@ -276,3 +282,32 @@ def test_mould_on_the_pattern_reaches_check(tmp_path, mem_store):
     assert got["mould"] == "rigid" and got["rule_set"] == "pressure_control"
     assert got["passes"], got["notes"]
     assert mem_store.table("zones")["width_mm"].tolist() == [250.0]
+
+
+def test_suggest_narrows_a_wide_pressure_control_neck(tmp_path, mem_store):
+    import datetime as dt
+
+    from tracker.advise import suggest
+
+    # A ductile-iron riser with a steel-style 80 mm neck (M_neck = 2.0 cm = 1.1 M_s) and
+    # shrinkage in its zone: pressure control (Karsay, from memory) asks the neck to
+    # freeze as expansion starts, 0.5-0.8 x M_s = 0.91-1.45 cm, i.e. 36-58 mm round.
+    files = {"patterns.csv": "pattern,description,alloy,casting_weight_kg,castings_per_mold,metal_cost_per_kg,"
+                             "mould\nD1,hub,ductile_iron,20,1,1.5,rigid\n",
+             "zones.csv": f"pattern,zone,volume_cm3,cooling_area_cm2\nD1,hub,{VC},{AC}\n",
+             "risers.csv": "pattern,revision,effective_from,riser,zone,placement,top,diameter_mm,height_mm,"
+                           "neck_diameter_mm\nD1,1,2026-01-05,R1,hub,side,blind,110,110,80\n"}
+    lots, insp = ["lot,pattern,poured_on,heat,molds"], ["lot,inspected_on,method,quantity,result,defect,zone"]
+    for i in range(40):
+        day = dt.date(2026, 9, 7) + dt.timedelta(days=i)
+        lots.append(f"L{i},D1,{day},H{i},10")
+        insp.append(f"L{i},{day + dt.timedelta(days=1)},visual,8,accept,,")
+        insp.append(f"L{i},{day + dt.timedelta(days=1)},visual,2,reject,shrinkage,hub")
+    files["lots.csv"], files["inspections.csv"] = "\n".join(lots) + "\n", "\n".join(insp) + "\n"
+    for name, text in files.items():
+        (tmp_path / name).write_text(text)
+    import_dir(mem_store, tmp_path, today=dt.date(2026, 12, 1))
+    s = suggest(mem_store, pattern="D1", week="2026-W42", weeks=13)[0]
+    assert s["rule_set"] == "pressure_control" and s["action"] == "neck"
+    assert 4 * 0.5 * MS * 10 <= s["suggested_neck_diameter_mm"] <= 4 * 0.8 * MS * 10
+    assert s["reason"].startswith("narrow the neck of riser R1") and "fails: neck." in s["reason"]

@@ -146,3 +146,4 @@ def test_feeding_distance_not_judged_without_width_or_thickness():
     # DOMAIN.md: where width or thickness is unknown, the rule is not judged.
     out = rules.feeding_distance_mm(np.array([50.0, np.nan]), np.array([np.nan, 200.0]))
     assert np.isnan(out).all()
+    assert list(rules.section_shape([80.0, np.nan], [np.nan, 200.0])) == ["", ""]

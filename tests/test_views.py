@@ -276,7 +276,14 @@ def test_filter_design_map():
 def test_design_map_summary_and_table():
     f = views.filter_design_map(_map_frame(), "steel")
     assert views.design_map_summary(f) == {"zones": 2, "castings": 300, "shrinkage_rejects": 11,
-                                           "failing": 1, "rate_pct": pytest.approx(11 / 3)}
+                                           "failing": 1, "superseded": 0, "flagged_patterns": 0,
+                                           "rate_pct": pytest.approx(11 / 3), "max_rate_pct": 10.0}
+    # a later revision of A: its zones are superseded, shown apart and not counted as failing
+    old = views.filter_design_map(_map_frame(), "steel", current={"A": "2"}, flagged=["A"])
+    assert old["design"].tolist() == [views.SUPERSEDED] * 2
+    assert views.design_map_summary(old)["failing"] == 0 and views.design_map_summary(old)["superseded"] == 2
+    now = views.filter_design_map(_map_frame(), "steel", current={"A": "1"}, flagged=["A"])
+    assert now["design"].tolist() == [views.IN_USE_FLAGGED] * 2 and views.design_map_summary(now)["failing"] == 1
     t = views.design_map_table(f)
     assert t["zone"].tolist() == ["z1", "z2"]  # worst rate first
     assert "shrinkage rate (%)" in t.columns and "castings poured" in t.columns
@@ -290,7 +297,10 @@ def test_filter_design_map_on_the_demo(demo_store):
     zone = f.set_index("zone")
     # The planted story: flange-B (undersized R3) scraps far more than its twin flange-A.
     assert zone.loc["flange-B", "shrinkage_rate_pct"] > 5 * zone.loc["flange-A", "shrinkage_rate_pct"]
-    assert zone.loc["flange-B", "rules_text"] == "fails a rule"
+    assert zone.loc["flange-B", "rules_text"] == "fails a rule (modulus sequence)"
+    # Ductile iron is judged by pressure control, and the map says so.
+    di = views.filter_design_map(design_map(demo_store), "ductile_iron")
+    assert di["rules_text"].str.endswith("(pressure control)").all()
 
 
 # --- suggestions ---------------------------------------------------------------------------
@@ -298,15 +308,18 @@ def test_filter_design_map_on_the_demo(demo_store):
 def test_suggestions_table_percentages_and_order():
     rows = [{"pattern": "P", "zone": "z", "riser": "R1", "action": "enlarge_and_sleeve",
              "current_diameter_mm": 90.0, "current_sleeve": None, "suggested_diameter_mm": 120.0,
-             "suggested_sleeve": "XS-120", "reject_rate": 0.12, "predicted_rate_after": 0.005,
-             "added_metal_kg_per_mold": 3.5, "yield_before": 0.65, "yield_after": 0.6,
-             "yearly_balance": 1000.0, "reason": "why not", "extra": 1}]
+             "suggested_sleeve": "XS-120", "reject_rate": 0.12, "predicted_rate_now": 0.033,
+             "predicted_rate_after": 0.005, "added_metal_kg_per_mold": 3.5, "yield_before": 0.65,
+             "yield_after": 0.6, "scrap_saved_per_year": 1500.0, "extra_cost_per_year": 500.0,
+             "yearly_balance": 1000.0, "pays_off": True, "reason": "why not", "extra": 1}]
     t = views.suggestions_table(rows)
     assert t.columns.tolist() == list(views.SUGGESTION_COLUMNS.values())
     r = t.iloc[0]
     assert r["action"] == "enlarge and sleeve"
-    assert r["reject rate now (%)"] == pytest.approx(12.0)
+    assert r["observed now (%)"] == pytest.approx(12.0)
+    assert r["predicted now (%)"] == pytest.approx(3.3)
     assert r["predicted after (%)"] == pytest.approx(0.5)
+    assert r["pays off"] == "yes" and r["balance (currency units/year)"] == 1000.0
     assert r["yield after (%)"] == pytest.approx(60.0)
     assert r["now: sleeve"] == "none"
     assert set(views.CHANGE_PART) <= set(t.columns) and set(views.BALANCE_PART) <= set(t.columns)
@@ -320,6 +333,19 @@ def test_suggestions_table_blank_sleeve_without_a_riser():
     t = views.suggestions_table(rows)
     assert t["now: sleeve"].tolist() == [None, "none"]
     assert t["suggested: sleeve"].tolist() == [None, "none"]
+
+
+def test_suggestions_table_no_change_shows_no_money():
+    rows = [{"pattern": "P", "zone": None, "riser": None, "action": "no_riser_change", "reject_rate": 0.05,
+             "predicted_rate_now": None, "predicted_rate_after": None, "yearly_balance": 0.0,
+             "scrap_saved_per_year": 0.0, "extra_cost_per_year": 0.0, "pays_off": False}]
+    r = views.suggestions_table(rows).iloc[0]
+    assert r["pays off"] is None and np.isnan(r["balance (currency units/year)"])
+
+
+def test_sleeve_options_smallest_first(demo_store):
+    s = views.sleeve_options(demo_store)
+    assert s["inner_diameter_mm"].is_monotonic_increasing and len(s) == len(demo_store.table("sleeves"))
 
 
 def test_suggestions_table_empty():
@@ -432,3 +458,34 @@ def test_signal_and_reason_words():
     assert views.signal_words([]) == "" and views.signal_words(None) == ""
     assert views.reason_words(["signal:run_of_8", "rejects_above_target"]) == \
         "chart: 8 or more weeks above the centre, reject rate above target"
+
+
+def test_verdict_in_plain_words_first_with_the_statistics_apart(app_demo_db):
+    from scipy import stats as sps
+
+    from tracker.review import weekly_review
+    from tracker.store import Store
+
+    with Store(app_demo_db) as s:
+        rev = next(r for r in weekly_review(s, "2026-W47")["revisions"] if r["pattern"] == "P-1031")
+    b, a = rev["before"], rev["after"]
+    # scipy.stats.fisher_exact on the shrinkage rejects before and after
+    p = sps.fisher_exact([[b["shrinkage_rejected"], b["inspected"] - b["shrinkage_rejected"]],
+                          [a["shrinkage_rejected"], a["inspected"] - a["shrinkage_rejected"]]]).pvalue
+    assert p < 0.001
+    before = f"{100 * b['shrinkage_rejected'] / b['inspected']:.1f} %"
+    after = "0 %" if a["shrinkage_rejected"] == 0 else f"{100 * a['shrinkage_rejected'] / a['inspected']:.1f} %"
+    assert views.verdict_sentence(rev) == f"improved: shrinkage fell from {before} to {after}, very unlikely to be chance"
+    details = views.verdict_details(rev)
+    assert f"p = {p:.2g}" in details and "%" in details and "halving" in details
+
+
+@pytest.mark.parametrize("verdict,p,start", [
+    ("worse", 0.004, "worse: shrinkage rose from 2 % to 6 %, unlikely to be chance"),
+    ("no_clear_change", 0.4, "no clear change: shrinkage went from 2 % to 6 %, which could well be chance"),
+    ("not_enough_data", 0.4, "not enough data yet: shrinkage 2 % before, 6 % in the 50 castings inspected since"),
+])
+def test_verdict_words_for_each_verdict(verdict, p, start):
+    rev = {"verdict": verdict, "p_value": p, "rate_before": 0.02, "rate_after": 0.06,
+           "before": {"inspected": 500, "shrinkage_rejected": 10}, "after": {"inspected": 50, "shrinkage_rejected": 3}}
+    assert views.verdict_sentence(rev).startswith(start)

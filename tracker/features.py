@@ -25,26 +25,44 @@ FEATURE_COLUMNS = [
 ]
 
 
+def weakest_margins(assessed: pd.DataFrame, keys) -> pd.DataFrame:
+    """Per group of ``keys``: each margin's minimum over the group's risers
+    (MARGIN_COLS), the alloy, thickness and rule set, the sleeve kind of the
+    riser lowest on Caine's margin, then on the modulus ratio, and the
+    largest modulus ratio the zone's rule set asks (``modulus_target``).
+
+    ``assessed`` is from ``assess_frame`` with a ``thickness_mm`` column. This
+    is how the model sees a zone fed by several risers, in its training table
+    and in every prediction made for suggestions.
+    """
+    keys = list(keys)
+    a = assessed.assign(_caine_sort=assessed["caine_margin"].astype(float).fillna(np.inf))
+    a = a.sort_values(keys + ["_caine_sort", "modulus_ratio"], kind="stable")
+    g = a.groupby(keys, sort=False)
+    out = g[MARGIN_COLS].min()
+    first = g[[c for c in ("alloy", "sleeve_kind", "thickness_mm", "rule_set") if c in a]].first()
+    out = out.join(first)
+    if "modulus_required_ratio" in a:  # the zone's rule set asks the largest of its risers' ratios
+        out["modulus_target"] = g["modulus_required_ratio"].max()
+    return out.reset_index()
+
+
 def zone_design(store: Store, pattern=None) -> pd.DataFrame:
     """Per pattern, revision and zone: the weakest riser's assessed margins."""
     risers = store.risers_frame(pattern=pattern if isinstance(pattern, str) else None)
+    if pattern is not None and not isinstance(pattern, str):
+        risers = risers[risers["pattern"].isin(list(pattern))].reset_index(drop=True)
     if risers.empty:
         return pd.DataFrame(columns=["pattern", "revision", "effective_from", "zone", "riser", "alloy",
                                      "sleeve_kind", "thickness_mm", "passes", "rule_set",
                                      "modulus_target"] + MARGIN_COLS)
     a = assess_frame(risers)
     a["thickness_mm"] = risers["thickness_mm"].astype(float).to_numpy()
-    a["caine_sort"] = a["caine_margin"].fillna(np.inf)
-    a = a.sort_values(["pattern", "revision", "zone", "caine_sort", "modulus_ratio"])
-    g = a.groupby(["pattern", "revision", "zone"], sort=False)
-    out = g.agg(effective_from=("effective_from", "first"), alloy=("alloy", "first"),
-                riser=("riser", lambda s: "+".join(sorted(s))), sleeve_kind=("sleeve_kind", "first"),
-                thickness_mm=("thickness_mm", "first"), passes=("passes", "all"),
-                rule_set=("rule_set", "first"), modulus_target=("modulus_required_ratio", "max"),
-                modulus_ratio=("modulus_ratio", "min"), caine_margin=("caine_margin", "min"),
-                feed_margin=("feed_margin", "min"), volume_ratio=("volume_ratio", "min"),
-                freezing_ratio=("freezing_ratio", "min")).reset_index()
-    return out
+    keys = ["pattern", "revision", "zone"]
+    g = a.groupby(keys, sort=False)
+    rest = g.agg(effective_from=("effective_from", "first"), riser=("riser", lambda s: "+".join(sorted(s))),
+                 passes=("passes", "all")).reset_index()
+    return weakest_margins(a, keys).merge(rest, on=keys)
 
 
 def _lots_with_revision(store: Store, start, end, pattern) -> pd.DataFrame:

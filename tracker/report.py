@@ -628,6 +628,13 @@ tr.problem td:first-child { border-left: 4px solid var(--alert); font-weight: 60
 ul.changes { margin: 4px 0 8px 18px; padding: 0; }
 footer { margin-top: 28px; color: var(--muted); font-size: 12px; border-top: 1px solid var(--line);
          padding-top: 8px; }
+@media (max-width: 900px) {  /* a tablet: every table fits the width, no sideways scrolling */
+  body { padding: 16px 12px 32px; }
+  table { font-size: 11.5px; }
+  th, td { padding: 3px 4px; }
+  th { hyphens: auto; overflow-wrap: anywhere; }
+  td.n { white-space: normal; }
+}
 @page { size: A4; margin: 12mm; }
 @media print {
   body { padding: 0; max-width: none; font-size: 10.5pt; }

@@ -2,10 +2,14 @@
 riser revisions, for one ISO week and the weeks before it.
 
 Everything is computed from day-level SQL aggregates (``Store.pours_by_day``,
-``Store.rejects_by_day``) with pandas and numpy, array-wise over patterns and
-weeks, so the work grows with the number of patterns and pour days in the
-window, never with a Python loop over lots (the loops left run over riser
-revisions of the window, for the statistical test of each).
+``Store.rejects_by_day``, read column by column, no DataFrame) with numpy,
+array-wise over patterns and weeks, so the work grows with the number of
+patterns and pour days in the window, never with a Python loop over lots (the
+loops left build the output and run over riser revisions of the window, for
+the statistical test of each). pandas is left out of the hot path: its fixed
+cost per operation was most of a one-week review. The scale benchmark holds
+the review against the bare fetch of the rows it reads
+(``Store.review_floor``).
 
 Counting rules
 --------------
@@ -45,6 +49,8 @@ test) on shrinkage rejects in the zones of the risers that changed.
 from __future__ import annotations
 
 import datetime as dt
+import functools
+import gc
 import math
 
 import numpy as np
@@ -138,18 +144,47 @@ def _day_before(iso: str) -> str:
     return _iso(dt.date.fromisoformat(iso) - dt.timedelta(days=1))
 
 
-def _with_monday(df: pd.DataFrame) -> pd.DataFrame:
-    """Add the Monday (a date) of each row's pour date."""
-    df = df.copy()
-    days = pd.to_datetime(df["poured_on"], format="%Y-%m-%d")
-    df["monday"] = (days - pd.to_timedelta(days.dt.day_of_week, unit="D")).dt.date
-    return df
+def _ints(values) -> np.ndarray:
+    """Whole numbers from SQL (None as 0) as an int64 array."""
+    return np.nan_to_num(np.array(values, dtype=float)).astype(np.int64)
 
 
-def _numeric(df: pd.DataFrame, cols) -> pd.DataFrame:
-    for c in cols:
-        df[c] = pd.to_numeric(df[c], errors="coerce").fillna(0).astype(np.int64)
-    return df
+def _numbers(values, index: dict) -> np.ndarray:
+    """Each value's number in ``index`` (-1 where absent), hashing each distinct value once."""
+    codes, uniques = pd.factorize(np.asarray(values, dtype=object))
+    lookup = np.array([index.get(u, -1) for u in uniques] + [-1], dtype=np.int64)
+    return lookup[codes]
+
+
+def _ordinals(days) -> np.ndarray:
+    """ISO dates (text) as proleptic ordinals (whole days), each distinct date parsed once."""
+    codes, uniques = pd.factorize(np.asarray(days, dtype=object))
+    lookup = np.array([dt.date.fromisoformat(d).toordinal() for d in uniques], dtype=np.int64)
+    return lookup[codes]
+
+
+def _pour_arrays(cols: dict, index: dict) -> dict[str, np.ndarray]:
+    """``Store.pours_by_day`` columns as arrays; ``pattern`` as its number in ``index``
+    (rows of other patterns are dropped)."""
+    pat = _numbers(cols["pattern"], index)
+    keep = pat >= 0
+    out = {"pattern": pat, "day": _ordinals(cols["poured_on"])}
+    for k in ("lots", "castings", "inspected_lots", "inspected_castings"):
+        out[k] = _ints(cols[k]) if k in cols else np.zeros(len(pat), dtype=np.int64)
+    return {k: v[keep] for k, v in out.items()}
+
+
+def _reject_arrays(cols: dict, index: dict) -> dict[str, np.ndarray]:
+    """``Store.rejects_by_day`` columns as arrays: pattern number, day, ``reject``
+    and ``rework`` flags, ``defect`` and ``zone`` (objects, None kept), quantity."""
+    pat = _numbers(cols["pattern"], index)
+    keep = pat >= 0
+    result = np.array(cols["result"], dtype=object)
+    out = {"pattern": pat, "day": _ordinals(cols["poured_on"]),
+           "reject": result == "reject", "rework": result == "rework",
+           "defect": np.array(cols["defect"], dtype=object), "zone": np.array(cols["zone"], dtype=object),
+           "quantity": _ints(cols["quantity"])}
+    return {k: v[keep] for k, v in out.items()}
 
 
 def _rate(k, n):
@@ -159,17 +194,45 @@ def _rate(k, n):
         return np.where(n > 0, k / n, np.nan)
 
 
-def _pareto_rows(df: pd.DataFrame, by: str, value: str) -> list[dict]:
-    if df.empty:
+def _rows(cols: dict) -> list[dict]:
+    """Rows of a dict of equal-length columns as JSON-ready dicts, built column-wise.
+
+    Numpy columns go through :func:`_column`; list columns are taken as built
+    (already plain Python values).
+    """
+    names = list(cols)
+    values = [c if isinstance(c, list) else _column(c) for c in cols.values()]
+    return [dict(zip(names, vals)) for vals in zip(*values)]
+
+
+def _pareto_rows(keys, values, key: str, value: str, extra: dict | None = None) -> list[dict]:
+    """Pareto rows (``key``, ``value``, share, cumulative_share, vital_few and the
+    ``extra`` columns) of one value per key, keys in ascending order."""
+    if not len(keys):
         return []
-    return _records(stats.pareto(df[[by, value]], by, value))
+    sh = stats.pareto_shares(values)
+    o = sh["order"]
+    cols = {key: np.asarray(keys, dtype=object)[o], value: np.asarray(values)[o],
+            "share": sh["share"], "cumulative_share": sh["cumulative_share"], "vital_few": sh["vital_few"]}
+    for name, col in (extra or {}).items():
+        cols[name] = np.asarray(col)[o]
+    return _rows(cols)
 
 
-def _nested(s: pd.Series) -> dict:
-    """{pattern: {key: count}} of a (pattern, key) series, largest counts first."""
-    out: dict[str, dict] = {}
-    for (code, key), v in s.sort_values(ascending=False, kind="stable").items():
-        out.setdefault(code, {})[str(key)] = int(v)
+def _nested(pattern: np.ndarray, key: np.ndarray, quantity: np.ndarray, n_patterns: int) -> list[dict]:
+    """Per pattern number, {key: summed quantity}, largest first (ties by key)."""
+    out = [{} for _ in range(n_patterns)]
+    if not len(pattern):
+        return out
+    names = sorted(set(key.tolist()))
+    code = {k: i for i, k in enumerate(names)}
+    kc = np.fromiter(map(code.__getitem__, key.tolist()), dtype=np.int64, count=len(key))
+    sums = np.bincount(pattern * len(names) + kc, weights=quantity, minlength=n_patterns * len(names))
+    cells = np.flatnonzero(sums)
+    p, k, v = cells // len(names), cells % len(names), sums[cells]
+    order = np.lexsort((k, -v, p))
+    for pi, ki, vi in zip(p[order].tolist(), k[order].tolist(), v[order].tolist()):
+        out[pi][str(names[ki])] = int(vi)
     return out
 
 
@@ -223,37 +286,42 @@ def _rules(beyond: np.ndarray, run: np.ndarray) -> list[list[str]]:
 
 # --- one window --------------------------------------------------------------------------
 
-def _unit_costs(info: pd.DataFrame) -> tuple[pd.Series, pd.Series]:
-    weight = pd.Series(info["casting_weight_kg"].astype(float).to_numpy(), index=info["pattern"])
-    cost = weight * info["metal_cost_per_kg"].astype(float).to_numpy() \
-        + info["processing_cost_per_casting"].astype(float).fillna(0.0).to_numpy()
-    return cost, weight
+def _matrices(codes: list[str], pours: dict, rejects: dict, first_monday: dt.date, n_weeks: int,
+              info: dict[str, tuple]) -> dict:
+    """Pattern × week tables (numpy, one row per pattern of ``codes``, one column per
+    week from ``first_monday``), and each pattern's unit scrap cost and weight."""
+    n = len(codes)
+    origin = first_monday.toordinal()
 
+    def pivot(rows: dict, value: str, mask=None) -> np.ndarray:
+        pat, col, val = rows["pattern"], (rows["day"] - origin) // 7, rows[value]
+        if mask is not None:
+            pat, col, val = pat[mask], col[mask], val[mask]
+        inside = (col >= 0) & (col < n_weeks)
+        cell = pat[inside] * n_weeks + col[inside]
+        return np.bincount(cell, weights=val[inside], minlength=n * n_weeks).reshape(n, n_weeks)
 
-def _matrices(pours: pd.DataFrame, rejects: pd.DataFrame, mondays: list[dt.date]) -> dict:
-    """Pattern × week tables (numpy, one row per pattern poured, one column per Monday)."""
-    codes = np.array(sorted(pours["pattern"].unique()), dtype=object)
-    rows, cols = pd.Index(codes), pd.Index(mondays)
-
-    def pivot(df: pd.DataFrame, value: str) -> np.ndarray:
-        if df.empty or not len(codes):
-            return np.zeros((len(codes), len(mondays)))
-        s = df.groupby(["pattern", "monday"])[value].sum()
-        return s.unstack(fill_value=0).reindex(index=rows, columns=cols, fill_value=0).to_numpy(float)
-
-    rej = rejects[rejects["result"] == "reject"]
-    return {"codes": codes, "lots": pivot(pours, "lots"), "poured": pivot(pours, "castings"),
+    rej = rejects["reject"]
+    at = {c: i for i, c in enumerate(info["pattern"])}
+    rows = [at[c] for c in codes]
+    weight = np.array([info["casting_weight_kg"][i] for i in rows], dtype=float)
+    metal = np.array([info["metal_cost_per_kg"][i] for i in rows], dtype=float)
+    processing = np.nan_to_num(np.array([info["processing_cost_per_casting"][i] for i in rows], dtype=float))
+    return {"codes": np.array(codes, dtype=object), "origin": origin,
+            "lots": pivot(pours, "lots"), "poured": pivot(pours, "castings"),
             "inspected_lots": pivot(pours, "inspected_lots"),
-            "inspected": pivot(pours, "inspected_castings"), "rejected": pivot(rej, "quantity"),
-            "reworked": pivot(rejects[rejects["result"] == "rework"], "quantity"),
-            "shrinkage_rejected": pivot(rej[rej["defect"] == SHRINKAGE], "quantity")}
+            "inspected": pivot(pours, "inspected_castings"), "rejected": pivot(rejects, "quantity", rej),
+            "reworked": pivot(rejects, "quantity", rejects["rework"]),
+            "shrinkage_rejected": pivot(rejects, "quantity", rej & (rejects["defect"] == SHRINKAGE)),
+            "unit_cost": weight * metal + processing, "weight": weight,
+            "description": [info["description"][i] for i in rows], "alloy": [info["alloy"][i] for i in rows]}
 
 
 COUNTS = ("lots", "poured", "inspected_lots", "inspected", "rejected", "reworked", "shrinkage_rejected")
 
 
-def _window(mx: dict, rejects: pd.DataFrame, info: pd.DataFrame, mondays: list[dt.date],
-            columns: slice, target: float, confidence: float, full: bool = True) -> dict:
+def _window(mx: dict, rejects: dict, mondays: list[dt.date], columns: slice, target: float,
+            confidence: float, full: bool = True) -> dict:
     """Per-pattern figures, charts, defects and trend for the weeks ``mondays``
     (the ``columns`` of the tables ``mx``).
 
@@ -262,25 +330,23 @@ def _window(mx: dict, rejects: pd.DataFrame, info: pd.DataFrame, mondays: list[d
     """
     labels = [stats.iso_week(m) for m in mondays]
     keep = mx["lots"][:, columns].sum(axis=1) > 0
+    rows = np.flatnonzero(keep)
     w = {k: mx[k][keep][:, columns] for k in COUNTS}
     codes = mx["codes"][keep]
-    unit_cost, weight = _unit_costs(info)
-    t = pd.DataFrame({"pattern": codes, **{k: w[k].sum(axis=1).astype(np.int64) for k in COUNTS}})
+    t = {"pattern": codes, **{k: w[k].sum(axis=1).astype(np.int64) for k in COUNTS}}
     for k in ("poured", "inspected", "rejected"):
-        t["week_" + k] = w[k][:, -1].astype(np.int64) if len(mondays) else 0
+        t["week_" + k] = w[k][:, -1].astype(np.int64)
     t["awaiting_inspection"] = t["poured"] - t["inspected"]
     t["reject_rate"] = _rate(t["rejected"], t["inspected"])
-    lo, hi = stats.wilson_interval(t["rejected"].to_numpy(), t["inspected"].to_numpy(), confidence)
-    t["wilson_low"], t["wilson_high"] = lo, hi
+    t["wilson_low"], t["wilson_high"] = stats.wilson_interval(t["rejected"], t["inspected"], confidence)
     t["shrinkage_rate"] = _rate(t["shrinkage_rejected"], t["inspected"])
-    lo, hi = stats.wilson_interval(t["shrinkage_rejected"].to_numpy(), t["inspected"].to_numpy(),
-                                   confidence)
-    t["shrinkage_wilson_low"], t["shrinkage_wilson_high"] = lo, hi
+    t["shrinkage_wilson_low"], t["shrinkage_wilson_high"] = stats.wilson_interval(
+        t["shrinkage_rejected"], t["inspected"], confidence)
     t["week_reject_rate"] = _rate(t["week_rejected"], t["week_inspected"])
-    unit = t["pattern"].map(unit_cost).astype(float).to_numpy()
+    unit = mx["unit_cost"][keep]
     t["unit_scrap_cost"] = unit
     t["scrap_cost"] = t["rejected"] * unit
-    t["scrap_weight_kg"] = t["rejected"] * t["pattern"].map(weight).astype(float)
+    t["scrap_weight_kg"] = t["rejected"] * mx["weight"][keep]
     t["week_scrap_cost"] = t["week_rejected"] * unit
 
     # weekly p-charts, all patterns at once (weeks without inspected castings stay empty)
@@ -294,7 +360,7 @@ def _window(mx: dict, rejects: pd.DataFrame, info: pd.DataFrame, mondays: list[d
     t["signal_rules_window"] = _rules(ch["beyond"], ch["run"])
     t["signal_high_rules"] = _rules(ch["beyond"][:, -last:] & high, ch["run"][:, -last:] & high)
     reasons = []
-    for hr, slo, lo_ in zip(t["signal_high_rules"], t["shrinkage_wilson_low"], t["wilson_low"]):
+    for hr, slo, lo_ in zip(t["signal_high_rules"], t["shrinkage_wilson_low"].tolist(), t["wilson_low"].tolist()):
         why = [f"signal:{rule}" for rule in hr]
         if slo > target:
             why.append("shrinkage_above_target")
@@ -306,52 +372,70 @@ def _window(mx: dict, rejects: pd.DataFrame, info: pd.DataFrame, mondays: list[d
     if not full:
         return {"table": t, "labels": labels}
 
-    # the charts as plain rows, one list per pattern
+    # the charts as plain rows, one list per pattern (keys as in PCHART_KEYS). Where
+    # nothing was inspected p and the limits are undefined (None) and no rule fires,
+    # so only the weeks with castings inspected are read from the chart arrays.
     starts = [_iso(m) for m in mondays]
-    centre = np.repeat(ch["centre"][:, None], len(mondays), axis=1)
-    cols = [_column(a) for a in (k_w.astype(np.int64), n_w.astype(np.int64), ch["p"], centre, ch["lcl"],
-                                 ch["ucl"], ch["beyond"], ch["run"], ch["signal"])]
-    # a dict display is about twice as fast as dict(zip(...)); keys as in PCHART_KEYS
-    t["pchart"] = [[{"label": a, "week_start": b, "rejected": k, "inspected": n, "p": p_, "centre": c,
-                     "lcl": lo_, "ucl": hi_, "beyond": be, "run": ru, "signal": si}
-                    for a, b, k, n, p_, c, lo_, hi_, be, ru, si in zip(labels, starts, *(col[i] for col in cols))]
-                   for i in range(len(t))]
+    rejected, inspected = k_w.astype(np.int64).tolist(), n_w.astype(np.int64).tolist()
+    seen = n_w > 0
+    judged = iter(zip(*(ch[x][seen].tolist() for x in ("p", "lcl", "ucl", "beyond", "run", "signal"))))
+    charts = []
+    for c, ks, ns in zip(_column(ch["centre"]), rejected, inspected):
+        chart = []
+        for a, b, k, n in zip(labels, starts, ks, ns):
+            if n:
+                p_, lo_, hi_, be, ru, si = next(judged)
+                chart.append({"label": a, "week_start": b, "rejected": k, "inspected": n, "p": p_, "centre": c,
+                              "lcl": lo_, "ucl": hi_, "beyond": be, "run": ru, "signal": si})
+            else:
+                chart.append({"label": a, "week_start": b, "rejected": k, "inspected": n, "p": None, "centre": c,
+                              "lcl": None, "ucl": None, "beyond": False, "run": False, "signal": False})
+        charts.append(chart)
+    t["pchart"] = charts
 
-    # scrap by defect and shrinkage by zone, per pattern
-    rej = rejects[rejects["monday"].isin(mondays) & (rejects["result"] == "reject")]
-    rej = rej.assign(defect=rej["defect"].fillna(NO_DEFECT), zone=rej["zone"].fillna(NO_ZONE))
-    by_defect = rej.groupby(["pattern", "defect"])["quantity"].sum()
-    by_zone = rej[rej["defect"] == SHRINKAGE].groupby(["pattern", "zone"])["quantity"].sum()
-    nd, nz = _nested(by_defect), _nested(by_zone)
-    t["by_defect"] = [nd.get(c, {}) for c in t["pattern"]]
-    t["shrinkage_by_zone"] = [nz.get(c, {}) for c in t["pattern"]]
+    # scrap by defect and shrinkage by zone, per pattern (rows of the window's weeks)
+    col = (rejects["day"] - mx["origin"]) // 7
+    lo_col, hi_col, _ = columns.indices(mx["lots"].shape[1])
+    sel = rejects["reject"] & (col >= lo_col) & (col < hi_col)
+    where = np.full(len(mx["codes"]), -1, dtype=np.int64)
+    where[rows] = np.arange(len(rows))
+    pat, qty = where[rejects["pattern"][sel]], rejects["quantity"][sel]
+    defect = rejects["defect"][sel]
+    defect = np.where(pd.isna(defect), NO_DEFECT, defect)
+    zone = rejects["zone"][sel]
+    zone = np.where(pd.isna(zone), NO_ZONE, zone)
+    shr = defect == SHRINKAGE
+    t["by_defect"] = _nested(pat, defect, qty, len(codes))
+    t["shrinkage_by_zone"] = _nested(pat[shr], zone[shr], qty[shr], len(codes))
+    t["description"] = [mx["description"][i] for i in rows.tolist()]
+    t["alloy"] = [mx["alloy"][i] for i in rows.tolist()]
+    t["casting_weight_kg"] = mx["weight"][keep]
 
-    meta = info.set_index("pattern")[["description", "alloy", "casting_weight_kg"]]
-    t = t.join(meta, on="pattern")
-    t = t.sort_values(["scrap_cost", "rejected", "pattern"], ascending=[False, False, True],
-                      kind="stable").reset_index(drop=True)
+    # largest scrap cost first, then most rejects, then pattern code (codes are in order)
+    order = np.lexsort((np.arange(len(codes)), -t["rejected"], -t["scrap_cost"]))
+    t = {k: (v[order] if isinstance(v, np.ndarray) else [v[i] for i in order.tolist()]) for k, v in t.items()}
 
-    # defects: count and cost
-    d = by_defect.reset_index()
-    d["scrap_cost"] = d["quantity"] * d["pattern"].map(unit_cost).astype(float)
-    d = d.rename(columns={"quantity": "rejected"})
+    # defects: count and cost, summed over patterns
+    names = sorted(set(defect.tolist()))
+    code = {k: i for i, k in enumerate(names)}
+    dc = np.fromiter(map(code.__getitem__, defect.tolist()), dtype=np.int64, count=len(defect))
+    d = {"defect": names, "rejected": np.bincount(dc, weights=qty, minlength=len(names)).astype(np.int64),
+         "scrap_cost": np.bincount(dc, weights=qty * unit[pat], minlength=len(names))}
 
     # trend, overall and per pattern (the pattern's weeks with pours)
     cost_w = w["rejected"] * unit[:, None]
-    overall = pd.DataFrame({"week": labels, "week_start": starts,
-                            **{k: w[k].sum(axis=0).astype(np.int64)
-                               for k in ("poured", "inspected", "rejected", "reworked")},
-                            "scrap_cost": cost_w.sum(axis=0)})
+    overall = {"week": labels, "week_start": starts,
+               **{k: w[k].sum(axis=0).astype(np.int64) for k in ("poured", "inspected", "rejected", "reworked")},
+               "scrap_cost": cost_w.sum(axis=0)}
     overall["reject_rate"] = _rate(overall["rejected"], overall["inspected"])
-    lo, hi = stats.wilson_interval(overall["rejected"].to_numpy(), overall["inspected"].to_numpy(),
-                                   confidence)
-    overall["wilson_low"], overall["wilson_high"] = lo, hi
+    overall["wilson_low"], overall["wilson_high"] = stats.wilson_interval(overall["rejected"],
+                                                                          overall["inspected"], confidence)
     i, j = np.nonzero(w["lots"] > 0)
-    order = np.lexsort((codes[i].astype(str), j))
-    i, j = i[order], j[order]
-    per = pd.DataFrame({"week": np.asarray(labels, dtype=object)[j], "pattern": codes[i],
-                        **{k: w[k][i, j].astype(np.int64) for k in ("poured", "inspected", "rejected")},
-                        "scrap_cost": cost_w[i, j]})
+    o = np.lexsort((i, j))
+    i, j = i[o], j[o]
+    per = {"week": np.asarray(labels, dtype=object)[j], "pattern": codes[i],
+           **{k: w[k][i, j].astype(np.int64) for k in ("poured", "inspected", "rejected")},
+           "scrap_cost": cost_w[i, j]}
     per["reject_rate"] = _rate(per["rejected"], per["inspected"])
     return {"table": t, "defects": d, "overall": overall, "per_pattern": per, "labels": labels}
 
@@ -389,16 +473,32 @@ def _riser_changes(old: dict, new: dict) -> list[dict]:
     return out
 
 
-def _period_sums(frame: pd.DataFrame, cand: pd.DataFrame, value_cols: list[str], start: str,
-                 end: str) -> pd.DataFrame:
-    """Per candidate revision, ``value_cols`` summed over its rows dated ``start``..``end`` (columns)."""
-    m = frame.merge(cand[["cid", "pattern", start, end]], on="pattern")
-    m = m[(m["poured_on"] >= m[start]) & (m["poured_on"] <= m[end])]
-    return m.groupby("cid")[value_cols].sum().reindex(cand["cid"]).fillna(0).astype(np.int64)
+_DAY_BITS = 2 ** 21  # above any proleptic ordinal (year 5000 is about 1.8 million)
+
+
+class _DaySums:
+    """Sums of day-level values per pattern over date spans, by cumulative sums
+    on rows sorted by (pattern, day): each span costs two binary searches."""
+
+    def __init__(self, pattern: np.ndarray, day: np.ndarray, values: dict[str, np.ndarray]):
+        key = pattern * _DAY_BITS + day
+        order = np.argsort(key, kind="stable")
+        self.key = key[order]
+        self.order = order
+        self.cum = {k: np.concatenate([[0], np.cumsum(v[order])]) for k, v in values.items()}
+
+    def bounds(self, pattern: np.ndarray, start: np.ndarray, end: np.ndarray):
+        lo = np.searchsorted(self.key, pattern * _DAY_BITS + start, side="left")
+        hi = np.maximum(lo, np.searchsorted(self.key, pattern * _DAY_BITS + end, side="right"))
+        return lo, hi
+
+    def sums(self, pattern, start, end) -> dict[str, np.ndarray]:
+        lo, hi = self.bounds(pattern, start, end)
+        return {k: (c[hi] - c[lo]).astype(np.int64) for k, c in self.cum.items()}
 
 
 def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: dt.date,
-               pours: pd.DataFrame, rejects: pd.DataFrame, confidence: float) -> list[dict]:
+               pours: dict, rejects: dict, codes: list[str], confidence: float) -> list[dict]:
     first, review_end = _iso(mondays[0]), _iso(mondays[-1] + dt.timedelta(days=6))
     # every revision up to the review week: one still without a verdict stays under
     # judgement however long ago it took effect (the revisions table is small)
@@ -411,86 +511,109 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: d
     cand = revs[inside | pending].reset_index(drop=True)
     if cand.empty:
         return []
-    cand["cid"] = np.arange(len(cand))
-    cand["previous"] = cand["previous"].astype(object).where(cand["previous"].notna(), None)
-    cand["in_window"] = cand["effective_from"] >= first
-    back = (pd.to_datetime(cand["effective_from"]) - pd.Timedelta(weeks=weeks)).dt.strftime("%Y-%m-%d")
-    # no previous revision: an empty before-period (start after end)
-    cand["before_start"] = [eff if prev is None else max(prev_from, b)
-                            for eff, prev, prev_from, b in zip(cand["effective_from"], cand["previous"],
-                                                               cand["previous_from"], back)]
-    cand["before_end"] = [_day_before(e) for e in cand["effective_from"]]
-    cand["after_end"] = [review_end if not isinstance(nf, str) else min(review_end, _day_before(nf))
-                         for nf in cand["next_from"]]
+    cand = {c: cand[c].astype(object).where(cand[c].notna(), None).tolist() for c in cand.columns}
+    n = len(cand["pattern"])
+    in_window = [eff >= first for eff in cand["effective_from"]]
+    before_start = [eff if prev is None else max(prev_from, _iso(dt.date.fromisoformat(eff)
+                                                                 - dt.timedelta(weeks=weeks)))
+                    for eff, prev, prev_from in zip(cand["effective_from"], cand["previous"],
+                                                    cand["previous_from"])]
+    before_end = [_day_before(e) for e in cand["effective_from"]]
+    after_end = [review_end if nf is None else min(review_end, _day_before(nf)) for nf in cand["next_from"]]
 
-    codes = sorted(cand["pattern"].unique())
-    p = pours[pours["pattern"].isin(codes)]
-    r = rejects[rejects["pattern"].isin(codes)]
-    earliest = min(cand["before_start"])
+    # the day-level rows of the candidates' patterns, fetched further back where needed
+    mine = sorted(set(cand["pattern"]))
+    index = {c: i for i, c in enumerate(mine)}
+    remap = np.array([index.get(c, -1) for c in codes] + [-1], dtype=np.int64)
+    p = {k: v[remap[pours["pattern"]] >= 0] for k, v in pours.items()}
+    p["pattern"] = remap[p["pattern"]]
+    r = {k: v[remap[rejects["pattern"]] >= 0] for k, v in rejects.items()}
+    r["pattern"] = remap[r["pattern"]]
+    earliest = min(before_start)
     if earliest < _iso(fetched_from):
         upto = _iso(fetched_from - dt.timedelta(days=1))
-        p = pd.concat([store.pours_by_day(earliest, upto, codes), p], ignore_index=True)
-        r = pd.concat([store.rejects_by_day(earliest, upto, codes), r], ignore_index=True)
-    p = _numeric(p[["pattern", "poured_on", "lots", "castings", "inspected_castings"]].copy(),
-                 ["lots", "castings", "inspected_castings"])
-    r = _numeric(r[r["result"] == "reject"][["pattern", "poured_on", "defect", "zone", "quantity"]].copy(),
-                 ["quantity"])
+        more_p = _pour_arrays(store.pours_by_day(earliest, upto, mine, columns=True), index)
+        more_r = _reject_arrays(store.rejects_by_day(earliest, upto, mine, columns=True), index)
+        p = {k: np.concatenate([more_p[k], p[k]]) for k in p}
+        r = {k: np.concatenate([more_r[k], r[k]]) for k in r}
+    r = {k: v[r["reject"]] for k, v in r.items()}
+    shr_mask = r["defect"] == SHRINKAGE
+    s = {k: v[shr_mask] for k, v in r.items()}
 
     # riser changes, from the risers of the candidates' patterns (a handful of rows each)
-    risers = store.riser_designs(codes)
+    risers = store.riser_designs(mine)
     designs: dict[tuple, dict] = {}
     for row in _records(risers[["pattern", "revision", "riser", *RISER_FIELDS]]):
         designs.setdefault((row["pattern"], row["revision"]), {})[row["riser"]] = {
             f: row[f] for f in RISER_FIELDS}
     changes = [_riser_changes(designs.get((c, prev), {}), designs.get((c, rv), {})) if prev else []
                for c, rv, prev in zip(cand["pattern"], cand["revision"], cand["previous"])]
-    cand["zones"] = [sorted({z for ch in chs for z in ch["zones"]}) for chs in changes]
+    zones = [sorted({z for ch in chs for z in ch["zones"]}) for chs in changes]
+
+    # per candidate: its pattern's number and its spans as whole days
+    ordinal = {}
+
+    def days(values):
+        out = np.empty(len(values), dtype=np.int64)
+        for i, v in enumerate(values):
+            if v not in ordinal:
+                ordinal[v] = dt.date.fromisoformat(v).toordinal()
+            out[i] = ordinal[v]
+        return out
+
+    pat = np.array([index[c] for c in cand["pattern"]], dtype=np.int64)
+    spans = {"before": (days(before_start), days(before_end)),
+             "after": (days(cand["effective_from"]), days(after_end))}
+    pour_sums = _DaySums(p["pattern"], p["day"], {k: p[k] for k in ("lots", "castings", "inspected_castings")})
+    reject_sums = _DaySums(r["pattern"], r["day"], {"quantity": r["quantity"]})
 
     # shrinkage rejects in the changed zones; all zones when no riser changed or no zone was recorded
-    shr = r[r["defect"] == SHRINKAGE]
-    spans = shr.merge(cand[["cid", "pattern", "before_start", "after_end"]], on="pattern")
-    spans = spans[(spans["poured_on"] >= spans["before_start"]) & (spans["poured_on"] <= spans["after_end"])]
-    # vectorised (no Python call per revision); a boolean Series also reindexes when spans is empty
-    zoned = spans["zone"].notna().groupby(spans["cid"]).any().reindex(cand["cid"], fill_value=False)
-    use_zones = np.array([bool(z) for z in cand["zones"]]) & zoned.to_numpy(bool)
-    cand["basis"] = np.where(~np.array([bool(z) for z in cand["zones"]]), "all zones (no riser changed)",
-                             np.where(use_zones, "zones of the changed risers",
-                                      "all zones (no zone recorded on the shrinkage rejects)"))
-    pairs = pd.DataFrame([(cid, z) for cid, zs in zip(cand["cid"], cand["zones"]) for z in zs],
-                         columns=["cid", "zone"])
-    counted = shr.merge(cand[["cid", "pattern"]], on="pattern").merge(
-        pairs.assign(in_zone=True), on=["cid", "zone"], how="left")
-    counted = counted[counted["in_zone"].fillna(False).astype(bool).to_numpy()
-                      | ~use_zones[counted["cid"].to_numpy()]]
-    counted = counted.rename(columns={"quantity": "shrinkage_rejected"})
+    sh = _DaySums(s["pattern"], s["day"], {})
+    s_zone = s["zone"][sh.order]
+    s_qty = s["quantity"][sh.order]
+    s_day = s["day"][sh.order]
+    lo, hi = sh.bounds(pat, spans["before"][0], spans["after"][1])
+    basis, shrink = [], {"before": np.zeros(n, dtype=np.int64), "after": np.zeros(n, dtype=np.int64)}
+    for i in range(n):
+        zq, dq, qq = s_zone[lo[i]:hi[i]], s_day[lo[i]:hi[i]], s_qty[lo[i]:hi[i]]
+        zoned = any(z is not None for z in zq.tolist())
+        use_zones = bool(zones[i]) and zoned
+        if not zones[i]:
+            basis.append("all zones (no riser changed)")
+        elif use_zones:
+            basis.append("zones of the changed risers")
+        else:
+            basis.append("all zones (no zone recorded on the shrinkage rejects)")
+        counted = np.array([z in zones[i] for z in zq.tolist()], dtype=bool) if use_zones \
+            else np.ones(len(zq), dtype=bool)
+        for side, (a, b) in spans.items():
+            shrink[side][i] = int(qq[counted & (dq >= a[i]) & (dq <= b[i])].sum())
 
-    periods = {"before": ("before_start", "before_end"), "after": ("effective_from", "after_end")}
-    sums = {side: (_period_sums(p, cand, ["lots", "castings", "inspected_castings"], a, b),
-                   _period_sums(r, cand, ["quantity"], a, b), _cid_sums(counted, cand, a, b))
-            for side, (a, b) in periods.items()}
-
+    sums = {side: (pour_sums.sums(pat, a, b), reject_sums.sums(pat, a, b)) for side, (a, b) in spans.items()}
+    bounds = {"before": (before_start, before_end), "after": (cand["effective_from"], after_end)}
     out = []
-    for i, rev in enumerate(cand.to_dict(orient="records")):
+    for i in range(n):
         part = {}
-        for side, (sp, sr, ss) in sums.items():
-            a, b = periods[side]
+        for side, (sp, sr) in sums.items():
+            a, b = bounds[side]
             part[side] = {
-                "start": rev[a] if side == "after" or rev["previous"] is not None else None,
-                "end": rev[b],
-                "lots": int(sp["lots"].iat[i]), "poured": int(sp["castings"].iat[i]),
-                "inspected": int(sp["inspected_castings"].iat[i]), "rejected": int(sr["quantity"].iat[i]),
-                "shrinkage_rejected": int(ss.iat[i])}
+                "start": a[i] if side == "after" or cand["previous"][i] is not None else None,
+                "end": b[i],
+                "lots": int(sp["lots"][i]), "poured": int(sp["castings"][i]),
+                "inspected": int(sp["inspected_castings"][i]), "rejected": int(sr["quantity"][i]),
+                "shrinkage_rejected": int(shrink[side][i])}
         b, a = part["before"], part["after"]
         c = stats.compare_rates(b["shrinkage_rejected"], b["inspected"], a["shrinkage_rejected"],
                                 a["inspected"], confidence)
-        if not rev["in_window"] and c["verdict"] != "not_enough_data":
+        if not in_window[i] and c["verdict"] != "not_enough_data":
             continue
         rb, ra = _rate(b["rejected"], b["inspected"]), _rate(a["rejected"], a["inspected"])
         out.append({
-            "pattern": rev["pattern"], "revision": rev["revision"], "previous_revision": rev["previous"],
-            "effective_from": rev["effective_from"], "took_effect_in_window": bool(rev["in_window"]),
-            "changed_risers": [ch["riser"] for ch in changes[i]], "changed_zones": rev["zones"],
-            "riser_changes": changes[i], "zone_basis": str(rev["basis"]),
+            "pattern": cand["pattern"][i], "revision": cand["revision"][i],
+            "previous_revision": cand["previous"][i],
+            "effective_from": cand["effective_from"][i], "took_effect_in_window": bool(in_window[i]),
+            "changed_risers": [ch["riser"] for ch in changes[i]], "changed_zones": zones[i],
+            "riser_changes": changes[i], "zone_basis": basis[i],
             "before": b, "after": a,
             "rate_before": c["rate_before"], "rate_after": c["rate_after"],
             "difference": c["difference"], "diff_low": c["diff_low"], "diff_high": c["diff_high"],
@@ -501,14 +624,28 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: d
     return jsonable(out)
 
 
-def _cid_sums(counted: pd.DataFrame, cand: pd.DataFrame, start: str, end: str) -> pd.Series:
-    """Per candidate, shrinkage rejects counted for it dated ``start``..``end``."""
-    m = counted.merge(cand[["cid", start, end]], on="cid")
-    m = m[(m["poured_on"] >= m[start]) & (m["poured_on"] <= m[end])]
-    return m.groupby("cid")["shrinkage_rejected"].sum().reindex(cand["cid"]).fillna(0).astype(np.int64)
-
-
 # --- the review ---------------------------------------------------------------------------
+
+def _without_gc_pauses(fn):
+    """Run ``fn`` with Python's cyclic garbage collector paused.
+
+    A long review builds a few hundred thousand small dicts and lists (a
+    52-week chart per pattern); each batch of new containers would set off a
+    collection that walks every object alive, a third of the run at full
+    scale. Nothing the review builds forms a reference cycle, so nothing is
+    left for the collector; it resumes on return (if it was running).
+    """
+    @functools.wraps(fn)
+    def wrapper(*args, **kwargs):
+        was_on = gc.isenabled()
+        gc.disable()
+        try:
+            return fn(*args, **kwargs)
+        finally:
+            if was_on:
+                gc.enable()
+    return wrapper
+
 
 def default_week(store: Store, today: dt.date | str | None = None) -> str:
     """The week a review opens on: the last complete ISO week with pours.
@@ -526,6 +663,7 @@ def default_week(store: Store, today: dt.date | str | None = None) -> str:
     return stats.iso_week(last if last else this_monday - dt.timedelta(weeks=1))
 
 
+@_without_gc_pauses
 def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEEKS_DEFAULT,
                   target: float = limits.TARGET_DEFAULT,
                   *, confidence: float = 0.95) -> dict:
@@ -573,33 +711,31 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEE
     week_end = monday + dt.timedelta(days=6)
 
     fetch_from = previous[0]
-    pours = _numeric(_with_monday(store.pours_by_day(_iso(fetch_from), _iso(week_end))),
-                     ["lots", "castings", "inspected_lots", "inspected_castings"])
-    rejects = _numeric(_with_monday(store.rejects_by_day(_iso(fetch_from), _iso(week_end))),
-                       ["quantity"])
-    info = store.poured_patterns(_iso(fetch_from), _iso(week_end))
+    span = (_iso(fetch_from), _iso(week_end))
+    pour_cols = store.pours_by_day(*span, columns=True)
+    codes = sorted(set(pour_cols["pattern"]))
+    index = {c: i for i, c in enumerate(codes)}
+    pours = _pour_arrays(pour_cols, index)
+    rejects = _reject_arrays(store.rejects_by_day(*span, columns=True), index)
+    info = store.pattern_costs(codes)
 
-    mx = _matrices(pours, rejects, [previous[0], *mondays])
-    now = _window(mx, rejects, info, mondays, slice(1, None), target, confidence)
-    before = _window(mx, rejects, info, previous, slice(0, -1), target, confidence, full=False)
-    revisions = _revisions(store, mondays, weeks, fetch_from, pours, rejects, confidence)
+    mx = _matrices(codes, pours, rejects, fetch_from, weeks + 1, info)
+    now = _window(mx, rejects, mondays, slice(1, None), target, confidence)
+    before = _window(mx, rejects, previous, slice(0, -1), target, confidence, full=False)
+    revisions = _revisions(store, mondays, weeks, fetch_from, pours, rejects, codes, confidence)
 
     t = now["table"]
-    patterns = _records(t[PATTERN_KEYS + ["pchart"]])
+    patterns = _rows({k: t[k] for k in PATTERN_KEYS + ["pchart"]})
     problems = [p["pattern"] for p in patterns if p["problem"]]
 
     def defect_table(value: str) -> list[dict]:
         d = now["defects"]
-        if d.empty:
-            return []
-        rows = stats.pareto(d[["defect", value]], "defect", value)
         other = "scrap_cost" if value == "rejected" else "rejected"
-        rows[other] = rows["defect"].map(d.groupby("defect")[other].sum())
-        return _records(rows)
+        return _pareto_rows(d["defect"], d[value], "defect", value, {other: d[other]})
 
     pareto = {
-        "patterns_by_cost": _pareto_rows(t, "pattern", "scrap_cost"),
-        "patterns_by_count": _pareto_rows(t, "pattern", "rejected"),
+        "patterns_by_cost": _pareto_rows(*_by_code(t, "scrap_cost"), "pattern", "scrap_cost"),
+        "patterns_by_count": _pareto_rows(*_by_code(t, "rejected"), "pattern", "rejected"),
         "defects_by_cost": defect_table("scrap_cost"),
         "defects_by_count": defect_table("rejected"),
     }
@@ -612,12 +748,11 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEE
     win["reject_rate"] = float(_rate(win["rejected"], win["inspected"]))
     win["wilson_low"], win["wilson_high"] = stats.wilson_interval(win["rejected"], win["inspected"],
                                                                   confidence)
-    last = overall.iloc[-1]
     totals = {"window": win, "week": {
-        "poured": int(last["poured"]), "inspected": int(last["inspected"]),
-        "rejected": int(last["rejected"]), "reworked": int(last["reworked"]),
-        "reject_rate": last["reject_rate"], "wilson_low": last["wilson_low"],
-        "wilson_high": last["wilson_high"], "scrap_cost": float(last["scrap_cost"])}}
+        "poured": int(overall["poured"][-1]), "inspected": int(overall["inspected"][-1]),
+        "rejected": int(overall["rejected"][-1]), "reworked": int(overall["reworked"][-1]),
+        "reject_rate": overall["reject_rate"][-1], "wilson_low": overall["wilson_low"][-1],
+        "wilson_high": overall["wilson_high"][-1], "scrap_cost": float(overall["scrap_cost"][-1])}}
 
     money = currency(store)
     notes = []
@@ -635,7 +770,7 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEE
     return {
         **head, "patterns": patterns, "problems": problems, "pareto": pareto,
         "defects": pareto["defects_by_cost"],
-        "trend": {"overall": _records(overall), "by_pattern": _records(now["per_pattern"])},
+        "trend": {"overall": _rows(overall), "by_pattern": _rows(now["per_pattern"])},
         "revisions": revisions,
         "changes": _changes(now, before, revisions, monday, week_end),
         "notes": notes,
@@ -643,19 +778,26 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEE
     }
 
 
+def _by_code(t: dict, value: str) -> tuple[list, np.ndarray]:
+    """A window table's patterns in code order and their ``value``."""
+    order = np.argsort(t["pattern"].astype(str), kind="stable")
+    return t["pattern"][order].tolist(), t[value][order]
+
+
 def _changes(now: dict, before: dict, revisions: list[dict], monday: dt.date, week_end: dt.date) -> dict:
     """What moved since the review of the week before."""
     a, b = now["table"], before["table"]
-    was = set(b.loc[b["problem"], "pattern"]) if len(b) else set()
-    is_ = set(a.loc[a["problem"], "pattern"]) if len(a) else set()
-    reasons = dict(zip(a["pattern"], a["problem_reasons"]))
-    moves = a[["pattern", "week_inspected", "week_reject_rate"]].merge(
-        b[["pattern", "week_inspected", "week_reject_rate"]].rename(
-            columns={"week_inspected": "previous_week_inspected",
-                     "week_reject_rate": "previous_week_reject_rate"}), on="pattern")
-    moves = moves[(moves["week_inspected"] > 0) & (moves["previous_week_inspected"] > 0)].copy()
-    moves["change"] = moves["week_reject_rate"] - moves["previous_week_reject_rate"]
-    moves = moves.reindex(moves["change"].abs().sort_values(ascending=False, kind="stable").index)
+    was = {c for c, pr in zip(b["pattern"].tolist(), b["problem"]) if pr}
+    is_ = {c for c, pr in zip(a["pattern"].tolist(), a["problem"]) if pr}
+    reasons = dict(zip(a["pattern"].tolist(), a["problem_reasons"]))
+    prev = {c: (n, r) for c, n, r in zip(b["pattern"].tolist(), b["week_inspected"].tolist(),
+                                         b["week_reject_rate"].tolist())}
+    moves = []
+    for c, n, r in zip(a["pattern"].tolist(), a["week_inspected"].tolist(), a["week_reject_rate"].tolist()):
+        if c in prev and n > 0 and prev[c][0] > 0:
+            moves.append({"pattern": c, "previous_week_reject_rate": prev[c][1], "week_reject_rate": r,
+                          "change": r - prev[c][1], "previous_week_inspected": prev[c][0], "week_inspected": n})
+    moves.sort(key=lambda m: -abs(m["change"]))
     took = [{"pattern": r["pattern"], "revision": r["revision"], "effective_from": r["effective_from"],
              "changed_risers": r["changed_risers"]}
             for r in revisions if _iso(monday) <= r["effective_from"] <= _iso(week_end)]
@@ -665,7 +807,5 @@ def _changes(now: dict, before: dict, revisions: list[dict], monday: dt.date, we
         "no_longer_problems": sorted(was - is_),
         "still_problems": sorted(is_ & was),
         "revisions_took_effect": took,
-        "rate_moves": _records(moves.head(RATE_MOVES_SHOWN)[
-            ["pattern", "previous_week_reject_rate", "week_reject_rate", "change",
-             "previous_week_inspected", "week_inspected"]]),
+        "rate_moves": moves[:RATE_MOVES_SHOWN],
     }

@@ -327,7 +327,7 @@ def section_shape(thickness_mm, width_mm) -> np.ndarray:
     a = np.asarray(thickness_mm, dtype=float)
     b = np.asarray(width_mm, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
-        r = np.fmax(a, b) / np.fmin(a, b)
+        r = np.maximum(a, b) / np.minimum(a, b)  # NaN where either size is missing
     return np.where(np.isnan(r), "", np.where(r <= 1 + 1e-9, "bar",
                                               np.where(r >= PLATE_WIDTH_RATIO - 1e-9, "plate",
                                                        "between bar and plate")))

@@ -23,6 +23,11 @@ from tracker.errors import BadInput
 
 H_OVER_D_RANGE = (0.5, 3.0)
 RULES = ("caine", "modulus", "feed_volume")
+RULE_SET_SOURCES = {
+    "modulus_sequence": "modulus rule and neck sequence 1 : 1.1 : 1.2 (Wlodawer, 1966; common practice)",
+    "pressure_control": ("pressure control (Karsay's ductile-iron risering, from memory): neck modulus "
+                         "0.5-0.8 x the section's, riser 1.2 x the neck's, riserless from 2.5 cm in rigid moulds"),
+}
 # A sleeved riser feeds with more of its volume than a bare one. Where neither
 # the efficiency nor a catalogue sleeve is given, a sleeved riser takes the low
 # end of the insulating-sleeve range 25-35 % (DOMAIN.md, from memory): the safe
@@ -306,6 +311,7 @@ class RiserSize:
     feeding_distance_mm: float | None = None
     feeding_length_mm: float | None = None
     feeding_distance_ok: bool | None = None
+    source: str = ""
     warnings: tuple = ()
     notes: tuple = ()
 
@@ -435,6 +441,7 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
         neck_modulus_cm=None if np.isnan(neck) else neck / 40.0,
         riser_needed=needed, thickness_mm=thickness_mm, width_mm=width_mm, section_shape=shape,
         feeding_distance_mm=fd, feeding_length_mm=length_mm, feeding_distance_ok=fd_ok,
+        source="; ".join(x for x in (alloy.source, alloy.liquid_source, RULE_SET_SOURCES[alloy.rule_set]) if x),
         warnings=(warn,) if warn else (), notes=tuple(notes),
     )
 
@@ -452,8 +459,9 @@ def round_up_diameter(size: RiserSize, step_mm: float) -> dict:
 
 def size_zone(store, pattern: str, zone: str, **options) -> RiserSize:
     """Size the riser of a stored zone: its volume, cooling area, thickness,
-    width and length, and its pattern's alloy and mould come from the log;
-    ``options`` as :func:`size_riser` (a given one wins over the log's)."""
+    width and length, its pattern's alloy and mould, and the mean pour
+    temperature of the pattern's lots come from the log; ``options`` as
+    :func:`size_riser` (a given one wins over the log's)."""
     z = store.zone(pattern, zone)
 
     def val(key):
@@ -461,7 +469,7 @@ def size_zone(store, pattern: str, zone: str, **options) -> RiserSize:
         return None if v is None or (isinstance(v, float) and math.isnan(v)) else v
 
     logged = {"mould": val("mould"), "thickness_mm": val("thickness_mm"), "width_mm": val("width_mm"),
-              "length_mm": val("length_mm")}
+              "length_mm": val("length_mm"), "pour_temp_c": store.mean_pour_temp(pattern)}
     for k, v in logged.items():
         if options.get(k) is None:
             options[k] = v

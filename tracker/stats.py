@@ -175,11 +175,15 @@ def probability_limits(inspected, centre) -> tuple[np.ndarray, np.ndarray]:
     high = np.full(n.shape, np.nan)
     ok = (n > 0) & np.isfinite(c)
     if ok.any():
-        # A chart repeats the same (n, centre) pair often: compute each once.
-        pairs, inverse = np.unique(np.stack([n[ok], c[ok]]), axis=1, return_inverse=True)
-        inverse = inverse.ravel()
-        low[ok] = _sps.binom.ppf(TAIL, pairs[0], pairs[1])[inverse]
-        high[ok] = _sps.binom.ppf(1.0 - TAIL, pairs[0], pairs[1])[inverse]
+        # Charts repeat (n, centre) pairs (a pattern's weeks share its centre): each
+        # distinct pair is computed once, found by sorting whole numbers.
+        rates, rate_i = np.unique(c[ok], return_inverse=True)
+        counts = n[ok].astype(np.int64)
+        base = int(counts.max()) + 1
+        pairs, inverse = np.unique(rate_i.ravel() * base + counts, return_inverse=True)
+        pn, pc = pairs % base, rates[pairs // base]
+        low[ok] = _sps.binom.ppf(TAIL, pn, pc)[inverse.ravel()]
+        high[ok] = _sps.binom.ppf(1.0 - TAIL, pn, pc)[inverse.ravel()]
     return low, high
 
 
@@ -437,23 +441,39 @@ def pareto(df: pd.DataFrame, by: str, value: str) -> pd.DataFrame:
         raise BadInput(value, values[bad].iloc[0], f"{value} cannot be negative")
     grouped = (values.groupby(df[by], sort=True, dropna=False).sum(min_count=0)
                .rename(value).reset_index())
-    grouped = grouped.sort_values(value, ascending=False, kind="stable").reset_index(drop=True)
-    total = float(grouped[value].sum())
+    shares = pareto_shares(grouped[value].to_numpy())
+    grouped = grouped.take(shares["order"]).reset_index(drop=True)
+    for col in ("share", "cumulative_share", "vital_few"):
+        grouped[col] = shares[col]
+    return grouped
+
+
+def pareto_shares(values) -> dict[str, np.ndarray]:
+    """The Pareto order and shares of one value per key, keys already in ascending order.
+
+    Returns ``order`` (indexes of ``values``, largest first; ties keep the
+    given order) and, in that order, ``share`` and ``cumulative_share``
+    (fractions 0..1) and ``vital_few`` (up to and including the first row
+    whose cumulative share reaches 80 %). A zero total gives zero shares and
+    no vital row. :func:`pareto` is this after summing per key.
+    """
+    v = np.asarray(values, dtype=float)
+    order = np.argsort(-v, kind="stable")
+    v = v[order]
+    total = float(v.sum())
     if total > 0:
-        share = grouped[value].to_numpy(dtype=float) / total
+        share = v / total
         cumulative = np.cumsum(share)
         # Floating sums can stop at 0.79999999 where the exact share is 0.8.
         reached = cumulative >= VITAL_FEW_SHARE - 1e-12
-        first = int(np.argmax(reached)) if reached.any() else len(grouped) - 1
-        vital = np.arange(len(grouped)) <= first
+        first = int(np.argmax(reached)) if reached.any() else len(v) - 1
+        vital = np.arange(len(v)) <= first
     else:
-        share = np.zeros(len(grouped))
-        cumulative = np.zeros(len(grouped))
-        vital = np.zeros(len(grouped), dtype=bool)
-    grouped["share"] = share
-    grouped["cumulative_share"] = np.clip(cumulative, 0.0, 1.0)
-    grouped["vital_few"] = vital
-    return grouped
+        share = np.zeros(len(v))
+        cumulative = np.zeros(len(v))
+        vital = np.zeros(len(v), dtype=bool)
+    return {"order": order, "share": share, "cumulative_share": np.clip(cumulative, 0.0, 1.0),
+            "vital_few": vital}
 
 
 # --- ISO weeks ----------------------------------------------------------------------

@@ -20,9 +20,10 @@ import numpy as np
 import pandas as pd
 
 from tracker import rules, stats
+from tracker.alloys import ALLOYS
 from tracker.assess import assess_frame, caine_curve_points, revision_in_effect
 from tracker.errors import BadRow, NotFound
-from tracker.ingest import COLUMNS as IMPORT_COLUMNS
+from tracker.ingest import COLUMNS as IMPORT_COLUMNS, METHODS
 from tracker.settings import DEFAULT_CURRENCY
 from tracker.store import Store
 
@@ -123,6 +124,30 @@ def form_record(values: dict) -> dict:
     return out
 
 
+METHOD_WORDS = {"visual": "visual", "xray": "x-ray", "ut": "ultrasonic (UT)", "mt": "magnetic particle (MT)",
+                "pt": "dye penetrant (PT)", "dimensional": "dimensional"}
+
+
+def lot_accounting(store: Store, lot: str) -> dict:
+    """What the log already holds for ``lot``: castings poured, castings accounted for by
+    each inspection method (current records) and how many are left per method (no
+    method may inspect more castings than were poured), and rejects so far.
+
+    Returns ``castings``, ``rejected``, ``rejects_left`` and ``methods``, a frame with
+    method, "accounted (castings)" and "left (castings)", one row per method.
+    """
+    info = store.lots_info([lot])
+    if lot not in info:
+        raise NotFound("lot", lot, "pick a lot from the list, or import it first (lots.csv)")
+    castings = int(info[lot]["castings"])
+    t = store.lot_totals([lot]).get(lot, {"rejected": 0, "methods": {}})
+    done = [int(t["methods"].get(m, 0)) for m in METHODS]
+    methods = pd.DataFrame({"method": list(METHODS), "accounted (castings)": done,
+                            "left (castings)": [max(castings - d, 0) for d in done]})
+    return {"castings": castings, "rejected": int(t["rejected"]),
+            "rejects_left": max(castings - int(t["rejected"]), 0), "methods": methods}
+
+
 HISTORY_COLUMNS = {
     "id": "record", "lot": "lot", "inspected_on": "inspected on", "method": "method",
     "quantity": "quantity (castings)", "result": "result", "defect": "defect", "zone": "zone",
@@ -132,17 +157,24 @@ HISTORY_COLUMNS = {
 }
 
 
-def latest_records(store: Store, limit: int = 50) -> pd.DataFrame:
-    """The newest ``limit`` inspection records for display, with a status column."""
+# The columns a reader needs first; the rest behind a toggle on a narrow screen.
+HISTORY_FIRST = ["id", "lot", "inspected_on", "method", "quantity", "result", "defect", "zone", "recorded_by",
+                 "status"]
+
+
+def latest_records(store: Store, limit: int = 50, full: bool = True) -> pd.DataFrame:
+    """The newest ``limit`` inspection records for display, with a status column
+    (``full`` False: only the columns that matter first, HISTORY_FIRST)."""
+    keys = list(HISTORY_COLUMNS) if full else HISTORY_FIRST
     h = store.inspections_history(limit=limit)
     if h.empty:
-        return pd.DataFrame(columns=list(HISTORY_COLUMNS.values()))
+        return pd.DataFrame(columns=[HISTORY_COLUMNS[k] for k in keys])
     status = np.where(h["superseded_by"].isna(),
                       np.where(h["void"].astype(bool), "withdrawn", "current"),
                       "superseded by " + h["superseded_by"].astype("Int64").astype(str))
     h = h.assign(status=status)
     h["severity"] = h["severity"].astype("Int64")
-    return h[list(HISTORY_COLUMNS)].rename(columns=HISTORY_COLUMNS).reset_index(drop=True)
+    return h[keys].rename(columns=HISTORY_COLUMNS).reset_index(drop=True)
 
 
 def problems_frame(problems: list[BadRow]) -> pd.DataFrame:
@@ -221,8 +253,8 @@ DESIGN_COLUMNS = {
 # The two halves of ``risers_by_revision``, for two narrower tables.
 DESIGN_PART = ["revision", "effective from", "riser", "zone", "placement", "top", "diameter (mm)",
                "height (mm)", "sleeve", "riser weight (kg)"]
-MARGIN_PART = ["revision", "riser", "zone", "zone modulus (cm)", "riser modulus (cm)", "modulus ratio",
-               "Caine margin", "feed margin", "rule set", "passes all rules", "failed rules", "notes"]
+MARGIN_PART = ["revision", "riser", "zone", "passes all rules", "failed rules", "modulus ratio", "Caine margin",
+               "feed margin", "rule set", "zone modulus (cm)", "riser modulus (cm)", "notes"]  # verdict first
 
 
 def pattern_summary(store: Store, pattern: str) -> dict:
@@ -233,7 +265,9 @@ def pattern_summary(store: Store, pattern: str) -> dict:
     poured, inspected, rejected = (int(w[c].sum()) if not w.empty else 0
                                    for c in ("poured", "inspected", "rejected"))
     lots = store.lots_frame(pattern=pattern)
-    return {**p, "lots": int(len(lots)), "poured": poured, "inspected": inspected, "rejected": rejected,
+    alloy = ALLOYS.get(p.get("alloy"))
+    return {**p, "alloy_name": alloy.name if alloy else p.get("alloy"),
+            "lots": int(len(lots)), "poured": poured, "inspected": inspected, "rejected": rejected,
             "reject_rate_pct": 100.0 * rejected / inspected if inspected else float("nan"),
             "first_pour": lots["poured_on"].min() if not lots.empty else None,
             "last_pour": lots["poured_on"].max() if not lots.empty else None,
@@ -313,13 +347,32 @@ def caine_curve(store: Store, alloy: str, y_max: float = 3.0, x_max: float = 10.
     return pts
 
 
+def current_revisions(store: Store, on: str | None = None) -> dict[str, str]:
+    """{pattern: revision in effect on ``on``} (default today), for telling a design in
+    use from one a later revision superseded."""
+    on = on or dt.date.today().isoformat()
+    cur = revision_in_effect(store.revisions_frame(), on)
+    return dict(zip(cur["pattern"], cur["revision"].astype(str))) if not cur.empty else {}
+
+
+SUPERSEDED = "superseded by a later revision"
+IN_USE = "in use"
+IN_USE_FLAGGED = "in use, pattern flagged"
+
+
 def filter_design_map(frame: pd.DataFrame, alloy: str | None = None,
-                      patterns: list[str] | None = None) -> pd.DataFrame:
+                      patterns: list[str] | None = None, current: dict | None = None,
+                      flagged=None) -> pd.DataFrame:
     """Rows of a design map (``tracker.features.design_map``) for one alloy and some patterns.
 
     Adds shrinkage_rate_pct (% of castings poured rejected for shrinkage)
     when the frame has shrinkage_rate; rows without a volume or freezing
-    ratio are dropped (nothing to place on the map).
+    ratio are dropped (nothing to place on the map). With ``current``
+    ({pattern: revision in use}, :func:`current_revisions`) a row of another
+    revision is ``superseded``; ``flagged`` (pattern codes, e.g. the review's
+    problems) marks the patterns the review flags. ``design`` says which of
+    "in use", "in use, pattern flagged" or "superseded by a later revision" a
+    row is.
     """
     f = frame
     if alloy is not None and "alloy" in f:
@@ -333,55 +386,80 @@ def filter_design_map(frame: pd.DataFrame, alloy: str | None = None,
             f[f"{key}_pct"] = _pct(f[key])
     if "passes" in f:
         f["rules_text"] = np.where(f["passes"].astype(bool), "passes every rule", "fails a rule")
+        if "rule_set" in f:  # which rule set judged it: pressure control for ductile iron
+            f["rules_text"] = f["rules_text"] + " (" + f["rule_set"].fillna("").astype(str).str.replace(
+                "_", " ") + ")"
+    if current is not None and "revision" in f:
+        f["superseded"] = [current.get(p) not in (None, str(r)) for p, r in zip(f["pattern"], f["revision"])]
+    else:
+        f["superseded"] = False
+    f["flagged"] = f["pattern"].isin(list(flagged or []))
+    f["design"] = np.where(f["superseded"], SUPERSEDED, np.where(f["flagged"], IN_USE_FLAGGED, IN_USE))
     return f.reset_index(drop=True)
 
 
 def design_map_summary(frame: pd.DataFrame) -> dict:
-    """Zones, castings and shrinkage rejects on a (filtered) design map, and how
-    many of the zones' risers fail a rule."""
+    """Zones, castings and shrinkage rejects on a (filtered) design map, how many of
+    the zones' risers in use fail a rule (superseded revisions are counted apart), and
+    the highest shrinkage rate shown (%)."""
     if frame.empty:
-        return {"zones": 0, "castings": 0, "shrinkage_rejects": 0, "failing": 0, "rate_pct": float("nan")}
+        return {"zones": 0, "castings": 0, "shrinkage_rejects": 0, "failing": 0, "superseded": 0,
+                "flagged_patterns": 0, "rate_pct": float("nan"), "max_rate_pct": 0.0}
     castings = int(frame["castings"].sum())
     rejects = int(frame["shrinkage_rejects"].sum())
+    old = frame["superseded"].astype(bool) if "superseded" in frame else pd.Series(False, index=frame.index)
+    fails = ~frame["passes"].astype(bool) if "passes" in frame else pd.Series(False, index=frame.index)
+    rates = frame["shrinkage_rate_pct"] if "shrinkage_rate_pct" in frame else _pct(frame["shrinkage_rate"])
     return {"zones": int(len(frame)), "castings": castings, "shrinkage_rejects": rejects,
-            "failing": int((~frame["passes"].astype(bool)).sum()) if "passes" in frame else 0,
-            "rate_pct": 100.0 * rejects / castings if castings else float("nan")}
+            "failing": int((fails & ~old).sum()), "superseded": int(old.sum()),
+            "flagged_patterns": int(frame.loc[frame.get("flagged", pd.Series(False, index=frame.index))
+                                               .astype(bool), "pattern"].nunique()),
+            "rate_pct": 100.0 * rejects / castings if castings else float("nan"),
+            "max_rate_pct": float(np.nanmax(rates.to_numpy(float))) if len(rates) else 0.0}
 
 
 DESIGN_MAP_TABLE = {
-    "pattern": "pattern", "revision": "revision", "zone": "zone", "riser": "riser",
-    "shrinkage_rate_pct": "shrinkage rate (%)", "shrinkage_rejects": "shrinkage (castings)",
-    "castings": "castings poured", "volume_ratio": "volume ratio", "freezing_ratio": "freezing ratio",
-    "caine_margin": "Caine margin", "feed_margin": "feed margin", "rules_text": "rules",
+    "pattern": "pattern", "zone": "zone", "shrinkage_rate_pct": "shrinkage rate (%)",
+    "castings": "castings poured", "rules_text": "rules", "design": "design",
+    "revision": "revision", "riser": "riser", "shrinkage_rejects": "shrinkage (castings)",
+    "volume_ratio": "volume ratio", "freezing_ratio": "freezing ratio",
+    "caine_margin": "Caine margin", "feed_margin": "feed margin",
 }
+DESIGN_MAP_FIRST = 6  # pattern .. design: what a narrow screen shows first
 
 
-def design_map_table(frame: pd.DataFrame) -> pd.DataFrame:
-    """A filtered design map as a table, worst shrinkage rate first."""
-    cols = [c for c in DESIGN_MAP_TABLE if c in frame]
+def design_map_table(frame: pd.DataFrame, full: bool = True) -> pd.DataFrame:
+    """A filtered design map as a table, worst shrinkage rate first; designs in use
+    before superseded ones (``full`` False: the columns that matter first)."""
+    keys = list(DESIGN_MAP_TABLE)[:None if full else DESIGN_MAP_FIRST]
+    cols = [c for c in keys if c in frame]
     if frame.empty:
-        return pd.DataFrame(columns=[DESIGN_MAP_TABLE[c] for c in cols] or list(DESIGN_MAP_TABLE.values()))
-    f = frame.sort_values(["shrinkage_rate_pct", "castings"], ascending=[False, False], kind="stable")
+        return pd.DataFrame(columns=[DESIGN_MAP_TABLE[c] for c in cols] or [DESIGN_MAP_TABLE[k] for k in keys])
+    f = frame.assign(_old=frame["superseded"] if "superseded" in frame else False)
+    f = f.sort_values(["_old", "shrinkage_rate_pct", "castings"], ascending=[True, False, False], kind="stable")
     return f[cols].rename(columns=DESIGN_MAP_TABLE).reset_index(drop=True)
 
 
 # --- suggestions ---------------------------------------------------------------------
 
+MONEY_UNIT = "currency units/year"
 SUGGESTION_COLUMNS = {
     "pattern": "pattern", "zone": "zone", "riser": "riser", "action": "action",
     "current_diameter_mm": "now: diameter (mm)", "current_sleeve": "now: sleeve",
     "suggested_diameter_mm": "suggested: diameter (mm)", "suggested_sleeve": "suggested: sleeve",
-    "reject_rate_pct": "reject rate now (%)", "predicted_rate_after_pct": "predicted after (%)",
+    "reject_rate_pct": "observed now (%)", "predicted_rate_now_pct": "predicted now (%)",
+    "predicted_rate_after_pct": "predicted after (%)",
     "added_metal_kg_per_mold": "added metal (kg per mold)",
     "yield_before_pct": "yield now (%)", "yield_after_pct": "yield after (%)",
-    "yearly_balance": "balance (currency units/year)", "reason": "why",
+    "scrap_saved_per_year": f"scrap saved ({MONEY_UNIT})", "extra_cost_per_year": f"extra cost ({MONEY_UNIT})",
+    "yearly_balance": f"balance ({MONEY_UNIT})", "pays_off": "pays off", "reason": "why",
 }
 # The two halves of ``suggestions_table``: what to change, and what it brings.
 CHANGE_PART = ["pattern", "zone", "riser", "action", "now: diameter (mm)", "now: sleeve",
                "suggested: diameter (mm)", "suggested: sleeve"]
-BALANCE_PART = ["pattern", "zone", "reject rate now (%)", "predicted after (%)",
-                "added metal (kg per mold)", "yield now (%)", "yield after (%)",
-                "balance (currency units/year)"]
+BALANCE_PART = ["pattern", "zone", "observed now (%)", "predicted now (%)", "predicted after (%)",
+                f"balance ({MONEY_UNIT})", "pays off", f"scrap saved ({MONEY_UNIT})", f"extra cost ({MONEY_UNIT})",
+                "added metal (kg per mold)", "yield now (%)", "yield after (%)"]
 
 
 def _pct(series: pd.Series) -> pd.Series:
@@ -391,13 +469,22 @@ def _pct(series: pd.Series) -> pd.Series:
 def suggestions_table(suggestions: list[dict]) -> pd.DataFrame:
     """Suggestions (``tracker.advise.suggest``) as a display table, rates and yields in %.
 
-    Columns the suggestions lack are left out; the order is SUGGESTION_COLUMNS'.
+    The observed rate and the model's rates now and after stand side by
+    side; a row that changes nothing shows no predicted-after rate and no
+    money. Columns the suggestions lack are left out; the order is
+    SUGGESTION_COLUMNS'.
     """
     if not suggestions:
         return pd.DataFrame(columns=list(SUGGESTION_COLUMNS.values()))
     s = pd.DataFrame(suggestions)
+    changes = s["action"] != "no_riser_change"
     s["action"] = s["action"].str.replace("_", " ")
-    for key in ("reject_rate", "predicted_rate_after", "yield_before", "yield_after"):
+    for key in ("predicted_rate_after", "scrap_saved_per_year", "extra_cost_per_year", "yearly_balance"):
+        if key in s:
+            s[key] = pd.to_numeric(s[key], errors="coerce").where(changes)
+    if "pays_off" in s:
+        s["pays_off"] = np.where(changes, np.where(s["pays_off"].fillna(False).astype(bool), "yes", "no"), None)
+    for key in ("reject_rate", "predicted_rate_now", "predicted_rate_after", "yield_before", "yield_after"):
         if key in s:
             s[f"{key}_pct"] = _pct(s[key])
     has_riser = s["riser"].notna() if "riser" in s else pd.Series(False, index=s.index)
@@ -455,11 +542,12 @@ def riser_options(store: Store, on: str | None = None) -> pd.DataFrame:
 
 
 def sleeve_options(store: Store) -> pd.DataFrame:
-    """The sleeve catalogue with a picker label (kind, inner diameter, height, factor)."""
+    """The sleeve catalogue, smallest inner diameter first, with a picker label
+    (kind, inner diameter, height, factor)."""
     s = store.table("sleeves")
     if s.empty:
         return pd.DataFrame(columns=["sleeve", "kind", "inner_diameter_mm", "label"])
-    s = s.copy()
+    s = s.sort_values(["inner_diameter_mm", "height_mm", "kind", "sleeve"], kind="stable")
     s["label"] = (s["sleeve"] + " · " + s["kind"] + " · " + s["inner_diameter_mm"].map(lambda v: f"{v:g}")
                   + " x " + s["height_mm"].map(lambda v: f"{v:g}") + " mm · factor "
                   + s["modulus_factor"].map(lambda v: f"{v:g}"))

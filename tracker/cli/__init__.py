@@ -5,10 +5,12 @@ No computation lives here; every command is a thin layer over ``tracker``.
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import inspect
 import json
 import math
+import os
 import sys
 
 import click
@@ -18,6 +20,7 @@ from tracker import __version__, limits
 from tracker.alloys import ALLOYS
 from tracker.cautions import SAFETY_CAUTION_SHORT
 from tracker.errors import PourbackError
+from tracker.steps import Steps, terminal  # noqa: F401 (Steps is used by the commands)
 
 
 # --- output -----------------------------------------------------------------------
@@ -66,7 +69,7 @@ def table(rows: list[dict], columns: list[tuple[str, str]] | None = None) -> str
 
 def _numeric(s: str) -> bool:
     try:
-        float(s.rstrip("%"))
+        float(s.replace(",", "").rstrip("%").strip())
         return True
     except ValueError:
         return False
@@ -112,6 +115,30 @@ weeks_option = click.option("--weeks", type=int, default=limits.WEEKS_DEFAULT, s
                             help=limits.WEEKS_HELP)
 target_option = click.option("--target", type=float, default=limits.TARGET_DEFAULT, show_default=True,
                              help=limits.TARGET_HELP)
+
+
+# --- progress on standard error ----------------------------------------------------------
+
+def stderr_is_terminal() -> bool:
+    """True when standard error is a terminal (progress is shown only then)."""
+    return terminal(sys.stderr)
+
+
+def show_progress(as_json: bool = False) -> bool:
+    """Progress is shown on a terminal only, and never with ``--json``."""
+    return not as_json and stderr_is_terminal()
+
+
+@contextlib.contextmanager
+def progress_bar(show: bool, length: int, label: str):
+    """A click progress bar on standard error; drawn only when ``show`` (see
+    :func:`show_progress`), else updates go nowhere."""
+    if show:
+        with click.progressbar(length=length, label=label, show_eta=True, file=sys.stderr) as bar:
+            yield bar
+        return
+    with open(os.devnull, "w") as sink, click.progressbar(length=length, label=label, file=sink) as bar:
+        yield bar
 
 
 # --- commands ---------------------------------------------------------------------

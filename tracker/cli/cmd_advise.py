@@ -4,8 +4,26 @@ from __future__ import annotations
 
 import click
 
-from tracker.cli import (caution_text, db_option, emit, handle_errors, json_option, main, open_store, table,
-                         target_option, week_option, weeks_option)
+from tracker.cli import (Steps, caution_text, db_option, emit, handle_errors, json_option, main, open_store,
+                         show_progress, table, target_option, week_option, weeks_option)
+
+
+def _pct(v, digits: int = 1) -> str | None:
+    return None if v is None else f"{100 * v:.{digits}f} %"
+
+
+def _money(v) -> str | None:
+    return None if v is None else f"{v:,.0f}"
+
+
+remelt_option = click.option(
+    "--remelt-charge", "--riser-metal-charge", "remelt_charge", type=float, default=None,
+    help="Share of the metal price per kg lost on metal poured that does not ship, charged alike on "
+         "scrapped castings and on extra riser metal: melting, handling, melt loss (default 0.3; common "
+         "practice 0.2 to 0.4, shop practice varies). --riser-metal-charge is its old name.")
+basis_note = ("Money basis: the predicted rates now and after are both the reject model's, for the "
+              "present and the changed design; scrap saved per year = castings per year x (predicted "
+              "now - predicted after) x cost per scrapped casting.")
 
 
 @main.command()
@@ -15,30 +33,37 @@ from tracker.cli import (caution_text, db_option, emit, handle_errors, json_opti
 @weeks_option
 @click.option("--step-mm", type=float, default=10.0, show_default=True,
               help="The shop's standard riser diameter step, mm.")
-@click.option("--riser-metal-charge", type=float, default=1.0, show_default=True,
-              help="Share of the metal cost per kg charged for extra riser metal (1 = full cost; "
-                   "less where returns are remelted).")
+@remelt_option
 @click.option("--refit", is_flag=True, help="Refit the reject model before suggesting.")
 @db_option
 @json_option
 @handle_errors
-def suggest(pattern, target, week, weeks, step_mm, riser_metal_charge, refit, db_path, as_json):
-    """Suggest riser changes for problem patterns, with yield and cost.
+def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, db_path, as_json):
+    """Suggest riser changes for problem patterns, with yield and money.
 
     For each zone with shrinkage above the target: enlarge the riser (in
-    diameter steps), fit a catalogue sleeve, both, or widen the neck; the
-    cheapest that meets every rule and the target rate is shown. Patterns
-    whose rejects are not shrinkage get "no_riser_change" with the reason.
+    diameter steps), fit a catalogue sleeve, both, or widen the neck. Of the
+    changes that meet every rule and reach the target rate, the one with the
+    highest yearly balance is shown. Patterns whose rejects are not
+    shrinkage get "no_riser_change" with the reason.
+
+    Money basis: the predicted rates now and after are both the reject
+    model's, for the present and the changed design (the observed rate is
+    shown beside them); scrap saved per year = castings per year x
+    (predicted now - predicted after) x cost per scrapped casting. A
+    scrapped casting costs its processing in full plus the remelt charge on
+    its metal; extra riser metal costs the remelt charge.
 
     Example:
 
-        pourback suggest --target 0.02
+        pourback suggest --target 0.02 --remelt-charge 0.3
     """
     from tracker.advise import suggest as run
 
-    with open_store(db_path) as store:
+    with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
+        steps.step("Suggesting riser changes" + (" (refitting the model first)" if refit else ""))
         rows = run(store, pattern=pattern, target=target, week=week, weeks=weeks, step_mm=step_mm, refit=refit,
-                   riser_metal_charge=riser_metal_charge)
+                   remelt_charge=remelt_charge)
     emit(rows, as_json, _format)
 
 
@@ -52,15 +77,24 @@ def _format(rows: list[dict]) -> str:
             change = f"{r['current_diameter_mm']:.0f} -> {r['suggested_diameter_mm']:.0f} mm"
             if r.get("suggested_sleeve"):
                 change += f" + {r['suggested_sleeve']}"
-        show.append({**r, "change": change,
-                     "rate": None if r["reject_rate"] is None else f"{r['reject_rate']:.1%}",
-                     "after": None if r["predicted_rate_after"] is None else f"{r['predicted_rate_after']:.1%}",
+        changed = r["action"] != "no_riser_change"
+        show.append({**r, "change": change, "observed": _pct(r["reject_rate"]),
+                     "now": _pct(r["predicted_rate_now"]),
+                     "after": _pct(r["predicted_rate_after"]) if changed else None,
                      "yield": None if r["yield_before"] is None else
-                     f"{r['yield_before']:.1%} -> {r['yield_after']:.1%}"})
+                     f"{r['yield_before']:.1%} -> {r['yield_after']:.1%}",
+                     "saved": _money(r["scrap_saved_per_year"]) if changed else None,
+                     "extra": _money(r["extra_cost_per_year"]) if changed else None,
+                     "balance": _money(r["yearly_balance"]) if changed else None,
+                     "pays": ("yes" if r["pays_off"] else "no") if changed else None})
     out = [table(show, [("pattern", "pattern"), ("zone", "zone"), ("riser", "riser"), ("action", "action"),
-                        ("change", "change"), ("rate", "shrinkage now"), ("after", "predicted after"),
-                        ("added_metal_kg_per_mold", "added metal (kg/mould)"), ("yield", "yield"),
-                        ("yearly_balance", "balance per year")])]
+                        ("change", "change"), ("observed", "observed now"), ("now", "predicted now"),
+                        ("after", "predicted after"), ("added_metal_kg_per_mold", "added metal (kg/mould)"),
+                        ("yield", "yield"), ("saved", "scrap saved/yr"), ("extra", "extra cost/yr"),
+                        ("balance", "balance/yr"), ("pays", "pays off")])]
+    charge = rows[0].get("remelt_charge")
+    out.append("")
+    out.append(basis_note + (f" Remelt charge {charge:g} of the metal price." if charge is not None else ""))
     out.append("")
     for r in rows:
         out.append(f"{r['pattern']}" + (f" {r['zone']}" if r["zone"] else "") + f": {r['reason']}")
@@ -71,36 +105,62 @@ def _format(rows: list[dict]) -> str:
 @main.command("what-if")
 @click.option("--pattern", required=True, help="Pattern code.")
 @click.option("--riser", required=True, help="Riser code in the pattern's current revision.")
-@click.option("--diameter-mm", type=float, default=None, help="New diameter, mm (keeps H/D unless --height-mm).")
+@click.option("--diameter-mm", type=float, default=None,
+              help="New diameter, mm (keeps H/D unless --height-mm). With a sleeve: the catalogue's sleeve "
+                   "of the same kind and this inner diameter.")
 @click.option("--height-mm", type=float, default=None, help="New height, mm.")
 @click.option("--sleeve", default="keep", show_default=True,
               help="Catalogue sleeve code, 'none' for a bare riser, or keep.")
+@week_option
+@weeks_option
+@remelt_option
 @db_option
 @json_option
 @handle_errors
-def what_if(pattern, riser, diameter_mm, height_mm, sleeve, db_path, as_json):
-    """Show the margins, predicted rate and yield of a changed riser.
+def what_if(pattern, riser, diameter_mm, height_mm, sleeve, week, weeks, remelt_charge, db_path, as_json):
+    """Show the margins, predicted rate, yield and money of a changed riser.
+
+    The money is priced as in `suggest`, on the same basis: the reject
+    model's rate for the zone now and changed, castings per year over the
+    window, the remelt charge on scrapped castings and extra riser metal.
 
     Example:
 
         pourback what-if --pattern P-1017 --riser R3 --diameter-mm 130
     """
     from tracker.advise import what_if as run
-    from tracker.assess import rule_words
 
     with open_store(db_path) as store:
-        r = run(store, pattern, riser, diameter_mm=diameter_mm, height_mm=height_mm, sleeve=sleeve)
+        r = run(store, pattern, riser, diameter_mm=diameter_mm, height_mm=height_mm, sleeve=sleeve, week=week,
+                weeks=weeks, remelt_charge=remelt_charge)
+    emit(r, as_json, _what_if_text)
 
-    def human(r):
-        rows = [{"figure": k, "now": r.get(k + "_now"), "changed": r[k]} for k in
-                ("modulus_ratio", "caine_margin", "feed_margin", "predicted_rate")]
-        rows.append({"figure": "yield", "now": r["yield_before"], "changed": r["yield_after"]})
-        return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {r['diameter_mm']:.0f} x "
-                f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
-                + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + rule_words(r['failed_rules'])}"
-                + f" (rule set: {r['rule_set'].replace('_', ' ')})"
-                f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg\n\n" + caution_text())
-    emit(r, as_json, human)
+
+def _what_if_text(r: dict) -> str:
+    from tracker.assess import rule_words
+
+    rows = [{"figure": k.replace("_", " "), "now": r.get(k + "_now"), "changed": r[k]} for k in
+            ("modulus_ratio", "caine_margin", "feed_margin")]
+    rows += [{"figure": "shrinkage rate, observed", "now": _pct(r["observed_rate"], 2), "changed": None},
+             {"figure": "shrinkage rate, predicted", "now": _pct(r["predicted_rate_now"], 2),
+              "changed": _pct(r["predicted_rate_after"], 2)},
+             {"figure": "yield", "now": _pct(r["yield_before"]), "changed": _pct(r["yield_after"])}]
+    money = [{"per year": "castings", "value": _money(r["castings_per_year"])},
+             {"per year": "scrap saved", "value": _money(r["scrap_saved_per_year"])},
+             {"per year": "extra riser metal", "value": _money(r["extra_metal_cost_per_year"])},
+             {"per year": "sleeves", "value": _money(r["sleeve_cost_per_year"])},
+             {"per year": "balance", "value": _money(r["yearly_balance"])}]
+    also = [x for x in r["changed_risers"] if x != r["riser"]]
+    return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {r['diameter_mm']:.0f} x "
+            f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
+            + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + rule_words(r['failed_rules'])}"
+            + f" (rule set: {r['rule_set'].replace('_', ' ')})"
+            f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg\n\n"
+            + table(money) + "\npays off: " + ("yes" if r["pays_off"] else "no" if r["changed"] else "- (no change)")
+            + (f" (priced with the same change on {', '.join(also)}, which fail the rules on the same zone)"
+               if also else "")
+            + f"\n{basis_note} Cost per scrapped casting {_money(r['cost_per_scrapped_casting'])}; remelt "
+              f"charge {r['remelt_charge']:g}.\n\n" + caution_text())
 
 
 @main.command("fit-model")
@@ -122,13 +182,16 @@ def fit_model(alpha, folds, db_path, as_json):
     from tracker.features import aggregate_for_fit, zone_lot_features
     from tracker.model import ShrinkageRejectModel, cross_validate
 
-    with open_store(db_path) as store:
+    with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
+        steps.step("Fitting the reject model")
         model = fit(store, alpha=alpha)
         if model is None:
             raise click.ClickException("the log has no lots under a known riser design; import risers and lots first")
+        steps.step("Reading the features for cross-validation")
         feats = aggregate_for_fit(zone_lot_features(store))
         cv = None
         if feats["pattern"].nunique() >= 2:
+            steps.step(f"Cross-validating ({folds} folds, grouped by pattern)")
             cv = cross_validate(feats, n_splits=folds, model=ShrinkageRejectModel(alpha=alpha))
     coef = model.coefficients_.to_dict("records")
     data = {"fitted_on": model.fitted_on_, "rows": int(model.n_rows_), "castings": int(model.n_castings_),

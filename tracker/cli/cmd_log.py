@@ -9,7 +9,8 @@ import pathlib
 
 import click
 
-from tracker.cli import db_option, emit, handle_errors, json_option, main, open_store, table
+from tracker.cli import (db_option, emit, handle_errors, json_option, main, open_store, progress_bar, show_progress,
+                         table)
 from tracker.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES
 
 
@@ -111,9 +112,7 @@ def import_(kind_or_dir, file, skip_bad, by, db_path, as_json):
         items = [(kind_or_dir, pathlib.Path(file))]
     total = sum(_count_rows(pathlib.Path(p)) for _, p in items)
     with open_store(db_path, create=True) as store:
-        show = total >= 5000 and not as_json
-        with click.progressbar(length=total, label="Importing", file=None if show else open(os.devnull, "w"),
-                               show_eta=True) as bar:
+        with progress_bar(show_progress(as_json) and total >= 5000, total, "Importing") as bar:
             if file is None:
                 results = import_dir(store, kind_or_dir, skip_bad=skip_bad, by=_who(by), progress=bar.update)
             else:

@@ -6,7 +6,8 @@ import pathlib
 
 import click
 
-from tracker.cli import db_option, emit, handle_errors, main, open_store, target_option, week_option, weeks_option
+from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, show_progress, target_option,
+                         week_option, weeks_option)
 from tracker.report import FORMATS
 
 
@@ -39,9 +40,12 @@ def review(week, weeks, target, fmt, as_json, out_path, db_path):
     from tracker.report import render
     from tracker.review import weekly_review
 
-    with open_store(db_path) as store:
-        data = weekly_review(store, week=week, weeks=weeks, target=target)
-    text = render(data, fmt)
+    with Steps(show_progress(fmt == "json")) as steps:
+        with open_store(db_path) as store:
+            steps.step(f"Reviewing {week or 'the latest week'} ({weeks} weeks)")
+            data = weekly_review(store, week=week, weeks=weeks, target=target)
+        steps.step(f"Writing the {fmt} review")
+        text = render(data, fmt)
     if out_path:
         path = pathlib.Path(out_path)
         try:
