@@ -143,11 +143,10 @@ def record_form(state: dict) -> None:
 
 
 def upload_file() -> None:
-    st.subheader("Import a file")
     kinds = [k for k in KINDS if access.can(TABLE_ACTION[k])]
     if not kinds:
-        st.caption(access.not_offered("log"))
-        return
+        return  # the record form above said why
+    st.subheader("Import a file")
     st.caption("One bad row refuses the whole file and nothing is written; every refused row is "
                "listed with its row number (the header is row 1), column and reason.")
     c1, c2 = st.columns([1, 2])
