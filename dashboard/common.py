@@ -25,7 +25,7 @@ START_COMMANDS = "pourback demo"
 
 # The library calls a page may load (cached). Each takes an open Store first.
 def _registry() -> dict:
-    from tracker import advise, features, review
+    from tracker import advise, features, review, settings
 
     return {
         "start_state": views.start_state,
@@ -47,6 +47,7 @@ def _registry() -> dict:
         "riser_options": views.riser_options,
         "sleeve_options": views.sleeve_options,
         "pour_span": lambda s: s.pour_span(),
+        "currency": settings.currency,
         "weekly_review": review.weekly_review,
         "design_map": features.design_map,
         "suggest": advise.suggest,

@@ -401,7 +401,8 @@ def test_suggestions_and_what_if(app_demo_db, monkeypatch):
     hit = change[(change["pattern"] == "P-1017") & (change["riser"] == "R3")]
     assert len(hit) == 1 and hit["action"].iat[0] != "no riser change"
     balance = next(d.value for d in at.dataframe if "yield after (%)" in d.value.columns)
-    assert {"added metal (kg per mold)", "balance (currency units/year)", "pays off"} <= set(balance.columns)
+    from tracker.settings import DEFAULT_CURRENCY
+    assert {"added metal (kg per mold)", f"balance ({DEFAULT_CURRENCY}/year)", "pays off"} <= set(balance.columns)
     # observed and predicted rates side by side, labelled
     cols = balance.columns.tolist()
     assert cols.index("observed now (%)") + 1 == cols.index("predicted now (%)")
