@@ -83,8 +83,9 @@ def control(review: dict) -> None:
     fired = views.signal_words(row["signal_rules"], row["signal_high_rules"])
     why = views.reason_words(row["problem_reasons"])
     st.caption("Weekly reject rate against the pattern's centre (dashed: its rate over the window); the "
-               "shaded bar of each week runs between its limits, 3 standard errors either side of the "
-               "centre (wider in weeks with fewer castings). Weeks with nothing inspected are left blank. "
+               "shaded bar of each week runs between its limits: exact binomial probability limits for that "
+               "week's castings, 0.135 % chance each side of falling outside by chance alone (wider in weeks "
+               "with fewer castings). Weeks with nothing inspected are left blank. "
                + (f"Signal in the last 2 weeks: {fired}. " if fired else "No signal in the last 2 weeks. ")
                + (f"Flagged: {why}." if why else "Not flagged."))
 
