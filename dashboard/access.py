@@ -24,6 +24,12 @@ _KEY = "pourback_session"
 _NOTE = "pourback_sign_in_note"
 
 
+def _md(text: str) -> str:
+    from dashboard.common import md_escape  # common opens stores through this module
+
+    return md_escape(text)
+
+
 def sign_in_required() -> bool:
     return os.environ.get("POURBACK_SIGN_IN") == "1"
 
@@ -57,7 +63,7 @@ def open_store(path: str) -> Store:
     """A connection whose writes are made, and checked, as the signed-in user."""
     if sign_in_required() and session() is None:
         raise SessionExpired("not signed in; sign in again")
-    return Store(path, actor=session())
+    return Store(path, actor=session(), create=False)
 
 
 def author_field(container, label: str, key: str) -> str:
@@ -96,7 +102,7 @@ def _sign_in_page(path: str) -> None:
     st.title("Pourback: sign in")
     note = st.session_state.pop(_NOTE, None)
     if note:
-        st.info(note[0].upper() + note[1:] + ".", icon=":material/logout:")
+        st.info(_md(note[0].upper() + note[1:] + "."), icon=":material/logout:")
     with st.form("sign_in", clear_on_submit=True, border=True, width=420):
         name = st.text_input("User name", key="sign_in_name", max_chars=64, autocomplete="username")
         password = st.text_input("Password", type="password", key="sign_in_password",
@@ -111,7 +117,7 @@ def _sign_in_page(path: str) -> None:
         with Store(path) as store:
             st.session_state[_KEY] = auth.sign_in(store, name, password, idle_hours=idle_hours())
     except SignInRefused as exc:
-        st.error(str(exc).replace("`", "") + ".", icon=":material/lock:")
+        st.error(_md(str(exc).replace("`", "") + "."), icon=":material/lock:")
         return
     finally:
         password = None  # noqa: F841 - not kept past this run
@@ -123,7 +129,7 @@ def sidebar(path: str) -> None:
     s = session()
     if s is None:
         return
-    st.caption(f"Signed in as **{s.user}** ({s.role})")
+    st.caption(f"Signed in as **{_md(s.user)}** ({s.role})")
     if st.button("Sign out", key="sign_out"):
         with Store(path) as store:
             auth.sign_out(store, s)
@@ -141,6 +147,6 @@ NO_TLS_TEXT = ("Served beyond this computer without TLS: user names, passwords a
 def not_offered(action: str) -> str:
     """Why a page leaves out what the user's role may not do."""
     s = session()
-    who = f"You are signed in as {s.user} (role {s.role}); " if s else ""
+    who = f"You are signed in as {_md(s.user)} (role {s.role}); " if s else ""
     return (f"{who}to {auth.ACTIONS[action]} needs the role {' or '.join(auth.roles_for(action))}. "
             "Reading every page is open to every role.")

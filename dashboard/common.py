@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
-import os
 import re
 
 import streamlit as st
@@ -18,13 +17,13 @@ import streamlit as st
 from tracker import limits, views
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadFile, PourbackError
-from tracker.store import Store, absolute_target, display_name
+from tracker.store import DATABASE_ERRORS, Store, absolute_target, display_name, log_error
 
 START_COMMANDS = "pourback demo"
 
 # The library calls a page may load (cached). Each takes an open Store first.
 def _registry() -> dict:
-    from tracker import advise, features, review
+    from tracker import advise, features, review, settings
 
     return {
         "start_state": views.start_state,
@@ -48,6 +47,7 @@ def _registry() -> dict:
         "pour_span": lambda s: s.pour_span(),
         "plant_options": lambda s: s.plants(),
         "compare_plants": review.compare_plants,
+        "currency": settings.currency,
         "weekly_review": review.weekly_review,
         "design_map": features.design_map,
         "suggest": advise.suggest,
@@ -76,7 +76,9 @@ def db_name() -> str:
 
 def open_store() -> Store:
     """A new connection to the log for a write (close it: use ``with``): made as
-    the signed-in user, whose role the library checks on every write."""
+    the signed-in user, whose role the library checks on every write. A missing
+    log is an error, never created here: only ``pourback init`` and ``demo``
+    create one."""
     from dashboard import access
 
     return access.open_store(db_path())
@@ -85,7 +87,7 @@ def open_store() -> Store:
 @st.cache_data(show_spinner=False, max_entries=256)
 def _cached(path: str, version: tuple, plant: str | None, name: str, args: tuple, kwargs: tuple):
     fn = _registry()[name]
-    with Store(path) as store, store.plant_scope(plant):
+    with Store(path, create=False) as store, store.plant_scope(plant):
         return fn(store, *args, **dict(kwargs))
 
 
@@ -183,11 +185,28 @@ def show_error(exc: PourbackError) -> None:
 
 @contextlib.contextmanager
 def guard():
-    """Run a block; a library error is shown with :func:`show_error` instead of raised."""
+    """Run a block; a library error is shown with :func:`show_error` instead of
+    raised, and so is a failure of the machine (SQLite, a file that cannot be
+    written): one line, never a traceback."""
     try:
         yield
     except PourbackError as exc:
         show_error(exc)
+    except DATABASE_ERRORS as exc:
+        show_error(log_error(exc, db_path()))
+    except OSError as exc:
+        st.error(md_escape(f"could not read or write {exc.filename or 'a file'}: {exc.strerror or exc}"))
+
+
+# --- downloads ---------------------------------------------------------------------------
+
+def download_csv(frame, label: str, file_name: str, key: str) -> None:
+    """A download of ``frame`` as CSV, every cell through the project's formula
+    guard (the tables' built-in download is off: ``client.disableDataExport``)."""
+    from tracker.report import csv_bytes
+
+    st.download_button(label, data=csv_bytes(frame), file_name=file_name, mime="text/csv", key=key,
+                       icon=":material/download:", disabled=frame is None or len(frame) == 0)
 
 
 # --- page furniture -----------------------------------------------------------------------

@@ -143,11 +143,10 @@ def record_form(state: dict) -> None:
 
 
 def upload_file() -> None:
-    st.subheader("Import a file")
     kinds = [k for k in KINDS if access.can(TABLE_ACTION[k])]
     if not kinds:
-        st.caption(access.not_offered("log"))
-        return
+        return  # the record form above said why
+    st.subheader("Import a file")
     st.caption("One bad row refuses the whole file and nothing is written; every refused row is "
                "listed with its row number (the header is row 1), column and reason.")
     c1, c2 = st.columns([1, 2])
@@ -190,8 +189,10 @@ def latest(state: dict) -> None:
                         key="history_limit")
     full = c2.toggle("Show every column", key="history_all_columns",
                      help="x-ray category, severity, inspector, notes, when and from where it was recorded.")
-    st.dataframe(common.load("latest_records", limit=int(n), full=full), hide_index=True, width="stretch",
-                 key="latest_records_table", placeholder="")
+    records = common.load("latest_records", limit=int(n), full=full)
+    st.dataframe(records, hide_index=True, width="stretch", key="latest_records_table", placeholder="")
+    common.download_csv(records, "Download these records (CSV)", "pourback-latest-records.csv",
+                        key="download_latest_records")
 
 
 def main() -> None:

@@ -10,7 +10,6 @@ from tracker.assess import rule_words
 
 NUMBER = st.column_config.NumberColumn
 KEEP, BARE = "keep", "none"
-MONEY = views.MONEY_UNIT
 
 
 def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list[dict]:
@@ -21,22 +20,24 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")
         return []
-    table = views.suggestions_table(found)
+    code = common.load("currency")
+    money = views.money_per_year(code)
+    table = views.suggestions_table(found, currency=code)
     st.markdown("**What to change**")
     st.dataframe(table[views.CHANGE_PART], hide_index=True, width="stretch", key="suggestions_table",
                  placeholder="", column_config={
                      "now: diameter (mm)": NUMBER(format="%.0f"),
                      "suggested: diameter (mm)": NUMBER(format="%.0f")})
     st.markdown("**What it brings**")
-    st.dataframe(table[views.BALANCE_PART], hide_index=True, width="stretch", key="balance_table",
+    st.dataframe(table[views.with_currency(views.BALANCE_PART, code)], hide_index=True, width="stretch", key="balance_table",
                  placeholder="", column_config={
                      "observed now (%)": NUMBER(format="%.2f"), "predicted now (%)": NUMBER(format="%.2f"),
                      "predicted after (%)": NUMBER(format="%.2f"),
                      "added metal (kg per mold)": NUMBER(format="%+.2f"), "yield now (%)": NUMBER(format="%.1f"),
                      "yield after (%)": NUMBER(format="%.1f"),
-                     f"scrap saved ({MONEY})": NUMBER(format="%,.0f"),
-                     f"extra cost ({MONEY})": NUMBER(format="%,.0f"),
-                     f"balance ({MONEY})": NUMBER(format="%+,.0f")})
+                     f"scrap saved ({money})": NUMBER(format="%,.0f"),
+                     f"extra cost ({money})": NUMBER(format="%,.0f"),
+                     f"balance ({money})": NUMBER(format="%+,.0f")})
     st.caption("Observed now: shrinkage rejects in the zone (or all rejects where no riser change is "
                "suggested), % of castings poured in the window. Predicted now and after: the shop's reject "
                "model for the present and the changed riser; the money is on that one basis: scrap saved = "
@@ -163,7 +164,7 @@ def _rate_metrics(result: dict) -> None:
 
 def _money_metrics(result: dict) -> None:
     """The money as in the suggestions: two columns, so the labels fit at tablet width."""
-    unit = "; in currency units per year"
+    unit = f"; in {common.load('currency')} per year"
     rows = [("Extra riser metal (per year)", "extra_metal_cost_per_year",
              f"{result['added_metal_kg_per_mold']:+.2f} kg per mold at the remelt charge" + unit),
             ("Sleeves (per year)", "sleeve_cost_per_year", "change in sleeve cost per casting" + unit),

@@ -83,8 +83,9 @@ def control(review: dict) -> None:
     fired = views.signal_words(row["signal_rules"], row["signal_high_rules"])
     why = views.reason_words(row["problem_reasons"])
     st.caption("Weekly reject rate against the pattern's centre (dashed: its rate over the window); the "
-               "shaded bar of each week runs between its limits, 3 standard errors either side of the "
-               "centre (wider in weeks with fewer castings). Weeks with nothing inspected are left blank. "
+               "shaded bar of each week runs between its limits: exact binomial probability limits for that "
+               "week's castings, 0.135 % chance each side of falling outside by chance alone (wider in weeks "
+               "with fewer castings). Weeks with nothing inspected are left blank. "
                + (f"Signal in the last 2 weeks: {fired}. " if fired else "No signal in the last 2 weeks. ")
                + (f"Flagged: {why}." if why else "Not flagged."))
 
@@ -134,6 +135,8 @@ def patterns(review: dict) -> None:
                                 "rejected (castings)": st.column_config.NumberColumn(format="localized"),
                                 "poured (castings)": st.column_config.NumberColumn(format="localized"),
                                 cost: st.column_config.NumberColumn(format="localized")})
+    common.download_csv(views.review_patterns_table(review, full=True), "Download the patterns table (CSV)",
+                        f"pourback-patterns-{review['week']}.csv", key="download_patterns")
 
 
 def download(review: dict) -> None:

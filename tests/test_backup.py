@@ -164,5 +164,5 @@ def test_backup_into_a_missing_folder_is_a_clear_error(runner, db, tmp_path):
     target = tmp_path / "no" / "such" / "backup.db"
     result = runner.invoke(main, ["backup", str(target), "--db", str(db)])
     assert result.exit_code == 1
-    assert result.output == (f"Error: could not write the backup {target} (unable to open database file); "
-                             "check that its folder exists and has room\n")
+    assert result.output == (f"Error: could not write the backup {target}: the folder {target.parent} does not "
+                             "exist\n")

@@ -111,7 +111,7 @@ ROW_CASES = [
      "got 'unobtainium'; alloy must be one of aluminum, aluminum_bronze, cast_iron_brass, "
      "ductile_iron, gray_iron, silicon_bronze, steel"),
     ("weight-text", "patterns", {"casting_weight_kg": "heavy"}, "casting_weight_kg",
-     "got 'heavy'; casting_weight_kg must be a number above 0 kg"),
+     "got 'heavy'; casting_weight_kg must be a number of at least 0.001 and at most 300,000 kg"),
     ("per-mold-fraction", "patterns", {"castings_per_mold": "1.5"}, "castings_per_mold",
      "got '1.5'; castings_per_mold must be a whole number above 0 and at most 10,000"),
     ("per-mold-huge", "patterns", {"castings_per_mold": "1e300"}, "castings_per_mold",
@@ -119,20 +119,20 @@ ROW_CASES = [
     ("per-mold-zero", "patterns", {"castings_per_mold": "0"}, "castings_per_mold",
      "got '0'; castings_per_mold must be a whole number above 0 and at most 10,000"),
     ("metal-cost-negative", "patterns", {"metal_cost_per_kg": "-1"}, "metal_cost_per_kg",
-     "got '-1'; metal_cost_per_kg must be a number of at least 0 per kg"),
+     "got '-1'; metal_cost_per_kg must be a number of at least 0 and at most 100,000 per kg"),
     ("pattern-blank", "patterns", {"pattern": ""}, "pattern", "got ''; pattern is required"),
     ("mould-unknown", "patterns", {"mould": "clay"}, "mould", "got 'clay'; mould must be one of green_sand, rigid"),
     # zones
     ("zone-unknown-pattern", "zones", {"pattern": "T-999"}, "pattern",
      "got 'T-999'; unknown pattern; import it in patterns.csv first or check the code"),
     ("zone-volume-zero", "zones", {"volume_cm3": "0"}, "volume_cm3",
-     "got '0'; volume_cm3 must be a number above 0 cm³"),
+     "got '0'; volume_cm3 must be a number of at least 0.001 and at most 100,000,000 cm³"),
     # A plate of thickness T cooling on both faces has V/A = T/2 (geometry): 500/10 = 50 cm > 1.5 cm.
     ("zone-modulus-above-half-thickness", "zones", {"cooling_area_cm2": "10"}, "cooling_area_cm2",
      "got '10'; the modulus V/A = 50.00 cm is above half the thickness (1.50 cm), more than a plate "
      "of that thickness cooling on both faces can have; check the units (cm², cm³, mm)"),
     ("zone-width-negative", "zones", {"width_mm": "-5"}, "width_mm",
-     "got '-5'; width_mm must be a number above 0 mm"),
+     "got '-5'; width_mm must be a number of at least 0.1 and at most 20,000 mm"),
     ("zone-level-six", "zones", {"required_xray_level": "6"}, "required_xray_level",
      "got '6'; required_xray_level must be a whole number of at least 1 and at most 5"),
     # sleeves
@@ -147,7 +147,7 @@ ROW_CASES = [
      "got 'bottom'; placement must be one of top, side"),
     ("top-unknown", "risers", {"top": "wide"}, "top", "got 'wide'; top must be one of open, blind"),
     ("riser-zone-missing", "risers", {"zone": "web"}, "zone",
-     "got 'web'; pattern T-100 has no such zone; import it in zones.csv first"),
+     "got 'web'; pattern T-100 has no such zone; its zones are body, flange; import it in zones.csv first"),
     ("riser-sleeve-unknown", "risers", {"sleeve": "INS-999"}, "sleeve",
      "got 'INS-999'; unknown sleeve; import it in sleeves.csv first"),
     ("riser-sleeve-diameter", "risers", {"sleeve": "INS-100"}, "diameter_mm",
@@ -221,9 +221,73 @@ ROW_CASES = [
                                        "defect": ""}, "result",
      "got 'accept'; category D (cracks, hot tears) is not acceptable at any level"),
     ("insp-zone-unknown", "inspections", {"zone": "flange"}, "zone",
-     "got 'flange'; pattern T-200 has no such zone"),
+     "got 'flange'; pattern T-200 has no such zone; its zones are boss"),
     ("notes-control-chars", "inspections", {"notes": "bad\x07bell"}, "notes",
      "got 'bad\\x07bell'; notes holds control characters"),
+    ("rework-without-defect", "inspections", {"result": "rework", "defect": "", "xray_category": "",
+                                              "severity": ""}, "defect",
+     "got ''; a rework row needs the defect found; use one of shrinkage, gas, sand, slag, misrun, "
+     "cold_shut, hot_tear, crack, dimensional, other"),
+    # plausibility: dates (before 1950, or more than a year ahead), with TODAY = 2026-06-01
+    ("lot-year-0001", "lots", {"poured_on": "0001-01-01"}, "poured_on",
+     "got '0001-01-01'; poured_on lies before 1950-01-01; check the year"),
+    ("lot-before-1950", "lots", {"poured_on": "1949-12-31"}, "poured_on",
+     "got '1949-12-31'; poured_on lies before 1950-01-01; check the year"),
+    ("inspected-year-9999", "inspections", {"inspected_on": "9999-12-31"}, "inspected_on",
+     "got '9999-12-31'; inspected_on lies in the future (after 2026-06-01)"),
+    ("revision-years-ahead", "risers", {"effective_from": "2030-01-01"}, "effective_from",
+     "got '2030-01-01'; effective_from lies more than a year ahead (after 2027-06-02); check the year"),
+    ("revision-year-0001", "risers", {"effective_from": "0001-01-01"}, "effective_from",
+     "got '0001-01-01'; effective_from lies before 1950-01-01; check the year"),
+    # plausibility: physical ranges per column (tracker/limits.py, common practice)
+    ("weight-1e300", "patterns", {"casting_weight_kg": "1e300"}, "casting_weight_kg",
+     "got '1e300'; casting_weight_kg must be a number of at least 0.001 and at most 300,000 kg"),
+    ("weight-1e-300", "patterns", {"casting_weight_kg": "1e-300"}, "casting_weight_kg",
+     "got '1e-300'; casting_weight_kg must be a number of at least 0.001 and at most 300,000 kg"),
+    ("metal-cost-1e300", "patterns", {"metal_cost_per_kg": "1e300"}, "metal_cost_per_kg",
+     "got '1e300'; metal_cost_per_kg must be a number of at least 0 and at most 100,000 per kg"),
+    ("processing-cost-1e300", "patterns", {"processing_cost_per_casting": "1e300"},
+     "processing_cost_per_casting",
+     "got '1e300'; processing_cost_per_casting must be a number of at least 0 and at most 10,000,000 "
+     "per casting"),
+    ("zone-volume-1e300", "zones", {"volume_cm3": "1e300"}, "volume_cm3",
+     "got '1e300'; volume_cm3 must be a number of at least 0.001 and at most 100,000,000 cm³"),
+    ("zone-thickness-tiny", "zones", {"thickness_mm": "1e-300"}, "thickness_mm",
+     "got '1e-300'; thickness_mm must be a number of at least 0.1 and at most 5,000 mm"),
+    ("zone-length-huge", "zones", {"length_mm": "1e9"}, "length_mm",
+     "got '1e9'; length_mm must be a number of at least 0.1 and at most 20,000 mm"),
+    ("sleeve-diameter-1e300", "sleeves", {"inner_diameter_mm": "1e300"}, "inner_diameter_mm",
+     "got '1e300'; inner_diameter_mm must be a number of at least 5 and at most 3,000 mm"),
+    ("sleeve-height-tiny", "sleeves", {"height_mm": "1e-300"}, "height_mm",
+     "got '1e-300'; height_mm must be a number of at least 5 and at most 5,000 mm"),
+    ("sleeve-cost-1e300", "sleeves", {"unit_cost": "1e300"}, "unit_cost",
+     "got '1e300'; unit_cost must be a number of at least 0 and at most 100,000 per sleeve"),
+    ("riser-diameter-1e300", "risers", {"diameter_mm": "1e300"}, "diameter_mm",
+     "got '1e300'; diameter_mm must be a number of at least 5 and at most 3,000 mm"),
+    ("riser-neck-tiny", "risers", {"neck_diameter_mm": "1e-300"}, "neck_diameter_mm",
+     "got '1e-300'; neck_diameter_mm must be a number of at least 2 and at most 3,000 mm"),
+    # invisible characters: zero-width, bidirectional overrides, word joiner, byte-order mark
+    ("lot-zero-width-space", "lots", {"lot": "L4\u200b"}, "lot",
+     "got 'L4\\u200b'; lot holds an invisible character (U+200B ZERO WIDTH SPACE) at character 3; retype the "
+     "value without it"),
+    ("pattern-bidi-override", "patterns", {"pattern": "T-\u202e003"}, "pattern",
+     "got 'T-\\u202e003'; pattern holds an invisible character (U+202E RIGHT-TO-LEFT OVERRIDE) at character "
+     "3; retype the value without it"),
+    ("zone-byte-order-mark", "zones", {"zone": "ne\ufeffck"}, "zone",
+     "got 'ne\\ufeffck'; zone holds an invisible character (U+FEFF ZERO WIDTH NO-BREAK SPACE) at character 3; "
+     "retype the value without it"),
+    ("inspector-word-joiner", "inspections", {"inspector": "QE\u2060B"}, "inspector",
+     "got 'QE\\u2060B'; inspector holds an invisible character (U+2060 WORD JOINER) at character 3; retype "
+     "the value without it"),
+    ("notes-bidi-isolate", "inspections", {"notes": "ok \u2066x"}, "notes",
+     "got 'ok \\u2066x'; notes holds an invisible character (U+2066 LEFT-TO-RIGHT ISOLATE) at character 4; "
+     "retype the value without it"),
+    # decimal commas, long values cut when echoed
+    ("temp-decimal-comma", "lots", {"pour_temp_c": "1600,5"}, "pour_temp_c",
+     "got '1600,5'; pour_temp_c must be a number of at least 400 and at most 1,800 °C; it is written with a "
+     "decimal comma: write a decimal point, or import the file with `--decimal ','`"),
+    ("notes-100-kb", "inspections", {"notes": "x" * 100_000}, "notes",
+     "got '" + "x" * 58 + "…' (100,000 characters); notes is longer than 2000 characters"),
 ]
 
 
@@ -276,7 +340,9 @@ FILE_CASES = [
      + b"L3,2026-03-06,visual,1,accept,,,,,,QE-B,caf\xe9\n",
      "inspections.csv, row 3: byte 0xe9 is not UTF-8 text; save the file as UTF-8 "
      "(CSV UTF-8 in a spreadsheet program)"),
-    ("utf16", "lots", new_file("lots").encode("utf-16"), "lots.csv, row 1: byte 0xff is not UTF-8 text"),
+    ("utf16", "lots", new_file("lots").encode("utf-16"),
+     "lots.csv: the file is UTF-16 text (it starts with a UTF-16 byte-order mark), not UTF-8; save it as CSV "
+     "UTF-8 (comma delimited) in the spreadsheet program"),
     ("unclosed-quote", "inspections", HEADER + '\nL3,2026-03-06,visual,1,accept,,,,,,QE,"never closed\n',
      "inspections.csv: not a readable CSV (Error tokenizing data. C error: EOF inside string"),
     ("extra-filled-cell", "lots", "lot,pattern,poured_on,heat,molds\nL4,T-100,2026-04-01,H4,5,1600\n",
@@ -288,6 +354,34 @@ FILE_CASES = [
     ("unknown-suffix", "patterns", b"{}", "patterns.json: unknown file type '.json'; use .csv or .xlsx"),
     ("xlsx-not-a-workbook", "patterns", b"PK\x03\x04 not really a zip",
      "patterns.xlsx: not a readable .xlsx workbook (BadZipFile)"),
+    # separators, decimal marks, encodings and line ends that are not what the import reads
+    ("semicolons", "lots", new_file("lots").replace(",", ";"),
+     "lots.csv: this file is separated by ';'; save it as comma-separated with decimal points, or import it "
+     "with `--sep ';'`"),
+    ("semicolons-decimal-commas", "lots", new_file("lots", {"pour_temp_c": "1600.5"}).replace(",", ";")
+     .replace("1600.5", "1600,5"),
+     "lots.csv: this file is separated by ';' with decimal commas; save it as comma-separated with decimal "
+     "points, or import it with `--sep ';' --decimal ','`"),
+    ("tabs", "lots", new_file("lots").replace(",", "\t"),
+     "lots.csv: this file is separated by tabs; save it as comma-separated with decimal points, or import it "
+     "with `--sep 'tab'`"),
+    ("utf16-le-no-bom", "lots", new_file("lots").encode("utf-16-le"),
+     "lots.csv: the file is UTF-16 text (little-endian, without a byte-order mark), not UTF-8; save it as CSV "
+     "UTF-8 (comma delimited) in the spreadsheet program"),
+    ("utf16-be-no-bom", "lots", new_file("lots").encode("utf-16-be"),
+     "lots.csv: the file is UTF-16 text (big-endian, without a byte-order mark), not UTF-8; save it as CSV "
+     "UTF-8 (comma delimited) in the spreadsheet program"),
+    ("cr-only-line-ends", "lots", new_file("lots").replace("\n", "\r"),
+     "lots.csv: the lines end in a carriage return alone (CR, an old Mac format); save the file with Windows "
+     "(CRLF) or Unix (LF) line ends, or as CSV UTF-8 in a spreadsheet program"),
+    ("last-line-cut-short", "lots", "lot,pattern,poured_on,heat,molds,pour_temp_c\nL4,T-100,2026-04-01,H4,5,1600\n"
+     "L5,T-100,2026-04-01,H5,1",
+     "lots.csv, row 3: the last line is cut short: it has 5 of the header's 6 cells and no line end; the file "
+     "was probably cut off while being copied or saved: export it again"),
+    ("cell-over-a-mebibyte", "inspections", HEADER + '\nL3,2026-03-06,visual,1,accept,,,,,,QE,"'
+     + "y" * ((1 << 20) + 1) + '"\n',
+     "inspections.csv, row 2: a cell is longer than 1,048,576 characters (the limit of one cell); a quote that "
+     "is never closed takes in the rest of the file: check the quotes on that row"),
 ]
 _NAMES = {"unknown-suffix": "patterns.json", "xlsx-not-a-workbook": "patterns.xlsx"}
 
@@ -379,8 +473,8 @@ def test_riser_before_its_zones_refuses_the_whole_folder(tmp_path):
         assert s.counts()["patterns"] == 0
     msg = str(info.value)
     assert "risers.csv: refused, nothing written (3 bad row(s)):" in msg
-    assert "risers.csv, row 2, column zone: got 'flange'; pattern T-100 has no such zone; import it in " \
-           "zones.csv first" in msg
+    assert "risers.csv, row 2, column zone: got 'flange'; pattern T-100 has no such zone; it has no zones yet; " \
+           "import it in zones.csv first" in msg
     assert "risers.csv, row 4, column zone: got 'boss'; pattern T-200 has no such zone;" in msg
 
 
@@ -527,6 +621,7 @@ def test_skip_bad_keeps_good_riser_revisions(store, tmp_path):
 
 def test_cli_skip_bad_writes_a_refused_csv(runner, tmp_path):
     db = tmp_path / "log.db"
+    assert runner.invoke(main, ["init", "--db", str(db)]).exit_code == 0
     result = runner.invoke(main, ["import", str(GOOD), "--db", str(db)])
     assert result.exit_code == 0, result.output
     path = tmp_path / "lots.csv"
@@ -548,6 +643,7 @@ def test_cli_skip_bad_writes_a_refused_csv(runner, tmp_path):
 
 def test_cli_refusal_is_one_clear_error_without_traceback(runner, tmp_path):
     db = tmp_path / "log.db"
+    assert runner.invoke(main, ["init", "--db", str(db)]).exit_code == 0
     assert runner.invoke(main, ["import", str(GOOD), "--db", str(db)]).exit_code == 0
     path = tmp_path / "lots.csv"
     path.write_text(new_file("lots", {"molds": "0"}), encoding="utf-8")

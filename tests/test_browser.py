@@ -62,14 +62,14 @@ def _free_port(host: str = "127.0.0.1") -> int:
 
 
 @contextlib.contextmanager
-def running_dashboard(db, folder, host: str = "127.0.0.1", port: int | None = None):
-    """`pourback dashboard` on ``db`` at ``host`` (a free port), until the block ends;
-    yields its base URL. Fails the test when it exits or does not answer in 90 s."""
+def running_dashboard(db, folder, host: str = "127.0.0.1", port: int | None = None, extra: tuple = ()):
+    """`pourback dashboard` on ``db`` at ``host`` (a free port; ``extra`` options), until
+    the block ends; yields its base URL. Fails the test when it exits or does not answer in 90 s."""
     port = port or _free_port(host)
     log = (folder / "server.log").open("w")
     env = {k: v for k, v in os.environ.items() if k != "POURBACK_DB"}
     proc = subprocess.Popen([sys.executable, "-m", "tracker", "dashboard", "--db", str(db),
-                             "--port", str(port), "--host", host],
+                             "--port", str(port), "--host", host, *extra],
                             stdout=log, stderr=subprocess.STDOUT, env=env, cwd=folder)
     base = f"http://{host}:{port}"
     try:

@@ -14,6 +14,7 @@ import os
 import shutil
 import subprocess
 import sys
+import time
 import urllib.request
 
 import pytest
@@ -227,7 +228,7 @@ def test_admin_sees_accounts_the_audit_and_the_tls_warning(page, team_server):
 
 
 def test_no_page_shows_a_password_or_a_hash(page, team_server):
-    # runs last in this module: every page kept by the tests above is searched
+    # every page kept by the tests above it in this module is searched
     page.goto(team_server["url"])
     team_server["pages"].append(page.content())
     with Store(team_server["db"]) as s:
@@ -241,3 +242,68 @@ def test_no_page_shows_a_password_or_a_hash(page, team_server):
     server_log = team_server["log"].read_text()
     for secret in secrets:
         assert secret not in server_log
+
+
+def test_require_login_on_loopback_and_an_idle_session_ends(browser, app_demo_file, tmp_path):
+    db = tmp_path / "desk.db"
+    shutil.copyfile(app_demo_file, db)
+    with Store(db) as s:
+        auth.add_user(s, "bench", "inspector", PASSWORD, by="test")
+    # 0.002 hours = 7.2 s without activity ends the session
+    with running_dashboard(db, tmp_path, "127.0.0.1", extra=("--require-login", "--idle-hours", "0.002")) as base:
+        context = browser.new_context(viewport={"width": 1400, "height": 900})
+        pg = context.new_page()
+        pg.set_default_timeout(60_000)
+        try:
+            pg.goto(base)
+            sign_in(pg, "bench", PASSWORD)
+            pg.get_by_role("heading", name="Log results", level=1).wait_for()
+            pg.wait_for_timeout(9_000)
+            pg.get_by_role("link", name="Weekly review").click()
+            pg.get_by_text("Your session ended after 0.002 hours without activity; sign in again.").wait_for()
+            assert pg.get_by_role("heading", name="Weekly review").count() == 0
+            _form(pg)[0].wait_for()
+        finally:
+            context.close()
+    with Store(db) as s:
+        assert [r["event"] for r in auth.audit_log(s)][-1] == "session_expired"
+
+
+def test_tls_serves_https(app_demo_file, tmp_path):
+    import ssl
+
+    if not shutil.which("openssl"):
+        pytest.skip("openssl is missing (apt-get install openssl)")
+    cert, key = tmp_path / "cert.pem", tmp_path / "key.pem"
+    subprocess.run(["openssl", "req", "-x509", "-newkey", "rsa:2048", "-nodes", "-keyout", str(key), "-out",
+                    str(cert), "-days", "1", "-subj", f"/CN={HOST}", "-addext", f"subjectAltName=IP:{HOST}"],
+                   check=True, capture_output=True)
+    db = tmp_path / "plant.db"
+    shutil.copyfile(app_demo_file, db)
+    with Store(db) as s:
+        auth.add_user(s, "boss", "admin", PASSWORD, by="test")
+    port = _free_port(HOST)
+    env = {k: v for k, v in os.environ.items() if k != "POURBACK_DB"}
+    proc = subprocess.Popen([sys.executable, "-m", "tracker", "dashboard", "--db", str(db), "--host", HOST,
+                             "--port", str(port), "--tls-cert", str(cert), "--tls-key", str(key)],
+                            stdout=subprocess.PIPE, stderr=subprocess.STDOUT, env=env, cwd=tmp_path, text=True)
+    trust = ssl.create_default_context(cafile=str(cert))  # the self-signed certificate, checked
+    try:
+        for _ in range(300):
+            try:
+                with urllib.request.urlopen(f"https://{HOST}:{port}/_stcore/health", timeout=2,
+                                            context=trust) as r:
+                    assert r.status == 200
+                    break
+            except OSError:
+                assert proc.poll() is None, proc.stdout.read()
+                time.sleep(0.3)
+        else:
+            pytest.fail("no HTTPS answer")
+        # plain HTTP on the same port gets no page
+        assert not _answers(port)
+    finally:
+        proc.terminate()
+        proc.wait(timeout=15)
+    out = proc.stdout.read()
+    assert f"https://{HOST}:{port}" in out and "without TLS" not in out

@@ -26,6 +26,7 @@ def test_init_import_dir_and_reimport_adds_nothing(tmp_path, runner):
 def test_import_single_kind_and_env_db(tmp_path, runner, monkeypatch):
     db = tmp_path / "env.db"
     monkeypatch.setenv("POURBACK_DB", str(db))
+    assert runner.invoke(main, ["init"]).exit_code == 0
     res = runner.invoke(main, ["import", "patterns", str(GOOD / "patterns.csv")])
     assert res.exit_code == 0, res.output
     with Store(db) as s:
@@ -34,16 +35,19 @@ def test_import_single_kind_and_env_db(tmp_path, runner, monkeypatch):
 
 def test_log_refuses_what_import_refuses(tmp_path, runner):
     db = str(tmp_path / "p.db")
+    runner.invoke(main, ["init", "--db", db])
     runner.invoke(main, ["import", str(GOOD), "--db", db])
     base = ["log", "--db", db, "--lot", "L2", "--method", "xray", "--inspected-on", "2026-03-11"]
     res = runner.invoke(main, base + ["--quantity", "1", "--result", "reject"])
     assert res.exit_code == 1
-    assert "Error: defect: got None; a reject row needs the defect found" in res.output
+    # The form's words, with the allowed values (issue 13)
+    assert res.output == ("Error: Defect: pick one for a reject (shrinkage, gas, sand, slag, misrun, cold_shut, "
+                          "hot_tear, crack, dimensional, other)\n")
     res = runner.invoke(main, base + ["--quantity", "99", "--result", "reject", "--defect", "gas"])
     assert "lot L2 would have 100 castings rejected but only 16 were poured" in res.output
     res = runner.invoke(main, base + ["--quantity", "1", "--result", "reject", "--defect", "shrinkage",
                                       "--zone", "flange", "--xray-category", "CB", "--severity", "6"])
-    assert "severity" in res.output and "at most 5" in res.output
+    assert res.output == "Error: Severity: got '6'; must be a whole number of at least 1 and at most 5\n"
     res = runner.invoke(main, base + ["--quantity", "1", "--result", "reject", "--defect", "shrinkage",
                                       "--zone", "flange", "--xray-category", "CB", "--severity", "4",
                                       "--inspector", "QE-T", "--by", "tester", "--json"])
@@ -56,6 +60,7 @@ def test_log_refuses_what_import_refuses(tmp_path, runner):
 
 def test_correct_and_history(tmp_path, runner):
     db = str(tmp_path / "p.db")
+    runner.invoke(main, ["init", "--db", db])
     runner.invoke(main, ["import", str(GOOD), "--db", db])
     res = runner.invoke(main, ["correct", "3", "--quantity", "2", "--reason", "recount", "--by", "QE-Z", "--db", db])
     assert res.exit_code == 0, res.output
@@ -70,6 +75,7 @@ def test_correct_and_history(tmp_path, runner):
 
 def test_skip_bad_writes_refused_csv(tmp_path, runner):
     db = str(tmp_path / "p.db")
+    runner.invoke(main, ["init", "--db", db])
     runner.invoke(main, ["import", str(GOOD), "--db", db])
     bad = tmp_path / "lots.csv"
     bad.write_text("lot,pattern,poured_on,heat,molds\nN1,T-100,2026-04-01,H7,4\nN2,NOPE,2026-04-01,H7,4\n")
@@ -114,6 +120,7 @@ def test_newer_schema_is_refused(tmp_path):
 
 def test_patterns_lists_the_current_revision(tmp_path, runner):
     db = str(tmp_path / "p.db")
+    runner.invoke(main, ["init", "--db", db])
     runner.invoke(main, ["import", str(GOOD), "--db", db])
     res = runner.invoke(main, ["patterns", "--db", db, "--json"])
     assert res.exit_code == 0, res.output

@@ -108,7 +108,8 @@ def test_missing_database_is_one_line_error(runner, tmp_path):
     missing = tmp_path / "nothing.db"
     result = runner.invoke(main, ["review", "--db", str(missing)])
     assert result.exit_code == 1
-    assert result.output.startswith("Error: unknown database") and result.output.count("\n") == 1
+    assert result.output == (f"Error: no log at {missing}; create one with `pourback init --db {missing}` (or "
+                             "`pourback demo`), or give the log's path with --db\n")
     assert not missing.exists()
 
 

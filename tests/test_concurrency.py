@@ -103,7 +103,7 @@ def test_concurrent_rejects_never_exceed_castings_poured(db, tmp_path):
     refused = [m for o in out.values() for m in o["refused"]]
     assert logged == 150
     assert len(refused) == 50
-    assert all(m.startswith("quantity: got 1; lot TIGHT would have 151 castings rejected but only 150 "
+    assert all(m.startswith("Quantity: got 1; lot TIGHT would have 151 castings rejected but only 150 "
                             "were poured") for m in refused), refused[:3]
     with Store(db) as s:
         by_lot = s.rejects_by_lot().groupby("lot")["quantity"].sum()

@@ -118,7 +118,7 @@ def test_correction_above_castings_poured_is_refused(store):
     # 15 + 6 = 21 rejected of 20 poured (the old 2 no longer count, the xray total 6 fits)
     with pytest.raises(BadInput) as info:
         correct_inspection(store, store.xray_id, {"quantity": 6}, by="QE-B", reason="recount")
-    assert str(info.value) == ("quantity: got 6; lot L4 would have 21 castings rejected but only 20 "
+    assert str(info.value) == ("Quantity: got 6; lot L4 would have 21 castings rejected but only 20 "
                                "were poured")
     assert store.snapshot() == before
     # 5 is fine: the record it replaces is left out of the lot's totals
@@ -128,9 +128,9 @@ def test_correction_above_castings_poured_is_refused(store):
 
 @pytest.mark.parametrize("changes, message", [
     ({"result": "accept", "defect": None},
-     "result: got 'accept'; severity 4 is above zone body's required level 3: write reject or rework"),
-    ({"severity": 9}, "severity: got 9; severity must be a whole number of at least 1 and at most 5"),
-    ({"zone": "web"}, "zone: got 'web'; pattern T-100 has no such zone"),
+     "Result: got 'accept'; severity 4 is above zone body's required level 3: write reject or rework"),
+    ({"severity": 9}, "Severity: got '9'; must be a whole number of at least 1 and at most 5"),
+    ({"zone": "web"}, "Zone: got 'web'; pattern T-100 has no such zone; its zones are body, flange"),
 ])
 def test_a_correction_is_validated_like_a_new_record(store, changes, message):
     before = store.snapshot()
@@ -164,7 +164,7 @@ def test_a_logged_record_like_an_imported_row_is_still_checked_against_the_lot(s
         log_inspection(store, {"lot": "L1", "inspected_on": "2026-03-04", "method": "visual",
                                "quantity": 20, "result": "accept", "inspector": "QE-A"},
                        by="QE-A", today=TODAY)
-    assert str(info.value) == ("quantity: got 20; lot L1 would have 40 castings inspected by visual but "
+    assert str(info.value) == ("Quantity: got 20; lot L1 would have 40 castings inspected by visual but "
                                "only 20 were poured")
     assert store.snapshot() == before
 

@@ -181,8 +181,7 @@ def test_form_shows_the_librarys_refusal_and_writes_nothing(app_db, monkeypatch)
     at = _fill_form(open_page(app_db, "log_results.py", monkeypatch), lot, defect=None)
     assert not at.exception
     errors = texts(at.error)
-    assert len(errors) == 1 and errors[0].startswith("defect"), errors
-    assert "needs the defect found" in errors[0]
+    assert len(errors) == 1 and errors[0].startswith("Defect: pick one for a reject"), errors
     assert snapshot(app_db) == before
 
 
@@ -303,7 +302,8 @@ def test_review_headline_charts_and_report(app_demo_db, monkeypatch):
     assert "cumulative share (%)" in titles and "ISO week of pour" in titles
     # The p-chart opens on the first flagged pattern.
     assert at.selectbox(key="chart_pattern").value == r["problems"][0]
-    assert [b.label for b in at.get("download_button")] == ["Download this review as HTML"]
+    assert [b.label for b in at.get("download_button")] == ["Download this review as HTML",
+                                                         "Download the patterns table (CSV)"]
     # The planted revision of P-1031 is judged an improvement.
     assert any("P-1031 revision 2" in m for m in texts(at.markdown))
     # the verdict in plain words first (the statistics are in its help tooltip)
@@ -401,7 +401,8 @@ def test_suggestions_and_what_if(app_demo_db, monkeypatch):
     hit = change[(change["pattern"] == "P-1017") & (change["riser"] == "R3")]
     assert len(hit) == 1 and hit["action"].iat[0] != "no riser change"
     balance = next(d.value for d in at.dataframe if "yield after (%)" in d.value.columns)
-    assert {"added metal (kg per mold)", "balance (currency units/year)", "pays off"} <= set(balance.columns)
+    from tracker.settings import DEFAULT_CURRENCY
+    assert {"added metal (kg per mold)", f"balance ({DEFAULT_CURRENCY}/year)", "pays off"} <= set(balance.columns)
     # observed and predicted rates side by side, labelled
     cols = balance.columns.tolist()
     assert cols.index("observed now (%)") + 1 == cols.index("predicted now (%)")

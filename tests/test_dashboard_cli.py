@@ -18,8 +18,13 @@ def launched(monkeypatch):
     return calls
 
 
+def _log(path):
+    Store(path).close()
+    return path
+
+
 def test_dashboard_command_line(runner, launched, tmp_path):
-    db = tmp_path / "plant.db"
+    db = _log(tmp_path / "plant.db")
     res = runner.invoke(main, ["dashboard", "--db", str(db), "--port", "8765"])
     assert res.exit_code == 0, res.output
     [(argv, env)] = launched
@@ -27,18 +32,33 @@ def test_dashboard_command_line(runner, launched, tmp_path):
                     "--server.address", "127.0.0.1", "--server.port", "8765",
                     "--server.headless", "true", "--browser.gatherUsageStats", "false",
                     "--server.fileWatcherType", "none", "--client.toolbarMode", "minimal",
-                    "--server.enableXsrfProtection", "true", "--server.maxUploadSize", "10"]
+                    "--server.enableXsrfProtection", "true", "--server.maxUploadSize", "10",
+                    "--client.disableDataExport", "true"]
     assert cmd_app.app_path().name == "app.py" and cmd_app.app_path().parent.name == "dashboard"
     assert env["POURBACK_DB"] == str(db.resolve())
     assert f"Dashboard on {db.resolve()}: http://127.0.0.1:8765" in res.output
     assert "no login" not in res.output
-    # A missing log is created empty, so the dashboard can show how to start.
-    with Store(db, create=False) as s:
-        assert s.counts()["lots"] == 0
+
+
+def test_dashboard_never_creates_a_missing_log(runner, launched, tmp_path):
+    missing = tmp_path / "typo.db"
+    res = runner.invoke(main, ["dashboard", "--db", str(missing)])
+    assert res.exit_code == 1
+    assert res.output == (f"Error: no log at {missing.resolve()}; create one with `pourback init --db "
+                          f"{missing.resolve()}` (or `pourback demo`), or give the log's path with --db\n")
+    assert not missing.exists() and not launched
+
+
+def test_dashboard_refuses_an_empty_host(runner, launched, tmp_path):
+    res = runner.invoke(main, ["dashboard", "--db", str(_log(tmp_path / "x.db")), "--host", ""])
+    assert res.exit_code == 2
+    assert ("Invalid value for '--host': got ''; give an address such as 127.0.0.1 (this computer only) or "
+            "0.0.0.0 (every network interface)") in res.output
+    assert not launched
 
 
 def test_dashboard_uses_pourback_db(runner, launched, tmp_path, monkeypatch):
-    db = tmp_path / "from-env.db"
+    db = _log(tmp_path / "from-env.db")
     monkeypatch.setenv("POURBACK_DB", str(db))
     res = runner.invoke(main, ["dashboard"])
     assert res.exit_code == 0, res.output
@@ -47,7 +67,7 @@ def test_dashboard_uses_pourback_db(runner, launched, tmp_path, monkeypatch):
 
 
 def test_dashboard_other_host_refuses_without_an_admin(runner, launched, tmp_path):
-    res = runner.invoke(main, ["dashboard", "--db", str(tmp_path / "x.db"), "--host", "0.0.0.0"])
+    res = runner.invoke(main, ["dashboard", "--db", str(_log(tmp_path / "x.db")), "--host", "0.0.0.0"])
     assert res.exit_code == 1
     assert "Error: refusing to serve the dashboard on 0.0.0.0: beyond this computer" in res.output
     assert "pourback user add NAME --role admin" in res.output
@@ -188,7 +208,7 @@ def test_tls_options_go_to_streamlit(runner, launched, tmp_path):
 
 
 def test_require_login_on_loopback(runner, launched, tmp_path):
-    db = tmp_path / "desk.db"
+    db = _log(tmp_path / "desk.db")
     res = runner.invoke(main, ["dashboard", "--db", str(db), "--require-login"])
     assert res.exit_code == 1 and "no enabled account to sign in with" in res.output
     _admin(db, role="inspector")

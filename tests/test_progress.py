@@ -109,6 +109,7 @@ def test_import_bar_on_stderr_only_on_a_terminal(runner, tmp_path, terminal, mon
 
     monkeypatch.setattr("tracker.cli.cmd_log.progress_bar", spy)
     db = str(tmp_path / "a.db")
+    assert runner.invoke(main, ["init", "--db", db]).exit_code == 0  # only init creates a log
     res = runner.invoke(main, ["import", str(SAMPLE), "--db", db, "--json"])
     assert res.exit_code == 0, res.output
     assert shown == [False] and res.stderr == ""

@@ -68,3 +68,15 @@ def test_review_page_names_the_currency(app_db, runner, monkeypatch):
     assert "," in value and value.replace(",", "").isdigit()
     table = next(d.value for d in at.dataframe if "scrap cost (USD)" in d.value.columns)
     assert len(table)
+
+
+def test_suggestions_page_names_the_currency(app_db, runner, monkeypatch):
+    from tests.test_dashboard import open_page
+
+    runner.invoke(main, ["settings", "--db", str(app_db), "--currency", "GBP"])
+    at = open_page(app_db, "suggestions.py", monkeypatch)
+    balance = next(d.value for d in at.dataframe if "yield after (%)" in d.value.columns)
+    assert {"balance (GBP/year)", "scrap saved (GBP/year)", "extra cost (GBP/year)"} <= set(balance.columns)
+    assert not any("currency units" in c for c in balance.columns)
+    helps = [m.help for m in at.metric if m.label in ("Yearly balance", "Scrap saved (per year)")]
+    assert len(helps) == 2 and all("GBP per year" in h for h in helps), helps

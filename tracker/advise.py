@@ -138,7 +138,7 @@ def review_window(store: Store, week: str | None, weeks: int) -> tuple[str, dt.d
     weeks = limits.check_weeks(weeks)
     if week is None:
         week = default_week(store)
-    monday = week_start(week)
+    monday = limits.check_review_week(week, week_start(week))
     return week, monday - dt.timedelta(weeks=int(weeks) - 1), monday + dt.timedelta(days=6)
 
 

@@ -25,12 +25,13 @@ import sqlite3
 import subprocess
 import time
 import urllib.parse
-from typing import Iterable, Iterator
+from typing import Callable, Iterable, Iterator
 
-from tracker.errors import LogLocked, NotFound, PourbackError
+from tracker.errors import DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog, PourbackError
 
 URL_SCHEMES = ("postgresql://", "postgres://")
 BUSY_TIMEOUT_MS = 30_000
+NOTICE_AFTER_MS = 1_000  # say that a write waits for another writer after this long
 # How long a PostgreSQL writer waits for the writers' lock before giving up (ms).
 PG_LOCK_TIMEOUT_MS = 600_000
 # pg_advisory_xact_lock key of the writers' lock ("pourback" in ASCII, folded to 63 bits).
@@ -58,9 +59,55 @@ def display_name(target) -> str:
     return urllib.parse.urlunsplit((parts.scheme, netloc, parts.path, query, parts.fragment))
 
 
-def for_target(target: str, create: bool) -> "SQLite | PostgreSQL":
-    """The dialect of ``target`` (a path or a URL), connected."""
-    return PostgreSQL(target, create) if is_url(target) else SQLite(target, create)
+def for_target(target: str, create: bool, on_wait: Callable[[str], None] | None = None) -> "SQLite | PostgreSQL":
+    """The dialect of ``target`` (a path or a URL), connected. ``on_wait`` is
+    called with a message when a write has waited a second for another writer."""
+    cls = PostgreSQL if is_url(target) else SQLite
+    return cls(target, create, on_wait)
+
+
+def log_error(exc: Exception, target: str) -> PourbackError:
+    """The one-line error a user sees for a failure of the database holding the
+    log at ``target`` (an SQLite or a psycopg error); a URL's password is masked."""
+    if not isinstance(exc, sqlite3.Error):
+        return _pg_log_error(exc, display_name(target))
+    path = target
+    msg = str(exc)
+    low = msg.lower()
+    if "readonly" in low or "read-only" in low:
+        return LogReadOnly(path)
+    if "disk is full" in low or "database or disk is full" in low:
+        return DiskFull(path)
+    if "not a database" in low or "malformed" in low:
+        return NotALog(path, f"SQLite says: {msg}")
+    if "unable to open" in low:
+        parent = pathlib.Path(path).parent
+        if not parent.is_dir():
+            return LogError(path, f"cannot open the log {path}: the folder {parent} does not exist; check "
+                                  "the path given with --db (or $POURBACK_DB)")
+        if pathlib.Path(path).is_dir():
+            return LogError(path, f"cannot open the log {path}: it is a folder; give the log's file with --db")
+        return LogError(path, f"cannot open the log {path} ({msg}); check that the file and its folder can "
+                              "be read and written")
+    return LogError(path, f"the log {path} could not be used ({msg}); nothing was written")
+
+
+def _pg_log_error(exc: Exception, name: str) -> PourbackError:
+    """:func:`log_error` for a psycopg error, by its SQLSTATE."""
+    msg = " ".join((str(exc).strip().splitlines() or [type(exc).__name__])[0].split())
+    state = getattr(exc, "sqlstate", None) or ""
+    if state == "53100":  # disk_full
+        return DiskFull(name)
+    if state == "25006":  # read_only_sql_transaction: a standby, or a read-only session
+        return LogError(name, f"the server holding the log {name} takes no writes ({msg}); nothing was "
+                              "written. Give the URL of the primary server with --db")
+    if state == "42501":  # insufficient_privilege
+        return LogError(name, f"the database user may not write the log {name} ({msg}); nothing was "
+                              "written. Ask the server's administrator for the rights on its tables")
+    if isinstance(exc, _psycopg().OperationalError):
+        return LogError(name, f"the connection to the log {name} failed ({msg}); nothing was written. "
+                              "Check that the server is running and reachable, then try again")
+    return LogError(name, f"the log {name} could not be used ({msg}); nothing was written")
 
 
 # --- SQLite ------------------------------------------------------------------------------
@@ -72,21 +119,48 @@ class SQLite:
     # Fragments of the review's floor query: SQLite without statistics needs to be
     # told to drive from the pour-date index (see Store.rejects_by_pattern).
     lots_by_date_hint = "INDEXED BY lots_poured_on_pattern"
+    lots_by_pattern_hint = "INDEXED BY lots_pattern_poured_on"
     forced_join = "CROSS JOIN"
 
-    def __init__(self, path: str, create: bool = True):
+    def __init__(self, path: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         self.target = path
-        if path != ":memory:" and not create and not pathlib.Path(path).exists():
-            raise NotFound("database", path, "run `pourback init` first or pass --db")
-        self.conn = sqlite3.connect(path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
-        self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
-        self.conn.execute("PRAGMA foreign_keys = ON")
-        if path != ":memory:":
-            self.retry(lambda: self.conn.execute("PRAGMA journal_mode = WAL"))
-            self.conn.execute("PRAGMA synchronous = NORMAL")
+        self.on_wait = on_wait
+        self.conn = None
+        memory = path == ":memory:"
+        if not memory and not create and not pathlib.Path(path).exists():
+            raise LogNotFound(path)
+        if not memory and pathlib.Path(path).is_dir():
+            raise LogError(path, f"cannot open the log {path}: it is a folder; give the log's file with --db")
+        try:
+            if not memory and not create and pathlib.Path(path).stat().st_size == 0:
+                raise NotALog(path, "the file is empty")
+            self.conn = sqlite3.connect(path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
+            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+            self.conn.execute("PRAGMA foreign_keys = ON")
+            self._check_foreign()
+            if not memory:
+                self.retry(lambda: self.conn.execute("PRAGMA journal_mode = WAL"))
+                self.conn.execute("PRAGMA synchronous = NORMAL")
+        except sqlite3.Error as exc:
+            self.close()
+            raise log_error(exc, path) from None
+        except BaseException:
+            self.close()
+            raise
+
+    def _check_foreign(self) -> None:
+        """Refuse an SQLite database of another program (its tables, no schema version)."""
+        if self.schema_version() != 0:
+            return
+        tables = [r[0] for r in self.conn.execute(
+            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name LIMIT 4")]
+        if tables:
+            raise NotALog(self.target, "an SQLite database of another program, with the tables "
+                                       + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else ""))
 
     def close(self) -> None:
-        self.conn.close()
+        if self.conn is not None:
+            self.conn.close()
 
     # errors -----------------------------------------------------------------------
     @staticmethod
@@ -95,9 +169,28 @@ class SQLite:
         return isinstance(exc, sqlite3.OperationalError) and ("locked" in str(exc) or "busy" in str(exc))
 
     def retry(self, fn, attempts: int = 8):
-        return retry(fn, self.transient, attempts)
+        return retry(fn, self.transient, attempts, self.target, BUSY_TIMEOUT_MS / 1000)
 
     # transactions -----------------------------------------------------------------
+    def _begin(self) -> None:
+        """BEGIN IMMEDIATE: wait a second for another writer, say so, then wait the rest."""
+        first = min(NOTICE_AFTER_MS, BUSY_TIMEOUT_MS)
+        self.conn.execute(f"PRAGMA busy_timeout = {first}")
+        try:
+            try:
+                self.conn.execute("BEGIN IMMEDIATE")
+                return
+            except sqlite3.OperationalError as exc:
+                if not self.transient(exc):
+                    raise
+            if self.on_wait is not None:
+                self.on_wait(f"The log {self.target} is locked by another writer; waiting up to "
+                             f"{(BUSY_TIMEOUT_MS - first) / 1000:g} s more ...")
+            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS - first}")
+            self.retry(lambda: self.conn.execute("BEGIN IMMEDIATE"))
+        finally:
+            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+
     @contextlib.contextmanager
     def write(self) -> Iterator[None]:
         if self.conn.in_transaction:
@@ -111,15 +204,15 @@ class SQLite:
             else:
                 self.conn.execute("RELEASE SAVEPOINT pourback_nested")
             return
-        self.retry(lambda: self.conn.execute("BEGIN IMMEDIATE"))
+        self._begin()
         try:
             yield
+            self.retry(lambda: self.conn.execute("COMMIT"))
         except BaseException:
             if self.conn.in_transaction:
-                self.conn.execute("ROLLBACK")
+                with contextlib.suppress(sqlite3.Error):
+                    self.conn.execute("ROLLBACK")
             raise
-        else:
-            self.retry(lambda: self.conn.execute("COMMIT"))
 
     @property
     def in_transaction(self) -> bool:
@@ -182,16 +275,29 @@ class SQLite:
         return f"SQLite {sqlite3.sqlite_version}"
 
     def backup(self, dest: pathlib.Path) -> dict:
+        """The online backup API, safe while others write. The copy is written
+        under a temporary name beside ``dest`` and renamed when complete, so a
+        backup stopped part-way (a crash, SIGKILL, a full disk) never leaves a
+        file under the backup's name."""
+        if not dest.parent.is_dir():
+            raise PourbackError(f"could not write the backup {dest}: the folder {dest.parent} does not exist")
+        part = dest.with_name(f".{dest.name}.{os.getpid()}.partial")
         try:
-            target = sqlite3.connect(str(dest))
+            target = sqlite3.connect(str(part))
             try:
                 self.conn.backup(target, pages=-1)  # one step: a stepwise copy restarts on every write
             finally:
                 target.close()
-        except sqlite3.Error as exc:
-            dest.unlink(missing_ok=True)  # never leave a half-written backup behind
+            with open(part, "rb+") as fh:
+                os.fsync(fh.fileno())
+            os.replace(part, dest)
+        except (sqlite3.Error, OSError) as exc:
+            for p in (part, pathlib.Path(f"{part}-journal")):
+                p.unlink(missing_ok=True)  # never leave a half-written backup behind
+            if isinstance(exc, sqlite3.Error) and "full" in str(exc) or getattr(exc, "errno", None) == 28:
+                raise DiskFull(dest) from None
             raise PourbackError(f"could not write the backup {dest} ({exc}); check that its folder "
-                                "exists and has room") from None
+                                "can be written and has room") from None
         return {"ran": True, "command": None, "note": "restore it with `pourback restore`"}
 
 
@@ -217,23 +323,37 @@ class PostgreSQL:
 
     name = "postgresql"
     lots_by_date_hint = ""
+    lots_by_pattern_hint = ""
     forced_join = "JOIN"
 
-    def __init__(self, url: str, create: bool = True):
+    def __init__(self, url: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         psycopg = _psycopg()
         self.target = url
+        self.on_wait = on_wait
         self._sql_cache: dict[str, str] = {}
+        name = display_name(url)
         try:
             self.conn = psycopg.connect(url, autocommit=True, application_name="pourback")
         except psycopg.Error as exc:
             reason = " ".join(str(exc).split()) or type(exc).__name__
-            raise PourbackError(f"cannot connect to {display_name(url)}: {reason}; check the host, "
-                                "port, database name and the password (in the URL, PGPASSWORD or "
-                                "~/.pgpass)") from None
-        if not create and self.schema_version() == 0:
+            raise LogError(name, f"cannot connect to {name}: {reason}; check the host, port, database "
+                                 "name and the password (in the URL, PGPASSWORD or ~/.pgpass)") from None
+        try:
+            if self.schema_version() == 0:
+                if not create:
+                    raise LogNotFound(name)
+                self._check_foreign(name)
+        except BaseException:
             self.conn.close()
-            raise NotFound("database", display_name(url),
-                           "it holds no pourback log: run `pourback init --db URL` first")
+            raise
+
+    def _check_foreign(self, name: str) -> None:
+        """Refuse a schema holding another program's tables (and no pourback log)."""
+        tables = self.table_names()
+        if tables:
+            raise NotALog(name, "its schema holds tables of another program: "
+                                + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else "")
+                                + "; give a new database (createdb) or schema in the URL")
 
     def close(self) -> None:
         self.conn.close()
@@ -246,20 +366,34 @@ class PostgreSQL:
         return isinstance(exc, (errors.SerializationFailure, errors.DeadlockDetected))
 
     def retry(self, fn, attempts: int = 8):
-        return retry(fn, self.transient, attempts)
+        return retry(fn, self.transient, attempts, display_name(self.target), None)
 
     # transactions -----------------------------------------------------------------
+    def _lock(self) -> None:
+        """The writers' lock: polled for a second, then (saying so) waited for."""
+        deadline = time.monotonic() + NOTICE_AFTER_MS / 1000
+        while True:
+            if self.conn.execute("SELECT pg_try_advisory_xact_lock(%s)", (PG_WRITE_LOCK,)).fetchone()[0]:
+                return
+            if time.monotonic() >= deadline:
+                break
+            time.sleep(0.02)
+        rest = PG_LOCK_TIMEOUT_MS - NOTICE_AFTER_MS
+        if self.on_wait is not None:
+            self.on_wait(f"The log {display_name(self.target)} is locked by another writer; waiting up to "
+                         f"{rest / 1000:g} s more ...")
+        self.conn.execute(f"SET LOCAL lock_timeout = {rest}")
+        try:
+            self.conn.execute("SELECT pg_advisory_xact_lock(%s)", (PG_WRITE_LOCK,))
+        except _psycopg().errors.LockNotAvailable:
+            raise LogLocked(display_name(self.target), PG_LOCK_TIMEOUT_MS / 1000) from None
+
     @contextlib.contextmanager
     def write(self) -> Iterator[None]:
         outer = not self.in_transaction
         with self.conn.transaction():  # a savepoint when nested
             if outer:
-                self.conn.execute(f"SET LOCAL lock_timeout = {PG_LOCK_TIMEOUT_MS}")
-                try:
-                    self.conn.execute("SELECT pg_advisory_xact_lock(%s)", (PG_WRITE_LOCK,))
-                except _psycopg().errors.LockNotAvailable:
-                    raise LogLocked(f"another writer held the log for over {PG_LOCK_TIMEOUT_MS // 60000} "
-                                    "minutes; try again when its import has finished") from None
+                self._lock()
             yield
             if outer:
                 # The change counter the dashboard's cache keys on (see data_version).
@@ -397,9 +531,11 @@ class PostgreSQL:
         return {"ran": True, "command": shown, "note": note}
 
 
-def retry(fn, transient, attempts: int = 8):
+def retry(fn, transient, attempts: int, name: str, seconds: float | None):
     """``fn()``, run again after a short, growing pause while it fails with a
-    ``transient`` error; after ``attempts`` tries, :class:`LogLocked`."""
+    ``transient`` error; after ``attempts`` tries, :class:`LogLocked` (naming
+    the log ``name`` and the ``seconds`` a writer waits for the lock, or with
+    ``None`` the tries made)."""
     delay = 0.05
     for i in range(attempts):
         try:
@@ -408,7 +544,7 @@ def retry(fn, transient, attempts: int = 8):
             if not transient(exc):
                 raise
             if i == attempts - 1:
-                raise LogLocked("the log is busy with other writers; try again in a moment") from exc
+                raise LogLocked(name, seconds, tries=attempts) from None
             time.sleep(delay)
             delay = min(delay * 2, 1.0)
 

@@ -29,25 +29,44 @@ class UnknownAlloy(BadInput):
 class BadRow(PourbackError, ValueError):
     """One row of an import file broke a rule."""
 
-    def __init__(self, file: str, row: int, column: str, reason: str):
+    def __init__(self, file: str, row: int, column: str, reason: str, form: str | None = None):
         self.file = file
         self.row = row
         self.column = column
         self.reason = reason
+        self.form = form  # the rule in a form's words, where it differs from the file's
         super().__init__(f"{file}, row {row}, column {column}: {reason}")
+
+
+class BadRecord(BadInput):
+    """One record typed in (form or command line) broke one or more rules;
+    ``problems`` holds (field, text) pairs, the text in the form's words."""
+
+    def __init__(self, problems: list[tuple[str, str]], value=None):
+        self.problems = list(problems)
+        field, text = self.problems[0]
+        PourbackError.__init__(self, " ".join(t if t.endswith(".") else t + "."
+                                              for _, t in self.problems).rstrip(".")
+                               if len(self.problems) > 1 else text)
+        self.field, self.value, self.reason = field, value, text
 
 
 class BadFile(PourbackError, ValueError):
     """An import file was refused; ``problems`` lists every bad row."""
 
-    def __init__(self, file: str, problems: list[BadRow], message: str | None = None):
+    SHOWN = 20  # problems listed in the message
+
+    def __init__(self, file: str, problems: list[BadRow], message: str | None = None, *,
+                 rows: int | None = None, total: int | None = None):
         self.file = file
         self.problems = list(problems)
+        self.total = len(self.problems) if total is None else total  # every problem, counted
+        self.rows = len({p.row for p in self.problems}) if rows is None else rows
         if message is None:
-            shown = "\n".join(str(p) for p in self.problems[:20])
-            more = len(self.problems) - 20
-            extra = f"\n... and {more} more" if more > 0 else ""
-            message = (f"{file}: refused, nothing written ({len(self.problems)} bad "
+            shown = "\n".join(str(p) for p in self.problems[:self.SHOWN])
+            more = self.total - min(len(self.problems), self.SHOWN)
+            extra = f"\n... and {more:,} more problem(s)" if more > 0 else ""
+            message = (f"{file}: refused, nothing written ({self.rows:,} bad "
                        f"row(s)):\n{shown}{extra}")
         super().__init__(message)
 
@@ -60,10 +79,6 @@ class NotFound(PourbackError, LookupError):
         self.key = key
         msg = f"unknown {kind} {key!r}"
         super().__init__(msg + (f"; {hint}" if hint else ""))
-
-
-class LogLocked(PourbackError):
-    """The log stayed locked by another writer longer than the busy timeout."""
 
 
 class MissingColumn(PourbackError, ValueError):
@@ -115,3 +130,60 @@ class AccountLocked(SignInRefused):
 
 class SessionExpired(PourbackError):
     """A dashboard session ended (idle too long, signed out, or its account disabled)."""
+
+
+# --- the log file itself ---------------------------------------------------------------
+
+class LogError(PourbackError):
+    """The log file cannot be used as asked (missing, not a log, read-only, disk full,
+    locked). ``path`` is the file; nothing was written."""
+
+    def __init__(self, path, message: str):
+        self.path = str(path)
+        super().__init__(message)
+
+
+class LogNotFound(LogError):
+    def __init__(self, path):
+        super().__init__(path, f"no log at {path}; create one with `pourback init --db {path}` (or "
+                               "`pourback demo`), or give the log's path with --db")
+
+
+class LogLocked(LogError):
+    """The log stayed locked by another writer longer than the busy timeout
+    (``seconds``), or a write met a conflict with other writers on each of
+    ``tries`` tries (a database server's serialization failures)."""
+
+    def __init__(self, path, seconds: float | None = None, *, tries: int | None = None):
+        if seconds is None:
+            super().__init__(path, f"the log {path} stayed busy with other writers through {tries} tries; "
+                                   "nothing was written; try again in a moment")
+            return
+        super().__init__(path, f"the log {path} stayed locked by another writer for {seconds:g} s; nothing "
+                               "was written; try again when the other import or backup has finished")
+
+
+class LogReadOnly(LogError):
+    def __init__(self, path):
+        super().__init__(path, f"the log {path} is read-only; nothing was written. Ask for write access to "
+                               "the file and its folder, or copy the log to a place you can write")
+
+
+class DiskFull(LogError):
+    def __init__(self, path):
+        super().__init__(path, f"the disk holding {path} is full; nothing was written. Free some space on "
+                               "it and try again")
+
+
+class NotALog(LogError):
+    def __init__(self, path, why: str):
+        super().__init__(path, f"{path} is not a pourback log ({why}); give the log's path with --db, or "
+                               "create a new log with `pourback init --db NEW.db`")
+
+
+def cut(value, limit: int = 60) -> str:
+    """``repr`` of a value a user gave, cut to a readable length."""
+    text = repr(value)
+    if len(text) <= limit:
+        return text
+    return f"{text[:limit - 1]}…' ({len(str(value)):,} characters)"

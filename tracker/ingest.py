@@ -20,6 +20,7 @@ import json
 import os
 import pathlib
 import re
+import unicodedata
 import uuid
 from dataclasses import dataclass, field
 from typing import Callable, Iterator
@@ -28,7 +29,8 @@ import numpy as np
 import pandas as pd
 
 from tracker import auth, geometry
-from tracker.errors import BadFile, BadRow
+from tracker.errors import BadFile, BadRecord, BadRow, cut
+from tracker.limits import EARLIEST_DATE, RANGES, latest_date
 from tracker.store import DEFAULT_PLANT_KEY, KEYS, TABLE_COLUMNS, Store, retrying
 
 KINDS = ("patterns", "zones", "sleeves", "risers", "lots", "inspections")  # dependency order
@@ -59,7 +61,7 @@ COLUMNS = {  # (required, optional)
 }
 CHUNK_ROWS = 100_000
 PLANT_CODE = r"[A-Za-z0-9][A-Za-z0-9._-]{0,31}"
-MAX_PROBLEMS = 1000  # stop collecting (but keep refusing) past this many
+MAX_PROBLEMS = 1000  # keep the first this many (every one is counted)
 POUR_TEMP_RANGE_C = (400.0, 1800.0)
 H_OVER_D_SANE = (0.25, 4.0)
 
@@ -73,21 +75,27 @@ class ImportResult:
     rows: int = 0
     added: int = 0
     skipped: int = 0  # already present with the same content
-    refused: int = 0
-    problems: list[BadRow] = field(default_factory=list)
-    refused_rows: list[dict] = field(default_factory=list)
-    warnings: list[str] = field(default_factory=list)  # rows taken, but worth a look
+    refused: int = 0  # rows
+    problems: list[BadRow] = field(default_factory=list)  # the first MAX_PROBLEMS
+    problem_count: int = 0  # all of them
+    refused_rows: list[dict] = field(default_factory=list)  # unless streamed to refused_file
+    refused_file: str | None = None
+    warnings: list[str] = field(default_factory=list)  # written, but worth a look
 
     def to_dict(self) -> dict:
         return {"kind": self.kind, "file": self.file, "rows": self.rows, "added": self.added,
-                "skipped": self.skipped, "refused": self.refused,
-                "problems": [str(p) for p in self.problems], "warnings": list(self.warnings)}
+                "skipped": self.skipped, "refused": self.refused, "problem_count": self.problem_count,
+                "problems": [str(p) for p in self.problems], "warnings": list(self.warnings),
+                **({"refused_file": self.refused_file} if self.refused_file else {})}
+
+    def refusal(self) -> BadFile:
+        return BadFile(self.file, self.problems, rows=self.refused, total=self.problem_count)
 
 
 # --- reading ----------------------------------------------------------------------
 
-def _read_chunks(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict | None = None
-                 ) -> Iterator[pd.DataFrame]:
+def _read_chunks(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict | None = None,
+                 sep: str = ",") -> Iterator[pd.DataFrame]:
     """Chunks of the file as all-string frames with a ``_row`` column (file row
     number). ``shape["last_row"]`` is set to the file's last row number, blank
     rows included."""
@@ -102,10 +110,10 @@ def _read_chunks(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict | N
     # The file is streamed (never held whole in memory): a text check, the shape
     # check, then pandas reading it in chunks.
     _check_text(name, path)
-    width = _check_shape(name, kind, path)
+    width = _check_shape(name, kind, path, sep)
     try:
         # index_col=False and usecols: extra (blank) cells never shift values into other columns.
-        reader = pd.read_csv(path, encoding="utf-8-sig", dtype=str, keep_default_na=False,
+        reader = pd.read_csv(path, sep=sep, encoding="utf-8-sig", dtype=str, keep_default_na=False,
                              skip_blank_lines=False, chunksize=chunk_rows, skipinitialspace=False,
                              index_col=False, usecols=range(width) if width else None)
         first = True
@@ -133,11 +141,15 @@ _BLOCK_BYTES = 1 << 20
 
 def _check_text(name: str, path: pathlib.Path) -> None:
     """Refuse a blank file, or one that is not UTF-8 text (naming the row of the
-    first bad byte), reading it block by block."""
+    first bad byte), reading it block by block. UTF-16 text (with or without a
+    byte-order mark) and lines ending in CR alone are named as such."""
     blank = True
     lines = 0
     pending = b""
     with path.open("rb") as fh:
+        head = fh.read(4096)
+        _check_encoding(name, head)
+        fh.seek(0)
         while True:
             block = fh.read(_BLOCK_BYTES)
             data = pending + block
@@ -158,42 +170,109 @@ def _check_text(name: str, path: pathlib.Path) -> None:
         raise BadFile(name, [], f"{name}: the file is empty; it needs a header row and data rows")
 
 
-def _check_shape(name: str, kind: str, path: pathlib.Path) -> int:
+def _check_encoding(name: str, head: bytes) -> None:
+    save = "save it as CSV UTF-8 (comma delimited) in the spreadsheet program"
+    if head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        raise BadFile(name, [], f"{name}: the file is UTF-16 text (it starts with a UTF-16 byte-order mark), "
+                                f"not UTF-8; {save}")
+    if len(head) >= 4 and head.count(b"\x00") * 3 >= len(head):
+        # Text of Latin letters in UTF-16 has a zero byte beside every letter.
+        order = "little-endian" if head[1:2] == b"\x00" else "big-endian"
+        raise BadFile(name, [], f"{name}: the file is UTF-16 text ({order}, without a byte-order mark), "
+                                f"not UTF-8; {save}")
+    if b"\r" in head and b"\n" not in head and head.rstrip(b"\r").count(b"\r") >= 1:
+        raise BadFile(name, [], f"{name}: the lines end in a carriage return alone (CR, an old Mac "
+                                "format); save the file with Windows (CRLF) or Unix (LF) line ends, "
+                                "or as CSV UTF-8 in a spreadsheet program")
+
+
+SEPARATORS = {",": "','", ";": "';'", "\t": "tabs", "|": "'|'"}
+FIELD_LIMIT = 1 << 20  # characters in one cell: past this the file is not a table of records
+
+
+def _check_shape(name: str, kind: str, path: pathlib.Path, sep: str = ",") -> int:
     """Check the raw header and every record's width; return the header's width.
 
     pandas renames a repeated column (``alloy.1``) and takes a first row's extra
     cells as an index, shifting every value one column over; so the header is
     checked as written and a row with filled cells beyond the header is refused.
-    Extra empty cells (a trailing comma) are ignored.
+    Extra empty cells (a trailing comma) are ignored. A last line with no line
+    end and fewer cells than the header is refused as cut short.
     """
+    with path.open("rb") as fh:
+        size = fh.seek(0, os.SEEK_END)
+        if size:
+            fh.seek(size - 1)
+        ends_line = size == 0 or fh.read(1) in (b"\n", b"\r")
+    csv.field_size_limit(max(csv.field_size_limit(), FIELD_LIMIT))
     # newline="\n": lines split as an in-memory text would split them (csv handles \r\n)
     with path.open(encoding="utf-8-sig", newline="\n") as fh:
-        return _check_records(name, kind, csv.reader(fh))
+        return _check_records(name, kind, csv.reader(fh, delimiter=sep), sep=sep, ends_line=ends_line,
+                              path=path)
 
 
-def _check_records(name: str, kind: str, reader) -> int:
+def _sniff(path: pathlib.Path, kind: str) -> str | None:
+    """The separator a file with an unknown header is written with, if another."""
+    with path.open(encoding="utf-8-sig", errors="replace", newline="") as fh:
+        head = [fh.readline() for _ in range(20)]
+    required = COLUMNS[kind][0]
+    for sep in (";", "\t", "|"):
+        cols = [c.strip().strip('"').lower() for c in head[0].split(sep)]
+        if len(cols) > 1 and sum(c in cols for c in required) >= len(required) // 2 + 1:
+            decimal = any(re.search(r"(^|" + re.escape(sep) + r')"?-?\d+,\d+"?(' + re.escape(sep) + "|$)",
+                                    line.strip()) for line in head[1:])
+            return sep + ("," if decimal else "")
+    return None
+
+
+def _check_records(name: str, kind: str, reader, sep: str = ",", ends_line: bool = True,
+                   path: pathlib.Path | None = None) -> int:
+    n = 1
     try:
         header = next(reader, None)
         while header and not header[-1].strip():
             header.pop()  # empty trailing header cells, as spreadsheets export them
         if not header:
             return 0
-        _check_header(name, kind, header)
+        try:
+            _check_header(name, kind, header)
+        except BadFile:
+            found = _sniff(path, kind) if path is not None and sep == "," else None
+            if found:
+                other, decimal = found[0], found[1:] == ","
+                shown = SEPARATORS[other]
+                opt = "tab" if other == "\t" else other
+                raise BadFile(name, [], f"{name}: this file is separated by {shown}"
+                              + (" with decimal commas" if decimal else "")
+                              + "; save it as comma-separated with decimal points, or import it with "
+                              f"`--sep '{opt}'" + (" --decimal ','" if decimal else "") + "`") from None
+            raise
         width = len(header)
         problems = []
+        bad_rows = 0
+        cells = header
         for n, cells in enumerate(reader, start=2):
             if len(cells) > width and any(c.strip() for c in cells[width:]):
                 extra = next(j for j in range(width, len(cells)) if cells[j].strip())
-                problems.append(BadRow(name, n, f"{extra + 1} (no header)",
-                                       f"got {cells[extra]!r}; the row has {len(cells)} cells but the header "
-                                       f"names {width} columns; quote a value that holds a comma, or "
-                                       "remove the extra cells"))
-                if len(problems) >= MAX_PROBLEMS:
-                    break
+                bad_rows += 1
+                if len(problems) < MAX_PROBLEMS:
+                    problems.append(BadRow(name, n, f"{extra + 1} (no header)",
+                                           f"got {cut(cells[extra])}; the row has {len(cells)} cells but the "
+                                           f"header names {width} columns; quote a value that holds a "
+                                           f"{'comma' if sep == ',' else 'separator'}, or remove the extra "
+                                           "cells"))
     except csv.Error as exc:
+        if "field larger than field limit" in str(exc):
+            raise BadFile(name, [], f"{name}, row {n + 1}: a cell is longer than {FIELD_LIMIT:,} characters "
+                                    "(the limit of one cell); a quote that is never closed takes in the rest "
+                                    "of the file: check the quotes on that row") from None
         raise BadFile(name, [], f"{name}: not a readable CSV ({exc}); check quotes and separators") from None
     if problems:
-        raise BadFile(name, problems)
+        raise BadFile(name, problems, rows=bad_rows, total=bad_rows)
+    if not ends_line and n > 1 and 0 < len(cells) < width and any(c.strip() for c in cells):
+        raise BadFile(name, [], f"{name}, row {n}: the last line is cut short: it has {len(cells)} of the "
+                                f"header's {width} cells and no line end; the file was probably cut off "
+                                "while being copied or saved: export it again")
     return width
 
 
@@ -220,6 +299,8 @@ def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict) -> I
     raw = pd.read_excel(book, sheet_name=sheet, dtype=str, keep_default_na=False, header=None, nrows=1)
     _check_header(name, kind, [str(c) for c in raw.iloc[0]] if len(raw) else cols)
     frame = _normalise(frame)
+    if (frame == "").to_numpy().any():
+        _check_uncalculated(path, sheet, frame)
     # Date cells arrive as timestamps: keep the date part only.
     frame = frame.apply(lambda s: s.str.replace(r"^(\d{4}-\d{2}-\d{2}) 00:00:00$", r"\1", regex=True))
     frame["_row"] = np.arange(len(frame)) + 2
@@ -228,6 +309,32 @@ def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict) -> I
     frame = frame[~blank]
     for i in range(0, max(len(frame), 1), chunk_rows):
         yield frame.iloc[i:i + chunk_rows]
+
+
+def _check_uncalculated(path: pathlib.Path, sheet: str, frame: pd.DataFrame) -> None:
+    """Refuse formula cells whose value was never calculated (a workbook written
+    by a program that stores formulas without their results): they read as
+    blank, and a blank would be taken for a value left out."""
+    import openpyxl
+
+    book = openpyxl.load_workbook(path, read_only=True, data_only=False)
+    try:
+        problems = []
+        cols = list(frame.columns)
+        empty = (frame == "").to_numpy()
+        for r, values in enumerate(book[sheet].iter_rows(min_row=2, values_only=True)):
+            if r >= len(frame):
+                break
+            for j, v in enumerate(values[:len(cols)]):
+                if empty[r, j] and isinstance(v, str) and v.startswith("="):
+                    problems.append(BadRow(path.name, r + 2, cols[j],
+                                           f"the cell holds the formula {cut(v, 40)} whose value was never "
+                                           "calculated; open the file in a spreadsheet program, save it (that "
+                                           "calculates every formula) and import it again"))
+    finally:
+        book.close()
+    if problems:
+        raise BadFile(path.name, problems)
 
 
 def _normalise(chunk: pd.DataFrame) -> pd.DataFrame:
@@ -339,32 +446,55 @@ def file_identity(store: Store, path: pathlib.Path) -> FileIdentity:
 class _Checks:
     """Collects the problems of one chunk; ``bad`` marks refused rows."""
 
-    def __init__(self, file: str, chunk: pd.DataFrame, result: ImportResult):
+    def __init__(self, file: str, chunk: pd.DataFrame, result: ImportResult, decimal: str = "."):
         self.file = file
+        self.decimal = decimal
         self.chunk = chunk
         self.rows = chunk["_row"].to_numpy()
         self.bad = np.zeros(len(chunk), dtype=bool)
+        self.bad_cols: dict[str, np.ndarray] = {}
         self.result = result
         self.reasons: dict[int, str] = {}
+        self.found: list[tuple[int, BadRow]] = []
 
     def col(self, name: str) -> pd.Series:
         if name in self.chunk.columns:
             return self.chunk[name]
         return pd.Series([""] * len(self.chunk), index=self.chunk.index, dtype=object)
 
-    def fail(self, mask, column: str, reason) -> None:
-        mask = np.asarray(mask, dtype=bool) & ~self.bad
+    def ok(self, *columns: str) -> np.ndarray:
+        """Rows with no problem in any of ``columns`` (for checks across columns)."""
+        out = np.ones(len(self.rows), dtype=bool)
+        for name in columns:
+            if name in self.bad_cols:
+                out &= ~self.bad_cols[name]
+        return out
+
+    def fail(self, mask, column: str, reason, form: str | None = None) -> None:
+        """Refuse the rows of ``mask`` for ``column``. Every problem of a row is
+        kept (one per column), so a file is fixed in one round. ``form``: the
+        rule in the words of a form, where they differ."""
+        done = self.bad_cols.get(column)
+        mask = np.asarray(mask, dtype=bool) & (~done if done is not None else True)
         if not mask.any():
             return
         values = self.col(column).to_numpy() if column in self.chunk.columns else None
         for i in np.flatnonzero(mask):
             text = reason(i) if callable(reason) else reason
-            got = f"got {values[i]!r}; " if values is not None and "got " not in text else ""
-            problem = BadRow(self.file, int(self.rows[i]), column, got + text)
-            self.reasons[i] = str(problem)
+            got = f"got {cut(values[i])}; " if values is not None and "got " not in text else ""
+            self.found.append((int(i), BadRow(self.file, int(self.rows[i]), column, got + text, form)))
+        self.bad_cols[column] = mask if done is None else (done | mask)
+        self.bad |= mask
+
+    def finish(self) -> None:
+        """Hand the chunk's problems to the result, rows in file order."""
+        self.found.sort(key=lambda t: t[0])  # stable: a row's problems stay in check order
+        for i, problem in self.found:
+            self.reasons[i] = f"{self.reasons[i]} | {problem}" if i in self.reasons else str(problem)
+            self.result.problem_count += 1
             if len(self.result.problems) < MAX_PROBLEMS:
                 self.result.problems.append(problem)
-        self.bad |= mask
+        self.found = []
 
     def text(self, name: str, required: bool = True, max_len: int = 200) -> pd.Series:
         s = self.col(name)
@@ -373,13 +503,21 @@ class _Checks:
         self.fail(s.str.len() > max_len, name, f"{name} is longer than {max_len} characters")
         self.fail(s.str.contains(r"[\x00-\x08\x0b\x0c\x0e-\x1f]", regex=True), name,
                   f"{name} holds control characters")
+        hidden = s.str.contains(INVISIBLE, regex=True)
+        if hidden.any():
+            self.fail(hidden, name, lambda i: _invisible_text(name, s.iloc[i]))
         return s
 
     def code(self, name: str, allowed, required: bool = True, lower: bool = True) -> pd.Series:
+        """A code from a fixed list, matched whatever its case (and for words,
+        spaces or hyphens for underscores and the spelling variants in
+        ALIASES), returned in the list's own spelling."""
         s = self.col(name)
         s = s.str.lower() if lower else s.str.upper()
         if lower:
             s = s.str.replace(" ", "_", regex=False).str.replace("-", "_", regex=False)
+            if ALIASES:
+                s = s.replace(ALIASES)
         if required:
             self.fail(s == "", name, f"{name} is required; use one of {', '.join(allowed)}")
         self.fail((s != "") & ~s.isin(allowed), name, f"{name} must be one of {', '.join(allowed)}")
@@ -392,7 +530,8 @@ class _Checks:
         empty = s == ""
         if required:
             self.fail(empty, name, f"{name} is required")
-        num = pd.to_numeric(s.where(~empty, None), errors="coerce")
+        text = s.str.replace(",", ".", regex=False) if self.decimal == "," else s
+        num = pd.to_numeric(text.where(~empty, None), errors="coerce")
         kind = "a whole number" if whole else "a number"
         rule = kind
         if low is not None:
@@ -407,23 +546,87 @@ class _Checks:
             bad |= ~empty & num.notna() & ((num < low) if low_inclusive else (num <= low))
         if high is not None:
             bad |= ~empty & num.notna() & (num > high)
+        comma = bad & s.str.fullmatch(r"-?\d+,\d+") if self.decimal == "." else bad & False
+        self.fail(comma, name, f"{name} must be {rule}; it is written with a decimal comma: write a decimal "
+                               "point, or import the file with `--decimal ','`")
         self.fail(bad, name, f"{name} must be {rule}")
         # A refused value (inf, 1e30, 1.5 ...) goes on as blank: later steps cast to int.
         return num.where(~bad)
 
-    def date(self, name: str, required: bool = True, not_after: dt.date | None = None) -> pd.Series:
+    def measure(self, name: str, required: bool = True) -> pd.Series:
+        """A size, weight or cost within its physical range (tracker.limits.RANGES)."""
+        low, high, unit = RANGES[name]
+        return self.number(name, required=required, low=low, low_inclusive=True, high=high, unit=unit)
+
+    def date(self, name: str, required: bool = True, not_after: dt.date | None = None,
+             today: dt.date | None = None) -> pd.Series:
         s = self.col(name)
         empty = s == ""
         if required:
             self.fail(empty, name, f"{name} is required (YYYY-MM-DD)")
         shape = s.str.fullmatch(r"\d{4}-\d{2}-\d{2}")
-        parsed = pd.to_datetime(s.where(shape & ~empty, None), format="%Y-%m-%d", errors="coerce")
-        self.fail(~empty & parsed.isna(), name, f"{name} must be a date written YYYY-MM-DD")
+        # The year first: pandas cannot hold year 0001 or 9999, and such a date is a slip.
+        year = pd.to_numeric(s.str[:4].where(shape, None), errors="coerce")
+        early = shape & (year < EARLIEST_DATE.year)
+        self.fail(early, name, f"{name} lies before {EARLIEST_DATE.isoformat()}; check the year")
+        latest = latest_date(today or dt.date.today())
+        far = shape & (year > latest.year)
+        parsed = pd.to_datetime(s.where(shape & ~empty & ~early & ~far, None), format="%Y-%m-%d",
+                                errors="coerce")
+        self.fail(~empty & ~early & ~far & parsed.isna(), name, f"{name} must be a date written YYYY-MM-DD")
         if not_after is not None:
             # Compare as timestamps: an all-NaT column's .dt.date is not comparable to a date.
-            self.fail(~empty & parsed.notna() & (parsed > pd.Timestamp(not_after)), name,
+            self.fail(~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(not_after)))), name,
                       f"{name} lies in the future (after {not_after.isoformat()})")
+        self.fail(~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(latest)))), name,
+                  f"{name} lies more than a year ahead (after {latest.isoformat()}); check the year")
         return s.where(~empty, "")
+
+
+# Characters that print as nothing or reorder the text around them (Unicode category Cf:
+# zero-width spaces and joiners, bidirectional marks and overrides, soft hyphen, word
+# joiner, byte-order mark), and line or paragraph separators. A code holding one looks
+# like another code but is not equal to it.
+_INVISIBLE_CHARS = [chr(c) for c in range(0x110000)
+                    if unicodedata.category(chr(c)) in ("Cf", "Zl", "Zp")]
+INVISIBLE = "[" + "".join(re.escape(ch) for ch in _INVISIBLE_CHARS) + "]"
+_INVISIBLE_RE = re.compile(INVISIBLE)
+
+
+def _invisible_text(name: str, value: str) -> str:
+    m = _INVISIBLE_RE.search(value)
+    ch = m.group(0)
+    label = unicodedata.name(ch, "an unnamed format character")
+    return (f"{name} holds an invisible character (U+{ord(ch):04X} {label}) at character {m.start() + 1}; "
+            "retype the value without it")
+
+
+# Spelling variants of the trade, written either way: matched to the log's own spelling.
+ALIASES = {"aluminium": "aluminum", "aluminium_bronze": "aluminum_bronze", "grey_iron": "gray_iron",
+           "grey_cast_iron": "gray_iron", "gray_cast_iron": "gray_iron", "cast_steel": "steel",
+           "nodular_iron": "ductile_iron", "sg_iron": "ductile_iron", "coldshut": "cold_shut",
+           "hottear": "hot_tear", "x_ray": "xray", "rt": "xray"}
+
+
+def _log_spelling(values: pd.Series, patterns: list, known: dict) -> pd.Series:
+    """Zone codes as the log spells them: a code that matches a stored zone of
+    its pattern only when case is ignored ("Boss" for "boss") takes the stored
+    spelling; an exact match always wins."""
+    folded: dict = {}
+    for p, z in known:
+        folded.setdefault((p, fold(z)), z)
+    out = [z if not z or (p, z) in known else folded.get((p, fold(z)), z) for p, z in zip(patterns, values)]
+    return pd.Series(out, index=values.index, dtype=object)
+
+
+def _zones_text(known: dict, pattern: str) -> str:
+    zones = sorted(z for p, z in known if p == pattern)
+    return f"its zones are {', '.join(zones)}" if zones else "it has no zones yet"
+
+
+def fold(code: str) -> str:
+    """A code as compared for look-alikes: Unicode compatibility form, case folded."""
+    return unicodedata.normalize("NFKC", str(code)).casefold()
 
 
 def _show(x: float) -> str:
@@ -508,6 +711,7 @@ class _Importer:
         self.identity = identity  # the file's digest and segments (None: a record typed in)
         self.legacy = kind == "inspections" and not self._log_was_empty and store.has_legacy_keys()
         self._ids_in_file: dict[str, tuple] = {}  # record_id -> (row, content) seen in this file
+        self.codes_seen: dict[tuple, list] = {}  # folded code -> new codes of this file (look-alikes)
 
     # each returns (rows to insert as tuples, keys) for the good rows of the chunk
     def validate(self, c: _Checks) -> list[tuple]:
@@ -519,10 +723,10 @@ class _Importer:
         pattern = c.text("pattern", max_len=64)
         desc = c.text("description", required=False, max_len=500)
         alloy = c.code("alloy", sorted(ALLOYS))
-        weight = c.number("casting_weight_kg", low=0, unit="kg")
+        weight = c.measure("casting_weight_kg")
         per_mold = c.number("castings_per_mold", low=0, whole=True, high=10000)
-        cost = c.number("metal_cost_per_kg", low=0, low_inclusive=True, unit="per kg")
-        proc = c.number("processing_cost_per_casting", required=False, low=0, low_inclusive=True)
+        cost = c.measure("metal_cost_per_kg")
+        proc = c.measure("processing_cost_per_casting", required=False)
         mould = c.code("mould", MOULDS, required=False)
         plant = self._plant(c)
         return [(p, d, a, w, int(n) if n == n else n, m, _float_or_none(q), _none(ml), f or None)
@@ -540,16 +744,16 @@ class _Importer:
 
     def _known_patterns(self, c: _Checks, pattern: pd.Series) -> dict:
         info = self.store.patterns_info()
-        c.fail(~c.bad & (pattern != "") & ~pattern.isin(list(info)), "pattern",
+        c.fail((pattern != "") & ~pattern.isin(list(info)), "pattern",
                "unknown pattern; import it in patterns.csv first or check the code")
         return info
 
     def _zones(self, c: _Checks) -> list[tuple]:
         pattern = c.text("pattern", max_len=64)
         zone = c.text("zone", max_len=64)
-        vol = c.number("volume_cm3", low=0, unit="cm³")
-        area = c.number("cooling_area_cm2", low=0, unit="cm²")
-        thick = c.number("thickness_mm", required=False, low=0, unit="mm")
+        vol = c.measure("volume_cm3")
+        area = c.measure("cooling_area_cm2")
+        thick = c.measure("thickness_mm", required=False)
         # A section of thickness T cooling on both faces has a modulus of at most T/2 (a
         # plate). Below a same-volume sphere's area is possible where faces are joined to
         # other metal: `check` notes it, the import takes it.
@@ -559,8 +763,8 @@ class _Importer:
                lambda i: f"the modulus V/A = {m[i]:.2f} cm is above half the thickness "
                          f"({thick.iloc[i] / 20.0:.2f} cm), more than a plate of that thickness cooling on "
                          "both faces can have; check the units (cm², cm³, mm)")
-        length = c.number("length_mm", required=False, low=0, unit="mm")
-        width = c.number("width_mm", required=False, low=0, unit="mm")
+        length = c.measure("length_mm", required=False)
+        width = c.measure("width_mm", required=False)
         level = c.number("required_xray_level", required=False, low=1, low_inclusive=True, high=5,
                          whole=True)
         self._known_patterns(c, pattern)
@@ -576,26 +780,26 @@ class _Importer:
     def _sleeves(self, c: _Checks) -> list[tuple]:
         sleeve = c.text("sleeve", max_len=64)
         kind = c.code("kind", SLEEVE_KINDS)
-        dia = c.number("inner_diameter_mm", low=0, unit="mm")
-        h = c.number("height_mm", low=0, unit="mm")
+        dia = c.measure("inner_diameter_mm")
+        h = c.measure("height_mm")
         f = c.number("modulus_factor", low=1.0, low_inclusive=True, high=2.0)
         eps = c.number("feeding_efficiency", low=0, high=1.0, unit="(a fraction, 0.30 = 30 %)")
-        cost = c.number("unit_cost", required=False, low=0, low_inclusive=True)
+        cost = c.measure("unit_cost", required=False)
         return [(s, k, d, hh, ff, e, _float_or_none(u))
                 for s, k, d, hh, ff, e, u in zip(sleeve, kind, dia, h, f, eps, cost)]
 
     def _risers(self, c: _Checks) -> list[tuple]:
         pattern = c.text("pattern", max_len=64)
         revision = c.text("revision", max_len=64)
-        eff = c.date("effective_from")
+        eff = c.date("effective_from", today=self.today)
         riser = c.text("riser", max_len=64)
         zone = c.text("zone", max_len=64)
         placement = c.code("placement", geometry.PLACEMENTS)
         top = c.code("top", geometry.TOPS)
-        dia = c.number("diameter_mm", low=0, unit="mm")
-        h = c.number("height_mm", low=0, unit="mm")
+        dia = c.measure("diameter_mm")
+        h = c.measure("height_mm")
         sleeve = c.text("sleeve", required=False, max_len=64)
-        neck = c.number("neck_diameter_mm", required=False, low=0, unit="mm")
+        neck = c.measure("neck_diameter_mm", required=False)
         hd = (h / dia).to_numpy()
         lo, hi = H_OVER_D_SANE
         c.fail(dia.notna().to_numpy() & h.notna().to_numpy() & ~((hd >= lo) & (hd <= hi)),
@@ -607,9 +811,11 @@ class _Importer:
         self._known_patterns(c, pattern)
         zones = self.store.zone_levels()
         keys = list(zip(pattern, zone))
-        c.fail(~c.bad & np.array([k not in zones for k in keys], dtype=bool), "zone",
+        zone = _log_spelling(zone, pattern.tolist(), zones)
+        keys = list(zip(pattern, zone))
+        c.fail(c.ok("pattern", "zone") & np.array([k not in zones for k in keys], dtype=bool), "zone",
                lambda i: f"got {zone.iloc[i]!r}; pattern {pattern.iloc[i]} has no such zone; "
-                         "import it in zones.csv first")
+                         f"{_zones_text(zones, pattern.iloc[i])}; import it in zones.csv first")
         sleeves = self.store.table("sleeves").set_index("sleeve") if self.store.count("sleeves") else None
         has_sleeve = (sleeve != "").to_numpy()
         known = np.array([s in sleeves.index if sleeves is not None else False for s in sleeve])
@@ -672,7 +878,7 @@ class _Importer:
     def _lots(self, c: _Checks) -> list[tuple]:
         lot = c.text("lot", max_len=64)
         pattern = c.text("pattern", max_len=64)
-        poured = c.date("poured_on", not_after=self.today)
+        poured = c.date("poured_on", not_after=self.today, today=self.today)
         heat = c.text("heat", max_len=64)
         molds = c.number("molds", low=0, whole=True, high=100000)
         lo, hi = POUR_TEMP_RANGE_C
@@ -683,7 +889,7 @@ class _Importer:
 
     def _inspections(self, c: _Checks) -> list[tuple]:
         lot = c.text("lot", max_len=64)
-        on = c.date("inspected_on", not_after=self.today)
+        on = c.date("inspected_on", not_after=self.today, today=self.today)
         method = c.code("method", METHODS)
         qty = c.number("quantity", low=0, whole=True, high=1_000_000)
         result = c.code("result", RESULTS)
@@ -695,13 +901,16 @@ class _Importer:
         inspector = c.text("inspector", required=False, max_len=100)
         notes = c.text("notes", required=False, max_len=2000)
         rid = c.text("record_id", required=False, max_len=64)
-        c.fail(result.isin(["reject", "rework"]) & (defect == ""), "defect",
-               lambda i: f"a {result.iloc[i]} row needs the defect found; use one of {', '.join(DEFECTS)}")
-        c.fail((cat != "") & (method != "xray"), "xray_category",
+        needs_defect = result.isin(["reject", "rework"]) & (defect == "")
+        for res in ("reject", "rework"):
+            c.fail(needs_defect & (result == res), "defect",
+                   f"a {res} row needs the defect found; use one of {', '.join(DEFECTS)}",
+                   form=f"pick one for a {res} ({', '.join(DEFECTS)})")
+        c.fail(c.ok("method", "xray_category") & (cat != "") & (method != "xray"), "xray_category",
                lambda i: f"got {cat.iloc[i]!r}; a radiography category goes with method xray, "
                          f"not {method.iloc[i]}")
         c.fail(sev.notna() & (cat == ""), "severity", "a severity level needs its xray_category")
-        c.fail(sev.notna() & (cat != "") & ~cat.isin(GRADED_CATEGORIES), "severity",
+        c.fail(c.ok("xray_category") & sev.notna() & (cat != "") & ~cat.isin(GRADED_CATEGORIES), "severity",
                lambda i: f"category {cat.iloc[i]} is not graded in severity levels; leave severity blank")
         c.fail(cat.isin(NEVER_ACCEPTABLE) & (result == "accept"), "result",
                lambda i: f"got 'accept'; category {cat.iloc[i]} (cracks, hot tears) is not acceptable at "
@@ -712,15 +921,19 @@ class _Importer:
         known = np.array([x in info for x in lot_l], dtype=bool)  # Series.isin is slow on many values
         c.fail((lot != "") & ~known, "lot", "unknown lot; import it in lots.csv first or check the code")
         poured = np.array([info[x]["poured_on"] if k else "" for x, k in zip(lot_l, known)], dtype=object)
-        c.fail(known & (on != "") & (on.to_numpy() < poured), "inspected_on",
+        c.fail(c.ok("inspected_on") & known & (on != "") & (on.to_numpy() < poured), "inspected_on",
                lambda i: f"got {on.iloc[i]!r}; lot {lot.iloc[i]} was poured on {poured[i]}; "
                          "a casting is inspected after it is poured")
         pattern = np.array([info[x]["pattern"] if k else "" for x, k in zip(lot_l, known)], dtype=object)
         levels = self.store.zone_levels()
+        zone = _log_spelling(zone, pattern.tolist(), levels)
+        zone_l = zone.tolist()
         has_zone = (zone != "").to_numpy()
         zone_known = np.array([(p, z) in levels for p, z in zip(pattern, zone_l)], dtype=bool)
         c.fail(known & has_zone & ~zone_known, "zone",
-               lambda i: f"got {zone.iloc[i]!r}; pattern {pattern[i]} has no such zone")
+               lambda i: f"got {zone.iloc[i]!r}; pattern {pattern[i]} has no such zone; "
+                         f"{_zones_text(levels, pattern[i])}",
+               form=None)
         level = np.array([levels.get((p, z)) if zk else None for p, z, zk in zip(pattern, zone_l, zone_known)],
                          dtype=float)
         sev_a = sev.to_numpy(dtype=float)
@@ -943,55 +1156,133 @@ def set_default_plant(store: Store, plant: str) -> None:
 def import_file(store: Store, kind: str, path: str | os.PathLike, *, skip_bad: bool = False,
                 by: str | None = None, today: dt.date | None = None,
                 progress: Callable[[int], None] | None = None,
-                chunk_rows: int = CHUNK_ROWS) -> ImportResult:
+                chunk_rows: int = CHUNK_ROWS, sep: str = ",", decimal: str = ".",
+                refused_to: Callable | None = None) -> ImportResult:
     """Validate and import one file of ``kind``; all of it or (by default) nothing.
 
     Raises BadFile listing every refused row unless ``skip_bad``. ``progress``
     is called with the number of rows just handled.
     """
     return import_files(store, [(kind, path)], skip_bad=skip_bad, by=by, today=today,
-                        progress=progress, chunk_rows=chunk_rows)[0]
+                        progress=progress, chunk_rows=chunk_rows, sep=sep, decimal=decimal,
+                        refused_to=refused_to)[0]
 
 
 @retrying
 def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, skip_bad: bool = False,
                  by: str | None = None, today: dt.date | None = None,
                  progress: Callable[[int], None] | None = None,
-                 chunk_rows: int = CHUNK_ROWS) -> list[ImportResult]:
-    """Import several files in one transaction, in the order given."""
+                 chunk_rows: int = CHUNK_ROWS, sep: str = ",", decimal: str = ".",
+                 refused_to: Callable | None = None) -> list[ImportResult]:
+    """Import several files in one transaction, in the order given.
+
+    ``sep`` (``,`` ``;`` ``|`` or ``tab``) and ``decimal`` (``.`` or ``,``) say
+    how the CSV files are written. With ``skip_bad``, ``refused_to(path)``
+    names the file each import's refused rows are written to (streamed as they
+    are found, and complete before the good rows are committed); without it
+    they are kept in ``ImportResult.refused_rows``.
+    """
     from tracker.errors import BadInput
 
     today = today or dt.date.today()
+    sep = "\t" if sep in ("tab", "\\t") else sep
+    if sep not in SEPARATORS:
+        raise BadInput("sep", sep, "the separator is one of , ; | or tab")
+    if decimal not in (".", ","):
+        raise BadInput("decimal", decimal, "the decimal mark is '.' or ','")
+    if sep == decimal:
+        raise BadInput("decimal", decimal, f"the decimal mark cannot be the separator {sep!r} too")
     by = auth.author(store, [auth.TABLE_ACTION.get(k, "design") for k, _ in items], by)
-    with store.write():
-        results = []
-        for kind, path in items:
-            if kind not in KINDS:
-                raise BadInput("kind", kind, "must be one of " + ", ".join(KINDS))
-            path = pathlib.Path(path)
-            if not path.is_file():
-                raise BadFile(path.name, [], f"{path}: no such file")
-            result = _import_one(store, kind, path, skip_bad=skip_bad, by=by, today=today,
-                                 progress=progress, chunk_rows=chunk_rows)
-            if result.refused and not skip_bad:
-                raise BadFile(path.name, result.problems)  # rolls the whole transaction back
-            results.append(result)
-        auth.note_write(store, "import", "; ".join(f"{r.kind} {r.file}: {r.added} added" for r in results))
+    reports: list[_RefusedReport] = []
+    try:
+        with store.write():
+            results = []
+            for kind, path in items:
+                if kind not in KINDS:
+                    raise BadInput("kind", kind, "must be one of " + ", ".join(KINDS))
+                path = pathlib.Path(path)
+                if not path.is_file():
+                    raise BadFile(path.name, [], f"{path}: no such file")
+                report = _RefusedReport(pathlib.Path(refused_to(path))) if skip_bad and refused_to else None
+                if report is not None:
+                    reports.append(report)
+                result = _import_one(store, kind, path, skip_bad=skip_bad, by=by, today=today,
+                                     progress=progress, chunk_rows=chunk_rows, sep=sep, decimal=decimal,
+                                     report=report)
+                if result.refused and not skip_bad:
+                    raise result.refusal()  # rolls the whole transaction back
+                results.append(result)
+            auth.note_write(store, "import", "; ".join(f"{r.kind} {r.file}: {r.added} added" for r in results))
+            # The refused rows' reports are complete before the good rows are committed.
+            for report, result in zip(reports, results):
+                result.refused_file = report.publish()
         return results
+    except BaseException:
+        for report in reports:
+            report.discard()
+        raise
+
+
+class _RefusedReport:
+    """The refused rows of one import, streamed to a CSV as they are found: a
+    temporary file beside ``path``, renamed to ``path`` when complete."""
+
+    def __init__(self, path: pathlib.Path):
+        self.path = path
+        self.tmp = path.with_name(f".{path.name}.{os.getpid()}.part")
+        self.fh = None
+        self.writer = None
+        self.published = False
+
+    def write(self, row: dict, columns: list[str]) -> None:
+        from tracker.report import safe_cell
+
+        if self.writer is None:
+            self.fh = self.tmp.open("w", newline="", encoding="utf-8")
+            fields = ["row", *[c for c in columns if c != "_row"], "reason"]
+            self.writer = csv.DictWriter(self.fh, fieldnames=fields, restval="", extrasaction="ignore")
+            self.writer.writeheader()
+        self.writer.writerow({k: safe_cell(v) for k, v in row.items()})
+
+    def publish(self) -> str | None:
+        if self.fh is None:
+            return None
+        self.fh.flush()
+        os.fsync(self.fh.fileno())
+        self.fh.close()
+        os.replace(self.tmp, self.path)
+        self.published = True
+        return str(self.path)
+
+    def discard(self) -> None:
+        if self.fh is not None and not self.fh.closed:
+            self.fh.close()
+        self.tmp.unlink(missing_ok=True)
+        if self.published:
+            self.path.unlink(missing_ok=True)
 
 
 def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, today, progress,
-                chunk_rows) -> ImportResult:
+                chunk_rows, sep=",", decimal=".", report: _RefusedReport | None = None) -> ImportResult:
     """Validate one file chunk by chunk inside the open transaction and write
     its good rows (none once a row is refused, unless ``skip_bad``)."""
     result = ImportResult(kind=kind, file=path.name)
     identity = file_identity(store, path) if kind == "inspections" else None
     imp = _Importer(store, kind, path.name, today, by, result, identity=identity)
     shape: dict = {}
-    for chunk in _read_chunks(path, kind, chunk_rows, shape):
+    columns: list[str] = []
+
+    def refuse_row(row: dict) -> None:
+        if report is not None:
+            report.write(row, columns)
+        else:
+            result.refused_rows.append(row)
+
+    for chunk in _read_chunks(path, kind, chunk_rows, shape, sep=sep):
         if not len(chunk):
             continue
-        c = _Checks(path.name, chunk, result)
+        columns = list(chunk.columns)
+        c = _Checks(path.name, chunk, result, decimal=decimal)
         rows = imp.validate(c)
         result.rows += len(rows)
         if kind == "inspections":
@@ -999,12 +1290,15 @@ def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, to
         else:
             skip = _compare_existing(store, kind, rows, c) & ~c.bad
             _repeated_keys(kind, rows, c, skip)
+        c.finish()
         good = [r for r, b, sk in zip(rows, c.bad, skip) if not b and not sk]
+        if kind in LOOKALIKE_CODES:
+            _warn_lookalikes(store, kind, rows, c, skip, result, imp.codes_seen)
         result.skipped += int((skip & ~c.bad).sum())
         result.refused += int(c.bad.sum())
         for i in np.flatnonzero(c.bad):
             row = chunk.iloc[i].to_dict()
-            result.refused_rows.append({"row": row.pop("_row"), **row, "reason": c.reasons.get(i, "")})
+            refuse_row({"row": row.pop("_row"), **row, "reason": c.reasons.get(i, "")})
         if not (result.refused and not skip_bad):
             if kind == "risers":
                 imp.pending_risers.extend(good)  # written after their revisions, at the end
@@ -1016,8 +1310,9 @@ def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, to
         new_revs, problems = imp.finish_risers()
         for p in problems:
             result.problems.append(p)
+            result.problem_count += 1
             result.refused += 1
-            result.refused_rows.append({"row": p.row, "reason": str(p)})
+            refuse_row({"row": p.row, "reason": str(p)})
         if not (result.refused and not skip_bad):
             # With skip_bad the revisions without problems are written; the rows of a
             # refused revision (the only pending rows outside new_revs) go with it.
@@ -1029,6 +1324,37 @@ def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, to
         store.record_import(identity.digest, path.name, identity.size, shape.get("last_row", 1),
                             json.dumps(identity.segments), by)
     return result
+
+
+LOOKALIKE_CODES = {"patterns": "pattern", "sleeves": "sleeve", "lots": "lot", "zones": "zone"}
+
+
+def _warn_lookalikes(store: Store, kind: str, rows: list[tuple], c: _Checks, skip: np.ndarray,
+                     result: ImportResult, seen: dict) -> None:
+    """Warn where a new code differs from a stored one (or one earlier in the
+    file) only by case or Unicode compatibility form ("l26-0412" beside "L26-0412")."""
+    column = LOOKALIKE_CODES[kind]
+    at = TABLE_COLUMNS[kind].index(column)
+    new = [(i, r) for i, r in enumerate(rows) if not c.bad[i] and not skip[i]]
+    if not new:
+        return
+    if kind == "zones":
+        stored = {}
+        for p, z in store.zone_levels():
+            stored.setdefault((p, fold(z)), []).append(z)
+        key = lambda r: (r[0], fold(r[at]))  # noqa: E731
+    else:
+        stored = {(k,): v for k, v in store.codes_alike(kind, [r[at] for _, r in new]).items()}
+        key = lambda r: (r[at].lower(),)  # noqa: E731
+    for i, r in new:
+        k = key(r)
+        others = [o for o in stored.get(k, []) + seen.get(k, []) if o != r[at]]
+        if others:
+            where = f" of pattern {r[0]}" if kind == "zones" else ""
+            result.warnings.append(
+                f"row {int(c.rows[i])}, column {column}: {r[at]!r} is new but differs from the {column}{where} "
+                f"{others[0]!r} only by case or character form; check that it is not the same {column}")
+        seen.setdefault(k, []).append(r[at])
 
 
 def _repeated_keys(kind: str, rows: list[tuple], c: _Checks, skip: np.ndarray) -> None:
@@ -1105,11 +1431,10 @@ def _one_record(store: Store, record: dict, *, by, today, source, supersedes: in
     result = ImportResult(kind="inspections", file=source)
 
     def refuse_if_bad(c: _Checks) -> None:
+        c.finish()
         if c.bad.any():
-            from tracker.errors import BadInput
-            p = c.result.problems[0]
-            raise BadInput(p.column, record.get(p.column), p.reason.split("; ", 1)[-1]
-                           if p.reason.startswith("got ") else p.reason)
+            raise BadRecord([(p.column, _form_text(p)) for p in c.result.problems],
+                            record.get(c.result.problems[0].column))
 
     # The record's own checks run before the write lock: they are the slow part, and
     # the lots, patterns and zones they read never change once stored. Holding the
@@ -1137,6 +1462,23 @@ def _one_record(store: Store, record: dict, *, by, today, source, supersedes: in
         return store.last_insert_id()
 
 
+FORM_LABELS = {"lot": "Lot", "inspected_on": "Inspected on", "method": "Method", "quantity": "Quantity",
+               "result": "Result", "defect": "Defect", "zone": "Zone", "xray_category": "Radiography category",
+               "severity": "Severity", "serial": "Serial", "inspector": "Inspector", "notes": "Notes"}
+
+
+def _form_text(p: BadRow) -> str:
+    """A problem of a record typed in, as a form says it: "Defect: pick one for a reject"."""
+    label = FORM_LABELS.get(p.column, p.column)
+    if p.form:
+        return f"{label}: {p.form}"
+    got, _, rule = p.reason.partition("; ") if p.reason.startswith("got ") else ("", "", p.reason)
+    if rule.startswith(p.column + " "):
+        rule = rule[len(p.column) + 1:]
+    got = got.replace("got ''", "left blank")
+    return f"{label}: {got}; {rule}" if got else f"{label}: {rule}"
+
+
 @retrying
 def correct_inspection(store: Store, record_id: int, changes: dict, *, by: str, reason: str,
                        today: dt.date | None = None) -> int:
@@ -1156,7 +1498,15 @@ def correct_inspection(store: Store, record_id: int, changes: dict, *, by: str, 
         old = store.inspection(record_id)
         newer = store.superseded_by(record_id)
         if newer is not None:
+            if store.inspection(newer)["void"]:
+                raise BadInput("record", record_id, f"it was withdrawn by record {newer}; a withdrawn record "
+                                                    "stays withdrawn: log the result again as a new record")
             raise BadInput("record", record_id, f"it was already corrected by record {newer}; correct that one")
+        if old["void"]:
+            # Correcting the withdrawal itself would bring the record back into the counts unseen.
+            raise BadInput("record", record_id, f"it is the withdrawal of record {old['supersedes']}; a "
+                                                "withdrawn record stays withdrawn: log the result again as a "
+                                                "new record")
         void = bool(changes.pop("void", False))
         rec = {k: old.get(k) for k in sum(COLUMNS["inspections"], [])}
         rec.update({k: v for k, v in changes.items() if k in rec})

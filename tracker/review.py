@@ -497,29 +497,64 @@ class _DaySums:
         return {k: (c[hi] - c[lo]).astype(np.int64) for k, c in self.cum.items()}
 
 
-def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: dt.date,
-               pours: dict, rejects: dict, codes: list[str], confidence: float) -> list[dict]:
+def _candidates(store: Store, mondays: list[dt.date], weeks: int) -> dict | None:
+    """The riser revisions the review of the weeks ``mondays`` judges, with their spans."""
     first, review_end = _iso(mondays[0]), _iso(mondays[-1] + dt.timedelta(days=6))
     # every revision up to the review week: one still without a verdict stays under
     # judgement however long ago it took effect (the revisions table is small)
     revs = store.revision_steps(EARLIEST_DAY, review_end)
     if revs.empty:
-        return []
+        return None
     inside = (revs["effective_from"] >= first) & (revs["effective_from"] <= review_end)
     pending = ((revs["effective_from"] < first)
                & revs["previous"].notna() & (revs["next_from"].isna() | (revs["next_from"] > first)))
     cand = revs[inside | pending].reset_index(drop=True)
     if cand.empty:
-        return []
+        return None
     cand = {c: cand[c].astype(object).where(cand[c].notna(), None).tolist() for c in cand.columns}
+    cand["in_window"] = [eff >= first for eff in cand["effective_from"]]
+    cand["before_start"] = [eff if prev is None else max(prev_from, _iso(dt.date.fromisoformat(eff)
+                                                                         - dt.timedelta(weeks=weeks)))
+                            for eff, prev, prev_from in zip(cand["effective_from"], cand["previous"],
+                                                            cand["previous_from"])]
+    cand["before_end"] = [_day_before(e) for e in cand["effective_from"]]
+    cand["after_end"] = [review_end if nf is None else min(review_end, _day_before(nf))
+                         for nf in cand["next_from"]]
+    return cand
+
+
+def _history_starts(cand: dict, upto: str) -> dict[str, str]:
+    """Per pattern judged, the earliest day before ``upto`` its comparisons read."""
+    since: dict[str, str] = {}
+    for code, start in zip(cand["pattern"], cand["before_start"]):
+        if start <= upto:
+            since[code] = min(since.get(code, start), start)
+    return since
+
+
+def history_spans(store: Store, week: str, weeks: int) -> list[tuple[str, str, str]]:
+    """The lots before its window that the review of ``week`` (``weeks`` weeks) reads
+    to judge riser revisions: (pattern, first pour date, last pour date), ISO dates.
+
+    For the benchmark's floor; the review itself reads them in :func:`_revisions`.
+    """
+    monday = stats.week_start(week)
+    mondays = [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)]
+    cand = _candidates(store, mondays, weeks)
+    if cand is None:
+        return []
+    upto = _iso(mondays[0] - dt.timedelta(weeks=1) - dt.timedelta(days=1))
+    return [(code, start, upto) for code, start in sorted(_history_starts(cand, upto).items())]
+
+
+def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: dt.date,
+               pours: dict, rejects: dict, codes: list[str], confidence: float) -> list[dict]:
+    cand = _candidates(store, mondays, weeks)
+    if cand is None:
+        return []
     n = len(cand["pattern"])
-    in_window = [eff >= first for eff in cand["effective_from"]]
-    before_start = [eff if prev is None else max(prev_from, _iso(dt.date.fromisoformat(eff)
-                                                                 - dt.timedelta(weeks=weeks)))
-                    for eff, prev, prev_from in zip(cand["effective_from"], cand["previous"],
-                                                    cand["previous_from"])]
-    before_end = [_day_before(e) for e in cand["effective_from"]]
-    after_end = [review_end if nf is None else min(review_end, _day_before(nf)) for nf in cand["next_from"]]
+    in_window, before_start, before_end, after_end = (
+        cand["in_window"], cand["before_start"], cand["before_end"], cand["after_end"])
 
     # the day-level rows of the candidates' patterns, fetched further back where needed
     mine = sorted(set(cand["pattern"]))
@@ -529,11 +564,18 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: d
     p["pattern"] = remap[p["pattern"]]
     r = {k: v[remap[rejects["pattern"]] >= 0] for k, v in rejects.items()}
     r["pattern"] = remap[r["pattern"]]
-    earliest = min(before_start)
-    if earliest < _iso(fetched_from):
-        upto = _iso(fetched_from - dt.timedelta(days=1))
-        more_p = _pour_arrays(store.pours_by_day(earliest, upto, mine, columns=True), index)
-        more_r = _reject_arrays(store.rejects_by_day(earliest, upto, mine, columns=True), index)
+    # Each pattern is read back from its own earliest comparison start, not all from the
+    # earliest of all: patterns are grouped by that start's year, one fetch per group
+    # (a revision under judgement for years reads years of its pattern's lots).
+    upto = _iso(fetched_from - dt.timedelta(days=1))
+    since = _history_starts(cand, upto)
+    groups: dict[str, list[str]] = {}
+    for code, start in sorted(since.items(), key=lambda kv: kv[1]):
+        groups.setdefault(start[:4], []).append(code)
+    for codes_in in groups.values():
+        start = since[codes_in[0]]
+        more_p = _pour_arrays(store.pours_by_day(start, upto, codes_in, columns=True), index)
+        more_r = _reject_arrays(store.rejects_by_day(start, upto, codes_in, columns=True), index)
         p = {k: np.concatenate([more_p[k], p[k]]) for k in p}
         r = {k: np.concatenate([more_r[k], r[k]]) for k in r}
     r = {k: v[r["reject"]] for k, v in r.items()}
@@ -715,7 +757,7 @@ def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WE
     target = limits.check_target(target)
     if week is None:
         week = default_week(store)
-    monday = stats.week_start(week)
+    monday = limits.check_review_week(week, stats.week_start(week))
     week = stats.iso_week(monday)
     mondays = [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)]
     previous = [m - dt.timedelta(weeks=1) for m in mondays]

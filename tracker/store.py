@@ -25,7 +25,7 @@ import hashlib
 import os
 import pathlib
 import sqlite3
-from typing import Iterable, Iterator
+from typing import Callable, Iterable, Iterator
 
 import pandas as pd
 
@@ -33,12 +33,13 @@ from tracker import auth
 from tracker import dialect as dialects
 from tracker.alloys import ALLOYS
 from tracker.dialect import (BUSY_TIMEOUT_MS, data_version, display_name, drop_schema,  # noqa: F401
-                             is_url, new_schema, with_schema)  # re-exported: callers use store.py only
-from tracker.errors import LogLocked, NotFound, PourbackError  # noqa: F401 (LogLocked re-exported)
+                             is_url, log_error, new_schema, with_schema)  # re-exported: callers use store.py only
+from tracker.errors import (DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog,  # noqa: F401
+                            NotFound, PourbackError)
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 7
+SCHEMA_VERSION = 8
 DEFAULT_PLANT_KEY = "default_plant"  # meta key set by `pourback init --plant`
 
 # Column order of each import kind's table, as stored.
@@ -263,15 +264,20 @@ def _migration_6(db: "_Schema") -> None:
     db.execute("ALTER TABLE zones ADD COLUMN width_mm REAL")
 
 
-
 def _migration_7(db: "_Schema") -> None:
+    # A new lot code that differs from a stored one only by case ("l26-0412" beside
+    # "L26-0412") is imported with a warning: found through this index, not a scan.
+    db.execute("CREATE INDEX lots_lot_lower ON lots(lower(lot))")
+
+
+def _migration_8(db: "_Schema") -> None:
     # Plants: a pattern belongs to one plant of a group (None: the log's only plant).
     db.execute("ALTER TABLE patterns ADD COLUMN plant TEXT")
     db.execute("CREATE INDEX patterns_plant ON patterns(plant, pattern)")
 
 
 MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6,
-              _migration_7]  # index i brings the schema from version i to i + 1
+              _migration_7, _migration_8]  # index i brings the schema from version i to i + 1
 
 
 # Tables in an order that inserts parents before children (copy-log); a table not
@@ -291,6 +297,15 @@ def _canonical(value) -> str:
     if isinstance(value, (bytes, bytearray, memoryview)):
         return bytes(value).hex()
     return str(value)
+
+
+def _batches(cur, size: int) -> Iterator[list[tuple]]:
+    """A cursor's rows, ``size`` at a time."""
+    while True:
+        batch = cur.fetchmany(size)
+        if not batch:
+            return
+        yield batch
 
 
 class _Schema:
@@ -330,10 +345,14 @@ class Store:
     as given (a URL keeps its password: print ``name``, which masks it).
     """
 
-    def __init__(self, path: str | os.PathLike | None = None, *, create: bool = True, actor=None):
+    def __init__(self, path: str | os.PathLike | None = None, *, create: bool = True, actor=None,
+                 on_wait: Callable[[str], None] | None = None):
         self.path = resolve_path(path)
         self.name = display_name(self.path)
-        self.dialect = dialects.for_target(self.path, create)
+        # Called with a message when a write has waited a second for another writer
+        # and goes on waiting.
+        self.on_wait = on_wait
+        self.dialect = dialects.for_target(self.path, create, on_wait=on_wait)
         self.backend = self.dialect.name
         self.conn = self.dialect  # execute(sql, params) in the shared SQL
         self.plant: str | None = None  # set by plant_scope: reads see that plant's patterns only
@@ -341,7 +360,14 @@ class Store:
         # line, a dashboard on loopback without sign-in), else a signed-in
         # ``tracker.auth.Session`` whose role every write is checked against.
         self.actor = actor
-        self.migrate()
+        try:
+            self.migrate()
+        except DATABASE_ERRORS as exc:
+            self.close()
+            raise log_error(exc, self.path) from None
+        except BaseException:
+            self.close()
+            raise
 
     # connection handling
     def close(self) -> None:
@@ -358,9 +384,20 @@ class Store:
 
     @contextlib.contextmanager
     def write(self) -> Iterator["Store"]:
-        """A write transaction: everything inside commits together or not at all."""
-        with self.dialect.write():
-            yield self
+        """A write transaction: everything inside commits together or not at all.
+
+        A failure of the database (read-only file, full disk, a lock held too
+        long, a server that went away) rolls it back and becomes one
+        :class:`LogError`; a conflict worth running again (see :func:`retrying`)
+        is passed on as it is."""
+        nested = self.dialect.in_transaction
+        try:
+            with self.dialect.write():
+                yield self
+        except DATABASE_ERRORS as exc:
+            if nested or self.dialect.transient(exc):
+                raise
+            raise log_error(exc, self.path) from None
 
     def schema_version(self) -> int:
         return self.dialect.schema_version()
@@ -509,12 +546,7 @@ class Store:
         cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
         order = ", ".join(KEYS[name]) if name != "inspections" else "id"
         sel = ", ".join(f'"{c}"' for c in cols)
-        cur = self.conn.execute(f'SELECT {sel} FROM "{name}" ORDER BY {order}')
-        while True:
-            batch = cur.fetchmany(size)
-            if not batch:
-                return
-            yield batch
+        yield from _batches(self.conn.execute(f'SELECT {sel} FROM "{name}" ORDER BY {order}'), size)
 
     # --- whole tables (copy-log) --------------------------------------------------
     def log_tables(self) -> list[str]:
@@ -532,12 +564,7 @@ class Store:
     def iter_table(self, name: str, columns: list[str], size: int = 50_000) -> Iterator[list[tuple]]:
         """Every row of ``name`` (the given columns), ``size`` at a time, in no set order."""
         sel = ", ".join(f'"{c}"' for c in columns)
-        cur = self.conn.execute(f'SELECT {sel} FROM "{self._known(name)}"')
-        while True:
-            batch = cur.fetchmany(size)
-            if not batch:
-                return
-            yield batch
+        yield from _batches(self.conn.execute(f'SELECT {sel} FROM "{self._known(name)}"'), size)
 
     def replace_table(self, name: str, columns: list[str], batches: Iterable[list[tuple]]) -> int:
         """Empty ``name`` and fill it with ``batches`` (ids included); call inside :meth:`write`."""
@@ -627,6 +654,19 @@ class Store:
                 d["methods"][method] = d["methods"].get(method, 0) + qty
                 if result == "reject":
                     d["rejected"] += qty
+        return out
+
+    def codes_alike(self, name: str, codes: Iterable[str]) -> dict[str, list[str]]:
+        """Stored codes of ``name`` (patterns, sleeves, lots) equal to one of
+        ``codes`` when ASCII case is ignored, by lower-cased code."""
+        column = {"patterns": "pattern", "sleeves": "sleeve", "lots": "lot"}[name]
+        low = list(dict.fromkeys(c.lower() for c in codes))
+        out: dict[str, list[str]] = {}
+        for i in range(0, len(low), 900):
+            chunk = low[i:i + 900]
+            q = f'SELECT "{column}" FROM "{name}" WHERE lower("{column}") IN ({", ".join("?" * len(chunk))})'
+            for (code,) in self.conn.execute(q, chunk):
+                out.setdefault(code.lower(), []).append(code)
         return out
 
     # --- imported files -------------------------------------------------------------
@@ -897,7 +937,8 @@ class Store:
              "GROUP BY l.pattern")
         return self._frame(q, (str(start), str(end)))
 
-    def review_floor(self, start: str, end: str) -> dict[str, list[tuple]]:
+    def review_floor(self, start: str, end: str, history: Iterable[tuple[str, str, str]] = ()
+                     ) -> dict[str, list[tuple]]:
         """The rows a review of lots poured from ``start`` to ``end`` (ISO strings,
         inclusive) reads, fetched as plain tuples with no computation: the floor
         the scale benchmark holds the review against.
@@ -907,7 +948,10 @@ class Store:
         defect, zone, quantity); ``risers``: the riser revisions in force in the
         span for the patterns poured in it, one row per riser (pattern, revision,
         effective_from, riser, zone, placement, top, diameter_mm, height_mm,
-        sleeve, neck_diameter_mm).
+        sleeve, neck_diameter_mm). ``history``: (pattern, first day, last day) spans
+        read besides (``tracker.review.history_spans``, the lots before the span
+        that judging riser revisions reads): their lots and current records are
+        added as ``history_lots`` and ``history_records`` (same columns).
         """
         span = (str(start), str(end))
         hint, join = self.dialect.lots_by_date_hint, self.dialect.forced_join
@@ -929,7 +973,23 @@ class Store:
             "AND NOT EXISTS (SELECT 1 FROM revisions s WHERE s.pattern = r.pattern "
             "AND s.effective_from > r.effective_from AND s.effective_from <= ?)",
             (span[1], span[0], span[1], span[0])).fetchall()
-        return {"lots": lots, "records": records, "risers": risers}
+        out = {"lots": lots, "records": records, "risers": risers}
+        if history:
+            by_pattern = self.dialect.lots_by_pattern_hint
+            out["history_lots"], out["history_records"] = [], []
+            for pattern, first, last in history:
+                span = (str(pattern), str(first), str(last))
+                out["history_lots"] += self.conn.execute(
+                    "SELECT l.lot, l.pattern, l.poured_on, l.molds * p.castings_per_mold "
+                    f"FROM lots l {by_pattern} {join} patterns p "
+                    "ON p.pattern = l.pattern WHERE l.pattern = ? AND l.poured_on >= ? AND l.poured_on <= ?",
+                    span).fetchall()
+                out["history_records"] += self.conn.execute(
+                    "SELECT i.lot, i.result, i.defect, i.zone, i.quantity "
+                    f"FROM lots l {by_pattern} {join} inspections i ON i.lot = l.lot "
+                    "WHERE l.pattern = ? AND l.poured_on >= ? AND l.poured_on <= ? AND i.void = 0 "
+                    "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)", span).fetchall()
+        return out
 
     def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
         """The database's plan for one statement, one line per step (SQLite's
@@ -1168,8 +1228,17 @@ def restore(backup_file: str | os.PathLike, dest: str | os.PathLike) -> None:
     """Restore a backup into ``dest`` (which must not exist), checking it first."""
     if pathlib.Path(dest).exists():
         raise PourbackError(f"{dest} exists already; restore into a new file")
+    backup_file = pathlib.Path(backup_file)
+    if backup_file.name.endswith(".partial") and backup_file.name.startswith("."):
+        raise PourbackError(f"backup {backup_file} is a partial backup, left by a backup that was stopped "
+                            "part-way; it is not complete: use another backup (and delete this file)")
+    for side in ("-journal", "-wal"):
+        if pathlib.Path(f"{backup_file}{side}").exists():
+            raise PourbackError(f"backup {backup_file} is incomplete: {backup_file}{side} lies beside it, left "
+                                "by a copy that was stopped part-way; use another backup (a file written by "
+                                "`pourback backup` has no such file beside it)")
     # Read-only: checking a backup must never change it.
-    src = sqlite3.connect(pathlib.Path(backup_file).resolve().as_uri() + "?mode=ro", uri=True)
+    src = sqlite3.connect(backup_file.resolve().as_uri() + "?mode=ro", uri=True)
     try:
         try:
             ok = src.execute("PRAGMA integrity_check").fetchone()[0]

@@ -455,8 +455,21 @@ def _pct(series: pd.Series) -> pd.Series:
     return 100.0 * pd.to_numeric(series, errors="coerce")
 
 
-def suggestions_table(suggestions: list[dict]) -> pd.DataFrame:
+def money_per_year(code: str | None) -> str:
+    """The unit of a yearly money column: "EUR/year" (the log's currency code)."""
+    return f"{code or DEFAULT_CURRENCY}/year"
+
+
+def with_currency(columns: list[str], code: str | None) -> list[str]:
+    """Column headings with the placeholder money unit replaced by the log's currency."""
+    return [c.replace(MONEY_UNIT, money_per_year(code)) for c in columns]
+
+
+def suggestions_table(suggestions: list[dict], currency: str | None = None) -> pd.DataFrame:
     """Suggestions (``tracker.advise.suggest``) as a display table, rates and yields in %.
+
+    Money columns are headed "(CODE/year)" with the log's ``currency`` code
+    when it is given, else with the placeholder ``MONEY_UNIT``.
 
     The observed rate and the model's rates now and after stand side by
     side; a row that changes nothing shows no predicted-after rate and no
@@ -464,7 +477,8 @@ def suggestions_table(suggestions: list[dict]) -> pd.DataFrame:
     SUGGESTION_COLUMNS'.
     """
     if not suggestions:
-        return pd.DataFrame(columns=list(SUGGESTION_COLUMNS.values()))
+        cols = list(SUGGESTION_COLUMNS.values())
+        return pd.DataFrame(columns=with_currency(cols, currency) if currency else cols)
     s = pd.DataFrame(suggestions)
     changes = s["action"] != "no_riser_change"
     s["action"] = s["action"].str.replace("_", " ")
@@ -482,7 +496,10 @@ def suggestions_table(suggestions: list[dict]) -> pd.DataFrame:
             fill = pd.Series(np.where(has_riser, "none", None), index=s.index, dtype=object)
             s[key] = s[key].astype(object).where(s[key].notna(), fill)
     cols = [c for c in SUGGESTION_COLUMNS if c in s]
-    return s[cols].rename(columns=SUGGESTION_COLUMNS).reset_index(drop=True)
+    out = s[cols].rename(columns=SUGGESTION_COLUMNS).reset_index(drop=True)
+    if currency:
+        out.columns = with_currency(list(out.columns), currency)
+    return out
 
 
 WHAT_IF_RULES = (("modulus rule", "modulus_ratio", rules.DEFAULT_MODULUS_FACTOR),

@@ -6,11 +6,13 @@ No computation lives here; every command is a thin layer over ``tracker``.
 from __future__ import annotations
 
 import contextlib
+import errno
 import functools
 import inspect
 import json
 import math
 import os
+import sqlite3
 import sys
 
 import click
@@ -94,18 +96,26 @@ def caution_text() -> str:
 
 
 def handle_errors(fn):
-    """Turn library errors into one clear line and a non-zero exit."""
+    """Turn library errors into one clear line and a non-zero exit.
+
+    Failures of the machine rather than of the input (a full disk while writing
+    a report, a file that cannot be written, an SQLite error outside the log's
+    own handling) are one line too, never a traceback."""
     @functools.wraps(fn)
     def wrapper(*args, **kwargs):
         try:
             return fn(*args, **kwargs)
         except PourbackError as exc:
             raise click.ClickException(str(exc)) from None
+        except sqlite3.Error as exc:
+            raise click.ClickException(f"the log could not be used ({exc}); nothing was written") from None
         except database_errors() as exc:
             # The server went away or refused a statement: one line, not a traceback.
             first = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
             raise click.ClickException(f"the database reported: {first}; check that the log's server "
                                        "is running and reachable, then try again") from None
+        except OSError as exc:
+            raise click.ClickException(os_error_text(exc)) from None
     return wrapper
 
 
@@ -113,6 +123,18 @@ def database_errors() -> tuple:
     from tracker.store import DATABASE_ERRORS
 
     return DATABASE_ERRORS
+
+
+def os_error_text(exc: OSError) -> str:
+    """One line for a file the command could not read or write."""
+    where = f" {exc.filename}" if getattr(exc, "filename", None) else ""
+    if exc.errno == errno.ENOSPC:
+        return f"the disk is full: could not write{where}; free some space and try again"
+    if exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
+        return f"no permission to write{where}; choose a place you can write to"
+    if exc.errno == errno.ENOENT:
+        return f"no such file or folder:{where or ' (not given)'}; check the path"
+    return f"could not read or write{where}: {exc.strerror or exc}"
 
 
 json_option = click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
@@ -204,9 +226,11 @@ def db_option(fn):
 
 
 def open_store(db_path, create: bool = False):
+    """The log in --db; a missing file is an error unless ``create`` (init only).
+    A write that waits for another writer says so on stderr within a second."""
     from tracker.store import Store
 
-    return Store(db_path, create=create)
+    return Store(db_path, create=create, on_wait=lambda msg: click.echo(msg, err=True))
 
 
 # Command groups register themselves on ``main`` when imported.

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import click
 
+from tracker.settings import DEFAULT_CURRENCY, currency
+
 from tracker.cli import (Steps, caution_text, db_option, emit, handle_errors, json_option, main, open_store,
                          plant_option, show_progress, table, target_option, week_option, weeks_option)
 
@@ -68,10 +70,11 @@ def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, thermal
         steps.step("Suggesting riser changes" + (" (refitting the model first)" if refit else ""))
         rows = run(store, pattern=pattern, target=target, week=week, weeks=weeks, step_mm=step_mm, refit=refit,
                    remelt_charge=remelt_charge, thermal=thermal, plant=plant)
-    emit(rows, as_json, _format)
+        code = currency(store)
+    emit(rows, as_json, lambda found: _format(found, code))
 
 
-def _format(rows: list[dict]) -> str:
+def _format(rows: list[dict], code: str = DEFAULT_CURRENCY) -> str:
     if not rows:
         return "No suggestions: no problem pattern in the review window.\n\n" + caution_text()
     show = []
@@ -94,8 +97,9 @@ def _format(rows: list[dict]) -> str:
     out = [table(show, [("pattern", "pattern"), ("zone", "zone"), ("riser", "riser"), ("action", "action"),
                         ("change", "change"), ("observed", "observed now"), ("now", "predicted now"),
                         ("after", "predicted after"), ("added_metal_kg_per_mold", "added metal (kg/mould)"),
-                        ("yield", "yield"), ("saved", "scrap saved/yr"), ("extra", "extra cost/yr"),
-                        ("balance", "balance/yr"), ("pays", "pays off")])]
+                        ("yield", "yield"), ("saved", f"scrap saved ({code}/yr)"),
+                        ("extra", f"extra cost ({code}/yr)"), ("balance", f"balance ({code}/yr)"),
+                        ("pays", "pays off")])]
     charge = rows[0].get("remelt_charge")
     out.append("")
     out.append(basis_note + (f" Remelt charge {charge:g} of the metal price." if charge is not None else ""))
@@ -144,10 +148,11 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, week, weeks, remelt_
 
             t = what_if_fields(store, r)
             r.update(thermal_ok=t["thermal_ok"], last_to_freeze=t["last_to_freeze"])
-    emit(r, as_json, _what_if_text)
+        code = currency(store)
+    emit(r, as_json, lambda found: _what_if_text(found, code))
 
 
-def _what_if_text(r: dict) -> str:
+def _what_if_text(r: dict, code: str = DEFAULT_CURRENCY) -> str:
     from tracker.assess import rule_words
 
     rows = [{"figure": k.replace("_", " "), "now": r.get(k + "_now"), "changed": r[k]} for k in
@@ -157,10 +162,10 @@ def _what_if_text(r: dict) -> str:
               "changed": _pct(r["predicted_rate_after"], 2)},
              {"figure": "yield", "now": _pct(r["yield_before"]), "changed": _pct(r["yield_after"])}]
     money = [{"per year": "castings", "value": _money(r["castings_per_year"])},
-             {"per year": "scrap saved", "value": _money(r["scrap_saved_per_year"])},
-             {"per year": "extra riser metal", "value": _money(r["extra_metal_cost_per_year"])},
-             {"per year": "sleeves", "value": _money(r["sleeve_cost_per_year"])},
-             {"per year": "balance", "value": _money(r["yearly_balance"])}]
+             {"per year": f"scrap saved ({code})", "value": _money(r["scrap_saved_per_year"])},
+             {"per year": f"extra riser metal ({code})", "value": _money(r["extra_metal_cost_per_year"])},
+             {"per year": f"sleeves ({code})", "value": _money(r["sleeve_cost_per_year"])},
+             {"per year": f"balance ({code})", "value": _money(r["yearly_balance"])}]
     also = [x for x in r["changed_risers"] if x != r["riser"]]
     return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {r['diameter_mm']:.0f} x "
             f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
@@ -179,7 +184,7 @@ def _what_if_text(r: dict) -> str:
 @main.command("fit-model")
 @click.option("--alpha", type=float, default=10.0, show_default=True,
               help="Pull toward the rule-based prior, in castings (more: leans on the rules).")
-@click.option("--folds", type=int, default=5, show_default=True, help="Cross-validation folds (grouped by pattern).")
+@click.option("--folds", type=click.IntRange(2, 100), default=5, show_default=True, help="Cross-validation folds (grouped by pattern).")
 @db_option
 @json_option
 @handle_errors

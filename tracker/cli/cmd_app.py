@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+import contextlib
 import os
 import pathlib
+import signal
 import sqlite3
 import subprocess
 import sys
@@ -35,17 +37,44 @@ def streamlit_argv(host: str, port: int, tls: tuple[str, str] | None = None) -> 
             "--server.address", host, "--server.port", str(port), "--server.headless", "true",
             "--browser.gatherUsageStats", "false", "--server.fileWatcherType", "none",
             "--client.toolbarMode", "minimal", "--server.enableXsrfProtection", "true",
-            "--server.maxUploadSize", str(auth.MAX_UPLOAD_MB)]
+            "--server.maxUploadSize", str(auth.MAX_UPLOAD_MB),
+            # The tables' own CSV download writes cells unguarded: it is off, and the
+            # pages offer downloads through tracker.report.csv_bytes instead.
+            "--client.disableDataExport", "true"]
     if tls:
         argv += ["--server.sslCertFile", tls[0], "--server.sslKeyFile", tls[1]]
     return argv
 
 
-def _launch(argv: list[str], env: dict) -> None:
-    """Hand the process over to Streamlit (same PID, so stopping this command stops the server)."""
-    if os.name == "posix":
-        os.execvpe(argv[0], argv, env)
-    raise SystemExit(subprocess.call(argv, env=env))  # pragma: no cover - not POSIX
+def _launch(argv: list[str], env: dict) -> int:
+    """Run Streamlit as a child and wait for it; SIGTERM, SIGINT and SIGHUP sent to
+    this process are passed on to the child, so stopping this command by its
+    process id stops the server too (and frees the port). Returns the child's
+    exit status."""
+    child = subprocess.Popen(argv, env=env)
+    forwarded = (signal.SIGTERM, signal.SIGINT) + ((signal.SIGHUP,) if hasattr(signal, "SIGHUP") else ())
+
+    def forward(signum, _frame):
+        with contextlib.suppress(ProcessLookupError):
+            child.send_signal(signum)
+
+    previous = {s: signal.signal(s, forward) for s in forwarded}
+    try:
+        while True:
+            try:
+                return child.wait()
+            except KeyboardInterrupt:  # pragma: no cover - a second Ctrl+C while waiting
+                forward(signal.SIGINT, None)
+    finally:
+        for s, handler in previous.items():
+            signal.signal(s, handler)
+        if child.poll() is None:  # never leave the server behind
+            child.terminate()
+            try:
+                child.wait(timeout=10)
+            except subprocess.TimeoutExpired:
+                child.kill()
+                child.wait()
 
 
 def _url(host: str, port: int, tls: bool = False) -> str:
@@ -64,7 +93,7 @@ def serve(db: pathlib.Path | str, host: str, port: int, *, require_login: bool =
     from tracker.store import Store, display_name
 
     idle = auth.check_idle_hours(auth.DEFAULT_IDLE_HOURS if idle_hours is None else idle_hours)
-    with Store(db) as store:  # create or migrate before the first page opens
+    with Store(db, create=False) as store:  # migrate before the first page opens; never create
         sign_in = auth.check_can_serve(store, host, require_login)
     env = {**os.environ, "POURBACK_DB": str(db), "POURBACK_SIGN_IN": "1" if sign_in else "0",
            "POURBACK_IDLE_HOURS": f"{idle:g}", "POURBACK_TLS": "1" if tls else "0",
@@ -74,12 +103,22 @@ def serve(db: pathlib.Path | str, host: str, port: int, *, require_login: bool =
         click.echo(f"Every visitor signs in; a session ends after {idle:g} hours without activity.")
     if not auth.is_loopback(host) and not tls:
         click.echo(NO_TLS_WARNING, err=True)
-    _launch(streamlit_argv(host, port, tls), env)
+    status = _launch(streamlit_argv(host, port, tls), env)
+    if status and status > 0:
+        # Streamlit stopped by a signal (negative) is a normal stop; other codes are its own failure.
+        raise PourbackError(f"the dashboard server stopped with exit status {status}; see its messages above")
 
 
 port_option = click.option("--port", type=click.IntRange(1, 65535), default=DEFAULT_PORT, show_default=True,
                            help="Port to serve the dashboard on.")
-host_option = click.option("--host", default=DEFAULT_HOST, show_default=True,
+def _check_host(ctx, param, value: str) -> str:
+    if not value.strip():
+        raise click.BadParameter(f"got {value!r}; give an address such as 127.0.0.1 (this computer only) "
+                                 "or 0.0.0.0 (every network interface)")
+    return value.strip()
+
+
+host_option = click.option("--host", default=DEFAULT_HOST, show_default=True, callback=_check_host,
                            help="Address to bind; the default keeps the dashboard on this computer. Any other "
                                 "address needs an enabled admin account, and every visitor signs in.")
 
@@ -101,7 +140,8 @@ def dashboard(db_path, port, host, require_login, tls_cert, tls_key, idle_hours)
     """Open the dashboard (log results, weekly review, design map, pattern
     file, suggestions) in the browser, on the log in --db.
 
-    A missing log file is created empty; the dashboard then shows how to start.
+    The log must exist (create it with `pourback init`, or build the demo
+    log with `pourback demo`); stopping this command stops the server.
     On any address but 127.0.0.1, ::1 or localhost it refuses to start unless
     the log has an enabled admin account, and asks every visitor to sign in.
 

@@ -13,6 +13,8 @@ from tracker.cli import (db_option, emit, handle_errors, json_option, main, open
                          table)
 from tracker.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES
 
+MAX_RECORD_ID = 2**63 - 1  # SQLite's largest integer
+
 
 def _who(by: str | None) -> str:
     if by:
@@ -89,23 +91,28 @@ def _count_rows(path: pathlib.Path) -> int:
 @click.argument("file", required=False, type=click.Path(exists=True, dir_okay=False))
 @click.option("--skip-bad", is_flag=True,
               help="Write the good rows and a CSV of the refused ones, instead of refusing the file.")
+@click.option("--sep", default=",", show_default=True,
+              help="The CSV files' separator: ',', ';', '|' or tab.")
+@click.option("--decimal", default=".", show_default=True, help="The decimal mark in numbers: '.' or ','.")
 @click.option("--by", default=None, help="Who imports (recorded with each record; default: login name).")
 @db_option
 @json_option
 @handle_errors
-def import_(kind_or_dir, file, skip_bad, by, db_path, as_json):
+def import_(kind_or_dir, file, skip_bad, sep, decimal, by, db_path, as_json):
     """Import a file of KIND (patterns, zones, sleeves, risers, lots,
     inspections), or every known file of a folder in dependency order.
 
     By default one bad row refuses the whole import and nothing is written;
-    every bad row is reported with file, row, column and reason.
+    every bad row is reported with file, row, column and reason. With
+    --skip-bad the refused rows go to FILE.refused.csv, written before the
+    good rows are committed.
 
     Example:
 
         pourback import patterns patterns.csv
         pourback import sample_data
     """
-    from tracker.ingest import import_dir, import_files, write_refused
+    from tracker.ingest import import_files
 
     if file is None:
         folder = pathlib.Path(kind_or_dir)
@@ -114,23 +121,19 @@ def import_(kind_or_dir, file, skip_bad, by, db_path, as_json):
                                    f"(KIND is one of {', '.join(KINDS)})")
         items = [(k, p) for k in KINDS for p in [folder / f"{k}.csv", folder / f"{k}.xlsx"] if p.is_file()]
         items = list({k: (k, p) for k, p in reversed(items)}.values())[::-1]
+        if not items:
+            raise click.UsageError(f"{folder} holds none of " + ", ".join(f"{k}.csv" for k in KINDS))
     else:
         if kind_or_dir not in KINDS:
             raise click.UsageError(f"unknown kind {kind_or_dir!r}; use one of {', '.join(KINDS)}")
         items = [(kind_or_dir, pathlib.Path(file))]
     total = sum(_count_rows(pathlib.Path(p)) for _, p in items)
-    with open_store(db_path, create=True) as store:
+    with open_store(db_path) as store:
         with progress_bar(show_progress(as_json) and total >= 5000, total, "Importing") as bar:
-            if file is None:
-                results = import_dir(store, kind_or_dir, skip_bad=skip_bad, by=_who(by), progress=bar.update)
-            else:
-                results = import_files(store, items, skip_bad=skip_bad, by=_who(by), progress=bar.update)
-        out = []
-        for r, (_, p) in zip(results, items):
-            d = r.to_dict()
-            if r.refused_rows:
-                d["refused_file"] = str(write_refused(r, pathlib.Path(p).with_suffix(".refused.csv")))
-            out.append(d)
+            results = import_files(store, items, skip_bad=skip_bad, by=_who(by), progress=bar.update,
+                                   sep=sep, decimal=decimal,
+                                   refused_to=lambda p: pathlib.Path(p).with_suffix(".refused.csv"))
+        out = [r.to_dict() for r in results]
     emit(out, as_json, _format_import)
 
 
@@ -138,10 +141,11 @@ def _format_import(results: list[dict]) -> str:
     lines = [table(results, [("file", "file"), ("kind", "kind"), ("rows", "rows"), ("added", "added"),
                              ("skipped", "already present"), ("refused", "refused")])]
     for r in results:
+        for w in r.get("warnings", [])[:20]:
+            lines.append(f"{r['file']}: warning: {w}")
         if r.get("refused_file"):
             lines.append(f"{r['file']}: {r['refused']} row(s) refused, written to {r['refused_file']}:")
             lines.extend("  " + p for p in r["problems"][:20])
-        lines.extend("warning: " + w for w in r.get("warnings", [])[:20])
     return "\n".join(lines)
 
 
@@ -194,7 +198,7 @@ def log(lot, inspected_on, method, quantity, result, defect, zone, xray_category
 
 
 @main.command()
-@click.argument("record_id", type=int)
+@click.argument("record_id", type=click.IntRange(1, MAX_RECORD_ID))
 @click.option("--reason", required=True, help="Why the record is corrected.")
 @click.option("--by", default=None, help="Who corrects it (default: login name).")
 @click.option("--void", is_flag=True, help="Withdraw the record (entered in error).")
@@ -235,7 +239,8 @@ def correct(record_id, reason, by, void, db_path, as_json, **changes):
 
 @main.command()
 @click.option("--lot", default=None, help="Only this lot.")
-@click.option("--limit", type=int, default=50, show_default=True, help="Newest records to show.")
+@click.option("--limit", type=click.IntRange(1, 1_000_000), default=50, show_default=True,
+              help="Newest records to show.")
 @db_option
 @json_option
 @handle_errors
