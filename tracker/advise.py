@@ -57,7 +57,7 @@ from tracker import limits, rules
 from tracker.assess import assess_frame, revision_in_effect, rule_words
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadInput, NotFound
-from tracker.features import aggregate_for_fit, weakest_margins, zone_lot_features
+from tracker.features import fit_table, weakest_margins, zone_lot_features
 from tracker.model import ShrinkageRejectModel
 from tracker.sizing import neck_needed_mm, size_risers
 from tracker.stats import week_start, wilson_interval
@@ -99,34 +99,48 @@ DEFECT_POINTERS = {
 
 # --- model --------------------------------------------------------------------
 
-def fit_model(store: Store, *, alpha: float = 10.0, save: bool = True) -> ShrinkageRejectModel | None:
+def fit_model(store: Store, *, alpha: float = 10.0, save: bool = True,
+              table: pd.DataFrame | None = None) -> ShrinkageRejectModel | None:
     """Fit the shrinkage reject model on the log's whole history (and store it).
 
-    None when the log has no lot under a known riser design.
+    table: the log's ``fit_table`` when the caller has it already (the
+    cross-validation reads the same). None when the log has no lot under a
+    known riser design.
     """
-    feats = zone_lot_features(store)
+    feats = fit_table(store) if table is None else table
     if feats.empty or feats["castings"].sum() == 0:
         return None
-    model = ShrinkageRejectModel(alpha=alpha).fit(aggregate_for_fit(feats))  # sets data_until_
+    model = ShrinkageRejectModel(alpha=alpha).fit(feats)  # sets data_until_
     if save:
         store.save_model(model.to_bytes(), rows=int(model.n_rows_), castings=int(model.n_castings_),
                          data_until=model.data_until_)
     return model
 
 
-def get_model(store: Store, refit: bool = False) -> ShrinkageRejectModel | None:
-    """The stored model if it was fitted on the log as it is now, else a new fit."""
+def _stored_model(store: Store) -> ShrinkageRejectModel | None:
+    """The stored model if it was fitted on the log as it is now (up to its newest pour), else None."""
     from tracker.errors import IncompatibleModel
 
-    if not refit:
-        saved = store.latest_model()
-        _, last = store.pour_span()
-        if saved is not None and saved["data_until"] == last:
-            try:
-                return ShrinkageRejectModel.from_bytes(saved["blob"])
-            except IncompatibleModel:
-                pass  # fitted by another version: refit below
-    return fit_model(store)
+    saved = store.latest_model()
+    _, last = store.pour_span()
+    if saved is None or saved["data_until"] != last:
+        return None
+    try:
+        return ShrinkageRejectModel.from_bytes(saved["blob"])
+    except IncompatibleModel:
+        return None  # fitted by another version
+
+
+def get_model(store: Store, refit: bool = False) -> ShrinkageRejectModel | None:
+    """The stored model if it was fitted on the log as it is now, else a new fit."""
+    model = None if refit else _stored_model(store)
+    return model if model is not None else fit_model(store)
+
+
+def model_is_current(store: Store) -> bool:
+    """Whether :func:`get_model` takes the stored model as it is (no fit first): a
+    long step at a large shop, worth saying before it starts."""
+    return _stored_model(store) is not None
 
 
 # --- window -------------------------------------------------------------------
@@ -740,10 +754,9 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
         store.pattern(pattern)
         patterns = [pattern]
     else:
-        from tracker.review import weekly_review
+        from tracker.review import problem_patterns
 
-        review = weekly_review(store, week=week, weeks=weeks, target=target)
-        patterns = [p["pattern"] for p in review["patterns"] if p.get("problem")]
+        patterns = problem_patterns(store, week=week, weeks=weeks, target=target)  # the review's, alone
     if not patterns:
         return []
     if model is None:

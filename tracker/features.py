@@ -15,7 +15,7 @@ import pandas as pd
 
 from tracker.assess import assess_frame
 from tracker.stats import wilson_interval
-from tracker.store import Store
+from tracker.store import TABLE_COLUMNS, Store
 
 MARGIN_COLS = ["modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "freezing_ratio"]
 FEATURE_COLUMNS = [
@@ -49,6 +49,8 @@ def weakest_margins(assessed: pd.DataFrame, keys) -> pd.DataFrame:
 
 def zone_design(store: Store, pattern=None) -> pd.DataFrame:
     """Per pattern, revision and zone: the weakest riser's assessed margins."""
+    if pattern is not None and not isinstance(pattern, str) and len(pattern) == 1:
+        pattern = list(pattern)[0]  # one pattern's risers fetched, not every pattern's (what-if)
     risers = store.risers_frame(pattern=pattern if isinstance(pattern, str) else None)
     if pattern is not None and not isinstance(pattern, str):
         risers = risers[risers["pattern"].isin(list(pattern))].reset_index(drop=True)
@@ -121,6 +123,93 @@ def aggregate_for_fit(features: pd.DataFrame, temp_bin_c: float = 5.0) -> pd.Dat
                                               poured_on=("poured_on", "max"), **{
                                                   k: (k, v) for k, v in first.items()})
     return out.rename(columns={"_tbin": "pour_temp_dev_c"})
+
+
+def _lot_arrays(store: Store, patterns: list[str]) -> dict[str, np.ndarray]:
+    """Every lot as compact columns, read ``size`` rows at a time (never the whole
+    table as Python rows): ``lot`` (codes, object), ``pattern`` (index into
+    ``patterns``), ``day`` (datetime64[D] of the pour), ``molds`` and
+    ``pour_temp_c`` (NaN where unknown)."""
+    cols = [c for c in TABLE_COLUMNS["lots"] if c != "id"]
+    at = {c: cols.index(c) for c in ("lot", "pattern", "poured_on", "molds", "pour_temp_c")}
+    parts: dict[str, list] = {k: [] for k in ("lot", "pattern", "day", "molds", "pour_temp_c")}
+    for batch in store.iter_rows("lots"):
+        col = list(zip(*batch))
+        parts["lot"].append(np.array(col[at["lot"]], dtype=object))
+        parts["pattern"].append(pd.Categorical(col[at["pattern"]], categories=patterns).codes.astype(np.int32))
+        parts["day"].append(np.array(col[at["poured_on"]], dtype="datetime64[D]"))
+        parts["molds"].append(np.array(col[at["molds"]], dtype=np.int64))
+        parts["pour_temp_c"].append(np.array(col[at["pour_temp_c"]], dtype=float))  # None -> NaN
+        del batch, col
+    empty = {"lot": object, "pattern": np.int32, "day": "datetime64[D]", "molds": np.int64, "pour_temp_c": float}
+    return {k: np.concatenate(v) if v else np.array([], dtype=empty[k]) for k, v in parts.items()}
+
+
+def fit_table(store: Store, temp_bin_c: float = 5.0) -> pd.DataFrame:
+    """The model's training table for the whole log: the rows, columns and order of
+    ``aggregate_for_fit(zone_lot_features(store), temp_bin_c)``, built without
+    the table of one row per lot and zone (millions of rows at a large shop).
+
+    Each lot is reduced to its pattern, revision in effect, pour temperature bin,
+    castings and pour date; lots are summed per (revision, bin) before the
+    zones of their revision are joined, and zoned shrinkage rejects per
+    (revision, bin, zone). Lots are read in batches.
+    """
+    design = zone_design(store)
+    revs = store.revisions_frame()
+    pats = store.table("patterns")
+    if design.empty or revs.empty or pats.empty:
+        return aggregate_for_fit(pd.DataFrame(columns=FEATURE_COLUMNS))
+    codes = pats["pattern"].tolist()
+    per_mold = pats["castings_per_mold"].to_numpy(dtype=np.int64)
+    lots = _lot_arrays(store, codes)
+
+    # the revision in effect on each lot's pour date: the last of its pattern's from that day or before
+    r_pat = pd.Categorical(revs["pattern"], categories=codes).codes.astype(np.int64)
+    r_day = np.array(revs["effective_from"].tolist(), dtype="datetime64[D]").astype(np.int64)
+    key = lambda p, d: (p << 32) + (d + (1 << 31))  # noqa: E731 (pattern, day) in one sortable number
+    order = np.argsort(key(r_pat, r_day), kind="stable")
+    r_key = key(r_pat, r_day)[order]
+    l_pat = lots["pattern"].astype(np.int64)
+    at = np.searchsorted(r_key, key(l_pat, lots["day"].astype(np.int64)), side="right") - 1
+    found = at >= 0
+    found[found] = r_pat[order][at[found]] == l_pat[found]
+    rev = np.where(found, order[np.maximum(at, 0)], -1)
+
+    # lots under a known design: pour temperature less the pattern's median, binned
+    keep = np.flatnonzero(rev >= 0)
+    temp = pd.Series(lots["pour_temp_c"][keep])
+    dev = (temp - temp.groupby(l_pat[keep]).transform("median")).to_numpy()
+    tbin = np.round(np.nan_to_num(dev, nan=0.0) / temp_bin_c) * temp_bin_c
+    kept = pd.DataFrame({"rev": rev[keep], "_tbin": tbin,
+                         "castings": lots["molds"][keep] * per_mold[l_pat[keep]], "day": lots["day"][keep]})
+    grouped = kept.groupby(["rev", "_tbin"], sort=False)
+    group_of_lot = np.full(len(rev), -1, dtype=np.int64)
+    group_of_lot[keep] = grouped.ngroup().to_numpy()
+    groups = grouped.agg(castings=("castings", "sum"), day=("day", "max")).reset_index()
+    del kept, grouped, temp, dev, tbin
+
+    # zoned shrinkage rejects per group and zone
+    rej = store.rejects_by_lot()
+    rej = rej[(rej["result"] == "reject") & (rej["defect"] == "shrinkage") & rej["zone"].notna()]
+    where = pd.Index(lots["lot"]).get_indexer(rej["lot"])
+    g = np.where(where >= 0, group_of_lot[np.maximum(where, 0)], -1)
+    rej = pd.DataFrame({"_g": g, "zone": rej["zone"].to_numpy(), "shrinkage_rejects": rej["quantity"].to_numpy()})
+    rej = rej[rej["_g"] >= 0].groupby(["_g", "zone"], as_index=False)["shrinkage_rejects"].sum()
+    del lots, group_of_lot
+
+    out = pd.DataFrame({
+        "_g": np.arange(len(groups)), "pattern": revs["pattern"].to_numpy()[groups["rev"]],
+        "revision": revs["revision"].to_numpy()[groups["rev"]], "pour_temp_dev_c": groups["_tbin"].to_numpy(),
+        "castings": groups["castings"].to_numpy(np.int64),
+        "poured_on": np.datetime_as_string(groups["day"].to_numpy("datetime64[D]"), unit="D")})
+    out = out.merge(design.drop(columns=["effective_from"]), on=["pattern", "revision"])
+    out = out.merge(rej, on=["_g", "zone"], how="left")
+    out["shrinkage_rejects"] = out["shrinkage_rejects"].fillna(0).astype(np.int64)
+    columns = ["pattern", "revision", "zone", "pour_temp_dev_c", "castings", "shrinkage_rejects", "poured_on",
+               "riser", "alloy", "sleeve_kind", "thickness_mm", "passes", "rule_set", "modulus_target"] + MARGIN_COLS
+    out = out.sort_values(["pattern", "revision", "zone", "pour_temp_dev_c"], kind="stable")
+    return out[columns].reset_index(drop=True)
 
 
 def design_map(store: Store, start: str | None = None, end: str | None = None, alloy=None,
