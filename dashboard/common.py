@@ -51,6 +51,7 @@ def _registry() -> dict:
         "weekly_review": review.weekly_review,
         "design_map": features.design_map,
         "suggest": advise.suggest,
+        "model_is_current": advise.model_is_current,
         "what_if": advise.what_if,
         **_thermal_registry(),
     }
@@ -98,13 +99,14 @@ def load(name: str, *args, status: str | None = None, **kwargs):
     """
     path = db_path()
     key = (path, views.db_version(path), name, args, tuple(sorted(kwargs.items())))
-    if status is None or key in _COMPUTED:
+    mark = repr(key)  # hashable where an argument is not (a dict)
+    if status is None or mark in _COMPUTED:
         return _cached(*key)
     box = st.empty()
     with box.status(status + " ...", expanded=False):
         result = _cached(*key)
     box.empty()
-    _COMPUTED.add(key)
+    _COMPUTED.add(mark)
     return result
 
 
