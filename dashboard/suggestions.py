@@ -16,7 +16,7 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
     # the page stays quick: the thermal check is in what-if below (and `pourback suggest --thermal`)
     status = "Pricing riser changes for the problem patterns"
     if not common.load("model_is_current"):
-        status = ("Fitting the reject model on the whole log (the stored one predates the newest pours), "
+        status = ("Fitting the reject model on the whole log (no stored fit covers the newest pours), "
                   "then " + status[0].lower() + status[1:])
     found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge,
                         thermal=False, status=status)

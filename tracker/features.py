@@ -47,13 +47,19 @@ def weakest_margins(assessed: pd.DataFrame, keys) -> pd.DataFrame:
     return out.reset_index()
 
 
-def zone_design(store: Store, pattern=None) -> pd.DataFrame:
-    """Per pattern, revision and zone: the weakest riser's assessed margins."""
+def zone_design(store: Store, pattern=None, risers: pd.DataFrame | None = None) -> pd.DataFrame:
+    """Per pattern, revision and zone: the weakest riser's assessed margins.
+
+    risers: ``store.risers_frame()`` (of every pattern, or of ``pattern``)
+    when the caller has it already; else it is fetched here.
+    """
     if pattern is not None and not isinstance(pattern, str) and len(pattern) == 1:
         pattern = list(pattern)[0]  # one pattern's risers fetched, not every pattern's (what-if)
-    risers = store.risers_frame(pattern=pattern if isinstance(pattern, str) else None)
-    if pattern is not None and not isinstance(pattern, str):
-        risers = risers[risers["pattern"].isin(list(pattern))].reset_index(drop=True)
+    if risers is None:
+        risers = store.risers_frame(pattern=pattern if isinstance(pattern, str) else None)
+    if pattern is not None:
+        risers = risers[risers["pattern"].isin([pattern] if isinstance(pattern, str) else list(pattern))]
+        risers = risers.reset_index(drop=True)
     if risers.empty:
         return pd.DataFrame(columns=["pattern", "revision", "effective_from", "zone", "riser", "alloy",
                                      "sleeve_kind", "thickness_mm", "passes", "rule_set",
@@ -67,8 +73,7 @@ def zone_design(store: Store, pattern=None) -> pd.DataFrame:
     return weakest_margins(a, keys).merge(rest, on=keys)
 
 
-def _lots_with_revision(store: Store, start, end, pattern) -> pd.DataFrame:
-    lots = store.lots_frame(start, end, pattern)
+def _lots_with_revision(store: Store, lots: pd.DataFrame) -> pd.DataFrame:
     revs = store.revisions_frame()
     if lots.empty or revs.empty:
         return lots.assign(revision=pd.Series(dtype=object))
@@ -80,23 +85,29 @@ def _lots_with_revision(store: Store, start, end, pattern) -> pd.DataFrame:
 
 
 def zone_lot_features(store: Store, start: str | None = None, end: str | None = None,
-                      pattern=None) -> pd.DataFrame:
+                      pattern=None, *, lots: pd.DataFrame | None = None, rejects: pd.DataFrame | None = None,
+                      risers: pd.DataFrame | None = None) -> pd.DataFrame:
     """One row per lot and riser zone, the model's feature table (FEATURE_COLUMNS).
 
     Lots poured before the pattern's first riser revision are left out (no
     design known). pour_temp_dev_c is the lot's pour temperature less the
-    pattern's median, °C.
+    pattern's median, °C. lots, rejects, risers: ``store.lots_frame(start,
+    end, pattern)``, ``store.rejects_by_lot(start, end, pattern)`` and
+    ``store.risers_frame()`` when the caller has them already (each is
+    fetched here otherwise).
     """
-    lots = _lots_with_revision(store, start, end, pattern)
+    if lots is None:
+        lots = store.lots_frame(start, end, pattern)
+    lots = _lots_with_revision(store, lots)
     lots = lots[lots["revision"].notna()] if "revision" in lots else lots.iloc[0:0]
-    design = zone_design(store, pattern)  # one pattern's risers only, when one is asked for
+    design = zone_design(store, pattern, risers)  # one pattern's risers only, when one is asked for
     if lots.empty or design.empty:
         return pd.DataFrame(columns=FEATURE_COLUMNS)
     temp = lots["pour_temp_c"].astype(float)
     lots = lots.assign(pour_temp_dev_c=temp - temp.groupby(lots["pattern"]).transform("median"))
     rows = lots[["lot", "pattern", "revision", "poured_on", "castings", "pour_temp_dev_c"]].merge(
         design.drop(columns=["effective_from"]), on=["pattern", "revision"])
-    rej = store.rejects_by_lot(start, end, pattern)
+    rej = store.rejects_by_lot(start, end, pattern) if rejects is None else rejects
     rej = rej[(rej["result"] == "reject") & (rej["defect"] == "shrinkage") & rej["zone"].notna()]
     rej = rej.groupby(["lot", "zone"], as_index=False)["quantity"].sum().rename(
         columns={"quantity": "shrinkage_rejects"})
