@@ -15,7 +15,7 @@ import pandas as pd
 
 from tracker.assess import assess_frame
 from tracker.stats import wilson_interval
-from tracker.store import TABLE_COLUMNS, Store
+from tracker.store import Store
 
 MARGIN_COLS = ["modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "freezing_ratio"]
 FEATURE_COLUMNS = [
@@ -137,22 +137,20 @@ def aggregate_for_fit(features: pd.DataFrame, temp_bin_c: float = 5.0) -> pd.Dat
 
 
 def _lot_arrays(store: Store, patterns: list[str]) -> dict[str, np.ndarray]:
-    """Every lot as compact columns, read ``size`` rows at a time (never the whole
-    table as Python rows): ``lot`` (codes, object), ``pattern`` (index into
-    ``patterns``), ``day`` (datetime64[D] of the pour), ``molds`` and
-    ``pour_temp_c`` (NaN where unknown)."""
-    cols = [c for c in TABLE_COLUMNS["lots"] if c != "id"]
-    at = {c: cols.index(c) for c in ("lot", "pattern", "poured_on", "molds", "pour_temp_c")}
-    parts: dict[str, list] = {k: [] for k in ("lot", "pattern", "day", "molds", "pour_temp_c")}
-    for batch in store.iter_rows("lots"):
-        col = list(zip(*batch))
-        parts["lot"].append(np.array(col[at["lot"]], dtype=object))
-        parts["pattern"].append(pd.Categorical(col[at["pattern"]], categories=patterns).codes.astype(np.int32))
-        parts["day"].append(np.array(col[at["poured_on"]], dtype="datetime64[D]"))
-        parts["molds"].append(np.array(col[at["molds"]], dtype=np.int64))
-        parts["pour_temp_c"].append(np.array(col[at["pour_temp_c"]], dtype=float))  # None -> NaN
-        del batch, col
-    empty = {"lot": object, "pattern": np.int32, "day": "datetime64[D]", "molds": np.int64, "pour_temp_c": float}
+    """Every lot as compact columns (``Store.lot_batches``, never the whole table
+    as Python rows): ``lot`` (codes, object), ``pattern`` (index into
+    ``patterns``, -1 for another), ``day`` (datetime64[D] of the pour),
+    ``castings`` and ``pour_temp_c`` (NaN where unknown)."""
+    parts: dict[str, list] = {k: [] for k in ("lot", "pattern", "day", "castings", "pour_temp_c")}
+    for batch in store.lot_batches():
+        lot, pattern, day, castings, temp = zip(*batch)
+        del batch
+        parts["lot"].append(np.array(lot, dtype=object))
+        parts["pattern"].append(pd.Categorical(pattern, categories=patterns).codes.astype(np.int64))
+        parts["day"].append(np.array(day, dtype="datetime64[D]"))
+        parts["castings"].append(np.array(castings, dtype=np.int64))
+        parts["pour_temp_c"].append(np.array(temp, dtype=float))  # None -> NaN
+    empty = {"lot": object, "pattern": np.int64, "day": "datetime64[D]", "castings": np.int64, "pour_temp_c": float}
     return {k: np.concatenate(v) if v else np.array([], dtype=empty[k]) for k, v in parts.items()}
 
 
@@ -168,11 +166,9 @@ def fit_table(store: Store, temp_bin_c: float = 5.0) -> pd.DataFrame:
     """
     design = zone_design(store)
     revs = store.revisions_frame()
-    pats = store.table("patterns")
-    if design.empty or revs.empty or pats.empty:
+    if design.empty or revs.empty:
         return aggregate_for_fit(pd.DataFrame(columns=FEATURE_COLUMNS))
-    codes = pats["pattern"].tolist()
-    per_mold = pats["castings_per_mold"].to_numpy(dtype=np.int64)
+    codes = sorted(set(revs["pattern"]))  # a lot of any other pattern has no design
     lots = _lot_arrays(store, codes)
 
     # the revision in effect on each lot's pour date: the last of its pattern's from that day or before
@@ -181,7 +177,7 @@ def fit_table(store: Store, temp_bin_c: float = 5.0) -> pd.DataFrame:
     key = lambda p, d: (p << 32) + (d + (1 << 31))  # noqa: E731 (pattern, day) in one sortable number
     order = np.argsort(key(r_pat, r_day), kind="stable")
     r_key = key(r_pat, r_day)[order]
-    l_pat = lots["pattern"].astype(np.int64)
+    l_pat = lots["pattern"]
     at = np.searchsorted(r_key, key(l_pat, lots["day"].astype(np.int64)), side="right") - 1
     found = at >= 0
     found[found] = r_pat[order][at[found]] == l_pat[found]
@@ -192,8 +188,8 @@ def fit_table(store: Store, temp_bin_c: float = 5.0) -> pd.DataFrame:
     temp = pd.Series(lots["pour_temp_c"][keep])
     dev = (temp - temp.groupby(l_pat[keep]).transform("median")).to_numpy()
     tbin = np.round(np.nan_to_num(dev, nan=0.0) / temp_bin_c) * temp_bin_c
-    kept = pd.DataFrame({"rev": rev[keep], "_tbin": tbin,
-                         "castings": lots["molds"][keep] * per_mold[l_pat[keep]], "day": lots["day"][keep]})
+    kept = pd.DataFrame({"rev": rev[keep], "_tbin": tbin, "castings": lots["castings"][keep],
+                         "day": lots["day"][keep]})
     grouped = kept.groupby(["rev", "_tbin"], sort=False)
     group_of_lot = np.full(len(rev), -1, dtype=np.int64)
     group_of_lot[keep] = grouped.ngroup().to_numpy()
