@@ -193,3 +193,81 @@ def default_step_mm(system: str) -> float:
     """The shop's diameter step for rounding a riser up: 10 mm in metric
     (common practice), 1/2 in = 12.7 mm in US shops (common practice)."""
     return 0.5 * MM_PER_IN if system == US else 10.0
+
+
+# Decimals a value shows by default, per kind and system: a few tenths of a
+# millimetre matter nowhere in a riser, a hundredth of an inch is about 0.25 mm.
+_DIGITS = {
+    ("length_mm", METRIC): 0, ("length_mm", US): 2,
+    ("length_cm", METRIC): 2, ("length_cm", US): 2,
+    ("area_cm2", METRIC): 0, ("area_cm2", US): 1,
+    ("volume_cm3", METRIC): 0, ("volume_cm3", US): 1,
+    ("mass_kg", METRIC): 2, ("mass_kg", US): 2,
+    ("per_kg", METRIC): 2, ("per_kg", US): 2,
+    ("temp_c", METRIC): 0, ("temp_c", US): 0,
+    ("temp_diff_k", METRIC): 0, ("temp_diff_k", US): 0,
+    ("temp_diff_c", METRIC): 0, ("temp_diff_c", US): 0,
+}
+
+
+def _kind(metric_name_or_kind: str) -> Kind:
+    kind = KINDS.get(metric_name_or_kind) or kind_of(metric_name_or_kind)
+    if kind is None:
+        raise KeyError(f"{metric_name_or_kind} carries no unit")
+    return kind
+
+
+def value_in(metric_name_or_kind: str, value, system: str):
+    """A metric value of a named quantity or a kind (``"length_mm"``) in ``system``."""
+    if value is None or system != US:
+        return value
+    return _kind(metric_name_or_kind).to_us(value)
+
+
+def value_from(metric_name_or_kind: str, value, system: str):
+    """A value typed in ``system`` for a named quantity or a kind, in metric."""
+    if value is None or system != US:
+        return value
+    return _kind(metric_name_or_kind).to_metric(value)
+
+
+def number(metric_name_or_kind: str, value, system: str, digits: int | None = None) -> str:
+    """A metric value as text in ``system``, without its unit: ``number("diameter_mm",
+    127.0, "us") == "5.00"``; ``digits`` decimals (default: the kind's usual)."""
+    kind = _kind(metric_name_or_kind)
+    if digits is None:
+        digits = _DIGITS[(kind.name, system if system == US else METRIC)]
+    return f"{value_in(kind.name, float(value), system):,.{digits}f}"
+
+
+def show(metric_name_or_kind: str, value, system: str, digits: int | None = None) -> str:
+    """A metric value as text in ``system`` with its unit: ``show("diameter_mm",
+    127.0, "us") == "5.00 in"``, ``show("pour_temp_c", 1600, "us") == "2,912 °F"``."""
+    kind = _kind(metric_name_or_kind)
+    sep = "" if kind.symbol(system).startswith("°") else " "
+    return f"{number(kind.name, value, system, digits)}{sep}{kind.symbol(system)}"
+
+
+def label(text: str, metric_name_or_kind: str, system: str) -> str:
+    """A heading naming its unit: ``label("Riser diameter", "diameter_mm", "us")
+    == "Riser diameter (in)"``."""
+    return f"{text} ({symbol(metric_name_or_kind, system)})"
+
+
+def option_name(metric_name: str, system: str) -> str:
+    """The command-line option of a metric quantity in ``system``:
+    ``option_name("volume_cm3", "us") == "--volume-in3"``."""
+    return "--" + column_name(metric_name, system).replace("_", "-")
+
+
+def round_up(metric_name: str, value, step, system: str) -> float:
+    """A metric value rounded up to a step given in ``system``'s unit (a shop's
+    diameter step: 10 mm, or 1/2 in = 12.7 mm on the inch grid); metric out."""
+    import math
+
+    if not (step > 0):
+        raise BadInput(column_name("step" + _kind(metric_name).metric_suffix, system), step,
+                       "the diameter step must be above 0 (for example "
+                       + ("1/2 in: 0.5)" if system == US else "10 mm)"))
+    shown = value_in(metric_name, float(value), system)
+    return value_from(metric_name, math.ceil(shown / step - 1e-9) * step, system)
