@@ -281,3 +281,63 @@ def test_a_pour_temperature_in_fahrenheit(tmp_path):
         import_dir(s, tmp_path / "good")
         temps = s.table("lots").set_index("lot")["pour_temp_c"]
     assert temps["L1"] == pytest.approx(1600.0, abs=1e-9)
+
+
+# --- no metric unit label left in --units us output ----------------------------------------
+
+import re  # noqa: E402
+
+# A metric unit as a label, a suffix or an option: mm, cm, cm², cm³, kg, °C, "per kg"
+# (SI brochure, 9th edition, table 2 and 4 spellings; "per kg" is the trade's money per mass).
+METRIC_LABEL = re.compile(r"\bmm\b|\bcm\b|cm²|cm³|\bkg\b|°C|per kg|_mm\b|_cm\b|_cm2\b|_cm3\b|_kg\b|_per_kg\b")
+
+
+def _visible(text: str) -> str:
+    """The text a person reads: an HTML page without its style sheet and tags."""
+    text = re.sub(r"<style.*?</style>", " ", text, flags=re.S)
+    return re.sub(r"<[^>]+>", " ", text)
+
+
+@pytest.fixture
+def us_log(demo_db, tmp_path, runner):
+    db = tmp_path / "us.db"
+    shutil.copyfile(demo_db, db)
+    res = runner.invoke(main, ["settings", "--db", str(db), "--units", "us"])
+    assert res.exit_code == 0, res.output
+    return db
+
+
+US_COMMANDS = [
+    ["size", "--alloy", "steel", "--volume-in3", "122", "--area-in2", "170", "--thickness-in", "2.5",
+     "--step-in", "0.5"],
+    ["size", "--alloy", "ductile_iron", "--volume-in3", "500", "--area-in2", "150", "--mould", "rigid"],
+    ["size", "--pattern", "P-1004", "--zone", "body"],
+    ["check"],
+    ["suggest", "--no-thermal"],
+    ["what-if", "--pattern", "P-1017", "--riser", "R3", "--diameter-in", "5"],
+    ["patterns"],
+    ["review"],
+    ["review", "--format", "md"],
+    ["review", "--format", "html"],
+    ["review", "--format", "csv"],
+]
+
+
+@pytest.mark.parametrize("args", US_COMMANDS, ids=lambda a: " ".join(a[:3]))
+@pytest.mark.parametrize("as_json", [False, True], ids=["text", "json"])
+def test_no_metric_unit_label_in_us_output(us_log, runner, args, as_json):
+    if as_json and args[0] == "review" and len(args) > 1:
+        pytest.skip("review takes --json or a --format")
+    res = runner.invoke(main, [*args, "--db", str(us_log)] + (["--json"] if as_json else []))
+    assert res.exit_code == 0, res.output
+    found = sorted({m.group(0) for m in METRIC_LABEL.finditer(_visible(res.output))})
+    assert found == [], (found, res.output[:3000])
+    if not as_json:
+        # and the customary ones are there (a length or a weight, at least)
+        assert re.search(r"\bin\b|_in\b|\(in\)|\blb\b|_lb\b|\(lb\)", res.output)
+
+
+def test_metric_override_on_a_us_log(us_log, runner):
+    res = runner.invoke(main, ["check", "--db", str(us_log), "--units", "metric"])
+    assert res.exit_code == 0, res.output
+    assert "D (mm)" in res.output and "D (in)" not in res.output

@@ -26,8 +26,14 @@ RULES = ("caine", "modulus", "feed_volume")
 RULE_SET_SOURCES = {
     "modulus_sequence": "modulus rule and neck sequence 1 : 1.1 : 1.2 (Wlodawer, 1966; common practice)",
     "pressure_control": ("pressure control (Karsay's ductile-iron risering, from memory): neck modulus "
-                         "0.5-0.8 x the section's, riser 1.2 x the neck's, riserless from 2.5 cm in rigid moulds"),
+                         "0.5-0.8 x the section's, riser 1.2 x the neck's, riserless from {riserless} in rigid moulds"),
 }
+
+
+def rule_set_source(rule_set: str, system: str = units.METRIC) -> str:
+    """Where a rule set's figures come from, its lengths worded in ``system``."""
+    return RULE_SET_SOURCES[rule_set].format(
+        riserless=units.say("length_cm", rules.PC_RISERLESS_MODULUS_CM, system, "g"))
 # A sleeved riser feeds with more of its volume than a bare one. Where neither
 # the efficiency nor a catalogue sleeve is given, a sleeved riser takes the low
 # end of the insulating-sleeve range 25-35 % (DOMAIN.md, from memory): the safe
@@ -453,7 +459,7 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
         neck_modulus_cm=None if np.isnan(neck) else neck / 40.0,
         riser_needed=needed, thickness_mm=thickness_mm, width_mm=width_mm, section_shape=shape,
         feeding_distance_mm=fd, feeding_length_mm=length_mm, feeding_distance_ok=fd_ok,
-        source="; ".join(x for x in (alloy.source, alloy.liquid_source, RULE_SET_SOURCES[alloy.rule_set]) if x),
+        source="; ".join(x for x in (alloy.source, alloy.liquid_source, rule_set_source(alloy.rule_set, system)) if x),
         warnings=(warn,) if warn else (), notes=tuple(notes),
     )
 

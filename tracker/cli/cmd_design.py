@@ -211,10 +211,11 @@ def _format_size(d: dict, system: str = units.METRIC) -> str:
               help="Modulus rule factor: M_riser >= factor x M_section.")
 @click.option("--thermal", is_flag=True,
               help="Add the thermal check per riser (a solidification solve each): thermal_ok, last_to_freeze.")
+@units_option
 @db_option
 @json_option
 @handle_errors
-def check(pattern, on_date, modulus_factor, thermal, db_path, as_json):
+def check(pattern, on_date, modulus_factor, thermal, units_override, db_path, as_json):
     """Judge every riser of the current revision by the rules.
 
     For each riser: modulus ratio against the factor, Caine margin, feed
@@ -227,11 +228,13 @@ def check(pattern, on_date, modulus_factor, thermal, db_path, as_json):
     from tracker.assess import check as run_check
 
     with open_store(db_path) as store:
-        frame = run_check(store, pattern=pattern, on=on_date, modulus_factor=modulus_factor)
+        system = resolve_units(store, units_override)
+        frame = run_check(store, pattern=pattern, on=on_date, modulus_factor=modulus_factor, system=system)
         if thermal:
             from tracker.thermal.checks import thermal_columns
 
             frame = thermal_columns(store, frame)
+    frame = units.convert_frame(frame, system)
     rows = frame.astype(object).where(frame.notna(), None).to_dict("records")
     for r in rows:
         for k in ("caine_ok", "neck_ok", "feeding_distance_ok"):
@@ -242,7 +245,8 @@ def check(pattern, on_date, modulus_factor, thermal, db_path, as_json):
     shown = [{**r, "rule_set": (r["rule_set"] or "").replace("_", " ")} for r in rows]
     click.echo(table(shown, [
         ("pattern", "pattern"), ("revision", "rev"), ("riser", "riser"), ("zone", "zone"),
-        ("diameter_mm", "D (mm)"), ("sleeve", "sleeve"), ("modulus_ratio", "M ratio"),
+        (units.column_name("diameter_mm", system), f"D ({units.symbol('diameter_mm', system)})"),
+        ("sleeve", "sleeve"), ("modulus_ratio", "M ratio"),
         ("caine_margin", "Caine margin"), ("feed_margin", "feed margin"), ("rule_set", "rule set"),
         ("passes", "passes"), ("failed_rules_text", "fails")]
         + ([("thermal_ok", "thermal ok"), ("last_to_freeze", "last to freeze")] if thermal else [])))
@@ -252,10 +256,11 @@ def check(pattern, on_date, modulus_factor, thermal, db_path, as_json):
 
 
 @main.command()
+@units_option
 @db_option
 @json_option
 @handle_errors
-def patterns(db_path, as_json):
+def patterns(units_override, db_path, as_json):
     """List the patterns in the log with their alloy, weight and current riser revision.
 
     Example:
@@ -267,13 +272,16 @@ def patterns(db_path, as_json):
     from tracker.assess import revision_in_effect
 
     with open_store(db_path) as store:
+        system = resolve_units(store, units_override)
         frame = store.table("patterns")
         current = revision_in_effect(store.revisions_frame(), dt.date.today().isoformat())
+    frame = units.convert_frame(frame, system)
     rows = frame.astype(object).where(frame.notna(), None).to_dict("records")
     rev = {r.pattern: (r.revision, r.effective_from) for r in current.itertuples()}
     for r in rows:
         r["revision"], r["effective_from"] = rev.get(r["pattern"], (None, None))
     emit(rows, as_json, lambda rs: table(rs, [
         ("pattern", "pattern"), ("description", "description"), ("alloy", "alloy"),
-        ("casting_weight_kg", "casting (kg)"), ("castings_per_mold", "per mould"), ("mould", "mould"),
+        (units.column_name("casting_weight_kg", system), f"casting ({units.symbol('casting_weight_kg', system)})"),
+        ("castings_per_mold", "per mould"), ("mould", "mould"),
         ("revision", "riser revision"), ("effective_from", "since")]))
