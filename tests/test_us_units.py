@@ -341,3 +341,23 @@ def test_metric_override_on_a_us_log(us_log, runner):
     res = runner.invoke(main, ["check", "--db", str(us_log), "--units", "metric"])
     assert res.exit_code == 0, res.output
     assert "D (mm)" in res.output and "D (in)" not in res.output
+
+
+# --- a rule published in inches: the bar feeding distance --------------------------------
+
+@pytest.mark.parametrize("t_in,want_in", [(4.0, 12.0), (2.25, 9.0), (9.0, 18.0)])
+def test_bar_feeding_distance_from_its_published_form(runner, t_in, want_in):
+    # Bishop-Pellini, square steel bar to a free end: 6 sqrt(T) inches, T in inches
+    # (from memory, DOMAIN.md "Feeding distance, plates and bars"): 4 in -> 12 in,
+    # 2.25 in -> 9 in, 9 in -> 18 in (below the plate's 4.5 T each time)
+    assert want_in == pytest.approx(6 * math.sqrt(t_in)) and want_in < 4.5 * t_in
+    us = _size(runner, "--units", "us", "--alloy", "steel", "--volume-in3", "100", "--area-in2", "200",
+               "--thickness-in", str(t_in), "--width-in", str(t_in), "--length-in", str(want_in))
+    assert us["section_shape"] == "bar"
+    assert us["feeding_distance_in"] == pytest.approx(want_in, rel=1e-12)
+    assert us["feeding_distance_ok"] is True
+    # the same bar in mm (pint: T in mm) reaches the same distance in mm
+    metric = _size(runner, "--alloy", "steel", "--volume-cm3", repr(q(100, "inch**3", "cm**3")),
+                   "--area-cm2", repr(q(200, "inch**2", "cm**2")), "--thickness-mm", repr(q(t_in, "inch", "mm")),
+                   "--width-mm", repr(q(t_in, "inch", "mm")))
+    assert metric["feeding_distance_mm"] == pytest.approx(q(want_in, "inch", "mm"), rel=1e-12)

@@ -164,7 +164,7 @@ def _format_size(d: dict, system: str = units.METRIC) -> str:
         ("Freezing time, riser / section", f"{d['freezing_time_ratio']:.2f}"),
     ]
     if v("neck_diameter_mm") is not None:
-        rows.append((f"Neck diameter ({u('neck_diameter_mm')}), round",
+        rows.append((f"Neck diameter ({u('neck_diameter_mm')})" + (", round" if system != units.US else ""),
                      f"{f('neck_diameter_mm')} (modulus {f('neck_modulus_cm')} {u('neck_modulus_cm')})"))
     if v("pour_temp_c") is not None:
         rows.append(("Liquid contraction",
