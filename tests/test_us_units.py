@@ -361,3 +361,50 @@ def test_bar_feeding_distance_from_its_published_form(runner, t_in, want_in):
                    "--area-cm2", repr(q(200, "inch**2", "cm**2")), "--thickness-mm", repr(q(t_in, "inch", "mm")),
                    "--width-mm", repr(q(t_in, "inch", "mm")))
     assert metric["feeding_distance_mm"] == pytest.approx(q(want_in, "inch", "mm"), rel=1e-12)
+
+
+# --- the one resolver ------------------------------------------------------------------
+
+def test_resolve_units_override_then_log_then_metric(mem_store):
+    from tracker.errors import BadInput
+    from tracker.settings import resolve_units, set_units
+
+    # common practice: a command's own option wins over the log's setting
+    assert resolve_units(None, None) == "metric"
+    assert resolve_units(mem_store, None) == "metric"
+    set_units(mem_store, "us")
+    assert resolve_units(mem_store, None) == "us"
+    assert resolve_units(mem_store, "Metric") == "metric"
+    assert resolve_units(None, "us") == "us"
+    with pytest.raises(BadInput):
+        resolve_units(mem_store, "imperial")
+
+
+def test_suggest_in_us_steps_on_the_inch_grid(us_log, runner):
+    res = runner.invoke(main, ["suggest", "--no-thermal", "--db", str(us_log), "--json"])
+    assert res.exit_code == 0, res.output
+    enlarged = [r for r in json.loads(res.output) if r["action"] == "enlarge"]
+    assert enlarged
+    for r in enlarged:
+        # a 1/2 in step (common practice in US shops): whole multiples of 0.5 in
+        assert r["suggested_diameter_in"] / 0.5 == pytest.approx(round(r["suggested_diameter_in"] / 0.5), abs=1e-9)
+        # the same riser in mm by pint's inch
+        assert q(r["suggested_diameter_in"], "inch", "mm") == pytest.approx(
+            round(r["suggested_diameter_in"] / 0.5) * 12.7, abs=1e-9)
+
+
+def test_what_if_takes_inches_and_refuses_mm_in_us(us_log, runner):
+    res = runner.invoke(main, ["what-if", "--db", str(us_log), "--pattern", "P-1017", "--riser", "R3",
+                               "--diameter-mm", "140"])
+    assert res.exit_code == 2
+    assert "--diameter-mm is in metric units (mm)" in res.output and "--diameter-in" in res.output
+    us = runner.invoke(main, ["what-if", "--db", str(us_log), "--pattern", "P-1017", "--riser", "R3",
+                              "--diameter-in", "5.5", "--json"])
+    metric = runner.invoke(main, ["what-if", "--db", str(us_log), "--units", "metric", "--pattern", "P-1017",
+                                  "--riser", "R3", "--diameter-mm", repr(q(5.5, "inch", "mm")), "--json"])
+    a, b = json.loads(us.output), json.loads(metric.output)
+    # 5.5 in is 139.7 mm (pint): the same riser judged alike in both systems
+    assert b["diameter_mm"] == pytest.approx(139.7)
+    assert a["diameter_in"] == pytest.approx(5.5)
+    assert a["modulus_ratio"] == pytest.approx(b["modulus_ratio"], rel=1e-12)
+    assert a["added_metal_lb_per_mold"] == pytest.approx(q(b["added_metal_kg_per_mold"], "kg", "lb"), rel=1e-9)
