@@ -79,8 +79,9 @@ def size(alloy, pattern, zone, placement, h_over_d, sleeve_code, sleeve_factor, 
 
     uses_log = pattern is not None or sleeve_code is not None
     with contextlib.ExitStack() as stack:
-        store = (stack.enter_context(open_store(db_path))
-                 if uses_log or (units_override is None and _log_exists(db_path)) else None)
+        # the log is read for its unit system where it is there; a missing one is an
+        # error only where the command needs it (after the checks of the options)
+        store = stack.enter_context(open_store(db_path)) if _log_exists(db_path) else None
         system = resolve_units(store, units_override)
         m = take_measures(system, measures, *SIZE_MEASURES)
         opt = {k: units.option_name(k, system) for k in SIZE_MEASURES}
@@ -97,6 +98,8 @@ def size(alloy, pattern, zone, placement, h_over_d, sleeve_code, sleeve_factor, 
                     modulus_factor=modulus_factor, efficiency=efficiency, shrinkage=shrinkage,
                     mould=mould, pour_temp_c=m["pour_temp_c"], thickness_mm=m["thickness_mm"],
                     width_mm=m["width_mm"], length_mm=m["length_mm"], system=system)
+        if uses_log and store is None:
+            store = stack.enter_context(open_store(db_path))  # says there is no log
         if sleeve_code is not None:
             opts["sleeve"] = store.sleeve(sleeve_code)
         if pattern is not None:

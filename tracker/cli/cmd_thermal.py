@@ -58,11 +58,10 @@ def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould
     from tracker.thermal.cases import case_from_log
     from tracker.thermal.model import ThermalCase
 
-    uses_log = pattern is not None or zone is not None or sleeve
-    if uses_log or (units_override is None and _log_exists(db_path)):
+    if units_override is None and _log_exists(db_path):
         with open_store(db_path) as store:
             system = resolve_units(store, units_override)
-    else:
+    else:  # a missing log is an error only where the command needs it
         system = resolve_units(None, units_override)
     names = ("length_mm", "width_mm", "thickness_mm", "diameter_mm", "height_mm", "neck_diameter_mm", "pour_temp_c")
     m = take_measures(system, measures, *names)
