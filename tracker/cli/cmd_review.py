@@ -6,8 +6,8 @@ import pathlib
 
 import click
 
-from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, plant_option, show_progress,
-                          target_option, week_option, weeks_option)
+from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, plant_option, resolve_units,
+                          show_progress, target_option, units_option, week_option, weeks_option)
 from tracker.report import FORMATS
 
 
@@ -24,9 +24,10 @@ from tracker.report import FORMATS
 @click.option("--compare-plants", is_flag=True,
               help="Compare the plants side by side for one alloy (give --alloy) instead of the review.")
 @click.option("--alloy", default=None, help="The alloy to compare plants on (with --compare-plants).")
+@units_option
 @db_option
 @handle_errors
-def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, alloy, db_path):
+def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, alloy, units_override, db_path):
     """Weekly scrap review: scrap by pattern and defect, trend, control, riser revisions.
 
     Figures cover the review week and the weeks before it; problem patterns
@@ -48,16 +49,17 @@ def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, a
     fmt = "json" if as_json else (fmt or "table")
 
     from tracker.report import render, render_plants
-    from tracker.review import compare_plants as compare, weekly_review
+    from tracker.review import compare_plants as compare, in_system, weekly_review
 
     with Steps(show_progress(fmt == "json")) as steps:
         with open_store(db_path) as store:
+            system = resolve_units(store, units_override)
             if compare_plants:
                 steps.step(f"Comparing the plants for {alloy}")
                 data = compare(store, alloy, week=week, weeks=weeks, target=target)
             else:
                 steps.step(f"Reviewing {week or 'the latest week'} ({weeks} weeks)")
-                data = weekly_review(store, week=week, weeks=weeks, target=target, plant=plant)
+                data = in_system(weekly_review(store, week=week, weeks=weeks, target=target, plant=plant), system)
         steps.step(f"Writing the {fmt} review")
         text = render_plants(data, fmt) if compare_plants else render(data, fmt)
     if out_path:
