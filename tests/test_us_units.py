@@ -299,9 +299,13 @@ def _visible(text: str) -> str:
 
 
 @pytest.fixture
-def us_log(demo_db, tmp_path, runner):
-    db = tmp_path / "us.db"
-    shutil.copyfile(demo_db, db)
+def us_log(demo_db, session_logs, tmp_path, runner):
+    """A private copy of the demo log (on the backend under test) set to US units."""
+    if session_logs.backend == "sqlite":
+        db = tmp_path / "us.db"
+        shutil.copyfile(demo_db, db)
+    else:
+        db = session_logs.copy(demo_db, "us")
     res = runner.invoke(main, ["settings", "--db", str(db), "--units", "us"])
     assert res.exit_code == 0, res.output
     return db

@@ -119,13 +119,14 @@ def size(alloy, pattern, zone, placement, h_over_d, sleeve_code, sleeve_factor, 
 
 
 def _log_exists(db_path) -> bool:
-    """A log file is there to read the unit system from (size needs no log)."""
+    """A log is there to read the unit system from (size needs no log): a file
+    that exists, or a server's URL (a missing log there is named when opened)."""
     import pathlib
 
-    from tracker.store import resolve_path
+    from tracker.store import is_url, resolve_path
 
     path = resolve_path(db_path)
-    return path != ":memory:" and pathlib.Path(path).is_file()
+    return is_url(path) or (path != ":memory:" and pathlib.Path(path).is_file())
 
 
 # Decimals per quantity shown by size: (metric, us)
