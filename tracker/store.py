@@ -30,7 +30,7 @@ from tracker.errors import (DiskFull, LogError, LogLocked, LogNotFound, LogReadO
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 7
+SCHEMA_VERSION = 8
 BUSY_TIMEOUT_MS = 30_000
 NOTICE_AFTER_MS = 1_000  # say that a write waits for another writer after this long
 
@@ -236,8 +236,138 @@ def _migration_7(db: sqlite_utils.Database) -> None:
     db.execute("CREATE INDEX lots_lot_lower ON lots(lower(lot))")
 
 
+# --- running totals per pattern and pour day -----------------------------------------
+# What judging a riser revision reads: the lots, castings, castings inspected, rejects and
+# shrinkage rejects of one pattern over a span of pour days, which for a revision still
+# without a verdict runs back years. ``day_totals`` holds, per pattern and pour day, the
+# totals of the pattern's lots poured up to and including that day (a span is the
+# difference of two rows); ``zone_totals`` the same for shrinkage rejects per zone named
+# on the record. Both are derived from lots and current inspection records only, and are
+# brought up to date in the transaction of every write of lots or records (see
+# ``Store.write``): the days from the earliest one a write touched are recomputed from the
+# lots and records, so corrections, voids and late records count as the review counts
+# them. Counting rules as in ``pours_by_day`` and ``rejects_by_day``: a lot is inspected
+# when it holds a current record; rejects are current records with result "reject".
+
+_CURRENT = "i.void = 0 AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
+EARLIEST_DAY = "0001-01-01"
+TOTALS_ONE_BY_ONE = 200  # up to this many patterns touched, each is recomputed on its own
+
+
+def _day_totals_sql(one_pattern: bool) -> str:
+    """The statement recomputing ``day_totals`` from a day on (its rows from that day
+    deleted beforehand): of one pattern (parameters: pattern, day, pattern, day, day,
+    pattern) or of every pattern (day, day, day)."""
+    lots = "l.pattern = ? AND l.poured_on >= ?" if one_pattern else "l.poured_on >= ?"
+    base = "p.pattern = ?" if one_pattern else "1 = 1"
+    return f"""
+        WITH d AS (
+            SELECT pattern, poured_on, SUM(lots) AS lots, SUM(molds) AS molds,
+                SUM(inspected_molds) AS inspected_molds, SUM(rejected) AS rejected,
+                SUM(shrinkage) AS shrinkage, SUM(zoned_shrinkage) AS zoned_shrinkage
+            FROM (
+                SELECT l.pattern, l.poured_on, COUNT(*) AS lots, SUM(l.molds) AS molds,
+                    SUM(CASE WHEN EXISTS (SELECT 1 FROM inspections i WHERE i.lot = l.lot AND {_CURRENT})
+                        THEN l.molds ELSE 0 END) AS inspected_molds,
+                    0 AS rejected, 0 AS shrinkage, 0 AS zoned_shrinkage
+                FROM lots l WHERE {lots} GROUP BY l.pattern, l.poured_on
+                UNION ALL
+                SELECT l.pattern, l.poured_on, 0, 0, 0, SUM(i.quantity),
+                    SUM(CASE WHEN i.defect = 'shrinkage' THEN i.quantity ELSE 0 END),
+                    SUM(CASE WHEN i.defect = 'shrinkage' AND i.zone IS NOT NULL THEN i.quantity ELSE 0 END)
+                FROM lots l JOIN inspections i ON i.lot = l.lot
+                WHERE {lots} AND i.result = 'reject' AND {_CURRENT}
+                GROUP BY l.pattern, l.poured_on
+            ) u GROUP BY pattern, poured_on
+        ), base_day AS (
+            SELECT p.pattern, (SELECT MAX(x.poured_on) FROM day_totals x
+                               WHERE x.pattern = p.pattern AND x.poured_on < ?) AS poured_on
+            FROM patterns p WHERE {base}
+        ), b AS (
+            SELECT t.* FROM base_day JOIN day_totals t
+            ON t.pattern = base_day.pattern AND t.poured_on = base_day.poured_on
+        )
+        INSERT INTO day_totals (pattern, poured_on, lots, molds, inspected_molds, rejected, shrinkage,
+                                zoned_shrinkage)
+        SELECT d.pattern, d.poured_on, COALESCE(b.lots, 0) + SUM(d.lots) OVER w,
+            COALESCE(b.molds, 0) + SUM(d.molds) OVER w,
+            COALESCE(b.inspected_molds, 0) + SUM(d.inspected_molds) OVER w,
+            COALESCE(b.rejected, 0) + SUM(d.rejected) OVER w,
+            COALESCE(b.shrinkage, 0) + SUM(d.shrinkage) OVER w,
+            COALESCE(b.zoned_shrinkage, 0) + SUM(d.zoned_shrinkage) OVER w
+        FROM d LEFT JOIN b ON b.pattern = d.pattern
+        WINDOW w AS (PARTITION BY d.pattern ORDER BY d.poured_on)"""
+
+
+def _zone_totals_sql(one_pattern: bool) -> str:
+    """As :func:`_day_totals_sql`, for ``zone_totals`` (parameters: pattern, day, day;
+    or day, day)."""
+    lots = "l.pattern = ? AND l.poured_on >= ?" if one_pattern else "l.poured_on >= ?"
+    return f"""
+        WITH z AS (
+            SELECT l.pattern, i.zone, l.poured_on, SUM(i.quantity) AS shrinkage
+            FROM lots l JOIN inspections i ON i.lot = l.lot
+            WHERE {lots} AND i.result = 'reject' AND i.defect = 'shrinkage' AND i.zone IS NOT NULL
+            AND {_CURRENT} GROUP BY l.pattern, i.zone, l.poured_on
+        ), base_day AS (
+            SELECT k.pattern, k.zone, (SELECT MAX(x.poured_on) FROM zone_totals x WHERE x.pattern = k.pattern
+                                       AND x.zone = k.zone AND x.poured_on < ?) AS poured_on
+            FROM (SELECT DISTINCT pattern, zone FROM z) k
+        ), b AS (
+            SELECT t.* FROM base_day JOIN zone_totals t ON t.pattern = base_day.pattern
+            AND t.zone = base_day.zone AND t.poured_on = base_day.poured_on
+        )
+        INSERT INTO zone_totals (pattern, zone, poured_on, shrinkage)
+        SELECT z.pattern, z.zone, z.poured_on,
+            COALESCE(b.shrinkage, 0)
+            + SUM(z.shrinkage) OVER (PARTITION BY z.pattern, z.zone ORDER BY z.poured_on)
+        FROM z LEFT JOIN b ON b.pattern = z.pattern AND b.zone = z.zone"""
+
+
+def _totals_from(execute, day: str) -> None:
+    """Recompute ``day_totals`` and ``zone_totals`` of every pattern from ``day`` (ISO date) on."""
+    for table, sql, params in (("day_totals", _day_totals_sql(False), (day, day, day)),
+                               ("zone_totals", _zone_totals_sql(False), (day, day))):
+        execute(f"DELETE FROM {table} WHERE poured_on >= ?", (day,))
+        execute(sql, params)
+
+
+def _refresh_totals(execute, since: dict[str, str]) -> None:
+    """Recompute ``day_totals`` and ``zone_totals`` of each pattern of ``since`` from
+    its day (ISO date) on; more than ``TOTALS_ONE_BY_ONE`` patterns: every pattern
+    from the earliest of the days, one statement per table. ``execute(sql, params)``
+    runs one statement in the open write transaction."""
+    if len(since) > TOTALS_ONE_BY_ONE:
+        _totals_from(execute, min(since.values()))
+        return
+    day_sql, zone_sql = _day_totals_sql(True), _zone_totals_sql(True)
+    for pattern, day in sorted(since.items()):
+        for table, sql, params in (("day_totals", day_sql, (pattern, day, pattern, day, day, pattern)),
+                                   ("zone_totals", zone_sql, (pattern, day, day))):
+            execute(f"DELETE FROM {table} WHERE pattern = ? AND poured_on >= ?", (pattern, day))
+            execute(sql, params)
+
+
+def _migration_8(db) -> None:
+    # The running totals the riser revisions' before/after are read from (see above).
+    db.execute("""
+        CREATE TABLE day_totals (
+            pattern TEXT NOT NULL, poured_on TEXT NOT NULL,
+            lots INTEGER NOT NULL, molds INTEGER NOT NULL, inspected_molds INTEGER NOT NULL,
+            rejected INTEGER NOT NULL, shrinkage INTEGER NOT NULL, zoned_shrinkage INTEGER NOT NULL,
+            PRIMARY KEY (pattern, poured_on)
+        )""")
+    db.execute("""
+        CREATE TABLE zone_totals (
+            pattern TEXT NOT NULL, zone TEXT NOT NULL, poured_on TEXT NOT NULL,
+            shrinkage INTEGER NOT NULL,
+            PRIMARY KEY (pattern, zone, poured_on)
+        )""")
+    _totals_from(db.execute, EARLIEST_DAY)
+
+
 MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6,
-              _migration_7]  # index i brings the schema from version i to i + 1
+              _migration_7, _migration_8]  # index i brings the schema from version i to i + 1
 
 
 # --- the store --------------------------------------------------------------------
@@ -283,6 +413,13 @@ class Store:
         self.actor = actor
         self.on_wait = on_wait
         self.conn = None
+        # Writes of lots and records not yet in day_totals / zone_totals: per pattern the
+        # earliest pour day touched, and the largest record id before the first record
+        # written (every record above it is new). Brought up to date as the outermost
+        # write() commits (or at once, for an insert outside write()).
+        self._touched: dict[str, str] = {}
+        self._records_above: int | None = None
+        self._writing = 0
         memory = self.path == ":memory:"
         if not memory and not create and not pathlib.Path(self.path).exists():
             raise LogNotFound(self.path)
@@ -369,15 +506,25 @@ class Store:
         An SQLite failure (read-only file, full disk, a lock held too long)
         rolls it back and becomes one :class:`LogError`."""
         if self.conn.in_transaction:
-            with self.db.atomic():
-                yield self
+            self._writing += 1
+            try:
+                with self.db.atomic():
+                    yield self
+                    if self._writing == 1:
+                        self._bring_totals_up_to_date()
+            finally:
+                self._writing -= 1
+                if not self._writing:
+                    self._forget_touched()
             return
         try:
             self._begin()
         except sqlite3.Error as exc:
             raise log_error(exc, self.path) from None
+        self._writing += 1
         try:
             yield self
+            self._bring_totals_up_to_date()
             self._retry(lambda: self.conn.execute("COMMIT"))
         except BaseException as exc:
             if self.conn.in_transaction:
@@ -386,6 +533,9 @@ class Store:
             if isinstance(exc, sqlite3.Error):
                 raise log_error(exc, self.path) from None
             raise
+        finally:
+            self._writing -= 1
+            self._forget_touched()
 
     def schema_version(self) -> int:
         return self.conn.execute("PRAGMA user_version").fetchone()[0]
@@ -509,8 +659,48 @@ class Store:
         cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
         sql = (f"INSERT INTO [{name}] ({', '.join(f'[{c}]' for c in cols)}) "
                f"VALUES ({', '.join('?' * len(cols))})")
+        if name == "inspections" and self._records_above is None:
+            self._records_above = self.conn.execute("SELECT COALESCE(MAX(id), 0) FROM inspections").fetchone()[0]
         self.conn.executemany(sql, rows)
+        if name == "lots":
+            touched = self._touched
+            for _, pattern, poured_on, *_ in rows:
+                if poured_on < touched.get(pattern, "9999-12-31"):
+                    touched[pattern] = poured_on
+        if not self._writing:
+            self._bring_totals_up_to_date()
         return len(rows)
+
+    def insert_rows_alone(self, name: str, rows: list[tuple]) -> int:
+        """Insert rows like :meth:`insert_rows` but leave ``day_totals`` and
+        ``zone_totals`` behind: only for the scale benchmark's floor (the bare insert),
+        on a throwaway copy of a log."""
+        cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
+        self.conn.executemany(f"INSERT INTO [{name}] ({', '.join(f'[{c}]' for c in cols)}) "
+                              f"VALUES ({', '.join('?' * len(cols))})", rows)
+        return len(rows)
+
+    # --- running totals per pattern and pour day ------------------------------------
+    def _forget_touched(self) -> None:
+        self._touched = {}
+        self._records_above = None
+
+    def _bring_totals_up_to_date(self) -> None:
+        """Recompute ``day_totals`` and ``zone_totals`` from the earliest pour day of
+        each pattern that the lots and records written since the last time touched
+        (the lots of new records and of the records they supersede)."""
+        touched = self._touched
+        if self._records_above is not None:
+            q = ("SELECT l.pattern, MIN(l.poured_on) FROM inspections i JOIN lots l ON l.lot = i.lot "
+                 "WHERE i.id > ? GROUP BY l.pattern "
+                 "UNION ALL SELECT l.pattern, MIN(l.poured_on) FROM inspections n "
+                 "JOIN inspections i ON i.id = n.supersedes JOIN lots l ON l.lot = i.lot "
+                 "WHERE n.id > ? GROUP BY l.pattern")
+            for pattern, day in self.conn.execute(q, (self._records_above, self._records_above)):
+                if day < touched.get(pattern, "9999-12-31"):
+                    touched[pattern] = day
+        self._forget_touched()
+        _refresh_totals(self.conn.execute, touched)
 
     # --- lookups used by validation ---------------------------------------------
     def patterns_info(self, codes: Iterable[str] | None = None) -> dict[str, dict]:
@@ -890,6 +1080,46 @@ class Store:
                     "WHERE l.pattern = ? AND l.poured_on >= ? AND l.poured_on <= ? AND i.void = 0 "
                     "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)", span).fetchall()
         return out
+
+    TOTALS = ("lots", "castings", "inspected_castings", "rejected", "shrinkage", "zoned_shrinkage")
+
+    def totals_before(self, probes: Iterable[tuple[str, str]]) -> dict[tuple[str, str], tuple[int, ...]]:
+        """Per (pattern, day) of ``probes`` (day an ISO date), the totals of the
+        pattern's lots poured before that day (from ``day_totals``), in ``TOTALS``
+        order: lots, castings poured, castings inspected (in lots holding a current
+        record), castings rejected, shrinkage rejects, shrinkage rejects naming a zone.
+        The totals over pour days a..b are ``totals_before(b + 1 day) - totals_before(a)``."""
+        return self._at_probes(("pattern", "day"), probes, len(self.TOTALS), (
+            "t.lots, t.molds * p.castings_per_mold, t.inspected_molds * p.castings_per_mold, t.rejected, "
+            "t.shrinkage, t.zoned_shrinkage FROM q JOIN patterns p ON p.pattern = q.pattern "
+            "LEFT JOIN day_totals t ON t.pattern = q.pattern AND t.poured_on = ("
+            "SELECT MAX(x.poured_on) FROM day_totals x WHERE x.pattern = q.pattern AND x.poured_on < q.day)"))
+
+    def zone_shrinkage_before(self, probes: Iterable[tuple[str, str, str]]) -> dict[tuple[str, str, str], int]:
+        """Per (pattern, zone, day) of ``probes``, the shrinkage rejects naming that
+        zone on current records of the pattern's lots poured before that day (from
+        ``zone_totals``)."""
+        return {k: v[0] for k, v in self._at_probes(("pattern", "zone", "day"), probes, 1, (
+            "t.shrinkage FROM q LEFT JOIN zone_totals t ON t.pattern = q.pattern AND t.zone = q.zone "
+            "AND t.poured_on = (SELECT MAX(x.poured_on) FROM zone_totals x WHERE x.pattern = q.pattern "
+            "AND x.zone = q.zone AND x.poured_on < q.day)")).items()}
+
+    def _at_probes(self, names: tuple[str, ...], probes: Iterable[tuple], width: int,
+                   rest: str) -> dict[tuple, tuple[int, ...]]:
+        """``WITH q (names) AS (VALUES probes) SELECT q.names, rest``, a few hundred
+        probes a statement: per probe its ``width`` whole numbers (None and a probe
+        without a row as 0)."""
+        probes = list(dict.fromkeys(probes))
+        out = {}
+        step = 900 // len(names)
+        row = "(" + ", ".join("?" * len(names)) + ")"
+        for i in range(0, len(probes), step):
+            chunk = probes[i:i + step]
+            q = (f"WITH q ({', '.join(names)}) AS (VALUES {', '.join([row] * len(chunk))}) "
+                 f"SELECT {', '.join('q.' + n for n in names)}, {rest}")
+            for values in self.conn.execute(q, [v for probe in chunk for v in probe]):
+                out[tuple(values[:len(names)])] = tuple(0 if v is None else int(v) for v in values[len(names):])
+        return {probe: out.get(probe, (0,) * width) for probe in probes}
 
     def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
         """SQLite's plan for one statement (EXPLAIN QUERY PLAN), one line per step,
