@@ -17,9 +17,9 @@ def test_init_sets_the_currency_and_settings_changes_it(tmp_path, runner):
     assert res.exit_code == 0, res.output
     assert "money in EUR" in res.output
     res = runner.invoke(main, ["settings", "--db", db, "--json"])
-    assert json.loads(res.output) == {"currency": "EUR"}
+    assert json.loads(res.output) == {"currency": "EUR", "units": "metric"}
     res = runner.invoke(main, ["settings", "--db", db, "--currency", "USD"])
-    assert res.exit_code == 0 and res.output == "currency: USD\n"
+    assert res.exit_code == 0 and res.output == "currency: USD\nunits: metric\n"
     with Store(db) as s:
         assert s.get_meta("currency") == "USD"
 
@@ -39,7 +39,22 @@ def test_a_bad_currency_code_is_refused_and_nothing_changes(tmp_path, runner, co
 
 def test_the_default_is_shown_as_a_code(empty_db, runner):
     res = runner.invoke(main, ["settings", "--db", str(empty_db)])
-    assert res.output == f"currency: {DEFAULT_CURRENCY}\n" and len(DEFAULT_CURRENCY) == 3
+    assert res.output == f"currency: {DEFAULT_CURRENCY}\nunits: metric\n" and len(DEFAULT_CURRENCY) == 3
+
+
+def test_init_sets_the_units_and_settings_changes_them(tmp_path, runner):
+    db = str(tmp_path / "plant.db")
+    res = runner.invoke(main, ["init", "--db", db, "--units", "us"])
+    assert res.exit_code == 0, res.output
+    assert "units us" in res.output
+    res = runner.invoke(main, ["settings", "--db", db, "--json"])
+    assert json.loads(res.output)["units"] == "us"
+    res = runner.invoke(main, ["settings", "--db", db, "--units", "metric"])
+    assert res.exit_code == 0 and "units: metric" in res.output
+    res = runner.invoke(main, ["settings", "--db", db, "--units", "imperial"])
+    assert res.exit_code == 2 and "imperial" in res.output
+    with Store(db) as s:
+        assert s.get_meta("units") == "metric"
 
 
 def test_review_and_reports_name_the_currency(app_db, runner):

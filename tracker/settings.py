@@ -1,5 +1,6 @@
 """Settings kept in the log itself (its ``meta`` table), set once for the log and
-changeable later: today the currency money is counted in.
+changeable later: the currency money is counted in, and the unit system
+(``metric`` or ``us``) numbers are typed and shown in.
 
 The currency is an ISO 4217 three-letter code ("EUR", "USD", "GBP"); every
 cost the log holds (metal cost per kg, processing cost, sleeve cost) is in
@@ -10,6 +11,7 @@ from __future__ import annotations
 
 import re
 
+from tracker import units as _units
 from tracker.errors import BadInput
 from tracker.store import Store
 
@@ -40,6 +42,22 @@ def set_currency(store: Store, code) -> str:
     return value
 
 
+UNITS_KEY = "units"
+
+
+def units(store: Store) -> str:
+    """The log's unit system, ``metric`` (the default) or ``us``."""
+    return store.get_meta(UNITS_KEY) or _units.DEFAULT_SYSTEM
+
+
+def set_units(store: Store, system) -> str:
+    """Set the log's unit system; returns it. Only the edges change: the log
+    keeps every figure in metric, so nothing stored is converted."""
+    value = _units.check_system(system)
+    store.set_meta(UNITS_KEY, value)
+    return value
+
+
 def settings(store: Store) -> dict:
     """Every setting of the log with its value."""
-    return {"currency": currency(store)}
+    return {"currency": currency(store), "units": units(store)}

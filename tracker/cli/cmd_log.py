@@ -29,44 +29,57 @@ def _who(by: str | None) -> str:
 @click.option("--currency", default=None, metavar="CODE",
               help="Three-letter code of the currency the log's costs are in, e.g. EUR (default EUR; "
                    "change it later with `pourback settings --currency`).")
+@click.option("--units", "system", type=click.Choice(["metric", "us"], case_sensitive=False), default=None,
+              help="Unit system numbers are typed and shown in: metric (mm, cm³, kg, °C; the default) or "
+                   "us (in, in³, lb, °F). The log itself always stores metric.")
 @db_option
 @handle_errors
-def init(currency, db_path):
+def init(currency, system, db_path):
     """Create an empty log (or bring an old one up to the current schema).
 
     Example:
 
-        pourback init --db plant.db --currency EUR
+        pourback init --db plant.db --currency EUR --units metric
     """
     from tracker import settings as log_settings
 
     with open_store(db_path, create=True) as store:
         if currency is not None:
             log_settings.set_currency(store, currency)
+        if system is not None:
+            log_settings.set_units(store, system)
         code = log_settings.currency(store)
-        click.echo(f"Log ready: {store.path} (schema version {store.schema_version()}; money in {code})")
+        shown = log_settings.units(store)
+        click.echo(f"Log ready: {store.path} (schema version {store.schema_version()}; money in {code}; "
+                   f"units {shown})")
 
 
 @main.command()
 @click.option("--currency", default=None, metavar="CODE",
               help="Set the three-letter code of the currency the log's costs are in, e.g. USD.")
+@click.option("--units", "system", type=click.Choice(["metric", "us"], case_sensitive=False), default=None,
+              help="Set the unit system numbers are typed and shown in: metric or us.")
 @db_option
 @json_option
 @handle_errors
-def settings(currency, db_path, as_json):
-    """Show the log's settings, or change them (the currency money is counted in).
+def settings(currency, system, db_path, as_json):
+    """Show the log's settings, or change them (the currency money is counted in,
+    the unit system numbers are typed and shown in).
 
     Costs already logged are not converted; they are read in the new currency.
+    Changing the units converts nothing stored: the log keeps metric inside.
 
     Example:
 
-        pourback settings --currency EUR
+        pourback settings --currency USD --units us
     """
     from tracker import settings as log_settings
 
     with open_store(db_path) as store:
         if currency is not None:
             log_settings.set_currency(store, currency)
+        if system is not None:
+            log_settings.set_units(store, system)
         data = log_settings.settings(store)
     emit(data, as_json, lambda d: "\n".join(f"{k}: {v}" for k, v in d.items()))
 
