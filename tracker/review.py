@@ -190,6 +190,12 @@ def _reject_arrays(cols: dict, index: dict) -> dict[str, np.ndarray]:
     return {k: v[keep] for k, v in out.items()}
 
 
+def _finite(x) -> float | None:
+    """A number as a Python float, None where it is NaN or infinite."""
+    f = float(x)
+    return f if math.isfinite(f) else None
+
+
 def _rate(k, n):
     k = np.asarray(k, dtype=float)
     n = np.asarray(n, dtype=float)
@@ -481,16 +487,12 @@ def _candidates(store: Store, mondays: list[dt.date], weeks: int) -> dict | None
     first, review_end = _iso(mondays[0]), _iso(mondays[-1] + dt.timedelta(days=6))
     # every revision up to the review week: one still without a verdict stays under
     # judgement however long ago it took effect (the revisions table is small)
-    revs = store.revision_steps(EARLIEST_DAY, review_end)
-    if revs.empty:
+    revs = store.revision_steps(EARLIEST_DAY, review_end, columns=True)
+    keep = [i for i, (eff, prev, nxt) in enumerate(zip(revs["effective_from"], revs["previous"], revs["next_from"]))
+            if first <= eff <= review_end or (eff < first and prev is not None and (nxt is None or nxt > first))]
+    if not keep:
         return None
-    inside = (revs["effective_from"] >= first) & (revs["effective_from"] <= review_end)
-    pending = ((revs["effective_from"] < first)
-               & revs["previous"].notna() & (revs["next_from"].isna() | (revs["next_from"] > first)))
-    cand = revs[inside | pending].reset_index(drop=True)
-    if cand.empty:
-        return None
-    cand = {c: cand[c].astype(object).where(cand[c].notna(), None).tolist() for c in cand.columns}
+    cand = {c: [v[i] for i in keep] for c, v in revs.items()}
     cand["in_window"] = [eff >= first for eff in cand["effective_from"]]
     cand["before_start"] = [eff if prev is None else max(prev_from, _iso(dt.date.fromisoformat(eff)
                                                                          - dt.timedelta(weeks=weeks)))
@@ -505,11 +507,9 @@ def _candidates(store: Store, mondays: list[dt.date], weeks: int) -> dict | None
 def _changed(store: Store, cand: dict) -> tuple[list[list[str]], list[list[dict]]]:
     """Per candidate, the zones of its changed risers and the changes (from the risers
     of the candidates' patterns, a handful of rows each)."""
-    risers = store.riser_designs(sorted(set(cand["pattern"])))
     designs: dict[tuple, dict] = {}
-    for row in _records(risers[["pattern", "revision", "riser", *RISER_FIELDS]]):
-        designs.setdefault((row["pattern"], row["revision"]), {})[row["riser"]] = {
-            f: row[f] for f in RISER_FIELDS}
+    for pattern, revision, riser, *fields in store.riser_designs(sorted(set(cand["pattern"]))):
+        designs.setdefault((pattern, revision), {})[riser] = dict(zip(RISER_FIELDS, fields))
     changes = [_riser_changes(designs.get((c, prev), {}), designs.get((c, rv), {})) if prev else []
                for c, rv, prev in zip(cand["pattern"], cand["revision"], cand["previous"])]
     return [sorted({z for ch in chs for z in ch["zones"]}) for chs in changes], changes
@@ -584,6 +584,9 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, confidence: flo
                                                   ("after", (t1, t2, s1, s2)))})
 
     bounds = {"before": (before_start, before_end), "after": (cand["effective_from"], after_end)}
+    judged = stats.compare_rates_many(*zip(*((s["before"]["shrinkage_rejected"], s["before"]["inspected"],
+                                              s["after"]["shrinkage_rejected"], s["after"]["inspected"])
+                                             for s in sums)), confidence)
     out = []
     for i in range(n):
         part = {}
@@ -591,11 +594,11 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, confidence: flo
             part[side] = {"start": a[i] if side == "after" or cand["previous"][i] is not None else None,
                           "end": b[i], **sums[i][side]}
         b, a = part["before"], part["after"]
-        c = stats.compare_rates(b["shrinkage_rejected"], b["inspected"], a["shrinkage_rejected"],
-                                a["inspected"], confidence)
+        c = judged[i]
         if not in_window[i] and c["verdict"] != "not_enough_data":
             continue
-        rb, ra = _rate(b["rejected"], b["inspected"]), _rate(a["rejected"], a["inspected"])
+        rb = b["rejected"] / b["inspected"] if b["inspected"] else math.nan
+        ra = a["rejected"] / a["inspected"] if a["inspected"] else math.nan
         out.append({
             "pattern": cand["pattern"][i], "revision": cand["revision"][i],
             "previous_revision": cand["previous"][i],
@@ -603,13 +606,12 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, confidence: flo
             "changed_risers": [ch["riser"] for ch in changes[i]], "changed_zones": zones[i],
             "riser_changes": changes[i], "zone_basis": basis[i],
             "before": b, "after": a,
-            "rate_before": c["rate_before"], "rate_after": c["rate_after"],
-            "difference": c["difference"], "diff_low": c["diff_low"], "diff_high": c["diff_high"],
-            "p_value": c["p_value"], "power_to_halve": c["power_to_halve"], "verdict": c["verdict"],
-            "all_defects": {"rate_before": float(rb), "rate_after": float(ra), "difference": float(ra - rb)},
+            **{k: _finite(c[k]) for k in ("rate_before", "rate_after", "difference", "diff_low", "diff_high",
+                                          "p_value", "power_to_halve")}, "verdict": c["verdict"],
+            "all_defects": {"rate_before": _finite(rb), "rate_after": _finite(ra), "difference": _finite(ra - rb)},
         })
     out.sort(key=lambda d: (d["effective_from"], d["pattern"], d["revision"]), reverse=True)
-    return jsonable(out)
+    return out  # JSON-ready as built: counts, text and riser fields from _records; floats through _finite
 
 
 # --- the review ---------------------------------------------------------------------------
