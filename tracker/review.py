@@ -515,14 +515,17 @@ def _changed(store: Store, cand: dict) -> tuple[list[list[str]], list[list[dict]
     return [sorted({z for ch in chs for z in ch["zones"]}) for chs in changes], changes
 
 
-def _probes(cand: dict, zones: list[list[str]]) -> tuple[list, list, list]:
-    """Per candidate its three edges (before_start, effective_from, the day after
-    after_end), and the probes of ``Store.totals_before`` and
-    ``Store.zone_shrinkage_before`` at them.
+def _read_totals(store: Store, cand: dict, zones: list[list[str]]) -> dict:
+    """The running totals each candidate's spans are read from.
 
-    Each span's figures come from the running totals of the pattern's pour days, two
-    rows a span however long ago the revision took effect: before = [before_start,
-    effective_from), after = [effective_from, after_end], the zones' check over both.
+    Per candidate three edges (``edges``: before_start, effective_from, the day
+    after after_end): before = [before_start, effective_from), after =
+    [effective_from, after_end], each the difference of the pattern's totals at
+    two edges (``totals``, ``Store.totals_before``), however long ago the
+    revision took effect. ``use_zones``: the revision changed risers and
+    shrinkage rejects in its spans name a zone; then the shrinkage rejects of
+    the changed zones at the edges (``zone_totals``, read for those only).
+    ``probes`` and ``zone_probes`` list what was read.
     """
     day_after: dict[str, str] = {}
     for e in cand["after_end"]:
@@ -530,13 +533,15 @@ def _probes(cand: dict, zones: list[list[str]]) -> tuple[list, list, list]:
             day_after[e] = _iso(dt.date.fromisoformat(e) + dt.timedelta(days=1))
     edges = [(bs, eff, day_after[ae])
              for bs, eff, ae in zip(cand["before_start"], cand["effective_from"], cand["after_end"])]
-    return (edges, [(c, d) for c, e in zip(cand["pattern"], edges) for d in e],
-            [(c, z, d) for c, zs, e in zip(cand["pattern"], zones, edges) for z in zs for d in e])
-
-
-def _totals(store: Store, cand: dict, zones: list[list[str]]):
-    edges, probes, zone_probes = _probes(cand, zones)
-    return edges, store.totals_before(probes), store.zone_shrinkage_before(zone_probes)
+    probes = [(c, d) for c, e in zip(cand["pattern"], edges) for d in e]
+    totals = store.totals_before(probes)
+    zoned = Store.TOTALS.index("zoned_shrinkage")
+    use_zones = [bool(zs) and totals[(c, e[2])][zoned] - totals[(c, e[0])][zoned] > 0
+                 for c, zs, e in zip(cand["pattern"], zones, edges)]
+    zone_probes = [(c, z, d) for c, zs, e, use in zip(cand["pattern"], zones, edges, use_zones) if use
+                   for z in zs for d in e]
+    return {"edges": edges, "totals": totals, "use_zones": use_zones,
+            "zone_totals": store.zone_shrinkage_before(zone_probes), "probes": probes, "zone_probes": zone_probes}
 
 
 def revision_probes(store: Store, week: str, weeks: int) -> tuple[list, list]:
@@ -548,8 +553,8 @@ def revision_probes(store: Store, week: str, weeks: int) -> tuple[list, list]:
     cand = _candidates(store, [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)], weeks)
     if cand is None:
         return [], []
-    _, probes, zone_probes = _probes(cand, _changed(store, cand)[0])
-    return probes, zone_probes
+    read = _read_totals(store, cand, _changed(store, cand)[0])
+    return read["probes"], read["zone_probes"]
 
 
 def _revisions(store: Store, mondays: list[dt.date], weeks: int, confidence: float) -> list[dict]:
@@ -560,13 +565,14 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, confidence: flo
     in_window, before_start, before_end, after_end = (
         cand["in_window"], cand["before_start"], cand["before_end"], cand["after_end"])
     zones, changes = _changed(store, cand)
-    edges, totals, zone_totals = _totals(store, cand, zones)
+    read = _read_totals(store, cand, zones)
+    edges, totals, zone_totals = read["edges"], read["totals"], read["zone_totals"]
     at = {k: j for j, k in enumerate(Store.TOTALS)}
     basis, sums = [], []
     for i in range(n):
         c, (bs, eff, end) = cand["pattern"][i], edges[i]
         t0, t1, t2 = totals[(c, bs)], totals[(c, eff)], totals[(c, end)]
-        use_zones = bool(zones[i]) and t2[at["zoned_shrinkage"]] - t0[at["zoned_shrinkage"]] > 0
+        use_zones = read["use_zones"][i]
         if not zones[i]:
             basis.append("all zones (no riser changed)")
         elif use_zones:

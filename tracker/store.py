@@ -248,6 +248,8 @@ def _migration_7(db: sqlite_utils.Database) -> None:
 # lots and records, so corrections, voids and late records count as the review counts
 # them. Counting rules as in ``pours_by_day`` and ``rejects_by_day``: a lot is inspected
 # when it holds a current record; rejects are current records with result "reject".
+# Castings are molds x the pattern's castings per mold, which never changes once stored
+# (an import refuses other content for a stored key).
 
 _CURRENT = "i.void = 0 AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
 EARLIEST_DAY = "0001-01-01"
@@ -287,15 +289,15 @@ def _day_totals_sql(one_pattern: bool) -> str:
             SELECT t.* FROM base_day JOIN day_totals t
             ON t.pattern = base_day.pattern AND t.poured_on = base_day.poured_on
         )
-        INSERT INTO day_totals (pattern, poured_on, lots, molds, inspected_molds, rejected, shrinkage,
+        INSERT INTO day_totals (pattern, poured_on, lots, castings, inspected_castings, rejected, shrinkage,
                                 zoned_shrinkage)
         SELECT d.pattern, d.poured_on, COALESCE(b.lots, 0) + SUM(d.lots) OVER w,
-            COALESCE(b.molds, 0) + SUM(d.molds) OVER w,
-            COALESCE(b.inspected_molds, 0) + SUM(d.inspected_molds) OVER w,
+            COALESCE(b.castings, 0) + p.castings_per_mold * SUM(d.molds) OVER w,
+            COALESCE(b.inspected_castings, 0) + p.castings_per_mold * SUM(d.inspected_molds) OVER w,
             COALESCE(b.rejected, 0) + SUM(d.rejected) OVER w,
             COALESCE(b.shrinkage, 0) + SUM(d.shrinkage) OVER w,
             COALESCE(b.zoned_shrinkage, 0) + SUM(d.zoned_shrinkage) OVER w
-        FROM d LEFT JOIN b ON b.pattern = d.pattern
+        FROM d JOIN patterns p ON p.pattern = d.pattern LEFT JOIN b ON b.pattern = d.pattern
         WINDOW w AS (PARTITION BY d.pattern ORDER BY d.poured_on)"""
 
 
@@ -353,7 +355,7 @@ def _migration_8(db) -> None:
     db.execute("""
         CREATE TABLE day_totals (
             pattern TEXT NOT NULL, poured_on TEXT NOT NULL,
-            lots INTEGER NOT NULL, molds INTEGER NOT NULL, inspected_molds INTEGER NOT NULL,
+            lots INTEGER NOT NULL, castings INTEGER NOT NULL, inspected_castings INTEGER NOT NULL,
             rejected INTEGER NOT NULL, shrinkage INTEGER NOT NULL, zoned_shrinkage INTEGER NOT NULL,
             PRIMARY KEY (pattern, poured_on)
         )""")
@@ -1094,8 +1096,7 @@ class Store:
         record), castings rejected, shrinkage rejects, shrinkage rejects naming a zone.
         The totals over pour days a..b are ``totals_before(b + 1 day) - totals_before(a)``."""
         return self._at_probes(("pattern", "day"), probes, len(self.TOTALS), (
-            "t.lots, t.molds * p.castings_per_mold, t.inspected_molds * p.castings_per_mold, t.rejected, "
-            "t.shrinkage, t.zoned_shrinkage FROM q JOIN patterns p ON p.pattern = q.pattern "
+            "t.lots, t.castings, t.inspected_castings, t.rejected, t.shrinkage, t.zoned_shrinkage FROM q "
             "LEFT JOIN day_totals t ON t.pattern = q.pattern AND t.poured_on = ("
             "SELECT MAX(x.poured_on) FROM day_totals x WHERE x.pattern = q.pattern AND x.poured_on < q.day)"))
 
@@ -1110,12 +1111,12 @@ class Store:
 
     def _at_probes(self, names: tuple[str, ...], probes: Iterable[tuple], width: int,
                    rest: str) -> dict[tuple, tuple[int, ...]]:
-        """``WITH q (names) AS (VALUES probes) SELECT q.names, rest``, a few hundred
-        probes a statement: per probe its ``width`` whole numbers (None and a probe
-        without a row as 0)."""
+        """``WITH q (names) AS (VALUES probes) SELECT q.names, rest``, a hundred probes
+        a statement: per probe its ``width`` whole numbers (None and a probe without a
+        row as 0)."""
         probes = list(dict.fromkeys(probes))
         out = {}
-        step = 900 // len(names)
+        step = 100  # SQLite's cost per probe grows with a longer VALUES list beyond ~150
         row = "(" + ", ".join("?" * len(names)) + ")"
         for i in range(0, len(probes), step):
             chunk = probes[i:i + step]
