@@ -1036,8 +1036,7 @@ class Store:
              "GROUP BY l.pattern")
         return self._frame(q, (str(start), str(end)))
 
-    def review_floor(self, start: str, end: str, history: Iterable[tuple[str, str, str]] = ()
-                     ) -> dict[str, list[tuple]]:
+    def review_floor(self, start: str, end: str) -> dict[str, list[tuple]]:
         """The rows a review of lots poured from ``start`` to ``end`` (ISO strings,
         inclusive) reads, fetched as plain tuples with no computation: the floor
         the scale benchmark holds the review against.
@@ -1047,10 +1046,10 @@ class Store:
         defect, zone, quantity); ``risers``: the riser revisions in force in the
         span for the patterns poured in it, one row per riser (pattern, revision,
         effective_from, riser, zone, placement, top, diameter_mm, height_mm,
-        sleeve, neck_diameter_mm). ``history``: (pattern, first day, last day) spans
-        read besides (``tracker.review.history_spans``, the lots before the span
-        that judging riser revisions reads): their lots and current records are
-        added as ``history_lots`` and ``history_records`` (same columns).
+        sleeve, neck_diameter_mm). Besides these the review reads, to judge the
+        riser revisions still under judgement, the running totals at the edges of
+        their spans (:meth:`totals_before`, :meth:`zone_shrinkage_before`): not in
+        the floor, which is the issue's definition; the benchmark times them beside it.
         """
         span = (str(start), str(end))
         lots = self.conn.execute(
@@ -1070,22 +1069,7 @@ class Store:
             "AND r.pattern IN (SELECT pattern FROM lots WHERE poured_on >= ?1 AND poured_on <= ?2) "
             "AND NOT EXISTS (SELECT 1 FROM revisions s WHERE s.pattern = r.pattern "
             "AND s.effective_from > r.effective_from AND s.effective_from <= ?1)", span).fetchall()
-        out = {"lots": lots, "records": records, "risers": risers}
-        if history:
-            out["history_lots"], out["history_records"] = [], []
-            for pattern, first, last in history:
-                span = (str(pattern), str(first), str(last))
-                out["history_lots"] += self.conn.execute(
-                    "SELECT l.lot, l.pattern, l.poured_on, l.molds * p.castings_per_mold "
-                    "FROM lots l INDEXED BY lots_pattern_poured_on CROSS JOIN patterns p "
-                    "ON p.pattern = l.pattern WHERE l.pattern = ? AND l.poured_on >= ? AND l.poured_on <= ?",
-                    span).fetchall()
-                out["history_records"] += self.conn.execute(
-                    "SELECT i.lot, i.result, i.defect, i.zone, i.quantity "
-                    "FROM lots l INDEXED BY lots_pattern_poured_on CROSS JOIN inspections i ON i.lot = l.lot "
-                    "WHERE l.pattern = ? AND l.poured_on >= ? AND l.poured_on <= ? AND i.void = 0 "
-                    "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)", span).fetchall()
-        return out
+        return {"lots": lots, "records": records, "risers": risers}
 
     TOTALS = ("lots", "castings", "inspected_castings", "rejected", "shrinkage", "zoned_shrinkage")
 
