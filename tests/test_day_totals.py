@@ -228,6 +228,8 @@ def at_once(request, monkeypatch):
     every pattern from the earliest touched day (as a large import does)."""
     if request.param:
         monkeypatch.setattr(store_module, "TOTALS_ONE_BY_ONE", 0)
+    else:
+        monkeypatch.setattr(store_module, "TOTALS_AT_ONCE_COST", 0)
     return request.param
 
 

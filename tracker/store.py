@@ -253,7 +253,8 @@ def _migration_7(db: sqlite_utils.Database) -> None:
 
 _CURRENT = "i.void = 0 AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
 EARLIEST_DAY = "0001-01-01"
-TOTALS_ONE_BY_ONE = 200  # up to this many patterns touched, each is recomputed on its own
+TOTALS_ONE_BY_ONE = 200  # more patterns touched: all are recomputed at once
+TOTALS_AT_ONCE_COST = 3  # a lot read by pour date costs about a third of one read by pattern
 
 
 def _day_totals_sql(one_pattern: bool) -> str:
@@ -281,7 +282,7 @@ def _day_totals_sql(one_pattern: bool) -> str:
                 WHERE {lots} AND i.result = 'reject' AND {_CURRENT}
                 GROUP BY l.pattern, l.poured_on
             ) u GROUP BY pattern, poured_on
-        ), base_day AS (
+        ), base_day AS MATERIALIZED (
             SELECT p.pattern, (SELECT MAX(x.poured_on) FROM day_totals x
                                WHERE x.pattern = p.pattern AND x.poured_on < ?) AS poured_on
             FROM patterns p WHERE {base}
@@ -311,7 +312,7 @@ def _zone_totals_sql(one_pattern: bool) -> str:
             FROM lots l JOIN inspections i ON i.lot = l.lot
             WHERE {lots} AND i.result = 'reject' AND i.defect = 'shrinkage' AND i.zone IS NOT NULL
             AND {_CURRENT} GROUP BY l.pattern, i.zone, l.poured_on
-        ), base_day AS (
+        ), base_day AS MATERIALIZED (
             SELECT k.pattern, k.zone, (SELECT MAX(x.poured_on) FROM zone_totals x WHERE x.pattern = k.pattern
                                        AND x.zone = k.zone AND x.poured_on < ?) AS poured_on
             FROM (SELECT DISTINCT pattern, zone FROM z) k
@@ -336,11 +337,24 @@ def _totals_from(execute, day: str) -> None:
 
 def _refresh_totals(execute, since: dict[str, str]) -> None:
     """Recompute ``day_totals`` and ``zone_totals`` of each pattern of ``since`` from
-    its day (ISO date) on; more than ``TOTALS_ONE_BY_ONE`` patterns: every pattern
-    from the earliest of the days, one statement per table. ``execute(sql, params)``
-    runs one statement in the open write transaction."""
+    its day (ISO date) on. ``execute(sql, params)`` runs one statement in the open
+    write transaction.
+
+    Pattern by pattern (lots by pattern, a few lookups each), or every pattern from
+    the earliest of the days at once (lots by pour date, read in order): the latter
+    when more than ``TOTALS_ONE_BY_ONE`` patterns were touched or when it reads
+    fewer than ``TOTALS_AT_ONCE_COST`` times the lots of the former (a large import).
+    """
+    if not since:
+        return
+    day = min(since.values())
     if len(since) > TOTALS_ONE_BY_ONE:
-        _totals_from(execute, min(since.values()))
+        _totals_from(execute, day)
+        return
+    mine = sum(execute("SELECT COUNT(*) FROM lots WHERE pattern = ? AND poured_on >= ?", item).fetchone()[0]
+               for item in since.items())
+    if execute("SELECT COUNT(*) FROM lots WHERE poured_on >= ?", (day,)).fetchone()[0] < TOTALS_AT_ONCE_COST * mine:
+        _totals_from(execute, day)
         return
     day_sql, zone_sql = _day_totals_sql(True), _zone_totals_sql(True)
     for pattern, day in sorted(since.items()):
