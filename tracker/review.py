@@ -737,7 +737,7 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEE
         rejects of problem patterns in the review week) and ``caution``.
     """
     weeks, target, week, monday = _checked(store, week, weeks, target)
-    mondays, previous, fetch_from, codes, pours, rejects, mx = _fetched(store, monday, weeks)
+    mondays, previous, _, _, _, rejects, mx = _fetched(store, monday, weeks)
     week_end = monday + dt.timedelta(days=6)
     now = _window(mx, rejects, mondays, slice(1, None), target, confidence)
     before = _window(mx, rejects, previous, slice(0, -1), target, confidence, full=False)
