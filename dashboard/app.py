@@ -47,6 +47,9 @@ page = st.navigation([HOME, *PAGES])
 common.style()
 
 with common.guard():
+    common.plant_picker()  # before the page: its figures follow the picked plant
+
+with common.guard():
     page.run()
 
 # The caution closes every page, whatever the page showed (or failed to show).
@@ -55,8 +58,8 @@ common.caution()
 # After the page, so the counts include what the page just wrote.
 with st.sidebar:
     access.sidebar(common.db_path())
-    st.caption("Log file")
-    st.text(common.db_path())
+    st.caption("Log")
+    st.text(common.db_name())
     with common.guard():
         counts = common.load("start_state")["counts"]
         st.caption(f"{counts['patterns']:,} patterns · {counts['lots']:,} lots · "

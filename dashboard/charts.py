@@ -210,6 +210,20 @@ def margins(df: pd.DataFrame) -> alt.Chart:
     ).properties(height=180)
 
 
+def plant_rates(table: pd.DataFrame) -> alt.LayerChart | alt.Chart:
+    """Each plant's reject rate (%) with its 95 % range, side by side."""
+    if table.empty or table["reject rate (%)"].isna().all():
+        return _empty("nothing inspected in this alloy")
+    base = alt.Chart(table).encode(y=alt.Y("plant:N", title="plant", sort=None))
+    bars = base.mark_bar(color=CONTEXT).encode(
+        x=alt.X("reject rate (%):Q", title="reject rate (%), castings rejected / inspected"),
+        tooltip=["plant:N", alt.Tooltip("reject rate (%):Q", format=".2f"), "castings inspected:Q",
+                 "castings rejected:Q"])
+    ranges = base.mark_rule(color=INK, strokeWidth=2).encode(x="95 % range from (%):Q",
+                                                             x2="95 % range to (%):Q")
+    return (bars + ranges).properties(height=max(80, 36 * len(table)))
+
+
 # --- thermal check ------------------------------------------------------------------
 
 def _thermal_frame(cells: pd.DataFrame, x_title: str, width: int = 520):

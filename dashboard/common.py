@@ -10,16 +10,14 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
-import os
 import re
-import sqlite3
 
 import streamlit as st
 
 from tracker import limits, views
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadFile, PourbackError
-from tracker.store import Store, log_error, resolve_path
+from tracker.store import DATABASE_ERRORS, Store, absolute_target, display_name, log_error
 
 START_COMMANDS = "pourback demo"
 
@@ -47,6 +45,8 @@ def _registry() -> dict:
         "riser_options": views.riser_options,
         "sleeve_options": views.sleeve_options,
         "pour_span": lambda s: s.pour_span(),
+        "plant_options": lambda s: s.plants(),
+        "compare_plants": review.compare_plants,
         "currency": settings.currency,
         "weekly_review": review.weekly_review,
         "problem_patterns": review.problem_patterns,
@@ -66,9 +66,14 @@ def _thermal_registry() -> dict:
 
 
 def db_path() -> str:
-    """The log's path: $POURBACK_DB (set by ``pourback dashboard``), else ./pourback.db."""
-    path = resolve_path(None)
-    return path if path == ":memory:" else os.path.abspath(path)
+    """The log: $POURBACK_DB (set by ``pourback dashboard``), else ./pourback.db; a
+    file path made absolute, or a postgresql:// URL (print :func:`db_name`)."""
+    return absolute_target(None)
+
+
+def db_name() -> str:
+    """The log's path or URL fit to show (a URL's password masked)."""
+    return display_name(db_path())
 
 
 def open_store() -> Store:
@@ -82,24 +87,26 @@ def open_store() -> Store:
 
 
 @st.cache_data(show_spinner=False, max_entries=256)
-def _cached(path: str, version: tuple, name: str, args: tuple, kwargs: tuple):
+def _cached(path: str, version: tuple, plant: str | None, name: str, args: tuple, kwargs: tuple):
     fn = _registry()[name]
-    with Store(path, create=False) as store:
+    with Store(path, create=False) as store, store.plant_scope(plant):
         return fn(store, *args, **dict(kwargs))
 
 
 _COMPUTED: set = set()  # the loads this server process has computed (and cached)
 
 
-def load(name: str, *args, status: str | None = None, **kwargs):
-    """``name``'s result on the log, cached until the database file changes.
+def load(name: str, *args, status: str | None = None, every_plant: bool = False, **kwargs):
+    """``name``'s result on the log, for the plant picked in the sidebar (every
+    plant with ``every_plant``), cached until the log changes.
 
     ``status``: for a load that can take seconds on a big log, the label of
     a Streamlit status element shown while it is computed (not when the
     result comes from the cache); it is cleared when the result is in.
     """
     path = db_path()
-    key = (path, views.db_version(path), name, args, tuple(sorted(kwargs.items())))
+    key = (path, views.db_version(path), None if every_plant else plant(), name, args,
+           tuple(sorted(kwargs.items())))
     mark = repr(key)  # hashable where an argument is not (a dict)
     if status is None or mark in _COMPUTED:
         return _cached(*key)
@@ -109,6 +116,28 @@ def load(name: str, *args, status: str | None = None, **kwargs):
     box.empty()
     _COMPUTED.add(mark)
     return result
+
+
+# --- plants -------------------------------------------------------------------------------
+
+ALL_PLANTS = "All plants"
+
+
+def plant_picker() -> None:
+    """The sidebar's plant picker (only when the log names plants); every page's
+    figures follow it. Default: all plants."""
+    plants = load("plant_options", every_plant=True)
+    if st.session_state.get("plant") not in (None, ALL_PLANTS, *plants):
+        st.session_state["plant"] = ALL_PLANTS  # a plant no longer in the log
+    if plants:
+        st.sidebar.selectbox("Plant", [ALL_PLANTS, *plants], key="plant",
+                             help="Figures on every page cover this plant's patterns only.")
+
+
+def plant() -> str | None:
+    """The plant picked in the sidebar, None for all plants."""
+    picked = st.session_state.get("plant")
+    return None if picked in (None, ALL_PLANTS) else picked
 
 
 def forget() -> None:
@@ -166,7 +195,7 @@ def guard():
         yield
     except PourbackError as exc:
         show_error(exc)
-    except sqlite3.Error as exc:
+    except DATABASE_ERRORS as exc:
         show_error(log_error(exc, db_path()))
     except OSError as exc:
         st.error(md_escape(f"could not read or write {exc.filename or 'a file'}: {exc.strerror or exc}"))

@@ -172,6 +172,23 @@ def main() -> None:
     control(review)
     signals(review)
     revisions(review)
+    plants(week, weeks, target)
+
+
+def plants(week: str, weeks: int, target: float) -> None:
+    """The plants side by side for one alloy (when the log names two or more plants)."""
+    if len(common.load("plant_options", every_plant=True)) < 2:
+        return
+    st.subheader("Plants side by side")
+    alloys = common.load("alloy_options", every_plant=True)
+    alloy = st.selectbox("Alloy", alloys, format_func=lambda k: k.replace("_", " "), key="compare_alloy")
+    data = common.load("compare_plants", alloy, week=week, weeks=weeks, target=target / 100.0,
+                       every_plant=True)
+    table = views.plant_comparison_table(data)
+    st.dataframe(table, hide_index=True, width="stretch", key="plants_table")
+    st.altair_chart(charts.plant_rates(table), width="stretch")
+    st.caption(f"Each plant's {alloy.replace('_', ' ')} patterns over the same window: reject rate with its 95 % "
+               "range. Ranges that overlap do not show a difference between the plants.")
 
 
 main()

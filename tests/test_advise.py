@@ -119,11 +119,8 @@ def test_what_if_moves_margins_the_right_way(demo_store):
     assert bigger["added_metal_kg_per_mold"] > 0
 
 
-def test_suggest_cli_json(demo_db, tmp_path, runner):
-    import shutil
-
-    db = tmp_path / "d.db"
-    shutil.copy(demo_db, db)
+def test_suggest_cli_json(demo_db, session_logs, runner):
+    db = session_logs.copy(demo_db)
     res = runner.invoke(main, ["suggest", "--db", str(db), "--json"])
     assert res.exit_code == 0, res.output
     rows = json.loads(res.output)
@@ -202,13 +199,10 @@ def _cylinder_kg(d_mm, h_mm, density_kg_dm3):
     return np.pi * (d_mm / 10) ** 2 / 4 * (h_mm / 10) * density_kg_dm3 / 1000
 
 
-def test_balance_recomputed_by_hand_from_the_json(demo_db, tmp_path, runner):
+def test_balance_recomputed_by_hand_from_the_json(demo_db, session_logs, runner):
     """Every money figure of `suggest --json` on the demo, recomputed from the
     demo's CSV files with the cost accounting of DOMAIN.md's Money note."""
-    import shutil
-
-    db = tmp_path / "d.db"
-    shutil.copy(demo_db, db)
+    db = session_logs.copy(demo_db)
     res = runner.invoke(main, ["suggest", "--db", str(db), "--json"])
     assert res.exit_code == 0, res.output
     rows = json.loads(res.output)
@@ -341,13 +335,10 @@ def test_riser_metal_charge_is_the_old_name_of_remelt_charge(tmp_path, mem_store
         suggest(mem_store, pattern="S2", remelt_charge=-0.1)
 
 
-def test_cli_charge_alias_and_labelled_rates(demo_db, tmp_path, runner):
-    import shutil
-
+def test_cli_charge_alias_and_labelled_rates(demo_db, session_logs, runner):
     from tracker.advise import DEFAULT_REMELT_CHARGE
 
-    db = tmp_path / "d.db"
-    shutil.copy(demo_db, db)
+    db = session_logs.copy(demo_db)
     a = runner.invoke(main, ["suggest", "--db", str(db), "--json", "--remelt-charge", "0.25"])
     b = runner.invoke(main, ["suggest", "--db", str(db), "--json", "--riser-metal-charge", "0.25"])
     assert a.exit_code == 0 and b.exit_code == 0, a.output + b.output

@@ -72,9 +72,9 @@ def new_file(kind: str, *edits: dict, drop=(), rename=None) -> str:
 
 
 @pytest.fixture
-def store(tmp_path):
-    """A file log holding the good data set."""
-    with Store(tmp_path / "log.db") as s:
+def store(logs):
+    """A log holding the good data set, on each backend."""
+    with Store(logs.new()) as s:
         import_dir(s, GOOD, today=TODAY)
         yield s
 

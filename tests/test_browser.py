@@ -98,11 +98,11 @@ def running_dashboard(db, folder, host: str = "127.0.0.1", port: int | None = No
 
 
 @pytest.fixture(scope="module")
-def server(app_demo_db, tmp_path_factory):
+def server(app_demo_file, tmp_path_factory):
     """`pourback dashboard` on a copy of the demo log, on a free port; stopped at the end."""
     folder = tmp_path_factory.mktemp("browser")
     db = folder / "demo.db"
-    shutil.copyfile(app_demo_db, db)
+    shutil.copyfile(app_demo_file, db)
     with running_dashboard(db, folder) as base:
         yield {"url": base, "db": db}
 

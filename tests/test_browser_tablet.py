@@ -148,12 +148,12 @@ def test_one_reject_from_a_fresh_form_in_8_fields_and_12_clicks(browser, server)
         pg.close()
 
 
-def test_html_report_tables_fit_a_tablet(browser, app_demo_db, tmp_path):
+def test_html_report_tables_fit_a_tablet(browser, app_demo_file, tmp_path):
     from tracker.report import render
     from tracker.review import weekly_review
     from tracker.store import Store
 
-    with Store(app_demo_db) as s:
+    with Store(app_demo_file) as s:
         page = tmp_path / "review.html"
         page.write_text(render(weekly_review(s), "html"), encoding="utf-8")
     pg = browser.new_page(viewport={"width": NARROW, "height": 900})

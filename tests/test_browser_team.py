@@ -50,10 +50,10 @@ def _answers(port: int) -> bool:
 
 
 @pytest.fixture(scope="module")
-def plain_log(app_demo_db, tmp_path_factory):
+def plain_log(app_demo_file, tmp_path_factory):
     """A copy of the demo log with no account at all."""
     db = tmp_path_factory.mktemp("team-plain") / "plant.db"
-    shutil.copyfile(app_demo_db, db)
+    shutil.copyfile(app_demo_file, db)
     return db
 
 
@@ -71,11 +71,11 @@ def test_refuses_to_start_beyond_loopback_without_an_admin(plain_log, tmp_path):
 
 
 @pytest.fixture(scope="module")
-def team_server(app_demo_db, tmp_path_factory):
+def team_server(app_demo_file, tmp_path_factory):
     """The demo log with an admin, an inspector and two reviewers, served on 127.0.0.2."""
     folder = tmp_path_factory.mktemp("team")
     db = folder / "plant.db"
-    shutil.copyfile(app_demo_db, db)
+    shutil.copyfile(app_demo_file, db)
     with Store(db) as s:
         for name, role in USERS.items():
             auth.add_user(s, name, role, PASSWORD, by="test")
@@ -244,9 +244,9 @@ def test_no_page_shows_a_password_or_a_hash(page, team_server):
         assert secret not in server_log
 
 
-def test_require_login_on_loopback_and_an_idle_session_ends(browser, app_demo_db, tmp_path):
+def test_require_login_on_loopback_and_an_idle_session_ends(browser, app_demo_file, tmp_path):
     db = tmp_path / "desk.db"
-    shutil.copyfile(app_demo_db, db)
+    shutil.copyfile(app_demo_file, db)
     with Store(db) as s:
         auth.add_user(s, "bench", "inspector", PASSWORD, by="test")
     # 0.002 hours = 7.2 s without activity ends the session
@@ -269,7 +269,7 @@ def test_require_login_on_loopback_and_an_idle_session_ends(browser, app_demo_db
         assert [r["event"] for r in auth.audit_log(s)][-1] == "session_expired"
 
 
-def test_tls_serves_https(app_demo_db, tmp_path):
+def test_tls_serves_https(app_demo_file, tmp_path):
     import ssl
 
     if not shutil.which("openssl"):
@@ -279,7 +279,7 @@ def test_tls_serves_https(app_demo_db, tmp_path):
                     str(cert), "-days", "1", "-subj", f"/CN={HOST}", "-addext", f"subjectAltName=IP:{HOST}"],
                    check=True, capture_output=True)
     db = tmp_path / "plant.db"
-    shutil.copyfile(app_demo_db, db)
+    shutil.copyfile(app_demo_file, db)
     with Store(db) as s:
         auth.add_user(s, "boss", "admin", PASSWORD, by="test")
     port = _free_port(HOST)

@@ -53,7 +53,7 @@ SERVES = {"dashboard", "demo"}
 ASKS = {"user"}
 
 
-def test_help_examples_run_on_the_demo_log(app_demo_db, tmp_path, monkeypatch, runner):
+def test_help_examples_run_on_the_demo_log(app_demo_file, tmp_path, monkeypatch, runner):
     """Each example, pasted as shown into a folder holding the demo log (as
     `pourback demo` builds it) and the demo files, runs without an error."""
     import shlex
@@ -61,7 +61,7 @@ def test_help_examples_run_on_the_demo_log(app_demo_db, tmp_path, monkeypatch, r
 
     from tests.conftest import SAMPLE
 
-    shutil.copyfile(app_demo_db, tmp_path / "pourback.db")
+    shutil.copyfile(app_demo_file, tmp_path / "pourback.db")
     shutil.copytree(SAMPLE, tmp_path / "sample_data")
     shutil.copyfile(SAMPLE / "patterns.csv", tmp_path / "patterns.csv")
     (tmp_path / "backups").mkdir()

@@ -21,12 +21,12 @@ TODAY = dt.date(2026, 6, 1)
 
 
 @pytest.fixture
-def store(tmp_path):
+def store(tmp_path, logs):
     """The good log plus lot L4 (T-100, 10 molds x 2 = 20 castings) with two records:
     15 rejected on visual (sand) and 2 rejected on radiography (shrinkage, body, CB 4)."""
     lots = tmp_path / "lots.csv"
     lots.write_text("lot,pattern,poured_on,heat,molds\nL4,T-100,2026-04-01,H4,10\n", encoding="utf-8")
-    with Store(tmp_path / "log.db") as s:
+    with Store(logs.new()) as s:
         import_dir(s, GOOD, today=TODAY)
         import_file(s, "lots", lots, today=TODAY)
         s.visual_id = log_inspection(s, {"lot": "L4", "inspected_on": "2026-04-03", "method": "visual",

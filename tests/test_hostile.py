@@ -34,7 +34,16 @@ INSP = "lot,inspected_on,method,quantity,result,defect,zone,xray_category,severi
 
 
 @pytest.fixture
-def store(tmp_path):
+def store(logs):
+    """The good data's log on the backend under test (tests/conftest.py)."""
+    with Store(logs.new()) as s:
+        import_dir(s, GOOD, today=TODAY)
+        yield s
+
+
+@pytest.fixture
+def sqlite_store(tmp_path):
+    """The good data's log in an SQLite file (for the tests of the file itself)."""
     with Store(tmp_path / "log.db") as s:
         import_dir(s, GOOD, today=TODAY)
         yield s
@@ -207,16 +216,17 @@ def test_a_withdrawn_record_stays_withdrawn(store):
 def _fill_disk(store):
     """SQLite's page limit (PRAGMA max_page_count) stands in for a full disk: the
     write fails with SQLITE_FULL, the error a full disk gives."""
-    store.conn.execute("VACUUM")  # no free pages left to fill
-    pages = store.conn.execute("PRAGMA page_count").fetchone()[0]
-    store.conn.execute(f"PRAGMA max_page_count = {pages + 8}")
-    store.conn.execute("CREATE TABLE filler (b BLOB)")
-    level, store.conn.isolation_level = store.conn.isolation_level, None  # each insert its own transaction
+    conn = store.dialect.conn  # the sqlite3 connection under the store
+    conn.execute("VACUUM")  # no free pages left to fill
+    pages = conn.execute("PRAGMA page_count").fetchone()[0]
+    conn.execute(f"PRAGMA max_page_count = {pages + 8}")
+    conn.execute("CREATE TABLE filler (b BLOB)")
+    level, conn.isolation_level = conn.isolation_level, None  # each insert its own transaction
     for size in (4096, 512, 64, 8, 1):  # up to the last byte of the last page
         with contextlib.suppress(sqlite3.OperationalError):
             while True:
-                store.conn.execute("INSERT INTO filler VALUES (zeroblob(?))", (size,))
-    store.conn.isolation_level = level
+                conn.execute("INSERT INTO filler VALUES (zeroblob(?))", (size,))
+    conn.isolation_level = level
     # and the room left in the records' own pages
     for _ in range(20):  # L1 poured 20 castings, none inspected by mt yet
         try:
@@ -226,7 +236,8 @@ def _fill_disk(store):
             break
 
 
-def test_disk_full_during_import_and_log_is_one_message(store, tmp_path):
+def test_disk_full_during_import_and_log_is_one_message(sqlite_store, tmp_path):
+    store = sqlite_store
     rows = "".join(f"L3,2026-03-06,ut,1,accept,,,,,S{i},QE-B,{'n' * 200}\n" for i in range(20))
     path = write(tmp_path, "inspections.csv", INSP + rows)
     _fill_disk(store)
@@ -358,26 +369,29 @@ def test_skip_bad_on_a_full_disk_commits_nothing(db, tmp_path, monkeypatch):
 
 # --- backups ---------------------------------------------------------------------------------
 
-def test_a_backup_that_fails_part_way_leaves_no_file(store, tmp_path, monkeypatch):
+def test_a_backup_that_fails_part_way_leaves_no_file(sqlite_store, tmp_path, monkeypatch):
+    store = sqlite_store
+    real = store.dialect.conn  # the sqlite3 connection under the store
+
     class Broken:
         def __getattr__(self, name):
-            return getattr(store.conn, name)
+            return getattr(real, name)
 
         def backup(self, target, pages=-1):
             target.execute("CREATE TABLE half (x)")
             raise sqlite3.OperationalError("database or disk is full")
 
-    real = store.conn
-    store.conn = Broken()
+    store.dialect.conn = Broken()
     try:
         with pytest.raises(DiskFull):
             store.backup(tmp_path / "b.db")
     finally:
-        store.conn = real
+        store.dialect.conn = real
     assert sorted(p.name for p in tmp_path.iterdir() if p.name.startswith(("b.db", ".b.db"))) == []
 
 
-def test_restore_names_a_partial_backup_and_its_journal(store, tmp_path):
+def test_restore_names_a_partial_backup_and_its_journal(sqlite_store, tmp_path):
+    store = sqlite_store
     partial = tmp_path / f".b.db.{os.getpid()}.partial"
     shutil.copyfile(store.path, partial)
     with pytest.raises(Exception) as info:

@@ -3,6 +3,8 @@ runs is never silently created again, a read-only log refuses an upload in one
 message, and the pages' table downloads go through the formula guard.
 """
 
+import shutil
+
 import pytest
 
 from test_dashboard import _lot_with_room, _upload, open_page, snapshot, texts
@@ -31,7 +33,16 @@ def test_a_deleted_log_is_named_and_never_created_again(tmp_path, monkeypatch, p
     assert not missing.exists()
 
 
-def test_upload_to_a_read_only_log_is_one_message(app_db, monkeypatch, read_only):  # noqa: F811
+@pytest.fixture
+def app_file(app_demo_file, tmp_path):
+    """A private copy of the demo log in an SQLite file (the file is made read-only)."""
+    db = tmp_path / "demo.db"
+    shutil.copyfile(app_demo_file, db)
+    return str(db)
+
+
+def test_upload_to_a_read_only_log_is_one_message(app_file, monkeypatch, read_only):  # noqa: F811
+    app_db = app_file
     lot, _ = _lot_with_room(app_db)
     read_only(app_db)
     before = snapshot(app_db)

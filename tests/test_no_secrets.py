@@ -7,7 +7,6 @@ searched in tests/test_browser_team.py.
 """
 
 import pathlib
-import shutil
 
 import pytest
 
@@ -35,10 +34,9 @@ def assert_clean(text: str, secrets: list[str], where: str) -> None:
 
 
 @pytest.fixture
-def team_log(tmp_path, app_demo_db):
-    db = tmp_path / "team.db"
-    shutil.copyfile(app_demo_db, db)
-    return db
+def team_log(app_demo_db, session_logs):
+    """A private copy of the demo log, on each backend."""
+    return session_logs.copy(app_demo_db, "team")
 
 
 def test_no_command_prints_or_exports_a_secret(runner, team_log, tmp_path):

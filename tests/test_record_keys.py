@@ -27,8 +27,9 @@ ACCEPT = "L3,2026-03-06,ut,2,accept,,,,,,QE-B,\n"
 
 
 @pytest.fixture
-def store(tmp_path):
-    with Store(tmp_path / "log.db") as s:
+def store(logs):
+    """The good data's log on the backend under test (tests/conftest.py)."""
+    with Store(logs.new()) as s:
         import_dir(s, GOOD, today=TODAY)
         yield s
 

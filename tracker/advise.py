@@ -737,8 +737,9 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
             week: str | None = None, weeks: int = limits.WEEKS_DEFAULT, step_mm: float = DEFAULT_STEP_MM,
             model=None, refit: bool = False,
             remelt_charge: float | None = None, riser_metal_charge: float | None = None,
-            thermal: bool | None = None) -> list[dict]:
-    """Suggestions for each problem pattern (or for ``pattern`` alone).
+            thermal: bool | None = None, plant: str | None = None) -> list[dict]:
+    """Suggestions for each problem pattern (or for ``pattern`` alone), of one
+    ``plant`` (default: every plant; the reject model is the whole log's).
 
     thermal: check each chosen riser by a solidification solve and take the
     next candidate where it fails (``tracker.thermal.checks``); None: only
@@ -757,6 +758,11 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
     if not step_mm > 0:
         raise BadInput("step_mm", step_mm, "the diameter step must be above 0 mm")
     charge = _remelt_charge(remelt_charge, riser_metal_charge)
+    with store.plant_scope(plant):
+        return _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge, thermal)
+
+
+def _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge, thermal) -> list[dict]:
     week, first, last = review_window(store, week, weeks)
     start, end = first.isoformat(), last.isoformat()
     if pattern is not None:
@@ -769,7 +775,8 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
     if not patterns:
         return []
     if model is None:
-        model = get_model(store, refit=refit)
+        with store.every_plant():  # the model learns from every plant's history
+            model = get_model(store, refit=refit)
     pats = store.table("patterns")
     pats = pats[pats["pattern"].isin(patterns)]
     risers = _risers_of(store, patterns)

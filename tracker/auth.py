@@ -455,11 +455,11 @@ def check_can_serve(store, host: str, require_login: bool = False) -> bool:
     if not is_loopback(host) and store.enabled_users("admin") == 0:
         raise PourbackError(f"refusing to serve the dashboard on {host}: beyond this computer (anything but "
                             f"{', '.join(LOOPBACK_HOSTS)}) every visitor must sign in, and the log "
-                            f"{store.path} has no enabled admin account. Add one with `pourback user add NAME "
+                            f"{store.name} has no enabled admin account. Add one with `pourback user add NAME "
                             "--role admin`, then accounts for the team")
     need = require_login or not is_loopback(host)
     if need and store.enabled_users() == 0:
-        raise PourbackError(f"--require-login: the log {store.path} has no enabled account to sign in "
+        raise PourbackError(f"--require-login: the log {store.name} has no enabled account to sign in "
                             "with; add one with `pourback user add NAME --role ROLE`")
     return need
 

@@ -1,6 +1,7 @@
 """Scale benchmark: a large foundry's ten years of history.
 
-``python -m tracker.bench [--lots N] [--json] [--keep DIR]`` generates a
+``python -m tracker.bench [--lots N] [--json] [--keep DIR] [--backend postgresql
+--pg-url URL]`` generates a
 seeded synthetic history (patterns, zones, a sleeve catalogue, riser
 revisions, lots and inspections, written as CSV in the import formats) and
 measures, side by side in one run, each of the project's heavy paths against
@@ -8,9 +9,9 @@ a floor or a plain alternative:
 
 - ``import``: ``tracker.ingest.import_file`` on the inspections CSV (the code
   path of ``pourback import``, after patterns, zones, sleeves, risers and lots
-  are in) against one ``executemany`` of the very rows the import wrote into
-  an identical empty table (a copy of the same database before the import),
-  in one transaction;
+  are in) against the very rows the import wrote, written raw into an
+  identical empty table (the same database before the import) in one
+  transaction: one ``executemany`` on SQLite, one ``COPY`` on PostgreSQL;
 - ``review_week``: ``weekly_review`` of one week (``weeks=1``) against its
   floor, ``Store.review_floor``: hand-written SELECTs fetching exactly the
   rows the review reads (the lots of its span, the review weeks and the week
@@ -36,6 +37,11 @@ a floor or a plain alternative:
 Each measure runs in a fresh child process (forked from a parent that holds
 no data); its peak memory is that process's ``getrusage(RUSAGE_SELF).ru_maxrss``
 read at its end, so it includes the interpreter and the imported libraries.
+
+``--backend postgresql`` runs the measures that touch the log on a PostgreSQL
+server (``--pg-url``, default $POURBACK_BENCH_PG, else $POURBACK_TEST_PG), each
+database a fresh schema dropped at the end; sizing does not touch the log and is
+measured on the SQLite run only.
 
 The synthetic foundry is invented: every code, name and number in it is made
 up. At N = 1,000,000 lots it pours about 3,000 patterns for ten years, about
@@ -64,6 +70,7 @@ import time
 import numpy as np
 import pandas as pd
 
+BACKENDS = ("sqlite", "postgresql")
 DEFAULT_LOTS = 20_000
 FULL_LOTS = 1_000_000
 SIZING_RISERS = 100_000
@@ -500,30 +507,35 @@ def _c_import_floor(src_db: str, floor_db: str) -> dict:
 
 
 def _plans(store, calls) -> list[dict]:
-    """The SQL each call ran (caught with a trace callback), named by the Store
-    method that ran it, with SQLite's query plan."""
+    """The SQL each call ran (caught at the dialect's ``execute``), named by the
+    Store method that ran it, with the database's query plan."""
     seen: dict = {}
+    run_sql = store.dialect.execute
 
-    def trace(sql):
-        f = sys._getframe(1)
+    def trace(sql, params=()):
+        record(sql, tuple(params))
+        return run_sql(sql, params)
+
+    def record(sql, params):
+        f = sys._getframe(2)
         while f is not None and not (f.f_code.co_filename.endswith(os.path.join("tracker", "store.py"))
                                      and not f.f_code.co_name.startswith(("_", "<"))):
             f = f.f_back
         name = f.f_code.co_name if f is not None else "?"
         if sql.lstrip().upper().startswith(("SELECT", "WITH")):
-            seen.setdefault(name, []).append(sql)
+            seen.setdefault(name, []).append((sql, params))
 
-    store.conn.set_trace_callback(trace)
+    store.dialect.execute = trace
     try:
         for call in calls:
             call()
     finally:
-        store.conn.set_trace_callback(None)
+        del store.dialect.execute
     out = []
     for name, statements in seen.items():
         plans = []
-        for sql in statements:
-            plan = store.query_plan(sql)
+        for sql, params in statements:
+            plan = store.query_plan(sql, params)
             if plan not in plans:
                 plans.append(plan)
         out += [{"query": name, "plan": plan} for plan in plans]
@@ -767,25 +779,53 @@ def _measure(name: str, ours_s=None, baseline_s=None, peak_rss_mb=None, **extra)
             "target": text, "met": met, "peak_rss_mb": peak_rss_mb, **extra}
 
 
+def _c_version(db: str) -> str:
+    from tracker.store import Store
+
+    with Store(db) as store:
+        return store.server_version()
+
+
 def run(lots: int = DEFAULT_LOTS, *, keep: str | os.PathLike | None = None, seed: int = SEED,
-        sizing_risers: int = SIZING_RISERS, repeats: int = 5, dashboard: bool = True) -> dict:
+        sizing_risers: int = SIZING_RISERS, repeats: int = 5, dashboard: bool = True,
+        backend: str = "sqlite", pg_url: str | None = None) -> dict:
     """Generate the history and run every measure; returns the report (JSON-ready).
 
     ``keep``: a folder to keep the CSV files and databases in (default a
-    temporary folder, removed at the end).
+    temporary folder, removed at the end; on PostgreSQL the schemas are kept
+    too). ``backend``: "sqlite" or "postgresql" (on the server at ``pg_url``).
     """
+    from tracker.store import drop_schema, new_schema
+
+    if backend not in BACKENDS:
+        raise ValueError(f"backend: got {backend!r}; use one of {', '.join(BACKENDS)}")
+    if backend == "postgresql" and not pg_url:
+        raise ValueError("backend postgresql needs a server: give pg_url (a postgresql:// URL)")
     t_start = time.perf_counter()
     work = pathlib.Path(keep) if keep else pathlib.Path(tempfile.mkdtemp(prefix="pourback-bench-"))
     work.mkdir(parents=True, exist_ok=True)
-    csv_dir, base_db, ours_db, floor_db = (work / "csv", work / "base.db", work / "log.db", work / "floor.db")
-    for p in (base_db, ours_db, floor_db):
-        for q in (p, pathlib.Path(f"{p}-wal"), pathlib.Path(f"{p}-shm")):
-            q.unlink(missing_ok=True)
+    csv_dir = work / "csv"
+    schemas: list[str] = []
+    if backend == "sqlite":
+        base_db, ours_db, floor_db = (str(work / "base.db"), str(work / "log.db"), str(work / "floor.db"))
+        for p in (base_db, ours_db, floor_db):
+            for q in (p, f"{p}-wal", f"{p}-shm"):
+                pathlib.Path(q).unlink(missing_ok=True)
+    else:
+        tag = f"bench_{os.getpid()}"
+        schemas = [f"{tag}_log", f"{tag}_floor"]
+        base_db = None
+        ours_db, floor_db = (new_schema(pg_url, s) for s in schemas)
     try:
         gen = _in_child(_c_generate, str(csv_dir), int(lots), int(seed))
-        setup = _in_child(_c_setup, str(base_db), gen["paths"])
-        shutil.copyfile(base_db, ours_db)
-        shutil.copyfile(base_db, floor_db)  # the identical empty table (and the lots it references)
+        if backend == "sqlite":
+            setup = _in_child(_c_setup, base_db, gen["paths"])
+            shutil.copyfile(base_db, ours_db)
+            shutil.copyfile(base_db, floor_db)  # the identical empty table (and the lots it references)
+        else:
+            setup = _in_child(_c_setup, ours_db, gen["paths"])
+            _in_child(_c_setup, floor_db, gen["paths"])  # the identical empty table and its lots
+        database = _in_child(_c_version, ours_db)
         measures = []
 
         ours = _in_child(_c_import, str(ours_db), gen["paths"]["inspections"])
@@ -808,11 +848,14 @@ def run(lots: int = DEFAULT_LOTS, *, keep: str | os.PathLike | None = None, seed
             plans = rv.pop("plans", plans)
             measures.append(_measure(name, **rv))
 
-        sz = _in_child(_c_sizing, int(sizing_risers), int(seed), int(repeats))
-        m = _measure("sizing", sz.pop("ours_s"), sz.pop("baseline_s"), sz.pop("peak_rss_mb"),
-                     tolerance_mm=SIZING_TOLERANCE_MM, **sz)
-        m["met"] = bool(m["met"] and m["max_abs_diff_mm"] <= SIZING_TOLERANCE_MM)
-        measures.append(m)
+        if backend == "sqlite":
+            sz = _in_child(_c_sizing, int(sizing_risers), int(seed), int(repeats))
+            m = _measure("sizing", sz.pop("ours_s"), sz.pop("baseline_s"), sz.pop("peak_rss_mb"),
+                         tolerance_mm=SIZING_TOLERANCE_MM, **sz)
+            m["met"] = bool(m["met"] and m["max_abs_diff_mm"] <= SIZING_TOLERANCE_MM)
+            measures.append(m)
+        else:
+            measures.append(_measure("sizing", not_measured="does not touch the log; see the SQLite run"))
 
         ft = _in_child(_c_fit, str(ours_db))
         measures.append(_measure("fit_model", ft.pop("ours_s"), None, ft.pop("peak_rss_mb"),
@@ -854,12 +897,16 @@ def run(lots: int = DEFAULT_LOTS, *, keep: str | os.PathLike | None = None, seed
     finally:
         if not keep:
             shutil.rmtree(work, ignore_errors=True)
+            for s in schemas:
+                drop_schema(pg_url, s)
     return {
-        "benchmark": "pourback scale", "lots": int(lots), "seed": int(seed), "machine": machine(),
+        "benchmark": "pourback scale", "lots": int(lots), "seed": int(seed), "backend": backend,
+        "database": database, "machine": machine(),
         "data": {"rows": gen["rows"], "csv_mb": gen["csv_mb"], "last_day": gen["last_day"],
                  "review_week": gen["review_week"], "generate_s": gen["generate_s"],
                  "setup_import_s": setup["setup_s"],
-                 "kept_in": str(work) if keep else None},
+                 "kept_in": str(work) if keep else None,
+                 "schemas": schemas if keep else []},
         "measures": measures,
         "query_plans": plans,
         "total_s": time.perf_counter() - t_start,
@@ -876,9 +923,9 @@ def format_report(report: dict) -> str:
     """The report as text: machine, data, one line per measure, query plans."""
     m = report["machine"]
     d = report["data"]
-    lines = [f"Pourback scale benchmark: {report['lots']:,} lots (seed {report['seed']})",
-             f"machine: {m.get('cpu')}, {m['cores']} cores, {m.get('ram_gb')} GB RAM; Python {m['python']}, "
-             f"SQLite {m['sqlite']}",
+    lines = [f"Pourback scale benchmark: {report['lots']:,} lots (seed {report['seed']}), "
+             f"log on {report['database']}",
+             f"machine: {m.get('cpu')}, {m['cores']} cores, {m.get('ram_gb')} GB RAM; Python {m['python']}",
              "data: " + ", ".join(f"{v:,} {k}" for k, v in d["rows"].items())
              + f"; inspections.csv {d['csv_mb']['inspections']} MB; generated in {_fmt_s(d['generate_s'])}, "
                f"setup import (patterns..lots) {_fmt_s(d['setup_import_s'])}; review week {d['review_week']}",
@@ -934,7 +981,8 @@ def format_report(report: dict) -> str:
         if x["name"].startswith("dashboard") and x.get("first_s") is not None:
             lines.append(f"{x['name']}: {x['page']}: first render {_fmt_s(x['first_s'])}, rerun "
                          f"{_fmt_s(x['rerun_s'])}" + (f"; errors: {x['errors']}" if x["errors"] else ""))
-    lines += ["", "Query plans of the review's queries (EXPLAIN QUERY PLAN):"]
+    lines += ["", "Query plans of the review's queries ("
+              + ("EXPLAIN QUERY PLAN" if report["backend"] == "sqlite" else "EXPLAIN") + "):"]
     for q in report["query_plans"]:
         lines.append(f"  Store.{q['query']}:")
         lines += [f"    {ln}" for ln in q["plan"]]
@@ -954,7 +1002,15 @@ def main(argv=None) -> int:
                         help=f"risers in the sizing measure (default {SIZING_RISERS:,})")
     parser.add_argument("--repeats", type=int, default=5, help="repeats of the short measures (median)")
     parser.add_argument("--seed", type=int, default=SEED)
+    parser.add_argument("--backend", choices=BACKENDS, default="sqlite",
+                        help="where the log lives (default sqlite)")
+    parser.add_argument("--pg-url", default=os.environ.get("POURBACK_BENCH_PG") or os.environ.get("POURBACK_TEST_PG"),
+                        help="PostgreSQL server for --backend postgresql (default $POURBACK_BENCH_PG, "
+                             "else $POURBACK_TEST_PG); each database is a fresh schema in it")
     args = parser.parse_args(argv)
+    if args.backend == "postgresql" and not args.pg_url:
+        parser.error("--backend postgresql: give --pg-url postgresql://user@host:port/dbname "
+                     "(or set POURBACK_BENCH_PG)")
     if args.lots < 100:
         parser.error(f"--lots: got {args.lots}; give at least 100 lots")
     if args.risers < 1 or args.repeats < 1:
@@ -966,7 +1022,7 @@ def main(argv=None) -> int:
         _STEPS = steps if steps.show else None
         try:
             report = run(args.lots, keep=args.keep, seed=args.seed, sizing_risers=args.risers,
-                         repeats=args.repeats)
+                         repeats=args.repeats, backend=args.backend, pg_url=args.pg_url)
         finally:
             _STEPS = None
     print(json.dumps(report, indent=2) if args.json else format_report(report))

@@ -150,9 +150,15 @@ class LogNotFound(LogError):
 
 
 class LogLocked(LogError):
-    """The log stayed locked by another writer longer than the busy timeout."""
+    """The log stayed locked by another writer longer than the busy timeout
+    (``seconds``), or a write met a conflict with other writers on each of
+    ``tries`` tries (a database server's serialization failures)."""
 
-    def __init__(self, path, seconds: float):
+    def __init__(self, path, seconds: float | None = None, *, tries: int | None = None):
+        if seconds is None:
+            super().__init__(path, f"the log {path} stayed busy with other writers through {tries} tries; "
+                                   "nothing was written; try again in a moment")
+            return
         super().__init__(path, f"the log {path} stayed locked by another writer for {seconds:g} s; nothing "
                                "was written; try again when the other import or backup has finished")
 

@@ -31,7 +31,7 @@ import pandas as pd
 from tracker import auth, geometry
 from tracker.errors import BadFile, BadRecord, BadRow, cut
 from tracker.limits import EARLIEST_DATE, RANGES, latest_date
-from tracker.store import KEYS, TABLE_COLUMNS, Store
+from tracker.store import DEFAULT_PLANT_KEY, KEYS, TABLE_COLUMNS, Store, retrying
 
 KINDS = ("patterns", "zones", "sleeves", "risers", "lots", "inspections")  # dependency order
 
@@ -47,7 +47,7 @@ MOULDS = ("green_sand", "rigid")  # tracker.rules.MOULDS; empty = green sand
 
 COLUMNS = {  # (required, optional)
     "patterns": (["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
-                  "metal_cost_per_kg"], ["processing_cost_per_casting", "mould"]),
+                  "metal_cost_per_kg"], ["processing_cost_per_casting", "mould", "plant"]),
     "zones": (["pattern", "zone", "volume_cm3", "cooling_area_cm2"],
               ["thickness_mm", "length_mm", "required_xray_level", "width_mm"]),
     "sleeves": (["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
@@ -60,6 +60,7 @@ COLUMNS = {  # (required, optional)
                      "record_id"]),
 }
 CHUNK_ROWS = 100_000
+PLANT_CODE = r"[A-Za-z0-9][A-Za-z0-9._-]{0,31}"
 MAX_PROBLEMS = 1000  # keep the first this many (every one is counted)
 POUR_TEMP_RANGE_C = (400.0, 1800.0)
 H_OVER_D_SANE = (0.25, 4.0)
@@ -727,8 +728,19 @@ class _Importer:
         cost = c.measure("metal_cost_per_kg")
         proc = c.measure("processing_cost_per_casting", required=False)
         mould = c.code("mould", MOULDS, required=False)
-        return [(p, d, a, w, int(n) if n == n else n, m, _float_or_none(q), _none(ml))
-                for p, d, a, w, n, m, q, ml in zip(pattern, desc, alloy, weight, per_mold, cost, proc, mould)]
+        plant = self._plant(c)
+        return [(p, d, a, w, int(n) if n == n else n, m, _float_or_none(q), _none(ml), f or None)
+                for p, d, a, w, n, m, q, ml, f in zip(pattern, desc, alloy, weight, per_mold, cost, proc, mould,
+                                                       plant)]
+
+    def _plant(self, c: _Checks) -> pd.Series:
+        """The plant column: a short code; empty takes the log's default plant
+        (``pourback init --plant``), or none."""
+        plant = c.text("plant", required=False, max_len=32)
+        c.fail((plant != "") & ~plant.str.fullmatch(PLANT_CODE), "plant",
+               "a plant code is letters, digits, '.', '-' or '_' (e.g. NORTH or plant-2)")
+        default = self.store.get_meta(DEFAULT_PLANT_KEY) or ""
+        return plant.where(plant != "", default)
 
     def _known_patterns(self, c: _Checks, pattern: pd.Series) -> dict:
         info = self.store.patterns_info()
@@ -1128,6 +1140,19 @@ def _same(a: tuple, b: tuple) -> bool:
 
 # --- public entry points ----------------------------------------------------------
 
+def set_default_plant(store: Store, plant: str) -> None:
+    """Name the plant that patterns imported without a plant column belong to."""
+    import re
+
+    from tracker.errors import BadInput
+
+    plant = str(plant).strip()
+    if not re.fullmatch(PLANT_CODE, plant):
+        raise BadInput("plant", plant, "a plant code is 1 to 32 letters, digits, '.', '-' or '_' "
+                                       "(e.g. NORTH or plant-2)")
+    store.set_meta(DEFAULT_PLANT_KEY, plant)
+
+
 def import_file(store: Store, kind: str, path: str | os.PathLike, *, skip_bad: bool = False,
                 by: str | None = None, today: dt.date | None = None,
                 progress: Callable[[int], None] | None = None,
@@ -1143,6 +1168,7 @@ def import_file(store: Store, kind: str, path: str | os.PathLike, *, skip_bad: b
                         refused_to=refused_to)[0]
 
 
+@retrying
 def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, skip_bad: bool = False,
                  by: str | None = None, today: dt.date | None = None,
                  progress: Callable[[int], None] | None = None,
@@ -1382,6 +1408,7 @@ def write_refused(result: ImportResult, path: str | os.PathLike) -> pathlib.Path
     return path
 
 
+@retrying
 def log_inspection(store: Store, record: dict, *, by: str | None = None,
                    today: dt.date | None = None, source: str = "form") -> int:
     """Validate one inspection result as the import would and store it.
@@ -1452,6 +1479,7 @@ def _form_text(p: BadRow) -> str:
     return f"{label}: {got}; {rule}" if got else f"{label}: {rule}"
 
 
+@retrying
 def correct_inspection(store: Store, record_id: int, changes: dict, *, by: str, reason: str,
                        today: dt.date | None = None) -> int:
     """Supersede record ``record_id`` by a corrected copy; the old one stays in the history.

@@ -250,8 +250,9 @@ def _md_table(items, columns) -> str:
 
 def _headline(review) -> list[str]:
     w = review["window"]
+    plant = f", plant {review['plant']}" if review.get("plant") else ""
     return [
-        f"Week {review['week']} ({review['week_start']} to {review['week_end']})",
+        f"Week {review['week']} ({review['week_start']} to {review['week_end']}){plant}",
         f"Window: {w['first_week']} to {w['last_week']} ({w['weeks']} weeks, {w['start']} to {w['end']}); "
         f"target reject rate {pct(review['target'])} %",
         f"Rates: {review.get('rate_basis', 'rejected / inspected')}",
@@ -339,7 +340,8 @@ def _revision_lines(review) -> list[str]:
 def render_md(review: dict) -> str:
     """The review as Markdown (user text HTML-escaped, pipes escaped)."""
     head = _headline(review)
-    out = [f"# Scrap review, {review['week']}", "", *(f"{_md_cell(h)}  " for h in head[1:]), "",
+    plant = f", plant {_md_cell(review['plant'])}" if review.get("plant") else ""
+    out = [f"# Scrap review, {review['week']}{plant}", "", *(f"{_md_cell(h)}  " for h in head[1:]), "",
            "## Totals", "", _md_table(_totals_rows(review), _TOTAL_COLS), ""]
     probs = [p for p in review["patterns"] if p["problem"]]
     out += [f"## Needs attention ({len(probs)})", ""]
@@ -758,7 +760,8 @@ def render_html(review: dict) -> str:
     out = ["<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
            '<meta name="viewport" content="width=device-width, initial-scale=1">',
            f"<title>Scrap review {_e(review['week'])}</title><style>{CSS}</style></head><body>",
-           f"<header><h1>Scrap review, week {_e(review['week'])}</h1>",
+           f"<header><h1>Scrap review, week {_e(review['week'])}"
+           + (f", plant {_e(review['plant'])}" if review.get("plant") else "") + "</h1>",
            f'<p class="sub">{_e(review["week_start"])} to {_e(review["week_end"])} · figures over '
            f'{w["weeks"]} weeks, {_e(w["first_week"])} to {_e(w["last_week"])} ({_e(w["start"])} to '
            f'{_e(w["end"])}) · target reject rate {pct(review["target"])} %</p></header>']
@@ -854,3 +857,61 @@ def render(review: dict, fmt: str = "table") -> str:
 
         raise BadInput("format", fmt, "use one of " + ", ".join(FORMATS))
     return RENDERERS[fmt](review)
+
+
+# --- plants side by side ---------------------------------------------------------------------
+
+def _plant_columns():
+    return [
+        ("Plant", lambda r: r["plant"]),
+        ("Patterns", lambda r: count(r["patterns"])),
+        ("Inspected (castings)", lambda r: count(r["inspected"])),
+        ("Rejected (castings)", lambda r: count(r["rejected"])),
+        ("Reject rate (%)", lambda r: pct(r["reject_rate"], 2)),
+        ("Wilson interval (%)", lambda r: _interval(r["wilson_low"], r["wilson_high"])),
+        ("Shrinkage rate (%)", lambda r: pct(r["shrinkage_rate"], 2)),
+        ("Scrap cost", lambda r: money(r["scrap_cost"])),
+        ("Week rejected / inspected", lambda r: f"{count(r['week_rejected'])} / {count(r['week_inspected'])}"),
+        ("Week reject rate (%)", lambda r: pct(r["week_reject_rate"], 2)),
+        ("Problem patterns", lambda r: ", ".join(r["problems"]) or "none"),
+    ]
+
+
+def _plants_head(d: dict) -> list[str]:
+    w = d["window"]
+    return [f"Plants side by side, alloy {d['alloy']}, week {d['week']}",
+            f"Window: {w['first_week']} to {w['last_week']} ({w['weeks']} weeks, {w['start']} to {w['end']}); "
+            f"target reject rate {pct(d['target'])} %; intervals {_conf(d)}",
+            f"Rates: {d['rate_basis']}"]
+
+
+def render_plants(d: dict, fmt: str = "table") -> str:
+    """A plant comparison (:func:`tracker.review.compare_plants`) in one of ``FORMATS``."""
+    cols = _plant_columns()
+    if fmt == "json":
+        return render_json(d)
+    if fmt == "csv":
+        buf = io.StringIO()
+        w = csv.writer(buf, lineterminator="\n")
+        keys = list(d["plants"][0]) if d["plants"] else []
+        w.writerow(keys)
+        for r in d["plants"]:
+            w.writerow([safe_cell(", ".join(r[k]) if isinstance(r[k], list) else r[k]) for k in keys])
+        return buf.getvalue()
+    if fmt == "md":
+        head = _plants_head(d)
+        return "\n".join([f"# {_md_cell(head[0])}", "", *(f"{_md_cell(h)}  " for h in head[1:]), "",
+                          _md_table(d["plants"], cols), ""])
+    if fmt == "html":
+        head = _plants_head(d)
+        return "\n".join(["<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
+                          f"<title>{_e(head[0])}</title><style>{CSS}</style></head><body>",
+                          f"<header><h1>{_e(head[0])}</h1>",
+                          *(f'<p class="sub">{_e(h)}</p>' for h in head[1:]), "</header>",
+                          _html_table(d["plants"], cols, {h for h, _ in cols[1:-1]}),
+                          "</body></html>", ""])
+    if fmt == "table":
+        return "\n".join([*_plants_head(d), "", _text_table(d["plants"], cols)]) + "\n"
+    from tracker.errors import BadInput
+
+    raise BadInput("format", fmt, "use one of " + ", ".join(FORMATS))

@@ -702,7 +702,18 @@ def problem_patterns(store: Store, week: str | None = None, weeks: int = limits.
 @_without_gc_pauses
 def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEEKS_DEFAULT,
                   target: float = limits.TARGET_DEFAULT,
-                  *, confidence: float = 0.95) -> dict:
+                  *, confidence: float = 0.95, plant: str | None = None) -> dict:
+    """The scrap review of ISO week ``week`` and the weeks before it, of one
+    ``plant``'s patterns (default: every plant), with ``plant`` in the result.
+    See :func:`_weekly_review` for the parameters and the result."""
+    with store.plant_scope(plant):
+        out = _weekly_review(store, week, weeks, target, confidence=confidence)
+    return {"plant": plant, **out}
+
+
+def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEEKS_DEFAULT,
+                   target: float = limits.TARGET_DEFAULT,
+                   *, confidence: float = 0.95) -> dict:
     """The scrap review of ISO week ``week`` and the weeks before it.
 
     Parameters
@@ -828,3 +839,62 @@ def _changes(now: dict, before: dict, revisions: list[dict], monday: dt.date, we
         "revisions_took_effect": took,
         "rate_moves": moves[:RATE_MOVES_SHOWN],
     }
+
+
+# --- plants side by side -------------------------------------------------------------------
+
+PLANT_COMPARE_KEYS = [
+    "plant", "patterns", "poured", "inspected", "rejected", "reject_rate", "wilson_low", "wilson_high",
+    "shrinkage_rejected", "shrinkage_rate", "scrap_cost", "week_poured", "week_inspected",
+    "week_rejected", "week_reject_rate", "week_wilson_low", "week_wilson_high", "week_scrap_cost",
+    "problems",
+]
+
+
+def compare_plants(store: Store, alloy: str, week: str | None = None, weeks: int = 13,
+                   target: float = 0.02, *, confidence: float = 0.95) -> dict:
+    """The plants side by side for one alloy: each plant's review (same week and
+    window for all) summed over its patterns of ``alloy``.
+
+    Returns ``alloy``, ``week``, ``window`` (as in :func:`weekly_review`),
+    ``target``, ``confidence``, ``rate_basis``, ``units``, ``plants`` (one dict
+    per plant, keys ``PLANT_COMPARE_KEYS``: rates with Wilson intervals over the
+    window and the review week, scrap cost, problem patterns) and ``caution``.
+    A plant that poured none of the alloy in the window has zeros and None rates.
+    """
+    from tracker.alloys import ALLOYS
+    from tracker.errors import UnknownAlloy
+
+    if alloy not in ALLOYS:
+        raise UnknownAlloy(alloy, ALLOYS)
+    plants = store.plants()
+    if not plants:
+        raise BadInput("plant", None, "the log names no plants: give patterns a plant column, or set "
+                                      "`pourback init --plant CODE` before importing them")
+    if week is None:
+        week = default_week(store)
+    rows, head = [], None
+    for plant in plants:
+        r = weekly_review(store, week=week, weeks=weeks, target=target, confidence=confidence, plant=plant)
+        head = head or r
+        mine = [p for p in r["patterns"] if p["alloy"] == alloy]
+        row = {"plant": plant, "patterns": len(mine)}
+        for k in ("poured", "inspected", "rejected", "shrinkage_rejected", "week_poured", "week_inspected",
+                  "week_rejected"):
+            row[k] = int(sum(p[k] or 0 for p in mine))
+        row["scrap_cost"] = float(sum(p["scrap_cost"] or 0.0 for p in mine))
+        row["week_scrap_cost"] = float(sum(p["week_scrap_cost"] or 0.0 for p in mine))
+        row["reject_rate"] = float(_rate(row["rejected"], row["inspected"]))
+        row["wilson_low"], row["wilson_high"] = stats.wilson_interval(row["rejected"], row["inspected"],
+                                                                      confidence)
+        row["shrinkage_rate"] = float(_rate(row["shrinkage_rejected"], row["inspected"]))
+        row["week_reject_rate"] = float(_rate(row["week_rejected"], row["week_inspected"]))
+        row["week_wilson_low"], row["week_wilson_high"] = stats.wilson_interval(
+            row["week_rejected"], row["week_inspected"], confidence)
+        row["problems"] = [p["pattern"] for p in mine if p["problem"]]
+        rows.append({k: row[k] for k in PLANT_COMPARE_KEYS})
+    return jsonable({
+        "alloy": alloy, "week": head["week"], "window": head["window"], "target": head["target"],
+        "confidence": confidence, "rate_basis": head["rate_basis"], "units": head["units"],
+        "plants": rows, "caution": SAFETY_CAUTION,
+    })

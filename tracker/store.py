@@ -1,9 +1,15 @@
-"""The SQLite log: schema, migrations and every SQL statement of the project.
+"""The log: schema, migrations and every SQL statement of the project.
 
-Nothing outside this module writes SQL. Reads return pandas DataFrames or
-plain dicts; writes run in ``BEGIN IMMEDIATE`` transactions so that an import
-is all-or-nothing and concurrent writers wait for each other (WAL mode and a
-busy timeout) instead of failing.
+Nothing outside this module writes SQL. The log lives in an SQLite file (the
+embedded default) or on a PostgreSQL server (a ``postgresql://`` URL). The SQL
+here is written once for both; what differs between the two (connection,
+placeholders, DDL types, schema version, row ids, COPY, the writers' lock,
+retries, query plans) lives in :mod:`tracker.dialect`, used from here only.
+
+Reads return pandas DataFrames or plain dicts; writes run in transactions that
+let one writer in at a time (SQLite's ``BEGIN IMMEDIATE``, PostgreSQL's
+advisory lock), so that an import is all-or-nothing and concurrent writers
+wait for each other instead of failing.
 
 Inspection records are never overwritten: a correction is a new record whose
 ``supersedes`` names the old one; the *current* records are those no other
@@ -14,30 +20,32 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
+import functools
+import hashlib
 import os
 import pathlib
 import sqlite3
-import time
 from typing import Callable, Iterable, Iterator
 
 import pandas as pd
-import sqlite_utils
 
 from tracker import auth
+from tracker import dialect as dialects
 from tracker.alloys import ALLOYS
+from tracker.dialect import (BUSY_TIMEOUT_MS, data_version, display_name, drop_schema,  # noqa: F401
+                             is_url, log_error, new_schema, with_schema)  # re-exported: callers use store.py only
 from tracker.errors import (DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog,  # noqa: F401
                             NotFound, PourbackError)
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 8
-BUSY_TIMEOUT_MS = 30_000
-NOTICE_AFTER_MS = 1_000  # say that a write waits for another writer after this long
+SCHEMA_VERSION = 9
+DEFAULT_PLANT_KEY = "default_plant"  # meta key set by `pourback init --plant`
 
 # Column order of each import kind's table, as stored.
 TABLE_COLUMNS = {
     "patterns": ["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
-                 "metal_cost_per_kg", "processing_cost_per_casting", "mould"],
+                 "metal_cost_per_kg", "processing_cost_per_casting", "mould", "plant"],
     "zones": ["pattern", "zone", "volume_cm3", "cooling_area_cm2", "thickness_mm", "length_mm",
               "required_xray_level", "width_mm"],
     "sleeves": ["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
@@ -63,40 +71,68 @@ KEYS = {
 
 
 def resolve_path(path: str | os.PathLike | None = None) -> str:
-    """The database path: the argument, else $POURBACK_DB, else ./pourback.db."""
+    """The log: the argument, else $POURBACK_DB, else ./pourback.db (a file path
+    or a ``postgresql://`` URL)."""
     if path:
         return str(path)
     return os.environ.get(ENV_DB) or DEFAULT_DB
 
 
-# --- migrations -------------------------------------------------------------------
+def _database_errors() -> tuple:
+    try:
+        import psycopg
+    except ImportError:  # pragma: no cover - psycopg is a dependency
+        return (sqlite3.Error,)
+    return (sqlite3.Error, psycopg.Error)
 
-def _migration_1(db: sqlite_utils.Database) -> None:
-    db["alloys"].create({
-        "alloy": str, "name": str, "shrinkage": float, "density_kg_dm3": float,
-        "bare_efficiency": float, "caine_a": float, "caine_b": float, "caine_c": float,
-        "source": str,
-    }, pk="alloy", not_null={"alloy", "shrinkage", "density_kg_dm3", "bare_efficiency"})
-    db["patterns"].create({
-        "pattern": str, "description": str, "alloy": str, "casting_weight_kg": float,
-        "castings_per_mold": int, "metal_cost_per_kg": float,
-        "processing_cost_per_casting": float,
-    }, pk="pattern", foreign_keys=[("alloy", "alloys", "alloy")],
-        not_null={"alloy", "casting_weight_kg", "castings_per_mold", "metal_cost_per_kg"})
-    db["zones"].create({
-        "pattern": str, "zone": str, "volume_cm3": float, "cooling_area_cm2": float,
-        "thickness_mm": float, "length_mm": float, "required_xray_level": int,
-    }, pk=("pattern", "zone"), foreign_keys=[("pattern", "patterns", "pattern")],
-        not_null={"volume_cm3", "cooling_area_cm2"})
-    db["sleeves"].create({
-        "sleeve": str, "kind": str, "inner_diameter_mm": float, "height_mm": float,
-        "modulus_factor": float, "feeding_efficiency": float, "unit_cost": float,
-    }, pk="sleeve", not_null={"kind", "inner_diameter_mm", "height_mm", "modulus_factor",
-                              "feeding_efficiency"})
-    db["revisions"].create({"pattern": str, "revision": str, "effective_from": str},
-                           pk=("pattern", "revision"),
-                           foreign_keys=[("pattern", "patterns", "pattern")],
-                           not_null={"effective_from"})
+
+# What a database may raise that is no fault of the input (the CLI shows it in one line).
+DATABASE_ERRORS = _database_errors()
+
+
+def absolute_target(path: str | os.PathLike | None = None) -> str:
+    """:func:`resolve_path`, with a file path made absolute (a URL stays as it is)."""
+    target = resolve_path(path)
+    return target if is_url(target) or target == ":memory:" else os.path.abspath(target)
+
+
+# --- migrations -------------------------------------------------------------------
+# Each migration is plain SQL in the subset both dialects share, run through
+# ``db.execute`` (a :class:`_Schema`), which maps the column types to the
+# dialect's (INTEGER PRIMARY KEY, REAL, BLOB, TEXT) and ``?`` to its placeholder.
+
+def _migration_1(db: "_Schema") -> None:
+    db.execute("""
+        CREATE TABLE alloys (
+            alloy TEXT PRIMARY KEY NOT NULL, name TEXT, shrinkage REAL NOT NULL,
+            density_kg_dm3 REAL NOT NULL, bare_efficiency REAL NOT NULL,
+            caine_a REAL, caine_b REAL, caine_c REAL, source TEXT
+        )""")
+    db.execute("""
+        CREATE TABLE patterns (
+            pattern TEXT PRIMARY KEY, description TEXT,
+            alloy TEXT NOT NULL REFERENCES alloys(alloy),
+            casting_weight_kg REAL NOT NULL, castings_per_mold INTEGER NOT NULL,
+            metal_cost_per_kg REAL NOT NULL, processing_cost_per_casting REAL
+        )""")
+    db.execute("""
+        CREATE TABLE zones (
+            pattern TEXT REFERENCES patterns(pattern), zone TEXT,
+            volume_cm3 REAL NOT NULL, cooling_area_cm2 REAL NOT NULL,
+            thickness_mm REAL, length_mm REAL, required_xray_level INTEGER,
+            PRIMARY KEY (pattern, zone)
+        )""")
+    db.execute("""
+        CREATE TABLE sleeves (
+            sleeve TEXT PRIMARY KEY, kind TEXT NOT NULL, inner_diameter_mm REAL NOT NULL,
+            height_mm REAL NOT NULL, modulus_factor REAL NOT NULL,
+            feeding_efficiency REAL NOT NULL, unit_cost REAL
+        )""")
+    db.execute("""
+        CREATE TABLE revisions (
+            pattern TEXT REFERENCES patterns(pattern), revision TEXT,
+            effective_from TEXT NOT NULL, PRIMARY KEY (pattern, revision)
+        )""")
     db.execute("""
         CREATE TABLE risers (
             pattern TEXT NOT NULL, revision TEXT NOT NULL, riser TEXT NOT NULL,
@@ -107,11 +143,11 @@ def _migration_1(db: sqlite_utils.Database) -> None:
             FOREIGN KEY (pattern, revision) REFERENCES revisions(pattern, revision),
             FOREIGN KEY (pattern, zone) REFERENCES zones(pattern, zone)
         )""")
-    db["lots"].create({
-        "lot": str, "pattern": str, "poured_on": str, "heat": str, "molds": int,
-        "pour_temp_c": float,
-    }, pk="lot", foreign_keys=[("pattern", "patterns", "pattern")],
-        not_null={"pattern", "poured_on", "molds"})
+    db.execute("""
+        CREATE TABLE lots (
+            lot TEXT PRIMARY KEY, pattern TEXT NOT NULL REFERENCES patterns(pattern),
+            poured_on TEXT NOT NULL, heat TEXT, molds INTEGER NOT NULL, pour_temp_c REAL
+        )""")
     db.execute("""
         CREATE TABLE inspections (
             id INTEGER PRIMARY KEY,
@@ -137,19 +173,17 @@ def _migration_1(db: sqlite_utils.Database) -> None:
     db.execute("CREATE INDEX risers_zone ON risers(pattern, zone)")
     for a in ALLOYS.values():
         c = a.caine
-        db["alloys"].insert({
-            "alloy": a.key, "name": a.name, "shrinkage": a.shrinkage,
-            "density_kg_dm3": a.density_kg_dm3, "bare_efficiency": a.bare_efficiency,
-            "caine_a": c.a if c else None, "caine_b": c.b if c else None,
-            "caine_c": c.c if c else None, "source": a.source,
-        })
+        db.execute("INSERT INTO alloys (alloy, name, shrinkage, density_kg_dm3, bare_efficiency, "
+                   "caine_a, caine_b, caine_c, source) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                   (a.key, a.name, a.shrinkage, a.density_kg_dm3, a.bare_efficiency,
+                    c.a if c else None, c.b if c else None, c.c if c else None, a.source))
 
 
-def _migration_2(db: sqlite_utils.Database) -> None:
-    db["meta"].create({"key": str, "value": str}, pk="key")
+def _migration_2(db: "_Schema") -> None:
+    db.execute("CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT)")
 
 
-def _migration_3(db: sqlite_utils.Database) -> None:
+def _migration_3(db: "_Schema") -> None:
     # Indexes for the review's queries on a large log (checked with EXPLAIN QUERY PLAN
     # by ``python -m tracker.bench``). Lots by pour date carry pattern, lot and molds, so
     # a window's lots are read from the index alone (and come grouped by day and pattern).
@@ -166,7 +200,7 @@ def _migration_3(db: sqlite_utils.Database) -> None:
 _LEGACY_KEY = "substr(record_key, 41, 1) = ':'"
 
 
-def _migration_4(db: sqlite_utils.Database) -> None:
+def _migration_4(db: "_Schema") -> None:
     # Inspection rows were keyed by their content and its occurrence in the file, so an
     # identical row in a second file was taken as "already present" and lost. From now on
     # a row is keyed by the file it came from (its content digest) and its row number, or
@@ -189,7 +223,7 @@ def _migration_4(db: sqlite_utils.Database) -> None:
         db.execute("INSERT INTO meta (key, value) VALUES ('legacy_keys', '1')")
 
 
-def _migration_5(db: sqlite_utils.Database) -> None:
+def _migration_5(db: "_Schema") -> None:
     # Accounts, dashboard sessions and the audit of who did what (tracker/auth.py).
     # A password is kept only as its Argon2id hash; a session only as the SHA-256
     # of its token.
@@ -222,7 +256,7 @@ def _migration_5(db: sqlite_utils.Database) -> None:
     db.execute("CREATE INDEX sessions_user ON sessions(user)")
 
 
-def _migration_6(db: sqlite_utils.Database) -> None:
+def _migration_6(db: "_Schema") -> None:
     # The mould a pattern is moulded in (green_sand or rigid; empty = green sand): ductile
     # iron's pressure-control rules depend on it. A zone's width, for the feeding-distance
     # rules of bars and plates (width over thickness).
@@ -230,10 +264,16 @@ def _migration_6(db: sqlite_utils.Database) -> None:
     db.execute("ALTER TABLE zones ADD COLUMN width_mm REAL")
 
 
-def _migration_7(db: sqlite_utils.Database) -> None:
+def _migration_7(db: "_Schema") -> None:
     # A new lot code that differs from a stored one only by case ("l26-0412" beside
     # "L26-0412") is imported with a warning: found through this index, not a scan.
     db.execute("CREATE INDEX lots_lot_lower ON lots(lower(lot))")
+
+
+def _migration_8(db: "_Schema") -> None:
+    # Plants: a pattern belongs to one plant of a group (None: the log's only plant).
+    db.execute("ALTER TABLE patterns ADD COLUMN plant TEXT")
+    db.execute("CREATE INDEX patterns_plant ON patterns(plant, pattern)")
 
 
 # --- running totals per pattern and pour day -----------------------------------------
@@ -364,7 +404,7 @@ def _refresh_totals(execute, since: dict[str, str]) -> None:
             execute(sql, params)
 
 
-def _migration_8(db) -> None:
+def _migration_9(db: "_Schema") -> None:
     # The running totals the riser revisions' before/after are read from (see above).
     db.execute("""
         CREATE TABLE day_totals (
@@ -383,52 +423,89 @@ def _migration_8(db) -> None:
 
 
 MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6,
-              _migration_7, _migration_8]  # index i brings the schema from version i to i + 1
+              _migration_7, _migration_8, _migration_9]  # index i brings the schema from version i to i + 1
+
+
+# Tables in an order that inserts parents before children (copy-log); a table not
+# named here is copied after these, in name order.
+COPY_ORDER = ["alloys", "meta", "patterns", "zones", "sleeves", "revisions", "risers", "lots",
+              "inspections", "models", "imports", "users", "sessions", "audit"]
+
+
+def _canonical(value) -> str:
+    """One stored value as text, the same from SQLite and PostgreSQL."""
+    if value is None:
+        return "\\N"
+    if isinstance(value, bool):
+        return str(int(value))
+    if isinstance(value, float):
+        return repr(value)
+    if isinstance(value, (bytes, bytearray, memoryview)):
+        return bytes(value).hex()
+    return str(value)
+
+
+def _batches(cur, size: int) -> Iterator[list[tuple]]:
+    """A cursor's rows, ``size`` at a time."""
+    while True:
+        batch = cur.fetchmany(size)
+        if not batch:
+            return
+        yield batch
+
+
+class _Schema:
+    """What a migration writes through: DDL and seed rows in the shared subset,
+    mapped to the dialect (see the note above the migrations)."""
+
+    def __init__(self, dialect):
+        self.dialect = dialect
+
+    def execute(self, sql: str, params: Iterable = ()):
+        return self.dialect.execute(self.dialect.ddl(sql), params)
+
+
+def retrying(fn):
+    """Decorate a write ``fn(store, ...)`` so that a transient conflict reported
+    by the database (PostgreSQL: a serialization failure or a deadlock; SQLite: a
+    locked log) runs the whole of it again, after a short pause, instead of
+    reaching the user; the transaction it wrote in was rolled back, so nothing is
+    doubled. Only the outermost call retries (a nested one is inside a
+    transaction that must fail as a whole). Gives up with :class:`LogLocked`."""
+    @functools.wraps(fn)
+    def wrapper(store: "Store", *args, **kwargs):
+        if store.dialect.in_transaction:
+            return fn(store, *args, **kwargs)
+        return store.dialect.retry(lambda: fn(store, *args, **kwargs))
+    return wrapper
 
 
 # --- the store --------------------------------------------------------------------
 
-def log_error(exc: sqlite3.Error, path: str) -> PourbackError:
-    """The one-line error a user sees for an SQLite failure on the log at ``path``."""
-    msg = str(exc)
-    low = msg.lower()
-    if "readonly" in low or "read-only" in low:
-        return LogReadOnly(path)
-    if "disk is full" in low or "database or disk is full" in low:
-        return DiskFull(path)
-    if "not a database" in low or "malformed" in low:
-        return NotALog(path, f"SQLite says: {msg}")
-    if "unable to open" in low:
-        parent = pathlib.Path(path).parent
-        if not parent.is_dir():
-            return LogError(path, f"cannot open the log {path}: the folder {parent} does not exist; check "
-                                  "the path given with --db (or $POURBACK_DB)")
-        if pathlib.Path(path).is_dir():
-            return LogError(path, f"cannot open the log {path}: it is a folder; give the log's file with --db")
-        return LogError(path, f"cannot open the log {path} ({msg}); check that the file and its folder can "
-                              "be read and written")
-    return LogError(path, f"the log {path} could not be used ({msg}); nothing was written")
-
-
 class Store:
     """One open connection to the log.
 
-    ``Store(path)`` opens (creating and migrating when needed) the database;
-    use it as a context manager so the connection is closed. With
-    ``create=False`` a missing file is an error (only ``pourback init`` and
-    ``demo`` create a log). ``on_wait`` is called with a message when a write
-    has waited a second for another writer and goes on waiting.
+    ``Store(target)`` opens (creating and migrating when needed) the log in an
+    SQLite file or, for a ``postgresql://`` URL, on a PostgreSQL server; use it
+    as a context manager so the connection is closed. ``path`` is the target
+    as given (a URL keeps its password: print ``name``, which masks it).
     """
 
     def __init__(self, path: str | os.PathLike | None = None, *, create: bool = True, actor=None,
                  on_wait: Callable[[str], None] | None = None):
         self.path = resolve_path(path)
+        self.name = display_name(self.path)
+        # Called with a message when a write has waited a second for another writer
+        # and goes on waiting.
+        self.on_wait = on_wait
+        self.dialect = dialects.for_target(self.path, create, on_wait=on_wait)
+        self.backend = self.dialect.name
+        self.conn = self.dialect  # execute(sql, params) in the shared SQL
+        self.plant: str | None = None  # set by plant_scope: reads see that plant's patterns only
         # Who writes through this connection: None for the local desk (the command
         # line, a dashboard on loopback without sign-in), else a signed-in
         # ``tracker.auth.Session`` whose role every write is checked against.
         self.actor = actor
-        self.on_wait = on_wait
-        self.conn = None
         # Writes of lots and records not yet in day_totals / zone_totals: per pattern the
         # earliest pour day touched, and the largest record id before the first record
         # written (every record above it is new). Brought up to date as the outermost
@@ -436,46 +513,18 @@ class Store:
         self._touched: dict[str, str] = {}
         self._records_above: int | None = None
         self._writing = 0
-        memory = self.path == ":memory:"
-        if not memory and not create and not pathlib.Path(self.path).exists():
-            raise LogNotFound(self.path)
-        if not memory and pathlib.Path(self.path).is_dir():
-            raise LogError(self.path, f"cannot open the log {self.path}: it is a folder; give the log's "
-                                      "file with --db")
         try:
-            if not memory and not create and pathlib.Path(self.path).stat().st_size == 0:
-                raise NotALog(self.path, "the file is empty")
-            conn = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
-            self.conn = conn
-            self.db = sqlite_utils.Database(conn)
-            conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
-            conn.execute("PRAGMA foreign_keys = ON")
-            self._check_foreign()
-            if not memory:
-                self._retry(lambda: conn.execute("PRAGMA journal_mode = WAL"))
-                conn.execute("PRAGMA synchronous = NORMAL")
             self.migrate()
-        except sqlite3.Error as exc:
+        except DATABASE_ERRORS as exc:
             self.close()
             raise log_error(exc, self.path) from None
         except BaseException:
             self.close()
             raise
 
-    def _check_foreign(self) -> None:
-        """Refuse an SQLite database of another program (its tables, no schema version)."""
-        if self.schema_version() != 0:
-            return
-        tables = [r[0] for r in self.conn.execute(
-            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name LIMIT 4")]
-        if tables:
-            raise NotALog(self.path, "an SQLite database of another program, with the tables "
-                                     + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else ""))
-
     # connection handling
     def close(self) -> None:
-        if self.conn is not None:
-            self.conn.close()
+        self.dialect.close()
 
     def __enter__(self) -> "Store":
         return self
@@ -484,82 +533,82 @@ class Store:
         self.close()
 
     def _retry(self, fn, attempts: int = 8):
-        delay = 0.05
-        for i in range(attempts):
-            try:
-                return fn()
-            except sqlite3.OperationalError as exc:
-                if "locked" not in str(exc) and "busy" not in str(exc):
-                    raise
-                if i == attempts - 1:
-                    raise LogLocked(self.path, BUSY_TIMEOUT_MS / 1000) from None
-                time.sleep(delay)
-                delay = min(delay * 2, 1.0)
-
-    def _begin(self) -> None:
-        """BEGIN IMMEDIATE: wait a second for another writer, say so, then wait the rest."""
-        first = min(NOTICE_AFTER_MS, BUSY_TIMEOUT_MS)
-        self.conn.execute(f"PRAGMA busy_timeout = {first}")
-        try:
-            try:
-                self.conn.execute("BEGIN IMMEDIATE")
-                return
-            except sqlite3.OperationalError as exc:
-                if "locked" not in str(exc) and "busy" not in str(exc):
-                    raise
-            if self.on_wait is not None:
-                self.on_wait(f"The log {self.path} is locked by another writer; waiting up to "
-                             f"{(BUSY_TIMEOUT_MS - first) / 1000:g} s more ...")
-            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS - first}")
-            self._retry(lambda: self.conn.execute("BEGIN IMMEDIATE"))
-        finally:
-            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+        return self.dialect.retry(fn, attempts)
 
     @contextlib.contextmanager
     def write(self) -> Iterator["Store"]:
         """A write transaction: everything inside commits together or not at all.
 
-        An SQLite failure (read-only file, full disk, a lock held too long)
-        rolls it back and becomes one :class:`LogError`."""
-        if self.conn.in_transaction:
-            self._writing += 1
-            try:
-                with self.db.atomic():
-                    yield self
-                    if self._writing == 1:
-                        self._bring_totals_up_to_date()
-            finally:
-                self._writing -= 1
-                if not self._writing:
-                    self._forget_touched()
-            return
-        try:
-            self._begin()
-        except sqlite3.Error as exc:
-            raise log_error(exc, self.path) from None
+        A failure of the database (read-only file, full disk, a lock held too
+        long, a server that went away) rolls it back and becomes one
+        :class:`LogError`; a conflict worth running again (see :func:`retrying`)
+        is passed on as it is."""
+        nested = self.dialect.in_transaction
         self._writing += 1
         try:
-            yield self
-            self._bring_totals_up_to_date()
-            self._retry(lambda: self.conn.execute("COMMIT"))
-        except BaseException as exc:
-            if self.conn.in_transaction:
-                with contextlib.suppress(sqlite3.Error):
-                    self.conn.execute("ROLLBACK")
-            if isinstance(exc, sqlite3.Error):
-                raise log_error(exc, self.path) from None
-            raise
+            with self.dialect.write():
+                yield self
+                if self._writing == 1:  # the outermost write: the totals, then commit
+                    self._bring_totals_up_to_date()
+        except DATABASE_ERRORS as exc:
+            if nested or self.dialect.transient(exc):
+                raise
+            raise log_error(exc, self.path) from None
         finally:
             self._writing -= 1
-            self._forget_touched()
+            if not self._writing:
+                self._forget_touched()
 
     def schema_version(self) -> int:
-        return self.conn.execute("PRAGMA user_version").fetchone()[0]
+        return self.dialect.schema_version()
+
+    def server_version(self) -> str:
+        """The database engine and its version, e.g. "SQLite 3.40.1" or "PostgreSQL 15.18"."""
+        return self.dialect.version()
+
+    # --- plants -------------------------------------------------------------------
+    @contextlib.contextmanager
+    def plant_scope(self, plant: str | None) -> Iterator["Store"]:
+        """Inside, the reads by pour date (lots, records, pours, rejects, notes,
+        poured patterns, revisions, the pour span) see only ``plant``'s patterns.
+        ``None`` keeps the scope as it is (every plant, unless an outer scope
+        chose one); :meth:`every_plant` lifts it."""
+        if plant is None:
+            yield self
+            return
+        if plant not in self.plants():
+            known = ", ".join(self.plants()) or "none yet"
+            raise NotFound("plant", plant, f"the plants in the log are: {known} (the patterns "
+                                           "import's plant column, or `pourback init --plant`)")
+        before, self.plant = self.plant, plant
+        try:
+            yield self
+        finally:
+            self.plant = before
+
+    @contextlib.contextmanager
+    def every_plant(self) -> Iterator["Store"]:
+        """Inside, reads see every plant whatever scope is around."""
+        before, self.plant = self.plant, None
+        try:
+            yield self
+        finally:
+            self.plant = before
+
+    def plants(self) -> list[str]:
+        """The plant codes the log's patterns name, in order."""
+        return [r[0] for r in self.conn.execute(
+            "SELECT DISTINCT plant FROM patterns WHERE plant IS NOT NULL ORDER BY plant")]
+
+    def _plant_filter(self, column: str = "l.pattern") -> tuple[list[str], list]:
+        if self.plant is None:
+            return [], []
+        return [f"{column} IN (SELECT pattern FROM patterns WHERE plant = ?)"], [self.plant]
 
     def migrate(self) -> None:
         version = self.schema_version()
         if version > SCHEMA_VERSION:
-            raise PourbackError(f"database {self.path} has schema version {version}, newer than this "
+            raise PourbackError(f"database {self.name} has schema version {version}, newer than this "
                                 f"program's {SCHEMA_VERSION}; upgrade pourback")
         while version < SCHEMA_VERSION:
             with self.write():
@@ -567,9 +616,9 @@ class Store:
                 version = self.schema_version()
                 if version >= SCHEMA_VERSION:
                     break
-                MIGRATIONS[version](self.db)
+                MIGRATIONS[version](_Schema(self.dialect))
                 version += 1
-                self.conn.execute(f"PRAGMA user_version = {version}")
+                self.dialect.set_schema_version(version)
 
     # --- generic reads -----------------------------------------------------------
     def _frame(self, sql: str, params: Iterable = ()) -> pd.DataFrame:
@@ -590,37 +639,34 @@ class Store:
         if name not in TABLE_COLUMNS and name != "alloys":
             raise NotFound("table", name)
         order = ", ".join(KEYS.get(name, ["alloy"])) if name != "inspections" else "id"
-        return self._frame(f"SELECT * FROM [{name}] ORDER BY {order}")
+        return self._frame(f'SELECT * FROM "{name}" ORDER BY {order}')
 
     def count(self, name: str) -> int:
         # A table name cannot be a parameter: take only the log's own tables.
-        known = {r[0] for r in self.conn.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
-        if name not in known:
+        if name not in self.dialect.table_names():
             raise NotFound("table", name)
-        return self.conn.execute(f"SELECT COUNT(*) FROM [{name}]").fetchone()[0]
+        return self.conn.execute(f'SELECT COUNT(*) FROM "{name}"').fetchone()[0]
 
     def has_rows(self, name: str) -> bool:
         """Whether table ``name`` (one of the import kinds) holds any row."""
         if name not in TABLE_COLUMNS:
             raise NotFound("table", name)
-        return self.conn.execute(f"SELECT EXISTS (SELECT 1 FROM [{name}])").fetchone()[0] == 1
+        return bool(self.conn.execute(f'SELECT EXISTS (SELECT 1 FROM "{name}")').fetchone()[0])
 
     def counts(self) -> dict[str, int]:
         return {t: self.count(t) for t in ("patterns", "zones", "sleeves", "revisions", "risers",
                                            "lots", "inspections")}
 
     def quick_counts(self) -> dict[str, int]:
-        """Row counts from the largest rowid: the log never deletes a row (a
-        correction is a new record; a rolled-back import frees its rowids), so
-        it equals COUNT(*) without scanning millions of rows."""
-        return {t: self.conn.execute(f"SELECT COALESCE(MAX(rowid), 0) FROM [{t}]").fetchone()[0]
+        """Row counts, without scanning millions of rows where the dialect can
+        (SQLite: the largest rowid)."""
+        return {t: self.dialect.quick_count(t)
                 for t in ("patterns", "zones", "sleeves", "revisions", "risers", "lots", "inspections")}
 
     def snapshot(self) -> dict[str, list[tuple]]:
         """Every row of every table (for checks that nothing changed)."""
-        names = [r[0] for r in self.conn.execute(
-            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name")]
-        return {n: sorted(map(repr, self.conn.execute(f"SELECT * FROM [{n}]").fetchall()))
+        names = self.dialect.table_names()
+        return {n: sorted(map(repr, self.conn.execute(f'SELECT * FROM "{n}"').fetchall()))
                 for n in names}
 
     def existing(self, name: str, keys: list[tuple]) -> dict[tuple, tuple]:
@@ -633,14 +679,14 @@ class Store:
         for i in range(0, len(keys), step):
             chunk = keys[i:i + step]
             if len(key_cols) == 1:
-                where = f"[{key_cols[0]}] IN ({', '.join('?' * len(chunk))})"
+                where = f'"{key_cols[0]}" IN ({", ".join("?" * len(chunk))})'
                 params = [k[0] for k in chunk]
             else:
-                one = "(" + " AND ".join(f"[{c}] = ?" for c in key_cols) + ")"
+                one = "(" + " AND ".join(f'"{c}" = ?' for c in key_cols) + ")"
                 where = " OR ".join([one] * len(chunk))
                 params = [v for k in chunk for v in k]
-            sel = ", ".join(f"[{c}]" for c in cols)
-            for row in self.conn.execute(f"SELECT {sel} FROM [{name}] WHERE {where}", params):
+            sel = ", ".join(f'"{c}"' for c in cols)
+            for row in self.conn.execute(f'SELECT {sel} FROM "{name}" WHERE {where}', params):
                 out[tuple(row[cols.index(c)] for c in key_cols)] = tuple(row)
         return out
 
@@ -650,7 +696,7 @@ class Store:
         found = set()
         for i in range(0, len(values), 900):
             chunk = values[i:i + 900]
-            q = f"SELECT [{column}] FROM [{name}] WHERE [{column}] IN ({', '.join('?' * len(chunk))})"
+            q = f'SELECT "{column}" FROM "{name}" WHERE "{column}" IN ({", ".join("?" * len(chunk))})'
             found.update(r[0] for r in self.conn.execute(q, chunk))
         return found
 
@@ -659,12 +705,54 @@ class Store:
         order, without ``id`` for inspections), in key order, ``size`` at a time."""
         cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
         order = ", ".join(KEYS[name]) if name != "inspections" else "id"
-        cur = self.conn.execute(f"SELECT {', '.join(f'[{c}]' for c in cols)} FROM [{name}] ORDER BY {order}")
-        while True:
-            batch = cur.fetchmany(size)
-            if not batch:
-                return
-            yield batch
+        sel = ", ".join(f'"{c}"' for c in cols)
+        yield from _batches(self.conn.execute(f'SELECT {sel} FROM "{name}" ORDER BY {order}'), size)
+
+    # --- whole tables (copy-log) --------------------------------------------------
+    def log_tables(self) -> list[str]:
+        """Every table of the log, in an order that inserts parents before children."""
+        names = self.dialect.table_names()
+        first = [t for t in COPY_ORDER if t in names]
+        return first + sorted(t for t in names if t not in COPY_ORDER)
+
+    def table_columns(self, name: str) -> list[str]:
+        if name not in self.dialect.table_names():
+            raise NotFound("table", name)
+        cur = self.conn.execute(f'SELECT * FROM "{name}" WHERE 1 = 0')
+        return [d[0] for d in cur.description]
+
+    def iter_table(self, name: str, columns: list[str], size: int = 50_000) -> Iterator[list[tuple]]:
+        """Every row of ``name`` (the given columns), ``size`` at a time, in no set order."""
+        sel = ", ".join(f'"{c}"' for c in columns)
+        yield from _batches(self.conn.execute(f'SELECT {sel} FROM "{self._known(name)}"'), size)
+
+    def replace_table(self, name: str, columns: list[str], batches: Iterable[list[tuple]]) -> int:
+        """Empty ``name`` and fill it with ``batches`` (ids included); call inside :meth:`write`."""
+        self.conn.execute(f'DELETE FROM "{self._known(name)}"')
+        n = 0
+        for batch in batches:
+            self.dialect.insert_many(name, columns, batch)
+            n += len(batch)
+        if "id" in columns:
+            self.dialect.after_explicit_ids(name, "id")
+        return n
+
+    def table_checksum(self, name: str, columns: list[str]) -> str:
+        """A checksum of every row of ``name`` (the given columns) that does not
+        depend on row order or backend: the sum, modulo 2**64, of each row's
+        SHA-256 over its values written out the same way on both backends."""
+        total = 0
+        for batch in self.iter_table(name, columns):
+            for row in batch:
+                digest = hashlib.sha256("\x1f".join(map(_canonical, row)).encode("utf-8")).digest()
+                total = (total + int.from_bytes(digest[:8], "big")) % 2**64
+        return f"{total:016x}"
+
+    def _known(self, name: str) -> str:
+        # A table name cannot be a parameter: take only the log's own tables.
+        if name not in self.dialect.table_names():
+            raise NotFound("table", name)
+        return name
 
     # --- writes -------------------------------------------------------------------
     def insert_rows(self, name: str, rows: list[tuple]) -> int:
@@ -673,11 +761,9 @@ class Store:
             return 0
         auth.require(self, auth.TABLE_ACTION[name])
         cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
-        sql = (f"INSERT INTO [{name}] ({', '.join(f'[{c}]' for c in cols)}) "
-               f"VALUES ({', '.join('?' * len(cols))})")
         if name == "inspections" and self._records_above is None:
             self._records_above = self.conn.execute("SELECT COALESCE(MAX(id), 0) FROM inspections").fetchone()[0]
-        self.conn.executemany(sql, rows)
+        self.dialect.insert_many(name, cols, rows)
         if name == "lots":
             touched = self._touched
             for _, pattern, poured_on, *_ in rows:
@@ -691,9 +777,7 @@ class Store:
         """Insert rows like :meth:`insert_rows` but leave ``day_totals`` and
         ``zone_totals`` behind: only for the scale benchmark's floor (the bare insert),
         on a throwaway copy of a log."""
-        cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
-        self.conn.executemany(f"INSERT INTO [{name}] ({', '.join(f'[{c}]' for c in cols)}) "
-                              f"VALUES ({', '.join('?' * len(cols))})", rows)
+        self.dialect.insert_many(name, [c for c in TABLE_COLUMNS[name] if c != "id"], rows)
         return len(rows)
 
     # --- running totals per pattern and pour day ------------------------------------
@@ -778,7 +862,7 @@ class Store:
         out: dict[str, list[str]] = {}
         for i in range(0, len(low), 900):
             chunk = low[i:i + 900]
-            q = (f"SELECT [{column}] FROM [{name}] WHERE lower([{column}]) IN ({', '.join('?' * len(chunk))})")
+            q = f'SELECT "{column}" FROM "{name}" WHERE lower("{column}") IN ({", ".join("?" * len(chunk))})'
             for (code,) in self.conn.execute(q, chunk):
                 out.setdefault(code.lower(), []).append(code)
         return out
@@ -793,8 +877,9 @@ class Store:
     def record_import(self, digest: str, file: str, size: int, last_row: int, segments: str,
                       by: str | None) -> None:
         """Remember an imported file (the first import of a content only)."""
-        self.conn.execute("INSERT OR IGNORE INTO imports (digest, file, bytes, last_row, segments, "
-                          "imported_at, imported_by) VALUES (?, ?, ?, ?, ?, ?, ?)",
+        self.conn.execute("INSERT INTO imports (digest, file, bytes, last_row, segments, "
+                          "imported_at, imported_by) VALUES (?, ?, ?, ?, ?, ?, ?) "
+                          "ON CONFLICT (digest) DO NOTHING",
                           (digest, file, int(size), int(last_row), segments,
                            dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"), by))
 
@@ -840,7 +925,7 @@ class Store:
         return r[0] if r else None
 
     def last_insert_id(self) -> int:
-        return self.conn.execute("SELECT last_insert_rowid()").fetchone()[0]
+        return self.dialect.last_insert_id()
 
     def inspections_history(self, lot: str | None = None, limit: int | None = None) -> pd.DataFrame:
         """Every record, superseded ones included, with who superseded them."""
@@ -875,9 +960,8 @@ class Store:
              + "".join(" AND " + w for w in where) + " ORDER BY i.id")
         return self._frame(q, params)
 
-    @staticmethod
-    def _lot_filter(start, end, pattern, alias: str = "l"):
-        where, params = [], []
+    def _lot_filter(self, start, end, pattern, alias: str = "l"):
+        where, params = self._plant_filter(f"{alias}.pattern")
         if start is not None:
             where.append(f"{alias}.poured_on >= ?")
             params.append(str(start))
@@ -924,15 +1008,10 @@ class Store:
         order, ``size`` rows at a time: ten years of lots read for the model
         without holding them all as Python rows."""
         where, params = self._lot_filter(None, None, None)
-        cur = self.conn.execute(
+        yield from _batches(self.conn.execute(
             "SELECT l.lot, l.pattern, l.poured_on, l.molds * p.castings_per_mold, l.pour_temp_c "
             "FROM lots l JOIN patterns p ON p.pattern = l.pattern"
-            + (" WHERE " + " AND ".join(where) if where else ""), tuple(params))
-        while True:
-            batch = cur.fetchmany(size)
-            if not batch:
-                return
-            yield batch
+            + (" WHERE " + " AND ".join(where) if where else ""), tuple(params)), size)
 
     def rejects_by_lot(self, start: str | None = None, end: str | None = None,
                        pattern=None) -> pd.DataFrame:
@@ -959,7 +1038,7 @@ class Store:
         column tuples instead of a DataFrame.
         """
         where, params = self._lot_filter(start, end, pattern)
-        cond = " AND ".join(where) or "1"
+        cond = " AND ".join(where) or "1 = 1"
         # All lots per pattern and day, less the few with no current record yet (a NOT
         # EXISTS that stops at a lot's first record): half the work of joining every
         # record to its lot. Castings per mold are applied per group, not per lot.
@@ -982,10 +1061,12 @@ class Store:
         ``columns``: a dict of column lists instead of a DataFrame."""
         # The whole table in order, neighbours by position: a pattern's revisions are
         # ordered by (effective_from, revision), sorted here as text (byte order, as
-        # SQLite compares). A few thousand short rows: a plain read costs less than a
+        # SQLite and the C collation compare). A few thousand short rows: a plain read costs less than a
         # search per revision (and far less than a window function).
+        where, params = self._plant_filter("pattern")
         rows = [(p, r, e) for p, e, r in sorted(self.conn.execute(
-            "SELECT pattern, effective_from, revision FROM revisions").fetchall())]
+            "SELECT pattern, effective_from, revision FROM revisions"
+            + "".join((" AND " if i else " WHERE ") + w for i, w in enumerate(where)), params).fetchall())]
         names = ("pattern", "revision", "effective_from", "previous", "previous_from", "next_from")
         start, end = str(start), str(end)
         none = (None, None, None)
@@ -1036,20 +1117,23 @@ class Store:
              "WHERE i.result != 'accept' AND i.void = 0 AND TRIM(COALESCE(i.notes, '')) != '' "
              "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
              + "".join(" AND " + w for w in where)
-             + ") WHERE k <= ? ORDER BY pattern, k")
+             + ") ranked WHERE k <= ? ORDER BY pattern, k")
         return self._frame(q, [*params, int(per_pattern)])
 
     def pour_span(self) -> tuple[str | None, str | None]:
         # Two subqueries: SQLite answers a lone MIN() or MAX() from the index,
         # but scans every lot for both in one SELECT.
-        r = self.conn.execute("SELECT (SELECT MIN(poured_on) FROM lots), "
-                              "(SELECT MAX(poured_on) FROM lots)").fetchone()
+        where, params = self._plant_filter("pattern")
+        cond = " WHERE " + where[0] if where else ""
+        r = self.conn.execute(f"SELECT (SELECT MIN(poured_on) FROM lots{cond}), "
+                              f"(SELECT MAX(poured_on) FROM lots{cond})", [*params, *params]).fetchone()
         return r[0], r[1]
 
     def last_pour_before(self, day: str) -> str | None:
         """The newest pour date before ``day`` (ISO string), or None (from the pour-date index)."""
-        return self.conn.execute("SELECT MAX(poured_on) FROM lots WHERE poured_on < ?",
-                                 (str(day),)).fetchone()[0]
+        where, params = self._plant_filter("pattern")
+        return self.conn.execute("SELECT MAX(poured_on) FROM lots WHERE poured_on < ?"
+                                 + "".join(" AND " + w for w in where), (str(day), *params)).fetchone()[0]
 
     def rejects_by_pattern(self, start: str, end: str) -> pd.DataFrame:
         """Castings rejected (current records) per pattern in lots poured from
@@ -1059,7 +1143,7 @@ class Store:
         # without statistics scans every record (taking result = 'reject' as selective)
         # or every lot (in pattern order, to save the GROUP BY sort).
         q = ("SELECT l.pattern, SUM(i.quantity) AS rejected "
-             "FROM lots l INDEXED BY lots_poured_on_pattern CROSS JOIN inspections i ON i.lot = l.lot "
+             f"FROM lots l {self.dialect.lots_by_date_hint} {self.dialect.forced_join} inspections i ON i.lot = l.lot "
              "WHERE l.poured_on >= ? AND l.poured_on <= ? AND i.result = 'reject' AND i.void = 0 "
              "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id) "
              "GROUP BY l.pattern")
@@ -1081,23 +1165,25 @@ class Store:
         the floor, which is the issue's definition; the benchmark times them beside it.
         """
         span = (str(start), str(end))
+        hint, join = self.dialect.lots_by_date_hint, self.dialect.forced_join
         lots = self.conn.execute(
             "SELECT l.lot, l.pattern, l.poured_on, l.molds * p.castings_per_mold "
-            "FROM lots l INDEXED BY lots_poured_on_pattern CROSS JOIN patterns p ON p.pattern = l.pattern "
+            f"FROM lots l {hint} {join} patterns p ON p.pattern = l.pattern "
             "WHERE l.poured_on >= ? AND l.poured_on <= ?", span).fetchall()
         records = self.conn.execute(
             "SELECT i.lot, i.result, i.defect, i.zone, i.quantity "
-            "FROM lots l INDEXED BY lots_poured_on_pattern CROSS JOIN inspections i ON i.lot = l.lot "
+            f"FROM lots l {hint} {join} inspections i ON i.lot = l.lot "
             "WHERE l.poured_on >= ? AND l.poured_on <= ? AND i.void = 0 "
             "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)", span).fetchall()
         risers = self.conn.execute(
             "SELECT r.pattern, r.revision, r.effective_from, x.riser, x.zone, x.placement, x.top, "
             "x.diameter_mm, x.height_mm, x.sleeve, x.neck_diameter_mm "
             "FROM revisions r JOIN risers x ON x.pattern = r.pattern AND x.revision = r.revision "
-            "WHERE r.effective_from <= ?2 "
-            "AND r.pattern IN (SELECT pattern FROM lots WHERE poured_on >= ?1 AND poured_on <= ?2) "
+            "WHERE r.effective_from <= ? "
+            "AND r.pattern IN (SELECT pattern FROM lots WHERE poured_on >= ? AND poured_on <= ?) "
             "AND NOT EXISTS (SELECT 1 FROM revisions s WHERE s.pattern = r.pattern "
-            "AND s.effective_from > r.effective_from AND s.effective_from <= ?1)", span).fetchall()
+            "AND s.effective_from > r.effective_from AND s.effective_from <= ?)",
+            (span[1], span[0], span[1], span[0])).fetchall()
         return {"lots": lots, "records": records, "risers": risers}
 
     TOTALS = ("lots", "castings", "inspected_castings", "rejected", "shrinkage", "zoned_shrinkage")
@@ -1142,15 +1228,9 @@ class Store:
         return {probe: out.get(probe, zeros) for probe in probes}
 
     def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
-        """SQLite's plan for one statement (EXPLAIN QUERY PLAN), one line per step,
-        indented by depth."""
-        rows = self.conn.execute("EXPLAIN QUERY PLAN " + sql, tuple(params)).fetchall()
-        depth: dict[int, int] = {0: -1}
-        out = []
-        for node, parent, _, detail in rows:
-            depth[node] = depth.get(parent, -1) + 1
-            out.append("  " * depth[node] + detail)
-        return out
+        """The database's plan for one statement, one line per step (SQLite's
+        EXPLAIN QUERY PLAN indented by depth; PostgreSQL's EXPLAIN)."""
+        return self.dialect.query_plan(sql, params)
 
     # --- design -------------------------------------------------------------------
     def risers_frame(self, pattern: str | None = None, revision: str | None = None) -> pd.DataFrame:
@@ -1313,7 +1393,7 @@ class Store:
         unknown = set(fields) - self._USER_UPDATABLE
         if unknown:
             raise ValueError(f"not a user column: {', '.join(sorted(unknown))}")
-        sets = ", ".join(f"[{k}] = ?" for k in fields)
+        sets = ", ".join(f'"{k}" = ?' for k in fields)
         self.conn.execute(f"UPDATE users SET {sets} WHERE name = ?", (*fields.values(), name))
 
     def enabled_users(self, role: str | None = None) -> int:
@@ -1322,11 +1402,11 @@ class Store:
         return self.conn.execute(q, (role,) if role else ()).fetchone()[0]
 
     def insert_session(self, token_sha256: str, user: str, at: str) -> None:
-        self.conn.execute("INSERT INTO sessions (token_sha256, user, started_at, last_seen) VALUES (?, ?, ?, ?)",
+        self.conn.execute('INSERT INTO sessions (token_sha256, "user", started_at, last_seen) VALUES (?, ?, ?, ?)',
                           (token_sha256, user, at, at))
 
     def session_row(self, token_sha256: str) -> dict | None:
-        cur = self.conn.execute("SELECT token_sha256, user, started_at, last_seen, ended_at, end_reason "
+        cur = self.conn.execute('SELECT token_sha256, "user", started_at, last_seen, ended_at, end_reason '
                                 "FROM sessions WHERE token_sha256 = ?", (token_sha256,))
         row = cur.fetchone()
         return None if row is None else dict(zip([d[0] for d in cur.description], row))
@@ -1343,17 +1423,17 @@ class Store:
                                     "WHERE token_sha256 = ? AND ended_at IS NULL", (at, reason, token_sha256))
         else:
             cur = self.conn.execute("UPDATE sessions SET ended_at = ?, end_reason = ? "
-                                    "WHERE user = ? AND ended_at IS NULL", (at, reason, user))
+                                    'WHERE "user" = ? AND ended_at IS NULL', (at, reason, user))
         return cur.rowcount
 
     def insert_audit(self, at: str, event: str, user: str | None, subject: str | None,
                      detail: str | None, via: str | None) -> None:
-        self.conn.execute("INSERT INTO audit (at, event, user, subject, detail, via) VALUES (?, ?, ?, ?, ?, ?)",
+        self.conn.execute('INSERT INTO audit (at, event, "user", subject, detail, via) VALUES (?, ?, ?, ?, ?, ?)',
                           (at, event, user, subject, detail, via))
 
     def audit_frame(self, since: str | None = None) -> pd.DataFrame:
         """The audit, oldest first; ``since`` (an ISO date or time) keeps entries at or after it."""
-        q = "SELECT id, at, event, user, subject, detail, via FROM audit"
+        q = 'SELECT id, at, event, "user", subject, detail, via FROM audit'
         params: tuple = ()
         if since is not None:
             q += " WHERE at >= ?"
@@ -1361,38 +1441,23 @@ class Store:
         return self._frame(q + " ORDER BY id", params)
 
     # --- maintenance --------------------------------------------------------------
-    def backup(self, dest: str | os.PathLike) -> None:
-        """Copy the log with SQLite's online backup (safe while others write).
+    def backup(self, dest: str | os.PathLike) -> dict:
+        """Back the log up to ``dest``, which must not exist.
 
-        The copy is written under a temporary name beside ``dest`` and renamed
-        when complete, so a backup stopped part-way (a crash, SIGKILL, a full
-        disk) never leaves a file under the backup's name."""
+        SQLite: the online backup API (safe while others write). PostgreSQL:
+        ``pg_dump --format=custom`` when it is installed; the server's own backups
+        stay the plan of record. Returns ``ran`` (whether a backup was written),
+        ``command`` (the pg_dump command, password masked; None on SQLite) and
+        ``note`` (what to know about it).
+        """
         auth.require(self, "backup")
         dest = pathlib.Path(dest)
         if dest.exists():
             raise PourbackError(f"backup file {dest} exists already; choose a new name")
-        if not dest.parent.is_dir():
-            raise PourbackError(f"could not write the backup {dest}: the folder {dest.parent} does not exist")
-        part = dest.with_name(f".{dest.name}.{os.getpid()}.partial")
-        try:
-            target = sqlite3.connect(str(part))
-            try:
-                self.conn.backup(target, pages=-1)  # one step: a stepwise copy restarts on every write
-            finally:
-                target.close()
-            with open(part, "rb+") as fh:
-                os.fsync(fh.fileno())
-            os.replace(part, dest)
-        except (sqlite3.Error, OSError) as exc:
-            for p in (part, pathlib.Path(f"{part}-journal")):
-                p.unlink(missing_ok=True)  # never leave a half-written backup behind
-            if isinstance(exc, sqlite3.Error) and "full" in str(exc) or getattr(exc, "errno", None) == 28:
-                raise DiskFull(dest) from None
-            raise PourbackError(f"could not write the backup {dest} ({exc}); check that its folder "
-                                "can be written and has room") from None
+        return self.dialect.backup(dest)
 
     def integrity_check(self) -> str:
-        return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
+        return self.dialect.integrity_check()
 
 
 def restore(backup_file: str | os.PathLike, dest: str | os.PathLike) -> None:

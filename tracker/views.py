@@ -25,7 +25,7 @@ from tracker.assess import assess_frame, caine_curve_points, revision_in_effect
 from tracker.errors import BadRow, NotFound
 from tracker.ingest import COLUMNS as IMPORT_COLUMNS, METHODS
 from tracker.settings import DEFAULT_CURRENCY
-from tracker.store import Store
+from tracker.store import Store, data_version
 
 NONE = "(none)"  # the "no value" choice of an optional picker
 
@@ -33,19 +33,8 @@ NONE = "(none)"  # the "no value" choice of an optional picker
 # --- data version (cache key) ------------------------------------------------------
 
 def db_version(path: str | os.PathLike) -> tuple:
-    """A value that changes whenever the database file changes.
-
-    SQLite in WAL mode writes to ``<db>-wal`` first, so both files' size and
-    modification time (ns) count. A missing file gives zeros.
-    """
-    out = []
-    for p in (pathlib.Path(path), pathlib.Path(f"{path}-wal")):
-        try:
-            st = p.stat()
-            out += [st.st_size, st.st_mtime_ns]
-        except OSError:
-            out += [0, 0]
-    return tuple(out)
+    """A value that changes whenever the log changes (see :func:`tracker.store.data_version`)."""
+    return data_version(str(path))
 
 
 # --- what the log holds ------------------------------------------------------------
@@ -661,6 +650,29 @@ def review_patterns_table(review: dict, full: bool = True) -> pd.DataFrame:
     p["signal_text"] = [signal_words(r, high) for r, high in zip(p["signal_rules"], p["signal_high_rules"])]
     p["scrap_cost"] = p["scrap_cost"].astype(float).round(0)  # whole currency units
     return p[keys].rename(columns=names).reset_index(drop=True)
+
+
+PLANT_TABLE = {
+    "plant": "plant", "patterns": "patterns", "inspected": "castings inspected",
+    "rejected": "castings rejected", "reject_rate_pct": "reject rate (%)", "low_pct": "95 % range from (%)",
+    "high_pct": "95 % range to (%)", "shrinkage_rate_pct": "shrinkage rate (%)",
+    "scrap_cost": "scrap cost (currency units)", "week_rejected": "review week: castings rejected",
+    "week_inspected": "review week: castings inspected", "problems_text": "flagged patterns",
+}
+
+
+def plant_comparison_table(comparison: dict) -> pd.DataFrame:
+    """A plant comparison (:func:`tracker.review.compare_plants`) for display: rates in %."""
+    rows = comparison.get("plants") or []
+    if not rows:
+        return pd.DataFrame(columns=list(PLANT_TABLE.values()))
+    p = pd.DataFrame(rows)
+    p["reject_rate_pct"] = _pct(p["reject_rate"])
+    p["low_pct"] = _pct(p["wilson_low"])
+    p["high_pct"] = _pct(p["wilson_high"])
+    p["shrinkage_rate_pct"] = _pct(p["shrinkage_rate"])
+    p["problems_text"] = p["problems"].map(lambda v: ", ".join(v) or "none")
+    return p[list(PLANT_TABLE)].rename(columns=PLANT_TABLE).reset_index(drop=True)
 
 
 def review_pareto(review: dict, of: str = "patterns", by: str = "cost", top: int | None = None) -> pd.DataFrame:

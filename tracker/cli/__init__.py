@@ -109,9 +109,20 @@ def handle_errors(fn):
             raise click.ClickException(str(exc)) from None
         except sqlite3.Error as exc:
             raise click.ClickException(f"the log could not be used ({exc}); nothing was written") from None
+        except database_errors() as exc:
+            # The server went away or refused a statement: one line, not a traceback.
+            first = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
+            raise click.ClickException(f"the database reported: {first}; check that the log's server "
+                                       "is running and reachable, then try again") from None
         except OSError as exc:
             raise click.ClickException(os_error_text(exc)) from None
     return wrapper
+
+
+def database_errors() -> tuple:
+    from tracker.store import DATABASE_ERRORS
+
+    return DATABASE_ERRORS
 
 
 def os_error_text(exc: OSError) -> str:
@@ -127,6 +138,8 @@ def os_error_text(exc: OSError) -> str:
 
 
 json_option = click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
+plant_option = click.option("--plant", default=None, metavar="CODE",
+                            help="Only this plant's patterns (default: every plant).")
 
 # The review window and the target: one name, default and help for `review` and `suggest`;
 # the library checks the values (tracker.limits), so the range is checked in one place.
@@ -202,10 +215,14 @@ def main():
     """
 
 
+DB_HELP = ("Log: an SQLite file, or a PostgreSQL server as postgresql://user@host:port/dbname "
+           "(password from PGPASSWORD or ~/.pgpass) (default $POURBACK_DB, else ./pourback.db).")
+
+
 def db_option(fn):
-    """--db PATH (default $POURBACK_DB, else ./pourback.db)."""
+    """--db PATH-OR-URL (default $POURBACK_DB, else ./pourback.db)."""
     return click.option("--db", "db_path", type=click.Path(dir_okay=False), default=None,
-                        help="Log database file (default $POURBACK_DB, else ./pourback.db).")(fn)
+                        metavar="PATH|URL", help=DB_HELP)(fn)
 
 
 def open_store(db_path, create: bool = False):
@@ -222,6 +239,7 @@ from tracker.cli import cmd_review  # noqa: E402,F401
 from tracker.cli import cmd_log  # noqa: E402,F401
 from tracker.cli import cmd_app  # noqa: E402,F401
 from tracker.cli import cmd_advise  # noqa: E402,F401
+from tracker.cli import cmd_copy  # noqa: E402,F401
 from tracker.cli import cmd_thermal  # noqa: E402,F401
 from tracker.cli import cmd_users  # noqa: E402,F401
 

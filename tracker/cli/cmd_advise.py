@@ -7,7 +7,7 @@ import click
 from tracker.settings import DEFAULT_CURRENCY, currency
 
 from tracker.cli import (Steps, caution_text, db_option, emit, handle_errors, json_option, main, open_store,
-                         show_progress, table, target_option, week_option, weeks_option)
+                         plant_option, show_progress, table, target_option, week_option, weeks_option)
 
 
 def _pct(v, digits: int = 1) -> str | None:
@@ -40,10 +40,11 @@ basis_note = ("Money basis: the predicted rates now and after are both the rejec
 @click.option("--thermal/--no-thermal", default=None,
               help="Check each chosen riser by a solidification solve, taking the next candidate where it "
                    "fails (default: on when the solves of all problem zones fit in a minute).")
+@plant_option
 @db_option
 @json_option
 @handle_errors
-def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, thermal, db_path, as_json):
+def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, thermal, plant, db_path, as_json):
     """Suggest riser changes for problem patterns, with yield and money.
 
     For each zone with shrinkage above the target: enlarge the riser (in
@@ -68,7 +69,7 @@ def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, thermal
     with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
         steps.step("Suggesting riser changes" + (" (refitting the model first)" if refit else ""))
         rows = run(store, pattern=pattern, target=target, week=week, weeks=weeks, step_mm=step_mm, refit=refit,
-                   remelt_charge=remelt_charge, thermal=thermal)
+                   remelt_charge=remelt_charge, thermal=thermal, plant=plant)
         code = currency(store)
     emit(rows, as_json, lambda found: _format(found, code))
 

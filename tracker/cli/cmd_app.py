@@ -15,7 +15,7 @@ import click
 
 import tracker
 from tracker import auth
-from tracker.cli import emit, handle_errors, json_option, main
+from tracker.cli import db_option, emit, handle_errors, json_option, main
 from tracker.errors import PourbackError
 
 DEFAULT_DEMO_DB = "pourback-demo.db"
@@ -86,11 +86,11 @@ NO_TLS_WARNING = ("Warning: served beyond this computer without TLS: user names,
                   "the network readable by anyone on it. Serve with --tls-cert FILE --tls-key FILE.")
 
 
-def serve(db: pathlib.Path, host: str, port: int, *, require_login: bool = False,
+def serve(db: pathlib.Path | str, host: str, port: int, *, require_login: bool = False,
           tls: tuple[str, str] | None = None, idle_hours: float | None = None) -> None:
     """Check the log may be served on ``host`` (refusing beyond loopback without an
     enabled admin account), then hand over to Streamlit."""
-    from tracker.store import Store
+    from tracker.store import Store, display_name
 
     idle = auth.check_idle_hours(auth.DEFAULT_IDLE_HOURS if idle_hours is None else idle_hours)
     with Store(db, create=False) as store:  # migrate before the first page opens; never create
@@ -98,7 +98,7 @@ def serve(db: pathlib.Path, host: str, port: int, *, require_login: bool = False
     env = {**os.environ, "POURBACK_DB": str(db), "POURBACK_SIGN_IN": "1" if sign_in else "0",
            "POURBACK_IDLE_HOURS": f"{idle:g}", "POURBACK_TLS": "1" if tls else "0",
            "POURBACK_HOST": host}
-    click.echo(f"Dashboard on {db}: {_url(host, port, bool(tls))}  (stop with Ctrl+C)")
+    click.echo(f"Dashboard on {display_name(db)}: {_url(host, port, bool(tls))}  (stop with Ctrl+C)")
     if sign_in:
         click.echo(f"Every visitor signs in; a session ends after {idle:g} hours without activity.")
     if not auth.is_loopback(host) and not tls:
@@ -124,8 +124,7 @@ host_option = click.option("--host", default=DEFAULT_HOST, show_default=True, ca
 
 
 @main.command()
-@click.option("--db", "db_path", type=click.Path(dir_okay=False), default=None,
-              help="Log database file (default $POURBACK_DB, else ./pourback.db).")
+@db_option
 @port_option
 @host_option
 @click.option("--require-login", is_flag=True,
@@ -151,11 +150,11 @@ def dashboard(db_path, port, host, require_login, tls_cert, tls_key, idle_hours)
         pourback dashboard --db plant.db --port 8502
         pourback dashboard --db plant.db --host 0.0.0.0 --tls-cert cert.pem --tls-key key.pem
     """
-    from tracker.store import resolve_path
+    from tracker.store import absolute_target
 
     if bool(tls_cert) != bool(tls_key):
         raise click.UsageError("give --tls-cert and --tls-key together (the certificate and its private key)")
-    db = pathlib.Path(resolve_path(db_path)).resolve()
+    db = absolute_target(db_path)
     tls = (str(pathlib.Path(tls_cert).resolve()), str(pathlib.Path(tls_key).resolve())) if tls_cert else None
     serve(db, host, port, require_login=require_login, tls=tls, idle_hours=idle_hours)
 
@@ -182,38 +181,59 @@ def _remove_db(path: pathlib.Path) -> None:
         p.unlink(missing_ok=True)
 
 
-def build_demo(target: pathlib.Path) -> dict:
-    """Build the demo log into ``target`` (replacing an earlier demo log) and return its counts."""
+def _demo_files(tmp: str) -> tuple[pathlib.Path, bool]:
+    """The demo's CSV folder (the committed one, else generated into ``tmp``) and whether it was generated."""
     from tracker import demo
-    from tracker.advise import fit_model
-    from tracker.ingest import KINDS, import_dir
-    from tracker.store import Store
+    from tracker.ingest import KINDS
 
+    folder = sample_dir()
+    if all((folder / f"{k}.csv").is_file() for k in KINDS):
+        return folder, False
+    folder = pathlib.Path(tmp) / "sample_data"
+    demo.generate(folder)
+    return folder, True
+
+
+def _fill_demo(store) -> dict:
+    from tracker.advise import fit_model
+    from tracker.ingest import import_dir
+
+    with tempfile.TemporaryDirectory(prefix="pourback-demo-") as tmp:
+        folder, generated = _demo_files(tmp)
+        import_dir(store, folder, by="pourback demo")
+    fit_model(store)  # so the first visit to Suggestions need not fit it
+    store.set_meta("demo", "1")
+    return {"source": "generated" if generated else str(sample_dir()), **store.counts()}
+
+
+def build_demo(target: pathlib.Path | str) -> dict:
+    """Build the demo log into ``target`` (replacing an earlier demo log file) and
+    return its counts. On a PostgreSQL server (a URL) the log must be empty."""
+    from tracker.store import Store, display_name, is_url
+
+    if is_url(str(target)):
+        with Store(str(target)) as store:
+            if any(store.counts().values()):
+                raise PourbackError(f"{store.name} already holds a log; the demo is built only into an "
+                                    "empty database. Create one (createdb) and pass its URL with --db")
+            return {"db": display_name(target), **_fill_demo(store)}
+    target = pathlib.Path(target)
     if target.exists() and not _is_demo(target):
         raise PourbackError(f"{target} exists and was not made by `pourback demo`; it is left alone. "
                             "Pass another file with --db, or move that one away")
     target.parent.mkdir(parents=True, exist_ok=True)
-    with tempfile.TemporaryDirectory(prefix="pourback-demo-") as tmp:
-        folder = sample_dir()
-        generated = not all((folder / f"{k}.csv").is_file() for k in KINDS)
-        if generated:
-            folder = pathlib.Path(tmp) / "sample_data"
-            demo.generate(folder)
-        building = target.with_name(target.name + ".building")
+    building = target.with_name(target.name + ".building")
+    _remove_db(building)
+    try:
+        with Store(building) as store:
+            built = _fill_demo(store)
+    except BaseException:
         _remove_db(building)
-        try:
-            with Store(building) as store:
-                import_dir(store, folder, by="pourback demo")
-                fit_model(store)  # so the first visit to Suggestions need not fit it
-                store.set_meta("demo", "1")
-                counts = store.counts()
-        except BaseException:
-            _remove_db(building)
-            raise
-        _remove_db(target)
-        os.replace(building, target)
-        _remove_db(building)
-    return {"db": str(target), "source": "generated" if generated else str(sample_dir()), **counts}
+        raise
+    _remove_db(target)
+    os.replace(building, target)
+    _remove_db(building)
+    return {"db": str(target), **built}
 
 
 def _format_demo(d: dict) -> str:
@@ -231,7 +251,7 @@ def _format_demo(d: dict) -> str:
 @main.command("demo")
 @click.option("--db", "db_path", type=click.Path(dir_okay=False), default=DEFAULT_DEMO_DB, show_default=True,
               help="File to build the demo log in; an existing file is replaced only if `pourback demo` "
-                   "made it.")
+                   "made it. A postgresql:// URL builds it in that (empty) database.")
 @click.option("--no-dashboard", is_flag=True, help="Build the log only; do not open the dashboard.")
 @port_option
 @host_option
@@ -245,7 +265,9 @@ def demo_command(db_path, no_dashboard, port, host, as_json):
 
         pourback demo --db /tmp/demo.db --port 8502
     """
-    target = pathlib.Path(db_path).resolve()
+    from tracker.store import absolute_target
+
+    target = absolute_target(db_path)
     if not no_dashboard and not auth.is_loopback(host):
         raise click.UsageError(f"the demo log has no accounts, so it is served on this computer only; drop "
                                f"--host {host}, or build it with --no-dashboard, add an admin with `pourback user "

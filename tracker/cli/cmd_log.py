@@ -32,26 +32,34 @@ def _who(by: str | None) -> str:
 @click.option("--units", "system", type=click.Choice(["metric", "us"], case_sensitive=False), default=None,
               help="Unit system numbers are typed and shown in: metric (mm, cm³, kg, °C; the default) or "
                    "us (in, in³, lb, °F). The log itself always stores metric.")
+@click.option("--plant", default=None, metavar="CODE",
+              help="The plant that patterns imported without a plant column belong to (kept in the log).")
 @db_option
 @handle_errors
-def init(currency, system, db_path):
+def init(currency, system, plant, db_path):
     """Create an empty log (or bring an old one up to the current schema).
 
     Example:
 
         pourback init --db plant.db --currency EUR --units metric
+        pourback init --db north.db --plant NORTH
     """
     from tracker import settings as log_settings
+    from tracker.ingest import set_default_plant
 
     with open_store(db_path, create=True) as store:
         if currency is not None:
             log_settings.set_currency(store, currency)
         if system is not None:
             log_settings.set_units(store, system)
+        if plant is not None:
+            set_default_plant(store, plant)
         code = log_settings.currency(store)
         shown = log_settings.units(store)
-        click.echo(f"Log ready: {store.path} (schema version {store.schema_version()}; money in {code}; "
-                   f"units {shown})")
+        default = store.get_meta("default_plant")
+        extra = f"; default plant {default}" if default else ""
+        click.echo(f"Log ready: {store.name} (schema version {store.schema_version()}; money in {code}; "
+                   f"units {shown}{extra})")
 
 
 @main.command()
@@ -275,15 +283,26 @@ def history(lot, limit, db_path, as_json):
 @db_option
 @handle_errors
 def backup(file, db_path):
-    """Copy the log to FILE with SQLite's online backup (safe while others write).
+    """Copy the log to FILE: SQLite's online backup (safe while others write), or
+    on PostgreSQL pg_dump (when installed; else the exact command is printed).
+
+    On PostgreSQL the server's own backups are the plan of record; this is an
+    extra copy.
 
     Example:
 
         pourback backup backups/pourback-2026-12-01.db
     """
     with open_store(db_path) as store:
-        store.backup(file)
-    click.echo(f"Backed up {store.path} to {file}")
+        done = store.backup(file)
+    if done["command"] is None:
+        click.echo(f"Backed up {store.name} to {file}")
+        return
+    if done["ran"]:
+        click.echo(f"Backed up {store.name} to {file} with: {done['command']}")
+    else:
+        click.echo(f"Not backed up here. Run: {done['command']}")
+    click.echo(f"Note: {done['note']}")
 
 
 @main.command()
@@ -297,8 +316,12 @@ def restore(backup_file, db_path):
 
         pourback restore backups/pourback-2026-12-01.db --db restored.db
     """
-    from tracker.store import resolve_path, restore as do_restore
+    from tracker.store import is_url, resolve_path, restore as do_restore
 
     target = resolve_path(db_path)
+    if is_url(target):
+        raise click.UsageError("restore writes a new SQLite file; a PostgreSQL log is restored with "
+                               "pg_restore from a pg_dump file (see `pourback backup`), or filled from an "
+                               "SQLite backup with `pourback copy-log BACKUP URL`")
     do_restore(backup_file, target)
     click.echo(f"Restored {backup_file} to {target}")

@@ -6,8 +6,8 @@ import pathlib
 
 import click
 
-from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, show_progress, target_option,
-                         week_option, weeks_option)
+from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, plant_option, show_progress,
+                          target_option, week_option, weeks_option)
 from tracker.report import FORMATS
 
 
@@ -20,9 +20,13 @@ from tracker.report import FORMATS
 @click.option("--json", "as_json", is_flag=True, help="Shorthand for --format json.")
 @click.option("--out", "out_path", type=click.Path(dir_okay=False, writable=True), default=None,
               help="Write the review to this file instead of standard output.")
+@plant_option
+@click.option("--compare-plants", is_flag=True,
+              help="Compare the plants side by side for one alloy (give --alloy) instead of the review.")
+@click.option("--alloy", default=None, help="The alloy to compare plants on (with --compare-plants).")
 @db_option
 @handle_errors
-def review(week, weeks, target, fmt, as_json, out_path, db_path):
+def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, alloy, db_path):
     """Weekly scrap review: scrap by pattern and defect, trend, control, riser revisions.
 
     Figures cover the review week and the weeks before it; problem patterns
@@ -35,17 +39,27 @@ def review(week, weeks, target, fmt, as_json, out_path, db_path):
     """
     if as_json and fmt not in (None, "json"):
         raise click.UsageError(f"--json asks for JSON but --format asks for {fmt}; give only one")
+    if compare_plants and alloy is None:
+        raise click.UsageError("--compare-plants compares the plants for one alloy: give --alloy too")
+    if compare_plants and plant is not None:
+        raise click.UsageError("--compare-plants shows every plant; leave out --plant")
+    if alloy is not None and not compare_plants:
+        raise click.UsageError("--alloy is for --compare-plants; the review covers every alloy")
     fmt = "json" if as_json else (fmt or "table")
 
-    from tracker.report import render
-    from tracker.review import weekly_review
+    from tracker.report import render, render_plants
+    from tracker.review import compare_plants as compare, weekly_review
 
     with Steps(show_progress(fmt == "json")) as steps:
         with open_store(db_path) as store:
-            steps.step(f"Reviewing {week or 'the latest week'} ({weeks} weeks)")
-            data = weekly_review(store, week=week, weeks=weeks, target=target)
+            if compare_plants:
+                steps.step(f"Comparing the plants for {alloy}")
+                data = compare(store, alloy, week=week, weeks=weeks, target=target)
+            else:
+                steps.step(f"Reviewing {week or 'the latest week'} ({weeks} weeks)")
+                data = weekly_review(store, week=week, weeks=weeks, target=target, plant=plant)
         steps.step(f"Writing the {fmt} review")
-        text = render(data, fmt)
+        text = render_plants(data, fmt) if compare_plants else render(data, fmt)
     if out_path:
         path = pathlib.Path(out_path)
         try:

@@ -64,7 +64,7 @@ def user_add(name, role, password_stdin, by, db_path):
     password = _read_password(password_stdin)
     with open_store(db_path, create=True) as store:
         acc = auth.add_user(store, name, role, password, by=_who(by))
-    click.echo(f"Added user {acc['name']} (role {acc['role']}) to {store.path}")
+    click.echo(f"Added user {acc['name']} (role {acc['role']}) to {store.name}")
 
 
 @user.command("list")

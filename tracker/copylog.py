@@ -1,0 +1,92 @@
+"""Copy a whole log from one backend to the other (SQLite <-> PostgreSQL) and prove the copy.
+
+``copy_log(source, dest)`` writes every table of ``source`` into ``dest`` (an
+empty log, created when missing) in one transaction, then, before committing,
+checks it: the row count and an order-free checksum of every table, and the
+weekly review of the latest week, must be the same on both. Any difference
+rolls the copy back and raises :class:`CopyMismatch`; nothing half-copied stays.
+"""
+
+from __future__ import annotations
+
+import math
+
+from tracker import review
+from tracker.errors import PourbackError
+from tracker.store import Store, display_name
+
+# Tables whose rows a fresh log already holds (seeded by the migrations).
+SEEDED = {"alloys"}
+
+
+class CopyMismatch(PourbackError):
+    """The copy differs from its source (a table's count or checksum, or the review)."""
+
+
+def copy_log(source: str, dest: str, *, progress=None) -> dict:
+    """Copy the log at ``source`` into ``dest`` and verify it.
+
+    ``dest`` must hold no rows yet (other than the tables a new log is seeded
+    with). ``progress(table, rows)`` is called after each table. Returns
+    ``source``, ``dest`` (passwords masked), ``tables`` (per table: rows in the
+    source and in the copy, the two checksums, ``same``), ``review_week`` and
+    ``review_same``.
+    """
+    if str(source) == str(dest):
+        raise PourbackError(f"copy-log: FROM and TO are the same log ({display_name(source)}); "
+                            "give two different logs")
+    with Store(source, create=False) as src, Store(dest) as dst:
+        busy = [t for t in dst.log_tables() if t not in SEEDED and dst.count(t) > 0]
+        if busy:
+            raise PourbackError(f"copy-log: {dst.name} already holds rows in {', '.join(busy)}; "
+                                "copy into a new, empty log (pourback init --db ...) so nothing is mixed")
+        missing = [t for t in src.log_tables() if t not in dst.log_tables()]
+        if missing:
+            raise PourbackError(f"copy-log: {dst.name} has no table {', '.join(missing)}; "
+                                "upgrade pourback where the copy is written")
+        tables = {}
+        with dst.write():
+            for name in src.log_tables():
+                cols = src.table_columns(name)
+                dst.replace_table(name, cols, src.iter_table(name, cols))
+                if progress:
+                    progress(name, src.count(name))
+            for name in src.log_tables():
+                cols = src.table_columns(name)
+                row = {"rows_from": src.count(name), "rows_to": dst.count(name),
+                       "checksum_from": src.table_checksum(name, cols),
+                       "checksum_to": dst.table_checksum(name, cols)}
+                row["same"] = (row["rows_from"] == row["rows_to"]
+                               and row["checksum_from"] == row["checksum_to"])
+                tables[name] = row
+            week, review_same = _same_review(src, dst)
+            bad = [n for n, r in tables.items() if not r["same"]]
+            if bad or not review_same:
+                what = (f"tables {', '.join(bad)} differ" if bad else
+                        f"the review of {week} differs")
+                raise CopyMismatch(f"copy-log: {what} between {src.name} and {dst.name}; nothing was "
+                                   "written. Report this with both logs' pourback versions")
+        return {"source": src.name, "dest": dst.name, "tables": tables, "review_week": week,
+                "review_same": review_same}
+
+
+def _same_review(src: Store, dst: Store) -> tuple[str | None, bool]:
+    """The latest week's review on both logs, compared as JSON."""
+    if src.count("lots") == 0 or src.count("inspections") == 0:
+        return None, True
+    a = review.jsonable(review.weekly_review(src))
+    b = review.jsonable(review.weekly_review(dst))
+    return a["week"], _same(a, b)
+
+
+def _same(a, b) -> bool:
+    """Equal JSON values, floats within 1e-9 relative: the databases may add a
+    column's rows in another order (the copy stores them in another physical
+    order), which moves a sum's last bits, not its figure."""
+    if isinstance(a, dict) and isinstance(b, dict):
+        return a.keys() == b.keys() and all(_same(a[k], b[k]) for k in a)
+    if isinstance(a, list) and isinstance(b, list):
+        return len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
+    if isinstance(a, float) and isinstance(b, (int, float)) or isinstance(b, float) and isinstance(a, int):
+        return math.isclose(a, b, rel_tol=1e-9, abs_tol=1e-12)
+    return a == b

@@ -1,0 +1,602 @@
+"""The two database backends of the log: SQLite (the embedded default) and PostgreSQL.
+
+Used by ``tracker/store.py`` only. Every difference between the dialects lives
+here: how a connection opens, placeholders, identifier types in the DDL, the
+schema version, row ids, bulk insert (``executemany`` against ``COPY``), the
+writers' lock, the errors worth retrying, query plans, integrity checks and
+how a change to the log is noticed. ``store.py`` writes its SQL once, in the
+common subset of both (``?`` placeholders, ``"double-quoted"`` identifiers,
+``ON CONFLICT ... DO UPDATE`` upserts), and asks the dialect for the rest.
+
+A log is named by a file path (SQLite) or a ``postgresql://`` URL. The URL's
+password (or ``PGPASSWORD`` / a ``.pgpass`` file, read by libpq) is used to
+connect and never shown: :func:`display_name` masks it.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import pathlib
+import re
+import shlex
+import shutil
+import sqlite3
+import subprocess
+import time
+import urllib.parse
+from typing import Callable, Iterable, Iterator
+
+from tracker.errors import DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog, PourbackError
+
+URL_SCHEMES = ("postgresql://", "postgres://")
+BUSY_TIMEOUT_MS = 30_000
+NOTICE_AFTER_MS = 1_000  # say that a write waits for another writer after this long
+# How long a PostgreSQL writer waits for the writers' lock before giving up (ms).
+PG_LOCK_TIMEOUT_MS = 600_000
+# pg_advisory_xact_lock key of the writers' lock ("pourback" in ASCII, folded to 63 bits).
+PG_WRITE_LOCK = 0x706F75726261636B
+
+
+def is_url(target) -> bool:
+    """Whether ``target`` names a PostgreSQL log (a ``postgresql://`` URL)."""
+    return isinstance(target, str) and target.startswith(URL_SCHEMES)
+
+
+def display_name(target) -> str:
+    """``target`` fit to print: a URL's password is replaced by ``***``."""
+    target = str(target)
+    if not is_url(target):
+        return target
+    parts = urllib.parse.urlsplit(target)
+    netloc = parts.netloc
+    if "@" in netloc:
+        user, host = netloc.rsplit("@", 1)
+        if ":" in user:
+            user = user.split(":", 1)[0] + ":***"
+        netloc = f"{user}@{host}"
+    query = re.sub(r"(?i)(password=)[^&]*", r"\1***", parts.query)
+    return urllib.parse.urlunsplit((parts.scheme, netloc, parts.path, query, parts.fragment))
+
+
+def for_target(target: str, create: bool, on_wait: Callable[[str], None] | None = None) -> "SQLite | PostgreSQL":
+    """The dialect of ``target`` (a path or a URL), connected. ``on_wait`` is
+    called with a message when a write has waited a second for another writer."""
+    cls = PostgreSQL if is_url(target) else SQLite
+    return cls(target, create, on_wait)
+
+
+def log_error(exc: Exception, target: str) -> PourbackError:
+    """The one-line error a user sees for a failure of the database holding the
+    log at ``target`` (an SQLite or a psycopg error); a URL's password is masked."""
+    if not isinstance(exc, sqlite3.Error):
+        return _pg_log_error(exc, display_name(target))
+    path = target
+    msg = str(exc)
+    low = msg.lower()
+    if "readonly" in low or "read-only" in low:
+        return LogReadOnly(path)
+    if "disk is full" in low or "database or disk is full" in low:
+        return DiskFull(path)
+    if "not a database" in low or "malformed" in low:
+        return NotALog(path, f"SQLite says: {msg}")
+    if "unable to open" in low:
+        parent = pathlib.Path(path).parent
+        if not parent.is_dir():
+            return LogError(path, f"cannot open the log {path}: the folder {parent} does not exist; check "
+                                  "the path given with --db (or $POURBACK_DB)")
+        if pathlib.Path(path).is_dir():
+            return LogError(path, f"cannot open the log {path}: it is a folder; give the log's file with --db")
+        return LogError(path, f"cannot open the log {path} ({msg}); check that the file and its folder can "
+                              "be read and written")
+    return LogError(path, f"the log {path} could not be used ({msg}); nothing was written")
+
+
+def _pg_log_error(exc: Exception, name: str) -> PourbackError:
+    """:func:`log_error` for a psycopg error, by its SQLSTATE."""
+    msg = " ".join((str(exc).strip().splitlines() or [type(exc).__name__])[0].split())
+    state = getattr(exc, "sqlstate", None) or ""
+    if state == "53100":  # disk_full
+        return DiskFull(name)
+    if state == "25006":  # read_only_sql_transaction: a standby, or a read-only session
+        return LogError(name, f"the server holding the log {name} takes no writes ({msg}); nothing was "
+                              "written. Give the URL of the primary server with --db")
+    if state == "42501":  # insufficient_privilege
+        return LogError(name, f"the database user may not write the log {name} ({msg}); nothing was "
+                              "written. Ask the server's administrator for the rights on its tables")
+    if isinstance(exc, _psycopg().OperationalError):
+        return LogError(name, f"the connection to the log {name} failed ({msg}); nothing was written. "
+                              "Check that the server is running and reachable, then try again")
+    return LogError(name, f"the log {name} could not be used ({msg}); nothing was written")
+
+
+# --- SQLite ------------------------------------------------------------------------------
+
+class SQLite:
+    """The embedded log: one file, WAL mode, writers wait for each other (BEGIN IMMEDIATE)."""
+
+    name = "sqlite"
+    # Fragments of the review's floor query: SQLite without statistics needs to be
+    # told to drive from the pour-date index (see Store.rejects_by_pattern).
+    lots_by_date_hint = "INDEXED BY lots_poured_on_pattern"
+    lots_by_pattern_hint = "INDEXED BY lots_pattern_poured_on"
+    forced_join = "CROSS JOIN"
+
+    def __init__(self, path: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
+        self.target = path
+        self.on_wait = on_wait
+        self.conn = None
+        memory = path == ":memory:"
+        if not memory and not create and not pathlib.Path(path).exists():
+            raise LogNotFound(path)
+        if not memory and pathlib.Path(path).is_dir():
+            raise LogError(path, f"cannot open the log {path}: it is a folder; give the log's file with --db")
+        try:
+            if not memory and not create and pathlib.Path(path).stat().st_size == 0:
+                raise NotALog(path, "the file is empty")
+            self.conn = sqlite3.connect(path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
+            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+            self.conn.execute("PRAGMA foreign_keys = ON")
+            self._check_foreign()
+            if not memory:
+                self.retry(lambda: self.conn.execute("PRAGMA journal_mode = WAL"))
+                self.conn.execute("PRAGMA synchronous = NORMAL")
+        except sqlite3.Error as exc:
+            self.close()
+            raise log_error(exc, path) from None
+        except BaseException:
+            self.close()
+            raise
+
+    def _check_foreign(self) -> None:
+        """Refuse an SQLite database of another program (its tables, no schema version)."""
+        if self.schema_version() != 0:
+            return
+        tables = [r[0] for r in self.conn.execute(
+            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name LIMIT 4")]
+        if tables:
+            raise NotALog(self.target, "an SQLite database of another program, with the tables "
+                                       + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else ""))
+
+    def close(self) -> None:
+        if self.conn is not None:
+            self.conn.close()
+
+    # errors -----------------------------------------------------------------------
+    @staticmethod
+    def transient(exc: BaseException) -> bool:
+        """Whether ``exc`` means "another writer holds the log; try again"."""
+        return isinstance(exc, sqlite3.OperationalError) and ("locked" in str(exc) or "busy" in str(exc))
+
+    def retry(self, fn, attempts: int = 8):
+        return retry(fn, self.transient, attempts, self.target, BUSY_TIMEOUT_MS / 1000)
+
+    # transactions -----------------------------------------------------------------
+    def _begin(self) -> None:
+        """BEGIN IMMEDIATE: wait a second for another writer, say so, then wait the rest."""
+        first = min(NOTICE_AFTER_MS, BUSY_TIMEOUT_MS)
+        self.conn.execute(f"PRAGMA busy_timeout = {first}")
+        try:
+            try:
+                self.conn.execute("BEGIN IMMEDIATE")
+                return
+            except sqlite3.OperationalError as exc:
+                if not self.transient(exc):
+                    raise
+            if self.on_wait is not None:
+                self.on_wait(f"The log {self.target} is locked by another writer; waiting up to "
+                             f"{(BUSY_TIMEOUT_MS - first) / 1000:g} s more ...")
+            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS - first}")
+            self.retry(lambda: self.conn.execute("BEGIN IMMEDIATE"))
+        finally:
+            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+
+    @contextlib.contextmanager
+    def write(self) -> Iterator[None]:
+        if self.conn.in_transaction:
+            self.conn.execute("SAVEPOINT pourback_nested")
+            try:
+                yield
+            except BaseException:
+                self.conn.execute("ROLLBACK TO SAVEPOINT pourback_nested")
+                self.conn.execute("RELEASE SAVEPOINT pourback_nested")
+                raise
+            else:
+                self.conn.execute("RELEASE SAVEPOINT pourback_nested")
+            return
+        self._begin()
+        try:
+            yield
+            self.retry(lambda: self.conn.execute("COMMIT"))
+        except BaseException:
+            if self.conn.in_transaction:
+                with contextlib.suppress(sqlite3.Error):
+                    self.conn.execute("ROLLBACK")
+            raise
+
+    @property
+    def in_transaction(self) -> bool:
+        return self.conn.in_transaction
+
+    def commit(self) -> None:
+        """Commit what plain ``execute`` calls wrote (sqlite3 opens a transaction for them)."""
+        self.conn.commit()
+
+    # schema -----------------------------------------------------------------------
+    def ddl(self, sql: str) -> str:
+        return sql
+
+    def schema_version(self) -> int:
+        return self.conn.execute("PRAGMA user_version").fetchone()[0]
+
+    def set_schema_version(self, version: int) -> None:
+        self.conn.execute(f"PRAGMA user_version = {int(version)}")
+
+    def table_names(self) -> list[str]:
+        return [r[0] for r in self.conn.execute(
+            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name")]
+
+    # rows -------------------------------------------------------------------------
+    def execute(self, sql: str, params: Iterable = ()):
+        return self.conn.execute(sql, tuple(params))
+
+    def executemany(self, sql: str, rows: Iterable[tuple]):
+        return self.conn.executemany(sql, rows)
+
+    def insert_many(self, table: str, cols: list[str], rows: list[tuple]) -> None:
+        sql = (f'INSERT INTO "{table}" ({", ".join(f"{chr(34)}{c}{chr(34)}" for c in cols)}) '
+               f"VALUES ({', '.join('?' * len(cols))})")
+        self.conn.executemany(sql, rows)
+
+    def last_insert_id(self) -> int:
+        return self.conn.execute("SELECT last_insert_rowid()").fetchone()[0]
+
+    def after_explicit_ids(self, table: str, column: str) -> None:
+        """Nothing to do: SQLite's next rowid follows the largest one."""
+
+    def quick_count(self, table: str) -> int:
+        # The log never deletes a row (a correction is a new record; a rolled-back
+        # import frees its rowids), so the largest rowid equals COUNT(*) without a scan.
+        return self.conn.execute(f'SELECT COALESCE(MAX(rowid), 0) FROM "{table}"').fetchone()[0]
+
+    def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
+        rows = self.conn.execute("EXPLAIN QUERY PLAN " + sql, tuple(params)).fetchall()
+        depth: dict[int, int] = {0: -1}
+        out = []
+        for node, parent, _, detail in rows:
+            depth[node] = depth.get(parent, -1) + 1
+            out.append("  " * depth[node] + detail)
+        return out
+
+    def integrity_check(self) -> str:
+        return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
+
+    def version(self) -> str:
+        return f"SQLite {sqlite3.sqlite_version}"
+
+    def backup(self, dest: pathlib.Path) -> dict:
+        """The online backup API, safe while others write. The copy is written
+        under a temporary name beside ``dest`` and renamed when complete, so a
+        backup stopped part-way (a crash, SIGKILL, a full disk) never leaves a
+        file under the backup's name."""
+        if not dest.parent.is_dir():
+            raise PourbackError(f"could not write the backup {dest}: the folder {dest.parent} does not exist")
+        part = dest.with_name(f".{dest.name}.{os.getpid()}.partial")
+        try:
+            target = sqlite3.connect(str(part))
+            try:
+                self.conn.backup(target, pages=-1)  # one step: a stepwise copy restarts on every write
+            finally:
+                target.close()
+            with open(part, "rb+") as fh:
+                os.fsync(fh.fileno())
+            os.replace(part, dest)
+        except (sqlite3.Error, OSError) as exc:
+            for p in (part, pathlib.Path(f"{part}-journal")):
+                p.unlink(missing_ok=True)  # never leave a half-written backup behind
+            if isinstance(exc, sqlite3.Error) and "full" in str(exc) or getattr(exc, "errno", None) == 28:
+                raise DiskFull(dest) from None
+            raise PourbackError(f"could not write the backup {dest} ({exc}); check that its folder "
+                                "can be written and has room") from None
+        return {"ran": True, "command": None, "note": "restore it with `pourback restore`"}
+
+
+# --- PostgreSQL --------------------------------------------------------------------------
+
+def _psycopg():
+    try:
+        import psycopg
+    except ImportError:  # pragma: no cover - psycopg is a dependency
+        raise PourbackError("a postgresql:// log needs the psycopg package: "
+                            "pip install 'psycopg[binary]'") from None
+    return psycopg
+
+
+class PostgreSQL:
+    """A log on a PostgreSQL server (psycopg 3).
+
+    The connection runs in autocommit mode, so reads never hold a transaction
+    open; a write is ``BEGIN`` + ``pg_advisory_xact_lock`` (one writer at a time,
+    like SQLite's ``BEGIN IMMEDIATE``, so validation that reads the log before
+    writing stays true at commit) + ``COMMIT``. Inserts go through ``COPY``.
+    """
+
+    name = "postgresql"
+    lots_by_date_hint = ""
+    lots_by_pattern_hint = ""
+    forced_join = "JOIN"
+
+    def __init__(self, url: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
+        psycopg = _psycopg()
+        self.target = url
+        self.on_wait = on_wait
+        self._sql_cache: dict[str, str] = {}
+        name = display_name(url)
+        try:
+            self.conn = psycopg.connect(url, autocommit=True, application_name="pourback")
+        except psycopg.Error as exc:
+            reason = " ".join(str(exc).split()) or type(exc).__name__
+            raise LogError(name, f"cannot connect to {name}: {reason}; check the host, port, database "
+                                 "name and the password (in the URL, PGPASSWORD or ~/.pgpass)") from None
+        try:
+            if self.schema_version() == 0:
+                if not create:
+                    raise LogNotFound(name)
+                self._check_foreign(name)
+        except BaseException:
+            self.conn.close()
+            raise
+
+    def _check_foreign(self, name: str) -> None:
+        """Refuse a schema holding another program's tables (and no pourback log)."""
+        tables = self.table_names()
+        if tables:
+            raise NotALog(name, "its schema holds tables of another program: "
+                                + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else "")
+                                + "; give a new database (createdb) or schema in the URL")
+
+    def close(self) -> None:
+        self.conn.close()
+
+    # errors -----------------------------------------------------------------------
+    @staticmethod
+    def transient(exc: BaseException) -> bool:
+        """Serialization failures and deadlocks: the transaction is safe to run again."""
+        errors = _psycopg().errors
+        return isinstance(exc, (errors.SerializationFailure, errors.DeadlockDetected))
+
+    def retry(self, fn, attempts: int = 8):
+        return retry(fn, self.transient, attempts, display_name(self.target), None)
+
+    # transactions -----------------------------------------------------------------
+    def _lock(self) -> None:
+        """The writers' lock: polled for a second, then (saying so) waited for."""
+        deadline = time.monotonic() + NOTICE_AFTER_MS / 1000
+        while True:
+            if self.conn.execute("SELECT pg_try_advisory_xact_lock(%s)", (PG_WRITE_LOCK,)).fetchone()[0]:
+                return
+            if time.monotonic() >= deadline:
+                break
+            time.sleep(0.02)
+        rest = PG_LOCK_TIMEOUT_MS - NOTICE_AFTER_MS
+        if self.on_wait is not None:
+            self.on_wait(f"The log {display_name(self.target)} is locked by another writer; waiting up to "
+                         f"{rest / 1000:g} s more ...")
+        self.conn.execute(f"SET LOCAL lock_timeout = {rest}")
+        try:
+            self.conn.execute("SELECT pg_advisory_xact_lock(%s)", (PG_WRITE_LOCK,))
+        except _psycopg().errors.LockNotAvailable:
+            raise LogLocked(display_name(self.target), PG_LOCK_TIMEOUT_MS / 1000) from None
+
+    @contextlib.contextmanager
+    def write(self) -> Iterator[None]:
+        outer = not self.in_transaction
+        with self.conn.transaction():  # a savepoint when nested
+            if outer:
+                self._lock()
+            yield
+            if outer:
+                # The change counter the dashboard's cache keys on (see data_version).
+                self.conn.execute("UPDATE pourback_schema SET changes = changes + 1")
+
+    @property
+    def in_transaction(self) -> bool:
+        pq = _psycopg().pq
+        return self.conn.info.transaction_status != pq.TransactionStatus.IDLE
+
+    def commit(self) -> None:
+        """Nothing to do: outside :meth:`write` every statement commits by itself."""
+
+    # schema -----------------------------------------------------------------------
+    _DDL = [
+        (re.compile(r"\bINTEGER PRIMARY KEY\b"), "BIGINT GENERATED BY DEFAULT AS IDENTITY PRIMARY KEY"),
+        # SQLite's REAL is 8 bytes; PostgreSQL's is 4.
+        (re.compile(r"\b(REAL|FLOAT)\b"), "DOUBLE PRECISION"),
+        (re.compile(r"\bBLOB\b"), "BYTEA"),
+        # Byte order, as SQLite compares text, so reports sort the same on both; a
+        # column that names its own collation keeps it.
+        (re.compile(r"\bTEXT\b(?![^,()]*\bCOLLATE\b)"), 'TEXT COLLATE "C"'),
+        # "user" is reserved in PostgreSQL (it means current_user): quote the column.
+        (re.compile(r'(?<!")\buser\b(?!")'), '"user"'),
+    ]
+    # SQLite's NOCASE: an ICU collation that compares without case (for = and ORDER BY).
+    _NOCASE = re.compile(r"\bCOLLATE NOCASE\b")
+    NOCASE_COLLATION = "pourback_nocase"
+
+    def ddl(self, sql: str) -> str:
+        for pattern, repl in self._DDL:
+            sql = pattern.sub(repl, sql)
+        if self._NOCASE.search(sql):
+            self.conn.execute(f"CREATE COLLATION IF NOT EXISTS {self.NOCASE_COLLATION} "
+                              "(provider = icu, locale = 'und-u-ks-level2', deterministic = false)")
+        return sql
+
+    def schema_version(self) -> int:
+        if self.conn.execute("SELECT to_regclass('pourback_schema')").fetchone()[0] is None:
+            return 0
+        row = self.conn.execute("SELECT version FROM pourback_schema").fetchone()
+        return 0 if row is None else row[0]
+
+    def set_schema_version(self, version: int) -> None:
+        # One row: the schema version (SQLite's user_version) and a count of committed
+        # write transactions (SQLite's file size and mtime, for data_version).
+        self.conn.execute("CREATE TABLE IF NOT EXISTS pourback_schema "
+                          "(version INTEGER NOT NULL, changes BIGINT NOT NULL DEFAULT 0)")
+        if self.conn.execute("UPDATE pourback_schema SET version = %s", (int(version),)).rowcount == 0:
+            self.conn.execute("INSERT INTO pourback_schema (version) VALUES (%s)", (int(version),))
+
+    def table_names(self) -> list[str]:
+        return [r[0] for r in self.conn.execute(
+            "SELECT table_name FROM information_schema.tables WHERE table_schema = current_schema() "
+            "AND table_type = 'BASE TABLE' AND table_name != 'pourback_schema' ORDER BY table_name")]
+
+    # rows -------------------------------------------------------------------------
+    def sql(self, sql: str) -> str:
+        """``?`` placeholders to psycopg's ``%s`` (the store's SQL has no ``?`` or ``%`` in literals)."""
+        out = self._sql_cache.get(sql)
+        if out is None:
+            out = self._NOCASE.sub(f"COLLATE {self.NOCASE_COLLATION}", sql.replace("%", "%%").replace("?", "%s"))
+            self._sql_cache[sql] = out
+        return out
+
+    def execute(self, sql: str, params: Iterable = ()):
+        params = tuple(params)
+        return self.conn.execute(self.sql(sql), params or None)
+
+    def executemany(self, sql: str, rows: Iterable[tuple]):
+        with self.conn.cursor() as cur:
+            cur.executemany(self.sql(sql), rows)
+
+    def insert_many(self, table: str, cols: list[str], rows: list[tuple]) -> None:
+        names = ", ".join(f'"{c}"' for c in cols)
+        with self.conn.cursor() as cur, cur.copy(f'COPY "{table}" ({names}) FROM STDIN') as copy:
+            for row in rows:
+                copy.write_row(row)
+
+    def last_insert_id(self) -> int:
+        # lastval() is per session, and COPY's defaults advance it like INSERT's.
+        return self.conn.execute("SELECT lastval()").fetchone()[0]
+
+    def after_explicit_ids(self, table: str, column: str) -> None:
+        """Move ``table.column``'s identity past the largest id (after rows brought their own)."""
+        self.conn.execute(
+            f"SELECT setval(pg_get_serial_sequence('{table}', '{column}'), "
+            f'COALESCE((SELECT MAX("{column}") FROM "{table}"), 0) + 1, false)')
+
+    def quick_count(self, table: str) -> int:
+        # A rolled-back COPY burns identity values, so MAX(id) is no count here.
+        return self.conn.execute(f'SELECT COUNT(*) FROM "{table}"').fetchone()[0]
+
+    def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
+        return [r[0] for r in self.execute("EXPLAIN " + sql, params).fetchall()]
+
+    def integrity_check(self) -> str:
+        # The server keeps its own files consistent; check that every table answers.
+        for t in self.table_names():
+            self.conn.execute(f'SELECT 1 FROM "{t}" LIMIT 1').fetchall()
+        return "ok"
+
+    def version(self) -> str:
+        return "PostgreSQL " + self.conn.execute("SHOW server_version").fetchone()[0].split()[0]
+
+    def backup(self, dest: pathlib.Path) -> dict:
+        """``pg_dump --format=custom`` of this log's schema into ``dest``; the
+        password goes to pg_dump in PGPASSWORD, never on its command line."""
+        info = self.conn.info
+        params = info.get_parameters()
+        schema = self.conn.execute("SELECT current_schema()").fetchone()[0]
+        args = ["pg_dump", "--format=custom", f"--file={dest}",
+                f"--host={params.get('host', info.host)}", f"--port={info.port}",
+                f"--username={info.user}"]
+        if schema != "public":
+            args.append(f"--schema={schema}")
+        args.append(info.dbname)
+        shown = " ".join(shlex.quote(a) for a in args)
+        note = ("the server's own backups (those its administrators run) are the plan of record; "
+                "this dump is an extra copy. Restore it with pg_restore")
+        exe = shutil.which("pg_dump")
+        if exe is None:
+            return {"ran": False, "command": shown,
+                    "note": "pg_dump is not installed here (Debian: apt-get install postgresql-client); "
+                            "run the command on a machine that has it, the password from PGPASSWORD or "
+                            "~/.pgpass. " + note}
+        env = dict(os.environ)
+        if info.password:
+            env["PGPASSWORD"] = info.password
+        done = subprocess.run([exe, *args[1:]], env=env, capture_output=True, text=True)
+        if done.returncode != 0:
+            dest.unlink(missing_ok=True)
+            reason = (done.stderr.strip().splitlines() or ["no message"])[-1]
+            raise PourbackError(f"pg_dump failed ({reason}); the command was: {shown}")
+        return {"ran": True, "command": shown, "note": note}
+
+
+def retry(fn, transient, attempts: int, name: str, seconds: float | None):
+    """``fn()``, run again after a short, growing pause while it fails with a
+    ``transient`` error; after ``attempts`` tries, :class:`LogLocked` (naming
+    the log ``name`` and the ``seconds`` a writer waits for the lock, or with
+    ``None`` the tries made)."""
+    delay = 0.05
+    for i in range(attempts):
+        try:
+            return fn()
+        except Exception as exc:
+            if not transient(exc):
+                raise
+            if i == attempts - 1:
+                raise LogLocked(name, seconds, tries=attempts) from None
+            time.sleep(delay)
+            delay = min(delay * 2, 1.0)
+
+
+def data_version(target: str) -> tuple:
+    """A value that changes whenever the log changes (a cache key for the dashboard).
+
+    SQLite in WAL mode writes to ``<db>-wal`` first, so both files' size and
+    modification time (ns) count; a missing file gives zeros. PostgreSQL: the
+    count of committed write transactions kept in ``pourback_schema``.
+    """
+    if is_url(target):
+        psycopg = _psycopg()
+        try:
+            with psycopg.connect(target, autocommit=True) as conn:
+                if conn.execute("SELECT to_regclass('pourback_schema')").fetchone()[0] is None:
+                    return (0,)
+                return tuple(conn.execute("SELECT version, changes FROM pourback_schema").fetchone() or (0,))
+        except psycopg.Error:
+            return ("unreachable",)
+    out = []
+    for p in (pathlib.Path(target), pathlib.Path(f"{target}-wal")):
+        try:
+            st = p.stat()
+            out += [st.st_size, st.st_mtime_ns]
+        except OSError:
+            out += [0, 0]
+    return tuple(out)
+
+
+def with_schema(url: str, schema: str) -> str:
+    """``url`` with its search_path set to ``schema`` (libpq's ``options`` parameter)."""
+    parts = urllib.parse.urlsplit(url)
+    query = [(k, v) for k, v in urllib.parse.parse_qsl(parts.query) if k != "options"]
+    query.append(("options", f"-csearch_path={schema}"))
+    return urllib.parse.urlunsplit(parts._replace(query=urllib.parse.urlencode(query)))
+
+
+def new_schema(url: str, schema: str) -> str:
+    """Create ``schema`` afresh (dropping one of that name) on the server at ``url``;
+    the URL of a log in it."""
+    if not re.fullmatch(r"[a-z_][a-z0-9_]{0,62}", schema):
+        raise PourbackError(f"schema: got {schema!r}; use lower-case letters, digits and '_'")
+    with _psycopg().connect(url, autocommit=True) as conn:
+        conn.execute(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE')
+        conn.execute(f'CREATE SCHEMA "{schema}"')
+    return with_schema(url, schema)
+
+
+def drop_schema(url: str, schema: str) -> None:
+    """Drop ``schema`` and everything in it, if it exists."""
+    if not re.fullmatch(r"[a-z_][a-z0-9_]{0,62}", schema):
+        raise PourbackError(f"schema: got {schema!r}; use lower-case letters, digits and '_'")
+    with _psycopg().connect(url, autocommit=True) as conn:
+        conn.execute(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE')
