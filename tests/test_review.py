@@ -542,18 +542,17 @@ def test_review_floor_holds_the_rows_the_review_counts(demo_store, demo_review):
     assert all(eff <= "2026-11-22" for _, _, eff, *_ in floor["risers"])
 
 
-def test_history_spans_are_the_judged_patterns_before_the_window(demo_store):
-    # Plumbing: the spans the benchmark's floor adds are the patterns whose revisions
-    # the review judges, read up to the day before the span the review fetches
-    # (W47 of 2026 starts on 2026-11-16; 4 weeks and the week before from 2026-10-19).
-    from tracker.review import history_spans
+def test_revision_probes_are_the_edges_of_the_judged_spans(demo_store):
+    # Plumbing: the running totals the benchmark times beside the floor are those of
+    # each judged revision's pattern at its spans' edges (before start, change, the
+    # day after the after span), and its changed zones' where it is judged by zone.
+    from tracker.review import revision_probes
 
     review = weekly_review(demo_store, "2026-W47", weeks=4)
-    spans = history_spans(demo_store, "2026-W47", 4)
-    assert spans and all(last == "2026-10-18" and first <= last for _, first, last in spans)
-    reaching_back = {r["pattern"] for r in review["revisions"]
-                     if (r["before"]["start"] or r["effective_from"]) <= "2026-10-18"}
-    assert reaching_back <= {p for p, _, _ in spans}
-    rows = demo_store.review_floor("2026-10-19", "2026-11-22", spans)
-    starts = {p: first for p, first, _ in spans}
-    assert rows["history_lots"] and all(starts[p] <= d <= "2026-10-18" for _, p, d, _ in rows["history_lots"])
+    probes, zone_probes = revision_probes(demo_store, "2026-W47", 4)
+    for r in review["revisions"]:
+        after = (dt.date.fromisoformat(r["after"]["end"]) + dt.timedelta(days=1)).isoformat()
+        edges = {r["before"]["start"] or r["effective_from"], r["effective_from"], after}
+        assert {(r["pattern"], d) for d in edges} <= set(probes)
+        if r["zone_basis"] == "zones of the changed risers":
+            assert {(r["pattern"], z, d) for z in r["changed_zones"] for d in edges} <= set(zone_probes)

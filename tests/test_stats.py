@@ -385,6 +385,24 @@ def test_compare_rates_matches_scipy_and_statsmodels(kb, nb, ka, na):
     assert (out["rate_before"], out["rate_after"]) == (kb / nb, ka / na)
 
 
+def test_compare_rates_many_gives_scipys_fisher_p_values_exactly():
+    # Many tables at once (as the review judges its riser revisions): small and large,
+    # either side of the mode, ties, empty columns, a side with everything rejected.
+    rng = np.random.default_rng(7)
+    nb = rng.integers(1, 20000, 400)
+    na = rng.integers(1, 20000, 400)
+    kb = rng.binomial(nb, rng.choice([0.0, 0.001, 0.02, 0.2], 400))
+    ka = rng.binomial(na, rng.choice([0.0, 0.001, 0.02, 0.2], 400))
+    extra = np.array(TABLES + [(5, 10, 5, 10), (0, 50, 0, 70), (9, 9, 9, 9), (3, 7, 6, 14), (2, 2000, 1, 1000)])
+    kb, nb, ka, na = (np.concatenate([x, extra[:, j]]) for j, x in enumerate((kb, nb, ka, na)))
+    many = stats.compare_rates_many(kb, nb, ka, na)
+    for row, *t in zip(many, kb.tolist(), nb.tolist(), ka.tolist(), na.tolist()):
+        k1, n1, k2, n2 = t
+        # scipy.stats.fisher_exact, two-sided: the same number, not merely close
+        assert row["p_value"] == sps.fisher_exact([[k1, n1 - k1], [k2, n2 - k2]]).pvalue, t
+        assert row == stats.compare_rates(k1, n1, k2, n2)
+
+
 @pytest.mark.parametrize("confidence", [0.90, 0.99])
 def test_newcombe_other_confidence(confidence):
     out = stats.compare_rates(30, 900, 18, 1100, confidence=confidence)

@@ -9,7 +9,10 @@ loops left build the output and run over riser revisions of the window, for
 the statistical test of each). pandas is left out of the hot path: its fixed
 cost per operation was most of a one-week review. The scale benchmark holds
 the review against the bare fetch of the rows it reads
-(``Store.review_floor``).
+(``Store.review_floor``). The riser revisions' before/after figures come from
+the log's running totals per pattern and pour day (``Store.totals_before``,
+kept up to date by every write of lots and records): two rows a span, however
+long ago the revision took effect, instead of re-reading its history.
 
 Counting rules
 --------------
@@ -185,6 +188,12 @@ def _reject_arrays(cols: dict, index: dict) -> dict[str, np.ndarray]:
            "defect": np.array(cols["defect"], dtype=object), "zone": np.array(cols["zone"], dtype=object),
            "quantity": _ints(cols["quantity"])}
     return {k: v[keep] for k, v in out.items()}
+
+
+def _finite(x) -> float | None:
+    """A number as a Python float, None where it is NaN or infinite."""
+    f = float(x)
+    return f if math.isfinite(f) else None
 
 
 def _rate(k, n):
@@ -500,45 +509,17 @@ def in_system(review: dict, system: str) -> dict:
     return out
 
 
-_DAY_BITS = 2 ** 21  # above any proleptic ordinal (year 5000 is about 1.8 million)
-
-
-class _DaySums:
-    """Sums of day-level values per pattern over date spans, by cumulative sums
-    on rows sorted by (pattern, day): each span costs two binary searches."""
-
-    def __init__(self, pattern: np.ndarray, day: np.ndarray, values: dict[str, np.ndarray]):
-        key = pattern * _DAY_BITS + day
-        order = np.argsort(key, kind="stable")
-        self.key = key[order]
-        self.order = order
-        self.cum = {k: np.concatenate([[0], np.cumsum(v[order])]) for k, v in values.items()}
-
-    def bounds(self, pattern: np.ndarray, start: np.ndarray, end: np.ndarray):
-        lo = np.searchsorted(self.key, pattern * _DAY_BITS + start, side="left")
-        hi = np.maximum(lo, np.searchsorted(self.key, pattern * _DAY_BITS + end, side="right"))
-        return lo, hi
-
-    def sums(self, pattern, start, end) -> dict[str, np.ndarray]:
-        lo, hi = self.bounds(pattern, start, end)
-        return {k: (c[hi] - c[lo]).astype(np.int64) for k, c in self.cum.items()}
-
-
 def _candidates(store: Store, mondays: list[dt.date], weeks: int) -> dict | None:
     """The riser revisions the review of the weeks ``mondays`` judges, with their spans."""
     first, review_end = _iso(mondays[0]), _iso(mondays[-1] + dt.timedelta(days=6))
     # every revision up to the review week: one still without a verdict stays under
     # judgement however long ago it took effect (the revisions table is small)
-    revs = store.revision_steps(EARLIEST_DAY, review_end)
-    if revs.empty:
+    revs = store.revision_steps(EARLIEST_DAY, review_end, columns=True)
+    keep = [i for i, (eff, prev, nxt) in enumerate(zip(revs["effective_from"], revs["previous"], revs["next_from"]))
+            if first <= eff <= review_end or (eff < first and prev is not None and (nxt is None or nxt > first))]
+    if not keep:
         return None
-    inside = (revs["effective_from"] >= first) & (revs["effective_from"] <= review_end)
-    pending = ((revs["effective_from"] < first)
-               & revs["previous"].notna() & (revs["next_from"].isna() | (revs["next_from"] > first)))
-    cand = revs[inside | pending].reset_index(drop=True)
-    if cand.empty:
-        return None
-    cand = {c: cand[c].astype(object).where(cand[c].notna(), None).tolist() for c in cand.columns}
+    cand = {c: [v[i] for i in keep] for c, v in revs.items()}
     cand["in_window"] = [eff >= first for eff in cand["effective_from"]]
     cand["before_start"] = [eff if prev is None else max(prev_from, _iso(dt.date.fromisoformat(eff)
                                                                          - dt.timedelta(weeks=weeks)))
@@ -550,133 +531,107 @@ def _candidates(store: Store, mondays: list[dt.date], weeks: int) -> dict | None
     return cand
 
 
-def _history_starts(cand: dict, upto: str) -> dict[str, str]:
-    """Per pattern judged, the earliest day before ``upto`` its comparisons read."""
-    since: dict[str, str] = {}
-    for code, start in zip(cand["pattern"], cand["before_start"]):
-        if start <= upto:
-            since[code] = min(since.get(code, start), start)
-    return since
+def _changed(store: Store, cand: dict) -> tuple[list[list[str]], list[list[dict]]]:
+    """Per candidate, the zones of its changed risers and the changes (from the risers
+    of the candidates' patterns, a handful of rows each)."""
+    designs: dict[tuple, dict] = {}
+    for pattern, revision, riser, *fields in store.riser_designs(sorted(set(cand["pattern"]))):
+        designs.setdefault((pattern, revision), {})[riser] = dict(zip(RISER_FIELDS, fields))
+    changes = [_riser_changes(designs.get((c, prev), {}), designs.get((c, rv), {})) if prev else []
+               for c, rv, prev in zip(cand["pattern"], cand["revision"], cand["previous"])]
+    return [sorted({z for ch in chs for z in ch["zones"]}) for chs in changes], changes
 
 
-def history_spans(store: Store, week: str, weeks: int) -> list[tuple[str, str, str]]:
-    """The lots before its window that the review of ``week`` (``weeks`` weeks) reads
-    to judge riser revisions: (pattern, first pour date, last pour date), ISO dates.
+def _read_totals(store: Store, cand: dict, zones: list[list[str]]) -> dict:
+    """The running totals each candidate's spans are read from.
 
-    For the benchmark's floor; the review itself reads them in :func:`_revisions`.
+    Per candidate three edges (``edges``: before_start, effective_from, the day
+    after after_end): before = [before_start, effective_from), after =
+    [effective_from, after_end], each the difference of the pattern's totals at
+    two edges (``totals``, ``Store.totals_before``), however long ago the
+    revision took effect. ``use_zones``: the revision changed risers and
+    shrinkage rejects in its spans name a zone; then the shrinkage rejects of
+    the changed zones at the edges (``zone_totals``, read for those only).
+    ``probes`` and ``zone_probes`` list what was read.
     """
+    day_after: dict[str, str] = {}
+    for e in cand["after_end"]:
+        if e not in day_after:
+            day_after[e] = _iso(dt.date.fromisoformat(e) + dt.timedelta(days=1))
+    edges = [(bs, eff, day_after[ae])
+             for bs, eff, ae in zip(cand["before_start"], cand["effective_from"], cand["after_end"])]
+    probes = [(c, d) for c, e in zip(cand["pattern"], edges) for d in e]
+    totals = store.totals_before(probes)
+    zoned = Store.TOTALS.index("zoned_shrinkage")
+    use_zones = [bool(zs) and totals[(c, e[2])][zoned] - totals[(c, e[0])][zoned] > 0
+                 for c, zs, e in zip(cand["pattern"], zones, edges)]
+    zone_probes = [(c, z, d) for c, zs, e, use in zip(cand["pattern"], zones, edges, use_zones) if use
+                   for z in zs for d in e]
+    return {"edges": edges, "totals": totals, "use_zones": use_zones,
+            "zone_totals": store.zone_shrinkage_before(zone_probes), "probes": probes, "zone_probes": zone_probes}
+
+
+def revision_probes(store: Store, week: str, weeks: int) -> tuple[list, list]:
+    """The rows of ``day_totals`` and ``zone_totals`` the review of ``week`` (``weeks``
+    weeks) reads to judge riser revisions, as the probes of ``Store.totals_before``
+    and ``Store.zone_shrinkage_before``: for the benchmark, which times that read
+    beside the floor (the review itself reads them in :func:`_revisions`)."""
     monday = stats.week_start(week)
-    mondays = [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)]
-    cand = _candidates(store, mondays, weeks)
+    cand = _candidates(store, [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)], weeks)
     if cand is None:
-        return []
-    upto = _iso(mondays[0] - dt.timedelta(weeks=1) - dt.timedelta(days=1))
-    return [(code, start, upto) for code, start in sorted(_history_starts(cand, upto).items())]
+        return [], []
+    read = _read_totals(store, cand, _changed(store, cand)[0])
+    return read["probes"], read["zone_probes"]
 
 
-def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: dt.date,
-               pours: dict, rejects: dict, codes: list[str], confidence: float) -> list[dict]:
+def _revisions(store: Store, mondays: list[dt.date], weeks: int, confidence: float) -> list[dict]:
     cand = _candidates(store, mondays, weeks)
     if cand is None:
         return []
     n = len(cand["pattern"])
     in_window, before_start, before_end, after_end = (
         cand["in_window"], cand["before_start"], cand["before_end"], cand["after_end"])
-
-    # the day-level rows of the candidates' patterns, fetched further back where needed
-    mine = sorted(set(cand["pattern"]))
-    index = {c: i for i, c in enumerate(mine)}
-    remap = np.array([index.get(c, -1) for c in codes] + [-1], dtype=np.int64)
-    p = {k: v[remap[pours["pattern"]] >= 0] for k, v in pours.items()}
-    p["pattern"] = remap[p["pattern"]]
-    r = {k: v[remap[rejects["pattern"]] >= 0] for k, v in rejects.items()}
-    r["pattern"] = remap[r["pattern"]]
-    # Each pattern is read back from its own earliest comparison start, not all from the
-    # earliest of all: patterns are grouped by that start's year, one fetch per group
-    # (a revision under judgement for years reads years of its pattern's lots).
-    upto = _iso(fetched_from - dt.timedelta(days=1))
-    since = _history_starts(cand, upto)
-    groups: dict[str, list[str]] = {}
-    for code, start in sorted(since.items(), key=lambda kv: kv[1]):
-        groups.setdefault(start[:4], []).append(code)
-    for codes_in in groups.values():
-        start = since[codes_in[0]]
-        more_p = _pour_arrays(store.pours_by_day(start, upto, codes_in, columns=True), index)
-        more_r = _reject_arrays(store.rejects_by_day(start, upto, codes_in, columns=True), index)
-        p = {k: np.concatenate([more_p[k], p[k]]) for k in p}
-        r = {k: np.concatenate([more_r[k], r[k]]) for k in r}
-    r = {k: v[r["reject"]] for k, v in r.items()}
-    shr_mask = r["defect"] == SHRINKAGE
-    s = {k: v[shr_mask] for k, v in r.items()}
-
-    # riser changes, from the risers of the candidates' patterns (a handful of rows each)
-    risers = store.riser_designs(mine)
-    designs: dict[tuple, dict] = {}
-    for row in _records(risers[["pattern", "revision", "riser", *RISER_FIELDS]]):
-        designs.setdefault((row["pattern"], row["revision"]), {})[row["riser"]] = {
-            f: row[f] for f in RISER_FIELDS}
-    changes = [_riser_changes(designs.get((c, prev), {}), designs.get((c, rv), {})) if prev else []
-               for c, rv, prev in zip(cand["pattern"], cand["revision"], cand["previous"])]
-    zones = [sorted({z for ch in chs for z in ch["zones"]}) for chs in changes]
-
-    # per candidate: its pattern's number and its spans as whole days
-    ordinal = {}
-
-    def days(values):
-        out = np.empty(len(values), dtype=np.int64)
-        for i, v in enumerate(values):
-            if v not in ordinal:
-                ordinal[v] = dt.date.fromisoformat(v).toordinal()
-            out[i] = ordinal[v]
-        return out
-
-    pat = np.array([index[c] for c in cand["pattern"]], dtype=np.int64)
-    spans = {"before": (days(before_start), days(before_end)),
-             "after": (days(cand["effective_from"]), days(after_end))}
-    pour_sums = _DaySums(p["pattern"], p["day"], {k: p[k] for k in ("lots", "castings", "inspected_castings")})
-    reject_sums = _DaySums(r["pattern"], r["day"], {"quantity": r["quantity"]})
-
-    # shrinkage rejects in the changed zones; all zones when no riser changed or no zone was recorded
-    sh = _DaySums(s["pattern"], s["day"], {})
-    s_zone = s["zone"][sh.order]
-    s_qty = s["quantity"][sh.order]
-    s_day = s["day"][sh.order]
-    lo, hi = sh.bounds(pat, spans["before"][0], spans["after"][1])
-    basis, shrink = [], {"before": np.zeros(n, dtype=np.int64), "after": np.zeros(n, dtype=np.int64)}
+    zones, changes = _changed(store, cand)
+    read = _read_totals(store, cand, zones)
+    edges, totals, zone_totals = read["edges"], read["totals"], read["zone_totals"]
+    at = {k: j for j, k in enumerate(Store.TOTALS)}
+    basis, sums = [], []
     for i in range(n):
-        zq, dq, qq = s_zone[lo[i]:hi[i]], s_day[lo[i]:hi[i]], s_qty[lo[i]:hi[i]]
-        zoned = any(z is not None for z in zq.tolist())
-        use_zones = bool(zones[i]) and zoned
+        c, (bs, eff, end) = cand["pattern"][i], edges[i]
+        t0, t1, t2 = totals[(c, bs)], totals[(c, eff)], totals[(c, end)]
+        use_zones = read["use_zones"][i]
         if not zones[i]:
             basis.append("all zones (no riser changed)")
         elif use_zones:
             basis.append("zones of the changed risers")
         else:
             basis.append("all zones (no zone recorded on the shrinkage rejects)")
-        counted = np.array([z in zones[i] for z in zq.tolist()], dtype=bool) if use_zones \
-            else np.ones(len(zq), dtype=bool)
-        for side, (a, b) in spans.items():
-            shrink[side][i] = int(qq[counted & (dq >= a[i]) & (dq <= b[i])].sum())
+        if use_zones:
+            s0, s1, s2 = (sum(zone_totals[(c, z, d)] for z in zones[i]) for d in (bs, eff, end))
+        else:
+            s0, s1, s2 = t0[at["shrinkage"]], t1[at["shrinkage"]], t2[at["shrinkage"]]
+        sums.append({side: {"lots": b[at["lots"]] - a[at["lots"]], "poured": b[at["castings"]] - a[at["castings"]],
+                            "inspected": b[at["inspected_castings"]] - a[at["inspected_castings"]],
+                            "rejected": b[at["rejected"]] - a[at["rejected"]], "shrinkage_rejected": sb - sa}
+                     for side, (a, b, sa, sb) in (("before", (t0, t1, s0, s1)),
+                                                  ("after", (t1, t2, s1, s2)))})
 
-    sums = {side: (pour_sums.sums(pat, a, b), reject_sums.sums(pat, a, b)) for side, (a, b) in spans.items()}
     bounds = {"before": (before_start, before_end), "after": (cand["effective_from"], after_end)}
+    judged = stats.compare_rates_many(*zip(*((s["before"]["shrinkage_rejected"], s["before"]["inspected"],
+                                              s["after"]["shrinkage_rejected"], s["after"]["inspected"])
+                                             for s in sums)), confidence)
     out = []
     for i in range(n):
         part = {}
-        for side, (sp, sr) in sums.items():
-            a, b = bounds[side]
-            part[side] = {
-                "start": a[i] if side == "after" or cand["previous"][i] is not None else None,
-                "end": b[i],
-                "lots": int(sp["lots"][i]), "poured": int(sp["castings"][i]),
-                "inspected": int(sp["inspected_castings"][i]), "rejected": int(sr["quantity"][i]),
-                "shrinkage_rejected": int(shrink[side][i])}
+        for side, (a, b) in bounds.items():
+            part[side] = {"start": a[i] if side == "after" or cand["previous"][i] is not None else None,
+                          "end": b[i], **sums[i][side]}
         b, a = part["before"], part["after"]
-        c = stats.compare_rates(b["shrinkage_rejected"], b["inspected"], a["shrinkage_rejected"],
-                                a["inspected"], confidence)
+        c = judged[i]
         if not in_window[i] and c["verdict"] != "not_enough_data":
             continue
-        rb, ra = _rate(b["rejected"], b["inspected"]), _rate(a["rejected"], a["inspected"])
+        rb = b["rejected"] / b["inspected"] if b["inspected"] else math.nan
+        ra = a["rejected"] / a["inspected"] if a["inspected"] else math.nan
         out.append({
             "pattern": cand["pattern"][i], "revision": cand["revision"][i],
             "previous_revision": cand["previous"][i],
@@ -684,13 +639,12 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, fetched_from: d
             "changed_risers": [ch["riser"] for ch in changes[i]], "changed_zones": zones[i],
             "riser_changes": changes[i], "zone_basis": basis[i],
             "before": b, "after": a,
-            "rate_before": c["rate_before"], "rate_after": c["rate_after"],
-            "difference": c["difference"], "diff_low": c["diff_low"], "diff_high": c["diff_high"],
-            "p_value": c["p_value"], "power_to_halve": c["power_to_halve"], "verdict": c["verdict"],
-            "all_defects": {"rate_before": float(rb), "rate_after": float(ra), "difference": float(ra - rb)},
+            **{k: _finite(c[k]) for k in ("rate_before", "rate_after", "difference", "diff_low", "diff_high",
+                                          "p_value", "power_to_halve")}, "verdict": c["verdict"],
+            "all_defects": {"rate_before": _finite(rb), "rate_after": _finite(ra), "difference": _finite(ra - rb)},
         })
     out.sort(key=lambda d: (d["effective_from"], d["pattern"], d["revision"]), reverse=True)
-    return jsonable(out)
+    return out  # JSON-ready as built: counts, text and riser fields from _records; floats through _finite
 
 
 # --- the review ---------------------------------------------------------------------------
@@ -821,11 +775,11 @@ def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WE
         rejects of problem patterns in the review week) and ``caution``.
     """
     weeks, target, week, monday = _checked(store, week, weeks, target)
-    mondays, previous, fetch_from, codes, pours, rejects, mx = _fetched(store, monday, weeks)
+    mondays, previous, _, _, _, rejects, mx = _fetched(store, monday, weeks)
     week_end = monday + dt.timedelta(days=6)
     now = _window(mx, rejects, mondays, slice(1, None), target, confidence)
     before = _window(mx, rejects, previous, slice(0, -1), target, confidence, full=False)
-    revisions = _revisions(store, mondays, weeks, fetch_from, pours, rejects, codes, confidence)
+    revisions = _revisions(store, mondays, weeks, confidence)
 
     t = now["table"]
     patterns = _rows({k: t[k] for k in PATTERN_KEYS + ["pchart"]})

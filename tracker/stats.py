@@ -27,11 +27,13 @@ fractions in 0..1, not percentages.
 from __future__ import annotations
 
 import datetime as _dt
+import functools
 import math
 import re
 
 import numpy as np
 import pandas as pd
+from scipy import special as _special
 from scipy import stats as _sps
 
 from tracker.errors import BadInput
@@ -136,7 +138,7 @@ def wilson_interval(k, n, confidence: float = 0.95):
         raise BadInput("n", _first(na, bad_n), "inspected count must be a number, 0 or more")
     ka, na = np.broadcast_arrays(ka, na)
     _check_k_le_n(ka, na, "k", "n")
-    z = _sps.norm.ppf(0.5 + c / 2.0)
+    z = _normal_quantile(0.5 + c / 2.0)
     low, high = _wilson(ka, na, z)
     if scalar:
         return float(low), float(high)
@@ -305,23 +307,113 @@ def latest_signal(chart_df: pd.DataFrame, last: int = 1) -> list[str]:
 
 # --- before / after ----------------------------------------------------------------
 
-def _power_to_detect(p1: float, n1: float, n2: float, alpha: float,
-                     ratio: float = DETECTABLE_RATIO) -> float:
-    """Approximate power of a two-sided two-proportion test of p1 against ratio·p1.
+@functools.lru_cache(maxsize=64)
+def _normal_quantile(q: float) -> float:
+    """The standard normal quantile Φ⁻¹(q) (``scipy.stats.norm.ppf``), once per q."""
+    return _sps.norm.ppf(q)
+
+
+def _power_to_detect(p1, n1, n2, alpha: float, ratio: float = DETECTABLE_RATIO) -> np.ndarray:
+    """Approximate power of a two-sided two-proportion test of p1 against ratio·p1
+    (arrays: one power per element).
 
     Normal approximation with the pooled null variance (Fleiss, Statistical
     Methods for Rates and Proportions). Fisher's exact test is a little more
     conservative, so this slightly flatters it; it is used only to say whether
-    a "no change" could have meant anything.
+    a "no change" could have meant anything. 0 where n1 or n2 is 0, p1 is 0 or
+    p1 = ratio·p1.
     """
+    p1, n1, n2 = (np.asarray(x, dtype=float) for x in (p1, n1, n2))
     p2 = ratio * p1
-    if n1 <= 0 or n2 <= 0 or p1 <= 0 or p1 == p2:
-        return 0.0
-    pooled = (n1 * p1 + n2 * p2) / (n1 + n2)
-    z = _sps.norm.ppf(1.0 - alpha / 2.0)
-    se0 = math.sqrt(pooled * (1.0 - pooled) * (1.0 / n1 + 1.0 / n2))
-    se1 = math.sqrt(p1 * (1.0 - p1) / n1 + p2 * (1.0 - p2) / n2)
-    return float(_sps.norm.cdf((abs(p1 - p2) - z * se0) / se1))
+    ok = (n1 > 0) & (n2 > 0) & (p1 > 0) & (p1 != p2)
+    z = _normal_quantile(1.0 - alpha / 2.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        pooled = (n1 * p1 + n2 * p2) / (n1 + n2)
+        se0 = np.sqrt(pooled * (1.0 - pooled) * (1.0 / n1 + 1.0 / n2))
+        se1 = np.sqrt(p1 * (1.0 - p1) / n1 + p2 * (1.0 - p2) / n2)
+        # scipy.stats.norm.cdf is scipy.special.ndtr for the standard normal
+        power = _special.ndtr((np.abs(p1 - p2) - z * se0) / se1)
+    return np.where(ok, power, 0.0)
+
+
+def _fisher_two_sided(k1, n1, k2, n2) -> np.ndarray:
+    """Two-sided p-values of Fisher's exact test of the 2×2 tables [[k1, n1 − k1],
+    [k2, n2 − k2]], many at once.
+
+    The algorithm of ``scipy.stats.fisher_exact`` for a 2×2 table (the tables
+    as likely as the one seen or less, found by a binary search on each side of
+    the hypergeometric mode, with its 1 + 1e-14 tolerance), run on arrays: the
+    same p-values, with a few dozen calls of the hypergeometric distribution
+    instead of a few dozen per table.
+    """
+    a = np.asarray(k1, dtype=np.int64)
+    b = np.asarray(n1, dtype=np.int64) - a
+    c = np.asarray(k2, dtype=np.int64)
+    d = np.asarray(n2, dtype=np.int64) - c
+    hg = _sps.hypergeom
+    out = np.ones(a.shape)
+    # a row or column of zeros: p = 1
+    todo = ~((a + c == 0) | (b + d == 0) | (a + b == 0) | (c + d == 0))
+    r1, r2, col = a + b, c + d, a + c
+    total = r1 + r2
+    mode = ((col + 1) * (r1 + 1) / (total + 2)).astype(np.int64)
+    pexact = hg.pmf(a, total, r1, col)
+    pmode = hg.pmf(mode, total, r1, col)
+    epsilon = 1e-14
+    gamma = 1 + epsilon
+    with np.errstate(invalid="ignore", divide="ignore"):
+        todo &= ~(np.abs(pexact - pmode) / np.maximum(pexact, pmode) <= epsilon)
+    low = todo & (a < mode)
+    high = todo & ~(a < mode)
+
+    # a below the mode: the lower tail, plus the upper tail from where the pmf falls to pexact
+    i = np.flatnonzero(low)
+    if i.size:
+        plower = hg.cdf(a[i], total[i], r1[i], col[i])
+        edge = hg.pmf(col[i], total[i], r1[i], col[i]) > pexact[i] * gamma
+        out[i[edge]] = plower[edge]
+        j, keep = i[~edge], ~edge
+        if j.size:
+            guess = _binary_search(lambda x, m: -hg.pmf(x, total[j][m], r1[j][m], col[j][m]),
+                                   -pexact[j] * gamma, mode[j], col[j])
+            out[j] = plower[keep] + hg.sf(guess, total[j], r1[j], col[j])
+    # a at or above the mode: the upper tail, plus the lower tail
+    i = np.flatnonzero(high)
+    if i.size:
+        pupper = hg.sf(a[i] - 1, total[i], r1[i], col[i])
+        edge = hg.pmf(0, total[i], r1[i], col[i]) > pexact[i] * gamma
+        out[i[edge]] = pupper[edge]
+        j, keep = i[~edge], ~edge
+        if j.size:
+            guess = _binary_search(lambda x, m: hg.pmf(x, total[j][m], r1[j][m], col[j][m]),
+                                   pexact[j] * gamma, np.zeros(j.size, dtype=np.int64), mode[j])
+            out[j] = pupper[keep] + hg.cdf(guess, total[j], r1[j], col[j])
+    return np.minimum(out, 1.0)
+
+
+def _binary_search(f, target: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Per element, the i from lo to hi with f(i) <= target < f(i + 1), for f ascending
+    on lo..hi (scipy.stats' binary search for two-sided exact tests, on arrays).
+    ``f(x, mask)`` evaluates the elements ``mask`` at ``x``."""
+    lo, hi = lo.copy(), hi.copy()
+    found = np.full(lo.shape, -1, dtype=np.int64)
+    active = lo < hi
+    while active.any():
+        m = np.flatnonzero(active)
+        mid = lo[m] + (hi[m] - lo[m]) // 2
+        val = f(mid, active)
+        below, above = val < target[m], val > target[m]
+        lo[m[below]] = mid[below] + 1
+        hi[m[above]] = mid[above] - 1
+        equal = ~below & ~above
+        found[m[equal]] = mid[equal]
+        active[m[equal]] = False
+        active &= lo < hi
+    rest = found < 0
+    if rest.any():
+        at_lo = f(lo[rest], rest) <= target[rest]
+        found[rest] = np.where(at_lo, lo[rest], lo[rest] - 1)
+    return found
 
 
 def compare_rates(k_before, n_before, k_after, n_after, confidence: float = 0.95,
@@ -363,49 +455,58 @@ def compare_rates(k_before, n_before, k_after, n_after, confidence: float = 0.95
     of evidence is not reported as evidence of no effect. For a 4 % rate and
     equal periods this asks for roughly 1,150 castings on each side.
     """
+    for name, v in (("k_before", k_before), ("n_before", n_before), ("k_after", k_after), ("n_after", n_after)):
+        if np.ndim(v) != 0:
+            raise BadInput(name, v, f"{name} must be a single whole number of castings")
+    return compare_rates_many([k_before], [n_before], [k_after], [n_after], confidence, alpha=alpha)[0]
+
+
+def compare_rates_many(k_before, n_before, k_after, n_after, confidence: float = 0.95,
+                       *, alpha: float = 0.05) -> list[dict]:
+    """:func:`compare_rates` of many pairs of periods at once (equal-length
+    sequences of counts): one dict per pair, the same figures as one call each."""
     c = _check_confidence(confidence)
     a = _check_confidence(alpha, "alpha")
-    kb, nb = _one_count("k_before", k_before), _one_count("n_before", n_before)
-    ka, na = _one_count("k_after", k_after), _one_count("n_after", n_after)
-    _check_k_le_n(np.asarray(kb), np.asarray(nb), "k_before", "n_before")
-    _check_k_le_n(np.asarray(ka), np.asarray(na), "k_after", "n_after")
-
-    out = {"k_before": int(kb), "n_before": int(nb), "k_after": int(ka), "n_after": int(na),
-           "rate_before": kb / nb if nb > 0 else math.nan,
-           "rate_after": ka / na if na > 0 else math.nan,
-           "difference": math.nan, "diff_low": math.nan, "diff_high": math.nan,
-           "confidence": c, "p_value": math.nan, "alpha": a, "power_to_halve": 0.0,
-           "verdict": "not_enough_data"}
-    if nb == 0 or na == 0:
-        return out
-
-    p1, p2 = out["rate_before"], out["rate_after"]
-    z = _sps.norm.ppf(0.5 + c / 2.0)
-    l1, u1 = (float(x) for x in _wilson(np.asarray(kb), np.asarray(nb), z))
-    l2, u2 = (float(x) for x in _wilson(np.asarray(ka), np.asarray(na), z))
+    kb, nb = _counts("k_before", k_before), _counts("n_before", n_before)
+    ka, na = _counts("k_after", k_after), _counts("n_after", n_after)
+    kb, nb, ka, na = np.broadcast_arrays(kb, nb, ka, na)
+    _check_k_le_n(kb, nb, "k_before", "n_before")
+    _check_k_le_n(ka, na, "k_after", "n_after")
+    judged = (nb > 0) & (na > 0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        p1, p2 = kb / nb, ka / na
+    z = _normal_quantile(0.5 + c / 2.0)
+    l1, u1 = _wilson(kb, nb, z)
+    l2, u2 = _wilson(ka, na, z)
     d = p2 - p1
     # Newcombe (1998), method 10: combine each rate's Wilson distances.
-    out["difference"] = d
-    out["diff_low"] = d - math.sqrt((p2 - l2) ** 2 + (u1 - p1) ** 2)
-    out["diff_high"] = d + math.sqrt((u2 - p2) ** 2 + (p1 - l1) ** 2)
-
-    table = [[int(kb), int(nb - kb)], [int(ka), int(na - ka)]]
-    out["p_value"] = float(_sps.fisher_exact(table, alternative="two-sided").pvalue)
-    out["power_to_halve"] = _power_to_detect(p1, nb, na, a)
-
-    if out["p_value"] < a and p2 < p1:
-        out["verdict"] = "improved"
-    elif out["p_value"] < a and p2 > p1:
-        out["verdict"] = "worse"
-    elif out["power_to_halve"] >= MIN_POWER:
-        out["verdict"] = "no_clear_change"
+    low = d - np.sqrt((p2 - l2) ** 2 + (u1 - p1) ** 2)
+    high = d + np.sqrt((u2 - p2) ** 2 + (p1 - l1) ** 2)
+    p_value = np.full(kb.shape, math.nan)
+    power = np.zeros(kb.shape)
+    i = np.flatnonzero(judged)
+    if i.size:
+        p_value[i] = _fisher_two_sided(kb[i], nb[i], ka[i], na[i])
+        power[i] = _power_to_detect(p1[i], nb[i], na[i], a)
+    out = []
+    for j, (k1, n1, k2, n2, r1, r2, dj, lo, hi, pv, pw, ok) in enumerate(zip(
+            kb.tolist(), nb.tolist(), ka.tolist(), na.tolist(), p1.tolist(), p2.tolist(), d.tolist(),
+            low.tolist(), high.tolist(), p_value.tolist(), power.tolist(), judged.tolist())):
+        row = {"k_before": int(k1), "n_before": int(n1), "k_after": int(k2), "n_after": int(n2),
+               "rate_before": r1 if n1 > 0 else math.nan, "rate_after": r2 if n2 > 0 else math.nan,
+               "difference": math.nan, "diff_low": math.nan, "diff_high": math.nan,
+               "confidence": c, "p_value": math.nan, "alpha": a, "power_to_halve": 0.0,
+               "verdict": "not_enough_data"}
+        if ok:
+            row.update(difference=dj, diff_low=lo, diff_high=hi, p_value=pv, power_to_halve=pw)
+            if pv < a and r2 < r1:
+                row["verdict"] = "improved"
+            elif pv < a and r2 > r1:
+                row["verdict"] = "worse"
+            elif pw >= MIN_POWER:
+                row["verdict"] = "no_clear_change"
+        out.append(row)
     return out
-
-
-def _one_count(name: str, value) -> float:
-    if np.ndim(value) != 0:
-        raise BadInput(name, value, f"{name} must be a single whole number of castings")
-    return float(_counts(name, value))
 
 
 # --- Pareto -------------------------------------------------------------------------

@@ -39,7 +39,7 @@ from tracker.errors import (DiskFull, LogError, LogLocked, LogNotFound, LogReadO
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
-SCHEMA_VERSION = 8
+SCHEMA_VERSION = 9
 DEFAULT_PLANT_KEY = "default_plant"  # meta key set by `pourback init --plant`
 
 # Column order of each import kind's table, as stored.
@@ -276,8 +276,154 @@ def _migration_8(db: "_Schema") -> None:
     db.execute("CREATE INDEX patterns_plant ON patterns(plant, pattern)")
 
 
+# --- running totals per pattern and pour day -----------------------------------------
+# What judging a riser revision reads: the lots, castings, castings inspected, rejects and
+# shrinkage rejects of one pattern over a span of pour days, which for a revision still
+# without a verdict runs back years. ``day_totals`` holds, per pattern and pour day, the
+# totals of the pattern's lots poured up to and including that day (a span is the
+# difference of two rows); ``zone_totals`` the same for shrinkage rejects per zone named
+# on the record. Both are derived from lots and current inspection records only, and are
+# brought up to date in the transaction of every write of lots or records (see
+# ``Store.write``): the days from the earliest one a write touched are recomputed from the
+# lots and records, so corrections, voids and late records count as the review counts
+# them. Counting rules as in ``pours_by_day`` and ``rejects_by_day``: a lot is inspected
+# when it holds a current record; rejects are current records with result "reject".
+# Castings are molds x the pattern's castings per mold, which never changes once stored
+# (an import refuses other content for a stored key).
+
+_CURRENT = "i.void = 0 AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
+EARLIEST_DAY = "0001-01-01"
+TOTALS_ONE_BY_ONE = 200  # more patterns touched: all are recomputed at once
+TOTALS_AT_ONCE_COST = 3  # a lot read by pour date costs about a third of one read by pattern
+
+
+def _day_totals_sql(one_pattern: bool) -> str:
+    """The statement recomputing ``day_totals`` from a day on (its rows from that day
+    deleted beforehand): of one pattern (parameters: pattern, day, pattern, day, day,
+    pattern) or of every pattern (day, day, day)."""
+    lots = "l.pattern = ? AND l.poured_on >= ?" if one_pattern else "l.poured_on >= ?"
+    base = "p.pattern = ?" if one_pattern else "1 = 1"
+    return f"""
+        WITH d AS (
+            SELECT pattern, poured_on, SUM(lots) AS lots, SUM(molds) AS molds,
+                SUM(inspected_molds) AS inspected_molds, SUM(rejected) AS rejected,
+                SUM(shrinkage) AS shrinkage, SUM(zoned_shrinkage) AS zoned_shrinkage
+            FROM (
+                SELECT l.pattern, l.poured_on, COUNT(*) AS lots, SUM(l.molds) AS molds,
+                    SUM(CASE WHEN EXISTS (SELECT 1 FROM inspections i WHERE i.lot = l.lot AND {_CURRENT})
+                        THEN l.molds ELSE 0 END) AS inspected_molds,
+                    0 AS rejected, 0 AS shrinkage, 0 AS zoned_shrinkage
+                FROM lots l WHERE {lots} GROUP BY l.pattern, l.poured_on
+                UNION ALL
+                SELECT l.pattern, l.poured_on, 0, 0, 0, SUM(i.quantity),
+                    SUM(CASE WHEN i.defect = 'shrinkage' THEN i.quantity ELSE 0 END),
+                    SUM(CASE WHEN i.defect = 'shrinkage' AND i.zone IS NOT NULL THEN i.quantity ELSE 0 END)
+                FROM lots l JOIN inspections i ON i.lot = l.lot
+                WHERE {lots} AND i.result = 'reject' AND {_CURRENT}
+                GROUP BY l.pattern, l.poured_on
+            ) u GROUP BY pattern, poured_on
+        ), base_day AS MATERIALIZED (
+            SELECT p.pattern, (SELECT MAX(x.poured_on) FROM day_totals x
+                               WHERE x.pattern = p.pattern AND x.poured_on < ?) AS poured_on
+            FROM patterns p WHERE {base}
+        ), b AS (
+            SELECT t.* FROM base_day JOIN day_totals t
+            ON t.pattern = base_day.pattern AND t.poured_on = base_day.poured_on
+        )
+        INSERT INTO day_totals (pattern, poured_on, lots, castings, inspected_castings, rejected, shrinkage,
+                                zoned_shrinkage)
+        SELECT d.pattern, d.poured_on, COALESCE(b.lots, 0) + SUM(d.lots) OVER w,
+            COALESCE(b.castings, 0) + p.castings_per_mold * SUM(d.molds) OVER w,
+            COALESCE(b.inspected_castings, 0) + p.castings_per_mold * SUM(d.inspected_molds) OVER w,
+            COALESCE(b.rejected, 0) + SUM(d.rejected) OVER w,
+            COALESCE(b.shrinkage, 0) + SUM(d.shrinkage) OVER w,
+            COALESCE(b.zoned_shrinkage, 0) + SUM(d.zoned_shrinkage) OVER w
+        FROM d JOIN patterns p ON p.pattern = d.pattern LEFT JOIN b ON b.pattern = d.pattern
+        WINDOW w AS (PARTITION BY d.pattern ORDER BY d.poured_on)"""
+
+
+def _zone_totals_sql(one_pattern: bool) -> str:
+    """As :func:`_day_totals_sql`, for ``zone_totals`` (parameters: pattern, day, day;
+    or day, day)."""
+    lots = "l.pattern = ? AND l.poured_on >= ?" if one_pattern else "l.poured_on >= ?"
+    return f"""
+        WITH z AS (
+            SELECT l.pattern, i.zone, l.poured_on, SUM(i.quantity) AS shrinkage
+            FROM lots l JOIN inspections i ON i.lot = l.lot
+            WHERE {lots} AND i.result = 'reject' AND i.defect = 'shrinkage' AND i.zone IS NOT NULL
+            AND {_CURRENT} GROUP BY l.pattern, i.zone, l.poured_on
+        ), base_day AS MATERIALIZED (
+            SELECT k.pattern, k.zone, (SELECT MAX(x.poured_on) FROM zone_totals x WHERE x.pattern = k.pattern
+                                       AND x.zone = k.zone AND x.poured_on < ?) AS poured_on
+            FROM (SELECT DISTINCT pattern, zone FROM z) k
+        ), b AS (
+            SELECT t.* FROM base_day JOIN zone_totals t ON t.pattern = base_day.pattern
+            AND t.zone = base_day.zone AND t.poured_on = base_day.poured_on
+        )
+        INSERT INTO zone_totals (pattern, zone, poured_on, shrinkage)
+        SELECT z.pattern, z.zone, z.poured_on,
+            COALESCE(b.shrinkage, 0)
+            + SUM(z.shrinkage) OVER (PARTITION BY z.pattern, z.zone ORDER BY z.poured_on)
+        FROM z LEFT JOIN b ON b.pattern = z.pattern AND b.zone = z.zone"""
+
+
+def _totals_from(execute, day: str) -> None:
+    """Recompute ``day_totals`` and ``zone_totals`` of every pattern from ``day`` (ISO date) on."""
+    for table, sql, params in (("day_totals", _day_totals_sql(False), (day, day, day)),
+                               ("zone_totals", _zone_totals_sql(False), (day, day))):
+        execute(f"DELETE FROM {table} WHERE poured_on >= ?", (day,))
+        execute(sql, params)
+
+
+def _refresh_totals(execute, since: dict[str, str]) -> None:
+    """Recompute ``day_totals`` and ``zone_totals`` of each pattern of ``since`` from
+    its day (ISO date) on. ``execute(sql, params)`` runs one statement in the open
+    write transaction.
+
+    Pattern by pattern (lots by pattern, a few lookups each), or every pattern from
+    the earliest of the days at once (lots by pour date, read in order): the latter
+    when more than ``TOTALS_ONE_BY_ONE`` patterns were touched or when it reads
+    fewer than ``TOTALS_AT_ONCE_COST`` times the lots of the former (a large import).
+    """
+    if not since:
+        return
+    day = min(since.values())
+    if len(since) > TOTALS_ONE_BY_ONE:
+        _totals_from(execute, day)
+        return
+    mine = sum(execute("SELECT COUNT(*) FROM lots WHERE pattern = ? AND poured_on >= ?", item).fetchone()[0]
+               for item in since.items())
+    if execute("SELECT COUNT(*) FROM lots WHERE poured_on >= ?", (day,)).fetchone()[0] < TOTALS_AT_ONCE_COST * mine:
+        _totals_from(execute, day)
+        return
+    day_sql, zone_sql = _day_totals_sql(True), _zone_totals_sql(True)
+    for pattern, day in sorted(since.items()):
+        for table, sql, params in (("day_totals", day_sql, (pattern, day, pattern, day, day, pattern)),
+                                   ("zone_totals", zone_sql, (pattern, day, day))):
+            execute(f"DELETE FROM {table} WHERE pattern = ? AND poured_on >= ?", (pattern, day))
+            execute(sql, params)
+
+
+def _migration_9(db: "_Schema") -> None:
+    # The running totals the riser revisions' before/after are read from (see above).
+    db.execute("""
+        CREATE TABLE day_totals (
+            pattern TEXT NOT NULL, poured_on TEXT NOT NULL,
+            lots INTEGER NOT NULL, castings INTEGER NOT NULL, inspected_castings INTEGER NOT NULL,
+            rejected INTEGER NOT NULL, shrinkage INTEGER NOT NULL, zoned_shrinkage INTEGER NOT NULL,
+            PRIMARY KEY (pattern, poured_on)
+        )""")
+    db.execute("""
+        CREATE TABLE zone_totals (
+            pattern TEXT NOT NULL, zone TEXT NOT NULL, poured_on TEXT NOT NULL,
+            shrinkage INTEGER NOT NULL,
+            PRIMARY KEY (pattern, zone, poured_on)
+        )""")
+    _totals_from(db.execute, EARLIEST_DAY)
+
+
 MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6,
-              _migration_7, _migration_8]  # index i brings the schema from version i to i + 1
+              _migration_7, _migration_8, _migration_9]  # index i brings the schema from version i to i + 1
 
 
 # Tables in an order that inserts parents before children (copy-log); a table not
@@ -360,6 +506,13 @@ class Store:
         # line, a dashboard on loopback without sign-in), else a signed-in
         # ``tracker.auth.Session`` whose role every write is checked against.
         self.actor = actor
+        # Writes of lots and records not yet in day_totals / zone_totals: per pattern the
+        # earliest pour day touched, and the largest record id before the first record
+        # written (every record above it is new). Brought up to date as the outermost
+        # write() commits (or at once, for an insert outside write()).
+        self._touched: dict[str, str] = {}
+        self._records_above: int | None = None
+        self._writing = 0
         try:
             self.migrate()
         except DATABASE_ERRORS as exc:
@@ -391,13 +544,20 @@ class Store:
         :class:`LogError`; a conflict worth running again (see :func:`retrying`)
         is passed on as it is."""
         nested = self.dialect.in_transaction
+        self._writing += 1
         try:
             with self.dialect.write():
                 yield self
+                if self._writing == 1:  # the outermost write: the totals, then commit
+                    self._bring_totals_up_to_date()
         except DATABASE_ERRORS as exc:
             if nested or self.dialect.transient(exc):
                 raise
             raise log_error(exc, self.path) from None
+        finally:
+            self._writing -= 1
+            if not self._writing:
+                self._forget_touched()
 
     def schema_version(self) -> int:
         return self.dialect.schema_version()
@@ -601,8 +761,46 @@ class Store:
             return 0
         auth.require(self, auth.TABLE_ACTION[name])
         cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
+        if name == "inspections" and self._records_above is None:
+            self._records_above = self.conn.execute("SELECT COALESCE(MAX(id), 0) FROM inspections").fetchone()[0]
         self.dialect.insert_many(name, cols, rows)
+        if name == "lots":
+            touched = self._touched
+            for _, pattern, poured_on, *_ in rows:
+                if poured_on < touched.get(pattern, "9999-12-31"):
+                    touched[pattern] = poured_on
+        if not self._writing:
+            self._bring_totals_up_to_date()
         return len(rows)
+
+    def insert_rows_alone(self, name: str, rows: list[tuple]) -> int:
+        """Insert rows like :meth:`insert_rows` but leave ``day_totals`` and
+        ``zone_totals`` behind: only for the scale benchmark's floor (the bare insert),
+        on a throwaway copy of a log."""
+        self.dialect.insert_many(name, [c for c in TABLE_COLUMNS[name] if c != "id"], rows)
+        return len(rows)
+
+    # --- running totals per pattern and pour day ------------------------------------
+    def _forget_touched(self) -> None:
+        self._touched = {}
+        self._records_above = None
+
+    def _bring_totals_up_to_date(self) -> None:
+        """Recompute ``day_totals`` and ``zone_totals`` from the earliest pour day of
+        each pattern that the lots and records written since the last time touched
+        (the lots of new records and of the records they supersede)."""
+        touched = self._touched
+        if self._records_above is not None:
+            q = ("SELECT l.pattern, MIN(l.poured_on) FROM inspections i JOIN lots l ON l.lot = i.lot "
+                 "WHERE i.id > ? GROUP BY l.pattern "
+                 "UNION ALL SELECT l.pattern, MIN(l.poured_on) FROM inspections n "
+                 "JOIN inspections i ON i.id = n.supersedes JOIN lots l ON l.lot = i.lot "
+                 "WHERE n.id > ? GROUP BY l.pattern")
+            for pattern, day in self.conn.execute(q, (self._records_above, self._records_above)):
+                if day < touched.get(pattern, "9999-12-31"):
+                    touched[pattern] = day
+        self._forget_touched()
+        _refresh_totals(self.conn.execute, touched)
 
     # --- lookups used by validation ---------------------------------------------
     def patterns_info(self, codes: Iterable[str] | None = None) -> dict[str, dict]:
@@ -856,25 +1054,28 @@ class Store:
              "JOIN patterns p ON p.pattern = a.pattern")
         return self._columns(q, [*params, *params]) if columns else self._frame(q, [*params, *params])
 
-    def revision_steps(self, start: str, end: str) -> pd.DataFrame:
+    def revision_steps(self, start: str, end: str, *, columns: bool = False) -> pd.DataFrame | dict[str, list]:
         """Revisions taking effect from ``start`` to ``end`` (ISO strings, inclusive),
         each with the revision before it (``previous``, ``previous_from``) and the
-        date the next one takes effect (``next_from``); None where there is none."""
-        # Neighbours by a search per revision in range (a pattern has a few revisions):
-        # a window function over the whole table cost 35 ms at 3,000 patterns, this 0.5 ms.
-        # The previous revision is found by its key (pattern, revision), on both backends.
-        q = ("SELECT r.pattern, r.revision, r.effective_from, b.revision AS previous, "
-             "b.effective_from AS previous_from, "
-             "(SELECT MIN(n.effective_from) FROM revisions n WHERE n.pattern = r.pattern "
-             "AND (n.effective_from, n.revision) > (r.effective_from, r.revision)) AS next_from "
-             "FROM revisions r LEFT JOIN revisions b ON b.pattern = r.pattern AND b.revision = ("
-             "SELECT p.revision FROM revisions p WHERE p.pattern = r.pattern "
-             "AND (p.effective_from, p.revision) < (r.effective_from, r.revision) "
-             "ORDER BY p.effective_from DESC, p.revision DESC LIMIT 1) "
-             "WHERE r.effective_from >= ? AND r.effective_from <= ?")
-        where, params = self._plant_filter("r.pattern")
-        q += "".join(" AND " + w for w in where) + " ORDER BY r.pattern, r.effective_from, r.revision"
-        return self._frame(q, (str(start), str(end), *params))
+        date the next one takes effect (``next_from``); None where there is none.
+        ``columns``: a dict of column lists instead of a DataFrame."""
+        # The whole table in order, neighbours by position: a pattern's revisions are
+        # ordered by (effective_from, revision), sorted here as text (byte order, as
+        # SQLite and the C collation compare). A few thousand short rows: a plain read costs less than a
+        # search per revision (and far less than a window function).
+        where, params = self._plant_filter("pattern")
+        rows = [(p, r, e) for p, e, r in sorted(self.conn.execute(
+            "SELECT pattern, effective_from, revision FROM revisions"
+            + "".join((" AND " if i else " WHERE ") + w for i, w in enumerate(where)), params).fetchall())]
+        names = ("pattern", "revision", "effective_from", "previous", "previous_from", "next_from")
+        start, end = str(start), str(end)
+        none = (None, None, None)
+        before = [none, *rows[:-1]]
+        after = [*rows[1:], none]
+        steps = [(p, r, e, b[1] if b[0] == p else None, b[2] if b[0] == p else None, a[2] if a[0] == p else None)
+                 for (p, r, e), b, a in zip(rows, before, after) if start <= e <= end]
+        out = {k: list(v) for k, v in zip(names, zip(*steps))} if steps else {k: [] for k in names}
+        return out if columns else pd.DataFrame(out, columns=list(names))
 
     def pattern_costs(self, codes: Iterable[str]) -> dict[str, tuple]:
         """Description, alloy, casting weight and costs of the patterns ``codes``,
@@ -889,17 +1090,18 @@ class Store:
         rows.sort()
         return dict(zip(cols, zip(*rows))) if rows else {c: () for c in cols}
 
-    def riser_designs(self, patterns: Iterable[str]) -> pd.DataFrame:
-        """The stored risers (every revision) of ``patterns``, without joins."""
+    def riser_designs(self, patterns: Iterable[str]) -> list[tuple]:
+        """The stored risers (every revision) of ``patterns``, without joins, as rows
+        (pattern, revision, riser, zone, placement, top, diameter_mm, height_mm, sleeve,
+        neck_diameter_mm) in that order."""
         codes = list(dict.fromkeys(patterns))
-        frames = [self._frame("SELECT pattern, revision, riser, zone, placement, top, diameter_mm, height_mm, "
-                              f"sleeve, neck_diameter_mm FROM risers WHERE pattern IN ({', '.join('?' * len(chunk))}) "
-                              "ORDER BY pattern, revision, riser", chunk)
-                  for chunk in (codes[i:i + 900] for i in range(0, len(codes), 900))]
-        if not frames:
-            return self._frame("SELECT pattern, revision, riser, zone, placement, top, diameter_mm, height_mm, "
-                               "sleeve, neck_diameter_mm FROM risers WHERE 1 = 0")
-        return pd.concat(frames, ignore_index=True)
+        rows: list[tuple] = []
+        for chunk in (codes[i:i + 900] for i in range(0, len(codes), 900)):
+            rows += self.conn.execute(
+                "SELECT pattern, revision, riser, zone, placement, top, diameter_mm, height_mm, sleeve, "
+                f"neck_diameter_mm FROM risers WHERE pattern IN ({', '.join('?' * len(chunk))}) "
+                "ORDER BY pattern, revision, riser", chunk).fetchall()
+        return rows
 
     def reject_notes(self, start: str | None = None, end: str | None = None, pattern=None,
                      per_pattern: int = 5) -> pd.DataFrame:
@@ -947,8 +1149,7 @@ class Store:
              "GROUP BY l.pattern")
         return self._frame(q, (str(start), str(end)))
 
-    def review_floor(self, start: str, end: str, history: Iterable[tuple[str, str, str]] = ()
-                     ) -> dict[str, list[tuple]]:
+    def review_floor(self, start: str, end: str) -> dict[str, list[tuple]]:
         """The rows a review of lots poured from ``start`` to ``end`` (ISO strings,
         inclusive) reads, fetched as plain tuples with no computation: the floor
         the scale benchmark holds the review against.
@@ -958,10 +1159,10 @@ class Store:
         defect, zone, quantity); ``risers``: the riser revisions in force in the
         span for the patterns poured in it, one row per riser (pattern, revision,
         effective_from, riser, zone, placement, top, diameter_mm, height_mm,
-        sleeve, neck_diameter_mm). ``history``: (pattern, first day, last day) spans
-        read besides (``tracker.review.history_spans``, the lots before the span
-        that judging riser revisions reads): their lots and current records are
-        added as ``history_lots`` and ``history_records`` (same columns).
+        sleeve, neck_diameter_mm). Besides these the review reads, to judge the
+        riser revisions still under judgement, the running totals at the edges of
+        their spans (:meth:`totals_before`, :meth:`zone_shrinkage_before`): not in
+        the floor, which is the issue's definition; the benchmark times them beside it.
         """
         span = (str(start), str(end))
         hint, join = self.dialect.lots_by_date_hint, self.dialect.forced_join
@@ -983,23 +1184,48 @@ class Store:
             "AND NOT EXISTS (SELECT 1 FROM revisions s WHERE s.pattern = r.pattern "
             "AND s.effective_from > r.effective_from AND s.effective_from <= ?)",
             (span[1], span[0], span[1], span[0])).fetchall()
-        out = {"lots": lots, "records": records, "risers": risers}
-        if history:
-            by_pattern = self.dialect.lots_by_pattern_hint
-            out["history_lots"], out["history_records"] = [], []
-            for pattern, first, last in history:
-                span = (str(pattern), str(first), str(last))
-                out["history_lots"] += self.conn.execute(
-                    "SELECT l.lot, l.pattern, l.poured_on, l.molds * p.castings_per_mold "
-                    f"FROM lots l {by_pattern} {join} patterns p "
-                    "ON p.pattern = l.pattern WHERE l.pattern = ? AND l.poured_on >= ? AND l.poured_on <= ?",
-                    span).fetchall()
-                out["history_records"] += self.conn.execute(
-                    "SELECT i.lot, i.result, i.defect, i.zone, i.quantity "
-                    f"FROM lots l {by_pattern} {join} inspections i ON i.lot = l.lot "
-                    "WHERE l.pattern = ? AND l.poured_on >= ? AND l.poured_on <= ? AND i.void = 0 "
-                    "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)", span).fetchall()
-        return out
+        return {"lots": lots, "records": records, "risers": risers}
+
+    TOTALS = ("lots", "castings", "inspected_castings", "rejected", "shrinkage", "zoned_shrinkage")
+
+    def totals_before(self, probes: Iterable[tuple[str, str]]) -> dict[tuple[str, str], tuple[int, ...]]:
+        """Per (pattern, day) of ``probes`` (day an ISO date), the totals of the
+        pattern's lots poured before that day (from ``day_totals``), in ``TOTALS``
+        order: lots, castings poured, castings inspected (in lots holding a current
+        record), castings rejected, shrinkage rejects, shrinkage rejects naming a zone.
+        The totals over pour days a..b are ``totals_before(b + 1 day) - totals_before(a)``."""
+        return self._at_probes(("pattern", "day"), probes, len(self.TOTALS), (
+            "t.lots, t.castings, t.inspected_castings, t.rejected, t.shrinkage, t.zoned_shrinkage FROM q "
+            "LEFT JOIN day_totals t ON t.pattern = q.pattern AND t.poured_on = ("
+            "SELECT MAX(x.poured_on) FROM day_totals x WHERE x.pattern = q.pattern AND x.poured_on < q.day)"))
+
+    def zone_shrinkage_before(self, probes: Iterable[tuple[str, str, str]]) -> dict[tuple[str, str, str], int]:
+        """Per (pattern, zone, day) of ``probes``, the shrinkage rejects naming that
+        zone on current records of the pattern's lots poured before that day (from
+        ``zone_totals``)."""
+        return {k: v[0] for k, v in self._at_probes(("pattern", "zone", "day"), probes, 1, (
+            "t.shrinkage FROM q LEFT JOIN zone_totals t ON t.pattern = q.pattern AND t.zone = q.zone "
+            "AND t.poured_on = (SELECT MAX(x.poured_on) FROM zone_totals x WHERE x.pattern = q.pattern "
+            "AND x.zone = q.zone AND x.poured_on < q.day)")).items()}
+
+    def _at_probes(self, names: tuple[str, ...], probes: Iterable[tuple], width: int,
+                   rest: str) -> dict[tuple, tuple[int, ...]]:
+        """``WITH q (names) AS (VALUES probes) SELECT q.names, rest``, a hundred probes
+        a statement: per probe its ``width`` whole numbers (None and a probe without a
+        row as 0)."""
+        probes = list(dict.fromkeys(probes))
+        out = {}
+        step = 100  # SQLite's cost per probe grows with a longer VALUES list beyond ~150
+        row = "(" + ", ".join("?" * len(names)) + ")"
+        for i in range(0, len(probes), step):
+            chunk = probes[i:i + step]
+            q = (f"WITH q ({', '.join(names)}) AS (VALUES {', '.join([row] * len(chunk))}) "
+                 f"SELECT {', '.join('q.' + n for n in names)}, {rest}")
+            for values in self.conn.execute(q, [v for probe in chunk for v in probe]):
+                if values[-1] is not None:  # else no row before the day: zeros
+                    out[values[:len(names)]] = values[len(names):]
+        zeros = (0,) * width
+        return {probe: out.get(probe, zeros) for probe in probes}
 
     def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
         """The database's plan for one statement, one line per step (SQLite's
