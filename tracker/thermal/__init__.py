@@ -76,6 +76,31 @@ class ThermalResult:
         return d
 
 
+def _reasons(last: str, isolated: bool, isolated_share: float, min_ny, thr, system: str = "metric") -> list[str]:
+    """Why a solve fails the thermal check, in words (the Niyama in ``system``'s unit)."""
+    from tracker import units
+
+    reasons = []
+    if last != "riser":
+        reasons.append("the section freezes after the riser")
+    if isolated:
+        reasons.append(f"liquid cut off from the riser in the section ({isolated_share:.1%} of its volume)")
+    if thr is not None and min_ny is not None and min_ny < thr:
+        if system == units.US:
+            reasons.append(f"Niyama {units.number('niyama', min_ny, system)} below "
+                           f"{units.show('niyama', thr, system)} in the section")
+        else:
+            reasons.append(f"Niyama {min_ny:.2f} below {thr:g} {NIYAMA_UNIT} in the section")
+    return reasons
+
+
+def reasons_text(result: "ThermalResult", system: str = "metric") -> list[str]:
+    """``result.reasons`` worded in ``system`` (tracker.units): the Niyama
+    criterion in (°F·min)^0.5/in for ``us``."""
+    return _reasons(result.last_to_freeze, result.isolated_liquid, result.isolated_share, result.min_niyama,
+                    result.niyama_threshold, system)
+
+
 def run(case: ThermalCase, cells_across: int | None = None, keep_maps: bool = True) -> ThermalResult:
     """Solve one case and judge it (see the module docstring)."""
     kw = {} if cells_across is None else {"cells_across": cells_across}
@@ -109,14 +134,8 @@ def judge(case, b, out, keep_maps: bool = True) -> ThermalResult:
     else:
         min_ny, ny_at = None, None
     isolated = out.isolated_share >= ISOLATED_MIN_SHARE
-    reasons = []
-    if last != "riser":
-        reasons.append("the section freezes after the riser")
-    if isolated:
-        reasons.append(f"liquid cut off from the riser in the section ({out.isolated_share:.1%} of its volume)")
     thr = alloy.niyama_threshold
-    if thr is not None and min_ny is not None and min_ny < thr:
-        reasons.append(f"Niyama {min_ny:.2f} below {thr:g} {NIYAMA_UNIT} in the section")
+    reasons = _reasons(last, isolated, out.isolated_share, min_ny, thr)
     ratio = t_ris / t_sec if t_sec > 0 else math.inf
     maps = {}
     if keep_maps:
@@ -135,5 +154,5 @@ def judge(case, b, out, keep_maps: bool = True) -> ThermalResult:
         notes=list(b.notes), maps=maps)
 
 
-__all__ = ["ThermalCase", "ThermalResult", "run", "build", "model_kind", "validate",
+__all__ = ["ThermalCase", "ThermalResult", "run", "reasons_text", "build", "model_kind", "validate",
            "THERMAL_CAUTION", "JSON_KEYS", "ISOLATED_MIN_SHARE"]
