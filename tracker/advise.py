@@ -806,7 +806,7 @@ def _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge,
     ctx = {"win": win, "designs": designs, "money": money.to_dict("index"), "target": target, "start": start,
            "end": end, "alloy": dict(zip(pats["pattern"], pats["alloy"])), "rate_now": rate_now.to_dict(),
            "current": designs["current"].to_dict(), "chosen": chosen.to_dict("index"),
-           "defects": _groups(win["defects"], "pattern"), "zone_stats": _groups(win["zones"], "pattern"),
+           "defects": _groups(win["defects"], "pattern"), "zone_stats": _groups(win["zones"], ["pattern", "revision"]),
            "zones": _groups(zones, "pattern"), "priced": _records_by(priced.reset_index(), "_z"),
            "risers_by_zone": _groups(designs["judged"][["pattern", "zone", "riser", "full_ok"]], ["pattern", "zone"]),
            "thermal_notes": thermal_notes, "system": system}
@@ -843,11 +843,11 @@ def _pattern_records(pat: str, ctx: dict) -> list[dict]:
                     dominant_defect=defects["defect"].iat[0] if len(defects) else None)
     zones = ctx["zones"].get(pat)
     if zones is None:
-        wz = ctx["zone_stats"].get(pat, ctx["win"]["zones"].iloc[0:0])
+        wz = ctx["zone_stats"].get((pat, rev), ctx["win"]["zones"].iloc[0:0])  # the current revision's
         total = int(defects["quantity"].sum())
         return [{**_empty_fields(), **base_out, **_no_change_money(m, None), "action": "no_riser_change",
                  "reject_rate": total / poured if poured else None,
-                 "reason": _pattern_text(pat, defects, wz[wz["revision"] == rev], poured, ctx["target"],
+                 "reason": _pattern_text(pat, defects, wz, poured, ctx["target"],
                                          ctx["start"], ctx["end"])}]
     return [_zone_record(z_id, z, base_out, m, ctx) for z_id, z in zones.iterrows()]
 
