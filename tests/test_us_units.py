@@ -412,3 +412,17 @@ def test_what_if_takes_inches_and_refuses_mm_in_us(us_log, runner):
     assert a["diameter_in"] == pytest.approx(5.5)
     assert a["modulus_ratio"] == pytest.approx(b["modulus_ratio"], rel=1e-12)
     assert a["added_metal_lb_per_mold"] == pytest.approx(q(b["added_metal_kg_per_mold"], "kg", "lb"), rel=1e-9)
+
+
+def test_niyama_in_us_units_against_pint():
+    from tracker.thermal import _reasons
+
+    # pint: (delta_degC min)^0.5 / cm -> (delta_degF min)^0.5 / in
+    want = U.Quantity(1.0, "delta_degC**0.5 * minute**0.5 / centimeter").to(
+        "delta_degF**0.5 * minute**0.5 / inch").magnitude
+    assert units.value_in("niyama", 1.0, "us") == pytest.approx(want, rel=1e-12)
+    assert units.value_from("niyama", want, "us") == pytest.approx(1.0, rel=1e-12)
+    # Niyama et al. (1982) threshold about 1 (°C·min)^0.5/cm (from memory): 3.41 in US units
+    text = _reasons("riser", False, 0.0, 0.5, 1.0, "us")
+    assert text == [f"Niyama {0.5 * want:.2f} below {want:.2f} (°F·min)^0.5/in in the section"]
+    assert _reasons("riser", False, 0.0, 0.5, 1.0) == ["Niyama 0.50 below 1 (°C·min)^0.5/cm in the section"]
