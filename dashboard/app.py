@@ -47,6 +47,9 @@ page = st.navigation([HOME, *PAGES])
 common.style()
 
 with common.guard():
+    common.unit_switch()  # before the page: its numbers follow the system picked
+
+with common.guard():
     page.run()
 
 # The caution closes every page, whatever the page showed (or failed to show).

@@ -70,6 +70,10 @@ KINDS = {k.name: k for k in (
     Kind("temp_c", "°C", "°F", "_c", "_f", lambda x: x * F_PER_K + 32.0, lambda x: (x - 32.0) / F_PER_K),
     Kind("temp_diff_k", "K", "°F", "_k", "_f", lambda x: x * F_PER_K, lambda x: x / F_PER_K),
     Kind("temp_diff_c", "°C", "°F", "_c", "_f", lambda x: x * F_PER_K, lambda x: x / F_PER_K),
+    # The Niyama criterion G / sqrt(cooling rate), published in (°C·min)^0.5/cm: in °F and
+    # inches G takes × 1.8 × 2.54 and the rate × 1.8 under the root, so × 2.54 × sqrt(1.8).
+    Kind("niyama", "(°C·min)^0.5/cm", "(°F·min)^0.5/in", "_niyama", "_niyama",
+         *_scale(1.0 / (CM_PER_IN * F_PER_K ** 0.5))),
 )}
 
 # Temperatures are never guessed from a suffix ("_c" also ends names such as a
@@ -104,6 +108,8 @@ def kind_of(name: str) -> Kind | None:
     ``None`` when it carries no unit that converts (counts, ratios, money, %)."""
     if name in TEMPERATURES:
         return KINDS[TEMPERATURES[name]]
+    if name in KINDS:  # a kind's own name ("niyama", "per_kg")
+        return KINDS[name]
     for suffix, kind in _SUFFIXES:
         if name.endswith(suffix) and len(name) > len(suffix):
             return KINDS[kind]
@@ -114,7 +120,8 @@ def column_name(metric_name: str, system: str) -> str:
     """The name a metric column or key takes in ``system``:
     ``column_name("diameter_mm", "us") == "diameter_in"``."""
     kind = kind_of(metric_name)
-    if system != US or kind is None:
+    if system != US or kind is None or not metric_name.endswith(kind.metric_suffix) \
+            or len(metric_name) <= len(kind.metric_suffix):  # a kind's own name is no column
         return metric_name
     return metric_name[: -len(kind.metric_suffix)] + kind.us_suffix
 

@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from tracker import units
 from tracker.thermal import properties
 from tracker.thermal.model import ThermalCase, build, model_kind, validate
 from tracker.thermal.properties import NIYAMA_UNIT
@@ -76,6 +77,21 @@ class ThermalResult:
         return d
 
 
+def reason_texts(last_to_freeze: str, isolated: bool, isolated_share: float, min_niyama, threshold,
+                 system: str = units.METRIC) -> list[str]:
+    """Why a result fails, in words (empty when it passes); Niyama values in ``system``'s
+    unit (metric: NIYAMA_UNIT, the published form)."""
+    reasons = []
+    if last_to_freeze != "riser":
+        reasons.append("the section freezes after the riser")
+    if isolated:
+        reasons.append(f"liquid cut off from the riser in the section ({isolated_share:.1%} of its volume)")
+    if threshold is not None and min_niyama is not None and min_niyama < threshold:
+        ny, thr = (units.to_system("niyama", v, system) for v in (min_niyama, threshold))
+        reasons.append(f"Niyama {ny:.2f} below {thr:.3g} {units.symbol('niyama', system)} in the section")
+    return reasons
+
+
 def run(case: ThermalCase, cells_across: int | None = None, keep_maps: bool = True) -> ThermalResult:
     """Solve one case and judge it (see the module docstring)."""
     kw = {} if cells_across is None else {"cells_across": cells_across}
@@ -109,14 +125,8 @@ def judge(case, b, out, keep_maps: bool = True) -> ThermalResult:
     else:
         min_ny, ny_at = None, None
     isolated = out.isolated_share >= ISOLATED_MIN_SHARE
-    reasons = []
-    if last != "riser":
-        reasons.append("the section freezes after the riser")
-    if isolated:
-        reasons.append(f"liquid cut off from the riser in the section ({out.isolated_share:.1%} of its volume)")
     thr = alloy.niyama_threshold
-    if thr is not None and min_ny is not None and min_ny < thr:
-        reasons.append(f"Niyama {min_ny:.2f} below {thr:g} {NIYAMA_UNIT} in the section")
+    reasons = reason_texts(last, isolated, out.isolated_share, min_ny, thr)
     ratio = t_ris / t_sec if t_sec > 0 else math.inf
     maps = {}
     if keep_maps:
