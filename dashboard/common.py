@@ -184,7 +184,8 @@ def download_csv(frame, label: str, file_name: str, key: str) -> None:
 # --- unit system --------------------------------------------------------------------------
 
 _UNITS = "unit_system"  # this browser session's choice (the sidebar switch's key)
-UNIT_WORDS = {units.METRIC: "metric (mm, kg, °C)", units.US: "US customary (in, lb, °F)"}
+UNIT_WORDS = {units.METRIC: "metric", units.US: "US customary"}
+_UNIT_LIST = {units.METRIC: "mm, cm, cm², cm³, kg, °C", units.US: "in, in², in³, lb, °F"}
 
 
 def unit_system() -> str:
@@ -206,8 +207,9 @@ def unit_switch() -> None:
     with st.sidebar:
         chosen = st.radio("Units shown and typed", units.SYSTEMS, format_func=UNIT_WORDS.get, key=_UNITS,
                           help="For this browser session only: every page shows and takes numbers in these "
-                               "units. The log stores every figure in metric and keeps its own default "
-                               f"({UNIT_WORDS[log_default]}; `pourback settings --units`).")
+                               f"units (metric: {_UNIT_LIST[units.METRIC]}; US customary: {_UNIT_LIST[units.US]}). "
+                               "The log stores every figure in metric and keeps its own default, "
+                               f"{UNIT_WORDS[log_default]} (`pourback settings --units`).")
         if chosen != log_default and access.can("settings"):
             st.button("Make this the log's default", key="units_make_default", on_click=_make_default,
                       args=(chosen,), help="Every browser and command then opens in these units. "
@@ -230,6 +232,10 @@ def unit(metric_name: str) -> str:
 def shown(metric_name: str, value):
     """A metric value of ``metric_name`` in this session's unit system (for display)."""
     return units.to_system(metric_name, value, unit_system())
+
+
+# Before a source quoted as published (its own units, whatever the session's system).
+PUBLISHED_FORM = "source, in its published units:"
 
 
 def length_format() -> str:

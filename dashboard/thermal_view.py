@@ -24,7 +24,8 @@ def show(view: dict, key: str) -> None:
     ny = "-" if s["min_niyama_shown"] is None else f"{s['min_niyama_shown']:.2f}"
     limit = s["niyama_threshold_shown"]
     thr = "no threshold" if limit is None else f"threshold {limit:.3g}"
-    c[2].metric("Minimum Niyama", ny, help=f"{s['niyama_unit_shown']}; {thr}; {s['niyama_source']}")
+    c[2].metric("Minimum Niyama", ny, help=f"{s['niyama_unit_shown']}; {thr}; "
+                                          f"{common.PUBLISHED_FORM} {s['niyama_source']}")
     if s["reasons"]:
         st.warning(common.md_escape("Fails: " + "; ".join(s["reasons"]) + "."))
     # stacked, each at its own width: the maps keep one length scale on both axes
