@@ -37,7 +37,7 @@ PAGES = [
     ("pattern?pattern=P-1004", "Pattern file", "pattern-file", ["Solve the current revision's risers"],
      ["diameter (in)", "riser weight (lb)", "volume (in³)", "Casting weight (lb)", "z (in), height", "°F"]),
     ("suggestions", "Suggestions", "suggestions", ["Solve the changed riser and its zone"],
-     ["now: diameter (in)", "added metal (lb per mold)", "Diameter (in)", "z (in), height"]),
+     ["now: diameter (in)", "suggested: diameter (in)", "Diameter (in)", "z (in), height"]),
 ]
 
 READ_ONLY = {"weekly-review", "suggestions"}
@@ -101,6 +101,7 @@ def _open_expanders(pg) -> None:
 
 def _screenshot(pg, name: str, width: int) -> None:
     ARTIFACTS.mkdir(exist_ok=True)
+    settle(pg, 600)
     height = pg.evaluate("() => document.querySelector('[data-testid=\"stMain\"]').scrollHeight")
     pg.set_viewport_size({"width": width, "height": min(int(height) + 40, 12000)})
     pg.wait_for_timeout(900)
