@@ -50,8 +50,10 @@ def _registry() -> dict:
         "currency": settings.currency,
         "unit_setting": settings.units,
         "weekly_review": review.weekly_review,
+        "problem_patterns": review.problem_patterns,
         "design_map": features.design_map,
         "suggest": advise.suggest,
+        "model_is_current": advise.model_is_current,
         "what_if": advise.what_if,
         **_thermal_registry(),
     }
@@ -99,13 +101,14 @@ def load(name: str, *args, status: str | None = None, **kwargs):
     """
     path = db_path()
     key = (path, views.db_version(path), name, args, tuple(sorted(kwargs.items())))
-    if status is None or key in _COMPUTED:
+    mark = repr(key)  # hashable where an argument is not (a dict)
+    if status is None or mark in _COMPUTED:
         return _cached(*key)
     box = st.empty()
     with box.status(status + " ...", expanded=False):
         result = _cached(*key)
     box.empty()
-    _COMPUTED.add(key)
+    _COMPUTED.add(mark)
     return result
 
 
@@ -245,16 +248,14 @@ def length_format() -> str:
 
 # --- page furniture -----------------------------------------------------------------------
 
-def default_review() -> dict:
-    """The review the pages open on (default week, weeks and target), cached."""
-    week = load("default_week", today=dt.date.today().isoformat())
-    return load("weekly_review", week=week, weeks=limits.WEEKS_DEFAULT, target=limits.TARGET_DEFAULT)
-
-
 def flagged_patterns() -> list[str]:
-    """The patterns the default review flags, worst first ([] for a log without pours)."""
-    state = load("start_state")
-    return list(default_review()["problems"]) if state["ready"] else []
+    """The patterns the default review (default week, weeks and target) flags, worst
+    first ([] for a log without pours): its problem list alone, not the whole review."""
+    if not load("start_state")["ready"]:
+        return []
+    week = load("default_week", today=dt.date.today().isoformat())
+    return load("problem_patterns", week=week, weeks=limits.WEEKS_DEFAULT, target=limits.TARGET_DEFAULT,
+                status=f"Finding the patterns the review of {week} flags")
 
 
 _GOTO = "pourback_open_pattern"

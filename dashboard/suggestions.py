@@ -15,8 +15,12 @@ DIAMETER_RANGE_MM = (10.0, 2000.0)  # what the what-if's diameter field takes
 
 def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list[dict]:
     # the page stays quick: the thermal check is in what-if below (and `pourback suggest --thermal`)
+    status = "Pricing riser changes for the problem patterns"
+    if not common.load("model_is_current"):
+        status = ("Fitting the reject model on the whole log (no stored fit covers the newest pours), "
+                  "then " + status[0].lower() + status[1:])
     found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge,
-                        thermal=False, status="Pricing riser changes for the problem patterns")
+                        thermal=False, status=status)
     st.subheader("Suggested changes")
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")

@@ -52,8 +52,8 @@ def pattern_section(code: str) -> None:
         st.caption("A 2-D solidification solve of each riser and the zone it feeds: where the last liquid is, "
                    "whether the zone's last liquid stays connected to the riser, and the Niyama criterion.")
         return
-    with st.spinner("Solving..."):
-        views = common.load("pattern_thermal", code, system=common.unit_system())
+    views = common.load("pattern_thermal", code, system=common.unit_system(),
+                        status=f"Solving the thermal check of each riser of {code} (a few seconds per riser)")
     labels = [f"{v['riser']} on {v['zone']} ({'pass' if v['summary']['thermal_ok'] else 'fail'})" for v in views]
     tabs = st.tabs(labels)
     for tab, v in zip(tabs, views):
@@ -68,6 +68,7 @@ def what_if_section(result: dict) -> None:
         return
     keep = {k: result.get(k) for k in ("pattern", "revision", "riser", "diameter_mm", "height_mm", "sleeve",
                                        "neck_diameter_mm")}
-    with st.spinner("Solving..."):
-        view = common.load("what_if_thermal", keep, system=common.unit_system())
+    view = common.load("what_if_thermal", keep, system=common.unit_system(),
+                       status=f"Solving the thermal check of the changed riser {keep['riser']} and its zone "
+                              "(a few seconds)")
     show(view, "whatif_thermal")

@@ -389,3 +389,26 @@ def test_what_if_bigger_riser_with_a_sleeve_of_that_size(demo_store):
     w = what_if(demo_store, pattern, riser, sleeve=ins["sleeve"].iat[0],
                 diameter_mm=float(ins["inner_diameter_mm"].iat[-1]))
     assert w["sleeve"] == ins["sleeve"].iat[-1]
+
+
+def test_the_stored_model_serves_until_a_newer_pour(tmp_path):
+    # The dashboard names the fit before a long step: model_is_current says whether get_model
+    # takes the stored model as it is. Stored models carry the newest pour date they saw
+    # (tests/data/good: 2026-03-09); a lot poured later makes the stored one out of date.
+    from tracker.advise import fit_model, get_model, model_is_current
+    from tracker.ingest import import_dir, import_file
+    from tracker.store import Store
+
+    good = __import__("pathlib").Path(__file__).resolve().parent / "data" / "good"
+    with Store(tmp_path / "log.db") as s:
+        import_dir(s, good, today=dt.date(2027, 1, 31))
+        assert not model_is_current(s)  # nothing stored yet
+        fitted = fit_model(s)
+        assert model_is_current(s) and fitted.data_until_ == "2026-03-09"
+        assert get_model(s).fitted_on_ == fitted.fitted_on_  # the stored one, not a new fit
+        later = tmp_path / "lots.csv"
+        later.write_text("lot,pattern,poured_on,heat,molds,pour_temp_c\nL9,T-100,2026-03-16,H9,4,1598\n",
+                         encoding="utf-8")
+        import_file(s, "lots", later, today=dt.date(2027, 1, 31))
+        assert not model_is_current(s)
+        assert get_model(s).data_until_ == "2026-03-16" and model_is_current(s)  # refitted and stored

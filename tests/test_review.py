@@ -21,7 +21,7 @@ from statsmodels.stats.proportion import proportion_confint
 from tracker import stats
 from tracker.errors import BadInput
 from tracker.ingest import correct_inspection, import_dir, log_inspection
-from tracker.review import PATTERN_KEYS, p_charts, weekly_review
+from tracker.review import PATTERN_KEYS, p_charts, problem_patterns, weekly_review
 from tracker.store import Store
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
@@ -237,6 +237,33 @@ def test_target_rules_use_wilson_lower_bound(tmp_path):
         below = weekly_review(s, "2026-W20", target=low + 1e-4)
     assert by_code(above)["S-1"]["problem_reasons"] == ["shrinkage_above_target", "rejects_above_target"]
     assert by_code(below)["S-1"]["problem_reasons"] == []
+
+
+def test_problem_patterns_alone_flag_by_the_same_rules(tmp_path):
+    # The problem list without the rest of the review (what suggestions read), on the logs above.
+    folder = weekly_log(tmp_path / "signal", {"S-HIGH": [1] * 12 + [30], "S-LOW": [12, 8] * 6 + [0]})
+    with Store(":memory:") as s:
+        import_dir(s, folder, today=TODAY)
+        # scipy.stats.binom: 30 of 100 lies beyond the 99.865 % quantile of Binomial(100, 42 / 1300);
+        # P(X = 0) under Binomial(100, 120 / 1300) is below 0.135 %, a low-side signal, not a problem
+        assert sps.binom.sf(29, 100, 42 / 1300) < 0.00135 and sps.binom.pmf(0, 100, 120 / 1300) < 0.00135
+        assert problem_patterns(s, "2026-W20", weeks=13, target=0.5) == ["S-HIGH"]
+    folder = weekly_log(tmp_path / "wilson", {"S-1": [4] * 13})
+    with Store(":memory:") as s:
+        import_dir(s, folder, today=TODAY)
+        # statsmodels, wilson: the lower bound of 52 rejects in 1,300 castings decides against the target
+        low, _ = proportion_confint(52, 1300, alpha=0.05, method="wilson")
+        assert problem_patterns(s, "2026-W20", target=low - 1e-4) == ["S-1"]
+        assert problem_patterns(s, "2026-W20", target=low + 1e-4) == []
+
+
+@needs_demo
+@pytest.mark.parametrize("week,weeks,target", [("2026-W47", 13, 0.02), ("2026-W40", 4, 0.01),
+                                               ("2026-W47", 52, 0.05), ("2026-W30", 1, 0.02)])
+def test_problem_patterns_are_the_reviews_problems_in_its_order(demo_store, week, weeks, target):
+    # the full review is the reference: the same codes, worst (largest scrap cost) first
+    want = weekly_review(demo_store, week, weeks=weeks, target=target)["problems"]
+    assert problem_patterns(demo_store, week, weeks=weeks, target=target) == want
 
 
 # --- riser revisions ------------------------------------------------------------------------

@@ -57,7 +57,7 @@ from tracker import limits, rules
 from tracker.assess import assess_frame, revision_in_effect, rule_words
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadInput, NotFound
-from tracker.features import aggregate_for_fit, weakest_margins, zone_lot_features
+from tracker.features import fit_table, weakest_margins, zone_lot_features
 from tracker.model import ShrinkageRejectModel
 from tracker.sizing import neck_needed_mm, size_risers
 from tracker.stats import week_start, wilson_interval
@@ -99,34 +99,48 @@ DEFECT_POINTERS = {
 
 # --- model --------------------------------------------------------------------
 
-def fit_model(store: Store, *, alpha: float = 10.0, save: bool = True) -> ShrinkageRejectModel | None:
+def fit_model(store: Store, *, alpha: float = 10.0, save: bool = True,
+              table: pd.DataFrame | None = None) -> ShrinkageRejectModel | None:
     """Fit the shrinkage reject model on the log's whole history (and store it).
 
-    None when the log has no lot under a known riser design.
+    table: the log's ``fit_table`` when the caller has it already (the
+    cross-validation reads the same). None when the log has no lot under a
+    known riser design.
     """
-    feats = zone_lot_features(store)
+    feats = fit_table(store) if table is None else table
     if feats.empty or feats["castings"].sum() == 0:
         return None
-    model = ShrinkageRejectModel(alpha=alpha).fit(aggregate_for_fit(feats))  # sets data_until_
+    model = ShrinkageRejectModel(alpha=alpha).fit(feats)  # sets data_until_
     if save:
         store.save_model(model.to_bytes(), rows=int(model.n_rows_), castings=int(model.n_castings_),
                          data_until=model.data_until_)
     return model
 
 
-def get_model(store: Store, refit: bool = False) -> ShrinkageRejectModel | None:
-    """The stored model if it was fitted on the log as it is now, else a new fit."""
+def _stored_model(store: Store) -> ShrinkageRejectModel | None:
+    """The stored model if it was fitted on the log as it is now (up to its newest pour), else None."""
     from tracker.errors import IncompatibleModel
 
-    if not refit:
-        saved = store.latest_model()
-        _, last = store.pour_span()
-        if saved is not None and saved["data_until"] == last:
-            try:
-                return ShrinkageRejectModel.from_bytes(saved["blob"])
-            except IncompatibleModel:
-                pass  # fitted by another version: refit below
-    return fit_model(store)
+    saved = store.latest_model()
+    _, last = store.pour_span()
+    if saved is None or saved["data_until"] != last:
+        return None
+    try:
+        return ShrinkageRejectModel.from_bytes(saved["blob"])
+    except IncompatibleModel:
+        return None  # fitted by another version
+
+
+def get_model(store: Store, refit: bool = False) -> ShrinkageRejectModel | None:
+    """The stored model if it was fitted on the log as it is now, else a new fit."""
+    model = None if refit else _stored_model(store)
+    return model if model is not None else fit_model(store)
+
+
+def model_is_current(store: Store) -> bool:
+    """Whether :func:`get_model` takes the stored model as it is (no fit first): a
+    long step at a large shop, worth saying before it starts."""
+    return _stored_model(store) is not None
 
 
 # --- window -------------------------------------------------------------------
@@ -152,19 +166,21 @@ def _weeks_covered(store: Store, start: str, end: str, weeks: int) -> float:
     return min(float(weeks), max(days / 7.0, 1.0))
 
 
-def _window_statistics(store: Store, patterns: list[str], start: str, end: str, weeks: int) -> dict:
-    """What the window holds for ``patterns``, fetched once for all of them.
+def _window_statistics(store: Store, patterns: list[str], start: str, end: str, weeks: int,
+                       risers: pd.DataFrame) -> dict:
+    """What the window holds for ``patterns``, fetched once for all of them
+    (``risers``: their ``risers_frame``, or every pattern's).
 
     ``poured``: castings per pattern; ``defects``: rejects per pattern and
     defect, most first; ``zones``: castings and shrinkage rejects per
     pattern, revision and zone; ``weeks_covered``: the weeks the log covers.
     """
     lots = store.lots_frame(start, end, patterns)
-    rej = store.rejects_by_lot(start, end, patterns)
-    rej = rej[rej["result"] == "reject"].merge(lots[["lot", "pattern"]], on="lot")
+    fetched = store.rejects_by_lot(start, end, patterns)
+    rej = fetched[fetched["result"] == "reject"].merge(lots[["lot", "pattern"]], on="lot")
     defects = (rej.groupby(["pattern", "defect"])["quantity"].sum().reset_index()
                .sort_values(["pattern", "quantity", "defect"], ascending=[True, False, True]))
-    feats = zone_lot_features(store, start, end, patterns)
+    feats = zone_lot_features(store, start, end, patterns, lots=lots, rejects=fetched, risers=risers)
     zones = feats.groupby(["pattern", "revision", "zone"], as_index=False).agg(
         castings=("castings", "sum"), shrinkage_rejects=("shrinkage_rejects", "sum"))
     return {"poured": lots.groupby("pattern")["castings"].sum(), "defects": defects, "zones": zones,
@@ -236,14 +252,21 @@ def _judge(risers: pd.DataFrame) -> pd.DataFrame:
     return a
 
 
-def _designs(store: Store, patterns: list[str], on: str, revision: str | None = None) -> dict:
+def _risers_of(store: Store, patterns: list[str]) -> pd.DataFrame:
+    """``risers_frame`` of one pattern, or of every pattern when several are asked (one query)."""
+    return store.risers_frame(pattern=patterns[0] if len(patterns) == 1 else None)
+
+
+def _designs(store: Store, patterns: list[str], on: str, revision: str | None = None,
+             risers: pd.DataFrame | None = None) -> dict:
     """The risers of each pattern's revision in effect on ``on`` (or of
-    ``revision``), as stored (``risers``) and judged (``judged``, same index)."""
+    ``revision``), as stored (``risers``) and judged (``judged``, same index).
+    risers: ``_risers_of(store, patterns)`` when the caller has it already."""
     revs = store.revisions_frame(patterns[0] if len(patterns) == 1 else None)
     revs = revs[revs["pattern"].isin(patterns)]
     current = (revs[revs["revision"] == revision] if revision is not None
                else revision_in_effect(revs, on))[["pattern", "revision"]]
-    risers = store.risers_frame(pattern=patterns[0] if len(patterns) == 1 else None)
+    risers = _risers_of(store, patterns) if risers is None else risers
     risers = risers.merge(current, on=["pattern", "revision"]).reset_index(drop=True)
     return {"current": current.set_index("pattern")["revision"], "risers": risers, "judged": _judge(risers)}
 
@@ -740,18 +763,18 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
         store.pattern(pattern)
         patterns = [pattern]
     else:
-        from tracker.review import weekly_review
+        from tracker.review import problem_patterns
 
-        review = weekly_review(store, week=week, weeks=weeks, target=target)
-        patterns = [p["pattern"] for p in review["patterns"] if p.get("problem")]
+        patterns = problem_patterns(store, week=week, weeks=weeks, target=target)  # the review's, alone
     if not patterns:
         return []
     if model is None:
         model = get_model(store, refit=refit)
     pats = store.table("patterns")
     pats = pats[pats["pattern"].isin(patterns)]
-    win = _window_statistics(store, patterns, start, end, weeks)
-    designs = _designs(store, patterns, end)
+    risers = _risers_of(store, patterns)
+    win = _window_statistics(store, patterns, start, end, weeks, risers)
+    designs = _designs(store, patterns, end, risers=risers)
     money = _money(pats, designs, win, charge)
     zones = _problem_zones(win, designs, target)
     to_change = zones[~zones["comfortable"]]
@@ -953,7 +976,8 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
     if revs.empty:
         raise NotFound("riser revision", pattern, "import the pattern's risers first")
     rev = revision or revision_in_effect(revs, "9999-12-31")["revision"].iat[0]
-    designs = _designs(store, [pattern], "9999-12-31", revision=rev)
+    every = _risers_of(store, [pattern])
+    designs = _designs(store, [pattern], "9999-12-31", revision=rev, risers=every)
     risers = designs["risers"]
     if riser not in set(risers["riser"]):
         raise NotFound("riser", riser, f"{pattern} revision {rev} has " + ", ".join(risers["riser"]))
@@ -965,7 +989,7 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
         model = get_model(store)
     week, first, last = review_window(store, week, weeks)
     start, end = first.isoformat(), last.isoformat()
-    win = _window_statistics(store, [pattern], start, end, weeks)
+    win = _window_statistics(store, [pattern], start, end, weeks, every)
     pats = store.table("patterns")
     money = _money(pats[pats["pattern"] == pattern], designs, win, charge)
     wz = win["zones"]

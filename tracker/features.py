@@ -47,11 +47,19 @@ def weakest_margins(assessed: pd.DataFrame, keys) -> pd.DataFrame:
     return out.reset_index()
 
 
-def zone_design(store: Store, pattern=None) -> pd.DataFrame:
-    """Per pattern, revision and zone: the weakest riser's assessed margins."""
-    risers = store.risers_frame(pattern=pattern if isinstance(pattern, str) else None)
-    if pattern is not None and not isinstance(pattern, str):
-        risers = risers[risers["pattern"].isin(list(pattern))].reset_index(drop=True)
+def zone_design(store: Store, pattern=None, risers: pd.DataFrame | None = None) -> pd.DataFrame:
+    """Per pattern, revision and zone: the weakest riser's assessed margins.
+
+    risers: ``store.risers_frame()`` (of every pattern, or of ``pattern``)
+    when the caller has it already; else it is fetched here.
+    """
+    if pattern is not None and not isinstance(pattern, str) and len(pattern) == 1:
+        pattern = list(pattern)[0]  # one pattern's risers fetched, not every pattern's (what-if)
+    if risers is None:
+        risers = store.risers_frame(pattern=pattern if isinstance(pattern, str) else None)
+    if pattern is not None:
+        risers = risers[risers["pattern"].isin([pattern] if isinstance(pattern, str) else list(pattern))]
+        risers = risers.reset_index(drop=True)
     if risers.empty:
         return pd.DataFrame(columns=["pattern", "revision", "effective_from", "zone", "riser", "alloy",
                                      "sleeve_kind", "thickness_mm", "passes", "rule_set",
@@ -65,8 +73,7 @@ def zone_design(store: Store, pattern=None) -> pd.DataFrame:
     return weakest_margins(a, keys).merge(rest, on=keys)
 
 
-def _lots_with_revision(store: Store, start, end, pattern) -> pd.DataFrame:
-    lots = store.lots_frame(start, end, pattern)
+def _lots_with_revision(store: Store, lots: pd.DataFrame) -> pd.DataFrame:
     revs = store.revisions_frame()
     if lots.empty or revs.empty:
         return lots.assign(revision=pd.Series(dtype=object))
@@ -78,23 +85,29 @@ def _lots_with_revision(store: Store, start, end, pattern) -> pd.DataFrame:
 
 
 def zone_lot_features(store: Store, start: str | None = None, end: str | None = None,
-                      pattern=None) -> pd.DataFrame:
+                      pattern=None, *, lots: pd.DataFrame | None = None, rejects: pd.DataFrame | None = None,
+                      risers: pd.DataFrame | None = None) -> pd.DataFrame:
     """One row per lot and riser zone, the model's feature table (FEATURE_COLUMNS).
 
     Lots poured before the pattern's first riser revision are left out (no
     design known). pour_temp_dev_c is the lot's pour temperature less the
-    pattern's median, °C.
+    pattern's median, °C. lots, rejects, risers: ``store.lots_frame(start,
+    end, pattern)``, ``store.rejects_by_lot(start, end, pattern)`` and
+    ``store.risers_frame()`` when the caller has them already (each is
+    fetched here otherwise).
     """
-    lots = _lots_with_revision(store, start, end, pattern)
+    if lots is None:
+        lots = store.lots_frame(start, end, pattern)
+    lots = _lots_with_revision(store, lots)
     lots = lots[lots["revision"].notna()] if "revision" in lots else lots.iloc[0:0]
-    design = zone_design(store, pattern)  # one pattern's risers only, when one is asked for
+    design = zone_design(store, pattern, risers)  # one pattern's risers only, when one is asked for
     if lots.empty or design.empty:
         return pd.DataFrame(columns=FEATURE_COLUMNS)
     temp = lots["pour_temp_c"].astype(float)
     lots = lots.assign(pour_temp_dev_c=temp - temp.groupby(lots["pattern"]).transform("median"))
     rows = lots[["lot", "pattern", "revision", "poured_on", "castings", "pour_temp_dev_c"]].merge(
         design.drop(columns=["effective_from"]), on=["pattern", "revision"])
-    rej = store.rejects_by_lot(start, end, pattern)
+    rej = store.rejects_by_lot(start, end, pattern) if rejects is None else rejects
     rej = rej[(rej["result"] == "reject") & (rej["defect"] == "shrinkage") & rej["zone"].notna()]
     rej = rej.groupby(["lot", "zone"], as_index=False)["quantity"].sum().rename(
         columns={"quantity": "shrinkage_rejects"})
@@ -121,6 +134,89 @@ def aggregate_for_fit(features: pd.DataFrame, temp_bin_c: float = 5.0) -> pd.Dat
                                               poured_on=("poured_on", "max"), **{
                                                   k: (k, v) for k, v in first.items()})
     return out.rename(columns={"_tbin": "pour_temp_dev_c"})
+
+
+def _lot_arrays(store: Store, patterns: list[str]) -> dict[str, np.ndarray]:
+    """Every lot as compact columns (``Store.lot_batches``, never the whole table
+    as Python rows): ``lot`` (codes, object), ``pattern`` (index into
+    ``patterns``, -1 for another), ``day`` (datetime64[D] of the pour),
+    ``castings`` and ``pour_temp_c`` (NaN where unknown)."""
+    parts: dict[str, list] = {k: [] for k in ("lot", "pattern", "day", "castings", "pour_temp_c")}
+    for batch in store.lot_batches():
+        lot, pattern, day, castings, temp = zip(*batch)
+        del batch
+        parts["lot"].append(np.array(lot, dtype=object))
+        parts["pattern"].append(pd.Categorical(pattern, categories=patterns).codes.astype(np.int64))
+        parts["day"].append(np.array(day, dtype="datetime64[D]"))
+        parts["castings"].append(np.array(castings, dtype=np.int64))
+        parts["pour_temp_c"].append(np.array(temp, dtype=float))  # None -> NaN
+    empty = {"lot": object, "pattern": np.int64, "day": "datetime64[D]", "castings": np.int64, "pour_temp_c": float}
+    return {k: np.concatenate(v) if v else np.array([], dtype=empty[k]) for k, v in parts.items()}
+
+
+def fit_table(store: Store, temp_bin_c: float = 5.0) -> pd.DataFrame:
+    """The model's training table for the whole log: the rows, columns and order of
+    ``aggregate_for_fit(zone_lot_features(store), temp_bin_c)``, built without
+    the table of one row per lot and zone (millions of rows at a large shop).
+
+    Each lot is reduced to its pattern, revision in effect, pour temperature bin,
+    castings and pour date; lots are summed per (revision, bin) before the
+    zones of their revision are joined, and zoned shrinkage rejects per
+    (revision, bin, zone). Lots are read in batches.
+    """
+    design = zone_design(store)
+    revs = store.revisions_frame()
+    if design.empty or revs.empty:
+        return aggregate_for_fit(pd.DataFrame(columns=FEATURE_COLUMNS))
+    codes = sorted(set(revs["pattern"]))  # a lot of any other pattern has no design
+    lots = _lot_arrays(store, codes)
+
+    # the revision in effect on each lot's pour date: the last of its pattern's from that day or before
+    r_pat = pd.Categorical(revs["pattern"], categories=codes).codes.astype(np.int64)
+    r_day = np.array(revs["effective_from"].tolist(), dtype="datetime64[D]").astype(np.int64)
+    key = lambda p, d: (p << 32) + (d + (1 << 31))  # noqa: E731 (pattern, day) in one sortable number
+    order = np.argsort(key(r_pat, r_day), kind="stable")
+    r_key = key(r_pat, r_day)[order]
+    l_pat = lots["pattern"]
+    at = np.searchsorted(r_key, key(l_pat, lots["day"].astype(np.int64)), side="right") - 1
+    found = at >= 0
+    found[found] = r_pat[order][at[found]] == l_pat[found]
+    rev = np.where(found, order[np.maximum(at, 0)], -1)
+
+    # lots under a known design: pour temperature less the pattern's median, binned
+    keep = np.flatnonzero(rev >= 0)
+    temp = pd.Series(lots["pour_temp_c"][keep])
+    dev = (temp - temp.groupby(l_pat[keep]).transform("median")).to_numpy()
+    tbin = np.round(np.nan_to_num(dev, nan=0.0) / temp_bin_c) * temp_bin_c
+    kept = pd.DataFrame({"rev": rev[keep], "_tbin": tbin, "castings": lots["castings"][keep],
+                         "day": lots["day"][keep]})
+    grouped = kept.groupby(["rev", "_tbin"], sort=False)
+    group_of_lot = np.full(len(rev), -1, dtype=np.int64)
+    group_of_lot[keep] = grouped.ngroup().to_numpy()
+    groups = grouped.agg(castings=("castings", "sum"), day=("day", "max")).reset_index()
+    del kept, grouped, temp, dev, tbin
+
+    # zoned shrinkage rejects per group and zone
+    rej = store.rejects_by_lot()
+    rej = rej[(rej["result"] == "reject") & (rej["defect"] == "shrinkage") & rej["zone"].notna()]
+    where = pd.Index(lots["lot"]).get_indexer(rej["lot"])
+    g = np.where(where >= 0, group_of_lot[np.maximum(where, 0)], -1)
+    rej = pd.DataFrame({"_g": g, "zone": rej["zone"].to_numpy(), "shrinkage_rejects": rej["quantity"].to_numpy()})
+    rej = rej[rej["_g"] >= 0].groupby(["_g", "zone"], as_index=False)["shrinkage_rejects"].sum()
+    del lots, group_of_lot
+
+    out = pd.DataFrame({
+        "_g": np.arange(len(groups)), "pattern": revs["pattern"].to_numpy()[groups["rev"]],
+        "revision": revs["revision"].to_numpy()[groups["rev"]], "pour_temp_dev_c": groups["_tbin"].to_numpy(),
+        "castings": groups["castings"].to_numpy(np.int64),
+        "poured_on": np.datetime_as_string(groups["day"].to_numpy("datetime64[D]"), unit="D")})
+    out = out.merge(design.drop(columns=["effective_from"]), on=["pattern", "revision"])
+    out = out.merge(rej, on=["_g", "zone"], how="left")
+    out["shrinkage_rejects"] = out["shrinkage_rejects"].fillna(0).astype(np.int64)
+    columns = ["pattern", "revision", "zone", "pour_temp_dev_c", "castings", "shrinkage_rejects", "poured_on",
+               "riser", "alloy", "sleeve_kind", "thickness_mm", "passes", "rule_set", "modulus_target"] + MARGIN_COLS
+    out = out.sort_values(["pattern", "revision", "zone", "pour_temp_dev_c"], kind="stable")
+    return out[columns].reset_index(drop=True)
 
 
 def design_map(store: Store, start: str | None = None, end: str | None = None, alloy=None,

@@ -705,6 +705,46 @@ def default_week(store: Store, today: dt.date | str | None = None) -> str:
     return stats.iso_week(last if last else this_monday - dt.timedelta(weeks=1))
 
 
+def _checked(store: Store, week: str | None, weeks: int, target: float) -> tuple[int, float, str, dt.date]:
+    """weeks, target, the ISO week (default :func:`default_week`) and its Monday, checked."""
+    weeks = limits.check_weeks(weeks)
+    target = limits.check_target(target)
+    if week is None:
+        week = default_week(store)
+    monday = limits.check_review_week(week, stats.week_start(week))
+    return weeks, target, stats.iso_week(monday), monday
+
+
+def _fetched(store: Store, monday: dt.date, weeks: int) -> tuple:
+    """What a review reads of the window of ``weeks`` ending with ``monday``'s week
+    and the week before it: (window Mondays, the Mondays a week earlier, the
+    first day fetched, pattern codes, pour and reject arrays, pattern × week tables)."""
+    mondays = [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)]
+    previous = [m - dt.timedelta(weeks=1) for m in mondays]
+    fetch_from = previous[0]
+    span = (_iso(fetch_from), _iso(monday + dt.timedelta(days=6)))
+    pour_cols = store.pours_by_day(*span, columns=True)
+    codes = sorted(set(pour_cols["pattern"]))
+    index = {c: i for i, c in enumerate(codes)}
+    pours = _pour_arrays(pour_cols, index)
+    rejects = _reject_arrays(store.rejects_by_day(*span, columns=True), index)
+    mx = _matrices(codes, pours, rejects, fetch_from, weeks + 1, store.pattern_costs(codes))
+    return mondays, previous, fetch_from, codes, pours, rejects, mx
+
+
+@_without_gc_pauses
+def problem_patterns(store: Store, week: str | None = None, weeks: int = limits.WEEKS_DEFAULT,
+                     target: float = limits.TARGET_DEFAULT, *, confidence: float = 0.95) -> list[str]:
+    """The problem patterns of :func:`weekly_review` (its ``problems``, in its
+    order: largest scrap cost first), without the rest of the review: no riser
+    revisions' before and after, no comparison with the week before, no notes.
+    What suggestions need; the same arguments, checked the same way."""
+    weeks, target, _, monday = _checked(store, week, weeks, target)
+    mondays, _, _, _, _, rejects, mx = _fetched(store, monday, weeks)
+    t = _window(mx, rejects, mondays, slice(1, None), target, confidence)["table"]
+    return [c for c, problem in zip(t["pattern"].tolist(), t["problem"]) if problem]
+
+
 @_without_gc_pauses
 def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEEKS_DEFAULT,
                   target: float = limits.TARGET_DEFAULT,
@@ -742,26 +782,9 @@ def weekly_review(store: Store, week: str | None = None, weeks: int = limits.WEE
         the previous week's review), ``notes`` (newest inspectors' notes on
         rejects of problem patterns in the review week) and ``caution``.
     """
-    weeks = limits.check_weeks(weeks)
-    target = limits.check_target(target)
-    if week is None:
-        week = default_week(store)
-    monday = limits.check_review_week(week, stats.week_start(week))
-    week = stats.iso_week(monday)
-    mondays = [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)]
-    previous = [m - dt.timedelta(weeks=1) for m in mondays]
+    weeks, target, week, monday = _checked(store, week, weeks, target)
+    mondays, previous, fetch_from, codes, pours, rejects, mx = _fetched(store, monday, weeks)
     week_end = monday + dt.timedelta(days=6)
-
-    fetch_from = previous[0]
-    span = (_iso(fetch_from), _iso(week_end))
-    pour_cols = store.pours_by_day(*span, columns=True)
-    codes = sorted(set(pour_cols["pattern"]))
-    index = {c: i for i, c in enumerate(codes)}
-    pours = _pour_arrays(pour_cols, index)
-    rejects = _reject_arrays(store.rejects_by_day(*span, columns=True), index)
-    info = store.pattern_costs(codes)
-
-    mx = _matrices(codes, pours, rejects, fetch_from, weeks + 1, info)
     now = _window(mx, rejects, mondays, slice(1, None), target, confidence)
     before = _window(mx, rejects, previous, slice(0, -1), target, confidence, full=False)
     revisions = _revisions(store, mondays, weeks, fetch_from, pours, rejects, codes, confidence)

@@ -713,6 +713,21 @@ class Store:
              + " GROUP BY l.pattern, l.poured_on, i.result, i.defect, i.zone")
         return self._columns(q, params) if columns else self._frame(q, params)
 
+    def lot_batches(self, size: int = 100_000) -> Iterator[list[tuple]]:
+        """(lot, pattern, poured_on, castings, pour_temp_c) of every lot, in no set
+        order, ``size`` rows at a time: ten years of lots read for the model
+        without holding them all as Python rows."""
+        where, params = self._lot_filter(None, None, None)
+        cur = self.conn.execute(
+            "SELECT l.lot, l.pattern, l.poured_on, l.molds * p.castings_per_mold, l.pour_temp_c "
+            "FROM lots l JOIN patterns p ON p.pattern = l.pattern"
+            + (" WHERE " + " AND ".join(where) if where else ""), tuple(params))
+        while True:
+            batch = cur.fetchmany(size)
+            if not batch:
+                return
+            yield batch
+
     def rejects_by_lot(self, start: str | None = None, end: str | None = None,
                        pattern=None) -> pd.DataFrame:
         """Current reject and rework quantities per lot, result, defect and zone."""

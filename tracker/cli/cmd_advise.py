@@ -196,16 +196,16 @@ def fit_model(alpha, folds, db_path, as_json):
         pourback fit-model
     """
     from tracker.advise import fit_model as fit
-    from tracker.features import aggregate_for_fit, zone_lot_features
+    from tracker.features import fit_table
     from tracker.model import ShrinkageRejectModel, cross_validate
 
     with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
+        steps.step("Reading the lots and rejects")
+        feats = fit_table(store)  # read once, for the fit and the cross-validation
         steps.step("Fitting the reject model")
-        model = fit(store, alpha=alpha)
+        model = fit(store, alpha=alpha, table=feats)
         if model is None:
             raise click.ClickException("the log has no lots under a known riser design; import risers and lots first")
-        steps.step("Reading the features for cross-validation")
-        feats = aggregate_for_fit(zone_lot_features(store))
         cv = None
         if feats["pattern"].nunique() >= 2:
             steps.step(f"Cross-validating ({folds} folds, grouped by pattern)")
