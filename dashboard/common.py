@@ -50,6 +50,7 @@ def _registry() -> dict:
         "currency": settings.currency,
         "unit_setting": settings.units,
         "weekly_review": review.weekly_review,
+        "weekly_review_in": lambda s, system, **kw: review.in_system(review.weekly_review(s, **kw), system),
         "problem_patterns": review.problem_patterns,
         "design_map": features.design_map,
         "suggest": advise.suggest,

@@ -20,7 +20,7 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
         status = ("Fitting the reject model on the whole log (no stored fit covers the newest pours), "
                   "then " + status[0].lower() + status[1:])
     found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge,
-                        thermal=False, status=status)
+                        thermal=False, system=common.unit_system(), status=status)
     st.subheader("Suggested changes")
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")
@@ -122,7 +122,7 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
     with common.guard():
         result = common.load("what_if", key[0], key[1], diameter_mm=changed,
                              sleeve=None if sleeve == BARE else sleeve, week=week, weeks=weeks,
-                             remelt_charge=charge)
+                             remelt_charge=charge, system=system)
     if result is None:
         return
     size = " x ".join(views.length_text(result[k], system) for k in ("diameter_mm", "height_mm"))

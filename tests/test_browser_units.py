@@ -30,8 +30,6 @@ PUBLISHED_FORM = "source, in its published units:"  # dashboard.common.PUBLISHED
 # url path, title, screenshot name, toggles to switch on (labels), what the page must show in US units
 PAGES = [
     ("log", "Log results", "log-results", [], None),
-    # the review's riser-change texts and the suggestions' reasons are worded by the library:
-    # they are read here once they take a system (READ_ONLY pages are screenshot, not judged)
     ("review", "Weekly review", "weekly-review", [], None),
     ("design-map", "Design map", "design-map", [], None),
     ("pattern?pattern=P-1004", "Pattern file", "pattern-file", ["Solve the current revision's risers"],
@@ -39,8 +37,6 @@ PAGES = [
     ("suggestions", "Suggestions", "suggestions", ["Solve the changed riser and its zone"],
      ["now: diameter (in)", "suggested: diameter (in)", "Diameter (in)", "z (in), height"]),
 ]
-
-READ_ONLY = {"weekly-review", "suggestions"}
 
 READ = """() => {
   const main = document.querySelector('[data-testid="stMain"]');
@@ -119,8 +115,7 @@ def test_every_page_in_us_shows_no_metric_unit(browser, us_server, path, title, 
     texts = [seen["page"], seen["sidebar"], *seen["heads"], *seen["charts"]]
     left = [m.group(0) + " in: " + t[max(0, m.start() - 60):m.end() + 20]
             for t in texts for m in METRIC_UNIT.finditer(t.split(PUBLISHED_FORM)[0])]
-    if name not in READ_ONLY:
-        assert left == [], left
+    assert left == [], left
     # the switch is there and on US customary
     assert pg.get_by_role("radio", name="US customary").is_checked()
     for want in wanted or []:

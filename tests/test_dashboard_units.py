@@ -154,12 +154,7 @@ def test_only_a_role_that_may_change_settings_is_offered_the_default(role, offer
 
 # --- each page -----------------------------------------------------------------------------------
 
-# The weekly review's riser-change texts and the suggestions' reasons are worded by the
-# library (tracker.review, tracker.advise); they join this list when they take a system.
-WORDED_HERE = ["log_results.py", "design_map.py", "pattern_file.py"]
-
-
-@pytest.mark.parametrize("page", WORDED_HERE)
+@pytest.mark.parametrize("page", PAGES)
 def test_every_page_in_us_names_no_metric_unit(page, app_demo_db, monkeypatch):
     at = open_in(app_demo_db, page, monkeypatch)
     assert not at.error, [e.value for e in at.error]

@@ -53,7 +53,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from tracker import limits, rules
+from tracker import limits, rules, units
 from tracker.assess import assess_frame, revision_in_effect, rule_words
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadInput, NotFound
@@ -547,16 +547,23 @@ def _neck_verb(old_mm, new_mm) -> str:
     return "narrow" if new < old else "widen"
 
 
-def _change_text(action: str, riser: str, d0: float, c, neck0=None) -> str:
-    return {"enlarge": f"enlarge riser {riser} from {d0:.0f} to {c['diameter_mm']:.0f} mm "
-                       f"(height {c['height_mm']:.0f} mm)",
+def _mm(value, system: str) -> str:
+    """A length given in mm, as the texts word it in ``system``: "130 mm", "5.12 in"."""
+    return units.say("diameter_mm", float(value), system)
+
+
+def _change_text(action: str, riser: str, d0: float, c, neck0=None, system: str = units.METRIC) -> str:
+    d_from = f"{d0:.0f}" if system != units.US else units.number("diameter_mm", d0, system)
+    return {"enlarge": f"enlarge riser {riser} from {d_from} to {_mm(c['diameter_mm'], system)} "
+                       f"(height {_mm(c['height_mm'], system)})",
             "sleeve": f"fit sleeve {c['sleeve']} to riser {riser}",
-            "enlarge_and_sleeve": f"change riser {riser} to sleeve {c['sleeve']} ({c['diameter_mm']:.0f} mm)",
+            "enlarge_and_sleeve": f"change riser {riser} to sleeve {c['sleeve']} ({_mm(c['diameter_mm'], system)})",
             "neck": f"{_neck_verb(neck0, c['neck_diameter_mm'])} the neck of riser {riser} "
-                    f"to {c['neck_diameter_mm']:.0f} mm"}[action]
+                    f"to {_mm(c['neck_diameter_mm'], system)}"}[action]
 
 
-def _pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float) -> str:
+def _pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float,
+                   system: str = units.METRIC) -> str:
     """Where the choice does not pay off: say so, and name the cheapest
     change that passes the rules."""
     if pd.isna(choice["predicted_rate_now"]):
@@ -571,7 +578,7 @@ def _pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float)
         return text + " No cheaper change passes the rules."
     c = min(cheaper, key=lambda c: (c["extra_cost_per_year"], c["predicted_rate_after"]))
     rate = "" if pd.isna(c["predicted_rate_after"]) else f", predicted {c['predicted_rate_after']:.1%}"
-    return (text + f" The cheapest change that passes the rules: {_change_text(c['action'], riser, d0, c)}"
+    return (text + f" The cheapest change that passes the rules: {_change_text(c['action'], riser, d0, c, system=system)}"
                    f" (extra cost {_money_text(c['extra_cost_per_year'])} a year{rate}, balance "
                    f"{_money_text(c['yearly_balance'])} a year).")
 
@@ -590,17 +597,18 @@ def _how_chosen(choice: dict, zone_priced: list[dict]) -> str:
             "those that pass every rule, this one has the highest yearly balance.")
 
 
-def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], siblings: list[str]) -> str:
+def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], siblings: list[str],
+                 system: str = units.METRIC) -> str:
     """Why this change: the zone's rates, the rules before and after, the
     neck, feeding distance, the zone's other risers, the money and how the
-    choice was made."""
+    choice was made; lengths worded in ``system``."""
     d0 = float(base["diameter_mm"])
     predicted = ("" if pd.isna(choice["predicted_rate_now"]) else
                  f"; predicted by the model {choice['predicted_rate_now']:.1%} now, "
                  f"{choice['predicted_rate_after']:.1%} after")
     caine = ("Caine (margin n/a)" if pd.isna(choice["caine_margin"])
              else f"Caine (margin {choice['caine_margin']:.2f})")
-    text = (f"{_change_text(choice['action'], base['riser'], d0, choice, base['neck_diameter_mm'])}: shrinkage in zone {zone['zone']} "
+    text = (f"{_change_text(choice['action'], base['riser'], d0, choice, base['neck_diameter_mm'], system)}: shrinkage in zone {zone['zone']} "
             f"observed {zone['rate']:.1%} ({int(zone['shrinkage_rejects'])} of {int(zone['castings'])} "
             f"castings){predicted}; the present riser fails: {rule_words(now['failed_rules']) or 'none'}. ")
     text += (f"The new one passes modulus (ratio {choice['modulus_ratio']:.2f}), {caine} and feed volume "
@@ -610,24 +618,24 @@ def _reason_text(zone, base, now, choice: dict, zone_priced: list[dict], sibling
     neck_now = _nan_none(base["neck_diameter_mm"])
     if choice["action"] != "neck" and neck_now is not None and choice["neck_diameter_mm"] != neck_now:
         text += (f" {_neck_verb(neck_now, choice['neck_diameter_mm']).capitalize()} the neck to "
-                 f"{choice['neck_diameter_mm']:.0f} mm with it.")
+                 f"{_mm(choice['neck_diameter_mm'], system)} with it.")
     if choice["feeding_distance_ok"] == 0.0:
-        text += (f" Feeding distance: the zone's feeding length {choice['feeding_length_mm']:.0f} mm is "
-                 f"beyond {choice['feeding_distance_mm']:.0f} mm; no riser size fixes that: add a "
+        text += (f" Feeding distance: the zone's feeding length {_mm(choice['feeding_length_mm'], system)} is "
+                 f"beyond {_mm(choice['feeding_distance_mm'], system)}; no riser size fixes that: add a "
                  "riser or a chill.")
     if siblings:
         text += (f" Riser(s) {', '.join(siblings)} on the same zone fail too: "
                  + ("give them the same change (priced with it)." if choice["action"] != "neck" else
                     "widen their necks as well (not priced here)."))
     text += _how_chosen(choice, zone_priced)
-    return text + _pays_off_text(choice, zone_priced, base["riser"], d0)
+    return text + _pays_off_text(choice, zone_priced, base["riser"], d0, system)
 
 
-def _comfortable_text(base, now, rate: float) -> str:
+def _comfortable_text(base, now, rate: float, system: str = units.METRIC) -> str:
     hints = []
     if now["feeding_distance_ok"] == 0.0:
-        hints.append(f"the zone's feeding length {now['feeding_length_mm']:.0f} mm is beyond the "
-                     f"riser's feeding distance {now['feeding_distance_mm']:.0f} mm: add a riser "
+        hints.append(f"the zone's feeding length {_mm(now['feeding_length_mm'], system)} is beyond the "
+                     f"riser's feeding distance {_mm(now['feeding_distance_mm'], system)}: add a riser "
                      "or a chill to shorten it")
     elif pd.isna(now["feeding_distance_ok"]):
         hints.append("feeding distance was not judged (give the zone's thickness, width and length)")
@@ -737,8 +745,12 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
             week: str | None = None, weeks: int = limits.WEEKS_DEFAULT, step_mm: float = DEFAULT_STEP_MM,
             model=None, refit: bool = False,
             remelt_charge: float | None = None, riser_metal_charge: float | None = None,
-            thermal: bool | None = None) -> list[dict]:
+            thermal: bool | None = None, system: str = units.METRIC) -> list[dict]:
     """Suggestions for each problem pattern (or for ``pattern`` alone).
+
+    system: the unit system (tracker.units) the reasons word their lengths
+    in; every number of the records stays metric (``units.convert_record``
+    renames and converts them for display).
 
     thermal: check each chosen riser by a solidification solve and take the
     next candidate where it fails (``tracker.thermal.checks``); None: only
@@ -755,7 +767,8 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
     """
     target = limits.check_target(target)
     if not step_mm > 0:
-        raise BadInput("step_mm", step_mm, "the diameter step must be above 0 mm")
+        raise BadInput(units.column_name("step_mm", system), units.value_in("step_mm", step_mm, system),
+                       f"the diameter step must be above 0 {units.symbol('step_mm', system)}")
     charge = _remelt_charge(remelt_charge, riser_metal_charge)
     week, first, last = review_window(store, week, weeks)
     start, end = first.isoformat(), last.isoformat()
@@ -780,7 +793,8 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
     to_change = zones[~zones["comfortable"]]
     cands = _candidates(to_change, designs, store.table("sleeves"), step_mm, model is not None)
     priced, rate_now = _price(cands, zones, designs, money, model, target)
-    priced, thermal_notes = thermal_checks.suggest_filter(store, priced, cands, len(to_change), thermal, _choose)
+    priced, thermal_notes = thermal_checks.suggest_filter(store, priced, cands, len(to_change), thermal, _choose,
+                                                          system=system)
     chosen = _choose(priced) if len(priced) else priced.assign(_cand=[], tier=[])
     ctx = {"win": win, "designs": designs, "money": money.to_dict("index"), "target": target, "start": start,
            "end": end, "alloy": dict(zip(pats["pattern"], pats["alloy"])), "rate_now": rate_now.to_dict(),
@@ -788,7 +802,7 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
            "defects": _groups(win["defects"], "pattern"), "zone_stats": _groups(win["zones"], "pattern"),
            "zones": _groups(zones, "pattern"), "priced": _records_by(priced.reset_index(), "_z"),
            "risers_by_zone": _groups(designs["judged"][["pattern", "zone", "riser", "full_ok"]], ["pattern", "zone"]),
-           "thermal_notes": thermal_notes}
+           "thermal_notes": thermal_notes, "system": system}
     out: list[dict] = []
     for pat in patterns:
         out.extend(_pattern_records(pat, ctx))
@@ -845,7 +859,7 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
     r_now = ctx["rate_now"].get(z_id, np.nan)
     if z["comfortable"]:
         return {**common, **_no_change_money(m, r_now), "action": "no_riser_change",
-                "reason": _comfortable_text(base, now, float(z["rate"]))}
+                "reason": _comfortable_text(base, now, float(z["rate"]), ctx["system"])}
     if z_id not in ctx["chosen"]:
         return {**common, **_no_change_money(m, r_now), "action": "no_riser_change",
                 "reason": "no candidate riser could be formed; size it by hand"}
@@ -862,7 +876,8 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
         "caine_margin_before": _nan_none(now["caine_margin"]), "caine_margin_after": _nan_none(choice["caine_margin"]),
         "feed_margin_before": float(now["feed_margin"]), "feed_margin_after": float(choice["feed_margin"]),
         "passes_after": bool(choice["full_ok"]), "meets_target": bool(choice["meets_target"]),
-        "reason": _reason_text(z, base, now, choice, zone_priced, siblings) + ctx["thermal_notes"].get(z_id, ""),
+        "reason": (_reason_text(z, base, now, choice, zone_priced, siblings, ctx["system"])
+                   + ctx["thermal_notes"].get(z_id, "")),
         "thermal_ok": choice.get("thermal_ok"), "last_to_freeze": choice.get("last_to_freeze"),
         "alternatives": _alternatives(zone_priced, c_id, m),
     }
@@ -877,7 +892,7 @@ def same_kind_sleeve(catalogue: pd.DataFrame, kind: str, diameter_mm: float) -> 
     return None if hit.empty else hit.iloc[0].to_dict()
 
 
-def _resolve_sleeve(cat: pd.DataFrame, base: pd.Series, sleeve, diameter_mm):
+def _resolve_sleeve(cat: pd.DataFrame, base: pd.Series, sleeve, diameter_mm, system: str = units.METRIC):
     """The sleeve row a what-if asks for: "keep", None (bare) or a catalogue
     row. A diameter with a sleeve (given, or kept) takes the catalogue's
     sleeve of the same kind and that inner diameter, where there is one."""
@@ -896,10 +911,12 @@ def _resolve_sleeve(cat: pd.DataFrame, base: pd.Series, sleeve, diameter_mm):
         return s
     same = same_kind_sleeve(cat, s["kind"], diameter_mm)
     if same is None:
-        sizes = ", ".join(f"{d:g}" for d in sorted(cat.loc[cat["kind"] == s["kind"], "inner_diameter_mm"]))
-        raise BadInput("diameter_mm", diameter_mm,
+        sizes = ", ".join(f"{units.value_in('diameter_mm', d, system):g}"
+                          for d in sorted(cat.loc[cat["kind"] == s["kind"], "inner_diameter_mm"]))
+        raise BadInput(units.column_name("diameter_mm", system), units.value_in("diameter_mm", diameter_mm, system),
                        f"the catalogue has no {s['kind']} sleeve of that inner diameter ({s['kind']} sleeves: "
-                       f"{sizes} mm); pick one of those sizes, or a bare riser (sleeve none)")
+                       f"{sizes} {units.symbol('diameter_mm', system)}); pick one of those sizes, or a bare "
+                       "riser (sleeve none)")
     return same
 
 
@@ -953,8 +970,11 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
             height_mm: float | None = None, sleeve: str | None = "keep",
             neck_diameter_mm: float | None | str = "keep", revision: str | None = None,
             model=None, week: str | None = None, weeks: int = limits.WEEKS_DEFAULT,
-            remelt_charge: float | None = None, riser_metal_charge: float | None = None) -> dict:
+            remelt_charge: float | None = None, riser_metal_charge: float | None = None,
+            system: str = units.METRIC) -> dict:
     """Margins, predicted shrinkage rate, yield and money of a changed riser.
+
+    Sizes are metric (mm); ``system`` is the unit system refusals name theirs in.
 
     sleeve: a catalogue code, None (or "none") for a bare riser, "keep" to
     keep the present one. A sleeved riser takes the sleeve's diameter and
@@ -967,10 +987,10 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
     get the same change, as in ``suggest`` (``changed_risers``).
     """
     charge = _remelt_charge(remelt_charge, riser_metal_charge)
-    if diameter_mm is not None and not diameter_mm > 0:
-        raise BadInput("diameter_mm", diameter_mm, "must be a number above 0 mm")
-    if height_mm is not None and not height_mm > 0:
-        raise BadInput("height_mm", height_mm, "must be a number above 0 mm")
+    for name, value in (("diameter_mm", diameter_mm), ("height_mm", height_mm)):
+        if value is not None and not value > 0:
+            raise BadInput(units.column_name(name, system), units.value_in(name, value, system),
+                           f"must be a number above 0 {units.symbol(name, system)}")
     info = store.pattern(pattern)
     revs = store.revisions_frame(pattern)
     if revs.empty:
@@ -983,7 +1003,7 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
         raise NotFound("riser", riser, f"{pattern} revision {rev} has " + ", ".join(risers["riser"]))
     k = risers.index[risers["riser"] == riser][0]
     base = risers.loc[k]
-    s = _resolve_sleeve(store.table("sleeves"), base, sleeve, diameter_mm)
+    s = _resolve_sleeve(store.table("sleeves"), base, sleeve, diameter_mm, system)
     row = _what_if_row(base, s, diameter_mm, height_mm, neck_diameter_mm)
     if model is None:
         model = get_model(store)

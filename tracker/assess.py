@@ -13,7 +13,7 @@ import datetime as dt
 import numpy as np
 import pandas as pd
 
-from tracker import geometry, rules
+from tracker import geometry, rules, units
 from tracker.alloys import ALLOYS, CaineConstants
 from tracker.errors import NotFound
 from tracker.store import Store
@@ -70,7 +70,8 @@ def _moulds(values, n: int) -> np.ndarray:
     return np.array([rules.check_mould(v) for v in values], dtype=object)
 
 
-def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MODULUS_FACTOR) -> pd.DataFrame:
+def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MODULUS_FACTOR, *,
+                 system: str = units.METRIC) -> pd.DataFrame:
     """Rule margins for every row of ``risers`` (as from ``Store.risers_frame``).
 
     Needs the columns diameter_mm, height_mm, placement, volume_cm3,
@@ -218,7 +219,7 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
         failed.append(fl)
         notes.append("; ".join(_notes(i, pc, caine_applied, steel, fd_ok, thick, width, length, share,
                                       neck, neck_ok, neck_m, neck_lo, neck_hi, top, riser_needed, mc,
-                                      mould, over, joined, shape)))
+                                      mould, over, joined, shape, system)))
     out["passes"] = [not fl for fl in failed]
     out["failed_rules"] = [",".join(fl) for fl in failed]
     out["notes"] = notes
@@ -227,19 +228,25 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
 
 
 def _notes(i, pc, caine_applied, steel, fd_ok, thick, width, length, share, neck, neck_ok, neck_m,
-           neck_lo, neck_hi, top, riser_needed, mc, mould, over, joined, shape) -> list[str]:
+           neck_lo, neck_hi, top, riser_needed, mc, mould, over, joined, shape, system=units.METRIC) -> list[str]:
+    def cm(x):  # a modulus in the system's unit, metric text as it always was
+        return f"{x:.2f} cm" if system != units.US else units.show("length_cm", x, system, 2)
+
     nt = []
     if pc[i]:
         nt.append(f"judged by pressure control ({str(mould[i]).replace('_', ' ')} mould)")
         if not riser_needed[i]:
-            nt.append(f"section modulus {mc[i]:.2f} cm >= {rules.PC_RISERLESS_MODULUS_CM:g} cm in a rigid "
-                      "mould: may be cast without a riser")
+            limit = (f"{rules.PC_RISERLESS_MODULUS_CM:g} cm" if system != units.US
+                     else cm(rules.PC_RISERLESS_MODULUS_CM))
+            nt.append(f"section modulus {cm(mc[i])} >= {limit} in a rigid mould: may be cast without a riser")
         if np.isnan(neck[i]):
             nt.append("neck not judged: " + ("a top riser has no neck; pressure control needs one"
-                                              if top[i] else "give neck_diameter_mm"))
+                                              if top[i] else "give " + units.column_name("neck_diameter_mm", system)))
         elif neck_ok[i] == 0.0:
             side = "wide: the expansion pushes metal back into the riser" if neck_m[i] > neck_hi[i]                 else "narrow: it freezes before the liquid contraction ends"
-            nt.append(f"neck modulus {neck_m[i]:.2f} cm outside {neck_lo[i]:.2f}-{neck_hi[i]:.2f} cm, too {side}")
+            lo_hi = (f"{neck_lo[i]:.2f}-{neck_hi[i]:.2f} cm" if system != units.US else
+                     f"{units.number('length_cm', neck_lo[i], system, 2)}-{cm(neck_hi[i])}")
+            nt.append(f"neck modulus {cm(neck_m[i])} outside {lo_hi}, too {side}")
         if over[i]:
             nt.append("oversized: the riser outlasts the section as a steel riser must; pressure control "
                       "needs it to outlast the neck only")
@@ -248,8 +255,8 @@ def _notes(i, pc, caine_applied, steel, fd_ok, thick, width, length, share, neck
     if not steel[i]:
         nt.append("feeding distance not judged (the published rule is for steel)")
     elif np.isnan(fd_ok[i]):
-        missing = [name for name, v in (("thickness_mm", thick[i]), ("width_mm", width[i]),
-                                        ("length_mm", length[i])) if np.isnan(v)]
+        missing = [units.column_name(name, system) for name, v in
+                   (("thickness_mm", thick[i]), ("width_mm", width[i]), ("length_mm", length[i])) if np.isnan(v)]
         nt.append(f"feeding distance not judged (give the zone's {', '.join(missing)})")
     else:
         nt.append(f"feeding distance by the {shape[i]} rule"
@@ -270,8 +277,9 @@ def revision_in_effect(revisions: pd.DataFrame, on: str) -> pd.DataFrame:
 
 
 def check(store: Store, pattern: str | None = None, on: str | dt.date | None = None,
-          modulus_factor: float = rules.DEFAULT_MODULUS_FACTOR) -> pd.DataFrame:
-    """Every riser of the revision in effect on ``on`` (default today), judged."""
+          modulus_factor: float = rules.DEFAULT_MODULUS_FACTOR, *, system: str = units.METRIC) -> pd.DataFrame:
+    """Every riser of the revision in effect on ``on`` (default today), judged;
+    ``system``: the unit system the notes word their figures in (columns stay metric)."""
     on = (on or dt.date.today())
     on = on.isoformat() if hasattr(on, "isoformat") else str(on)
     if pattern is not None:
@@ -283,7 +291,7 @@ def check(store: Store, pattern: str | None = None, on: str | dt.date | None = N
     keep = risers.merge(current[["pattern", "revision"]], on=["pattern", "revision"])
     if keep.empty and pattern is not None:
         raise NotFound("riser revision", pattern, f"no revision of {pattern} is in effect on {on}")
-    return assess_frame(keep, modulus_factor)
+    return assess_frame(keep, modulus_factor, system=system)
 
 
 def caine_curve_points(a: float, b: float, c: float, y_max: float = 3.0, n: int = 200) -> pd.DataFrame:

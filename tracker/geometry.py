@@ -105,10 +105,15 @@ def exceeds_sphere_modulus(volume, cooling_area):
     return v / np.asarray(cooling_area, dtype=float) > sphere_modulus_for_volume(v) * (1 + 1e-9)
 
 
-def joined_faces_warning(volume, cooling_area) -> str:
-    """The warning text where V/A exceeds a same-volume sphere's modulus, else ''."""
+def joined_faces_warning(volume, cooling_area, system: str = "metric") -> str:
+    """The warning text where V/A exceeds a same-volume sphere's modulus, else '';
+    figures and units in ``system`` (tracker.units)."""
+    from tracker import units
+
     if not bool(exceeds_sphere_modulus(volume, cooling_area)):
         return ""
     m, ms = float(volume) / float(cooling_area), float(sphere_modulus_for_volume(volume))
-    return (f"modulus {m:.2f} cm is above a same-volume sphere's {ms:.2f} cm: right only where "
-            "faces are joined to other metal; check the cooling area (cm²) and volume (cm³)")
+    return (f"modulus {units.show('length_cm', m, system, 2)} is above a same-volume sphere's "
+            f"{units.show('length_cm', ms, system, 2)}: right only where faces are joined to other metal; "
+            f"check the cooling area ({units.symbol('area_cm2', system)}) and volume "
+            f"({units.symbol('volume_cm3', system)})")

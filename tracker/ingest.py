@@ -28,7 +28,7 @@ from typing import Callable, Iterator
 import numpy as np
 import pandas as pd
 
-from tracker import auth, geometry
+from tracker import auth, geometry, units
 from tracker.errors import BadFile, BadRecord, BadRow, cut
 from tracker.limits import EARLIEST_DATE, RANGES, latest_date
 from tracker.store import KEYS, TABLE_COLUMNS, Store
@@ -59,6 +59,9 @@ COLUMNS = {  # (required, optional)
                     ["defect", "zone", "xray_category", "severity", "serial", "inspector", "notes",
                      "record_id"]),
 }
+# The US customary twin a file may give in place of a metric column (diameter_in for
+# diameter_mm, casting_weight_lb, metal_cost_per_lb, pour_temp_f ...): {kind: {us: metric}}.
+US_COLUMNS = {kind: units.us_names(required + optional) for kind, (required, optional) in COLUMNS.items()}
 CHUNK_ROWS = 100_000
 MAX_PROBLEMS = 1000  # keep the first this many (every one is counted)
 POUR_TEMP_RANGE_C = (400.0, 1800.0)
@@ -217,6 +220,7 @@ def _sniff(path: pathlib.Path, kind: str) -> str | None:
     required = COLUMNS[kind][0]
     for sep in (";", "\t", "|"):
         cols = [c.strip().strip('"').lower() for c in head[0].split(sep)]
+        cols = [US_COLUMNS[kind].get(c, c) for c in cols]
         if len(cols) > 1 and sum(c in cols for c in required) >= len(required) // 2 + 1:
             decimal = any(re.search(r"(^|" + re.escape(sep) + r')"?-?\d+,\d+"?(' + re.escape(sep) + "|$)",
                                     line.strip()) for line in head[1:])
@@ -350,9 +354,12 @@ def _check_header(name: str, kind: str, columns: list[str]) -> None:
         # A refused-rows report, its rows fixed, is imported as it is.
         cols = [c for c in cols if c not in REPORT_COLUMNS]
     required, optional = COLUMNS[kind]
+    us = US_COLUMNS[kind]
+    both = [(m, u) for u, m in us.items() if u in cols and m in cols]
+    dupes = sorted({c for c in cols if cols.count(c) > 1})
+    cols = [us.get(c, c) for c in cols]  # a customary column stands for its metric twin
     missing = [c for c in required if c not in cols]
     unknown = [c for c in cols if c not in required and c not in optional]
-    dupes = sorted({c for c in cols if cols.count(c) > 1})
     parts = []
     if missing:
         parts.append("missing column(s) " + ", ".join(missing))
@@ -360,10 +367,16 @@ def _check_header(name: str, kind: str, columns: list[str]) -> None:
         parts.append("unknown column(s) " + ", ".join(repr(c) for c in unknown))
     if dupes:
         parts.append("repeated column(s) " + ", ".join(dupes))
+    if both:
+        parts.append("; ".join(f"columns {m} and {u} both give the "
+                               f"{m[:-len(units.kind_of(m).metric_suffix)].replace('_', ' ')}; "
+                               f"keep one of them (metric {m} or US customary {u})" for m, u in both))
     if parts:
+        twins = [f"{u} for {m}" for u, m in us.items()]
         raise BadFile(name, [], f"{name}, row 1 (header): {'; '.join(parts)}. A {kind} file has the "
                                 f"columns {', '.join(required)}"
-                                + (f" and optionally {', '.join(optional)}" if optional else ""))
+                                + (f" and optionally {', '.join(optional)}" if optional else "")
+                                + (f" (in US customary units: {', '.join(twins)})" if twins else ""))
 
 
 # --- which file a row came from ------------------------------------------------------
@@ -455,6 +468,17 @@ class _Checks:
         self.result = result
         self.reasons: dict[int, str] = {}
         self.found: list[tuple[int, BadRow]] = []
+        # metric column -> the US customary column the file gives in its place
+        us_cols = {u: m for kind in US_COLUMNS.values() for u, m in kind.items()}
+        self.given = {us_cols[c]: c for c in chunk.columns if c in us_cols}
+
+    def system(self, name: str) -> str:
+        """The unit system the file gives a metric column in (tracker.units)."""
+        return units.US if name in self.given else units.METRIC
+
+    def shown(self, name: str) -> str:
+        """The column as the file names it (``diameter_in`` for ``diameter_mm``)."""
+        return self.given.get(name, name)
 
     def col(self, name: str) -> pd.Series:
         if name in self.chunk.columns:
@@ -464,7 +488,7 @@ class _Checks:
     def ok(self, *columns: str) -> np.ndarray:
         """Rows with no problem in any of ``columns`` (for checks across columns)."""
         out = np.ones(len(self.rows), dtype=bool)
-        for name in columns:
+        for name in map(self.shown, columns):
             if name in self.bad_cols:
                 out &= ~self.bad_cols[name]
         return out
@@ -472,7 +496,9 @@ class _Checks:
     def fail(self, mask, column: str, reason, form: str | None = None) -> None:
         """Refuse the rows of ``mask`` for ``column``. Every problem of a row is
         kept (one per column), so a file is fixed in one round. ``form``: the
-        rule in the words of a form, where they differ."""
+        rule in the words of a form, where they differ. A metric column the file
+        gives in US customary units is named as the file names it."""
+        column = self.shown(column)
         done = self.bad_cols.get(column)
         mask = np.asarray(mask, dtype=bool) & (~done if done is not None else True)
         if not mask.any():
@@ -525,6 +551,12 @@ class _Checks:
     def number(self, name: str, required: bool = True, low: float | None = None,
                low_inclusive: bool = False, high: float | None = None, whole: bool = False,
                unit: str = "") -> pd.Series:
+        """A number column; one the file gives in US customary units (``diameter_in``
+        for ``diameter_mm``) is checked in its own unit and returned in metric."""
+        system, metric_name, name = self.system(name), name, self.shown(name)
+        if system == units.US:
+            low, high = (units.value_in(metric_name, x, system) for x in (low, high))
+            unit = units.symbol(metric_name, system) if unit else unit
         s = self.col(name)
         empty = s == ""
         if required:
@@ -550,7 +582,7 @@ class _Checks:
                                "point, or import the file with `--decimal ','`")
         self.fail(bad, name, f"{name} must be {rule}")
         # A refused value (inf, 1e30, 1.5 ...) goes on as blank: later steps cast to int.
-        return num.where(~bad)
+        return units.value_from(metric_name, num.where(~bad), system)
 
     def measure(self, name: str, required: bool = True) -> pd.Series:
         """A size, weight or cost within its physical range (tracker.limits.RANGES)."""
@@ -746,11 +778,14 @@ class _Importer:
         # plate). Below a same-volume sphere's area is possible where faces are joined to
         # other metal: `check` notes it, the import takes it.
         m = (vol / area).to_numpy(dtype=float)
+        measured = ("cooling_area_cm2", "volume_cm3", "thickness_mm")
+        msys = c.system("volume_cm3")  # the modulus is worded in the volume's system
         c.fail(thick.notna().to_numpy() & ~np.isnan(m) & (m > thick.to_numpy(dtype=float) / 20.0 * (1 + 1e-9)),
                "cooling_area_cm2",
-               lambda i: f"the modulus V/A = {m[i]:.2f} cm is above half the thickness "
-                         f"({thick.iloc[i] / 20.0:.2f} cm), more than a plate of that thickness cooling on "
-                         "both faces can have; check the units (cm², cm³, mm)")
+               lambda i: f"the modulus V/A = {units.show('length_cm', m[i], msys, 2)} is above half the "
+                         f"thickness ({units.show('length_cm', thick.iloc[i] / 20.0, msys, 2)}), more than a "
+                         "plate of that thickness cooling on both faces can have; check the units "
+                         f"({', '.join(units.symbol(n, c.system(n)) for n in measured)})")
         length = c.measure("length_mm", required=False)
         width = c.measure("width_mm", required=False)
         level = c.number("required_xray_level", required=False, low=1, low_inclusive=True, high=5,
@@ -761,7 +796,7 @@ class _Importer:
         for i in np.flatnonzero(joined)[:MAX_PROBLEMS]:
             self.result.warnings.append(
                 f"{self.file}, row {int(c.rows[i])}, zone {zone.iloc[i]}: "
-                + geometry.joined_faces_warning(float(vol.iloc[i]), float(area.iloc[i])))
+                + geometry.joined_faces_warning(float(vol.iloc[i]), float(area.iloc[i]), msys))
         return [(p, z, v, a, _float_or_none(t), _float_or_none(ln), _int_or_none(lv), _float_or_none(w))
                 for p, z, v, a, t, ln, lv, w in zip(pattern, zone, vol, area, thick, length, level, width)]
 
@@ -811,9 +846,11 @@ class _Importer:
         if sleeves is not None:
             inner = np.array([sleeves.at[s, "inner_diameter_mm"] if k else np.nan
                               for s, k in zip(sleeve, known)], dtype=float)
+            dsys = c.system("diameter_mm")
             c.fail(has_sleeve & known & (np.abs(dia.to_numpy() - inner) > 1.0), "diameter_mm",
-                   lambda i: f"got {dia.iloc[i]:g}; sleeve {sleeve.iloc[i]} has an inner diameter "
-                             f"of {inner[i]:g} mm; the riser diameter is the sleeve's")
+                   lambda i: f"got {units.value_in('diameter_mm', dia.iloc[i], dsys):g}; sleeve {sleeve.iloc[i]} "
+                             f"has an inner diameter of {units.value_in('diameter_mm', inner[i], dsys):g} "
+                             f"{units.symbol('diameter_mm', dsys)}; the riser diameter is the sleeve's")
         rows = [(p, r, rs, z, pl, t, d, hh, _none(s), _float_or_none(n))
                 for p, r, rs, z, pl, t, d, hh, s, n in
                 zip(pattern, revision, riser, zone, placement, top, dia, h, sleeve, neck)]

@@ -21,6 +21,7 @@ import json
 import math
 import re
 
+from tracker import units
 from tracker.cautions import SAFETY_CAUTION, SAFETY_CAUTION_SHORT
 from tracker.settings import DEFAULT_CURRENCY
 
@@ -393,9 +394,11 @@ def render_csv(review: dict) -> str:
     """The per-pattern table of the window as CSV, every cell made formula-safe."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow([h for h, _ in CSV_COLUMNS])
+    system = review.get("unit_system", units.METRIC)  # set by tracker.review.in_system
+    columns = [(units.column_name(h, system), units.column_name(k, system)) for h, k in CSV_COLUMNS]
+    w.writerow([h for h, _ in columns])
     for p in review["patterns"]:
-        w.writerow([safe_cell(_csv_value(h, p.get(k))) for h, k in CSV_COLUMNS])
+        w.writerow([safe_cell(_csv_value(h, p.get(k))) for h, k in columns])
     return buf.getvalue()
 
 
@@ -838,7 +841,8 @@ def render_html(review: dict) -> str:
                    + _html_table(review["notes"], cols, {"Castings"}) + "</section>")
 
     out.append(f"<footer>Rates: {_e(review.get('rate_basis', ''))}. Counts in castings; costs in "
-               f"{_e(review.get('currency') or DEFAULT_CURRENCY)}; weights in kg. Rework is counted apart and is not scrap. "
+               f"{_e(review.get('currency') or DEFAULT_CURRENCY)}; weights in "
+               f"{units.symbol('mass_kg', review.get('unit_system', units.METRIC))}. Rework is counted apart and is not scrap. "
                "Rejects count against the week the lot was poured.</footer></body></html>")
     return "\n".join(out) + "\n"
 

@@ -56,7 +56,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from tracker import limits, stats
+from tracker import limits, stats, units
 from tracker.cautions import SAFETY_CAUTION
 from tracker.settings import currency
 from tracker.store import Store
@@ -459,17 +459,44 @@ def _riser_changes(old: dict, new: dict) -> list[dict]:
         if before == after:
             continue
         zones = sorted({z for z in (before["zone"], after["zone"]) if z})
-        if before["zone"] is None:
-            text = "added"
-        elif after["zone"] is None:
-            text = "removed"
-        else:
-            text = ", ".join(f"{f.removesuffix('_mm')} {_fmt(before[f])} → {_fmt(after[f])}{unit}"
-                             for f, unit in (("diameter_mm", " mm"), ("height_mm", " mm"),
-                                             ("neck_diameter_mm", " mm"), ("sleeve", ""), ("placement", ""),
-                                             ("top", ""), ("zone", ""))
-                             if before[f] != after[f])
-        out.append({"riser": riser, "zones": zones, "before": before, "after": after, "change": text})
+        out.append({"riser": riser, "zones": zones, "before": before, "after": after,
+                    "change": riser_change_text(before, after)})
+    return out
+
+
+def riser_change_text(before: dict, after: dict, system: str = units.METRIC) -> str:
+    """What changed between two states of one riser (RISER_FIELDS each, metric),
+    sizes worded in ``system``: "diameter 120 → 140 mm", "diameter 4.72 → 5.51 in"."""
+    if before["zone"] is None:
+        return "added"
+    if after["zone"] is None:
+        return "removed"
+
+    def size(f, v):
+        if system != units.US or v is None or not f.endswith("_mm"):
+            return _fmt(v)
+        return units.number(f, v, system)
+
+    return ", ".join(f"{f.removesuffix('_mm')} {size(f, before[f])} → {size(f, after[f])}"
+                     + (f" {units.symbol(f, system)}" if f.endswith("_mm") else "")
+                     for f in ("diameter_mm", "height_mm", "neck_diameter_mm", "sleeve", "placement", "top", "zone")
+                     if before[f] != after[f])
+
+
+def in_system(review: dict, system: str) -> dict:
+    """The review (as ``weekly_review`` gives it) with every figure that has a unit
+    in ``system`` (tracker.units): keys renamed and values converted
+    (``casting_weight_lb``), riser change texts reworded, ``units`` naming the new
+    units, and ``unit_system`` saying which; in metric the review as it is."""
+    if system != units.US:
+        return review
+    out = units.convert_record(review, system)
+    for rev_out, rev_in in zip(out.get("revisions", []), review.get("revisions", [])):
+        for ch_out, ch_in in zip(rev_out.get("riser_changes", []), rev_in.get("riser_changes", [])):
+            ch_out["change"] = riser_change_text(ch_in["before"], ch_in["after"], system)
+    out["units"] = {units.column_name(k, system): units.symbol(k, system) if units.kind_of(k) else v
+                    for k, v in review.get("units", {}).items()}
+    out["unit_system"] = system
     return out
 
 

@@ -26,6 +26,7 @@ import math
 
 import numpy as np
 
+from tracker import units
 from tracker.alloys import CaineConstants
 from tracker.errors import BadInput
 
@@ -37,7 +38,7 @@ PLATE_RISER_ZONE_T = 2.0       # plate: a riser feeds 2 T each way by itself (Bi
 PLATE_END_ZONE_T = 2.5         # plate: end effect where the plate ends (Bishop-Pellini, from memory)
 BAR_END_COEFF_IN = 6.0         # square bar: 6 · sqrt(T) inches to a free end, T in inches (Bishop-Pellini, from memory)
 PLATE_WIDTH_RATIO = 5.0        # a plate is at least about 5 T wide (Bishop-Pellini, from memory)
-MM_PER_INCH = 25.4
+MM_PER_INCH = units.MM_PER_IN  # exact (tracker.units holds every factor)
 # Pressure control (Karsay's ductile-iron risering; figures from memory): the neck
 # freezes when graphite expansion starts, at a modulus of about 0.5-0.8 of the
 # casting's significant modulus; rigid moulds let heavy sections (modulus above
@@ -285,6 +286,12 @@ def plate_feeding_distance_mm(thickness_mm, between_risers=False):
     return zone * t
 
 
+def bar_feeding_distance_in(thickness_in):
+    """Square steel bar to a free end, in its published form: 6 · sqrt(T) inches,
+    T in inches (Bishop-Pellini, from memory)."""
+    return BAR_END_COEFF_IN * np.sqrt(np.asarray(thickness_in, dtype=float))
+
+
 def bar_feeding_distance_mm(thickness_mm, between_risers=False):
     """Square steel bar, mm: 6 · sqrt(T) inches to a free end (T in inches;
     Bishop-Pellini, from memory), never more than a plate of the same T.
@@ -295,8 +302,10 @@ def bar_feeding_distance_mm(thickness_mm, between_risers=False):
     plate, 2 T of 4.5 T (an assumption made here, not a published figure).
     """
     t = np.asarray(thickness_mm, dtype=float)
-    end = np.minimum(BAR_END_COEFF_IN * np.sqrt(t / MM_PER_INCH) * MM_PER_INCH,
-                     plate_feeding_distance_mm(t))
+    # computed in the published form (inches), then converted back exactly
+    published = units.value_from("length_mm", bar_feeding_distance_in(units.value_in("length_mm", t, units.US)),
+                                 units.US)
+    end = np.minimum(published, plate_feeding_distance_mm(t))
     share = PLATE_RISER_ZONE_T / (PLATE_RISER_ZONE_T + PLATE_END_ZONE_T)
     return np.where(np.asarray(between_risers, dtype=bool), share * end, end)
 

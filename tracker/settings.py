@@ -58,6 +58,17 @@ def set_units(store: Store, system) -> str:
     return value
 
 
+def resolve_units(store: Store | None, override=None) -> str:
+    """The unit system a command works in: ``override`` (a command's
+    ``--units``) when given, else the log's setting, else metric (a command
+    run without a log)."""
+    if override is not None:
+        return _units.check_system(override)
+    if store is not None:
+        return units(store)
+    return _units.DEFAULT_SYSTEM
+
+
 def settings(store: Store) -> dict:
     """Every setting of the log with its value."""
     return {"currency": currency(store), "units": units(store)}

@@ -17,7 +17,7 @@ from dataclasses import asdict, dataclass, replace
 
 import numpy as np
 
-from tracker import geometry, rules
+from tracker import geometry, rules, units
 from tracker.alloys import RULE_SETS, Alloy, get_alloy
 from tracker.errors import BadInput
 
@@ -26,8 +26,14 @@ RULES = ("caine", "modulus", "feed_volume")
 RULE_SET_SOURCES = {
     "modulus_sequence": "modulus rule and neck sequence 1 : 1.1 : 1.2 (Wlodawer, 1966; common practice)",
     "pressure_control": ("pressure control (Karsay's ductile-iron risering, from memory): neck modulus "
-                         "0.5-0.8 x the section's, riser 1.2 x the neck's, riserless from 2.5 cm in rigid moulds"),
+                         "0.5-0.8 x the section's, riser 1.2 x the neck's, riserless from {riserless} in rigid moulds"),
 }
+
+
+def rule_set_source(rule_set: str, system: str = units.METRIC) -> str:
+    """Where a rule set's figures come from, its lengths worded in ``system``."""
+    return RULE_SET_SOURCES[rule_set].format(
+        riserless=units.say("length_cm", rules.PC_RISERLESS_MODULUS_CM, system, "g"))
 # A sleeved riser feeds with more of its volume than a bare one. Where neither
 # the efficiency nor a catalogue sleeve is given, a sleeved riser takes the low
 # end of the insulating-sleeve range 25-35 % (DOMAIN.md, from memory): the safe
@@ -41,33 +47,40 @@ def _as_alloy(alloy) -> Alloy:
     return alloy if isinstance(alloy, Alloy) else get_alloy(alloy)
 
 
-def validate_section(volume_cm3, area_cm2, thickness_mm=None):
+def validate_section(volume_cm3, area_cm2, thickness_mm=None, system: str = units.METRIC):
     """Refuse sections no body can have: volume or cooling area not above 0,
     or (where the thickness is given) a modulus above T/2, the modulus of a
-    plate of thickness T cooling on both faces.
+    plate of thickness T cooling on both faces. The refusal names the fields,
+    values and units of ``system`` (tracker.units).
 
     A modulus above a same-volume sphere's is possible where faces are joined
     to other metal: it is a warning (``geometry.joined_faces_warning``), not a
     refusal.
     """
+    def refuse(name, value, reason):
+        raise BadInput(units.column_name(name, system), units.value_in(name, value, system), reason)
+
+    sym = {k: units.symbol(k, system) for k in ("volume_cm3", "area_cm2", "thickness_mm")}
     v = np.asarray(volume_cm3, dtype=float)
     a = np.asarray(area_cm2, dtype=float)
     if not np.all(np.isfinite(v)) or np.any(v <= 0):
-        raise BadInput("volume_cm3", _first_bad(v, v <= 0), "section volume must be a number above 0 cm³")
+        refuse("volume_cm3", _first_bad(v, v <= 0), f"section volume must be a number above 0 {sym['volume_cm3']}")
     if not np.all(np.isfinite(a)) or np.any(a <= 0):
-        raise BadInput("area_cm2", _first_bad(a, a <= 0), "cooling area must be a number above 0 cm²")
+        refuse("area_cm2", _first_bad(a, a <= 0), f"cooling area must be a number above 0 {sym['area_cm2']}")
     if thickness_mm is not None:
         t = np.asarray(thickness_mm, dtype=float)
         if np.any(~np.isnan(t) & (t <= 0)):
-            raise BadInput("thickness_mm", _first_bad(t, t <= 0), "thickness must be above 0 mm")
+            refuse("thickness_mm", _first_bad(t, t <= 0), f"thickness must be above 0 {sym['thickness_mm']}")
         bad = ~np.isnan(t) & (v / a > t / 20.0 * (1 + 1e-9))
         if np.any(bad):
             i = int(np.argmax(np.atleast_1d(bad)))
             m = float(np.atleast_1d(v / a)[i])
-            raise BadInput("area_cm2", float(np.atleast_1d(a)[i]),
-                           f"the modulus V/A = {m:.2f} cm is above half the thickness "
-                           f"({float(np.atleast_1d(t)[i]) / 20.0:.2f} cm), more than a plate of that "
-                           "thickness cooling on both faces can have; check the units (cm², cm³, mm)")
+            half = float(np.atleast_1d(t)[i]) / 20.0
+            refuse("area_cm2", float(np.atleast_1d(a)[i]),
+                   f"the modulus V/A = {units.show('length_cm', m, system, 2)} is above half the thickness "
+                   f"({units.show('length_cm', half, system, 2)}), more than a plate of that "
+                   f"thickness cooling on both faces can have; check the units ({sym['area_cm2']}, "
+                   f"{sym['volume_cm3']}, {sym['thickness_mm']})")
 
 
 def _first_bad(arr, mask):
@@ -328,7 +341,7 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
                mould: str | None = None, pour_temp_c: float | None = None,
                thickness_mm: float | None = None, width_mm: float | None = None,
                length_mm: float | None = None, sleeve: dict | None = None,
-               rule_set: str | None = None) -> RiserSize:
+               rule_set: str | None = None, system: str = units.METRIC) -> RiserSize:
     """Size one riser (the scalar path: Caine's root by scipy's brentq).
 
     volume_cm3, area_cm2: the fed section's volume and cooling area.
@@ -343,6 +356,8 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
     SLEEVED_EFFICIENCY, a bare one with the alloy's bare-sand value.
     rule_set: judge by another rule set than the alloy's (RULE_SETS key), for
     a comparison.
+    system: the unit system (tracker.units) the notes and warnings word their
+    figures in; every number of the result stays metric.
     """
     from scipy.optimize import brentq
 
@@ -365,7 +380,7 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
     if sleeve is not None:
         sleeve_factor = float(sleeve["modulus_factor"])
     beta, liquid = rules.feed_fraction(alloy, mould, pour_temp_c, shrinkage)
-    validate_section(volume_cm3, area_cm2, thickness_mm)
+    validate_section(volume_cm3, area_cm2, thickness_mm, system)
     validate_design_options(h_over_d, sleeve_factor, modulus_factor)
     rules.check_efficiency(eff, beta, liquid)
     need = max(beta, 0.0) + liquid
@@ -397,7 +412,7 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
     neck = float(suggested_neck_mm(alloy, mc, placement))
     pc = alloy.rule_set == "pressure_control"
     needed = not (pc and bool(rules.riserless_possible(mc, mould)))
-    warn = geometry.joined_faces_warning(vc, float(area_cm2))
+    warn = geometry.joined_faces_warning(vc, float(area_cm2), system)
     notes = []
     if pc:
         notes.append(f"pressure control ({mould.replace('_', ' ')} mould): the riser feeds the liquid "
@@ -405,7 +420,9 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
                      "graphite expansion starts; the neck freezes then (modulus "
                      f"{rules.PC_NECK_RATIO[0]:g}-{rules.PC_NECK_RATIO[1]:g} x the section's)")
         if not needed:
-            notes.append(f"section modulus {mc:.2f} cm >= {rules.PC_RISERLESS_MODULUS_CM:g} cm in a rigid "
+            limit = (f"{rules.PC_RISERLESS_MODULUS_CM:g} cm" if system != units.US
+                     else units.show("length_cm", rules.PC_RISERLESS_MODULUS_CM, system, 2))
+            notes.append(f"section modulus {units.show('length_cm', mc, system, 2)} >= {limit} in a rigid "
                          "mould: the section may be cast without a riser (Karsay, from memory)")
     fd = fd_ok = None
     shape = ""
@@ -418,8 +435,9 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
         notes.append("feeding distance not judged (the published rule is for steel)")
     elif fd is None or fd_ok is None:
         notes.append("feeding distance not judged (give "
-                     + ", ".join(n for n, v in (("--thickness-mm", thickness_mm), ("--width-mm", width_mm),
-                                                ("--length-mm", length_mm)) if v is None) + ")")
+                     + ", ".join(units.option_name(n, system) for n, v in
+                                 (("thickness_mm", thickness_mm), ("width_mm", width_mm),
+                                  ("length_mm", length_mm)) if v is None) + ")")
     return RiserSize(
         alloy=alloy.key, placement=placement, h_over_d=float(h_over_d),
         sleeve_factor=float(sleeve_factor), modulus_factor=float(modulus_factor),
@@ -441,7 +459,7 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
         neck_modulus_cm=None if np.isnan(neck) else neck / 40.0,
         riser_needed=needed, thickness_mm=thickness_mm, width_mm=width_mm, section_shape=shape,
         feeding_distance_mm=fd, feeding_length_mm=length_mm, feeding_distance_ok=fd_ok,
-        source="; ".join(x for x in (alloy.source, alloy.liquid_source, RULE_SET_SOURCES[alloy.rule_set]) if x),
+        source="; ".join(x for x in (alloy.source, alloy.liquid_source, rule_set_source(alloy.rule_set, system)) if x),
         warnings=(warn,) if warn else (), notes=tuple(notes),
     )
 
@@ -454,6 +472,19 @@ def round_up_diameter(size: RiserSize, step_mm: float) -> dict:
     d = math.ceil(size.diameter_mm / step_mm - 1e-9) * step_mm
     h = size.h_over_d * d
     return {"step_mm": float(step_mm), "rounded_diameter_mm": float(d), "rounded_height_mm": float(h),
+            "rounded_riser_volume_cm3": float(geometry.cylinder_volume(d / 10.0, h / 10.0))}
+
+
+def round_up_to_step(size: RiserSize, step: float, system: str = units.METRIC) -> dict:
+    """The sized riser rounded up to the shop's diameter step given in the unit
+    of ``system`` (mm, or in on the inch grid: a 1/2 in step gives multiples of
+    12.7 mm); the same keys as :func:`round_up_diameter`, all metric."""
+    if system != units.US:
+        return round_up_diameter(size, step)
+    d = units.round_up("diameter_mm", size.diameter_mm, step, system)
+    h = size.h_over_d * d
+    return {"step_mm": float(units.value_from("diameter_mm", step, system)), "rounded_diameter_mm": float(d),
+            "rounded_height_mm": float(h),
             "rounded_riser_volume_cm3": float(geometry.cylinder_volume(d / 10.0, h / 10.0))}
 
 

@@ -70,10 +70,10 @@ KINDS = {k.name: k for k in (
     Kind("temp_c", "°C", "°F", "_c", "_f", lambda x: x * F_PER_K + 32.0, lambda x: (x - 32.0) / F_PER_K),
     Kind("temp_diff_k", "K", "°F", "_k", "_f", lambda x: x * F_PER_K, lambda x: x / F_PER_K),
     Kind("temp_diff_c", "°C", "°F", "_c", "_f", lambda x: x * F_PER_K, lambda x: x / F_PER_K),
-    # The Niyama criterion G / sqrt(cooling rate), published in (°C·min)^0.5/cm: in °F and
-    # inches G takes × 1.8 × 2.54 and the rate × 1.8 under the root, so × 2.54 × sqrt(1.8).
+    # The Niyama criterion G / sqrt(dT/dt): (K/cm) / (K/min)^0.5 = K^0.5 min^0.5 / cm; in US
+    # units (°F/in) / (°F/min)^0.5, so x sqrt(1.8) for the temperature and x 2.54 for per cm -> per in.
     Kind("niyama", "(°C·min)^0.5/cm", "(°F·min)^0.5/in", "_niyama", "_niyama",
-         *_scale(1.0 / (CM_PER_IN * F_PER_K ** 0.5))),
+         lambda x: x * F_PER_K ** 0.5 * CM_PER_IN, lambda x: x / (F_PER_K ** 0.5 * CM_PER_IN)),
 )}
 
 # Temperatures are never guessed from a suffix ("_c" also ends names such as a
@@ -108,22 +108,30 @@ def kind_of(name: str) -> Kind | None:
     ``None`` when it carries no unit that converts (counts, ratios, money, %)."""
     if name in TEMPERATURES:
         return KINDS[TEMPERATURES[name]]
-    if name in KINDS:  # a kind's own name ("niyama", "per_kg")
-        return KINDS[name]
     for suffix, kind in _SUFFIXES:
         if name.endswith(suffix) and len(name) > len(suffix):
+            return KINDS[kind]
+    for infix, kind in _INFIXES.items():
+        if infix in name:
             return KINDS[kind]
     return None
 
 
+# A mass per item names its unit inside the name: added_metal_kg_per_mold.
+_INFIXES = {"_kg_per_": "mass_kg"}
+
+
 def column_name(metric_name: str, system: str) -> str:
     """The name a metric column or key takes in ``system``:
-    ``column_name("diameter_mm", "us") == "diameter_in"``."""
+    ``column_name("diameter_mm", "us") == "diameter_in"``,
+    ``column_name("added_metal_kg_per_mold", "us") == "added_metal_lb_per_mold"``."""
     kind = kind_of(metric_name)
-    if system != US or kind is None or not metric_name.endswith(kind.metric_suffix) \
-            or len(metric_name) <= len(kind.metric_suffix):  # a kind's own name is no column
+    if system != US or kind is None:
         return metric_name
-    return metric_name[: -len(kind.metric_suffix)] + kind.us_suffix
+    if metric_name in TEMPERATURES or metric_name.endswith(kind.metric_suffix):
+        return metric_name[: -len(kind.metric_suffix)] + kind.us_suffix
+    infix = next(i for i, k in _INFIXES.items() if k == kind.name and i in metric_name)
+    return metric_name.replace(infix, "_lb_per_", 1)
 
 
 def us_names(metric_names) -> dict[str, str]:
@@ -200,3 +208,90 @@ def default_step_mm(system: str) -> float:
     """The shop's diameter step for rounding a riser up: 10 mm in metric
     (common practice), 1/2 in = 12.7 mm in US shops (common practice)."""
     return 0.5 * MM_PER_IN if system == US else 10.0
+
+
+# Decimals a value shows by default, per kind and system: a few tenths of a
+# millimetre matter nowhere in a riser, a hundredth of an inch is about 0.25 mm.
+_DIGITS = {
+    ("length_mm", METRIC): 0, ("length_mm", US): 2,
+    ("length_cm", METRIC): 2, ("length_cm", US): 2,
+    ("area_cm2", METRIC): 0, ("area_cm2", US): 1,
+    ("volume_cm3", METRIC): 0, ("volume_cm3", US): 1,
+    ("mass_kg", METRIC): 2, ("mass_kg", US): 2,
+    ("per_kg", METRIC): 2, ("per_kg", US): 2,
+    ("temp_c", METRIC): 0, ("temp_c", US): 0,
+    ("temp_diff_k", METRIC): 0, ("temp_diff_k", US): 0,
+    ("temp_diff_c", METRIC): 0, ("temp_diff_c", US): 0,
+    ("niyama", METRIC): 2, ("niyama", US): 2,
+}
+
+
+def _kind(metric_name_or_kind: str) -> Kind:
+    kind = KINDS.get(metric_name_or_kind) or kind_of(metric_name_or_kind)
+    if kind is None:
+        raise KeyError(f"{metric_name_or_kind} carries no unit")
+    return kind
+
+
+def value_in(metric_name_or_kind: str, value, system: str):
+    """A metric value of a named quantity or a kind (``"length_mm"``) in ``system``."""
+    if value is None or system != US:
+        return value
+    return _kind(metric_name_or_kind).to_us(value)
+
+
+def value_from(metric_name_or_kind: str, value, system: str):
+    """A value typed in ``system`` for a named quantity or a kind, in metric."""
+    if value is None or system != US:
+        return value
+    return _kind(metric_name_or_kind).to_metric(value)
+
+
+def number(metric_name_or_kind: str, value, system: str, digits: int | None = None) -> str:
+    """A metric value as text in ``system``, without its unit: ``number("diameter_mm",
+    127.0, "us") == "5.00"``; ``digits`` decimals (default: the kind's usual)."""
+    kind = _kind(metric_name_or_kind)
+    if digits is None:
+        digits = _DIGITS[(kind.name, system if system == US else METRIC)]
+    return f"{value_in(kind.name, float(value), system):,.{digits}f}"
+
+
+def show(metric_name_or_kind: str, value, system: str, digits: int | None = None) -> str:
+    """A metric value as text in ``system`` with its unit: ``show("diameter_mm",
+    127.0, "us") == "5.00 in"``, ``show("pour_temp_c", 1600, "us") == "2,912 °F"``."""
+    kind = _kind(metric_name_or_kind)
+    return f"{number(kind.name, value, system, digits)} {kind.symbol(system)}"
+
+
+def label(text: str, metric_name_or_kind: str, system: str) -> str:
+    """A heading naming its unit: ``label("Riser diameter", "diameter_mm", "us")
+    == "Riser diameter (in)"``."""
+    return f"{text} ({symbol(metric_name_or_kind, system)})"
+
+
+def option_name(metric_name: str, system: str) -> str:
+    """The command-line option of a metric quantity in ``system``:
+    ``option_name("volume_cm3", "us") == "--volume-in3"``."""
+    return "--" + column_name(metric_name, system).replace("_", "-")
+
+
+def round_up(metric_name: str, value, step, system: str) -> float:
+    """A metric value rounded up to a step given in ``system``'s unit (a shop's
+    diameter step: 10 mm, or 1/2 in = 12.7 mm on the inch grid); metric out."""
+    import math
+
+    if not (step > 0):
+        raise BadInput(column_name("step" + _kind(metric_name).metric_suffix, system), step,
+                       "the diameter step must be above 0 (for example "
+                       + ("1/2 in: 0.5)" if system == US else "10 mm)"))
+    shown = value_in(metric_name, float(value), system)
+    return value_from(metric_name, math.ceil(shown / step - 1e-9) * step, system)
+
+
+def say(metric_name_or_kind: str, value, system: str, metric_format: str = ".0f") -> str:
+    """A figure with its unit inside a sentence: in metric exactly as the text
+    always wrote it (``f"{value:{metric_format}} mm"``), in US in the kind's
+    usual decimals (``"5.12 in"``, ``"2,912 °F"``)."""
+    if system != US:
+        return f"{value:{metric_format}} {_kind(metric_name_or_kind).metric_symbol}"
+    return show(metric_name_or_kind, value, system)

@@ -18,7 +18,7 @@ import sys
 import click
 import numpy as np
 
-from tracker import __version__, limits
+from tracker import __version__, limits, units
 from tracker.alloys import ALLOYS
 from tracker.cautions import SAFETY_CAUTION_SHORT
 from tracker.errors import PourbackError
@@ -137,6 +137,56 @@ weeks_option = click.option("--weeks", type=int, default=limits.WEEKS_DEFAULT, s
                             help=limits.WEEKS_HELP)
 target_option = click.option("--target", type=float, default=limits.TARGET_DEFAULT, show_default=True,
                              help=limits.TARGET_HELP)
+
+
+# --- unit systems ---------------------------------------------------------------------
+
+units_option = click.option(
+    "--units", "units_override", type=click.Choice(list(units.SYSTEMS), case_sensitive=False), default=None,
+    help="Unit system numbers are typed and shown in: metric (mm, cm³, kg, °C) or us (in, in³, lb, °F) "
+         "(default: the log's setting, see `pourback settings`; metric without a log).")
+
+
+def measure_option(metric_name: str, help: str, **kwargs):
+    """Two options for one measured quantity: the metric one (``--volume-cm3``)
+    and its US customary twin (``--volume-in3``); ``help`` holds ``{unit}``.
+    The command reads both through :func:`take_measures`."""
+    us_name = units.column_name(metric_name, units.US)
+
+    def deco(fn):
+        fn = click.option(units.option_name(metric_name, units.US), us_name, type=float, default=None,
+                          help=help.format(unit=units.symbol(metric_name, units.US)) + " (--units us)",
+                          **kwargs)(fn)
+        return click.option(units.option_name(metric_name, units.METRIC), metric_name, type=float,
+                            default=None, help=help.format(unit=units.symbol(metric_name, units.METRIC)),
+                            **kwargs)(fn)
+    return deco
+
+
+def take_measures(system: str, values: dict, *metric_names: str) -> dict:
+    """The measures of ``metric_names`` in metric, from the options of ``system``
+    (removed from ``values``, a command's keyword arguments). An option of the
+    other system is refused, naming the one to give instead."""
+    out = {}
+    for name in metric_names:
+        us_name = units.column_name(name, units.US)
+        given = {units.METRIC: values.pop(name, None), units.US: values.pop(us_name, None)}
+        other = units.METRIC if system == units.US else units.US
+        if given[other] is not None:
+            raise click.UsageError(
+                f"{units.option_name(name, other)} is in {other} units ({units.symbol(name, other)}) but "
+                f"this command works in {system} (the log's setting or --units); give "
+                f"{units.option_name(name, system)} ({units.symbol(name, system)}) instead, or add "
+                f"--units {other}")
+        out[name] = units.value_from(name, given[system], system)
+    return out
+
+
+def resolve_units(store, override) -> str:
+    """The unit system of a command: ``--units``, else the log's, else metric."""
+    from tracker.settings import resolve_units as resolve
+
+    return resolve(store, override)
 
 
 # --- progress on standard error ----------------------------------------------------------

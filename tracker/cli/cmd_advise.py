@@ -6,8 +6,10 @@ import click
 
 from tracker.settings import DEFAULT_CURRENCY, currency
 
-from tracker.cli import (Steps, caution_text, db_option, emit, handle_errors, json_option, main, open_store,
-                         show_progress, table, target_option, week_option, weeks_option)
+from tracker import units
+from tracker.cli import (Steps, caution_text, db_option, emit, handle_errors, json_option, main, measure_option,
+                         open_store, resolve_units, show_progress, table, take_measures, target_option,
+                         units_option, week_option, weeks_option)
 
 
 def _pct(v, digits: int = 1) -> str | None:
@@ -33,17 +35,19 @@ basis_note = ("Money basis: the predicted rates now and after are both the rejec
 @target_option
 @week_option
 @weeks_option
-@click.option("--step-mm", type=float, default=10.0, show_default=True,
-              help="The shop's standard riser diameter step, mm.")
+@measure_option("step_mm", "The shop's standard riser diameter step, {unit} (default 10 mm, or 1/2 in "
+                "in us units).")
 @remelt_option
 @click.option("--refit", is_flag=True, help="Refit the reject model before suggesting.")
 @click.option("--thermal/--no-thermal", default=None,
               help="Check each chosen riser by a solidification solve, taking the next candidate where it "
                    "fails (default: on when the solves of all problem zones fit in a minute).")
+@units_option
 @db_option
 @json_option
 @handle_errors
-def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, thermal, db_path, as_json):
+def suggest(pattern, target, week, weeks, remelt_charge, refit, thermal, units_override, db_path, as_json,
+            **measures):
     """Suggest riser changes for problem patterns, with yield and money.
 
     For each zone with shrinkage above the target: enlarge the riser (in
@@ -66,21 +70,29 @@ def suggest(pattern, target, week, weeks, step_mm, remelt_charge, refit, thermal
     from tracker.advise import suggest as run
 
     with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
+        system = resolve_units(store, units_override)
+        step_mm = take_measures(system, measures, "step_mm")["step_mm"]
+        step_mm = units.default_step_mm(system) if step_mm is None else step_mm
         steps.step("Suggesting riser changes" + (" (refitting the model first)" if refit else ""))
         rows = run(store, pattern=pattern, target=target, week=week, weeks=weeks, step_mm=step_mm, refit=refit,
-                   remelt_charge=remelt_charge, thermal=thermal)
+                   remelt_charge=remelt_charge, thermal=thermal, system=system)
         code = currency(store)
-    emit(rows, as_json, lambda found: _format(found, code))
+    rows = [units.convert_record(r, system) for r in rows]
+    emit(rows, as_json, lambda found: _format(found, code, system))
 
 
-def _format(rows: list[dict], code: str = DEFAULT_CURRENCY) -> str:
+def _format(rows: list[dict], code: str = DEFAULT_CURRENCY, system: str = units.METRIC) -> str:
     if not rows:
         return "No suggestions: no problem pattern in the review window.\n\n" + caution_text()
     show = []
+    key = {k: units.column_name(k, system) for k in
+           ("current_diameter_mm", "suggested_diameter_mm", "added_metal_kg_per_mold")}
+    digits = ".0f" if system != units.US else ".2f"
     for r in rows:
         change = "-"
         if r["action"] != "no_riser_change":
-            change = f"{r['current_diameter_mm']:.0f} -> {r['suggested_diameter_mm']:.0f} mm"
+            change = (f"{r[key['current_diameter_mm']]:{digits}} -> {r[key['suggested_diameter_mm']]:{digits}} "
+                      f"{units.symbol('diameter_mm', system)}")
             if r.get("suggested_sleeve"):
                 change += f" + {r['suggested_sleeve']}"
         changed = r["action"] != "no_riser_change"
@@ -95,7 +107,9 @@ def _format(rows: list[dict], code: str = DEFAULT_CURRENCY) -> str:
                      "pays": ("yes" if r["pays_off"] else "no") if changed else None})
     out = [table(show, [("pattern", "pattern"), ("zone", "zone"), ("riser", "riser"), ("action", "action"),
                         ("change", "change"), ("observed", "observed now"), ("now", "predicted now"),
-                        ("after", "predicted after"), ("added_metal_kg_per_mold", "added metal (kg/mould)"),
+                        ("after", "predicted after"),
+                        (key["added_metal_kg_per_mold"],
+                         f"added metal ({units.symbol('added_metal_kg_per_mold', system)}/mould)"),
                         ("yield", "yield"), ("saved", f"scrap saved ({code}/yr)"),
                         ("extra", f"extra cost ({code}/yr)"), ("balance", f"balance ({code}/yr)"),
                         ("pays", "pays off")])]
@@ -112,10 +126,9 @@ def _format(rows: list[dict], code: str = DEFAULT_CURRENCY) -> str:
 @main.command("what-if")
 @click.option("--pattern", required=True, help="Pattern code.")
 @click.option("--riser", required=True, help="Riser code in the pattern's current revision.")
-@click.option("--diameter-mm", type=float, default=None,
-              help="New diameter, mm (keeps H/D unless --height-mm). With a sleeve: the catalogue's sleeve "
-                   "of the same kind and this inner diameter.")
-@click.option("--height-mm", type=float, default=None, help="New height, mm.")
+@measure_option("diameter_mm", "New diameter, {unit} (keeps H/D unless a new height is given). With a "
+                "sleeve: the catalogue's sleeve of the same kind and this inner diameter.")
+@measure_option("height_mm", "New height, {unit}.")
 @click.option("--sleeve", default="keep", show_default=True,
               help="Catalogue sleeve code, 'none' for a bare riser, or keep.")
 @week_option
@@ -123,10 +136,12 @@ def _format(rows: list[dict], code: str = DEFAULT_CURRENCY) -> str:
 @remelt_option
 @click.option("--thermal", is_flag=True,
               help="Add the thermal check of the changed riser (a solidification solve): thermal_ok, last_to_freeze.")
+@units_option
 @db_option
 @json_option
 @handle_errors
-def what_if(pattern, riser, diameter_mm, height_mm, sleeve, week, weeks, remelt_charge, thermal, db_path, as_json):
+def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, units_override, db_path, as_json,
+            **measures):
     """Show the margins, predicted rate, yield and money of a changed riser.
 
     The money is priced as in `suggest`, on the same basis: the reject
@@ -140,18 +155,21 @@ def what_if(pattern, riser, diameter_mm, height_mm, sleeve, week, weeks, remelt_
     from tracker.advise import what_if as run
 
     with open_store(db_path) as store:
-        r = run(store, pattern, riser, diameter_mm=diameter_mm, height_mm=height_mm, sleeve=sleeve, week=week,
-                weeks=weeks, remelt_charge=remelt_charge)
+        system = resolve_units(store, units_override)
+        m = take_measures(system, measures, "diameter_mm", "height_mm")
+        r = run(store, pattern, riser, diameter_mm=m["diameter_mm"], height_mm=m["height_mm"], sleeve=sleeve,
+                week=week, weeks=weeks, remelt_charge=remelt_charge, system=system)
         if thermal:
             from tracker.thermal.checks import what_if_fields
 
             t = what_if_fields(store, r)
             r.update(thermal_ok=t["thermal_ok"], last_to_freeze=t["last_to_freeze"])
         code = currency(store)
-    emit(r, as_json, lambda found: _what_if_text(found, code))
+    r = units.convert_record(r, system)
+    emit(r, as_json, lambda found: _what_if_text(found, code, system))
 
 
-def _what_if_text(r: dict, code: str = DEFAULT_CURRENCY) -> str:
+def _what_if_text(r: dict, code: str = DEFAULT_CURRENCY, system: str = units.METRIC) -> str:
     from tracker.assess import rule_words
 
     rows = [{"figure": k.replace("_", " "), "now": r.get(k + "_now"), "changed": r[k]} for k in
@@ -166,11 +184,16 @@ def _what_if_text(r: dict, code: str = DEFAULT_CURRENCY) -> str:
              {"per year": f"sleeves ({code})", "value": _money(r["sleeve_cost_per_year"])},
              {"per year": f"balance ({code})", "value": _money(r["yearly_balance"])}]
     also = [x for x in r["changed_risers"] if x != r["riser"]]
-    return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {r['diameter_mm']:.0f} x "
-            f"{r['height_mm']:.0f} mm" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
+    def v(name):
+        return r[units.column_name(name, system)]
+
+    size = (f"{v('diameter_mm'):.0f} x {v('height_mm'):.0f} mm" if system != units.US else
+            f"{v('diameter_mm'):.2f} x {v('height_mm'):.2f} in")
+    return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {size}" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
             + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + rule_words(r['failed_rules'])}"
             + f" (rule set: {r['rule_set'].replace('_', ' ')})"
-            f"\nadded metal per mould: {r['added_metal_kg_per_mold']:.2f} kg"
+            f"\nadded metal per mould: {v('added_metal_kg_per_mold'):.2f} "
+            f"{units.symbol('added_metal_kg_per_mold', system)}"
             + (f"\nthermal check: {'pass' if r['thermal_ok'] else 'fail'}, last to freeze: {r['last_to_freeze']}"
                if "thermal_ok" in r else "") + "\n\n"
             + table(money) + "\npays off: " + ("yes" if r["pays_off"] else "no" if r["changed"] else "- (no change)")

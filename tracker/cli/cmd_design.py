@@ -2,17 +2,24 @@
 
 from __future__ import annotations
 
+import contextlib
+
 import click
 
 from tracker.alloys import ALLOYS
 from tracker.cautions import SAFETY_CAUTION
-from tracker.cli import caution_text, db_option, emit, handle_errors, json_option, main, open_store, table
+from tracker import units
+from tracker.cli import (caution_text, db_option, emit, handle_errors, json_option, main, measure_option,
+                         open_store, resolve_units, table, take_measures, units_option)
+
+SIZE_MEASURES = ("volume_cm3", "area_cm2", "pour_temp_c", "thickness_mm", "width_mm", "length_mm", "step_mm")
+
 
 @main.command()
 @click.option("--alloy", default=None, metavar="ALLOY",
               help="Alloy family: " + ", ".join(sorted(ALLOYS)) + " (default with --zone: the pattern's).")
-@click.option("--volume-cm3", type=float, default=None, help="Volume of the fed section, cm³.")
-@click.option("--area-cm2", type=float, default=None, help="Cooling area of the fed section, cm².")
+@measure_option("volume_cm3", "Volume of the fed section, {unit}.")
+@measure_option("area_cm2", "Cooling area of the fed section, {unit}.")
 @click.option("--pattern", default=None, help="Take the section from this pattern's zone in the log (with --zone).")
 @click.option("--zone", default=None, help="The zone of --pattern: its volume, cooling area, thickness, "
               "width, length, alloy and mould come from the log.")
@@ -31,26 +38,23 @@ from tracker.cli import caution_text, db_option, emit, handle_errors, json_optio
                    "without one; else the alloy's bare sand value).")
 @click.option("--shrinkage", type=float, default=None,
               help="Volumetric solidification shrinkage, fraction (default: the alloy's value).")
-@click.option("--pour-temp-c", type=float, default=None,
-              help="Pour temperature, °C, for the liquid contraction (default: liquidus + the alloy's "
-                   "usual superheat).")
+@measure_option("pour_temp_c", "Pour temperature, {unit}, for the liquid contraction (default: liquidus + "
+                "the alloy's usual superheat).")
 @click.option("--mould", type=click.Choice(["green_sand", "rigid"]), default=None,
               help="Mould rigidity, for ductile iron's pressure control (default: the pattern's, "
                    "else green_sand).")
-@click.option("--thickness-mm", type=float, default=None, help="Section thickness, mm (checks V/A <= T/2; "
-              "with width, the feeding distance).")
-@click.option("--width-mm", type=float, default=None, help="Section width, mm (bar or plate feeding distance).")
-@click.option("--length-mm", type=float, default=None, help="Feeding length from the riser to the farthest "
-              "point it feeds, mm.")
-@click.option("--step-mm", type=float, default=None,
-              help="The shop's diameter step, mm: the answer is also rounded up to it (default with "
-                   "--zone: 10).")
+@measure_option("thickness_mm", "Section thickness, {unit} (checks V/A <= T/2; with width, the feeding "
+                "distance).")
+@measure_option("width_mm", "Section width, {unit} (bar or plate feeding distance).")
+@measure_option("length_mm", "Feeding length from the riser to the farthest point it feeds, {unit}.")
+@measure_option("step_mm", "The shop's diameter step, {unit}: the answer is also rounded up to it (default "
+                "with --zone: 10 mm, or 1/2 in with --units us).")
+@units_option
 @db_option
 @json_option
 @handle_errors
-def size(alloy, volume_cm3, area_cm2, pattern, zone, placement, h_over_d, sleeve_code, sleeve_factor,
-         modulus_factor, efficiency, shrinkage, pour_temp_c, mould, thickness_mm, width_mm, length_mm,
-         step_mm, db_path, as_json):
+def size(alloy, pattern, zone, placement, h_over_d, sleeve_code, sleeve_factor, modulus_factor, efficiency,
+         shrinkage, mould, units_override, db_path, as_json, **measures):
     """Size the smallest cylindrical riser that meets every rule.
 
     The riser must pass its alloy's rule set: the modulus rule, Caine's curve
@@ -59,73 +63,121 @@ def size(alloy, volume_cm3, area_cm2, pattern, zone, placement, h_over_d, sleeve
     (the riser outlasts a neck that freezes as graphite expansion starts, and
     holds the liquid contraction). The output says which rule set judged it.
 
+    Numbers are typed and shown in the log's unit system (with --db or
+    --pattern), else metric; --units us takes and gives inches, in², in³,
+    lb and °F (--volume-in3, --area-in2, --step-in ...).
+
     Example:
 
         pourback size --alloy steel --volume-cm3 2000 --area-cm2 1100 --placement side
 
         pourback size --pattern P-1004 --zone body --step-mm 10
-    """
-    from tracker.sizing import round_up_diameter, size_riser, size_zone
 
-    if (pattern is None) != (zone is None):
-        raise click.UsageError("give --pattern and --zone together")
-    if pattern is None and (alloy is None or volume_cm3 is None or area_cm2 is None):
-        raise click.UsageError("give --alloy, --volume-cm3 and --area-cm2, or --pattern and --zone")
-    if pattern is not None and (volume_cm3 is not None or area_cm2 is not None):
-        raise click.UsageError("--volume-cm3 and --area-cm2 come from the zone; leave them out with --zone")
-    opts = dict(placement=placement, h_over_d=h_over_d, sleeve_factor=sleeve_factor,
-                modulus_factor=modulus_factor, efficiency=efficiency, shrinkage=shrinkage,
-                mould=mould, pour_temp_c=pour_temp_c, thickness_mm=thickness_mm, width_mm=width_mm,
-                length_mm=length_mm)
-    if pattern is not None or sleeve_code is not None:
-        with open_store(db_path) as store:
-            if sleeve_code is not None:
-                opts["sleeve"] = store.sleeve(sleeve_code)
-            if pattern is not None:
-                r = size_zone(store, pattern, zone, alloy=alloy.lower() if alloy else None, **opts)
-                step_mm = 10.0 if step_mm is None else step_mm
+        pourback size --units us --alloy steel --volume-in3 122 --area-in2 170 --step-in 0.5
+    """
+    from tracker.sizing import round_up_to_step, size_riser, size_zone
+
+    uses_log = pattern is not None or sleeve_code is not None
+    with contextlib.ExitStack() as stack:
+        # the log is read for its unit system where it is there; a missing one is an
+        # error only where the command needs it (after the checks of the options)
+        store = stack.enter_context(open_store(db_path)) if _log_exists(db_path) else None
+        system = resolve_units(store, units_override)
+        m = take_measures(system, measures, *SIZE_MEASURES)
+        opt = {k: units.option_name(k, system) for k in SIZE_MEASURES}
+        if (pattern is None) != (zone is None):
+            raise click.UsageError("give --pattern and --zone together")
+        if pattern is None and (alloy is None or m["volume_cm3"] is None or m["area_cm2"] is None):
+            raise click.UsageError(f"give --alloy, {opt['volume_cm3']} and {opt['area_cm2']}, "
+                                   "or --pattern and --zone")
+        if pattern is not None and (m["volume_cm3"] is not None or m["area_cm2"] is not None):
+            raise click.UsageError(f"{opt['volume_cm3']} and {opt['area_cm2']} come from the zone; leave them "
+                                   "out with --zone")
+        step = units.value_in("step_mm", m.pop("step_mm"), system)
+        opts = dict(placement=placement, h_over_d=h_over_d, sleeve_factor=sleeve_factor,
+                    modulus_factor=modulus_factor, efficiency=efficiency, shrinkage=shrinkage,
+                    mould=mould, pour_temp_c=m["pour_temp_c"], thickness_mm=m["thickness_mm"],
+                    width_mm=m["width_mm"], length_mm=m["length_mm"], system=system)
+        if uses_log and store is None:
+            store = stack.enter_context(open_store(db_path))  # says there is no log
+        if sleeve_code is not None:
+            opts["sleeve"] = store.sleeve(sleeve_code)
+        if pattern is not None:
+            r = size_zone(store, pattern, zone, alloy=alloy.lower() if alloy else None, **opts)
+            if step is None:
+                step = units.value_in("step_mm", units.default_step_mm(system), system)
     if pattern is None:
-        r = size_riser(volume_cm3, area_cm2, alloy.lower(), **opts)
+        r = size_riser(m["volume_cm3"], m["area_cm2"], alloy.lower(), **opts)
     data = r.to_dict()
     if pattern is not None:
         data["pattern"], data["zone"] = pattern, zone
-    if step_mm is not None:
-        data.update(round_up_diameter(r, step_mm))
+    if step is not None:
+        data.update(round_up_to_step(r, step, system))
     data["caution"] = SAFETY_CAUTION
-    emit(data, as_json, _format_size)
+    data = units.convert_record(data, system)
+    emit(data, as_json, lambda d: _format_size(d, system))
 
 
-def _format_size(d: dict) -> str:
+def _log_exists(db_path) -> bool:
+    """A log file is there to read the unit system from (size needs no log)."""
+    import pathlib
+
+    from tracker.store import resolve_path
+
+    path = resolve_path(db_path)
+    return path != ":memory:" and pathlib.Path(path).is_file()
+
+
+# Decimals per quantity shown by size: (metric, us)
+_SIZE_DIGITS = {"section_modulus_cm": (3, 3), "riser_modulus_cm": (3, 3), "diameter_mm": (1, 2),
+                "height_mm": (1, 2), "rounded_diameter_mm": (0, 2), "rounded_height_mm": (0, 2),
+                "riser_volume_cm3": (0, 1), "riser_weight_kg": (2, 2), "neck_diameter_mm": (0, 2),
+                "neck_modulus_cm": (2, 3), "pour_temp_c": (0, 0), "feeding_distance_mm": (0, 1)}
+
+
+def _format_size(d: dict, system: str = units.METRIC) -> str:
+    def v(name):  # the value of a metric key in the converted record
+        return d.get(units.column_name(name, system))
+
+    def f(name):  # the value as text in the system's usual decimals
+        return f"{v(name):.{_SIZE_DIGITS[name][system == units.US]}f}"
+
+    def u(name):
+        return units.symbol(name, system)
+
     rows = [("Pattern, zone", f"{d['pattern']}, {d['zone']}")] if d.get("pattern") else []
     rows += [
         ("Alloy", d["alloy"]),
         ("Rule set", d["rule_set_text"]),
         ("Placement", f"{d['placement']} riser, H/D {d['h_over_d']:g}"),
         ("Sleeve factor", f"{d['sleeve_factor']:g}" + (f" (sleeve {d['sleeve']})" if d.get("sleeve") else "")),
-        ("Section modulus (cm)", f"{d['section_modulus_cm']:.3f}"),
-        ("Riser diameter (mm)", f"{d['diameter_mm']:.1f}"),
+        (f"Section modulus ({u('section_modulus_cm')})", f("section_modulus_cm")),
+        (f"Riser diameter ({u('diameter_mm')})", f("diameter_mm")),
     ]
-    if d.get("rounded_diameter_mm") is not None:
-        rows += [(f"Rounded up to the {d['step_mm']:g} mm step (mm)",
-                  f"{d['rounded_diameter_mm']:.0f} x {d['rounded_height_mm']:.0f} high")]
+    if v("rounded_diameter_mm") is not None:
+        rows += [(f"Rounded up to the {v('step_mm'):g} {u('step_mm')} step ({u('diameter_mm')})",
+                  f"{f('rounded_diameter_mm')} x {f('rounded_height_mm')} high")]
     rows += [
-        ("Riser height (mm)", f"{d['height_mm']:.1f}"),
-        ("Riser volume (cm³)", f"{d['riser_volume_cm3']:.0f}"),
-        ("Riser weight (kg)", f"{d['riser_weight_kg']:.2f}"),
-        ("Riser modulus, effective (cm)", f"{d['riser_modulus_cm']:.3f}"),
+        (f"Riser height ({u('height_mm')})", f("height_mm")),
+        (f"Riser volume ({u('riser_volume_cm3')})", f("riser_volume_cm3")),
+        (f"Riser weight ({u('riser_weight_kg')})", f("riser_weight_kg")),
+        (f"Riser modulus, effective ({u('riser_modulus_cm')})", f("riser_modulus_cm")),
         ("Freezing ratio X", f"{d['freezing_ratio']:.3f}"),
         ("Volume ratio Y", f"{d['volume_ratio']:.3f}"),
         ("Freezing time, riser / section", f"{d['freezing_time_ratio']:.2f}"),
     ]
-    if d.get("neck_diameter_mm") is not None:
-        rows.append(("Neck diameter (mm), round", f"{d['neck_diameter_mm']:.0f} (modulus {d['neck_modulus_cm']:.2f} cm)"))
-    if d.get("pour_temp_c") is not None:
-        rows.append(("Liquid contraction", f"{d['liquid_contraction']:.2%} (pour {d['pour_temp_c']:.0f} °C)"))
-    if d.get("feeding_distance_mm") is not None:
+    if v("neck_diameter_mm") is not None:
+        rows.append((f"Neck diameter ({u('neck_diameter_mm')})" + (", round" if system != units.US else ""),
+                     f"{f('neck_diameter_mm')} (modulus {f('neck_modulus_cm')} {u('neck_modulus_cm')})"))
+    if v("pour_temp_c") is not None:
+        rows.append(("Liquid contraction",
+                     f"{d['liquid_contraction']:.2%} (pour {f('pour_temp_c')} {u('pour_temp_c')})"))
+    if v("feeding_distance_mm") is not None:
         judged = ("not judged (no length)" if d["feeding_distance_ok"] is None
                   else ("passes" if d["feeding_distance_ok"] else "fails")
-                  + f" for {d['feeding_length_mm']:g} mm")
-        rows.append((f"Feeding distance, {d['section_shape']} (mm)", f"{d['feeding_distance_mm']:.0f}, {judged}"))
+                  + f" for {v('feeding_length_mm'):g} {u('feeding_length_mm')}")
+        rows.append((f"Feeding distance, {d['section_shape']} ({u('feeding_distance_mm')})",
+                     f"{f('feeding_distance_mm')}, {judged}"))
     if not d.get("riser_needed", True):
         rows.append(("Riser needed", "no: may be cast without a riser (rigid mould, heavy section)"))
     feed = f"eff. {d['efficiency']:.0%}, shrink {d['shrinkage']:.1%}"
@@ -134,16 +186,17 @@ def _format_size(d: dict) -> str:
     mod = (f"Modulus rule (x{d['modulus_factor']:g} the neck)" if d.get("rule_set") == "pressure_control"
            else f"Modulus rule (x{d['modulus_factor']:g})")
     mins = [
-        ("Caine's curve", d["caine_min_diameter_mm"]),
-        (mod, d["modulus_min_diameter_mm"]),
-        (f"Feed volume ({feed})", d["feed_min_diameter_mm"]),
+        ("Caine's curve", v("caine_min_diameter_mm")),
+        (mod, v("modulus_min_diameter_mm")),
+        (f"Feed volume ({feed})", v("feed_min_diameter_mm")),
     ]
     w = max([len(k) for k, _ in rows] + [len(k) + 2 for k, _ in mins])
-    out = [f"{k:<{w}}  {v}" for k, v in rows]
+    out = [f"{k:<{w}}  {val}" for k, val in rows]
     out.append("")
-    out.append("Smallest diameter by rule (mm):")
-    for (k, v), key in zip(mins, ("caine", "modulus", "feed_volume")):
-        val = "not applied (no Caine constants for this alloy)" if v is None else f"{v:.1f}"
+    out.append(f"Smallest diameter by rule ({u('diameter_mm')}):")
+    digits = _SIZE_DIGITS["diameter_mm"][system == units.US]
+    for (k, val), key in zip(mins, ("caine", "modulus", "feed_volume")):
+        val = "not applied (no Caine constants for this alloy)" if val is None else f"{val:.{digits}f}"
         mark = "  <- governs" if key == d["governing_rule"] else ""
         out.append(f"  {k:<{w - 2}}  {val}{mark}")
     for label, items in (("Warning", d.get("warnings") or []), ("Note", d.get("notes") or [])):
@@ -161,10 +214,11 @@ def _format_size(d: dict) -> str:
               help="Modulus rule factor: M_riser >= factor x M_section.")
 @click.option("--thermal", is_flag=True,
               help="Add the thermal check per riser (a solidification solve each): thermal_ok, last_to_freeze.")
+@units_option
 @db_option
 @json_option
 @handle_errors
-def check(pattern, on_date, modulus_factor, thermal, db_path, as_json):
+def check(pattern, on_date, modulus_factor, thermal, units_override, db_path, as_json):
     """Judge every riser of the current revision by the rules.
 
     For each riser: modulus ratio against the factor, Caine margin, feed
@@ -177,11 +231,13 @@ def check(pattern, on_date, modulus_factor, thermal, db_path, as_json):
     from tracker.assess import check as run_check
 
     with open_store(db_path) as store:
-        frame = run_check(store, pattern=pattern, on=on_date, modulus_factor=modulus_factor)
+        system = resolve_units(store, units_override)
+        frame = run_check(store, pattern=pattern, on=on_date, modulus_factor=modulus_factor, system=system)
         if thermal:
             from tracker.thermal.checks import thermal_columns
 
             frame = thermal_columns(store, frame)
+    frame = units.convert_frame(frame, system)
     rows = frame.astype(object).where(frame.notna(), None).to_dict("records")
     for r in rows:
         for k in ("caine_ok", "neck_ok", "feeding_distance_ok"):
@@ -192,7 +248,8 @@ def check(pattern, on_date, modulus_factor, thermal, db_path, as_json):
     shown = [{**r, "rule_set": (r["rule_set"] or "").replace("_", " ")} for r in rows]
     click.echo(table(shown, [
         ("pattern", "pattern"), ("revision", "rev"), ("riser", "riser"), ("zone", "zone"),
-        ("diameter_mm", "D (mm)"), ("sleeve", "sleeve"), ("modulus_ratio", "M ratio"),
+        (units.column_name("diameter_mm", system), f"D ({units.symbol('diameter_mm', system)})"),
+        ("sleeve", "sleeve"), ("modulus_ratio", "M ratio"),
         ("caine_margin", "Caine margin"), ("feed_margin", "feed margin"), ("rule_set", "rule set"),
         ("passes", "passes"), ("failed_rules_text", "fails")]
         + ([("thermal_ok", "thermal ok"), ("last_to_freeze", "last to freeze")] if thermal else [])))
@@ -202,10 +259,11 @@ def check(pattern, on_date, modulus_factor, thermal, db_path, as_json):
 
 
 @main.command()
+@units_option
 @db_option
 @json_option
 @handle_errors
-def patterns(db_path, as_json):
+def patterns(units_override, db_path, as_json):
     """List the patterns in the log with their alloy, weight and current riser revision.
 
     Example:
@@ -217,13 +275,16 @@ def patterns(db_path, as_json):
     from tracker.assess import revision_in_effect
 
     with open_store(db_path) as store:
+        system = resolve_units(store, units_override)
         frame = store.table("patterns")
         current = revision_in_effect(store.revisions_frame(), dt.date.today().isoformat())
+    frame = units.convert_frame(frame, system)
     rows = frame.astype(object).where(frame.notna(), None).to_dict("records")
     rev = {r.pattern: (r.revision, r.effective_from) for r in current.itertuples()}
     for r in rows:
         r["revision"], r["effective_from"] = rev.get(r["pattern"], (None, None))
     emit(rows, as_json, lambda rs: table(rs, [
         ("pattern", "pattern"), ("description", "description"), ("alloy", "alloy"),
-        ("casting_weight_kg", "casting (kg)"), ("castings_per_mold", "per mould"), ("mould", "mould"),
+        (units.column_name("casting_weight_kg", system), f"casting ({units.symbol('casting_weight_kg', system)})"),
+        ("castings_per_mold", "per mould"), ("mould", "mould"),
         ("revision", "riser revision"), ("effective_from", "since")]))

@@ -71,7 +71,7 @@ def settings(currency, system, db_path, as_json):
 
     Example:
 
-        pourback settings --currency USD --units us
+        pourback settings --db plant.db --currency USD --units us
     """
     from tracker import settings as log_settings
 

@@ -6,8 +6,8 @@ import pathlib
 
 import click
 
-from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, show_progress, target_option,
-                         week_option, weeks_option)
+from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, resolve_units, show_progress,
+                         target_option, units_option, week_option, weeks_option)
 from tracker.report import FORMATS
 
 
@@ -20,9 +20,10 @@ from tracker.report import FORMATS
 @click.option("--json", "as_json", is_flag=True, help="Shorthand for --format json.")
 @click.option("--out", "out_path", type=click.Path(dir_okay=False, writable=True), default=None,
               help="Write the review to this file instead of standard output.")
+@units_option
 @db_option
 @handle_errors
-def review(week, weeks, target, fmt, as_json, out_path, db_path):
+def review(week, weeks, target, fmt, as_json, out_path, units_override, db_path):
     """Weekly scrap review: scrap by pattern and defect, trend, control, riser revisions.
 
     Figures cover the review week and the weeks before it; problem patterns
@@ -38,12 +39,13 @@ def review(week, weeks, target, fmt, as_json, out_path, db_path):
     fmt = "json" if as_json else (fmt or "table")
 
     from tracker.report import render
-    from tracker.review import weekly_review
+    from tracker.review import in_system, weekly_review
 
     with Steps(show_progress(fmt == "json")) as steps:
         with open_store(db_path) as store:
+            system = resolve_units(store, units_override)
             steps.step(f"Reviewing {week or 'the latest week'} ({weeks} weeks)")
-            data = weekly_review(store, week=week, weeks=weeks, target=target)
+            data = in_system(weekly_review(store, week=week, weeks=weeks, target=target), system)
         steps.step(f"Writing the {fmt} review")
         text = render(data, fmt)
     if out_path:

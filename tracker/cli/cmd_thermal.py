@@ -5,7 +5,9 @@ from __future__ import annotations
 import click
 
 from tracker.alloys import ALLOYS
-from tracker.cli import caution_text, db_option, emit, handle_errors, json_option, main, open_store
+from tracker import units
+from tracker.cli import (caution_text, db_option, emit, handle_errors, json_option, main, measure_option, open_store,
+                         resolve_units, take_measures, units_option)
 from tracker.errors import BadInput
 
 _EXPLICIT = ("alloy", "length_mm", "width_mm", "thickness_mm", "diameter_mm", "height_mm", "placement")
@@ -16,27 +18,27 @@ _EXPLICIT = ("alloy", "length_mm", "width_mm", "thickness_mm", "diameter_mm", "h
 @click.option("--zone", default=None, help="Zone of the pattern fed by the riser.")
 @click.option("--riser", default=None, help="Riser feeding the zone (needed where several feed it).")
 @click.option("--alloy", default=None, metavar="ALLOY", help="Alloy family: " + ", ".join(sorted(ALLOYS)) + ".")
-@click.option("--length-mm", type=float, default=None, help="Section length, mm (side riser: from the riser to the far end).")
-@click.option("--width-mm", type=float, default=None, help="Section width, mm.")
-@click.option("--thickness-mm", type=float, default=None, help="Section thickness, mm.")
-@click.option("--diameter-mm", type=float, default=None, help="Riser diameter, mm.")
-@click.option("--height-mm", type=float, default=None, help="Riser height, mm.")
+@measure_option("length_mm", "Section length, {unit} (side riser: from the riser to the far end).")
+@measure_option("width_mm", "Section width, {unit}.")
+@measure_option("thickness_mm", "Section thickness, {unit}.")
+@measure_option("diameter_mm", "Riser diameter, {unit}.")
+@measure_option("height_mm", "Riser height, {unit}.")
 @click.option("--placement", type=click.Choice(["top", "side"]), default=None, help="Top or side riser.")
-@click.option("--neck-diameter-mm", type=float, default=None, help="Neck diameter, mm (none: the riser joins directly).")
+@measure_option("neck_diameter_mm", "Neck diameter, {unit} (none: the riser joins directly).")
 @click.option("--sleeve", default=None, help="Sleeve code from the log's catalogue (its modulus extension factor).")
 @click.option("--sleeve-factor", type=float, default=None, help="Sleeve modulus extension factor (1.0 bare sand).")
-@click.option("--pour-temp-c", type=float, default=None,
-              help="Pouring temperature, °C (default: the pattern's latest lot, else the alloy's default).")
+@measure_option("pour_temp_c", "Pouring temperature, {unit} (default: the pattern's latest lot, else the "
+                "alloy's default).")
 @click.option("--mould", type=click.Choice(["silica_sand", "chemically_bonded"]), default="silica_sand",
               show_default=True, help="Mould material.")
 @click.option("--cells-across", type=click.IntRange(4, 40), default=None,
               help="Cells across the section thickness (default 8; finer is slower).")
+@units_option
 @db_option
 @json_option
 @handle_errors
-def thermal(pattern, zone, riser, alloy, length_mm, width_mm, thickness_mm, diameter_mm, height_mm,
-            placement, neck_diameter_mm, sleeve, sleeve_factor, pour_temp_c, mould, cells_across,
-            db_path, as_json):
+def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould, cells_across, units_override,
+            db_path, as_json, **measures):
     """Solidification solve of one riser and the section it feeds.
 
     A 2-D transient conduction solve with latent heat (enthalpy method):
@@ -56,6 +58,20 @@ def thermal(pattern, zone, riser, alloy, length_mm, width_mm, thickness_mm, diam
     from tracker.thermal.cases import case_from_log
     from tracker.thermal.model import ThermalCase
 
+    if units_override is None and _log_exists(db_path):
+        with open_store(db_path) as store:
+            system = resolve_units(store, units_override)
+    else:  # a missing log is an error only where the command needs it
+        system = resolve_units(None, units_override)
+    names = ("length_mm", "width_mm", "thickness_mm", "diameter_mm", "height_mm", "neck_diameter_mm", "pour_temp_c")
+    m = take_measures(system, measures, *names)
+    opt = {k: units.option_name(k, system) for k in names}
+    for k in names[:-1]:
+        if m[k] is not None and not m[k] > 0:
+            raise BadInput(opt[k], units.value_in(k, m[k], system),
+                           f"must be a length above 0 {units.symbol(k, system)}")
+    length_mm, width_mm, thickness_mm, diameter_mm, height_mm, neck_diameter_mm, pour_temp_c = (m[k] for k in names)
+
     explicit = dict(alloy=alloy, length_mm=length_mm, width_mm=width_mm, thickness_mm=thickness_mm,
                     diameter_mm=diameter_mm, height_mm=height_mm, placement=placement)
     given = [k for k, v in explicit.items() if v is not None]
@@ -64,7 +80,8 @@ def thermal(pattern, zone, riser, alloy, length_mm, width_mm, thickness_mm, diam
             raise BadInput("pattern" if pattern is None else "zone", None,
                            "--pattern and --zone go together; give both")
         if given or neck_diameter_mm is not None or sleeve or sleeve_factor is not None:
-            raise BadInput("--" + (given[0] if given else "sleeve").replace("_", "-"), None,
+            raise BadInput(opt[given[0]] if given and given[0] in opt else "--" + (given[0] if given else "sleeve"),
+                           None,
                            "the geometry comes from the log with --pattern/--zone; leave the geometry options out")
         with open_store(db_path) as store:
             case = case_from_log(store, pattern, zone, riser, mould)
@@ -75,15 +92,15 @@ def thermal(pattern, zone, riser, alloy, length_mm, width_mm, thickness_mm, diam
             raise BadInput("riser", riser, "--riser needs --pattern and --zone")
         missing = [k for k in _EXPLICIT if explicit[k] is None]
         if missing:
-            raise BadInput("--" + missing[0].replace("_", "-"), None,
-                           "give --pattern and --zone, or all of --alloy, --length-mm, --width-mm, "
-                           "--thickness-mm, --diameter-mm, --height-mm and --placement")
+            raise BadInput(opt.get(missing[0], "--" + missing[0]), None,
+                           f"give --pattern and --zone, or all of --alloy, {opt['length_mm']}, {opt['width_mm']}, "
+                           f"{opt['thickness_mm']}, {opt['diameter_mm']}, {opt['height_mm']} and --placement")
         if sleeve and sleeve_factor is not None:
             raise BadInput("sleeve-factor", sleeve_factor, "give --sleeve or --sleeve-factor, not both")
         if neck_diameter_mm is not None and neck_diameter_mm > diameter_mm:
-            raise BadInput("neck-diameter-mm", neck_diameter_mm,
-                           f"a neck wider than the riser ({diameter_mm:g} mm) is not a neck; "
-                           "give at most the riser diameter")
+            raise BadInput(opt["neck_diameter_mm"].lstrip("-"), units.value_in("diameter_mm", neck_diameter_mm, system),
+                           f"a neck wider than the riser ({units.value_in('diameter_mm', diameter_mm, system):g} "
+                           f"{units.symbol('diameter_mm', system)}) is not a neck; give at most the riser diameter")
         factor = 1.0 if sleeve_factor is None else sleeve_factor
         if sleeve:
             with open_store(db_path) as store:
@@ -94,9 +111,25 @@ def thermal(pattern, zone, riser, alloy, length_mm, width_mm, thickness_mm, diam
                            sleeve_factor=factor, pour_temp_c=pour_temp_c, mould=mould)
     result = run(case, cells_across=cells_across, keep_maps=False)
     if as_json:
-        emit(result.to_dict(), True)
+        emit(thermal_record(result, system), True)
     else:
-        click.echo(format_thermal(result))
+        click.echo(format_thermal(result, system))
+
+
+def _log_exists(db_path) -> bool:
+    from tracker.cli.cmd_design import _log_exists as exists
+
+    return exists(db_path)
+
+
+def thermal_record(result, system: str) -> dict:
+    """``result.to_dict()`` in ``system``: the Niyama figures and unit converted."""
+    d = result.to_dict()
+    if system == units.US:
+        for k in ("min_niyama", "niyama_threshold"):
+            d[k] = units.value_in("niyama", d[k], system)
+        d["niyama_unit"] = units.symbol("niyama", system)
+    return d
 
 
 def _replace(case, **kw):
@@ -105,30 +138,42 @@ def _replace(case, **kw):
     return replace(case, **kw)
 
 
-def _mm(p) -> str:
-    return "-" if p is None else f"x {p[0]:.0f} mm, z {p[1]:.0f} mm"
+def _at(p, system: str = units.METRIC) -> str:
+    """A point (x, z) in mm, in ``system``."""
+    if p is None:
+        return "-"
+    if system != units.US:
+        return f"x {p[0]:.0f} mm, z {p[1]:.0f} mm"
+    return f"x {units.show('length_mm', p[0], system, 1)}, z {units.show('length_mm', p[1], system, 1)}"
 
 
-def format_thermal(r) -> str:
-    from tracker.thermal import THERMAL_CAUTION
+def format_thermal(r, system: str = units.METRIC) -> str:
+    from tracker.thermal import THERMAL_CAUTION, reasons_text
 
-    ny = "-" if r.min_niyama is None else f"{r.min_niyama:.2f} at {_mm(r.min_niyama_at_mm)}"
-    thr = "none (see source)" if r.niyama_threshold is None else f"{r.niyama_threshold:g}"
+    us = system == units.US
+    ny_value = units.value_in("niyama", r.min_niyama, system) if us else r.min_niyama
+    ny = "-" if r.min_niyama is None else f"{ny_value:.2f} at {_at(r.min_niyama_at_mm, system)}"
+    thr = ("none (see source)" if r.niyama_threshold is None else
+           units.number("niyama", r.niyama_threshold, system) if us else f"{r.niyama_threshold:g}")
+    length = units.symbol("length_mm", system)
     rows = [
         ("Case", r.case.label or f"{r.case.alloy}, {r.case.placement} riser"),
-        ("Model", f"{r.model} ({'r' if r.model == 'axisymmetric' else 'x'}, z in mm)"),
-        ("Grid (cells)", f"{r.grid[0]} x {r.grid[1]} = {r.cells}, {r.cell_mm:.1f} mm in the section"),
+        ("Model", f"{r.model} ({'r' if r.model == 'axisymmetric' else 'x'}, z in {length})"),
+        ("Grid (cells)", f"{r.grid[0]} x {r.grid[1]} = {r.cells}, "
+                         + (units.show("length_mm", r.cell_mm, system, 2) if us else f"{r.cell_mm:.1f} mm")
+                         + " in the section"),
         ("Time step (s)", f"{r.time_step_s:.2f} ({r.steps} steps)"),
-        ("Pouring temperature (°C)", f"{r.pour_temp_c:.0f}"),
+        (f"Pouring temperature ({units.symbol('pour_temp_c', system)})",
+         f"{units.value_in('pour_temp_c', r.pour_temp_c, system):.0f}"),
         ("Section freezing time (s)", f"{r.section_freeze_s:,.0f} ({r.section_freeze_s / 60:.1f} min)"),
         ("Riser freezing time (s)", f"{r.riser_freeze_s:,.0f} ({r.riser_freeze_s / 60:.1f} min)"),
         ("Freezing ratio riser / section", f"{r.freeze_ratio:.2f}"),
-        ("Last to freeze", f"{r.last_to_freeze} ({_mm(r.last_point_mm)})"),
+        ("Last to freeze", f"{r.last_to_freeze} ({_at(r.last_point_mm, system)})"),
         ("Isolated liquid in the section", ("yes" if r.isolated_liquid else "no")
-         + (f" ({r.isolated_share:.1%} of its volume at {_mm(r.isolated_at_mm)})" if r.isolated_share else "")),
-        (f"Minimum Niyama {r.niyama_unit}", ny),
+         + (f" ({r.isolated_share:.1%} of its volume at {_at(r.isolated_at_mm, system)})" if r.isolated_share else "")),
+        (f"Minimum Niyama {units.symbol('niyama', system) if us else r.niyama_unit}", ny),
         ("Niyama threshold", thr),
-        ("Thermal check", "pass" if r.thermal_ok else "FAIL: " + "; ".join(r.reasons)),
+        ("Thermal check", "pass" if r.thermal_ok else "FAIL: " + "; ".join(reasons_text(r, system))),
         ("Solve time (s)", f"{r.solve_s:.2f}"),
     ]
     w = max(len(k) for k, _ in rows)

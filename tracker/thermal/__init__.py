@@ -14,7 +14,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from tracker import units
 from tracker.thermal import properties
 from tracker.thermal.model import ThermalCase, build, model_kind, validate
 from tracker.thermal.properties import NIYAMA_UNIT
@@ -77,19 +76,29 @@ class ThermalResult:
         return d
 
 
-def reason_texts(last_to_freeze: str, isolated: bool, isolated_share: float, min_niyama, threshold,
-                 system: str = units.METRIC) -> list[str]:
-    """Why a result fails, in words (empty when it passes); Niyama values in ``system``'s
-    unit (metric: NIYAMA_UNIT, the published form)."""
+def _reasons(last: str, isolated: bool, isolated_share: float, min_ny, thr, system: str = "metric") -> list[str]:
+    """Why a solve fails the thermal check, in words (the Niyama in ``system``'s unit)."""
+    from tracker import units
+
     reasons = []
-    if last_to_freeze != "riser":
+    if last != "riser":
         reasons.append("the section freezes after the riser")
     if isolated:
         reasons.append(f"liquid cut off from the riser in the section ({isolated_share:.1%} of its volume)")
-    if threshold is not None and min_niyama is not None and min_niyama < threshold:
-        ny, thr = (units.to_system("niyama", v, system) for v in (min_niyama, threshold))
-        reasons.append(f"Niyama {ny:.2f} below {thr:.3g} {units.symbol('niyama', system)} in the section")
+    if thr is not None and min_ny is not None and min_ny < thr:
+        if system == units.US:
+            reasons.append(f"Niyama {units.number('niyama', min_ny, system)} below "
+                           f"{units.show('niyama', thr, system)} in the section")
+        else:
+            reasons.append(f"Niyama {min_ny:.2f} below {thr:g} {NIYAMA_UNIT} in the section")
     return reasons
+
+
+def reasons_text(result: "ThermalResult", system: str = "metric") -> list[str]:
+    """``result.reasons`` worded in ``system`` (tracker.units): the Niyama
+    criterion in (°F·min)^0.5/in for ``us``."""
+    return _reasons(result.last_to_freeze, result.isolated_liquid, result.isolated_share, result.min_niyama,
+                    result.niyama_threshold, system)
 
 
 def run(case: ThermalCase, cells_across: int | None = None, keep_maps: bool = True) -> ThermalResult:
@@ -126,7 +135,7 @@ def judge(case, b, out, keep_maps: bool = True) -> ThermalResult:
         min_ny, ny_at = None, None
     isolated = out.isolated_share >= ISOLATED_MIN_SHARE
     thr = alloy.niyama_threshold
-    reasons = reason_texts(last, isolated, out.isolated_share, min_ny, thr)
+    reasons = _reasons(last, isolated, out.isolated_share, min_ny, thr)
     ratio = t_ris / t_sec if t_sec > 0 else math.inf
     maps = {}
     if keep_maps:
@@ -145,5 +154,5 @@ def judge(case, b, out, keep_maps: bool = True) -> ThermalResult:
         notes=list(b.notes), maps=maps)
 
 
-__all__ = ["ThermalCase", "ThermalResult", "run", "build", "model_kind", "validate",
+__all__ = ["ThermalCase", "ThermalResult", "run", "reasons_text", "build", "model_kind", "validate",
            "THERMAL_CAUTION", "JSON_KEYS", "ISOLATED_MIN_SHARE"]

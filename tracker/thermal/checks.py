@@ -12,7 +12,8 @@ import time
 
 import pandas as pd
 
-from tracker.thermal import ThermalCase, ThermalResult, run
+from tracker import units
+from tracker.thermal import ThermalCase, ThermalResult, reasons_text, run
 from tracker.thermal.cases import case_from_row, pour_temp_for
 
 # `suggest` checks its risers thermally by default when all problem zones'
@@ -151,7 +152,7 @@ MAX_SOLVES_PER_ZONE = 6
 
 
 def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
-           max_solves: int = MAX_SOLVES_PER_ZONE) -> tuple[pd.DataFrame, dict]:
+           max_solves: int = MAX_SOLVES_PER_ZONE, system: str = "metric") -> tuple[pd.DataFrame, dict]:
     """The thermal check before ``choose`` (``tracker.advise``'s choice of one candidate per zone).
 
     The candidate ``choose`` takes for a zone is solved; where it fails, it no
@@ -191,7 +192,7 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
             if r.thermal_ok:
                 done.add(z)
                 continue
-            failed.setdefault(z, []).append((row.get("action"), row["diameter_mm"], r.reasons))
+            failed.setdefault(z, []).append((row.get("action"), row["diameter_mm"], reasons_text(r, system)))
             priced.at[cand, "full_ok"] = False
             if tries[z] >= max_solves:
                 done.add(z)
@@ -205,8 +206,8 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
                         "the threshold where one applies).")
         elif ok is True:
             first = fails[0]
-            notes[z] = (f" Thermal check: the first choice ({first[0]}, {first[1]:.0f} mm) fails ("
-                        + "; ".join(first[2]) + f"); this is the next candidate that passes"
+            notes[z] = (f" Thermal check: the first choice ({first[0]}, {units.say('diameter_mm', first[1], system)}) "
+                        "fails (" + "; ".join(first[2]) + f"); this is the next candidate that passes"
                         + (f" ({len(fails)} failed before it)." if len(fails) > 1 else "."))
         elif fails:
             # none tried passes: keep the rule-based choice, say so
@@ -219,7 +220,7 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
 
 
 def suggest_filter(store, priced: pd.DataFrame, cands: pd.DataFrame, zones: int, thermal: bool | None,
-                   choose) -> tuple[pd.DataFrame, dict]:
+                   choose, system: str = "metric") -> tuple[pd.DataFrame, dict]:
     """``narrow`` where ``thermal`` is True, or where it is None (the default) and the
     ``zones`` solves are expected to fit in AUTO_BUDGET_S; else ``priced`` as it is,
     with a note per zone where the default left the check out."""
@@ -230,4 +231,4 @@ def suggest_filter(store, priced: pd.DataFrame, cands: pd.DataFrame, zones: int,
                 f"{zones * reference_solve_s():.0f} s, over the {AUTO_BUDGET_S:.0f} s a default run allows "
                 "(ask for it with --thermal).")
         return priced, {z: note for z in priced["_z"].unique()}
-    return narrow(store, priced, cands, choose)
+    return narrow(store, priced, cands, choose, system=system)

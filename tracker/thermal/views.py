@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 
 from tracker import units
-from tracker.thermal import THERMAL_CAUTION, ThermalResult, reason_texts
+from tracker.thermal import THERMAL_CAUTION, ThermalResult, reasons_text
 from tracker.thermal.solver import NECK, RISER, SECTION, SLEEVE
 
 REGION_NAMES = {SECTION: "section", RISER: "riser", NECK: "neck", SLEEVE: "sleeve"}
@@ -27,7 +27,7 @@ def cells_frame(result: ThermalResult, system: str = units.METRIC) -> pd.DataFra
     xe, ze, region = _length(m["x_edges_mm"], system), _length(m["z_edges_mm"], system), m["region"]
     iz, ix = np.nonzero(np.isin(region, (SECTION, RISER, NECK)))
     st = m["solid_time_s"][iz, ix]
-    ny = units.to_system("niyama", m["niyama"][iz, ix], system)
+    ny = units.value_in("niyama", m["niyama"][iz, ix], system)
     return pd.DataFrame({
         "x0": xe[ix], "x1": xe[ix + 1], "z0": ze[iz], "z1": ze[iz + 1],
         "body": [REGION_NAMES[int(v)] for v in region[iz, ix]],
@@ -61,9 +61,8 @@ def summary(result: ThermalResult, system: str = units.METRIC) -> dict:
     ``x_label`` and ``z_label`` (axis titles)."""
     d = result.to_dict()
     u = units.symbol("length_mm", system)
-    ny = lambda v: None if v is None else float(units.to_system("niyama", v, system))  # noqa: E731
-    d.update(reasons=reason_texts(result.last_to_freeze, result.isolated_liquid, result.isolated_share,
-                                  result.min_niyama, result.niyama_threshold, system),
+    ny = lambda v: None if v is None else float(units.value_in("niyama", v, system))  # noqa: E731
+    d.update(reasons=reasons_text(result, system),
              grid=result.grid, cell_mm=result.cell_mm, time_step_s=result.time_step_s,
              steps=result.steps, pour_temp_c=result.pour_temp_c, last_point_mm=result.last_point_mm,
              min_niyama_at_mm=result.min_niyama_at_mm, niyama_source=result.niyama_source,
