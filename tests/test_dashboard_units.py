@@ -266,3 +266,33 @@ def test_thermal_view_in_inches_and_fahrenheit(app_demo_db, monkeypatch):
     assert f == pytest.approx([x * 9 / 5 + 32 for x in c], abs=1.0)  # both shown rounded to whole degrees
     niyama = [t for t in page_texts(us) if "Niyama" in t]
     assert any("(°F·min)^0.5/in" in t for t in niyama)
+
+
+def _import(at, kind: str, name: str, content: str):
+    at.selectbox(key="kind").set_value(kind).run()
+    at.file_uploader(key="upload").set_value((name, content.encode("utf-8"), "text/csv"))
+    at.run()
+    at.text_input(key="import_by").input("Test Person")
+    return at.button(key="import").click().run()
+
+
+def test_a_file_in_pounds_stores_what_its_metric_twin_stores(app_db, monkeypatch):
+    kg, cost_per_kg = 12.5, 1.8
+    us = open_in(app_db, "log_results.py", monkeypatch)
+    us.selectbox(key="kind").set_value("patterns").run()
+    help_line = next(_plain(c.value) for c in us.caption if _plain(c.value).startswith("Columns: "))
+    assert "casting_weight_lb" in help_line and "metal_cost_per_lb" in help_line, help_line
+    # 1 lb = 0.45359237 kg exactly (NIST SP 811 B.8): the same casting and metal price in pounds
+    _import(us, "patterns", "patterns-us.csv",
+            "pattern,description,alloy,casting_weight_lb,castings_per_mold,metal_cost_per_lb\n"
+            f"T-US,twin in pounds,steel,{kg / KG_PER_LB!r},2,{cost_per_kg * KG_PER_LB!r}\n")
+    assert not us.error, [e.value for e in us.error]
+    si = open_in(app_db, "log_results.py", monkeypatch, system="metric")
+    _import(si, "patterns", "patterns-si.csv",
+            "pattern,description,alloy,casting_weight_kg,castings_per_mold,metal_cost_per_kg\n"
+            f"T-SI,twin in kilograms,steel,{kg},2,{cost_per_kg}\n")
+    assert not si.error, [e.value for e in si.error]
+    with Store(app_db) as s:
+        a, b = s.pattern("T-US"), s.pattern("T-SI")
+    for key in ("casting_weight_kg", "metal_cost_per_kg"):
+        assert a[key] == pytest.approx(b[key], rel=1e-12), key
