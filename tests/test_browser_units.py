@@ -10,14 +10,12 @@ Skipped without /usr/bin/chromium or playwright, unless POURBACK_REQUIRE_BROWSER
 """
 
 import re
-import shutil
 
 import pytest
 
-from test_browser import ARTIFACTS, CHROMIUM, CHROMIUM_ARGS, running_dashboard, settle
-from test_browser import sync_playwright  # noqa: F401 - the fixture
+from browser_kit import browser, sync_playwright  # noqa: F401 - the fixtures
+from browser_kit import full_screenshot, served_copy, settle, visit
 from tracker import settings
-from tracker.cautions import SAFETY_CAUTION
 from tracker.store import Store
 
 pytestmark = pytest.mark.browser
@@ -52,31 +50,12 @@ READ = """() => {
 @pytest.fixture(scope="module")
 def us_server(app_demo_db, tmp_path_factory):
     """`pourback dashboard` on a copy of the demo log set to US customary units."""
-    folder = tmp_path_factory.mktemp("browser-units")
-    db = folder / "demo-us.db"
-    shutil.copyfile(app_demo_db, db)
-    with Store(db) as s:
-        settings.set_units(s, "us")
-    with running_dashboard(db, folder) as base:
-        yield base
+    def to_us(db):
+        with Store(db) as s:
+            settings.set_units(s, "us")
 
-
-@pytest.fixture(scope="module")
-def browser(sync_playwright):  # noqa: F811
-    with sync_playwright() as p:
-        b = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
-        yield b
-        b.close()
-
-
-def _open(browser, base, path, title, width):
-    pg = browser.new_page(viewport={"width": width, "height": 900})
-    pg.set_default_timeout(120_000)
-    pg.goto(f"{base}/{path}")
-    pg.get_by_role("heading", name=title, level=1).wait_for()
-    pg.get_by_text(SAFETY_CAUTION[:60]).wait_for()
-    settle(pg)
-    return pg
+    with served_copy(app_demo_db, tmp_path_factory.mktemp("browser-units"), "demo-us.db", to_us) as s:
+        yield s["url"]
 
 
 def _switch_on(pg, label: str) -> None:
@@ -95,18 +74,9 @@ def _open_expanders(pg) -> None:
         pg.wait_for_timeout(150)
 
 
-def _screenshot(pg, name: str, width: int) -> None:
-    ARTIFACTS.mkdir(exist_ok=True)
-    settle(pg, 600)
-    height = pg.evaluate("() => document.querySelector('[data-testid=\"stMain\"]').scrollHeight")
-    pg.set_viewport_size({"width": width, "height": min(int(height) + 40, 12000)})
-    pg.wait_for_timeout(900)
-    pg.screenshot(path=str(ARTIFACTS / f"units-{name}-{width}.png"), full_page=True)
-
-
 @pytest.mark.parametrize("path,title,name,toggles,wanted", PAGES)
 def test_every_page_in_us_shows_no_metric_unit(browser, us_server, path, title, name, toggles, wanted):
-    pg = _open(browser, us_server, path, title, 1400)
+    pg = visit(browser, us_server, path, title, 1400, 120_000)
     for label in toggles:
         _switch_on(pg, label)
     _open_expanders(pg)
@@ -122,10 +92,10 @@ def test_every_page_in_us_shows_no_metric_unit(browser, us_server, path, title, 
         assert any(want in t for t in texts), want
     if name == "pattern-file":
         assert any(US_UNIT.search(h) for h in seen["heads"])
-    _screenshot(pg, name, 1400)
+    full_screenshot(pg, f"units-{name}-1400", 1400)
     pg.close()
-    narrow = _open(browser, us_server, path, title, 800)
+    narrow = visit(browser, us_server, path, title, 800, 120_000)
     for label in toggles:
         _switch_on(narrow, label)
-    _screenshot(narrow, name, 800)
+    full_screenshot(narrow, f"units-{name}-800", 800)
     narrow.close()
