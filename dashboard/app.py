@@ -48,6 +48,7 @@ common.style()
 
 with common.guard():
     common.plant_picker()  # before the page: its figures follow the picked plant
+    common.unit_switch()  # before the page: its numbers follow the system picked
 
 with common.guard():
     page.run()

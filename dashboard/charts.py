@@ -227,7 +227,7 @@ def plant_rates(table: pd.DataFrame) -> alt.LayerChart | alt.Chart:
 # --- thermal check ------------------------------------------------------------------
 
 def _thermal_frame(cells: pd.DataFrame, x_title: str, width: int = 520):
-    """Axes in mm at one scale for x and z, so the bodies keep their shape."""
+    """Axes in one length unit (mm or in) at one scale for x and z, so the bodies keep their shape."""
     x0, x1 = float(cells["x0"].min()), float(cells["x1"].max())
     z0, z1 = float(cells["z0"].min()), float(cells["z1"].max())
     pad = 0.04 * max(x1 - x0, z1 - z0)
@@ -244,12 +244,14 @@ def _outline_layer(outline: pd.DataFrame, xs, zs):
         x=alt.X("x:Q", scale=xs), y=alt.Y("z:Q", scale=zs), x2="x2:Q", y2="z2:Q")
 
 
-def thermal_freezing_map(cells: pd.DataFrame, outline: pd.DataFrame, last_point, x_title: str) -> alt.LayerChart:
-    """Freezing time of every metal cell (min), the bodies' outlines, the last point to freeze."""
+def thermal_freezing_map(cells: pd.DataFrame, outline: pd.DataFrame, last_point, x_title: str,
+                         z_title: str = "z (mm), height") -> alt.LayerChart:
+    """Freezing time of every metal cell (min), the bodies' outlines, the last point to freeze;
+    the axes titled with their length unit (``x_title``, ``z_title``)."""
     xs, zs, w, h = _thermal_frame(cells, x_title)
     heat = alt.Chart(cells).mark_rect().encode(
         x=alt.X("x0:Q", scale=xs, title=x_title), x2="x1:Q",
-        y=alt.Y("z0:Q", scale=zs, title="z (mm), height"), y2="z1:Q",
+        y=alt.Y("z0:Q", scale=zs, title=z_title), y2="z1:Q",
         color=alt.Color("freeze_min:Q", title="freezing time (min)", scale=alt.Scale(scheme="inferno")),
         tooltip=[alt.Tooltip("body:N"), alt.Tooltip("freeze_min:Q", title="freezing time (min)", format=".1f")])
     last = pd.DataFrame({"x": [last_point[0]], "z": [last_point[1]], "label": ["last to freeze"]})
@@ -261,13 +263,13 @@ def thermal_freezing_map(cells: pd.DataFrame, outline: pd.DataFrame, last_point,
 
 
 def thermal_niyama_map(cells: pd.DataFrame, outline: pd.DataFrame, threshold, unit: str,
-                       x_title: str) -> alt.LayerChart:
+                       x_title: str, z_title: str = "z (mm), height") -> alt.LayerChart:
     """Niyama value of the section's cells; cells below the threshold in the attention colour."""
     sec = cells[cells["body"] == "section"].dropna(subset=["niyama"])
     xs, zs, w, h = _thermal_frame(cells, x_title)
     base = alt.Chart(sec).mark_rect().encode(
         x=alt.X("x0:Q", scale=xs, title=x_title), x2="x1:Q",
-        y=alt.Y("z0:Q", scale=zs, title="z (mm), height"), y2="z1:Q",
+        y=alt.Y("z0:Q", scale=zs, title=z_title), y2="z1:Q",
         color=alt.Color("niyama:Q", title=f"Niyama {unit}",
                         scale=alt.Scale(scheme="blues", domain=[0, 4.0 * (threshold or 1.0)], clamp=True)),
         tooltip=[alt.Tooltip("niyama:Q", title=f"Niyama {unit}", format=".2f")])
@@ -277,6 +279,6 @@ def thermal_niyama_map(cells: pd.DataFrame, outline: pd.DataFrame, threshold, un
         if not low.empty:
             layers.append(alt.Chart(low).mark_rect(color=ATTENTION).encode(
                 x=alt.X("x0:Q", scale=xs), x2="x1:Q", y=alt.Y("z0:Q", scale=zs), y2="z1:Q",
-                tooltip=[alt.Tooltip("niyama:Q", title=f"Niyama below {threshold:g}", format=".2f")]))
+                tooltip=[alt.Tooltip("niyama:Q", title=f"Niyama below {threshold:.3g}", format=".2f")]))
     layers.append(_outline_layer(outline, xs, zs))
     return alt.layer(*layers).properties(width=w, height=h)

@@ -14,7 +14,7 @@ import re
 
 import streamlit as st
 
-from tracker import limits, views
+from tracker import limits, units, views
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadFile, PourbackError
 from tracker.store import DATABASE_ERRORS, Store, absolute_target, display_name, log_error
@@ -48,7 +48,9 @@ def _registry() -> dict:
         "plant_options": lambda s: s.plants(),
         "compare_plants": review.compare_plants,
         "currency": settings.currency,
+        "unit_setting": settings.units,
         "weekly_review": review.weekly_review,
+        "weekly_review_in": lambda s, system, **kw: review.in_system(review.weekly_review(s, **kw), system),
         "problem_patterns": review.problem_patterns,
         "design_map": features.design_map,
         "suggest": advise.suggest,
@@ -210,6 +212,68 @@ def download_csv(frame, label: str, file_name: str, key: str) -> None:
 
     st.download_button(label, data=csv_bytes(frame), file_name=file_name, mime="text/csv", key=key,
                        icon=":material/download:", disabled=frame is None or len(frame) == 0)
+
+
+# --- unit system --------------------------------------------------------------------------
+
+_UNITS = "unit_system"  # this browser session's choice (the sidebar switch's key)
+UNIT_WORDS = {units.METRIC: "metric", units.US: "US customary"}
+_UNIT_LIST = {units.METRIC: "mm, cm, cm², cm³, kg, °C", units.US: "in, in², in³, lb, °F"}
+
+
+def unit_system() -> str:
+    """The unit system this browser session reads and types numbers in: the
+    sidebar switch, else the log's setting (``pourback settings --units``)."""
+    picked = st.session_state.get(_UNITS)
+    return picked if picked in units.SYSTEMS else load("unit_setting")
+
+
+def unit_switch() -> None:
+    """The sidebar's unit-system switch. It changes what this browser session shows
+    and takes, never the log (everything is stored in metric); where the user may
+    change the log's settings, a button makes the choice the log's default."""
+    from dashboard import access
+
+    log_default = load("unit_setting")
+    if st.session_state.get(_UNITS) not in units.SYSTEMS:
+        st.session_state[_UNITS] = log_default
+    with st.sidebar:
+        chosen = st.radio("Units shown and typed", units.SYSTEMS, format_func=UNIT_WORDS.get, key=_UNITS,
+                          help="For this browser session only: every page shows and takes numbers in these "
+                               f"units (metric: {_UNIT_LIST[units.METRIC]}; US customary: {_UNIT_LIST[units.US]}). "
+                               "The log stores every figure in metric and keeps its own default, "
+                               f"{UNIT_WORDS[log_default]} (`pourback settings --units`).")
+        if chosen != log_default and access.can("settings"):
+            st.button("Make this the log's default", key="units_make_default", on_click=_make_default,
+                      args=(chosen,), help="Every browser and command then opens in these units. "
+                                           "No figure in the log changes.")
+
+
+def _make_default(system: str) -> None:
+    from tracker import settings
+
+    with guard(), open_store() as store:
+        settings.set_units(store, system)
+        forget()
+
+
+def unit(metric_name: str) -> str:
+    """The unit symbol of a metric quantity in this session's system: unit("diameter_mm") is "in" in us."""
+    return units.symbol(metric_name, unit_system())
+
+
+def shown(metric_name: str, value):
+    """A metric value of ``metric_name`` in this session's unit system (for display)."""
+    return units.to_system(metric_name, value, unit_system())
+
+
+# Before a source quoted as published (its own units, whatever the session's system).
+PUBLISHED_FORM = "source, in its published units:"
+
+
+def length_format() -> str:
+    """A table's number format for lengths: whole millimetres; inches to 2 decimals (6.50)."""
+    return "%.2f" if unit_system() == units.US else "%.0f"
 
 
 # --- page furniture -----------------------------------------------------------------------

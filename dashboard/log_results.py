@@ -10,12 +10,13 @@ from __future__ import annotations
 
 import datetime as dt
 import pathlib
+import re
 import tempfile
 
 import streamlit as st
 
 from dashboard import access, common
-from tracker import views
+from tracker import units, views
 from tracker.auth import MAX_UPLOAD_MB, TABLE_ACTION
 from tracker.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES, import_file, log_inspection
 
@@ -29,6 +30,14 @@ KIND_HELP = {
     "lots": "lot, pattern, poured_on, heat, molds (+ pour_temp_c)",
     "inspections": "lot, inspected_on, method, quantity, result (+ defect, zone, xray_category, ...)",
 }
+
+
+def columns_help(kind: str, system: str) -> str:
+    """KIND_HELP's column list with each unit-bearing column named in ``system``
+    (``diameter_in`` for ``diameter_mm`` in us)."""
+    return re.sub(r"[a-z_0-9]+", lambda m: units.column_name(m.group(0), system), KIND_HELP[kind])
+
+
 # Cleared after each save: what belongs to one result, not to the inspection session.
 RESULT_FIELDS = {"result": RESULTS[0], "defect": None, "zone": None, "xray_category": None, "severity": None,
                  "quantity": 1, "serial": "", "notes": ""}
@@ -151,7 +160,7 @@ def upload_file() -> None:
                "listed with its row number (the header is row 1), column and reason.")
     c1, c2 = st.columns([1, 2])
     kind = c1.selectbox("What the file holds", kinds, index=kinds.index("inspections"), key="kind")
-    c2.caption("Columns: " + KIND_HELP[kind])
+    c2.caption("Columns: " + columns_help(kind, common.unit_system()))
     upload = st.file_uploader(f"CSV (UTF-8) or Excel workbook (.xlsx), at most {MAX_UPLOAD_MB} MB",
                               type=["csv", "xlsx"], key="upload",
                               help=f"{MAX_UPLOAD_MB} MB holds about 70,000 CSV rows: more than a day's "

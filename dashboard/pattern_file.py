@@ -29,10 +29,13 @@ def main() -> None:
     if code != wanted:
         st.query_params["pattern"] = code  # the address names the pattern shown
 
+    system = common.unit_system()
+    label = lambda metric_label: views.label(metric_label, system)  # noqa: E731
     info = common.load("pattern_summary", code)
     c = st.columns(3)
     c[0].metric("Alloy", info.get("alloy_name") or info["alloy"], help=f"alloy key: {info['alloy']}")
-    c[1].metric("Casting weight (kg)", f"{info['casting_weight_kg']:g}")
+    c[1].metric(f"Casting weight ({common.unit('casting_weight_kg')})",
+                f"{common.shown('casting_weight_kg', info['casting_weight_kg']):.4g}")
     c[2].metric("Castings per mold", f"{info['castings_per_mold']:,}")
     c = st.columns(3)
     c[0].metric("Lots poured", f"{info['lots']:,}")
@@ -44,32 +47,36 @@ def main() -> None:
                + f"Mould: {mould} (ductile iron's pressure-control rules depend on it).")
 
     st.subheader("Zones")
-    zones = common.load("pattern_zones", code)
+    zones = common.load("pattern_zones", code, system=system)
     if zones.empty:
         st.info("No zones are logged for this pattern yet: import them (zones.csv).")
     else:
         st.dataframe(zones, hide_index=True, width="stretch", key="zones_table", placeholder="",
-                     column_config={"volume (cm³)": NUMBER(format="%.0f"),
-                                    "cooling area (cm²)": NUMBER(format="%.0f"),
-                                    "modulus (cm)": NUMBER(format="%.2f"), "thickness (mm)": NUMBER(format="%.0f"),
-                                    "width (mm)": NUMBER(format="%.0f"), "feeding length (mm)": NUMBER(format="%.0f")})
+                     column_config={label("volume (cm³)"): NUMBER(format="%.0f"),
+                                    label("cooling area (cm²)"): NUMBER(format="%.0f"),
+                                    label("modulus (cm)"): NUMBER(format="%.2f"),
+                                    label("thickness (mm)"): NUMBER(format=common.length_format()),
+                                    label("width (mm)"): NUMBER(format=common.length_format()),
+                                    label("feeding length (mm)"): NUMBER(format=common.length_format())})
         st.caption("Width and thickness tell a bar from a plate for the feeding distance (steel, Bishop and "
                    "Pellini): bar at width = thickness, plate from 5 × thickness, interpolated between. "
                    "Where thickness, width or length is missing, the feeding distance is not judged.")
 
     st.subheader("Risers by revision")
-    design = common.load("risers_by_revision", code)
+    design = common.load("risers_by_revision", code, system=system)
     if design.empty:
         st.info("No riser design is logged for this pattern yet: import its risers (risers.csv).")
     else:
-        st.dataframe(design[views.DESIGN_PART], hide_index=True, width="stretch", key="risers_table",
+        st.dataframe(design[views.design_part(system)], hide_index=True, width="stretch", key="risers_table",
                      placeholder="", column_config={
-                         "diameter (mm)": NUMBER(format="%.0f"), "height (mm)": NUMBER(format="%.0f"),
-                         "riser weight (kg)": NUMBER(format="%.1f")})
+                         label("diameter (mm)"): NUMBER(format=common.length_format()),
+                         label("height (mm)"): NUMBER(format=common.length_format()),
+                         label("riser weight (kg)"): NUMBER(format="%.1f")})
         st.markdown("**Rule margins**")
-        st.dataframe(design[views.MARGIN_PART], hide_index=True, width="stretch", key="margins_table",
+        st.dataframe(design[views.margin_part(system)], hide_index=True, width="stretch", key="margins_table",
                      placeholder="", column_config={
-                         "zone modulus (cm)": NUMBER(format="%.2f"), "riser modulus (cm)": NUMBER(format="%.2f"),
+                         label("zone modulus (cm)"): NUMBER(format="%.2f"),
+                         label("riser modulus (cm)"): NUMBER(format="%.2f"),
                          "modulus ratio": NUMBER(format="%.2f"), "Caine margin": NUMBER(format="%+.2f"),
                          "feed margin": NUMBER(format="%+.2f")})
         st.caption("Modulus ratio = effective riser modulus (sleeve factor included) / modulus of the zone "

@@ -5,11 +5,12 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboard import access, charts, common, thermal_view
-from tracker import advise, views
+from tracker import advise, units, views
 from tracker.assess import rule_words
 
 NUMBER = st.column_config.NumberColumn
 KEEP, BARE = "keep", "none"
+DIAMETER_RANGE_MM = (10.0, 2000.0)  # what the what-if's diameter field takes
 
 
 def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list[dict]:
@@ -19,25 +20,27 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
         status = ("Fitting the reject model on the whole log (no stored fit covers the newest pours), "
                   "then " + status[0].lower() + status[1:])
     found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge,
-                        thermal=False, status=status)
+                        thermal=False, system=common.unit_system(), status=status)
     st.subheader("Suggested changes")
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")
         return []
     code = common.load("currency")
+    system = common.unit_system()
     money = views.money_per_year(code)
-    table = views.suggestions_table(found, currency=code)
+    table = views.suggestions_table(found, currency=code, system=system)
     st.markdown("**What to change**")
-    st.dataframe(table[views.CHANGE_PART], hide_index=True, width="stretch", key="suggestions_table",
+    st.dataframe(table[views.change_part(system)], hide_index=True, width="stretch", key="suggestions_table",
                  placeholder="", column_config={
-                     "now: diameter (mm)": NUMBER(format="%.0f"),
-                     "suggested: diameter (mm)": NUMBER(format="%.0f")})
+                     views.label("now: diameter (mm)", system): NUMBER(format=common.length_format()),
+                     views.label("suggested: diameter (mm)", system): NUMBER(format=common.length_format())})
     st.markdown("**What it brings**")
-    st.dataframe(table[views.with_currency(views.BALANCE_PART, code)], hide_index=True, width="stretch", key="balance_table",
+    st.dataframe(table[views.balance_part(code, system)], hide_index=True, width="stretch", key="balance_table",
                  placeholder="", column_config={
                      "observed now (%)": NUMBER(format="%.2f"), "predicted now (%)": NUMBER(format="%.2f"),
                      "predicted after (%)": NUMBER(format="%.2f"),
-                     "added metal (kg per mold)": NUMBER(format="%+.2f"), "yield now (%)": NUMBER(format="%.1f"),
+                     views.label("added metal (kg per mold)", system): NUMBER(format="%+.2f"),
+                     "yield now (%)": NUMBER(format="%.1f"),
                      "yield after (%)": NUMBER(format="%.1f"),
                      f"scrap saved ({money})": NUMBER(format="%,.0f"),
                      f"extra cost ({money})": NUMBER(format="%,.0f"),
@@ -59,9 +62,10 @@ def _sleeve_picked(sleeves, row, sleeve_key: str, dia_key: str) -> None:
     """A sleeve picked: show its inner diameter (the riser's own for keep or bare)."""
     code = st.session_state[sleeve_key]
     if code == KEEP or code == BARE:
-        st.session_state[dia_key] = float(row["diameter_mm"])
+        mm = float(row["diameter_mm"])
     else:
-        st.session_state[dia_key] = float(sleeves.loc[sleeves["sleeve"] == code, "inner_diameter_mm"].iat[0])
+        mm = float(sleeves.loc[sleeves["sleeve"] == code, "inner_diameter_mm"].iat[0])
+    st.session_state[dia_key] = float(common.shown("diameter_mm", mm))
 
 
 def _diameter_typed(sleeves, row, sleeve_key: str, dia_key: str) -> None:
@@ -72,7 +76,8 @@ def _diameter_typed(sleeves, row, sleeve_key: str, dia_key: str) -> None:
         return
     present = row["sleeve"] if code == KEEP else code
     kind = sleeves.loc[sleeves["sleeve"] == present, "kind"]
-    hit = advise.same_kind_sleeve(sleeves, kind.iat[0], st.session_state[dia_key]) if len(kind) else None
+    mm = units.to_metric("diameter_mm", st.session_state[dia_key], common.unit_system())
+    hit = advise.same_kind_sleeve(sleeves, kind.iat[0], mm) if len(kind) else None
     if hit is not None:
         st.session_state[sleeve_key] = hit["sleeve"]
 
@@ -81,7 +86,8 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
     st.subheader("What if")
     st.caption("Change one riser of a pattern's newest revision and see its rule margins, the predicted "
                "shrinkage rate, the yield and the money, priced as the suggestions are. Nothing is saved.")
-    risers = common.load("riser_options")
+    system = common.unit_system()
+    risers = common.load("riser_options", system=system)
     if risers.empty:
         st.info("No risers in the log yet.")
         return
@@ -92,31 +98,37 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
     key = c1.selectbox("Riser", keys, index=keys.index(first) if first in keys else 0,
                        format_func=labels.get, key="whatif_riser")
     row = risers[(risers["pattern"] == key[0]) & (risers["riser"] == key[1])].iloc[0]
-    sleeves = common.load("sleeve_options")  # smallest first
+    sleeves = common.load("sleeve_options", system=system)  # smallest first
     sleeve_labels = {KEEP: "keep as it is" + (f" ({row['sleeve']})" if isinstance(row["sleeve"], str) else
                                               " (no sleeve)"),
                      BARE: "no sleeve (bare riser)", **dict(zip(sleeves["sleeve"], sleeves["label"]))}
-    sleeve_key, dia_key = f"whatif_sleeve_{key[0]}_{key[1]}", f"whatif_dia_{key[0]}_{key[1]}"
+    # the typed diameter is kept per unit system: a number typed in inches is never read as mm
+    sleeve_key, dia_key = f"whatif_sleeve_{key[0]}_{key[1]}", f"whatif_dia_{'us_' if system == units.US else ''}{key[0]}_{key[1]}"
     sleeve = c2.selectbox("Sleeve (smallest first)", list(sleeve_labels), format_func=sleeve_labels.get,
                           key=sleeve_key, on_change=_sleeve_picked, args=(sleeves, row, sleeve_key, dia_key))
-    st.session_state.setdefault(dia_key, float(row["diameter_mm"]))  # set here, moved by the sleeve picked
-    diameter = c3.number_input("Diameter (mm)", min_value=10.0, max_value=2000.0, step=10.0, format="%.0f",
-                               key=dia_key,
+    now = float(common.shown("diameter_mm", float(row["diameter_mm"])))
+    st.session_state.setdefault(dia_key, now)  # set here, moved by the sleeve picked
+    lo, hi = (float(common.shown("diameter_mm", mm)) for mm in DIAMETER_RANGE_MM)
+    diameter = c3.number_input(f"Diameter ({common.unit('diameter_mm')})", min_value=lo, max_value=hi,
+                               step=float(common.shown("diameter_mm", units.default_step_mm(system))),
+                               format="%.2f" if system == units.US else "%.0f", key=dia_key,
                                on_change=_diameter_typed, args=(sleeves, row, sleeve_key, dia_key),
                                help="A sleeved riser takes the sleeve's inner diameter and height; a "
                                     "diameter typed with a sleeve takes the catalogue's sleeve of the same "
                                     "kind and that size. A bare riser keeps its height / diameter ratio.")
-    changed = None if diameter == float(row["diameter_mm"]) else float(diameter)
+    # typed in the session's units, handed to the library in mm
+    changed = None if diameter == now else float(units.to_metric("diameter_mm", diameter, system))
     result = None
     with common.guard():
         result = common.load("what_if", key[0], key[1], diameter_mm=changed,
                              sleeve=None if sleeve == BARE else sleeve, week=week, weeks=weeks,
-                             remelt_charge=charge)
+                             remelt_charge=charge, system=system)
     if result is None:
         return
+    size = " x ".join(views.length_text(result[k], system) for k in ("diameter_mm", "height_mm"))
     st.markdown(common.md_escape(
         f"{result['pattern']} revision {result['revision']}, riser {result['riser']} on zone "
-        f"{result['zone']}: {result['diameter_mm']:g} x {result['height_mm']:g} mm, "
+        f"{result['zone']}: {size} {common.unit('diameter_mm')}, "
         + (f"sleeve {result['sleeve']}" if result["sleeve"] else "no sleeve")))
     _rule_metrics(result)
     _rate_metrics(result)
@@ -170,7 +182,8 @@ def _money_metrics(result: dict) -> None:
     """The money as in the suggestions: two columns, so the labels fit at tablet width."""
     unit = f"; in {common.load('currency')} per year"
     rows = [("Extra riser metal (per year)", "extra_metal_cost_per_year",
-             f"{result['added_metal_kg_per_mold']:+.2f} kg per mold at the remelt charge" + unit),
+             f"{common.shown('metal_kg', result['added_metal_kg_per_mold']):+.2f} {common.unit('metal_kg')} "
+             "per mold at the remelt charge" + unit),
             ("Sleeves (per year)", "sleeve_cost_per_year", "change in sleeve cost per casting" + unit),
             ("Scrap saved (per year)", "scrap_saved_per_year",
              "castings per year × (predicted now − predicted changed) × cost per scrapped casting" + unit),
@@ -203,7 +216,8 @@ def main() -> None:
     c1, _ = st.columns([1, 3])
     charge = float(c1.number_input("Remelt charge (share of metal price)", min_value=0.0, max_value=1.0,
                                    value=advise.DEFAULT_REMELT_CHARGE, step=0.05, format="%.2f", key="remelt",
-                                   help="What is lost on each kg poured that does not ship (scrapped "
+                                   help=f"What is lost on each {common.unit('metal_kg')} poured that does "
+                                        "not ship (scrapped "
                                         "castings, extra riser metal): melting, handling, melt loss. "
                                         "Common practice 0.2 to 0.4 of the metal price; shop practice varies."))
     found = suggestion_list(week, weeks, target, charge)

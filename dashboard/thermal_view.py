@@ -21,26 +21,27 @@ def show(view: dict, key: str) -> None:
     c = st.columns(3)
     c[0].metric("Section freezing (min)", f"{s['section_freeze_s'] / 60:.1f}")
     c[1].metric("Riser freezing (min)", f"{s['riser_freeze_s'] / 60:.1f}")
-    ny = "-" if s["min_niyama"] is None else f"{s['min_niyama']:.2f}"
-    thr = "no threshold" if s["niyama_threshold"] is None else f"threshold {s['niyama_threshold']:g}"
-    c[2].metric("Minimum Niyama", ny, help=f"{s['niyama_unit']}; {thr}; {s['niyama_source']}")
+    ny = "-" if s["min_niyama_shown"] is None else f"{s['min_niyama_shown']:.2f}"
+    limit = s["niyama_threshold_shown"]
+    thr = "no threshold" if limit is None else f"threshold {limit:.3g}"
+    c[2].metric("Minimum Niyama", ny, help=f"{s['niyama_unit_shown']}; {thr}; "
+                                          f"{common.PUBLISHED_FORM} {s['niyama_source']}")
     if s["reasons"]:
         st.warning(common.md_escape("Fails: " + "; ".join(s["reasons"]) + "."))
-    # stacked, each at its own width: the maps keep one mm scale on both axes
+    # stacked, each at its own width: the maps keep one length scale on both axes
     st.markdown("**Freezing time** (min; + marks the last point to freeze; the narrow box beside a "
                 "sleeved riser is its sleeve)")
-    st.altair_chart(charts.thermal_freezing_map(view["cells"], view["outline"], s["last_point_mm"],
-                                                s["x_label"]), key=f"{key}_freeze", width="content")
-    st.markdown(f"**Niyama in the section** ({s['niyama_unit']}"
-                + ("" if s["niyama_threshold"] is None
-                   else f"; orange: below the threshold {s['niyama_threshold']:g}") + ")")
-    st.altair_chart(charts.thermal_niyama_map(view["cells"], view["outline"], s["niyama_threshold"],
-                                              s["niyama_unit"], s["x_label"]), key=f"{key}_niyama",
-                    width="content")
+    st.altair_chart(charts.thermal_freezing_map(view["cells"], view["outline"], s["last_point"],
+                                                s["x_label"], s["z_label"]), key=f"{key}_freeze", width="content")
+    st.markdown(f"**Niyama in the section** ({s['niyama_unit_shown']}"
+                + ("" if limit is None else f"; orange: below the threshold {limit:.3g}") + ")")
+    st.altair_chart(charts.thermal_niyama_map(view["cells"], view["outline"], limit, s["niyama_unit_shown"],
+                                              s["x_label"], s["z_label"]), key=f"{key}_niyama", width="content")
     st.caption(common.md_escape(
         f"{s['model'].capitalize()} model, {s['grid'][0]} × {s['grid'][1]} = {s['cells']:,} cells "
-        f"({s['cell_mm']:.1f} mm in the section), time step {s['time_step_s']:.1f} s, pouring at "
-        f"{s['pour_temp_c']:.0f} °C, solved in {s['solve_s']:.1f} s. " + " ".join(s["notes"])))
+        f"({s['cell_size']:.{1 if s['length_unit'] == 'mm' else 2}f} {s['length_unit']} in the section), "
+        f"time step {s['time_step_s']:.1f} s, pouring at {s['pour_temp']:.0f} {s['temp_unit']}, solved in "
+        f"{s['solve_s']:.1f} s. " + " ".join(s["notes"])))
     st.info(common.md_escape(s["caution"]), icon=":material/warning:")
 
 
@@ -51,7 +52,7 @@ def pattern_section(code: str) -> None:
         st.caption("A 2-D solidification solve of each riser and the zone it feeds: where the last liquid is, "
                    "whether the zone's last liquid stays connected to the riser, and the Niyama criterion.")
         return
-    views = common.load("pattern_thermal", code,
+    views = common.load("pattern_thermal", code, system=common.unit_system(),
                         status=f"Solving the thermal check of each riser of {code} (a few seconds per riser)")
     labels = [f"{v['riser']} on {v['zone']} ({'pass' if v['summary']['thermal_ok'] else 'fail'})" for v in views]
     tabs = st.tabs(labels)
@@ -67,6 +68,7 @@ def what_if_section(result: dict) -> None:
         return
     keep = {k: result.get(k) for k in ("pattern", "revision", "riser", "diameter_mm", "height_mm", "sleeve",
                                        "neck_diameter_mm")}
-    view = common.load("what_if_thermal", keep, status=f"Solving the thermal check of the changed riser "
-                                                       f"{keep['riser']} and its zone (a few seconds)")
+    view = common.load("what_if_thermal", keep, system=common.unit_system(),
+                       status=f"Solving the thermal check of the changed riser {keep['riser']} and its zone "
+                              "(a few seconds)")
     show(view, "whatif_thermal")

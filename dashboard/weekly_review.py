@@ -158,7 +158,8 @@ def main() -> None:
         common.start_message(state, "a review")
         return
     week, weeks, target = common.review_controls()
-    review = common.load("weekly_review", week=week, weeks=weeks, target=target / 100.0,
+    # figures with a unit (riser changes, scrap weight) in the session's units; the report too
+    review = common.load("weekly_review_in", common.unit_system(), week=week, weeks=weeks, target=target / 100.0,
                          status=f"Computing the review of {week} ({weeks} weeks)")
     if not review["patterns"]:
         st.info(f"Nothing was poured in the {weeks} weeks up to {week}. Pick another week.")

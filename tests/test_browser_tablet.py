@@ -13,9 +13,9 @@ import urllib.parse
 
 import pytest
 
-from tests.test_browser import (ARTIFACTS, CHROMIUM, CHROMIUM_ARGS, _lot_with_room, server,  # noqa: F401
-                                settle, sync_playwright)
-from tracker.cautions import SAFETY_CAUTION
+from browser_kit import (ARTIFACTS, browser, lot_with_room, server, settle, sync_playwright,  # noqa: F401
+                         visit)
+from browser_kit import full_screenshot as _full_screenshot
 
 pytestmark = pytest.mark.browser
 
@@ -45,31 +45,8 @@ CUT_OFF = """() => {
 }"""
 
 
-@pytest.fixture(scope="module")
-def browser(sync_playwright):  # noqa: F811
-    with sync_playwright() as p:
-        b = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
-        yield b
-        b.close()
-
-
-def visit(browser, base: str, path: str, title: str, width: int):
-    pg = browser.new_page(viewport={"width": width, "height": 900})
-    pg.set_default_timeout(60_000)
-    pg.goto(f"{base}/{path}")
-    pg.get_by_role("heading", name=title, level=1).wait_for()
-    pg.get_by_text(SAFETY_CAUTION[:60]).wait_for()
-    settle(pg)
-    return pg
-
-
 def full_screenshot(pg, name: str, width: int) -> None:
-    ARTIFACTS.mkdir(exist_ok=True)
-    pg.wait_for_timeout(600)
-    height = pg.evaluate("() => document.querySelector('[data-testid=\"stMain\"]').scrollHeight")
-    pg.set_viewport_size({"width": width, "height": min(int(height) + 40, 12000)})
-    pg.wait_for_timeout(900)
-    pg.screenshot(path=str(ARTIFACTS / f"{name}-{width}.png"), full_page=True)
+    _full_screenshot(pg, f"{name}-{width}", width)
 
 
 def sidebar_open(pg) -> bool:
@@ -102,7 +79,7 @@ def test_page_at_its_own_address_with_nothing_cut_off(browser, server, path, tit
 def test_one_reject_from_a_fresh_form_in_8_fields_and_12_clicks(browser, server):  # noqa: F811
     from tracker.store import Store
 
-    lot = _lot_with_room(server["db"])
+    lot = lot_with_room(server["db"])
     pg = visit(browser, server["url"], "log", "Log results", NARROW)
     clicks, fields = 0, set()
 

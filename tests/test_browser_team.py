@@ -19,9 +19,8 @@ import urllib.request
 
 import pytest
 
-from test_browser import (CHROMIUM, CHROMIUM_ARGS, _free_port, _lot_with_room, choose, running_dashboard,
-                          screenshot, settle)
-from test_browser import sync_playwright  # noqa: F401 - the fixture
+from browser_kit import browser, sync_playwright  # noqa: F401 - the fixtures
+from browser_kit import choose, free_port, full_screenshot, lot_with_room, running_dashboard, settle
 from tracker import auth
 from tracker.errors import PermissionDenied
 from tracker.ingest import log_inspection
@@ -58,7 +57,7 @@ def plain_log(app_demo_file, tmp_path_factory):
 
 
 def test_refuses_to_start_beyond_loopback_without_an_admin(plain_log, tmp_path):
-    port = _free_port(HOST)
+    port = free_port(HOST)
     proc = _dashboard(plain_log, port, tmp_path / "server.log")
     try:
         assert proc.wait(timeout=60) == 1
@@ -81,14 +80,6 @@ def team_server(app_demo_file, tmp_path_factory):
             auth.add_user(s, name, role, PASSWORD, by="test")
     with running_dashboard(db, folder, HOST) as base:
         yield {"url": base, "db": db, "log": folder / "server.log", "pages": []}
-
-
-@pytest.fixture(scope="module")
-def browser(sync_playwright):  # noqa: F811
-    with sync_playwright() as p:
-        b = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
-        yield b
-        b.close()
 
 
 @pytest.fixture
@@ -133,7 +124,7 @@ def test_it_starts_with_an_admin_and_a_visitor_sees_only_the_sign_in_form(page, 
                             '[data-testid="stVegaLiteChart"]').count() == 0
         assert "P-1031" not in page.inner_text("body") and str(team_server["db"]) not in page.content()
         assert page.locator("input").count() == 2
-    shot = screenshot(page, "team-sign-in")
+    shot = full_screenshot(page, "team-sign-in")
     assert shot.stat().st_size > 5_000
 
 
@@ -146,7 +137,7 @@ def test_wrong_passwords_are_refused_and_the_fifth_locks(page, team_server):
     sign_in(page, "locky", "not the password 5")
     # issue 15: after 5 failed sign-ins a user is locked for 15 minutes, said on the page
     page.get_by_text("locky is locked after 5 failed sign-ins in a row, for 15 minutes").wait_for()
-    screenshot(page, "team-locked")
+    full_screenshot(page, "team-locked")
     sign_in(page, "locky", PASSWORD)  # the right password, but locked
     page.get_by_text("locky is locked after 5 failed sign-ins").wait_for()
     assert page.get_by_role("heading", name="Log results").count() == 0
@@ -166,7 +157,7 @@ def test_a_reviewer_is_offered_no_save_and_a_forged_write_is_refused(page, team_
     assert page.get_by_role("button", name="Save record").count() == 0
     assert page.get_by_role("button", name="Import file").count() == 0
     page.get_by_text("needs the role inspector or methods").first.wait_for()
-    screenshot(page, "team-reviewer-log-results")
+    full_screenshot(page, "team-reviewer-log-results")
     page.get_by_role("link", name="Suggestions").click()
     page.get_by_role("heading", name="Suggestions", level=1).wait_for()
     settle(page)
@@ -174,7 +165,7 @@ def test_a_reviewer_is_offered_no_save_and_a_forged_write_is_refused(page, team_
 
     # The page offered nothing; a write made through the library anyway, as this
     # reviewer, is refused and leaves the log as it was.
-    lot = _lot_with_room(team_server["db"])
+    lot = lot_with_room(team_server["db"])
     with Store(team_server["db"]) as s:
         before = s.count("inspections")
         s.actor = auth.sign_in(s, "room", PASSWORD)
@@ -185,7 +176,7 @@ def test_a_reviewer_is_offered_no_save_and_a_forged_write_is_refused(page, team_
 
 
 def test_an_inspector_logs_a_result_that_carries_their_name(page, team_server):
-    lot = _lot_with_room(team_server["db"])
+    lot = lot_with_room(team_server["db"])
     page.goto(team_server["url"])
     sign_in(page, "bench", PASSWORD)
     page.get_by_role("heading", name="Log results", level=1).wait_for()
@@ -208,7 +199,7 @@ def test_an_inspector_logs_a_result_that_carries_their_name(page, team_server):
     page.get_by_role("button", name="Save record").click()
     page.get_by_text("Saved record").wait_for()
     settle(page)
-    screenshot(page, "team-inspector-saved")
+    full_screenshot(page, "team-inspector-saved")
     with Store(team_server["db"]) as s:
         newest = s.inspections_history(limit=1).iloc[0]
     assert (newest["lot"], newest["notes"], newest["recorded_by"], newest["source"]) == \
@@ -224,7 +215,7 @@ def test_admin_sees_accounts_the_audit_and_the_tls_warning(page, team_server):
     # served beyond loopback over plain HTTP: admins are warned (issue 15)
     assert page.get_by_text("Served beyond this computer without TLS").count() >= 1
     assert page.get_by_role("button", name="Save record").count() == 0
-    screenshot(page, "team-admin")
+    full_screenshot(page, "team-admin")
 
 
 def test_no_page_shows_a_password_or_a_hash(page, team_server):
@@ -282,7 +273,7 @@ def test_tls_serves_https(app_demo_file, tmp_path):
     shutil.copyfile(app_demo_file, db)
     with Store(db) as s:
         auth.add_user(s, "boss", "admin", PASSWORD, by="test")
-    port = _free_port(HOST)
+    port = free_port(HOST)
     env = {k: v for k, v in os.environ.items() if k != "POURBACK_DB"}
     proc = subprocess.Popen([sys.executable, "-m", "tracker", "dashboard", "--db", str(db), "--host", HOST,
                              "--port", str(port), "--tls-cert", str(cert), "--tls-key", str(key)],

@@ -7,6 +7,13 @@ never shows a bare number.
 
 Rates: functions returning ``*_pct`` columns give percentages (0..100);
 every other rate is a fraction (0..1), as in ``tracker.stats``.
+
+Unit systems: a display function that shows lengths, areas, volumes or
+masses takes ``system`` (``"metric"``, the default, or ``"us"``); its
+unit-bearing labels then name the unit of that system
+(``units.symbol``) and its values are converted (``units.to_system``).
+The constants below name the metric labels; :func:`label` gives a label
+in another system.
 """
 
 from __future__ import annotations
@@ -19,7 +26,7 @@ import pathlib
 import numpy as np
 import pandas as pd
 
-from tracker import rules, stats
+from tracker import rules, stats, units
 from tracker.alloys import ALLOYS
 from tracker.assess import assess_frame, caine_curve_points, revision_in_effect
 from tracker.errors import BadRow, NotFound
@@ -35,6 +42,55 @@ NONE = "(none)"  # the "no value" choice of an optional picker
 def db_version(path: str | os.PathLike) -> tuple:
     """A value that changes whenever the log changes (see :func:`tracker.store.data_version`)."""
     return data_version(str(path))
+
+
+# --- unit systems ---------------------------------------------------------------------
+
+# Display labels whose unit converts, with the metric quantity each holds
+# (a name ``tracker.units`` knows by its suffix).
+UNIT_LABELS = {
+    "diameter (mm)": "diameter_mm", "height (mm)": "height_mm", "riser weight (kg)": "riser_weight_kg",
+    "zone modulus (cm)": "modulus_cm", "riser modulus (cm)": "modulus_cm",
+    "thickness (mm)": "thickness_mm", "width (mm)": "width_mm", "feeding length (mm)": "length_mm",
+    "modulus (cm)": "modulus_cm", "volume (cm³)": "volume_cm3", "cooling area (cm²)": "cooling_area_cm2",
+    "now: diameter (mm)": "diameter_mm", "suggested: diameter (mm)": "diameter_mm",
+    "added metal (kg per mold)": "metal_kg",
+}
+
+
+def label(metric_label: str, system: str = units.METRIC) -> str:
+    """A display label in ``system``: ``label("diameter (mm)", "us") == "diameter (in)"``;
+    labels without a unit that converts are returned as they are."""
+    name = UNIT_LABELS.get(metric_label)
+    if name is None or system != units.US:
+        return metric_label
+    return metric_label.replace(f"({units.symbol(name, units.METRIC)}", f"({units.symbol(name, system)}", 1)
+
+
+def labels(metric_labels, system: str = units.METRIC) -> list[str]:
+    """:func:`label` of each."""
+    return [label(c, system) for c in metric_labels]
+
+
+def in_system(frame: pd.DataFrame, system: str = units.METRIC) -> pd.DataFrame:
+    """A display table with metric labels (``UNIT_LABELS``) in ``system``: the
+    unit-bearing columns converted and relabelled (a copy; metric: as it is)."""
+    if system != units.US:
+        return frame
+    out = frame.copy()
+    for col in out.columns:
+        if col in UNIT_LABELS:
+            out[col] = units.to_system(UNIT_LABELS[col], pd.to_numeric(out[col], errors="coerce"), system)
+    return out.rename(columns={c: label(c, system) for c in out.columns})
+
+
+def length_text(mm, system: str = units.METRIC, digits: int | None = None) -> str:
+    """A length in mm as text in ``system`` without its unit: "140" mm, "5.51" in.
+    Whole millimetres or, in inches, to 2 decimals (``digits`` to choose)."""
+    v = units.to_system("length_mm", float(mm), system)
+    if digits is None:
+        return f"{v:.2f}".rstrip("0").rstrip(".") if system == units.US else f"{v:g}"
+    return f"{v:.{digits}f}"
 
 
 # --- what the log holds ------------------------------------------------------------
@@ -246,6 +302,16 @@ MARGIN_PART = ["revision", "riser", "zone", "passes all rules", "failed rules", 
                "feed margin", "rule set", "zone modulus (cm)", "riser modulus (cm)", "notes"]  # verdict first
 
 
+def design_part(system: str = units.METRIC) -> list[str]:
+    """DESIGN_PART's columns in ``system``."""
+    return labels(DESIGN_PART, system)
+
+
+def margin_part(system: str = units.METRIC) -> list[str]:
+    """MARGIN_PART's columns in ``system``."""
+    return labels(MARGIN_PART, system)
+
+
 def pattern_summary(store: Store, pattern: str) -> dict:
     """A pattern's master data, its revisions and its pour totals (castings; rate in %
     of castings inspected, as the weekly review counts)."""
@@ -270,30 +336,31 @@ ZONE_COLUMNS = {  # the feeding-distance geometry first: it must show at a table
 }
 
 
-def pattern_zones(store: Store, pattern: str) -> pd.DataFrame:
+def pattern_zones(store: Store, pattern: str, system: str = units.METRIC) -> pd.DataFrame:
     """The zones of ``pattern`` for display: size, modulus V/A, thickness, width,
     feeding length and the section's shape for the feeding distance (bar or
-    plate by width over thickness; blank where either is missing)."""
+    plate by width over thickness; blank where either is missing); in ``system``."""
     store.pattern(pattern)
     z = store.zones_frame(pattern)
     z["modulus_cm"] = z["volume_cm3"].astype(float) / z["cooling_area_cm2"].astype(float)
     z["section"] = rules.section_shape(z["thickness_mm"].astype(float), z["width_mm"].astype(float))
-    return z[list(ZONE_COLUMNS)].rename(columns=ZONE_COLUMNS)
+    return in_system(z[list(ZONE_COLUMNS)].rename(columns=ZONE_COLUMNS), system)
 
 
-def risers_by_revision(store: Store, pattern: str) -> pd.DataFrame:
+def risers_by_revision(store: Store, pattern: str, system: str = units.METRIC) -> pd.DataFrame:
     """Every riser of every revision of ``pattern`` with its rule margins, for display.
 
     Margins as ``tracker.assess.assess_frame``: modulus ratio = effective riser
     modulus / zone modulus (rule: 1.2 or more); Caine margin = freezing ratio
     above the curve (0 or more passes; blank where the alloy has no
     constants); feed margin = feed volume held above the need, as a fraction
-    of the need (0 or more passes).
+    of the need (0 or more passes). Sizes and weights in ``system``
+    (``design_part`` and ``margin_part`` name its two halves' columns).
     """
     store.pattern(pattern)
     r = store.risers_frame(pattern=pattern)
     if r.empty:
-        return pd.DataFrame(columns=list(DESIGN_COLUMNS.values()))
+        return pd.DataFrame(columns=labels(DESIGN_COLUMNS.values(), system))
     a = assess_frame(r)
     a["effective_from"] = r["effective_from"].to_numpy()
     a["sleeve"] = a["sleeve"].fillna("none")
@@ -301,7 +368,7 @@ def risers_by_revision(store: Store, pattern: str) -> pd.DataFrame:
     a["failed_rules"] = a["failed_rules_text"].replace("", "none")
     a["rule_set"] = a["rule_set"].str.replace("_", " ")
     a = a.sort_values(["effective_from", "revision", "riser"], kind="stable")
-    return a[list(DESIGN_COLUMNS)].rename(columns=DESIGN_COLUMNS).reset_index(drop=True)
+    return in_system(a[list(DESIGN_COLUMNS)].rename(columns=DESIGN_COLUMNS).reset_index(drop=True), system)
 
 
 def revision_marks(store: Store, pattern: str) -> pd.DataFrame:
@@ -465,8 +532,21 @@ def with_currency(columns: list[str], code: str | None) -> list[str]:
     return [c.replace(MONEY_UNIT, money_per_year(code)) for c in columns]
 
 
-def suggestions_table(suggestions: list[dict], currency: str | None = None) -> pd.DataFrame:
-    """Suggestions (``tracker.advise.suggest``) as a display table, rates and yields in %.
+def change_part(system: str = units.METRIC) -> list[str]:
+    """CHANGE_PART's columns in ``system``."""
+    return labels(CHANGE_PART, system)
+
+
+def balance_part(code: str | None = None, system: str = units.METRIC) -> list[str]:
+    """BALANCE_PART's columns in ``system``, money headed with the currency ``code``."""
+    cols = labels(BALANCE_PART, system)
+    return with_currency(cols, code) if code else cols
+
+
+def suggestions_table(suggestions: list[dict], currency: str | None = None,
+                      system: str = units.METRIC) -> pd.DataFrame:
+    """Suggestions (``tracker.advise.suggest``) as a display table, rates and yields in %,
+    diameters and added metal in ``system``.
 
     Money columns are headed "(CODE/year)" with the log's ``currency`` code
     when it is given, else with the placeholder ``MONEY_UNIT``.
@@ -477,7 +557,7 @@ def suggestions_table(suggestions: list[dict], currency: str | None = None) -> p
     SUGGESTION_COLUMNS'.
     """
     if not suggestions:
-        cols = list(SUGGESTION_COLUMNS.values())
+        cols = labels(SUGGESTION_COLUMNS.values(), system)
         return pd.DataFrame(columns=with_currency(cols, currency) if currency else cols)
     s = pd.DataFrame(suggestions)
     changes = s["action"] != "no_riser_change"
@@ -496,7 +576,7 @@ def suggestions_table(suggestions: list[dict], currency: str | None = None) -> p
             fill = pd.Series(np.where(has_riser, "none", None), index=s.index, dtype=object)
             s[key] = s[key].astype(object).where(s[key].notna(), fill)
     cols = [c for c in SUGGESTION_COLUMNS if c in s]
-    out = s[cols].rename(columns=SUGGESTION_COLUMNS).reset_index(drop=True)
+    out = in_system(s[cols].rename(columns=SUGGESTION_COLUMNS).reset_index(drop=True), system)
     if currency:
         out.columns = with_currency(list(out.columns), currency)
     return out
@@ -526,11 +606,11 @@ def what_if_margins(result: dict) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=["rule", "design", "margin"])
 
 
-def riser_options(store: Store, on: str | None = None) -> pd.DataFrame:
+def riser_options(store: Store, on: str | None = None, system: str = units.METRIC) -> pd.DataFrame:
     """Risers of each pattern's revision in effect on ``on`` (default: the newest one of each).
 
     Columns: pattern, revision, riser, zone, alloy, placement, diameter_mm,
-    height_mm, sleeve and a picker label.
+    height_mm (metric), sleeve and a picker label (its diameter in ``system``).
     """
     r = store.risers_frame()
     cols = ["pattern", "revision", "riser", "zone", "alloy", "placement", "diameter_mm", "height_mm",
@@ -542,20 +622,22 @@ def riser_options(store: Store, on: str | None = None) -> pd.DataFrame:
                revs.sort_values(["pattern", "effective_from"]).groupby("pattern", as_index=False).tail(1))
     r = r.merge(current[["pattern", "revision"]], on=["pattern", "revision"])
     r["label"] = (r["pattern"] + " · " + r["riser"] + " on " + r["zone"] + " · "
-                  + r["diameter_mm"].map(lambda d: f"{d:g}") + " mm"
+                  + r["diameter_mm"].map(lambda d: length_text(d, system))
+                  + f" {units.symbol('diameter_mm', system)}"
                   + r["sleeve"].map(lambda s: f", sleeve {s}" if isinstance(s, str) and s else ", no sleeve"))
     return r[cols].sort_values(["pattern", "riser"]).reset_index(drop=True)
 
 
-def sleeve_options(store: Store) -> pd.DataFrame:
+def sleeve_options(store: Store, system: str = units.METRIC) -> pd.DataFrame:
     """The sleeve catalogue, smallest inner diameter first, with a picker label
-    (kind, inner diameter, height, factor)."""
+    (kind, inner diameter, height in ``system``, factor); the columns stay metric."""
     s = store.table("sleeves")
     if s.empty:
         return pd.DataFrame(columns=["sleeve", "kind", "inner_diameter_mm", "label"])
     s = s.sort_values(["inner_diameter_mm", "height_mm", "kind", "sleeve"], kind="stable")
-    s["label"] = (s["sleeve"] + " · " + s["kind"] + " · " + s["inner_diameter_mm"].map(lambda v: f"{v:g}")
-                  + " x " + s["height_mm"].map(lambda v: f"{v:g}") + " mm · factor "
+    size = lambda v: length_text(v, system)  # noqa: E731
+    s["label"] = (s["sleeve"] + " · " + s["kind"] + " · " + s["inner_diameter_mm"].map(size)
+                  + " x " + s["height_mm"].map(size) + f" {units.symbol('height_mm', system)} · factor "
                   + s["modulus_factor"].map(lambda v: f"{v:g}"))
     return s.reset_index(drop=True)
 
