@@ -163,6 +163,21 @@ def test_a_session_ends_after_the_idle_hours(team):
     assert [r["event"] for r in auth.audit_log(team)][-1] == "session_expired"
 
 
+def test_sessions_long_over_are_forgotten_at_a_later_sign_in(team):
+    # Sessions pile up one per sign-in; a row idle beyond any idle limit can never be
+    # alive again, so a sign-in drops those idle SESSIONS_KEPT_DAYS or more.
+    assert auth.SESSIONS_KEPT_DAYS * 24 > auth.MAX_IDLE_HOURS
+    old = auth.sign_in(team, "ins", PASSWORD, now=T0)
+    recent = auth.sign_in(team, "meth", PASSWORD, now=T0 + dt.timedelta(days=20))
+    auth.sign_in(team, "rev", PASSWORD, now=T0 + dt.timedelta(days=auth.SESSIONS_KEPT_DAYS, seconds=1))
+    assert team.session_row(auth._sha(old.token)) is None
+    assert team.session_row(auth._sha(recent.token)) is not None
+    with pytest.raises(SessionExpired, match="sign in again"):
+        auth.check_session(team, old, now=T0 + dt.timedelta(days=31))
+    # the audit still holds the forgotten session's sign-in
+    assert any(r["event"] == "sign_in" and r["user"] == "ins" for r in auth.audit_log(team))
+
+
 def test_idle_hours_are_settable(team):
     s = auth.sign_in(team, "ins", PASSWORD, idle_hours=0.5, now=T0)
     auth.check_session(team, s, now=T0 + dt.timedelta(minutes=29))

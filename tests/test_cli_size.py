@@ -35,6 +35,13 @@ def test_size_human_output_has_units_and_caution(runner):
     (["--volume-cm3", "0", "--area-cm2", "10"], "Error: volume_cm3: got 0.0"),
     (["--volume-cm3", "100", "--area-cm2", "150", "--h-over-d", "3.1"], "Error: h_over_d: got 3.1; H/D must lie between 0.5 and 3.0"),
     (["--volume-cm3", "100", "--area-cm2", "150", "--efficiency", "0.02"], "Error: efficiency: got 0.02; must be above the metal to feed 0.0462 (shrinkage 0.035 + liquid contraction 0.0112)"),
+    # A pour temperature out of the lots import's range is named as such, not as an
+    # efficiency too low for an absurd liquid contraction.
+    (["--volume-cm3", "100", "--area-cm2", "150", "--pour-temp-c", "99999"],
+     "Error: pour_temp_c: got 99999.0; a pour temperature lies between 400 °C and 1,800 °C"),
+    (["--volume-cm3", "100", "--area-cm2", "150", "--pour-temp-c", "nan"], "Error: pour_temp_c: got nan"),
+    (["--volume-cm3", "1e12", "--area-cm2", "1e9"], "Error: volume_cm3: got 1000000000000.0; at most 100,000,000 cm³"),
+    (["--volume-cm3", "100", "--area-cm2", "1e8"], "Error: area_cm2: got 100000000.0; at most 10,000,000 cm²"),
 ])
 def test_size_bad_input_one_line_no_traceback(runner, args, message):
     res = runner.invoke(main, ["size", "--alloy", "steel", *args])
@@ -48,3 +55,22 @@ def test_size_unknown_alloy(runner):
     assert res.exit_code == 1
     assert res.output.strip() == ("Error: alloy: got 'mithril'; known alloys are aluminum, aluminum_bronze, "
                                   "cast_iron_brass, ductile_iron, gray_iron, silicon_bronze, steel")
+
+
+def test_size_pour_below_the_liquidus_counts_no_liquid_contraction_and_says_so(runner):
+    # Steel's liquidus in the alloy table is 1,510 °C (from memory): a pour at 1,450 °C
+    # leaves nothing above it to contract, and the output says why.
+    res = runner.invoke(main, ["size", "--alloy", "steel", "--volume-cm3", "100", "--area-cm2", "150",
+                               "--pour-temp-c", "1450", "--json"])
+    assert res.exit_code == 0, res.output
+    d = json.loads(res.output)
+    assert d["liquid_contraction"] == 0.0
+    assert any("below the alloy's liquidus" in n for n in d["notes"])
+
+
+def test_size_pour_temperature_in_us_units_is_refused_in_fahrenheit(runner):
+    res = runner.invoke(main, ["size", "--units", "us", "--alloy", "steel", "--volume-in3", "122",
+                               "--area-in2", "170", "--pour-temp-f", "5000"])
+    assert res.exit_code != 0
+    # 400 °C = 752 °F and 1,800 °C = 3,272 °F (F = C x 9/5 + 32)
+    assert "Error: pour_temp_f: got 5000.0; a pour temperature lies between 752 °F and 3,272 °F" in res.output

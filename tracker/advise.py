@@ -210,7 +210,7 @@ def _remelt_charge(remelt_charge: float | None, riser_metal_charge: float | None
     else:
         field, value = "remelt_charge", DEFAULT_REMELT_CHARGE if remelt_charge is None else remelt_charge
     if not 0 <= value <= 1:
-        raise BadInput(field, value, "must be a fraction from 0 to 1 of the metal price per kg "
+        raise BadInput(field, value, "must be a fraction from 0 to 1 of the metal price "
                                      f"(default {DEFAULT_REMELT_CHARGE:g})")
     return float(value)
 

@@ -69,6 +69,9 @@ LOCK_MINUTES = 15
 DEFAULT_IDLE_HOURS = 8.0  # a shift
 MAX_IDLE_HOURS = 24.0 * 7
 TOUCH_EVERY_S = 60  # a session's last activity is written at most once a minute
+# A session idle longer than MAX_IDLE_HOURS is over; its row is dropped at a later
+# sign-in once it has been idle this long (the audit keeps the story).
+SESSIONS_KEPT_DAYS = 30
 NAME_RULE = re.compile(r"[A-Za-z0-9][A-Za-z0-9._@-]{0,63}")
 LOOPBACK_HOSTS = ("127.0.0.1", "::1", "localhost")
 # A day's inspection and lot files with room to spare: 10 MB is ~70,000 CSV rows at 150 bytes a
@@ -387,6 +390,7 @@ def sign_in(store, name: str, password: str, *, idle_hours: float = DEFAULT_IDLE
             fields["password_hash"] = hash_password(password)
         store.update_user(user, **fields)
         store.insert_session(_sha(token), user, at)
+        store.prune_sessions(_iso(now - dt.timedelta(days=SESSIONS_KEPT_DAYS)))
         store.insert_audit(at, "sign_in", user, user, None, "dashboard")
     return Session(user=user, role=acc["role"], idle_hours=idle_hours, started_at=at, token=token)
 

@@ -30,7 +30,7 @@ import pandas as pd
 
 from tracker import auth, geometry, units
 from tracker.errors import BadFile, BadRecord, BadRow, cut
-from tracker.limits import EARLIEST_DATE, RANGES, latest_date
+from tracker.limits import EARLIEST_DATE, POUR_TEMP_RANGE_C, RANGES, latest_date
 from tracker.store import DEFAULT_PLANT_KEY, KEYS, TABLE_COLUMNS, Store, retrying
 
 KINDS = ("patterns", "zones", "sleeves", "risers", "lots", "inspections")  # dependency order
@@ -65,7 +65,6 @@ US_COLUMNS = {kind: units.us_names(required + optional) for kind, (required, opt
 CHUNK_ROWS = 100_000
 PLANT_CODE = r"[A-Za-z0-9][A-Za-z0-9._-]{0,31}"
 MAX_PROBLEMS = 1000  # keep the first this many (every one is counted)
-POUR_TEMP_RANGE_C = (400.0, 1800.0)
 H_OVER_D_SANE = (0.25, 4.0)
 
 

@@ -93,6 +93,9 @@ RANGES = {
     "unit_cost": (0.0, 100_000.0, "per sleeve"),
 }
 
+# Pour temperature, °C: from below the light alloys' usual pours to above steel's.
+POUR_TEMP_RANGE_C = (400.0, 1800.0)
+
 
 def check_review_week(week: str, monday: dt.date) -> dt.date:
     """The Monday of a review week, or ``BadInput`` when the week lies outside

@@ -20,6 +20,7 @@ import numpy as np
 from tracker import geometry, rules, units
 from tracker.alloys import RULE_SETS, Alloy, get_alloy
 from tracker.errors import BadInput
+from tracker.limits import POUR_TEMP_RANGE_C, RANGES
 
 H_OVER_D_RANGE = (0.5, 3.0)
 RULES = ("caine", "modulus", "feed_volume")
@@ -67,6 +68,11 @@ def validate_section(volume_cm3, area_cm2, thickness_mm=None, system: str = unit
         refuse("volume_cm3", _first_bad(v, v <= 0), f"section volume must be a number above 0 {sym['volume_cm3']}")
     if not np.all(np.isfinite(a)) or np.any(a <= 0):
         refuse("area_cm2", _first_bad(a, a <= 0), f"cooling area must be a number above 0 {sym['area_cm2']}")
+    for name, arr, limit in (("volume_cm3", v, RANGES["volume_cm3"][1]), ("area_cm2", a, RANGES["cooling_area_cm2"][1])):
+        if np.any(arr > limit):
+            refuse(name, _first_bad(arr, arr > limit),
+                   f"at most {units.show(name, limit, system)}, larger than any casting section poured; "
+                   f"check the units ({sym[name]})")
     if thickness_mm is not None:
         t = np.asarray(thickness_mm, dtype=float)
         if np.any(~np.isnan(t) & (t <= 0)):
@@ -81,6 +87,23 @@ def validate_section(volume_cm3, area_cm2, thickness_mm=None, system: str = unit
                    f"({units.show('length_cm', half, system, 2)}), more than a plate of that "
                    f"thickness cooling on both faces can have; check the units ({sym['area_cm2']}, "
                    f"{sym['volume_cm3']}, {sym['thickness_mm']})")
+
+
+def validate_pour_temp(pour_temp_c, system: str = units.METRIC) -> None:
+    """Refuse a pour temperature (°C, one figure or an array where NaN is the alloy's default)
+    outside the range an import of lots takes, naming the value and the range in
+    the units of ``system``."""
+    if pour_temp_c is None:
+        return
+    t = np.asarray(pour_temp_c, dtype=float)
+    lo, hi = POUR_TEMP_RANGE_C
+    # NaN in an array is a lot without a reading; a single figure must be a number
+    bad = (np.isnan(t) if t.ndim == 0 else np.isinf(t)) | (t < lo) | (t > hi)
+    if np.any(bad):
+        raise BadInput(units.column_name("pour_temp_c", system),
+                       units.value_in("pour_temp_c", _first_bad(t, bad), system),
+                       f"a pour temperature lies between {units.show('pour_temp_c', lo, system)} and "
+                       f"{units.show('pour_temp_c', hi, system)}; check the figure and its unit")
 
 
 def _first_bad(arr, mask):
@@ -239,6 +262,7 @@ def size_risers(section_volume_cm3, section_area_cm2, alloy, placement="side", h
     alloy = _as_alloy(alloy)
     mould = rules.check_mould(mould)
     eff = default_efficiency(alloy, sleeve_factor) if efficiency is None else efficiency
+    validate_pour_temp(pour_temp_c)
     beta, liquid = rules.feed_fraction(alloy, mould, pour_temp_c, shrinkage)
     validate_section(section_volume_cm3, section_area_cm2)
     validate_design_options(h_over_d, sleeve_factor, modulus_factor)
@@ -379,6 +403,7 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
         eff, eff_src = alloy.bare_efficiency, "bare sand, the alloy's value (from memory)"
     if sleeve is not None:
         sleeve_factor = float(sleeve["modulus_factor"])
+    validate_pour_temp(pour_temp_c, system)
     beta, liquid = rules.feed_fraction(alloy, mould, pour_temp_c, shrinkage)
     validate_section(volume_cm3, area_cm2, thickness_mm, system)
     validate_design_options(h_over_d, sleeve_factor, modulus_factor)
@@ -414,6 +439,10 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
     needed = not (pc and bool(rules.riserless_possible(mc, mould)))
     warn = geometry.joined_faces_warning(vc, float(area_cm2), system)
     notes = []
+    if pour_temp_c is not None and alloy.liquidus_c is not None and pour_temp_c < alloy.liquidus_c:
+        notes.append(f"pour temperature {units.show('pour_temp_c', pour_temp_c, system)} is below the alloy's "
+                     f"liquidus ({units.show('pour_temp_c', alloy.liquidus_c, system)}): no liquid contraction "
+                     "is counted; check the figure")
     if pc:
         notes.append(f"pressure control ({mould.replace('_', ' ')} mould): the riser feeds the liquid "
                      f"contraction{'' if mould == 'rigid' else ' and the mould-wall allowance'} until "

@@ -1415,6 +1415,11 @@ class Store:
         self.conn.execute("UPDATE sessions SET last_seen = ? WHERE token_sha256 = ? AND ended_at IS NULL",
                           (at, token_sha256))
 
+    def prune_sessions(self, seen_before: str) -> int:
+        """Forget the sessions last active before ``seen_before`` (ISO time): none of
+        them can be alive any more; the audit keeps their sign-ins and sign-outs."""
+        return self.conn.execute("DELETE FROM sessions WHERE last_seen < ?", (seen_before,)).rowcount
+
     def end_sessions(self, at: str, reason: str, *, token_sha256: str | None = None,
                      user: str | None = None) -> int:
         """End one session (by token hash) or every open session of ``user``."""

@@ -22,7 +22,7 @@ def _money(v) -> str | None:
 
 remelt_option = click.option(
     "--remelt-charge", "--riser-metal-charge", "remelt_charge", type=float, default=None,
-    help="Share of the metal price per kg lost on metal poured that does not ship, charged alike on "
+    help="Share of the metal price lost on metal poured that does not ship, charged alike on "
          "scrapped castings and on extra riser metal: melting, handling, melt loss (default 0.3; common "
          "practice 0.2 to 0.4, shop practice varies). --riser-metal-charge is its old name.")
 basis_note = ("Money basis: the predicted rates now and after are both the reject model's, for the "
