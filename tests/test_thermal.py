@@ -9,6 +9,7 @@ a metal from the steel properties with ``with_overrides`` and says so.
 import json
 import math
 import time
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -19,7 +20,7 @@ from tracker.cli import main
 from tracker.errors import BadInput
 from tracker.sizing import caine_min_diameter_cm
 from tracker.alloys import ALLOYS
-from tracker.thermal import JSON_KEYS, ThermalCase, properties as P, run
+from tracker.thermal import JSON_KEYS, ThermalCase, notes_text, properties as P, run
 from tracker.thermal.model import _axis, build
 from tracker.thermal.solver import FIXED, MOULD, SECTION, SLEEVE, Grid, PhaseCurve, solve
 
@@ -302,8 +303,13 @@ def test_case_validation_names_the_field(runner):
     result = runner.invoke(main, _ARGS + ["--neck-diameter-mm", "200"])
     assert result.exit_code != 0 and "neck-diameter-mm: got 200.0; a neck wider than the riser" in result.output
     # a stored riser whose neck is wider than a smaller what-if diameter: narrowed, and said so
-    b = build(ThermalCase("steel", "side", 50, 300, 300, 100, 100, neck_diameter_mm=150))
+    case = ThermalCase("steel", "side", 50, 300, 300, 100, 100, neck_diameter_mm=150)
+    b = build(case)
     assert any("wider than the riser" in n for n in b.notes)
+    # worded in the user's units: 150 mm = 5.91 in, 100 mm = 3.94 in (25.4 mm to the inch)
+    shown = notes_text(SimpleNamespace(case=case, notes=b.notes), "us")
+    neck = [n for n in shown if "wider than the riser" in n]
+    assert neck and "5.91 in" in neck[0] and "3.94 in" in neck[0] and "mm" not in neck[0]
     with pytest.raises(BadInput, match="sleeve-factor"):
         build(ThermalCase("steel", "side", 50, 300, 300, 100, 100, sleeve_factor=3.0))
 

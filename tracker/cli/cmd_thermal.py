@@ -148,7 +148,7 @@ def _at(p, system: str = units.METRIC) -> str:
 
 
 def format_thermal(r, system: str = units.METRIC) -> str:
-    from tracker.thermal import THERMAL_CAUTION, reasons_text
+    from tracker.thermal import THERMAL_CAUTION, notes_text, reasons_text
 
     us = system == units.US
     ny_value = units.value_in("niyama", r.min_niyama, system) if us else r.min_niyama
@@ -179,6 +179,6 @@ def format_thermal(r, system: str = units.METRIC) -> str:
     w = max(len(k) for k, _ in rows)
     out = [f"{k:<{w}}  {v}" for k, v in rows]
     out.append(f"Niyama threshold source: {r.niyama_source}")
-    out += [f"Note: {n}" for n in r.notes]
+    out += [f"Note: {n}" for n in notes_text(r, system)]
     out += ["", "THERMAL: " + THERMAL_CAUTION, caution_text()]
     return "\n".join(out)

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from tracker.thermal import properties
-from tracker.thermal.model import ThermalCase, build, model_kind, validate
+from tracker.thermal.model import ThermalCase, build, model_kind, neck_note, validate
 from tracker.thermal.properties import NIYAMA_UNIT
 from tracker.thermal.solver import NECK, RISER, SECTION, solve
 
@@ -101,6 +101,16 @@ def reasons_text(result: "ThermalResult", system: str = "metric") -> list[str]:
                     result.niyama_threshold, system)
 
 
+def notes_text(result: "ThermalResult", system: str = "metric") -> list[str]:
+    """``result.notes`` worded in ``system`` (tracker.units): the one note with a
+    length in it, the neck wider than the riser, in inches for ``us``."""
+    case = result.case
+    wide = case.neck_diameter_mm is not None and case.neck_diameter_mm > case.diameter_mm
+    metric = neck_note(case.neck_diameter_mm, case.diameter_mm) if wide else None
+    return [neck_note(case.neck_diameter_mm, case.diameter_mm, system) if wide and n == metric else n
+            for n in result.notes]
+
+
 def run(case: ThermalCase, cells_across: int | None = None, keep_maps: bool = True) -> ThermalResult:
     """Solve one case and judge it (see the module docstring)."""
     kw = {} if cells_across is None else {"cells_across": cells_across}
@@ -154,5 +164,5 @@ def judge(case, b, out, keep_maps: bool = True) -> ThermalResult:
         notes=list(b.notes), maps=maps)
 
 
-__all__ = ["ThermalCase", "ThermalResult", "run", "reasons_text", "build", "model_kind", "validate",
-           "THERMAL_CAUTION", "JSON_KEYS", "ISOLATED_MIN_SHARE"]
+__all__ = ["ThermalCase", "ThermalResult", "run", "reasons_text", "notes_text", "build", "model_kind",
+           "validate", "THERMAL_CAUTION", "JSON_KEYS", "ISOLATED_MIN_SHARE"]

@@ -258,6 +258,14 @@ def section_dims(case: ThermalCase, kind: str) -> tuple[float, float]:
     return t2, length
 
 
+def neck_note(neck_mm: float, riser_mm: float, system: str = "metric") -> str:
+    """The note of a neck given wider than its riser, its figures in ``system``."""
+    from tracker import units
+
+    return (f"the neck ({units.show('diameter_mm', neck_mm, system)}) is wider than the riser: taken as "
+            f"wide as the riser ({units.show('diameter_mm', riser_mm, system)})")
+
+
 def build(case: ThermalCase, cells_across: int = DEFAULT_CELLS_ACROSS,
           steps_per_section: int = STEPS_PER_SECTION) -> Built:
     """The grid, properties and time step of one case."""
@@ -285,7 +293,7 @@ def build(case: ThermalCase, cells_across: int = DEFAULT_CELLS_ACROSS,
     h = t_sec / cells_across
     neck_d = case.neck_diameter_mm
     if neck_d is not None and neck_d > d:
-        notes.append(f"the neck ({neck_d:g} mm) is wider than the riser: taken as wide as the riser ({d:g} mm)")
+        notes.append(neck_note(neck_d, d))
         neck_d = d
     rects = []
     if kind == "axisymmetric":

@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 
 from tracker import units
-from tracker.thermal import THERMAL_CAUTION, ThermalResult, reasons_text
+from tracker.thermal import THERMAL_CAUTION, ThermalResult, notes_text, reasons_text
 from tracker.thermal.solver import NECK, RISER, SECTION, SLEEVE
 
 REGION_NAMES = {SECTION: "section", RISER: "riser", NECK: "neck", SLEEVE: "sleeve"}
@@ -66,7 +66,7 @@ def summary(result: ThermalResult, system: str = units.METRIC) -> dict:
              grid=result.grid, cell_mm=result.cell_mm, time_step_s=result.time_step_s,
              steps=result.steps, pour_temp_c=result.pour_temp_c, last_point_mm=result.last_point_mm,
              min_niyama_at_mm=result.min_niyama_at_mm, niyama_source=result.niyama_source,
-             isolated_share=result.isolated_share, notes=result.notes, caution=THERMAL_CAUTION,
+             isolated_share=result.isolated_share, notes=notes_text(result, system), caution=THERMAL_CAUTION,
              length_unit=u, cell_size=float(_length(result.cell_mm, system)),
              last_point=tuple(float(_length(v, system)) for v in result.last_point_mm),
              pour_temp=float(units.to_system("pour_temp_c", result.pour_temp_c, system)),
