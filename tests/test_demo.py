@@ -1,7 +1,8 @@
 """The demo foundry generator: reproducible, valid, and its planted story holds.
 
-Rule checks here recompute each riser from the CSV files with tracker.geometry
-and tracker.rules directly, not through the generator's own helper.
+Rule checks here judge each riser of the written CSV files the way `pourback
+check` does (imported into a log, tracker.assess), not through the generator's
+own helper: every riser but the story's undersized ones passes the check.
 """
 
 import csv
@@ -12,8 +13,10 @@ from collections import defaultdict
 
 import pytest
 
-from tracker import demo, geometry, rules
-from tracker.alloys import get_alloy
+from tracker import demo
+from tracker.assess import assess_frame
+from tracker.ingest import import_files
+from tracker.store import Store
 
 DEFECTS = {"shrinkage", "gas", "sand", "slag", "misrun", "cold_shut", "hot_tear", "crack",
            "dimensional", "other"}
@@ -61,34 +64,17 @@ def lot_results(data):
     return out
 
 
-def _riser_verdicts(data):
-    """(pattern, revision, riser) -> (zone, passes every rule) from the CSV files."""
-    patterns = {p["pattern"]: p for p in data["patterns"]}
-    zones = {(z["pattern"], z["zone"]): z for z in data["zones"]}
-    sleeves = {s["sleeve"]: s for s in data["sleeves"]}
-    out = {}
-    for r in data["risers"]:
-        alloy = get_alloy(patterns[r["pattern"]]["alloy"])
-        z = zones[(r["pattern"], r["zone"])]
-        vc, ac = float(z["volume_cm3"]), float(z["cooling_area_cm2"])
-        mc = vc / ac
-        d, h = float(r["diameter_mm"]) / 10, float(r["height_mm"]) / 10
-        s = sleeves.get(r["sleeve"])
-        f = float(s["modulus_factor"]) if s else 1.0
-        eps = float(s["feeding_efficiency"]) if s else alloy.bare_efficiency
-        mr = rules.effective_modulus(geometry.cylinder_modulus(d, h, r["placement"]), f)
-        vr = geometry.cylinder_volume(d, h)
-        ok = bool(rules.modulus_ok(mr, mc))
-        ok &= rules.feed_margin(vr, vc, alloy.shrinkage, eps) >= -1e-9
-        if alloy.caine is not None:
-            ok &= bool(rules.caine_ok(mr / mc, vr / vc, alloy.caine))
-        if r["placement"] == "side" and r["neck_diameter_mm"]:
-            mn = geometry.bar_neck_modulus(float(r["neck_diameter_mm"]) / 10)
-            ok &= bool(rules.neck_ok(mn, mc, mr))
-        if alloy.key == "steel" and z["thickness_mm"] and z["length_mm"]:
-            ok &= float(z["length_mm"]) <= rules.plate_feeding_distance_mm(float(z["thickness_mm"]))
-        out[(r["pattern"], int(r["revision"]), r["riser"])] = (r["zone"], bool(ok))
-    return out
+@pytest.fixture(scope="module")
+def verdicts(paths, tmp_path_factory):
+    """(pattern, revision, riser) -> (zone, passes every rule), every revision of the
+    files judged as `pourback check` judges the one in effect (tracker.assess, the
+    alloy's rule set, liquid contraction at its default superheat)."""
+    db = tmp_path_factory.mktemp("verdicts") / "log.db"
+    with Store(str(db)) as store:
+        import_files(store, [(k, paths[k]) for k in ("patterns", "zones", "sleeves", "risers")])
+        judged = assess_frame(store.risers_frame())
+    assert len(judged) == sum(1 for _ in open(paths["risers"], encoding="utf-8")) - 1
+    return {(r.pattern, int(r.revision), r.riser): (r.zone, bool(r.passes)) for r in judged.itertuples()}
 
 
 # --- reproducibility ------------------------------------------------------------------
@@ -242,9 +228,8 @@ def test_story_matches_the_configuration():
     assert len(s["sound_examples"]) >= 5
 
 
-def test_proper_risers_pass_and_undersized_fail(data):
+def test_proper_risers_pass_and_undersized_fail(verdicts):
     s = demo.story()
-    verdicts = _riser_verdicts(data)
     undersized = {(p, r): z for p, r, z in s["undersized"]}
     rp, rr, rz, rrev, _ = s["resized"]
     for (pattern, rev, riser), (zone, ok) in verdicts.items():

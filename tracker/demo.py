@@ -9,20 +9,25 @@ over 26 ISO weeks ending at ``end_week``.
 Geometry. Every zone is a plate or block of invented dimensions (cm); its
 volume is L·W·T and its cooling area the block's surface less the faces joined
 to other metal. Every zone is fed by exactly one cylindrical riser. Most risers
-are designed properly: sized with :func:`tracker.sizing.size_riser` and rounded
-up to 10 mm steps, or fitted with the cheapest sleeve of the shop's catalogue
-that meets every rule.
+are designed properly, by the alloy's own rule set (pressure control for ductile
+iron, the liquid contraction at the alloy's default superheat): sized with
+:func:`tracker.sizing.size_riser` and rounded up to 10 mm steps (finer where
+10 mm would make a ductile-iron riser oversized), or fitted with the cheapest
+sleeve of the shop's catalogue that meets every rule. ``pourback check`` passes
+every one of them.
 
 Reject law. Reject counts are not written per pattern. One law is applied to
 every zone of every lot (:func:`riser_margins`, :func:`shrinkage_rate`):
 
-- the riser's margins are computed with the library (effective modulus ratio
-  against 1.2, Caine's margin X - X_curve(Y) where the alloy has Caine
-  constants, feed-volume margin, neck, and for steel the feeding distance
-  where the zone gives thickness and length);
+- the riser's margins are the ones ``pourback check`` gives
+  (:func:`tracker.assess.assess_frame`: the modulus ratio against what the
+  rule set asks, Caine's margin X - X_curve(Y) where the alloy has Caine
+  constants, the feed-volume margin with the liquid contraction, the neck,
+  and for steel the feeding distance where the zone gives it);
 - each margin is turned into a shortfall on a linear-size scale (0 when the
   rule passes; e.g. 1 - ratio/1.2 for the modulus rule, 1 - cbrt(give/need)
-  for feed volume) and the worst one is taken;
+  for feed volume) and the worst one is taken (an oversized riser costs
+  yield, not soundness);
 - shrinkage reject probability per casting in the zone is
   ``base + p_max · s² / (s² + s0²)`` (base 0.35 %, p_max 20 %, s0 0.15), times a
   small pour-temperature factor (hotter metal shrinks more);
@@ -37,11 +42,11 @@ The story that emerges from the geometry (for the default window, 2026-W22 to
 - three undersized risers, shrinkage rejects concentrated in their zone:
   P-1017 (steel valve body 200) riser R3 on zone flange-B, a bare side riser of
   100 mm where its twin R2 on the identical zone flange-A has 130 mm (fails the
-  modulus rule, Caine's curve and the neck); P-1036 (steel bearing housing 90)
-  riser R2 on zone boss, fitted with too small an exothermic sleeve, XS-90
+  modulus rule, Caine's curve, feed volume and the neck); P-1036 (steel bearing
+  housing 90) riser R2 on zone boss, fitted with too small an exothermic sleeve, XS-90
   (fails Caine's curve and the modulus rule); P-3014 (aluminium gearbox
-  cover) riser R2 on zone boss, a bare 70 mm top riser, about 80 % of its
-  required size (fails all three rules).
+  cover) riser R2 on zone boss, a bare 70 mm top riser, under three quarters
+  of the 96 mm the rules ask (fails all three rules).
 - P-1009 (steel impeller 300): every riser passes with margin, yet about 8 % of
   castings are rejected for gas porosity (x-ray category A) -- a core-venting
   problem, not a riser problem.
@@ -65,10 +70,11 @@ import sys
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 
 from tracker import geometry, rules
 from tracker.alloys import Alloy, get_alloy
-from tracker.sizing import size_riser
+from tracker.sizing import size_riser, suggested_neck_mm
 
 SCENARIO_NAME = "the demo foundry (invented)"
 
@@ -125,20 +131,30 @@ RADIOGRAPHERS = ("RT-PW", "RT-DN")
 def shortfall(margins: dict) -> float:
     """The worst shortfall of a riser against the rules, on a linear-size scale.
 
-    0 when every rule passes. Modulus rule: 1 - ratio / 1.2; Caine: 1 - X /
-    X_curve(Y) (1 where Y lies below b, the curve never reached); feed volume:
-    1 - cbrt(give / need); neck: 1 - M_neck / M_section where the neck freezes
-    before the section; feeding distance (steel): 1 - 4.5 T / length.
+    0 when every rule passes. Modulus rule: 1 - ratio / the ratio the rule set
+    asks (1.2 for the modulus sequence; 1.2 x the neck's under pressure
+    control); Caine: 1 - X / X_curve(Y) (1 where Y lies below b, the curve
+    never reached); feed volume: 1 - cbrt(give / need), the need counting the
+    liquid contraction; neck: 1 - M_neck / the least the rule set asks where
+    the neck freezes too early, and under pressure control M_neck / the most
+    it allows - 1 where it freezes too late (the expansion pushes metal back
+    into the riser); feeding distance (steel): 1 - distance / length. An
+    oversized riser costs yield, not soundness: no shortfall.
     """
-    s = [max(0.0, 1.0 - margins["modulus_ratio"] / rules.DEFAULT_MODULUS_FACTOR)]
+    s = [0.0]
+    if margins["modulus_required_ratio"] > 0:
+        s.append(max(0.0, 1.0 - margins["modulus_ratio"] / margins["modulus_required_ratio"]))
     if margins["caine_x_curve"] is not None:
         xc = margins["caine_x_curve"]
         s.append(1.0 if not math.isfinite(xc) else max(0.0, 1.0 - margins["freezing_ratio"] / xc))
-    give_over_need = max(margins["feed_margin"] + 1.0, 0.0)
-    s.append(max(0.0, 1.0 - give_over_need ** (1.0 / 3.0)))
+    if margins["riser_needed"]:
+        give_over_need = max(margins["feed_margin"] + 1.0, 0.0)
+        s.append(max(0.0, 1.0 - give_over_need ** (1.0 / 3.0)))
     if margins["neck_modulus_cm"] is not None:
-        s.append(max(0.0, 1.0 - margins["neck_modulus_cm"] / margins["section_modulus_cm"]))
-    if margins["feeding_distance_mm"] is not None:
+        s.append(max(0.0, 1.0 - margins["neck_modulus_cm"] / margins["neck_min_modulus_cm"]))
+        if margins["rule_set"] == "pressure_control":
+            s.append(max(0.0, margins["neck_modulus_cm"] / margins["neck_max_modulus_cm"] - 1.0))
+    if margins["feeding_distance_ok"] is False:
         s.append(max(0.0, 1.0 - margins["feeding_distance_mm"] / margins["length_mm"]))
     return float(max(s))
 
@@ -190,47 +206,43 @@ def riser_margins(alloy, section_volume_cm3: float, section_area_cm2: float, pla
                   diameter_mm: float, height_mm: float, sleeve: Sleeve | None = None,
                   neck_diameter_mm: float | None = None, thickness_mm: float | None = None,
                   length_mm: float | None = None) -> dict:
-    """Every rule's verdict on one cylindrical riser feeding one section.
+    """Every rule's verdict on one cylindrical riser feeding one section, as
+    ``pourback check`` gives it (:func:`tracker.assess.assess_frame`: the
+    alloy's rule set, liquid contraction at the alloy's default superheat, a
+    green-sand mould).
 
-    Section volume cm³ and cooling area cm²; riser diameter and height mm.
-    Returns moduli (cm), the modulus ratio, Caine's X, Y, X_curve and margin
-    (None where the alloy has no Caine row), the feed margin (give / need - 1),
-    the neck verdict for side risers with a neck, the feeding distance (steel,
-    only where thickness and length are given), ``passes`` and ``shortfall``.
+    Section volume cm³ and cooling area cm²; riser diameter and height mm;
+    ``thickness_mm`` and ``length_mm`` as the zones file gives them (None where
+    it leaves them out). Returns the check's columns (moduli in cm, ratios,
+    Caine's X, Y, X_curve and margin, the feed margin give / need - 1, the
+    neck's window, ``passes``), ``caine_x_curve`` None where the alloy has no
+    Caine row, ``neck_modulus_cm`` None without a neck, ``length_mm``, and
+    ``shortfall``.
     """
+    from tracker.assess import assess_frame
+
     alloy = alloy if isinstance(alloy, Alloy) else get_alloy(alloy)
-    d, h = diameter_mm / 10.0, height_mm / 10.0
-    f = 1.0 if sleeve is None else sleeve.modulus_factor
-    eps = alloy.bare_efficiency if sleeve is None else sleeve.feeding_efficiency
-    mc = section_volume_cm3 / section_area_cm2
-    vr = float(geometry.cylinder_volume(d, h))
-    mr = float(rules.effective_modulus(geometry.cylinder_modulus(d, h, placement), f))
-    x = float(rules.modulus_ratio(mr, mc))
-    y = vr / section_volume_cm3
-    out = {
-        "section_modulus_cm": mc, "riser_modulus_cm": mr, "riser_volume_cm3": vr,
-        "modulus_ratio": x, "modulus_ok": bool(rules.modulus_ok(mr, mc)),
-        "freezing_ratio": x, "volume_ratio": y,
-        "caine_x_curve": None, "caine_margin": None, "caine_ok": None,
-        "feed_margin": float(rules.feed_margin(vr, section_volume_cm3, alloy.shrinkage, eps)),
-        "neck_modulus_cm": None, "neck_ok": None,
-        "feeding_distance_mm": None, "length_mm": None, "distance_ok": None,
-    }
-    out["feed_ok"] = out["feed_margin"] >= -1e-9
-    if alloy.caine is not None:
-        out["caine_x_curve"] = float(alloy.caine.x_curve(y))
-        out["caine_margin"] = float(rules.caine_margin(x, y, alloy.caine))
-        out["caine_ok"] = bool(rules.caine_ok(x, y, alloy.caine))
-    if placement == "side" and neck_diameter_mm:
-        mn = float(geometry.bar_neck_modulus(neck_diameter_mm / 10.0))
-        out["neck_modulus_cm"] = mn
-        out["neck_ok"] = bool(rules.neck_ok(mn, mc, mr))
-    if alloy.key == "steel" and thickness_mm and length_mm:
-        fd = float(rules.plate_feeding_distance_mm(thickness_mm))
-        out.update(feeding_distance_mm=fd, length_mm=float(length_mm),
-                   distance_ok=bool(length_mm <= fd))
-    verdicts = [out[k] for k in ("modulus_ok", "caine_ok", "feed_ok", "neck_ok", "distance_ok")]
-    out["passes"] = all(v for v in verdicts if v is not None)
+    cn = alloy.caine
+    row = {"pattern": "", "revision": 1, "riser": "", "zone": "", "alloy": alloy.key, "placement": placement,
+           "top": "open", "diameter_mm": diameter_mm, "height_mm": height_mm,
+           "volume_cm3": section_volume_cm3, "cooling_area_cm2": section_area_cm2,
+           "shrinkage": alloy.shrinkage, "bare_efficiency": alloy.bare_efficiency,
+           "caine_a": cn.a if cn else np.nan, "caine_b": cn.b if cn else np.nan,
+           "caine_c": cn.c if cn else np.nan, "density_kg_dm3": alloy.density_kg_dm3,
+           "sleeve": sleeve.sleeve if sleeve else None, "sleeve_kind": sleeve.kind if sleeve else None,
+           "sleeve_factor": sleeve.modulus_factor if sleeve else np.nan,
+           "sleeve_efficiency": sleeve.feeding_efficiency if sleeve else np.nan,
+           "neck_diameter_mm": np.nan if neck_diameter_mm is None else neck_diameter_mm,
+           "thickness_mm": np.nan if thickness_mm is None else thickness_mm,
+           "length_mm": np.nan if length_mm is None else length_mm}
+    r = assess_frame(pd.DataFrame([row])).iloc[0].to_dict()
+    out = {k: (v.item() if isinstance(v, np.generic) else v) for k, v in r.items()}
+    out["caine_x_curve"] = out.pop("caine_curve_x") if out["caine_applied"] else None
+    out["neck_modulus_cm"] = None if neck_diameter_mm is None else out["neck_modulus_cm"]
+    out["length_mm"] = length_mm
+    fd_ok = out["feeding_distance_ok"]
+    out["feeding_distance_ok"] = None if fd_ok is None or fd_ok != fd_ok else bool(fd_ok)
+    out["passes"] = bool(out["passes"])
     out["shortfall"] = shortfall(out)
     return out
 
@@ -435,23 +447,25 @@ def _neck_mm(section_modulus_cm: float, riser_modulus_cm: float) -> float:
 
 
 def _design(alloy: Alloy, z: ZoneSpec, design: tuple) -> tuple[float, float, str, float | None]:
-    """(diameter mm, height mm, sleeve code or "", neck mm or None) for one zone."""
+    """(diameter mm, height mm, sleeve code or "", neck mm or None) for one zone,
+    designed by the alloy's own rule set (pressure control for ductile iron)."""
     kind, arg = design
     vc, ac = z.volume_cm3, z.cooling_area_cm2
     mc = vc / ac
+    pc = alloy.rule_set == "pressure_control"
 
     def neck(d, h, sleeve):
         if z.placement != "side":
             return None
+        if pc:  # the middle of the 0.5-0.8 x M_s window, to the mm
+            return float(round(float(suggested_neck_mm(alloy, mc))))
         f = 1.0 if sleeve is None else sleeve.modulus_factor
         mr = f * float(geometry.cylinder_modulus(d / 10, h / 10, "side"))
         return _neck_mm(mc, mr)
 
     def check(d, h, sleeve):
         n = neck(d, h, sleeve)
-        m = riser_margins(alloy, vc, ac, z.placement, d, h, sleeve, n,
-                          z.thickness_mm, z.length_mm)
-        return m["passes"], n
+        return _margins(alloy, z, d, h, sleeve, n)["passes"], n
 
     if kind == "sleeve":
         choices = [SLEEVE_BY_CODE[arg]] if arg else sorted(SLEEVES, key=lambda s: s.unit_cost)
@@ -459,18 +473,28 @@ def _design(alloy: Alloy, z: ZoneSpec, design: tuple) -> tuple[float, float, str
             ok, n = check(s.inner_diameter_mm, s.height_mm, s)
             if ok or arg:
                 return s.inner_diameter_mm, s.height_mm, s.sleeve, n
-        kind, arg = "scale", 1.0  # no catalogue sleeve is big enough: a bare riser
-    # The invented foundry sizes by the modulus sequence and solidification shrinkage
-    # alone (pour temperature at the liquidus: no liquid contraction), ductile iron too.
-    r = size_riser(vc, ac, alloy, z.placement, z.h_over_d, pour_temp_c=alloy.liquidus_c,
-                   rule_set="modulus_sequence")
+        kind, arg = "scale", 1.0  # no catalogue sleeve fits: a bare riser
+    r = size_riser(vc, ac, alloy, z.placement, z.h_over_d)
     if arg >= 1.0:
-        d = _ceil_to(r.diameter_mm * arg, 10.0)
-        h = _ceil_to(d * z.h_over_d, 10.0)
+        # up to the shop's 10 mm step; under pressure control a finer step where 10 mm
+        # would make the riser oversized (a steel riser's size)
+        for step in (10.0, 5.0, 1.0):
+            d = _ceil_to(r.diameter_mm * arg, step)
+            h = _ceil_to(d * z.h_over_d, step)
+            if not pc or check(d, h, None)[0]:
+                break
     else:
         d = round(r.diameter_mm * arg / 10.0) * 10.0
         h = round(d * z.h_over_d / 10.0) * 10.0
     return d, h, "", neck(d, h, None)
+
+
+def _margins(alloy: Alloy, z: ZoneSpec, d: float, h: float, sleeve: Sleeve | None, neck: float | None) -> dict:
+    """:func:`riser_margins` of a riser on ``z``, the zone as the zones file gives it
+    (thickness for cast irons and steel, feeding length for steel only)."""
+    return riser_margins(alloy, z.volume_cm3, z.cooling_area_cm2, z.placement, d, h, sleeve, neck,
+                         z.thickness_mm if alloy.key != "aluminum" else None,
+                         z.length_mm if alloy.key == "steel" else None)
 
 
 def _weeks(weeks: int, end_week: str) -> list[dt.date]:
@@ -515,9 +539,7 @@ def _scenario(weeks: int, end_week: str) -> _Scenario:
                 d, h, sleeve, neck = _design(alloy, z, changes.get(z.zone, z.design))
                 risers.append(RiserRow(p.code, rev, eff, f"R{k}", z.zone, z.placement, z.top,
                                        d, h, sleeve, neck))
-                margins[(p.code, rev, z.zone)] = riser_margins(
-                    alloy, z.volume_cm3, z.cooling_area_cm2, z.placement, d, h,
-                    SLEEVE_BY_CODE.get(sleeve), neck, z.thickness_mm, z.length_mm)
+                margins[(p.code, rev, z.zone)] = _margins(alloy, z, d, h, SLEEVE_BY_CODE.get(sleeve), neck)
     return _Scenario(mondays, resize_date, risers, margins)
 
 
