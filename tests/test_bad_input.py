@@ -380,8 +380,13 @@ FILE_CASES = [
      "was probably cut off while being copied or saved: export it again"),
     ("cell-over-a-mebibyte", "inspections", HEADER + '\nL3,2026-03-06,visual,1,accept,,,,,,QE,"'
      + "y" * ((1 << 20) + 1) + '"\n',
-     "inspections.csv, row 2: a cell is longer than 1,048,576 characters (the limit of one cell); a quote that "
-     "is never closed takes in the rest of the file: check the quotes on that row"),
+     "inspections.csv, row 2, column notes: a cell is longer than 1,048,576 characters (the limit of one cell); "
+     "a quote that is never closed takes in the rest of the file: check the quotes on that row"),
+    ("unclosed-quote-swallows-the-file", "lots", "lot,pattern,poured_on,heat,molds\nL4,T-100,2026-04-01,\"H4,5\n"
+     + "L5,T-100,2026-04-01,H5,5\n" * 50_000,
+     "lots.csv, row 2, column heat: a cell is longer than 1,048,576 characters"),
+    ("header-cell-over-a-mebibyte", "lots", 'lot,"pattern' + "x" * (1 << 20) + "\n",
+     "lots.csv, row 1, column 2 (no header): a cell is longer than 1,048,576 characters"),
 ]
 _NAMES = {"unknown-suffix": "patterns.json", "xlsx-not-a-workbook": "patterns.xlsx"}
 

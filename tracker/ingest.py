@@ -231,6 +231,7 @@ def _sniff(path: pathlib.Path, kind: str) -> str | None:
 def _check_records(name: str, kind: str, reader, sep: str = ",", ends_line: bool = True,
                    path: pathlib.Path | None = None) -> int:
     n = 1
+    header = None
     try:
         header = next(reader, None)
         while header and not header[-1].strip():
@@ -266,7 +267,10 @@ def _check_records(name: str, kind: str, reader, sep: str = ",", ends_line: bool
                                            "cells"))
     except csv.Error as exc:
         if "field larger than field limit" in str(exc):
-            raise BadFile(name, [], f"{name}, row {n + 1}: a cell is longer than {FIELD_LIMIT:,} characters "
+            row = 1 if header is None else n + 1  # the header itself, or the record after the last read
+            column = _long_cell_column(path, sep, row, header or [])
+            where = f"row {row}" + (f", column {column}" if column else "")
+            raise BadFile(name, [], f"{name}, {where}: a cell is longer than {FIELD_LIMIT:,} characters "
                                     "(the limit of one cell); a quote that is never closed takes in the rest "
                                     "of the file: check the quotes on that row") from None
         raise BadFile(name, [], f"{name}: not a readable CSV ({exc}); check quotes and separators") from None
@@ -277,6 +281,32 @@ def _check_records(name: str, kind: str, reader, sep: str = ",", ends_line: bool
                                 f"header's {width} cells and no line end; the file was probably cut off "
                                 "while being copied or saved: export it again")
     return width
+
+
+LONG_CELL_SCAN_BYTES = 64 << 20  # a file up to this size is read again to name a too-long cell's column
+
+
+def _long_cell_column(path: pathlib.Path | None, sep: str, row: int, header: list[str]) -> str | None:
+    """The column of the first cell over FIELD_LIMIT characters in record ``row``
+    (1 = the header), read again without the limit; None where the file is
+    larger than LONG_CELL_SCAN_BYTES or the record cannot be read."""
+    if path is None or path.stat().st_size > LONG_CELL_SCAN_BYTES:
+        return None
+    limit = csv.field_size_limit()
+    csv.field_size_limit(LONG_CELL_SCAN_BYTES)
+    try:
+        with path.open(encoding="utf-8-sig", newline="\n") as fh:
+            for i, cells in enumerate(csv.reader(fh, delimiter=sep), start=1):
+                if i == row:
+                    j = next((k for k, c in enumerate(cells) if len(c) > FIELD_LIMIT), None)
+                    if j is None:
+                        return None
+                    return header[j] if j < len(header) and header[j].strip() else f"{j + 1} (no header)"
+    except (csv.Error, UnicodeDecodeError, OSError):
+        return None
+    finally:
+        csv.field_size_limit(limit)
+    return None
 
 
 def _read_xlsx(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict) -> Iterator[pd.DataFrame]:
