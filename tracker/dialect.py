@@ -121,6 +121,8 @@ class SQLite:
     lots_by_date_hint = "INDEXED BY lots_poured_on_pattern"
     lots_by_pattern_hint = "INDEXED BY lots_pattern_poured_on"
     forced_join = "CROSS JOIN"
+    # The review's pours and rejects per day: two plain aggregates (see Store.review_days).
+    review_in_one_pass = False
 
     def __init__(self, path: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         self.target = path
@@ -325,6 +327,9 @@ class PostgreSQL:
     lots_by_date_hint = ""
     lots_by_pattern_hint = ""
     forced_join = "JOIN"
+    # The review's pours and rejects per day in one statement reading the window's
+    # records once: each statement costs planning and a round trip (see Store.review_days).
+    review_in_one_pass = True
 
     def __init__(self, url: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         psycopg = _psycopg()

@@ -131,14 +131,6 @@ def _column(values) -> list:
     return [v if type(v) in _PLAIN else jsonable(v) for v in a.tolist()]
 
 
-def _records(df: pd.DataFrame) -> list[dict]:
-    """Rows of ``df`` as JSON-ready dicts, built column-wise."""
-    if df.empty:
-        return []
-    cols = [str(c) for c in df.columns]
-    return [dict(zip(cols, vals)) for vals in zip(*(_column(df[c].to_numpy()) for c in df.columns))]
-
-
 def _iso(d: dt.date) -> str:
     return d.isoformat()
 
@@ -644,7 +636,7 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, confidence: flo
             "all_defects": {"rate_before": _finite(rb), "rate_after": _finite(ra), "difference": _finite(ra - rb)},
         })
     out.sort(key=lambda d: (d["effective_from"], d["pattern"], d["revision"]), reverse=True)
-    return out  # JSON-ready as built: counts, text and riser fields from _records; floats through _finite
+    return out  # JSON-ready as built: counts, text and riser fields as read; floats through _finite
 
 
 # --- the review ---------------------------------------------------------------------------
@@ -704,11 +696,11 @@ def _fetched(store: Store, monday: dt.date, weeks: int) -> tuple:
     previous = [m - dt.timedelta(weeks=1) for m in mondays]
     fetch_from = previous[0]
     span = (_iso(fetch_from), _iso(monday + dt.timedelta(days=6)))
-    pour_cols = store.pours_by_day(*span, columns=True)
+    pour_cols, reject_cols = store.review_days(*span)
     codes = sorted(set(pour_cols["pattern"]))
     index = {c: i for i, c in enumerate(codes)}
     pours = _pour_arrays(pour_cols, index)
-    rejects = _reject_arrays(store.rejects_by_day(*span, columns=True), index)
+    rejects = _reject_arrays(reject_cols, index)
     mx = _matrices(codes, pours, rejects, fetch_from, weeks + 1, store.pattern_costs(codes))
     return mondays, previous, fetch_from, codes, pours, rejects, mx
 
@@ -814,7 +806,7 @@ def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WE
     money = currency(store)
     notes = []
     if problems:
-        notes = _records(store.reject_notes(_iso(monday), _iso(week_end), problems, NOTES_PER_PATTERN))
+        notes = store.reject_notes(_iso(monday), _iso(week_end), problems, NOTES_PER_PATTERN, rows=True)
 
     head = jsonable({
         "week": week, "week_start": _iso(monday), "week_end": _iso(week_end),

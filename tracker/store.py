@@ -1054,6 +1054,44 @@ class Store:
              "JOIN patterns p ON p.pattern = a.pattern")
         return self._columns(q, [*params, *params]) if columns else self._frame(q, [*params, *params])
 
+    def review_days(self, start: str, end: str) -> tuple[dict[str, tuple], dict[str, tuple]]:
+        """:meth:`pours_by_day` and :meth:`rejects_by_day` of lots poured from
+        ``start`` to ``end`` (ISO strings, inclusive), as dicts of column tuples:
+        the two reads of the weekly review. The reject rows come in the order of
+        their group (pattern, poured_on, result, defect, zone; None first), so
+        sums over them add up in the same order on either backend.
+
+        Where the dialect asks for it (``review_in_one_pass``: PostgreSQL, where
+        each statement costs planning and a round trip) both come from one
+        statement that reads the window's current records once; else from the
+        two aggregates."""
+        if not self.dialect.review_in_one_pass:
+            return self.pours_by_day(start, end, columns=True), self.rejects_by_day(start, end, columns=True)
+        where, params = self._lot_filter(start, end, None)
+        cond = " AND ".join(where) or "1 = 1"
+        # A lot counts as inspected when it holds a current record: the lots of the
+        # window joined to the distinct lots of its current records (r, read once).
+        q = ("WITH r AS (SELECT l.pattern, l.poured_on, i.lot, i.result, i.defect, i.zone, i.quantity "
+             f"FROM lots l JOIN inspections i ON i.lot = l.lot WHERE {cond} AND i.void = 0 "
+             "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)) "
+             "SELECT 0 AS part, a.pattern, a.poured_on, a.lots, a.molds * p.castings_per_mold AS castings, "
+             "a.inspected_lots, a.inspected_molds * p.castings_per_mold AS inspected_castings, "
+             "NULL AS result, NULL AS defect, NULL AS zone, NULL AS quantity FROM ("
+             "SELECT l.pattern, l.poured_on, COUNT(*) AS lots, SUM(l.molds) AS molds, "
+             "COUNT(s.lot) AS inspected_lots, SUM(CASE WHEN s.lot IS NULL THEN 0 ELSE l.molds END) AS inspected_molds "
+             f"FROM lots l LEFT JOIN (SELECT DISTINCT lot FROM r) s ON s.lot = l.lot WHERE {cond} "
+             "GROUP BY l.pattern, l.poured_on) a JOIN patterns p ON p.pattern = a.pattern "
+             "UNION ALL SELECT 1, pattern, poured_on, NULL, NULL, NULL, NULL, result, defect, zone, SUM(quantity) "
+             "FROM r WHERE result != 'accept' GROUP BY pattern, poured_on, result, defect, zone "
+             "ORDER BY 1, 2, 3, 8 NULLS FIRST, 9 NULLS FIRST, 10 NULLS FIRST")
+        rows = self.conn.execute(q, [*params, *params]).fetchall()
+        split = next((k for k, r in enumerate(rows) if r[0]), len(rows))
+        pour_names = ("pattern", "poured_on", "lots", "castings", "inspected_lots", "inspected_castings")
+        reject_names = ("pattern", "poured_on", "result", "defect", "zone", "quantity")
+        p = list(zip(*rows[:split])) or [()] * 11
+        r = list(zip(*rows[split:])) or [()] * 11
+        return dict(zip(pour_names, p[1:7])), dict(zip(reject_names, [r[1], r[2], *r[7:]]))
+
     def revision_steps(self, start: str, end: str, *, columns: bool = False) -> pd.DataFrame | dict[str, list]:
         """Revisions taking effect from ``start`` to ``end`` (ISO strings, inclusive),
         each with the revision before it (``previous``, ``previous_from``) and the
@@ -1104,10 +1142,11 @@ class Store:
         return rows
 
     def reject_notes(self, start: str | None = None, end: str | None = None, pattern=None,
-                     per_pattern: int = 5) -> pd.DataFrame:
+                     per_pattern: int = 5, *, rows: bool = False) -> pd.DataFrame | list[dict]:
         """The newest non-empty notes of current reject and rework records, at
         most ``per_pattern`` per pattern, for lots poured from ``start`` to
-        ``end`` (ISO strings, inclusive)."""
+        ``end`` (ISO strings, inclusive). ``rows``: a list of dicts (one per
+        note, plain Python values) instead of a DataFrame."""
         where, params = self._lot_filter(start, end, pattern)
         q = ("SELECT pattern, lot, poured_on, result, defect, zone, quantity, notes FROM ("
              "SELECT l.pattern, l.lot, l.poured_on, i.result, i.defect, i.zone, i.quantity, "
@@ -1118,6 +1157,10 @@ class Store:
              "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
              + "".join(" AND " + w for w in where)
              + ") ranked WHERE k <= ? ORDER BY pattern, k")
+        if rows:
+            cur = self.conn.execute(q, (*params, int(per_pattern)))
+            names = [d[0] for d in cur.description]
+            return [dict(zip(names, r)) for r in cur.fetchall()]
         return self._frame(q, [*params, int(per_pattern)])
 
     def pour_span(self) -> tuple[str | None, str | None]:
