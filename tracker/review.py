@@ -543,8 +543,9 @@ def _read_totals(store: Store, cand: dict, zones: list[list[str]]) -> dict:
     two edges (``totals``, ``Store.totals_before``), however long ago the
     revision took effect. ``use_zones``: the revision changed risers and
     shrinkage rejects in its spans name a zone; then the shrinkage rejects of
-    the changed zones at the edges (``zone_totals``, read for those only).
-    ``probes`` and ``zone_probes`` list what was read.
+    the changed zones at the edges (``zone_totals``, read with the totals for
+    every revision that changed risers, used for those only). ``probes`` and
+    ``zone_probes`` list what was read.
     """
     day_after: dict[str, str] = {}
     for e in cand["after_end"]:
@@ -553,14 +554,15 @@ def _read_totals(store: Store, cand: dict, zones: list[list[str]]) -> dict:
     edges = [(bs, eff, day_after[ae])
              for bs, eff, ae in zip(cand["before_start"], cand["effective_from"], cand["after_end"])]
     probes = [(c, d) for c, e in zip(cand["pattern"], edges) for d in e]
-    totals = store.totals_before(probes)
+    # the changed zones of every revision, read with the totals (one statement) though
+    # only those whose spans hold zoned shrinkage rejects are used
+    zone_probes = [(c, z, d) for c, zs, e in zip(cand["pattern"], zones, edges) for z in zs for d in e]
+    totals, zone_totals = store.totals_and_zones_before(probes, zone_probes)
     zoned = Store.TOTALS.index("zoned_shrinkage")
     use_zones = [bool(zs) and totals[(c, e[2])][zoned] - totals[(c, e[0])][zoned] > 0
                  for c, zs, e in zip(cand["pattern"], zones, edges)]
-    zone_probes = [(c, z, d) for c, zs, e, use in zip(cand["pattern"], zones, edges, use_zones) if use
-                   for z in zs for d in e]
     return {"edges": edges, "totals": totals, "use_zones": use_zones,
-            "zone_totals": store.zone_shrinkage_before(zone_probes), "probes": probes, "zone_probes": zone_probes}
+            "zone_totals": zone_totals, "probes": probes, "zone_probes": zone_probes}
 
 
 def revision_probes(store: Store, week: str, weeks: int) -> tuple[list, list]:
@@ -696,12 +698,12 @@ def _fetched(store: Store, monday: dt.date, weeks: int) -> tuple:
     previous = [m - dt.timedelta(weeks=1) for m in mondays]
     fetch_from = previous[0]
     span = (_iso(fetch_from), _iso(monday + dt.timedelta(days=6)))
-    pour_cols, reject_cols = store.review_days(*span)
+    pour_cols, reject_cols, costs = store.review_days(*span)
     codes = sorted(set(pour_cols["pattern"]))
     index = {c: i for i, c in enumerate(codes)}
     pours = _pour_arrays(pour_cols, index)
     rejects = _reject_arrays(reject_cols, index)
-    mx = _matrices(codes, pours, rejects, fetch_from, weeks + 1, store.pattern_costs(codes))
+    mx = _matrices(codes, pours, rejects, fetch_from, weeks + 1, costs)
     return mondays, previous, fetch_from, codes, pours, rejects, mx
 
 
