@@ -352,8 +352,7 @@ def _release(url: str, conn) -> None:
         return
     with _idle_lock:
         _idle.append((url, time.monotonic(), conn))
-        extra = [c for _, _, c in _idle[:-IDLE_KEEP]]
-        del _idle[:-IDLE_KEEP]
+        extra = [_idle.pop(0)[2] for _ in range(len(_idle) - IDLE_KEEP)]
     for c in extra:
         c.close()
 
