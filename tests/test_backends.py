@@ -234,6 +234,29 @@ def test_bench_runs_on_postgresql(tmp_path):
     assert report["query_plans"] and all(q["plan"] for q in report["query_plans"])
 
 
+# --- what the weekly review reads ---------------------------------------------------------
+
+def _none_first(row):
+    return tuple((0, "") if v is None else (1, v) for v in row)
+
+
+def test_review_days_equal_the_aggregates_with_rejects_in_group_order(demo_store):
+    # demo_store: the demo log on each backend (tests/conftest.py)
+    # What the review reads of its window (one statement on PostgreSQL) against the
+    # plain aggregates it stands for; the reject rows in the order of their group,
+    # None first (as SQLite's GROUP BY gives them), on either backend.
+    span = ("2026-06-01", "2026-11-29")
+    pours, rejects, costs = demo_store.review_days(*span)
+    # Reference: Store.pours_by_day, rejects_by_day and pattern_costs on the same log.
+    want_pours = demo_store.pours_by_day(*span, columns=True)
+    want_rejects = demo_store.rejects_by_day(*span, columns=True)
+    got = list(zip(*rejects.values()))
+    assert got and got == sorted(got, key=_none_first)
+    assert sorted(got, key=_none_first) == sorted(zip(*want_rejects.values()), key=_none_first)
+    assert sorted(zip(*pours.values())) == sorted(zip(*want_pours.values()))
+    assert costs == demo_store.pattern_costs(want_pours["pattern"])
+
+
 # --- idle connections kept for the next open ------------------------------------------------
 
 def _backend_pid(store) -> int:
