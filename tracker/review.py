@@ -1,8 +1,10 @@
 """The weekly scrap review: scrap by pattern and defect, trend, control and
 riser revisions, for one ISO week and the weeks before it.
 
-Everything is computed from day-level SQL aggregates (``Store.pours_by_day``,
-``Store.rejects_by_day``, read column by column, no DataFrame) with numpy,
+Everything is computed from day-level SQL aggregates (``Store.review_days``:
+the pours and rejects per day of ``Store.pours_by_day`` and
+``Store.rejects_by_day`` and the patterns' costs, in one statement on
+PostgreSQL, read column by column, no DataFrame) with numpy,
 array-wise over patterns and weeks, so the work grows with the number of
 patterns and pour days in the window, never with a Python loop over lots (the
 loops left build the output and run over riser revisions of the window, for
@@ -11,8 +13,10 @@ cost per operation was most of a one-week review. The scale benchmark holds
 the review against the bare fetch of the rows it reads
 (``Store.review_floor``). The riser revisions' before/after figures come from
 the log's running totals per pattern and pour day (``Store.totals_before``,
-kept up to date by every write of lots and records): two rows a span, however
-long ago the revision took effect, instead of re-reading its history.
+read with the changed zones' in one statement by
+``Store.totals_and_zones_before``; kept up to date by every write of lots
+and records): two rows a span, however long ago the revision took effect,
+instead of re-reading its history.
 
 Counting rules
 --------------
