@@ -232,3 +232,65 @@ def test_bench_runs_on_postgresql(tmp_path):
     assert by["review_week"]["agrees_with_baseline"] is True
     assert by["sizing"]["not_measured"]
     assert report["query_plans"] and all(q["plan"] for q in report["query_plans"])
+
+
+# --- what the weekly review reads ---------------------------------------------------------
+
+def _none_first(row):
+    return tuple((0, "") if v is None else (1, v) for v in row)
+
+
+def test_review_days_equal_the_aggregates_with_rejects_in_group_order(demo_store):
+    # demo_store: the demo log on each backend (tests/conftest.py)
+    # What the review reads of its window (one statement on PostgreSQL) against the
+    # plain aggregates it stands for; the reject rows in the order of their group,
+    # None first (as SQLite's GROUP BY gives them), on either backend.
+    span = ("2026-06-01", "2026-11-29")
+    pours, rejects, costs = demo_store.review_days(*span)
+    # Reference: Store.pours_by_day, rejects_by_day and pattern_costs on the same log.
+    want_pours = demo_store.pours_by_day(*span, columns=True)
+    want_rejects = demo_store.rejects_by_day(*span, columns=True)
+    got = list(zip(*rejects.values()))
+    assert got and got == sorted(got, key=_none_first)
+    assert sorted(got, key=_none_first) == sorted(zip(*want_rejects.values()), key=_none_first)
+    assert sorted(zip(*pours.values())) == sorted(zip(*want_pours.values()))
+    assert costs == demo_store.pattern_costs(want_pours["pattern"])
+
+
+# --- idle connections kept for the next open ------------------------------------------------
+
+def _backend_pid(store) -> int:
+    return store.dialect.conn.execute("SELECT pg_backend_pid()").fetchone()[0]
+
+
+def test_a_closed_log_leaves_its_connection_for_the_next_open(pg_logs):
+    target = pg_logs.new("idle")
+    with Store(target) as s:
+        first = _backend_pid(s)
+    with Store(target, create=False) as s:
+        # Reference: the server's own process id of each session (pg_backend_pid).
+        assert _backend_pid(s) == first
+        with Store(target, create=False) as other:  # the idle one is taken: a second opens its own
+            assert _backend_pid(other) != first
+
+
+def test_a_connection_the_server_dropped_is_replaced_on_open(pg_logs):
+    import time
+
+    import psycopg
+
+    from tests.conftest import pg_server
+
+    target = pg_logs.new("dropped")
+    with Store(target) as s:
+        first = _backend_pid(s)
+        s.set_meta("note", "kept")
+    with psycopg.connect(pg_server(), autocommit=True) as admin:  # the server ends the idle session
+        assert admin.execute("SELECT pg_terminate_backend(%s)", (first,)).fetchone()[0]
+        deadline = time.monotonic() + 10
+        while admin.execute("SELECT 1 FROM pg_stat_activity WHERE pid = %s", (first,)).fetchone():
+            assert time.monotonic() < deadline
+            time.sleep(0.05)
+    with Store(target, create=False) as s:
+        assert _backend_pid(s) != first
+        assert s.get_meta("note") == "kept"

@@ -574,8 +574,7 @@ def _c_review(db: str, week: str, weeks: int, repeats: int, extras: bool = False
 
         def floor_and_totals():
             store.review_floor(start, end)
-            store.totals_before(probes)
-            store.zone_shrinkage_before(zone_probes)
+            store.totals_and_zones_before(probes, zone_probes)
 
         floor_tot = [_timed(floor_and_totals)[0] for _ in range(repeats)]
         out["baseline_with_totals_s"] = statistics.median(floor_tot)

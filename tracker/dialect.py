@@ -23,6 +23,7 @@ import shlex
 import shutil
 import sqlite3
 import subprocess
+import threading
 import time
 import urllib.parse
 from typing import Callable, Iterable, Iterator
@@ -121,6 +122,8 @@ class SQLite:
     lots_by_date_hint = "INDEXED BY lots_poured_on_pattern"
     lots_by_pattern_hint = "INDEXED BY lots_pattern_poured_on"
     forced_join = "CROSS JOIN"
+    # The review's pours and rejects per day: two plain aggregates (see Store.review_days).
+    review_in_one_pass = False
 
     def __init__(self, path: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         self.target = path
@@ -312,6 +315,48 @@ def _psycopg():
     return psycopg
 
 
+# Idle connections kept for a moment after a log is closed, newest last: (url, when, conn).
+# Opening one costs a new server process and its sign-in (some 10 ms), paid by every
+# dashboard load (its cache key, data_version, and a Store on a miss) without them.
+IDLE_KEEP = 4
+IDLE_KEEP_S = 30.0
+_idle: list = []
+_idle_lock = threading.Lock()
+
+
+def _connect(url: str, fresh: bool = False):
+    """An autocommit connection to ``url``: one left idle in the last
+    ``IDLE_KEEP_S`` seconds by :func:`_release` (unless ``fresh``), else a new one."""
+    if fresh:
+        return _psycopg().connect(url, autocommit=True, application_name="pourback")
+    now = time.monotonic()
+    stale, found = [], None
+    with _idle_lock:
+        for k in range(len(_idle) - 1, -1, -1):
+            u, at, conn = _idle[k]
+            if now - at > IDLE_KEEP_S or conn.closed or conn.broken:
+                stale.append(_idle.pop(k)[2])
+            elif found is None and u == url:
+                found = _idle.pop(k)[2]
+    for conn in stale:
+        conn.close()
+    return found or _psycopg().connect(url, autocommit=True, application_name="pourback")
+
+
+def _release(url: str, conn) -> None:
+    """Keep ``conn`` idle for :func:`_connect` when it is sound and outside a
+    transaction (the oldest beyond ``IDLE_KEEP`` is closed); else close it."""
+    pq = _psycopg().pq
+    if conn.closed or conn.broken or conn.info.transaction_status != pq.TransactionStatus.IDLE:
+        conn.close()
+        return
+    with _idle_lock:
+        _idle.append((url, time.monotonic(), conn))
+        extra = [_idle.pop(0)[2] for _ in range(len(_idle) - IDLE_KEEP)]
+    for c in extra:
+        c.close()
+
+
 class PostgreSQL:
     """A log on a PostgreSQL server (psycopg 3).
 
@@ -325,6 +370,9 @@ class PostgreSQL:
     lots_by_date_hint = ""
     lots_by_pattern_hint = ""
     forced_join = "JOIN"
+    # The review's pours and rejects per day in one statement reading the window's
+    # records once: each statement costs planning and a round trip (see Store.review_days).
+    review_in_one_pass = True
 
     def __init__(self, url: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         psycopg = _psycopg()
@@ -332,14 +380,24 @@ class PostgreSQL:
         self.on_wait = on_wait
         self._sql_cache: dict[str, str] = {}
         name = display_name(url)
+
+        def connect(fresh: bool):
+            try:
+                return _connect(url, fresh)
+            except psycopg.Error as exc:
+                reason = " ".join(str(exc).split()) or type(exc).__name__
+                raise LogError(name, f"cannot connect to {name}: {reason}; check the host, port, database "
+                                     "name and the password (in the URL, PGPASSWORD or ~/.pgpass)") from None
+
+        self.conn = connect(False)
         try:
-            self.conn = psycopg.connect(url, autocommit=True, application_name="pourback")
-        except psycopg.Error as exc:
-            reason = " ".join(str(exc).split()) or type(exc).__name__
-            raise LogError(name, f"cannot connect to {name}: {reason}; check the host, port, database "
-                                 "name and the password (in the URL, PGPASSWORD or ~/.pgpass)") from None
-        try:
-            if self.schema_version() == 0:
+            try:
+                version = self.schema_version()
+            except psycopg.OperationalError:  # an idle connection the server has dropped since
+                self.conn.close()
+                self.conn = connect(True)
+                version = self.schema_version()
+            if version == 0:
                 if not create:
                     raise LogNotFound(name)
                 self._check_foreign(name)
@@ -356,7 +414,9 @@ class PostgreSQL:
                                 + "; give a new database (createdb) or schema in the URL")
 
     def close(self) -> None:
-        self.conn.close()
+        if not self.conn.closed and not getattr(self, "_released", False):
+            self._released = True
+            _release(self.target, self.conn)
 
     # errors -----------------------------------------------------------------------
     @staticmethod
@@ -559,10 +619,13 @@ def data_version(target: str) -> tuple:
     if is_url(target):
         psycopg = _psycopg()
         try:
-            with psycopg.connect(target, autocommit=True) as conn:
+            conn = _connect(target)
+            try:
                 if conn.execute("SELECT to_regclass('pourback_schema')").fetchone()[0] is None:
                     return (0,)
                 return tuple(conn.execute("SELECT version, changes FROM pourback_schema").fetchone() or (0,))
+            finally:
+                _release(target, conn)
         except psycopg.Error:
             return ("unreachable",)
     out = []

@@ -1,8 +1,10 @@
 """The weekly scrap review: scrap by pattern and defect, trend, control and
 riser revisions, for one ISO week and the weeks before it.
 
-Everything is computed from day-level SQL aggregates (``Store.pours_by_day``,
-``Store.rejects_by_day``, read column by column, no DataFrame) with numpy,
+Everything is computed from day-level SQL aggregates (``Store.review_days``:
+the pours and rejects per day of ``Store.pours_by_day`` and
+``Store.rejects_by_day`` and the patterns' costs, in one statement on
+PostgreSQL, read column by column, no DataFrame) with numpy,
 array-wise over patterns and weeks, so the work grows with the number of
 patterns and pour days in the window, never with a Python loop over lots (the
 loops left build the output and run over riser revisions of the window, for
@@ -11,8 +13,10 @@ cost per operation was most of a one-week review. The scale benchmark holds
 the review against the bare fetch of the rows it reads
 (``Store.review_floor``). The riser revisions' before/after figures come from
 the log's running totals per pattern and pour day (``Store.totals_before``,
-kept up to date by every write of lots and records): two rows a span, however
-long ago the revision took effect, instead of re-reading its history.
+read with the changed zones' in one statement by
+``Store.totals_and_zones_before``; kept up to date by every write of lots
+and records): two rows a span, however long ago the revision took effect,
+instead of re-reading its history.
 
 Counting rules
 --------------
@@ -129,14 +133,6 @@ def _column(values) -> list:
     if a.dtype.kind in "iub":
         return a.tolist()
     return [v if type(v) in _PLAIN else jsonable(v) for v in a.tolist()]
-
-
-def _records(df: pd.DataFrame) -> list[dict]:
-    """Rows of ``df`` as JSON-ready dicts, built column-wise."""
-    if df.empty:
-        return []
-    cols = [str(c) for c in df.columns]
-    return [dict(zip(cols, vals)) for vals in zip(*(_column(df[c].to_numpy()) for c in df.columns))]
 
 
 def _iso(d: dt.date) -> str:
@@ -551,8 +547,9 @@ def _read_totals(store: Store, cand: dict, zones: list[list[str]]) -> dict:
     two edges (``totals``, ``Store.totals_before``), however long ago the
     revision took effect. ``use_zones``: the revision changed risers and
     shrinkage rejects in its spans name a zone; then the shrinkage rejects of
-    the changed zones at the edges (``zone_totals``, read for those only).
-    ``probes`` and ``zone_probes`` list what was read.
+    the changed zones at the edges (``zone_totals``, read with the totals for
+    every revision that changed risers, used for those only). ``probes`` and
+    ``zone_probes`` list what was read.
     """
     day_after: dict[str, str] = {}
     for e in cand["after_end"]:
@@ -561,14 +558,15 @@ def _read_totals(store: Store, cand: dict, zones: list[list[str]]) -> dict:
     edges = [(bs, eff, day_after[ae])
              for bs, eff, ae in zip(cand["before_start"], cand["effective_from"], cand["after_end"])]
     probes = [(c, d) for c, e in zip(cand["pattern"], edges) for d in e]
-    totals = store.totals_before(probes)
+    # the changed zones of every revision, read with the totals (one statement) though
+    # only those whose spans hold zoned shrinkage rejects are used
+    zone_probes = [(c, z, d) for c, zs, e in zip(cand["pattern"], zones, edges) for z in zs for d in e]
+    totals, zone_totals = store.totals_and_zones_before(probes, zone_probes)
     zoned = Store.TOTALS.index("zoned_shrinkage")
     use_zones = [bool(zs) and totals[(c, e[2])][zoned] - totals[(c, e[0])][zoned] > 0
                  for c, zs, e in zip(cand["pattern"], zones, edges)]
-    zone_probes = [(c, z, d) for c, zs, e, use in zip(cand["pattern"], zones, edges, use_zones) if use
-                   for z in zs for d in e]
     return {"edges": edges, "totals": totals, "use_zones": use_zones,
-            "zone_totals": store.zone_shrinkage_before(zone_probes), "probes": probes, "zone_probes": zone_probes}
+            "zone_totals": zone_totals, "probes": probes, "zone_probes": zone_probes}
 
 
 def revision_probes(store: Store, week: str, weeks: int) -> tuple[list, list]:
@@ -644,7 +642,7 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, confidence: flo
             "all_defects": {"rate_before": _finite(rb), "rate_after": _finite(ra), "difference": _finite(ra - rb)},
         })
     out.sort(key=lambda d: (d["effective_from"], d["pattern"], d["revision"]), reverse=True)
-    return out  # JSON-ready as built: counts, text and riser fields from _records; floats through _finite
+    return out  # JSON-ready as built: counts, text and riser fields as read; floats through _finite
 
 
 # --- the review ---------------------------------------------------------------------------
@@ -704,12 +702,12 @@ def _fetched(store: Store, monday: dt.date, weeks: int) -> tuple:
     previous = [m - dt.timedelta(weeks=1) for m in mondays]
     fetch_from = previous[0]
     span = (_iso(fetch_from), _iso(monday + dt.timedelta(days=6)))
-    pour_cols = store.pours_by_day(*span, columns=True)
+    pour_cols, reject_cols, costs = store.review_days(*span)
     codes = sorted(set(pour_cols["pattern"]))
     index = {c: i for i, c in enumerate(codes)}
     pours = _pour_arrays(pour_cols, index)
-    rejects = _reject_arrays(store.rejects_by_day(*span, columns=True), index)
-    mx = _matrices(codes, pours, rejects, fetch_from, weeks + 1, store.pattern_costs(codes))
+    rejects = _reject_arrays(reject_cols, index)
+    mx = _matrices(codes, pours, rejects, fetch_from, weeks + 1, costs)
     return mondays, previous, fetch_from, codes, pours, rejects, mx
 
 
@@ -814,7 +812,7 @@ def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WE
     money = currency(store)
     notes = []
     if problems:
-        notes = _records(store.reject_notes(_iso(monday), _iso(week_end), problems, NOTES_PER_PATTERN))
+        notes = store.reject_notes(_iso(monday), _iso(week_end), problems, NOTES_PER_PATTERN, rows=True)
 
     head = jsonable({
         "week": week, "week_start": _iso(monday), "week_end": _iso(week_end),

@@ -1054,6 +1054,57 @@ class Store:
              "JOIN patterns p ON p.pattern = a.pattern")
         return self._columns(q, [*params, *params]) if columns else self._frame(q, [*params, *params])
 
+    def review_days(self, start: str, end: str) -> tuple[dict[str, tuple], dict[str, tuple], dict[str, tuple]]:
+        """What the weekly review reads of lots poured from ``start`` to ``end``
+        (ISO strings, inclusive), each a dict of column tuples: :meth:`pours_by_day`,
+        :meth:`rejects_by_day` and the :meth:`pattern_costs` of the patterns poured.
+        The reject rows come in the order of their group (pattern, poured_on,
+        result, defect, zone; None first), so sums over them add up in the same
+        order on either backend.
+
+        Where the dialect asks for it (``review_in_one_pass``: PostgreSQL, where
+        each statement costs planning and a round trip) all three come from one
+        statement that reads the window's current records once; else from the
+        two aggregates and the patterns."""
+        if not self.dialect.review_in_one_pass:
+            pours = self.pours_by_day(start, end, columns=True)
+            return pours, self.rejects_by_day(start, end, columns=True), self.pattern_costs(pours["pattern"])
+        where, params = self._lot_filter(start, end, None)
+        cond = " AND ".join(where) or "1 = 1"
+        # A lot counts as inspected when it holds a current record: the lots of the
+        # window joined to the distinct lots of its current records (r, read once).
+        # Three parts, told apart by the first column, padded with NULL: the pours
+        # (a), the rejects and the patterns poured (description and alloy in text columns).
+        q = ("WITH r AS (SELECT l.pattern, l.poured_on, i.lot, i.result, i.defect, i.zone, i.quantity "
+             f"FROM lots l JOIN inspections i ON i.lot = l.lot WHERE {cond} AND i.void = 0 "
+             "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)), "
+             "a AS (SELECT l.pattern, l.poured_on, COUNT(*) AS lots, SUM(l.molds) AS molds, "
+             "COUNT(s.lot) AS inspected_lots, SUM(CASE WHEN s.lot IS NULL THEN 0 ELSE l.molds END) AS inspected_molds "
+             f"FROM lots l LEFT JOIN (SELECT DISTINCT lot FROM r) s ON s.lot = l.lot WHERE {cond} "
+             "GROUP BY l.pattern, l.poured_on) "
+             "SELECT 0 AS part, a.pattern, a.poured_on, a.lots, a.molds * p.castings_per_mold AS castings, "
+             "a.inspected_lots, a.inspected_molds * p.castings_per_mold AS inspected_castings, "
+             "NULL AS result, NULL AS defect, NULL AS zone, NULL AS quantity, "
+             "CAST(NULL AS DOUBLE PRECISION) AS casting_weight_kg, CAST(NULL AS DOUBLE PRECISION) AS metal_cost_per_kg, "
+             "CAST(NULL AS DOUBLE PRECISION) AS processing_cost_per_casting "
+             "FROM a JOIN patterns p ON p.pattern = a.pattern "
+             "UNION ALL SELECT 1, pattern, poured_on, NULL, NULL, NULL, NULL, result, defect, zone, SUM(quantity), "
+             "NULL, NULL, NULL FROM r WHERE result != 'accept' GROUP BY pattern, poured_on, result, defect, zone "
+             "UNION ALL SELECT 2, pattern, description, NULL, NULL, NULL, NULL, alloy, NULL, NULL, NULL, "
+             "casting_weight_kg, metal_cost_per_kg, processing_cost_per_casting FROM patterns "
+             "WHERE pattern IN (SELECT pattern FROM a) "
+             "ORDER BY 1, 2, 3, 8 NULLS FIRST, 9 NULLS FIRST, 10 NULLS FIRST")
+        rows = self.conn.execute(q, [*params, *params]).fetchall()
+        ends = [next((k for k, r in enumerate(rows) if r[0] >= part), len(rows)) for part in (1, 2)]
+        p, r, c = (list(zip(*chunk)) or [()] * 14
+                   for chunk in (rows[:ends[0]], rows[ends[0]:ends[1]], rows[ends[1]:]))
+        pours = dict(zip(("pattern", "poured_on", "lots", "castings", "inspected_lots", "inspected_castings"),
+                         p[1:7]))
+        rejects = dict(zip(("pattern", "poured_on", "result", "defect", "zone", "quantity"), [r[1], r[2], *r[7:11]]))
+        costs = dict(zip(("pattern", "description", "alloy", "casting_weight_kg", "metal_cost_per_kg",
+                          "processing_cost_per_casting"), [c[1], c[2], c[7], *c[11:]]))
+        return pours, rejects, costs
+
     def revision_steps(self, start: str, end: str, *, columns: bool = False) -> pd.DataFrame | dict[str, list]:
         """Revisions taking effect from ``start`` to ``end`` (ISO strings, inclusive),
         each with the revision before it (``previous``, ``previous_from``) and the
@@ -1104,10 +1155,11 @@ class Store:
         return rows
 
     def reject_notes(self, start: str | None = None, end: str | None = None, pattern=None,
-                     per_pattern: int = 5) -> pd.DataFrame:
+                     per_pattern: int = 5, *, rows: bool = False) -> pd.DataFrame | list[dict]:
         """The newest non-empty notes of current reject and rework records, at
         most ``per_pattern`` per pattern, for lots poured from ``start`` to
-        ``end`` (ISO strings, inclusive)."""
+        ``end`` (ISO strings, inclusive). ``rows``: a list of dicts (one per
+        note, plain Python values) instead of a DataFrame."""
         where, params = self._lot_filter(start, end, pattern)
         q = ("SELECT pattern, lot, poured_on, result, defect, zone, quantity, notes FROM ("
              "SELECT l.pattern, l.lot, l.poured_on, i.result, i.defect, i.zone, i.quantity, "
@@ -1118,6 +1170,10 @@ class Store:
              "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
              + "".join(" AND " + w for w in where)
              + ") ranked WHERE k <= ? ORDER BY pattern, k")
+        if rows:
+            cur = self.conn.execute(q, (*params, int(per_pattern)))
+            names = [d[0] for d in cur.description]
+            return [dict(zip(names, r)) for r in cur.fetchall()]
         return self._frame(q, [*params, int(per_pattern)])
 
     def pour_span(self) -> tuple[str | None, str | None]:
@@ -1188,44 +1244,70 @@ class Store:
 
     TOTALS = ("lots", "castings", "inspected_castings", "rejected", "shrinkage", "zoned_shrinkage")
 
+    # What totals_before and zone_shrinkage_before read per probe: (probe columns,
+    # value columns, FROM clause), {q} standing for the probes' VALUES.
+    _DAY_TOTALS_AT = (
+        ("pattern", "day"),
+        ("t.lots", "t.castings", "t.inspected_castings", "t.rejected", "t.shrinkage", "t.zoned_shrinkage"),
+        "{q} LEFT JOIN day_totals t ON t.pattern = {q}.pattern AND t.poured_on = ("
+        "SELECT MAX(x.poured_on) FROM day_totals x WHERE x.pattern = {q}.pattern AND x.poured_on < {q}.day)")
+    _ZONE_TOTALS_AT = (
+        ("pattern", "zone", "day"), ("t.shrinkage",),
+        "{q} LEFT JOIN zone_totals t ON t.pattern = {q}.pattern AND t.zone = {q}.zone "
+        "AND t.poured_on = (SELECT MAX(x.poured_on) FROM zone_totals x WHERE x.pattern = {q}.pattern "
+        "AND x.zone = {q}.zone AND x.poured_on < {q}.day)")
+
     def totals_before(self, probes: Iterable[tuple[str, str]]) -> dict[tuple[str, str], tuple[int, ...]]:
         """Per (pattern, day) of ``probes`` (day an ISO date), the totals of the
         pattern's lots poured before that day (from ``day_totals``), in ``TOTALS``
         order: lots, castings poured, castings inspected (in lots holding a current
         record), castings rejected, shrinkage rejects, shrinkage rejects naming a zone.
         The totals over pour days a..b are ``totals_before(b + 1 day) - totals_before(a)``."""
-        return self._at_probes(("pattern", "day"), probes, len(self.TOTALS), (
-            "t.lots, t.castings, t.inspected_castings, t.rejected, t.shrinkage, t.zoned_shrinkage FROM q "
-            "LEFT JOIN day_totals t ON t.pattern = q.pattern AND t.poured_on = ("
-            "SELECT MAX(x.poured_on) FROM day_totals x WHERE x.pattern = q.pattern AND x.poured_on < q.day)"))
+        return self._at_probes((self._DAY_TOTALS_AT, probes))[0]
 
     def zone_shrinkage_before(self, probes: Iterable[tuple[str, str, str]]) -> dict[tuple[str, str, str], int]:
         """Per (pattern, zone, day) of ``probes``, the shrinkage rejects naming that
         zone on current records of the pattern's lots poured before that day (from
         ``zone_totals``)."""
-        return {k: v[0] for k, v in self._at_probes(("pattern", "zone", "day"), probes, 1, (
-            "t.shrinkage FROM q LEFT JOIN zone_totals t ON t.pattern = q.pattern AND t.zone = q.zone "
-            "AND t.poured_on = (SELECT MAX(x.poured_on) FROM zone_totals x WHERE x.pattern = q.pattern "
-            "AND x.zone = q.zone AND x.poured_on < q.day)")).items()}
+        return {k: v[0] for k, v in self._at_probes((self._ZONE_TOTALS_AT, probes))[0].items()}
 
-    def _at_probes(self, names: tuple[str, ...], probes: Iterable[tuple], width: int,
-                   rest: str) -> dict[tuple, tuple[int, ...]]:
-        """``WITH q (names) AS (VALUES probes) SELECT q.names, rest``, a hundred probes
-        a statement: per probe its ``width`` whole numbers (None and a probe without a
-        row as 0)."""
-        probes = list(dict.fromkeys(probes))
-        out = {}
+    def totals_and_zones_before(self, probes: Iterable[tuple[str, str]],
+                                zone_probes: Iterable[tuple[str, str, str]]) -> tuple[dict, dict]:
+        """:meth:`totals_before` of ``probes`` and :meth:`zone_shrinkage_before` of
+        ``zone_probes``, read together (one statement per hundred probes of each)."""
+        totals, zones = self._at_probes((self._DAY_TOTALS_AT, probes), (self._ZONE_TOTALS_AT, zone_probes))
+        return totals, {k: v[0] for k, v in zones.items()}
+
+    def _at_probes(self, *parts: tuple[tuple, Iterable[tuple]]) -> list[dict[tuple, tuple[int, ...]]]:
+        """Per part ((names, columns, source), probes): ``WITH q (names) AS (VALUES
+        probes) SELECT q.names, columns FROM source``, per probe its whole numbers
+        (None and a probe without a row as 0). The parts are read side by side, a
+        hundred probes of each a statement (one UNION ALL, columns padded with NULL)."""
+        lists = [list(dict.fromkeys(probes)) for _, probes in parts]
+        keys = max(len(names) for (names, _, _), _ in parts)
+        values = max(len(cols) for (_, cols, _), _ in parts)
+        outs: list[dict] = [{} for _ in parts]
         step = 100  # SQLite's cost per probe grows with a longer VALUES list beyond ~150
-        row = "(" + ", ".join("?" * len(names)) + ")"
-        for i in range(0, len(probes), step):
-            chunk = probes[i:i + step]
-            q = (f"WITH q ({', '.join(names)}) AS (VALUES {', '.join([row] * len(chunk))}) "
-                 f"SELECT {', '.join('q.' + n for n in names)}, {rest}")
-            for values in self.conn.execute(q, [v for probe in chunk for v in probe]):
-                if values[-1] is not None:  # else no row before the day: zeros
-                    out[values[:len(names)]] = values[len(names):]
-        zeros = (0,) * width
-        return {probe: out.get(probe, zeros) for probe in probes}
+        for i in range(0, max(map(len, lists)), step):
+            ctes, selects, params = [], [], []
+            for k, (((names, cols, source), _), probes) in enumerate(zip(parts, lists)):
+                chunk = probes[i:i + step]
+                if not chunk:
+                    continue
+                q = f"q{k}"
+                row = "(" + ", ".join("?" * len(names)) + ")"
+                ctes.append(f"{q} ({', '.join(names)}) AS (VALUES {', '.join([row] * len(chunk))})")
+                params += [v for probe in chunk for v in probe]
+                picked = [f"{q}.{n}" for n in names] + ["NULL"] * (keys - len(names)) + list(cols) \
+                    + ["NULL"] * (values - len(cols))
+                selects.append(f"SELECT {k}, {', '.join(picked)} FROM {source.replace('{q}', q)}")
+            for r in self.conn.execute(f"WITH {', '.join(ctes)} {' UNION ALL '.join(selects)}", params):
+                (names, cols, _), _ = parts[r[0]]
+                got = r[1 + keys:1 + keys + len(cols)]
+                if got[-1] is not None:  # else no row before the day: zeros
+                    outs[r[0]][r[1:1 + len(names)]] = got
+        return [{probe: out.get(probe, (0,) * len(cols)) for probe in probes}
+                for out, probes, ((_, cols, _), _) in zip(outs, lists, parts)]
 
     def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
         """The database's plan for one statement, one line per step (SQLite's
