@@ -294,3 +294,26 @@ def test_a_connection_the_server_dropped_is_replaced_on_open(pg_logs):
     with Store(target, create=False) as s:
         assert _backend_pid(s) != first
         assert s.get_meta("note") == "kept"
+
+
+def test_a_forked_child_opens_its_own_connection_and_leaves_the_parents_alone(pg_logs):
+    # A child sharing the parent's idle socket would interleave both sessions' messages
+    # on one connection; the child must open its own (pg_backend_pid differs) and the
+    # parent's kept connection must still answer after the child has closed its log.
+    import multiprocessing as mp
+
+    target = pg_logs.new("forked")
+    with Store(target) as s:
+        parent = _backend_pid(s)
+    ctx = mp.get_context("fork")
+    with ctx.Pool(1) as pool:
+        child = pool.apply(_child_pid, (target,))
+    assert child != parent
+    with Store(target, create=False) as s:
+        assert _backend_pid(s) == parent
+        assert s.count("patterns") == 0
+
+
+def _child_pid(target: str) -> int:
+    with Store(target, create=False) as s:
+        return _backend_pid(s)

@@ -324,6 +324,18 @@ _idle: list = []
 _idle_lock = threading.Lock()
 
 
+def _forget_idle_in_child() -> None:
+    # A forked child shares its parent's sockets: using (or closing, which signs the
+    # server session off) a connection kept idle by the parent would break the
+    # parent's. The child forgets them unclosed and starts with a fresh lock.
+    global _idle_lock
+    _idle.clear()
+    _idle_lock = threading.Lock()
+
+
+os.register_at_fork(after_in_child=_forget_idle_in_child)
+
+
 def _connect(url: str, fresh: bool = False):
     """An autocommit connection to ``url``: one left idle in the last
     ``IDLE_KEEP_S`` seconds by :func:`_release` (unless ``fresh``), else a new one."""
