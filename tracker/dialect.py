@@ -2,8 +2,8 @@
 
 Used by ``tracker/store.py`` only. Every difference between the dialects lives
 here: how a connection opens, placeholders, identifier types in the DDL, the
-schema version, row ids, bulk insert (``executemany`` against ``COPY``), the
-writers' lock, the errors worth retrying, query plans, integrity checks and
+schema version, row ids, bulk insert (``executemany`` against ``COPY``), "value
+in a list" lookups (``IN`` chunks against one array), the writers' lock, the errors worth retrying, query plans, integrity checks and
 how a change to the log is noticed. ``store.py`` writes its SQL once, in the
 common subset of both (``?`` placeholders, ``"double-quoted"`` identifiers,
 ``ON CONFLICT ... DO UPDATE`` upserts), and asks the dialect for the rest.
@@ -32,6 +32,8 @@ from tracker.errors import DiskFull, LogError, LogLocked, LogNotFound, LogReadOn
 URL_SCHEMES = ("postgresql://", "postgres://")
 BUSY_TIMEOUT_MS = 30_000
 NOTICE_AFTER_MS = 1_000  # say that a write waits for another writer after this long
+# Values per "IN (?, ...)" lookup on SQLite (older builds allow 999 parameters per statement).
+IN_LIST_MAX = 900
 # How long a PostgreSQL writer waits for the writers' lock before giving up (ms).
 PG_LOCK_TIMEOUT_MS = 600_000
 # pg_advisory_xact_lock key of the writers' lock ("pourback" in ASCII, folded to 63 bits).
@@ -247,6 +249,14 @@ class SQLite:
         sql = (f'INSERT INTO "{table}" ({", ".join(f"{chr(34)}{c}{chr(34)}" for c in cols)}) '
                f"VALUES ({', '.join('?' * len(cols))})")
         self.conn.executemany(sql, rows)
+
+    def in_list(self, expr: str, values: list) -> Iterator[tuple[str, list]]:
+        """``(condition, parameters)`` pairs that together select the rows whose
+        ``expr`` is one of ``values``: here ``expr IN (?, ...)`` in chunks of
+        ``IN_LIST_MAX`` values."""
+        for i in range(0, len(values), IN_LIST_MAX):
+            chunk = list(values[i:i + IN_LIST_MAX])
+            yield f"{expr} IN ({', '.join('?' * len(chunk))})", chunk
 
     def last_insert_id(self) -> int:
         return self.conn.execute("SELECT last_insert_rowid()").fetchone()[0]
@@ -472,6 +482,13 @@ class PostgreSQL:
         with self.conn.cursor() as cur, cur.copy(f'COPY "{table}" ({names}) FROM STDIN') as copy:
             for row in rows:
                 copy.write_row(row)
+
+    def in_list(self, expr: str, values: list) -> Iterator[tuple[str, list]]:
+        """As :meth:`SQLite.in_list`, in one statement: ``expr = ANY(?)`` with the
+        values as one array parameter (a long ``IN`` list costs psycopg and the
+        server a parse per placeholder)."""
+        if len(values):
+            yield f"{expr} = ANY(?)", [list(values)]
 
     def last_insert_id(self) -> int:
         # lastval() is per session, and COPY's defaults advance it like INSERT's.

@@ -675,29 +675,25 @@ class Store:
         key_cols = KEYS[name]
         out: dict[tuple, tuple] = {}
         keys = list(dict.fromkeys(keys))
-        step = max(1, 900 // len(key_cols))
-        for i in range(0, len(keys), step):
-            chunk = keys[i:i + step]
-            if len(key_cols) == 1:
-                where = f'"{key_cols[0]}" IN ({", ".join("?" * len(chunk))})'
-                params = [k[0] for k in chunk]
-            else:
-                one = "(" + " AND ".join(f'"{c}" = ?' for c in key_cols) + ")"
-                where = " OR ".join([one] * len(chunk))
-                params = [v for k in chunk for v in k]
-            sel = ", ".join(f'"{c}"' for c in cols)
-            for row in self.conn.execute(f'SELECT {sel} FROM "{name}" WHERE {where}', params):
+        sel = ", ".join(f'"{c}"' for c in cols)
+        if len(key_cols) == 1:
+            wheres = self.dialect.in_list(f'"{key_cols[0]}"', [k[0] for k in keys])
+        else:
+            step = max(1, dialects.IN_LIST_MAX // len(key_cols))
+            one = "(" + " AND ".join(f'"{c}" = ?' for c in key_cols) + ")"
+            wheres = ((" OR ".join([one] * len(chunk)), [v for k in chunk for v in k])
+                      for chunk in (keys[i:i + step] for i in range(0, len(keys), step)))
+        for where, params in wheres:
+            for row in self.conn.execute(f'SELECT {sel} FROM "{name}" WHERE {where}', params).fetchall():
                 out[tuple(row[cols.index(c)] for c in key_cols)] = tuple(row)
         return out
 
     def keys_present(self, name: str, column: str, values: Iterable) -> set:
         """Which of ``values`` are present in ``name.column``."""
-        values = list(dict.fromkeys(values))
         found = set()
-        for i in range(0, len(values), 900):
-            chunk = values[i:i + 900]
-            q = f'SELECT "{column}" FROM "{name}" WHERE "{column}" IN ({", ".join("?" * len(chunk))})'
-            found.update(r[0] for r in self.conn.execute(q, chunk))
+        for where, params in self.dialect.in_list(f'"{column}"', list(dict.fromkeys(values))):
+            q = f'SELECT "{column}" FROM "{name}" WHERE {where}'
+            found.update(r[0] for r in self.conn.execute(q, params).fetchall())
         return found
 
     def iter_rows(self, name: str, size: int = 100_000) -> Iterator[list[tuple]]:
@@ -821,14 +817,11 @@ class Store:
 
     def lots_info(self, lots: Iterable[str]) -> dict[str, dict]:
         """pattern, poured_on and castings poured of each of ``lots`` that exists."""
-        lots = list(dict.fromkeys(lots))
         out = {}
-        for i in range(0, len(lots), 900):
-            chunk = lots[i:i + 900]
+        for where, params in self.dialect.in_list("l.lot", list(dict.fromkeys(lots))):
             q = ("SELECT l.lot, l.pattern, l.poured_on, l.molds * p.castings_per_mold "
-                 "FROM lots l JOIN patterns p ON p.pattern = l.pattern "
-                 f"WHERE l.lot IN ({', '.join('?' * len(chunk))})")
-            for r in self.conn.execute(q, chunk):
+                 f"FROM lots l JOIN patterns p ON p.pattern = l.pattern WHERE {where}")
+            for r in self.conn.execute(q, params).fetchall():
                 out[r[0]] = {"pattern": r[1], "poured_on": r[2], "castings": r[3]}
         return out
 
@@ -837,17 +830,15 @@ class Store:
 
         ``exclude``: record ids to leave out (the record a correction replaces).
         """
-        lots = list(dict.fromkeys(lots))
         exclude = [int(x) for x in exclude]
         skip = f" AND i.id NOT IN ({', '.join('?' * len(exclude))})" if exclude else ""
         out: dict[str, dict] = {}
-        for i in range(0, len(lots), 900):
-            chunk = lots[i:i + 900]
+        for where, params in self.dialect.in_list("i.lot", list(dict.fromkeys(lots))):
             q = ("SELECT i.lot, i.method, i.result, SUM(i.quantity) FROM inspections i "
-                 f"WHERE i.lot IN ({', '.join('?' * len(chunk))}) AND i.void = 0 "
+                 f"WHERE {where} AND i.void = 0 "
                  "AND NOT EXISTS (SELECT 1 FROM inspections n WHERE n.supersedes = i.id)"
                  + skip + " GROUP BY i.lot, i.method, i.result")
-            for lot, method, result, qty in self.conn.execute(q, chunk + exclude):
+            for lot, method, result, qty in self.conn.execute(q, params + exclude).fetchall():
                 d = out.setdefault(lot, {"rejected": 0, "methods": {}})
                 d["methods"][method] = d["methods"].get(method, 0) + qty
                 if result == "reject":
@@ -860,10 +851,9 @@ class Store:
         column = {"patterns": "pattern", "sleeves": "sleeve", "lots": "lot"}[name]
         low = list(dict.fromkeys(c.lower() for c in codes))
         out: dict[str, list[str]] = {}
-        for i in range(0, len(low), 900):
-            chunk = low[i:i + 900]
-            q = f'SELECT "{column}" FROM "{name}" WHERE lower("{column}") IN ({", ".join("?" * len(chunk))})'
-            for (code,) in self.conn.execute(q, chunk):
+        for where, params in self.dialect.in_list(f'lower("{column}")', low):
+            q = f'SELECT "{column}" FROM "{name}" WHERE {where}'
+            for (code,) in self.conn.execute(q, params).fetchall():
                 out.setdefault(code.lower(), []).append(code)
         return out
 
@@ -890,26 +880,20 @@ class Store:
     def legacy_keys_present(self, keys: Iterable[str], file: str) -> set:
         """Which of ``keys`` (old content-and-occurrence keys) a record imported
         from a file named ``file`` holds."""
-        keys = list(dict.fromkeys(keys))
         found = set()
-        for i in range(0, len(keys), 900):
-            chunk = keys[i:i + 900]
-            q = (f"SELECT record_key FROM inspections WHERE record_key IN ({', '.join('?' * len(chunk))}) "
-                 "AND source = ?")
-            found.update(r[0] for r in self.conn.execute(q, [*chunk, file]))
+        for where, params in self.dialect.in_list("record_key", list(dict.fromkeys(keys))):
+            q = f"SELECT record_key FROM inspections WHERE {where} AND source = ?"
+            found.update(r[0] for r in self.conn.execute(q, [*params, file]).fetchall())
         return found
 
     def records_by_key(self, keys: Iterable[str]) -> dict[str, tuple]:
         """The stored content (lot .. notes, as TABLE_COLUMNS orders them) of the
         records with the given keys."""
-        keys = list(dict.fromkeys(keys))
         cols = TABLE_COLUMNS["inspections"][1:13]
         out = {}
-        for i in range(0, len(keys), 900):
-            chunk = keys[i:i + 900]
-            q = (f"SELECT record_key, {', '.join(cols)} FROM inspections "
-                 f"WHERE record_key IN ({', '.join('?' * len(chunk))})")
-            out.update((r[0], tuple(r[1:])) for r in self.conn.execute(q, chunk))
+        for where, params in self.dialect.in_list("record_key", list(dict.fromkeys(keys))):
+            q = f"SELECT record_key, {', '.join(cols)} FROM inspections WHERE {where}"
+            out.update((r[0], tuple(r[1:])) for r in self.conn.execute(q, params).fetchall())
         return out
 
     # --- inspections --------------------------------------------------------------
