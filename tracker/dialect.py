@@ -23,6 +23,7 @@ import shlex
 import shutil
 import sqlite3
 import subprocess
+import threading
 import time
 import urllib.parse
 from typing import Callable, Iterable, Iterator
@@ -246,7 +247,8 @@ class SQLite:
     def executemany(self, sql: str, rows: Iterable[tuple]):
         return self.conn.executemany(sql, rows)
 
-    def insert_many(self, table: str, cols: list[str], rows: list[tuple]) -> None:
+    def insert_many(self, table: str, cols: list[str], rows: list[tuple], wait: bool = True) -> None:
+        """Insert ``rows`` (``wait`` is for PostgreSQL: here the rows are in on return)."""
         sql = (f'INSERT INTO "{table}" ({", ".join(f"{chr(34)}{c}{chr(34)}" for c in cols)}) '
                f"VALUES ({', '.join('?' * len(cols))})")
         self.conn.executemany(sql, rows)
@@ -314,6 +316,11 @@ class SQLite:
 
 # --- PostgreSQL --------------------------------------------------------------------------
 
+class _Values(list):
+    """A list sent to PostgreSQL as one array parameter in binary form (psycopg writes
+    a text array value by value in Python, and the server parses it: slower)."""
+
+
 def _psycopg():
     try:
         import psycopg
@@ -329,7 +336,8 @@ class PostgreSQL:
     The connection runs in autocommit mode, so reads never hold a transaction
     open; a write is ``BEGIN`` + ``pg_advisory_xact_lock`` (one writer at a time,
     like SQLite's ``BEGIN IMMEDIATE``, so validation that reads the log before
-    writing stays true at commit) + ``COMMIT``. Inserts go through ``COPY``.
+    writing stays true at commit) + ``COMMIT``. Inserts go through ``COPY``, which
+    may run in a thread while the caller goes on (see :meth:`insert_many`).
     """
 
     name = "postgresql"
@@ -346,9 +354,12 @@ class PostgreSQL:
         self.target = url
         self.on_wait = on_wait
         self._sql_cache: dict[str, str] = {}
+        self._copying: tuple[threading.Thread, list] | None = None  # a COPY running in a thread
         name = display_name(url)
         try:
-            self.conn = psycopg.connect(url, autocommit=True, application_name="pourback")
+            self._pg = psycopg.connect(url, autocommit=True, application_name="pourback")
+            from psycopg.types.array import ListBinaryDumper
+            self._pg.adapters.register_dumper(_Values, ListBinaryDumper)
         except psycopg.Error as exc:
             reason = " ".join(str(exc).split()) or type(exc).__name__
             raise LogError(name, f"cannot connect to {name}: {reason}; check the host, port, database "
@@ -370,8 +381,25 @@ class PostgreSQL:
                                 + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else "")
                                 + "; give a new database (createdb) or schema in the URL")
 
+    @property
+    def conn(self):
+        """The connection, once a COPY running in a thread is complete (its error raised)."""
+        if self._copying is not None:
+            self._settle()
+        return self._pg
+
+    def _settle(self, raise_error: bool = True) -> None:
+        """Wait for the COPY running in a thread, if any; raise its error."""
+        thread, failed = self._copying or (None, [])
+        if thread is not None:
+            thread.join()
+        self._copying = None
+        if failed and raise_error:
+            raise failed[0]
+
     def close(self) -> None:
-        self.conn.close()
+        self._settle(raise_error=False)
+        self._pg.close()
 
     # errors -----------------------------------------------------------------------
     @staticmethod
@@ -409,7 +437,12 @@ class PostgreSQL:
         with self.conn.transaction():  # a savepoint when nested
             if outer:
                 self._lock()
-            yield
+            try:
+                yield
+            except BaseException:
+                self._settle(raise_error=False)  # the rollback waits for a COPY in flight
+                raise
+            self._settle()  # never commit past a COPY that failed
             if outer:
                 # The change counter the dashboard's cache keys on (see data_version).
                 self.conn.execute("UPDATE pourback_schema SET changes = changes + 1")
@@ -482,18 +515,40 @@ class PostgreSQL:
         with self.conn.cursor() as cur:
             cur.executemany(self.sql(sql), rows)
 
-    def insert_many(self, table: str, cols: list[str], rows: list[tuple]) -> None:
+    def insert_many(self, table: str, cols: list[str], rows: list[tuple], wait: bool = True) -> None:
+        """COPY ``rows`` into ``table``. With ``wait=False`` the COPY runs in a thread and
+        this returns at once, so that the caller can validate its next rows while the
+        server stores these: the next use of the connection (and the end of the write
+        transaction) waits for it and raises its error, so nothing commits past it."""
         names = ", ".join(f'"{c}"' for c in cols)
-        with self.conn.cursor() as cur, cur.copy(f'COPY "{table}" ({names}) FROM STDIN') as copy:
-            for row in rows:
-                copy.write_row(row)
+        conn = self.conn  # after any COPY still running
+
+        def copy_rows() -> None:
+            with conn.cursor() as cur, cur.copy(f'COPY "{table}" ({names}) FROM STDIN') as copy:
+                for row in rows:
+                    copy.write_row(row)
+
+        if wait:
+            copy_rows()
+            return
+        failed: list[BaseException] = []
+
+        def run() -> None:
+            try:
+                copy_rows()
+            except BaseException as exc:  # raised in the caller's thread by _settle
+                failed.append(exc)
+
+        thread = threading.Thread(target=run, name="pourback-copy", daemon=True)
+        self._copying = (thread, failed)
+        thread.start()
 
     def in_list(self, expr: str, values: list) -> Iterator[tuple[str, list]]:
         """As :meth:`SQLite.in_list`, in one statement: ``expr = ANY(?)`` with the
         values as one array parameter (a long ``IN`` list costs psycopg and the
         server a parse per placeholder)."""
         if len(values):
-            yield f"{expr} = ANY(?)", [list(values)]
+            yield f"{expr} = ANY(?)", [_Values(values)]
 
     def last_insert_id(self) -> int:
         # lastval() is per session, and COPY's defaults advance it like INSERT's.

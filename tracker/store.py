@@ -761,7 +761,8 @@ class Store:
         cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
         if name == "inspections" and self._records_above is None:
             self._records_above = self.conn.execute("SELECT COALESCE(MAX(id), 0) FROM inspections").fetchone()[0]
-        self.dialect.insert_many(name, cols, rows)
+        # PostgreSQL: the COPY goes on in a thread while the caller validates its next rows.
+        self.dialect.insert_many(name, cols, rows, wait=False)
         if name == "lots":
             touched = self._touched
             for _, pattern, poured_on, *_ in rows:
