@@ -62,7 +62,9 @@ COLUMNS = {  # (required, optional)
 # The US customary twin a file may give in place of a metric column (diameter_in for
 # diameter_mm, casting_weight_lb, metal_cost_per_lb, pour_temp_f ...): {kind: {us: metric}}.
 US_COLUMNS = {kind: units.us_names(required + optional) for kind, (required, optional) in COLUMNS.items()}
-CHUNK_ROWS = 100_000
+# Rows validated and written at a time. On PostgreSQL a chunk's COPY runs while the next
+# chunk is read and checked (Store.insert_rows), so several chunks keep both busy.
+CHUNK_ROWS = 20_000
 PLANT_CODE = r"[A-Za-z0-9][A-Za-z0-9._-]{0,31}"
 MAX_PROBLEMS = 1000  # keep the first this many (every one is counted)
 POUR_TEMP_RANGE_C = (400.0, 1800.0)
@@ -484,7 +486,9 @@ class _Checks:
     def col(self, name: str) -> pd.Series:
         if name in self.chunk.columns:
             return self.chunk[name]
-        return pd.Series([""] * len(self.chunk), index=self.chunk.index, dtype=object)
+        # A column the file leaves out reads as one left blank (and of the same string
+        # type: checks on a column of Python objects run a Python call per cell).
+        return pd.Series([""] * len(self.chunk), index=self.chunk.index, dtype=str)
 
     def ok(self, *columns: str) -> np.ndarray:
         """Rows with no problem in any of ``columns`` (for checks across columns)."""
@@ -647,7 +651,8 @@ def _log_spelling(values: pd.Series, patterns: list, known: dict) -> pd.Series:
     folded: dict = {}
     for p, z in known:
         folded.setdefault((p, fold(z)), z)
-    out = [z if not z or (p, z) in known else folded.get((p, fold(z)), z) for p, z in zip(patterns, values)]
+    out = [z if not z or (p, z) in known else folded.get((p, fold(z)), z)
+           for p, z in zip(patterns, values.tolist())]
     return pd.Series(out, index=values.index, dtype=object)
 
 
