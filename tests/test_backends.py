@@ -216,6 +216,37 @@ def test_a_transient_conflict_is_retried_not_reported(logs, tmp_path, monkeypatc
         assert s.count("inspections") == before + 1
 
 
+# --- an insert the database refuses fails the whole write ------------------------------------
+
+def test_an_insert_the_database_refuses_rolls_the_whole_write_back(logs):
+    """On PostgreSQL the COPY of ``Store.insert_rows`` runs in a thread while the caller
+    goes on: its error must still reach the caller (at the next use of the log, or at
+    the end of the write) and nothing of the write may be committed."""
+    from tests.conftest import GOOD
+    from tracker.store import TABLE_COLUMNS, LogError
+
+    with Store(logs.new()) as s:
+        import_dir(s, GOOD)
+        row = dict(zip(TABLE_COLUMNS["inspections"][1:], next(s.iter_rows("inspections"))[0]))
+        good = tuple({**row, "record_key": "test:good"}.values())
+        orphan = tuple({**row, "record_key": "test:orphan", "lot": "NO-SUCH-LOT"}.values())
+        before = s.snapshot()
+        with pytest.raises(LogError, match="(?i)foreign key"):  # the refused rows end the write
+            with s.write():
+                s.insert_rows("inspections", [good])
+                s.insert_rows("inspections", [orphan])
+        assert s.snapshot() == before
+        with pytest.raises(LogError, match="(?i)foreign key"):  # a read follows them
+            with s.write():
+                s.insert_rows("inspections", [good])
+                s.insert_rows("inspections", [orphan])
+                s.count("inspections")
+        assert s.snapshot() == before
+        with s.write():  # the log takes writes again
+            s.insert_rows("inspections", [good])
+        assert s.count("inspections") == len(before["inspections"]) + 1
+
+
 # --- the benchmark on PostgreSQL ------------------------------------------------------------
 
 @pytest.mark.slow

@@ -275,6 +275,25 @@ def test_a_refused_import_leaves_the_totals_as_they_were(tmp_path, logs):
         _check_totals(s)
 
 
+def test_an_import_in_many_chunks_counts_the_same_and_is_all_or_nothing(tmp_path, logs):
+    """Chunks of 40 rows: on PostgreSQL each chunk's COPY runs while the next chunk is
+    validated. The totals are the recount's, and a row refused in the last chunk
+    leaves the log as it was."""
+    folder, late = _scenario(tmp_path / "log", 5)
+    with Store(logs.new()) as s:
+        import_dir(s, folder, today=TODAY, chunk_rows=40)
+        _check_totals(s)
+        before = s.snapshot()
+        bad = late + [dict(late[0], quantity="-3")]
+        assert len(bad) > 3 * 40
+        with pytest.raises(Exception, match="quantity"):
+            import_file(s, "inspections", _write(tmp_path / "bad.csv", bad), today=TODAY, chunk_rows=40)
+        assert s.snapshot() == before
+        added = import_file(s, "inspections", _write(tmp_path / "late.csv", late), today=TODAY, chunk_rows=40)
+        assert added.added == len(late)
+        _check_totals(s)
+
+
 def test_a_log_from_before_the_totals_gets_them_when_opened(tmp_path):
     folder, _ = _scenario(tmp_path / "log", 4)
     path = tmp_path / "log.db"

@@ -2,8 +2,8 @@
 
 Used by ``tracker/store.py`` only. Every difference between the dialects lives
 here: how a connection opens, placeholders, identifier types in the DDL, the
-schema version, row ids, bulk insert (``executemany`` against ``COPY``), the
-writers' lock, the errors worth retrying, query plans, integrity checks and
+schema version, row ids, bulk insert (``executemany`` against ``COPY``), "value
+in a list" lookups (``IN`` chunks against one array), the writers' lock, the errors worth retrying, query plans, integrity checks and
 how a change to the log is noticed. ``store.py`` writes its SQL once, in the
 common subset of both (``?`` placeholders, ``"double-quoted"`` identifiers,
 ``ON CONFLICT ... DO UPDATE`` upserts), and asks the dialect for the rest.
@@ -33,6 +33,8 @@ from tracker.errors import DiskFull, LogError, LogLocked, LogNotFound, LogReadOn
 URL_SCHEMES = ("postgresql://", "postgres://")
 BUSY_TIMEOUT_MS = 30_000
 NOTICE_AFTER_MS = 1_000  # say that a write waits for another writer after this long
+# Values per "IN (?, ...)" lookup on SQLite (older builds allow 999 parameters per statement).
+IN_LIST_MAX = 900
 # How long a PostgreSQL writer waits for the writers' lock before giving up (ms).
 PG_LOCK_TIMEOUT_MS = 600_000
 # pg_advisory_xact_lock key of the writers' lock ("pourback" in ASCII, folded to 63 bits).
@@ -124,6 +126,7 @@ class SQLite:
     forced_join = "CROSS JOIN"
     # The review's pours and rejects per day: two plain aggregates (see Store.review_days).
     review_in_one_pass = False
+    totals_settings: tuple[str, ...] = ()
 
     def __init__(self, path: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         self.target = path
@@ -246,10 +249,19 @@ class SQLite:
     def executemany(self, sql: str, rows: Iterable[tuple]):
         return self.conn.executemany(sql, rows)
 
-    def insert_many(self, table: str, cols: list[str], rows: list[tuple]) -> None:
+    def insert_many(self, table: str, cols: list[str], rows: list[tuple], wait: bool = True) -> None:
+        """Insert ``rows`` (``wait`` is for PostgreSQL: here the rows are in on return)."""
         sql = (f'INSERT INTO "{table}" ({", ".join(f"{chr(34)}{c}{chr(34)}" for c in cols)}) '
                f"VALUES ({', '.join('?' * len(cols))})")
         self.conn.executemany(sql, rows)
+
+    def in_list(self, expr: str, values: list) -> Iterator[tuple[str, list]]:
+        """``(condition, parameters)`` pairs that together select the rows whose
+        ``expr`` is one of ``values``: here ``expr IN (?, ...)`` in chunks of
+        ``IN_LIST_MAX`` values."""
+        for i in range(0, len(values), IN_LIST_MAX):
+            chunk = list(values[i:i + IN_LIST_MAX])
+            yield f"{expr} IN ({', '.join('?' * len(chunk))})", chunk
 
     def last_insert_id(self) -> int:
         return self.conn.execute("SELECT last_insert_rowid()").fetchone()[0]
@@ -305,6 +317,11 @@ class SQLite:
 
 
 # --- PostgreSQL --------------------------------------------------------------------------
+
+class _Values(list):
+    """A list sent to PostgreSQL as one array parameter in binary form (psycopg writes
+    a text array value by value in Python, and the server parses it: slower)."""
+
 
 def _psycopg():
     try:
@@ -375,7 +392,8 @@ class PostgreSQL:
     The connection runs in autocommit mode, so reads never hold a transaction
     open; a write is ``BEGIN`` + ``pg_advisory_xact_lock`` (one writer at a time,
     like SQLite's ``BEGIN IMMEDIATE``, so validation that reads the log before
-    writing stays true at commit) + ``COMMIT``. Inserts go through ``COPY``.
+    writing stays true at commit) + ``COMMIT``. Inserts go through ``COPY``, which
+    may run in a thread while the caller goes on (see :meth:`insert_many`).
     """
 
     name = "postgresql"
@@ -385,36 +403,45 @@ class PostgreSQL:
     # The review's pours and rejects per day in one statement reading the window's
     # records once: each statement costs planning and a round trip (see Store.review_days).
     review_in_one_pass = True
+    # Run before the running totals are recomputed, for the rest of the write transaction:
+    # no JIT compilation. After a bulk load the planner has no statistics of the new rows;
+    # it overestimates the recompute's cost and compiles it (about 0.1 s) for nothing.
+    totals_settings = ("SELECT set_config('jit', 'off', true)",)
 
     def __init__(self, url: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         psycopg = _psycopg()
         self.target = url
         self.on_wait = on_wait
         self._sql_cache: dict[str, str] = {}
+        self._copying: tuple[threading.Thread, list] | None = None  # a COPY running in a thread
         name = display_name(url)
 
         def connect(fresh: bool):
+            from psycopg.types.array import ListBinaryDumper
+
             try:
-                return _connect(url, fresh)
+                conn = _connect(url, fresh)
             except psycopg.Error as exc:
                 reason = " ".join(str(exc).split()) or type(exc).__name__
                 raise LogError(name, f"cannot connect to {name}: {reason}; check the host, port, database "
                                      "name and the password (in the URL, PGPASSWORD or ~/.pgpass)") from None
+            conn.adapters.register_dumper(_Values, ListBinaryDumper)  # idempotent on a kept connection
+            return conn
 
-        self.conn = connect(False)
+        self._pg = connect(False)
         try:
             try:
                 version = self.schema_version()
             except psycopg.OperationalError:  # an idle connection the server has dropped since
-                self.conn.close()
-                self.conn = connect(True)
+                self._pg.close()
+                self._pg = connect(True)
                 version = self.schema_version()
             if version == 0:
                 if not create:
                     raise LogNotFound(name)
                 self._check_foreign(name)
         except BaseException:
-            self.conn.close()
+            self._pg.close()
             raise
 
     def _check_foreign(self, name: str) -> None:
@@ -425,10 +452,27 @@ class PostgreSQL:
                                 + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else "")
                                 + "; give a new database (createdb) or schema in the URL")
 
+    @property
+    def conn(self):
+        """The connection, once a COPY running in a thread is complete (its error raised)."""
+        if self._copying is not None:
+            self._settle()
+        return self._pg
+
+    def _settle(self, raise_error: bool = True) -> None:
+        """Wait for the COPY running in a thread, if any; raise its error."""
+        thread, failed = self._copying or (None, [])
+        if thread is not None:
+            thread.join()
+        self._copying = None
+        if failed and raise_error:
+            raise failed[0]
+
     def close(self) -> None:
-        if not self.conn.closed and not getattr(self, "_released", False):
+        self._settle(raise_error=False)
+        if not self._pg.closed and not getattr(self, "_released", False):
             self._released = True
-            _release(self.target, self.conn)
+            _release(self.target, self._pg)
 
     # errors -----------------------------------------------------------------------
     @staticmethod
@@ -466,7 +510,12 @@ class PostgreSQL:
         with self.conn.transaction():  # a savepoint when nested
             if outer:
                 self._lock()
-            yield
+            try:
+                yield
+            except BaseException:
+                self._settle(raise_error=False)  # the rollback waits for a COPY in flight
+                raise
+            self._settle()  # never commit past a COPY that failed
             if outer:
                 # The change counter the dashboard's cache keys on (see data_version).
                 self.conn.execute("UPDATE pourback_schema SET changes = changes + 1")
@@ -539,11 +588,40 @@ class PostgreSQL:
         with self.conn.cursor() as cur:
             cur.executemany(self.sql(sql), rows)
 
-    def insert_many(self, table: str, cols: list[str], rows: list[tuple]) -> None:
+    def insert_many(self, table: str, cols: list[str], rows: list[tuple], wait: bool = True) -> None:
+        """COPY ``rows`` into ``table``. With ``wait=False`` the COPY runs in a thread and
+        this returns at once, so that the caller can validate its next rows while the
+        server stores these: the next use of the connection (and the end of the write
+        transaction) waits for it and raises its error, so nothing commits past it."""
         names = ", ".join(f'"{c}"' for c in cols)
-        with self.conn.cursor() as cur, cur.copy(f'COPY "{table}" ({names}) FROM STDIN') as copy:
-            for row in rows:
-                copy.write_row(row)
+        conn = self.conn  # after any COPY still running
+
+        def copy_rows() -> None:
+            with conn.cursor() as cur, cur.copy(f'COPY "{table}" ({names}) FROM STDIN') as copy:
+                for row in rows:
+                    copy.write_row(row)
+
+        if wait:
+            copy_rows()
+            return
+        failed: list[BaseException] = []
+
+        def run() -> None:
+            try:
+                copy_rows()
+            except BaseException as exc:  # raised in the caller's thread by _settle
+                failed.append(exc)
+
+        thread = threading.Thread(target=run, name="pourback-copy", daemon=True)
+        self._copying = (thread, failed)
+        thread.start()
+
+    def in_list(self, expr: str, values: list) -> Iterator[tuple[str, list]]:
+        """As :meth:`SQLite.in_list`, in one statement: ``expr = ANY(?)`` with the
+        values as one array parameter (a long ``IN`` list costs psycopg and the
+        server a parse per placeholder)."""
+        if len(values):
+            yield f"{expr} = ANY(?)", [_Values(values)]
 
     def last_insert_id(self) -> int:
         # lastval() is per session, and COPY's defaults advance it like INSERT's.

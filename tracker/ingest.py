@@ -62,7 +62,9 @@ COLUMNS = {  # (required, optional)
 # The US customary twin a file may give in place of a metric column (diameter_in for
 # diameter_mm, casting_weight_lb, metal_cost_per_lb, pour_temp_f ...): {kind: {us: metric}}.
 US_COLUMNS = {kind: units.us_names(required + optional) for kind, (required, optional) in COLUMNS.items()}
-CHUNK_ROWS = 100_000
+# Rows validated and written at a time. On PostgreSQL a chunk's COPY runs while the next
+# chunk is read and checked (Store.insert_rows), so several chunks keep both busy.
+CHUNK_ROWS = 20_000
 PLANT_CODE = r"[A-Za-z0-9][A-Za-z0-9._-]{0,31}"
 MAX_PROBLEMS = 1000  # keep the first this many (every one is counted)
 H_OVER_D_SANE = (0.25, 4.0)
@@ -513,7 +515,9 @@ class _Checks:
     def col(self, name: str) -> pd.Series:
         if name in self.chunk.columns:
             return self.chunk[name]
-        return pd.Series([""] * len(self.chunk), index=self.chunk.index, dtype=object)
+        # A column the file leaves out reads as one left blank (and of the same string
+        # type: checks on a column of Python objects run a Python call per cell).
+        return pd.Series([""] * len(self.chunk), index=self.chunk.index, dtype=str)
 
     def ok(self, *columns: str) -> np.ndarray:
         """Rows with no problem in any of ``columns`` (for checks across columns)."""
@@ -676,7 +680,8 @@ def _log_spelling(values: pd.Series, patterns: list, known: dict) -> pd.Series:
     folded: dict = {}
     for p, z in known:
         folded.setdefault((p, fold(z)), z)
-    out = [z if not z or (p, z) in known else folded.get((p, fold(z)), z) for p, z in zip(patterns, values)]
+    out = [z if not z or (p, z) in known else folded.get((p, fold(z)), z)
+           for p, z in zip(patterns, values.tolist())]
     return pd.Series(out, index=values.index, dtype=object)
 
 
@@ -773,6 +778,16 @@ class _Importer:
         self.legacy = kind == "inspections" and not self._log_was_empty and store.has_legacy_keys()
         self._ids_in_file: dict[str, tuple] = {}  # record_id -> (row, content) seen in this file
         self.codes_seen: dict[tuple, list] = {}  # folded code -> new codes of this file (look-alikes)
+        self._levels: dict | None = None  # inspections: the zones' required levels (read once)
+        self._next_lots: tuple[set, dict] | None = None  # the next chunk's lots, looked up ahead
+
+    def prefetch(self, chunk: pd.DataFrame) -> None:
+        """Look up the lots of the next chunk of an inspections file now, before this
+        chunk's rows are written: on PostgreSQL their COPY then runs while the next
+        chunk is checked (see Store.insert_rows) instead of holding up its lookup."""
+        if self.kind == "inspections" and "lot" in chunk.columns:
+            lots = [x for x in dict.fromkeys(chunk["lot"].tolist()) if x != ""]
+            self._next_lots = (set(lots), self.store.lots_info(lots))
 
     # each returns (rows to insert as tuples, keys) for the good rows of the chunk
     def validate(self, c: _Checks) -> list[tuple]:
@@ -982,7 +997,11 @@ class _Importer:
                lambda i: f"got 'accept'; category {cat.iloc[i]} (cracks, hot tears) is not acceptable at "
                          "any level")
         # The lot must exist, inspection on or after the pour.
-        info = self.store.lots_info(lot[lot != ""].unique().tolist())
+        wanted = lot[lot != ""].unique().tolist()
+        ahead, info = self._next_lots or (set(), None)
+        self._next_lots = None
+        if info is None or not ahead.issuperset(wanted):
+            info = self.store.lots_info(wanted)
         lot_l, zone_l = lot.tolist(), zone.tolist()  # plain lists: iterating a Series is slow
         known = np.array([x in info for x in lot_l], dtype=bool)  # Series.isin is slow on many values
         c.fail((lot != "") & ~known, "lot", "unknown lot; import it in lots.csv first or check the code")
@@ -991,7 +1010,9 @@ class _Importer:
                lambda i: f"got {on.iloc[i]!r}; lot {lot.iloc[i]} was poured on {poured[i]}; "
                          "a casting is inspected after it is poured")
         pattern = np.array([info[x]["pattern"] if k else "" for x, k in zip(lot_l, known)], dtype=object)
-        levels = self.store.zone_levels()
+        if self._levels is None:  # zones are not written while an inspections file is
+            self._levels = self.store.zone_levels()
+        levels = self._levels
         zone = _log_spelling(zone, pattern.tolist(), levels)
         zone_l = zone.tolist()
         has_zone = (zone != "").to_numpy()
@@ -1328,6 +1349,17 @@ class _RefusedReport:
             self.path.unlink(missing_ok=True)
 
 
+def _ahead(chunks: Iterator[pd.DataFrame]) -> Iterator[tuple[pd.DataFrame, pd.DataFrame | None]]:
+    """Each chunk with the one after it (None after the last): the file is read a chunk ahead."""
+    before = None
+    for chunk in chunks:
+        if before is not None:
+            yield before, chunk
+        before = chunk
+    if before is not None:
+        yield before, None
+
+
 def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, today, progress,
                 chunk_rows, sep=",", decimal=".", report: _RefusedReport | None = None) -> ImportResult:
     """Validate one file chunk by chunk inside the open transaction and write
@@ -1344,7 +1376,7 @@ def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, to
         else:
             result.refused_rows.append(row)
 
-    for chunk in _read_chunks(path, kind, chunk_rows, shape, sep=sep):
+    for chunk, following in _ahead(_read_chunks(path, kind, chunk_rows, shape, sep=sep)):
         if not len(chunk):
             continue
         columns = list(chunk.columns)
@@ -1369,6 +1401,8 @@ def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, to
             if kind == "risers":
                 imp.pending_risers.extend(good)  # written after their revisions, at the end
             else:
+                if following is not None:
+                    imp.prefetch(following)
                 result.added += store.insert_rows(kind, good)
         if progress:
             progress(len(chunk))
