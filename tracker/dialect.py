@@ -3,8 +3,10 @@
 Used by ``tracker/store.py`` only. Every difference between the dialects lives
 here: how a connection opens, placeholders, identifier types in the DDL, the
 schema version, row ids, bulk insert (``executemany`` against ``COPY``), "value
-in a list" lookups (``IN`` chunks against one array), the writers' lock, the errors worth retrying, query plans, integrity checks and
-how a change to the log is noticed. ``store.py`` writes its SQL once, in the
+in a list" lookups (``IN`` chunks against one array), the writers' lock, the
+errors worth retrying, query plans, integrity checks, kept idle connections,
+the settings of the running totals' recompute and how a change to the log is
+noticed. ``store.py`` writes its SQL once, in the
 common subset of both (``?`` placeholders, ``"double-quoted"`` identifiers,
 ``ON CONFLICT ... DO UPDATE`` upserts), and asks the dialect for the rest.
 
