@@ -117,22 +117,6 @@ def _pg_log_error(exc: Exception, name: str) -> PourbackError:
 
 # --- SQLite ------------------------------------------------------------------------------
 
-def _in_thread(fn: Callable[[], object], name: str) -> tuple[threading.Thread, list]:
-    """Start ``fn()`` in a thread: (the thread, a list that receives its error), for a
-    dialect's ``_settle`` to wait on and raise in the caller's thread."""
-    failed: list[BaseException] = []
-
-    def run() -> None:
-        try:
-            fn()
-        except BaseException as exc:  # raised in the caller's thread by _settle
-            failed.append(exc)
-
-    thread = threading.Thread(target=run, name=name, daemon=True)
-    thread.start()
-    return thread, failed
-
-
 class SQLite:
     """The embedded log: one file, WAL mode, writers wait for each other (BEGIN IMMEDIATE)."""
 
@@ -149,8 +133,7 @@ class SQLite:
     def __init__(self, path: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         self.target = path
         self.on_wait = on_wait
-        self._db = None
-        self._copying: tuple[threading.Thread, list] | None = None  # an insert running in a thread
+        self.conn = None
         memory = path == ":memory:"
         if not memory and not create and not pathlib.Path(path).exists():
             raise LogNotFound(path)
@@ -159,7 +142,7 @@ class SQLite:
         try:
             if not memory and not create and pathlib.Path(path).stat().st_size == 0:
                 raise NotALog(path, "the file is empty")
-            self._db = sqlite3.connect(path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
+            self.conn = sqlite3.connect(path, timeout=BUSY_TIMEOUT_MS / 1000, check_same_thread=False)
             self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
             self.conn.execute("PRAGMA foreign_keys = ON")
             self._check_foreign()
@@ -183,26 +166,9 @@ class SQLite:
             raise NotALog(self.target, "an SQLite database of another program, with the tables "
                                        + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else ""))
 
-    @property
-    def conn(self):
-        """The connection, once an insert running in a thread is complete (its error raised)."""
-        if self._copying is not None:
-            self._settle()
-        return self._db
-
-    def _settle(self, raise_error: bool = True) -> None:
-        """Wait for the insert running in a thread, if any; raise its error."""
-        thread, failed = self._copying or (None, [])
-        if thread is not None:
-            thread.join()
-        self._copying = None
-        if failed and raise_error:
-            raise failed[0]
-
     def close(self) -> None:
-        self._settle(raise_error=False)
-        if self._db is not None:
-            self._db.close()
+        if self.conn is not None:
+            self.conn.close()
 
     # errors -----------------------------------------------------------------------
     @staticmethod
@@ -240,7 +206,6 @@ class SQLite:
             try:
                 yield
             except BaseException:
-                self._settle(raise_error=False)
                 self.conn.execute("ROLLBACK TO SAVEPOINT pourback_nested")
                 self.conn.execute("RELEASE SAVEPOINT pourback_nested")
                 raise
@@ -250,9 +215,8 @@ class SQLite:
         self._begin()
         try:
             yield
-            self.retry(lambda: self.conn.execute("COMMIT"))  # after an insert in flight (its error raised)
+            self.retry(lambda: self.conn.execute("COMMIT"))
         except BaseException:
-            self._settle(raise_error=False)  # the rollback waits for an insert in flight
             if self.conn.in_transaction:
                 with contextlib.suppress(sqlite3.Error):
                     self.conn.execute("ROLLBACK")
@@ -288,17 +252,10 @@ class SQLite:
         return self.conn.executemany(sql, rows)
 
     def insert_many(self, table: str, cols: list[str], rows: list[tuple], wait: bool = True) -> None:
-        """Insert ``rows`` (one ``executemany``). With ``wait=False`` it runs in a thread
-        (sqlite3 lets go of the GIL while SQLite writes) and this returns at once: the
-        next use of the connection, and the end of the write, wait for it and raise its
-        error, so nothing commits past it."""
+        """Insert ``rows`` (``wait`` is for PostgreSQL: here the rows are in on return)."""
         sql = (f'INSERT INTO "{table}" ({", ".join(f"{chr(34)}{c}{chr(34)}" for c in cols)}) '
                f"VALUES ({', '.join('?' * len(cols))})")
-        db = self.conn  # after any insert still running
-        if wait:
-            db.executemany(sql, rows)
-            return
-        self._copying = _in_thread(lambda: db.executemany(sql, rows), "pourback-insert")
+        self.conn.executemany(sql, rows)
 
     def in_list(self, expr: str, values: list) -> Iterator[tuple[str, list]]:
         """``(condition, parameters)`` pairs that together select the rows whose
@@ -649,7 +606,17 @@ class PostgreSQL:
         if wait:
             copy_rows()
             return
-        self._copying = _in_thread(copy_rows, "pourback-copy")
+        failed: list[BaseException] = []
+
+        def run() -> None:
+            try:
+                copy_rows()
+            except BaseException as exc:  # raised in the caller's thread by _settle
+                failed.append(exc)
+
+        thread = threading.Thread(target=run, name="pourback-copy", daemon=True)
+        self._copying = (thread, failed)
+        thread.start()
 
     def in_list(self, expr: str, values: list) -> Iterator[tuple[str, list]]:
         """As :meth:`SQLite.in_list`, in one statement: ``expr = ANY(?)`` with the
