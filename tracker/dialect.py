@@ -416,6 +416,7 @@ class PostgreSQL:
         self.on_wait = on_wait
         self._sql_cache: dict[str, str] = {}
         self._copying: tuple[threading.Thread, list] | None = None  # a COPY running in a thread
+        self._released = False  # close() gave the connection back for reuse
         name = display_name(url)
 
         def connect(fresh: bool):
@@ -472,7 +473,7 @@ class PostgreSQL:
 
     def close(self) -> None:
         self._settle(raise_error=False)
-        if not self._pg.closed and not getattr(self, "_released", False):
+        if not self._pg.closed and not self._released:
             self._released = True
             _release(self.target, self._pg)
 

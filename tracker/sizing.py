@@ -68,7 +68,8 @@ def validate_section(volume_cm3, area_cm2, thickness_mm=None, system: str = unit
         refuse("volume_cm3", _first_bad(v, v <= 0), f"section volume must be a number above 0 {sym['volume_cm3']}")
     if not np.all(np.isfinite(a)) or np.any(a <= 0):
         refuse("area_cm2", _first_bad(a, a <= 0), f"cooling area must be a number above 0 {sym['area_cm2']}")
-    for name, arr, limit in (("volume_cm3", v, RANGES["volume_cm3"][1]), ("area_cm2", a, RANGES["cooling_area_cm2"][1])):
+    for name, arr, limit in (("volume_cm3", v, RANGES["volume_cm3"][1]),
+                             ("area_cm2", a, RANGES["cooling_area_cm2"][1])):
         if np.any(arr > limit):
             refuse(name, _first_bad(arr, arr > limit),
                    f"at most {units.show(name, limit, system)}, larger than any casting section poured; "
