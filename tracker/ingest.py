@@ -374,7 +374,11 @@ def _check_uncalculated(path: pathlib.Path, sheet: str, frame: pd.DataFrame) -> 
 
 def _normalise(chunk: pd.DataFrame) -> pd.DataFrame:
     chunk = chunk.rename(columns=lambda c: str(c).strip().lower().lstrip("\ufeff"))
-    return chunk.apply(lambda s: s.astype(str).str.strip()) if len(chunk) else chunk
+    if not len(chunk):
+        return chunk
+    return pd.DataFrame({c: (s if isinstance(s.dtype, pd.StringDtype) else s.astype(str)).str.strip()
+                         for c, s in chunk.items()},
+                        index=chunk.index)
 
 
 REPORT_COLUMNS = ("row", "reason")  # added by the refused-rows report; ignored on import
@@ -560,23 +564,24 @@ class _Checks:
         if required:
             self.fail(s == "", name, f"{name} is required")
         self.fail(s.str.len() > max_len, name, f"{name} is longer than {max_len} characters")
-        self.fail(s.str.contains(r"[\x00-\x08\x0b\x0c\x0e-\x1f]", regex=True), name,
-                  f"{name} holds control characters")
-        hidden = s.str.contains(INVISIBLE, regex=True)
-        if hidden.any():
-            self.fail(hidden, name, lambda i: _invisible_text(name, s.iloc[i]))
+        # One scan of the whole column (a control or invisible character is rare): only a
+        # column holding a character that does not print is checked cell by cell.
+        if not _prints(s.tolist()):
+            self.fail(s.str.contains(CONTROL, regex=True), name, f"{name} holds control characters")
+            hidden = s.str.contains(INVISIBLE, regex=True)
+            if hidden.any():
+                self.fail(hidden, name, lambda i: _invisible_text(name, s.iloc[i]))
         return s
 
     def code(self, name: str, allowed, required: bool = True, lower: bool = True) -> pd.Series:
         """A code from a fixed list, matched whatever its case (and for words,
         spaces or hyphens for underscores and the spelling variants in
         ALIASES), returned in the list's own spelling."""
-        s = self.col(name)
-        s = s.str.lower() if lower else s.str.upper()
-        if lower:
-            s = s.str.replace(" ", "_", regex=False).str.replace("-", "_", regex=False)
-            if ALIASES:
-                s = s.replace(ALIASES)
+        # Spelled out once per distinct value (a column holds a handful), then spread.
+        given = self.col(name)
+        where, distinct = pd.factorize(given.to_numpy(dtype=object), use_na_sentinel=False)
+        spelled = np.array([_code_spelling(v, lower) for v in distinct] or [""], dtype=object)
+        s = pd.Series(spelled[where], index=given.index, dtype=given.dtype)
         if required:
             self.fail(s == "", name, f"{name} is required; use one of {', '.join(allowed)}")
         self.fail((s != "") & ~s.isin(allowed), name, f"{name} must be one of {', '.join(allowed)}")
@@ -656,6 +661,30 @@ _INVISIBLE_CHARS = [chr(c) for c in range(0x110000)
                     if unicodedata.category(chr(c)) in ("Cf", "Zl", "Zp")]
 INVISIBLE = "[" + "".join(re.escape(ch) for ch in _INVISIBLE_CHARS) + "]"
 _INVISIBLE_RE = re.compile(INVISIBLE)
+# Control characters other than tab, line feed and carriage return.
+CONTROL = r"[\x00-\x08\x0b\x0c\x0e-\x1f]"
+
+
+def _prints(values: list) -> bool:
+    """Whether every character of ``values`` prints (``str.isprintable``: no control
+    character, none of Unicode's categories Cf, Zl, Zp, nor any other that prints as
+    nothing); False for a missing value."""
+    try:
+        return "".join(values).isprintable()
+    except TypeError:
+        return False
+
+
+def _code_spelling(value: str, lower: bool) -> str:
+    """A code as the fixed lists spell it: lower case, spaces and hyphens as
+    underscores, the spelling variants of ALIASES (``lower``); or upper case.
+    A missing value (NaN) stays missing."""
+    if not isinstance(value, str):
+        return value
+    if not lower:
+        return value.upper()
+    value = value.lower().replace(" ", "_").replace("-", "_")
+    return ALIASES.get(value, value)
 
 
 def _invisible_text(name: str, value: str) -> str:
