@@ -307,3 +307,39 @@ def test_a_log_from_before_the_totals_gets_them_when_opened(tmp_path):
     with Store(path) as s:
         assert s.schema_version() == store_module.SCHEMA_VERSION
         _check_totals(s)
+
+
+def test_new_records_alone_are_added_to_the_totals_as_a_recompute_gives_them(tmp_path, logs, monkeypatch):
+    """A write of new records only (no lot, no correction or void) adds them to
+    ``day_totals`` instead of recomputing it: the rows are those a recompute from the
+    lots and records gives, to the bit, and the recount's. A lot's first record makes
+    it inspected; a further record does not count its castings again."""
+    folder, late = _scenario(tmp_path / "log", 6)
+    taken = []
+    add = Store._add_records_to_totals
+    monkeypatch.setattr(Store, "_add_records_to_totals", lambda self: taken.append(add(self)) or taken[-1])
+
+    def rows(s, table):
+        return sorted(tuple(r) for r in s.conn.execute(f"SELECT * FROM {table}").fetchall())
+
+    with Store(logs.new()) as s:
+        import_dir(s, folder, today=TODAY)  # lots written too: recomputed
+        assert taken == []
+        import_file(s, "inspections", _write(tmp_path / "late.csv", late[: len(late) // 2]), today=TODAY)
+        inspected = set(s.current_inspections()["lot"])
+        held = late[len(late) // 2:]
+        again = next(r for r in held if r["lot"] in inspected)
+        first = next(r for r in held if r["lot"] not in inspected)
+        for rec in (again, first, dict(first, result="accept", defect="", zone="", quantity=1)):
+            log_inspection(s, rec, by="QE-T", today=TODAY)
+        assert taken == [True] * 4
+        _check_totals(s)
+        added = {t: rows(s, t) for t in store_module.TOTALS_TABLES}
+        with s.write():
+            store_module._totals_from(s.conn.execute, store_module.EARLIEST_DAY)
+        assert {t: rows(s, t) for t in store_module.TOTALS_TABLES} == added
+        # a correction supersedes a record: recomputed, not added
+        rec = s.current_inspections().iloc[0]
+        correct_inspection(s, int(rec["id"]), {"void": True}, by="QE-B", reason="recount", today=TODAY)
+        assert taken == [True] * 4
+        _check_totals(s)

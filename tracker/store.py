@@ -59,6 +59,8 @@ TABLE_COLUMNS = {
                     "recorded_at", "recorded_by", "source", "supersedes", "void",
                     "correction_reason"],
 }
+# Where each column sits in a record's row as written (TABLE_COLUMNS without ``id``).
+_RECORD = {c: i for i, c in enumerate(c for c in TABLE_COLUMNS["inspections"] if c != "id")}
 KEYS = {
     "patterns": ["pattern"],
     "zones": ["pattern", "zone"],
@@ -369,18 +371,22 @@ def _zone_totals_sql(one_pattern: bool) -> str:
         FROM z"""
 
 
-def _totals_from(execute, day: str) -> None:
-    """Recompute ``day_totals`` and ``zone_totals`` of every pattern from ``day`` (ISO date) on."""
+TOTALS_TABLES = ("day_totals", "zone_totals")
+
+
+def _totals_from(execute, day: str, tables: tuple[str, ...] = TOTALS_TABLES) -> None:
+    """Recompute ``tables`` (``day_totals``, ``zone_totals``) of every pattern from ``day`` (ISO date) on."""
     for table, sql, params in (("day_totals", _day_totals_sql(False), (day, day, day)),
                                ("zone_totals", _zone_totals_sql(False), (day, day))):
-        execute(f"DELETE FROM {table} WHERE poured_on >= ?", (day,))
-        execute(sql, params)
+        if table in tables:
+            execute(f"DELETE FROM {table} WHERE poured_on >= ?", (day,))
+            execute(sql, params)
 
 
-def _refresh_totals(execute, since: dict[str, str]) -> None:
-    """Recompute ``day_totals`` and ``zone_totals`` of each pattern of ``since`` from
-    its day (ISO date) on. ``execute(sql, params)`` runs one statement in the open
-    write transaction.
+def _refresh_totals(execute, since: dict[str, str], tables: tuple[str, ...] = TOTALS_TABLES) -> None:
+    """Recompute ``tables`` (``day_totals``, ``zone_totals``) of each pattern of ``since``
+    from its day (ISO date) on. ``execute(sql, params)`` runs one statement in the
+    open write transaction.
 
     Pattern by pattern (lots by pattern, a few lookups each), or every pattern from
     the earliest of the days at once (lots by pour date, read in order): the latter
@@ -391,19 +397,20 @@ def _refresh_totals(execute, since: dict[str, str]) -> None:
         return
     day = min(since.values())
     if len(since) > TOTALS_ONE_BY_ONE:
-        _totals_from(execute, day)
+        _totals_from(execute, day, tables)
         return
     mine = sum(execute("SELECT COUNT(*) FROM lots WHERE pattern = ? AND poured_on >= ?", item).fetchone()[0]
                for item in since.items())
     if execute("SELECT COUNT(*) FROM lots WHERE poured_on >= ?", (day,)).fetchone()[0] < TOTALS_AT_ONCE_COST * mine:
-        _totals_from(execute, day)
+        _totals_from(execute, day, tables)
         return
     day_sql, zone_sql = _day_totals_sql(True), _zone_totals_sql(True)
     for pattern, day in sorted(since.items()):
         for table, sql, params in (("day_totals", day_sql, (pattern, day, pattern, day, day, pattern)),
                                    ("zone_totals", zone_sql, (pattern, day, day))):
-            execute(f"DELETE FROM {table} WHERE pattern = ? AND poured_on >= ?", (pattern, day))
-            execute(sql, params)
+            if table in tables:
+                execute(f"DELETE FROM {table} WHERE pattern = ? AND poured_on >= ?", (pattern, day))
+                execute(sql, params)
 
 
 def _migration_9(db: "_Schema") -> None:
@@ -514,6 +521,11 @@ class Store:
         # write() commits (or at once, for an insert outside write()).
         self._touched: dict[str, str] = {}
         self._records_above: int | None = None
+        # The records written since (their row tuples, batch by batch), and whether every
+        # one is a plain new record (none corrects or voids another): then the totals
+        # only grow by what they add (see _add_records_to_totals).
+        self._new_records: list[list[tuple]] = []
+        self._records_plain = True
         self._writing = 0
         try:
             self.migrate()
@@ -759,8 +771,13 @@ class Store:
             return 0
         auth.require(self, auth.TABLE_ACTION[name])
         cols = [c for c in TABLE_COLUMNS[name] if c != "id"]
-        if name == "inspections" and self._records_above is None:
-            self._records_above = self.conn.execute("SELECT COALESCE(MAX(id), 0) FROM inspections").fetchone()[0]
+        if name == "inspections":
+            if self._records_above is None:
+                self._records_above = self.conn.execute(
+                    "SELECT COALESCE(MAX(id), 0) FROM inspections").fetchone()[0]
+            self._new_records.append(rows)
+            sup, void = _RECORD["supersedes"], _RECORD["void"]
+            self._records_plain = self._records_plain and all(r[sup] is None and not r[void] for r in rows)
         # PostgreSQL: the COPY goes on in a thread while the caller validates its next rows.
         self.dialect.insert_many(name, cols, rows, wait=False)
         if name == "lots":
@@ -783,11 +800,18 @@ class Store:
     def _forget_touched(self) -> None:
         self._touched = {}
         self._records_above = None
+        self._new_records = []
+        self._records_plain = True
 
     def _bring_totals_up_to_date(self) -> None:
         """Recompute ``day_totals`` and ``zone_totals`` from the earliest pour day of
         each pattern that the lots and records written since the last time touched
-        (the lots of new records and of the records they supersede)."""
+        (the lots of new records and of the records they supersede); when only plain
+        new records were written, add them to ``day_totals`` instead."""
+        if (not self._touched and self._records_above is not None and self._records_plain
+                and self._add_records_to_totals()):
+            self._forget_touched()
+            return
         touched = self._touched
         if self._records_above is not None:
             q = ("SELECT l.pattern, MIN(l.poured_on) FROM inspections i JOIN lots l ON l.lot = i.lot "
@@ -802,6 +826,78 @@ class Store:
         for sql in self.dialect.totals_settings if touched else ():
             self.conn.execute(sql)
         _refresh_totals(self.conn.execute, touched)
+
+    def _add_records_to_totals(self) -> bool:
+        """Bring ``day_totals`` up to date after a write of new records only (no lot,
+        no correction or void): each pattern's rows from the earliest pour day of the
+        records' lots on grow by what the records add before and on their day (a lot
+        becomes inspected with its first current record; rejects add their
+        quantities), which is what recomputing them gives. ``zone_totals`` is
+        recomputed from those days (it holds shrinkage rejects only, a far smaller
+        read). Returns False, having written nothing, when a record's lot or pour
+        day has no row (then the caller recomputes instead)."""
+        lot_c, qty_c, res_c, def_c, zone_c = (_RECORD[c] for c in ("lot", "quantity", "result", "defect",
+                                                                     "zone"))
+        per_lot: dict[str, list[int]] = {}  # lot -> [rejected, shrinkage, zoned shrinkage]
+        for batch in self._new_records:
+            for r in batch:
+                sums = per_lot.get(r[lot_c])
+                if sums is None:
+                    sums = per_lot[r[lot_c]] = [0, 0, 0]
+                if r[res_c] == "reject":
+                    sums[0] += r[qty_c]
+                    if r[def_c] == "shrinkage":
+                        sums[1] += r[qty_c]
+                        if r[zone_c] is not None:
+                            sums[2] += r[qty_c]
+        lots = list(per_lot)
+        info = self.lots_info(lots)
+        if len(info) < len(lots):
+            return False
+        inspected = set() if self._records_above == 0 else self._lots_inspected_up_to(lots, self._records_above)
+        # per (pattern, pour day): inspected castings, rejected, shrinkage, zoned shrinkage
+        add: dict[tuple[str, str], list[int]] = {}
+        for lot, (rejected, shrinkage, zoned) in per_lot.items():
+            i = info[lot]
+            d = add.setdefault((i["pattern"], i["poured_on"]), [0, 0, 0, 0])
+            d[0] += 0 if lot in inspected else i["castings"]
+            d[1] += rejected
+            d[2] += shrinkage
+            d[3] += zoned
+        first: dict[str, str] = {}
+        for pattern, day in add:
+            if day < first.get(pattern, "9999-12-31"):
+                first[pattern] = day
+        changes, running, seen = [], {}, 0
+        for where, params in self.dialect.in_list("pattern", sorted(first)):
+            q = (f"SELECT pattern, poured_on FROM day_totals WHERE {where} AND poured_on >= ? "
+                 "ORDER BY pattern, poured_on")
+            for pattern, day in self.conn.execute(q, params + [min(first.values())]).fetchall():
+                if day < first[pattern]:
+                    continue
+                total = running.setdefault(pattern, [0, 0, 0, 0])
+                d = add.get((pattern, day))
+                if d is not None:
+                    seen += 1
+                    for k in range(4):
+                        total[k] += d[k]
+                changes.append((pattern, day, *total))
+        if seen < len(add):
+            return False
+        self.dialect.add_to_rows("day_totals", ["pattern", "poured_on"],
+                                 ["inspected_castings", "rejected", "shrinkage", "zoned_shrinkage"], changes)
+        for sql in self.dialect.totals_settings:
+            self.conn.execute(sql)
+        _refresh_totals(self.conn.execute, first, tables=("zone_totals",))
+        return True
+
+    def _lots_inspected_up_to(self, lots: list[str], last_id: int) -> set[str]:
+        """The lots of ``lots`` holding a current record with an id up to ``last_id``."""
+        out: set[str] = set()
+        for where, params in self.dialect.in_list("i.lot", lots):
+            q = f"SELECT DISTINCT i.lot FROM inspections i WHERE {where} AND i.id <= ? AND {_CURRENT}"
+            out.update(r[0] for r in self.conn.execute(q, params + [last_id]).fetchall())
+        return out
 
     # --- lookups used by validation ---------------------------------------------
     def patterns_info(self, codes: Iterable[str] | None = None) -> dict[str, dict]:
@@ -1386,13 +1482,6 @@ class Store:
         row = cur.fetchone()
         if row is None:
             raise NotFound("lot", code, "import or log the lot first")
-        return dict(zip([d[0] for d in cur.description], row))
-
-    def sleeve(self, code: str) -> dict:
-        cur = self.conn.execute("SELECT * FROM sleeves WHERE sleeve = ?", (code,))
-        row = cur.fetchone()
-        if row is None:
-            raise NotFound("sleeve", code, "import it with the sleeve catalogue first")
         return dict(zip([d[0] for d in cur.description], row))
 
     def latest_pour_temps(self, patterns: Iterable[str]) -> dict[str, float]:
