@@ -596,10 +596,11 @@ class _Checks:
         if system == units.US:
             low, high = (units.value_in(metric_name, x, system) for x in (low, high))
             unit = units.symbol(metric_name, system) if unit else unit
-        s = self.col(name)
-        empty = s == ""
+        # Checked once per distinct value (a file repeats its values), spread by ``where``.
+        full, s, where = self.distinct(name)
+        empty = (s == "").to_numpy()
         if required:
-            self.fail(empty, name, f"{name} is required")
+            self.fail(empty[where], name, f"{name} is required")
         text = s.str.replace(",", ".", regex=False) if self.decimal == "," else s
         num = pd.to_numeric(text.where(~empty, None), errors="coerce")
         kind = "a whole number" if whole else "a number"
@@ -617,11 +618,21 @@ class _Checks:
         if high is not None:
             bad |= ~empty & num.notna() & (num > high)
         comma = bad & s.str.fullmatch(r"-?\d+,\d+") if self.decimal == "." else bad & False
-        self.fail(comma, name, f"{name} must be {rule}; it is written with a decimal comma: write a decimal "
-                               "point, or import the file with `--decimal ','`")
-        self.fail(bad, name, f"{name} must be {rule}")
+        bad, comma = bad.to_numpy(dtype=bool), comma.to_numpy(dtype=bool)
+        self.fail(comma[where], name, f"{name} must be {rule}; it is written with a decimal comma: write a "
+                                      "decimal point, or import the file with `--decimal ','`")
+        self.fail(bad[where], name, f"{name} must be {rule}")
         # A refused value (inf, 1e30, 1.5 ...) goes on as blank: later steps cast to int.
-        return units.value_from(metric_name, num.where(~bad), system)
+        value = units.value_from(metric_name, num.where(~bad), system)
+        return pd.Series(np.asarray(value, dtype=float)[where], index=full.index)
+
+    def distinct(self, name: str) -> tuple[pd.Series, pd.Series, np.ndarray]:
+        """The column, its distinct values (a Series in first-seen order) and each
+        row's position among them: a check of the distinct values, spread by
+        position (``mask[where]``), is the check of every row."""
+        full = self.col(name)
+        where, values = pd.factorize(full.to_numpy(dtype=object), use_na_sentinel=False)
+        return full, pd.Series(values, dtype=full.dtype), where
 
     def measure(self, name: str, required: bool = True) -> pd.Series:
         """A size, weight or cost within its physical range (tracker.limits.RANGES)."""
@@ -630,27 +641,29 @@ class _Checks:
 
     def date(self, name: str, required: bool = True, not_after: dt.date | None = None,
              today: dt.date | None = None) -> pd.Series:
-        s = self.col(name)
+        full, s, where = self.distinct(name)  # checked once per distinct value, spread by ``where``
         empty = s == ""
         if required:
-            self.fail(empty, name, f"{name} is required (YYYY-MM-DD)")
+            self.fail(empty.to_numpy()[where], name, f"{name} is required (YYYY-MM-DD)")
         shape = s.str.fullmatch(r"\d{4}-\d{2}-\d{2}")
         # The year first: pandas cannot hold year 0001 or 9999, and such a date is a slip.
         year = pd.to_numeric(s.str[:4].where(shape, None), errors="coerce")
         early = shape & (year < EARLIEST_DATE.year)
-        self.fail(early, name, f"{name} lies before {EARLIEST_DATE.isoformat()}; check the year")
+        self.fail(early.to_numpy(dtype=bool)[where], name,
+                  f"{name} lies before {EARLIEST_DATE.isoformat()}; check the year")
         latest = latest_date(today or dt.date.today())
         far = shape & (year > latest.year)
         parsed = pd.to_datetime(s.where(shape & ~empty & ~early & ~far, None), format="%Y-%m-%d",
                                 errors="coerce")
-        self.fail(~empty & ~early & ~far & parsed.isna(), name, f"{name} must be a date written YYYY-MM-DD")
+        self.fail((~empty & ~early & ~far & parsed.isna()).to_numpy(dtype=bool)[where], name,
+                  f"{name} must be a date written YYYY-MM-DD")
         if not_after is not None:
             # Compare as timestamps: an all-NaT column's .dt.date is not comparable to a date.
-            self.fail(~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(not_after)))), name,
-                      f"{name} lies in the future (after {not_after.isoformat()})")
-        self.fail(~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(latest)))), name,
-                  f"{name} lies more than a year ahead (after {latest.isoformat()}); check the year")
-        return s.where(~empty, "")
+            self.fail((~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(not_after))))).to_numpy(
+                dtype=bool)[where], name, f"{name} lies in the future (after {not_after.isoformat()})")
+        self.fail((~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(latest))))).to_numpy(dtype=bool)[where],
+                  name, f"{name} lies more than a year ahead (after {latest.isoformat()}); check the year")
+        return full.where(~empty.to_numpy()[where], "")
 
 
 # Characters that print as nothing or reorder the text around them (Unicode category Cf:

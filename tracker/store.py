@@ -521,10 +521,9 @@ class Store:
         # write() commits (or at once, for an insert outside write()).
         self._touched: dict[str, str] = {}
         self._records_above: int | None = None
-        # The records written since (their row tuples, batch by batch), and whether every
-        # one is a plain new record (none corrects or voids another): then the totals
-        # only grow by what they add (see _add_records_to_totals).
-        self._new_records: list[list[tuple]] = []
+        # Whether every record written since is a plain new record (none corrects or
+        # voids another): then the totals only grow by what they add
+        # (see _add_records_to_totals).
         self._records_plain = True
         self._writing = 0
         try:
@@ -775,7 +774,6 @@ class Store:
             if self._records_above is None:
                 self._records_above = self.conn.execute(
                     "SELECT COALESCE(MAX(id), 0) FROM inspections").fetchone()[0]
-            self._new_records.append(rows)
             sup, void = _RECORD["supersedes"], _RECORD["void"]
             self._records_plain = self._records_plain and all(r[sup] is None and not r[void] for r in rows)
         # PostgreSQL: the COPY goes on in a thread while the caller validates its next rows.
@@ -800,7 +798,6 @@ class Store:
     def _forget_touched(self) -> None:
         self._touched = {}
         self._records_above = None
-        self._new_records = []
         self._records_plain = True
 
     def _bring_totals_up_to_date(self) -> None:
@@ -829,75 +826,65 @@ class Store:
 
     def _add_records_to_totals(self) -> bool:
         """Bring ``day_totals`` up to date after a write of new records only (no lot,
-        no correction or void): each pattern's rows from the earliest pour day of the
-        records' lots on grow by what the records add before and on their day (a lot
-        becomes inspected with its first current record; rejects add their
-        quantities), which is what recomputing them gives. ``zone_totals`` is
-        recomputed from those days (it holds shrinkage rejects only, a far smaller
-        read). Returns False, having written nothing, when a record's lot or pour
-        day has no row (then the caller recomputes instead)."""
-        lot_c, qty_c, res_c, def_c, zone_c = (_RECORD[c] for c in ("lot", "quantity", "result", "defect",
-                                                                     "zone"))
-        per_lot: dict[str, list[int]] = {}  # lot -> [rejected, shrinkage, zoned shrinkage]
-        for batch in self._new_records:
-            for r in batch:
-                sums = per_lot.get(r[lot_c])
-                if sums is None:
-                    sums = per_lot[r[lot_c]] = [0, 0, 0]
-                if r[res_c] == "reject":
-                    sums[0] += r[qty_c]
-                    if r[def_c] == "shrinkage":
-                        sums[1] += r[qty_c]
-                        if r[zone_c] is not None:
-                            sums[2] += r[qty_c]
-        lots = list(per_lot)
-        info = self.lots_info(lots)
-        if len(info) < len(lots):
-            return False
-        inspected = set() if self._records_above == 0 else self._lots_inspected_up_to(lots, self._records_above)
-        # per (pattern, pour day): inspected castings, rejected, shrinkage, zoned shrinkage
-        add: dict[tuple[str, str], list[int]] = {}
-        for lot, (rejected, shrinkage, zoned) in per_lot.items():
-            i = info[lot]
-            d = add.setdefault((i["pattern"], i["poured_on"]), [0, 0, 0, 0])
-            d[0] += 0 if lot in inspected else i["castings"]
-            d[1] += rejected
-            d[2] += shrinkage
-            d[3] += zoned
-        first: dict[str, str] = {}
-        for pattern, day in add:
-            if day < first.get(pattern, "9999-12-31"):
-                first[pattern] = day
-        changes, running, seen = [], {}, 0
-        for where, params in self.dialect.in_list("pattern", sorted(first)):
-            q = (f"SELECT pattern, poured_on FROM day_totals WHERE {where} AND poured_on >= ? "
-                 "ORDER BY pattern, poured_on")
-            for pattern, day in self.conn.execute(q, params + [min(first.values())]).fetchall():
-                if day < first[pattern]:
-                    continue
-                total = running.setdefault(pattern, [0, 0, 0, 0])
-                d = add.get((pattern, day))
-                if d is not None:
-                    seen += 1
-                    for k in range(4):
-                        total[k] += d[k]
-                changes.append((pattern, day, *total))
-        if seen < len(add):
-            return False
-        self.dialect.add_to_rows("day_totals", ["pattern", "poured_on"],
-                                 ["inspected_castings", "rejected", "shrinkage", "zoned_shrinkage"], changes)
+        no correction or void), on the server: each pattern's rows from the earliest
+        pour day of the records' lots on grow by what the records add on and before
+        their day (a lot becomes inspected with its first current record; rejects add
+        their quantities), which is what recomputing them from every lot gives.
+        ``zone_totals`` is recomputed from those days (it holds shrinkage rejects only,
+        a far smaller read). Returns False, having changed nothing, when a record's
+        pour day has no row yet (the caller then recomputes)."""
+        above = self._records_above
+        execute = self.conn.execute
         for sql in self.dialect.totals_settings:
-            self.conn.execute(sql)
-        _refresh_totals(self.conn.execute, first, tables=("zone_totals",))
+            execute(sql)
+        # An older current record of the lot: none when the log held no record before.
+        older = ("" if not above else
+                 "AND NOT EXISTS (SELECT 1 FROM inspections i WHERE i.lot = r.lot AND i.id <= ? "
+                 f"AND {_CURRENT}) ")
+        execute("DROP TABLE IF EXISTS temp.pourback_day_adds" if self.backend == "sqlite"
+                else "DROP TABLE IF EXISTS pg_temp.pourback_day_adds")
+        execute(f"""
+            CREATE TEMP TABLE pourback_day_adds AS
+            SELECT l.pattern, l.poured_on,
+                CAST(SUM(CASE WHEN r.lot IS NOT NULL {older}THEN l.molds ELSE 0 END) AS INTEGER)
+                    AS inspected_molds,
+                CAST(SUM(r.rejected) AS INTEGER) AS rejected, CAST(SUM(r.shrinkage) AS INTEGER) AS shrinkage,
+                CAST(SUM(r.zoned_shrinkage) AS INTEGER) AS zoned_shrinkage
+            FROM (SELECT i.lot, SUM(CASE WHEN i.result = 'reject' THEN i.quantity ELSE 0 END) AS rejected,
+                      SUM(CASE WHEN i.result = 'reject' AND i.defect = 'shrinkage' THEN i.quantity ELSE 0 END)
+                          AS shrinkage,
+                      SUM(CASE WHEN i.result = 'reject' AND i.defect = 'shrinkage' AND i.zone IS NOT NULL
+                          THEN i.quantity ELSE 0 END) AS zoned_shrinkage
+                  FROM inspections i WHERE i.id > ? GROUP BY i.lot) r
+            JOIN lots l ON l.lot = r.lot GROUP BY l.pattern, l.poured_on""",
+                (above, above) if above else (above,))
+        try:
+            missing = execute("SELECT COUNT(*) FROM pourback_day_adds a WHERE NOT EXISTS (SELECT 1 FROM day_totals t "
+                              "WHERE t.pattern = a.pattern AND t.poured_on = a.poured_on)").fetchone()[0]
+            if missing:
+                return False
+            first = dict(execute("SELECT pattern, MIN(poured_on) FROM pourback_day_adds GROUP BY pattern").fetchall())
+            execute("""
+                UPDATE day_totals SET inspected_castings = day_totals.inspected_castings + c.inspected_castings,
+                    rejected = day_totals.rejected + c.rejected, shrinkage = day_totals.shrinkage + c.shrinkage,
+                    zoned_shrinkage = day_totals.zoned_shrinkage + c.zoned_shrinkage
+                FROM (
+                    SELECT t.pattern, t.poured_on,
+                        p.castings_per_mold * SUM(COALESCE(a.inspected_molds, 0)) OVER w AS inspected_castings,
+                        SUM(COALESCE(a.rejected, 0)) OVER w AS rejected,
+                        SUM(COALESCE(a.shrinkage, 0)) OVER w AS shrinkage,
+                        SUM(COALESCE(a.zoned_shrinkage, 0)) OVER w AS zoned_shrinkage
+                    FROM (SELECT pattern, MIN(poured_on) AS poured_on FROM pourback_day_adds GROUP BY pattern) f
+                    JOIN day_totals t ON t.pattern = f.pattern AND t.poured_on >= f.poured_on
+                    JOIN patterns p ON p.pattern = t.pattern
+                    LEFT JOIN pourback_day_adds a ON a.pattern = t.pattern AND a.poured_on = t.poured_on
+                    WINDOW w AS (PARTITION BY t.pattern ORDER BY t.poured_on)
+                ) c
+                WHERE day_totals.pattern = c.pattern AND day_totals.poured_on = c.poured_on""")
+        finally:
+            execute("DROP TABLE pourback_day_adds")
+        _refresh_totals(execute, first, tables=("zone_totals",))
         return True
-
-    def _lots_inspected_up_to(self, lots: list[str], last_id: int) -> set[str]:
-        """The lots of ``lots`` holding a current record with an id up to ``last_id``."""
-        out: set[str] = set()
-        for where, params in self.dialect.in_list("i.lot", lots):
-            q = f"SELECT DISTINCT i.lot FROM inspections i WHERE {where} AND i.id <= ? AND {_CURRENT}"
-            out.update(r[0] for r in self.conn.execute(q, params + [last_id]).fetchall())
-        return out
 
     # --- lookups used by validation ---------------------------------------------
     def patterns_info(self, codes: Iterable[str] | None = None) -> dict[str, dict]:
