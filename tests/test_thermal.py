@@ -297,6 +297,13 @@ def test_cli_from_the_log(runner, demo_db):
     assert data["model"] == "planar" and set(data) == set(JSON_KEYS)
     result = runner.invoke(main, ["thermal", "--db", str(demo_db), "--pattern", "P-1004", "--zone", "nope"])
     assert result.exit_code != 0 and "unknown zone 'nope'" in result.output
+    # geometry typed beside --pattern/--zone is refused naming the option and the value typed
+    for extra, named in ((["--diameter-mm", "1e9"], "--diameter-mm: got 1000000000.0"),
+                         (["--sleeve", "IS-60"], "--sleeve: got 'IS-60'")):
+        result = runner.invoke(main, ["thermal", "--db", str(demo_db), "--pattern", "P-1004", "--zone", "end-A",
+                                      *extra])
+        assert result.exit_code != 0 and named in result.output and "leave the geometry options out" in \
+            result.output, result.output
 
 
 def test_case_validation_names_the_field(runner):

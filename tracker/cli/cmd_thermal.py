@@ -79,9 +79,11 @@ def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould
         if pattern is None or zone is None:
             raise BadInput("pattern" if pattern is None else "zone", None,
                            "--pattern and --zone go together; give both")
-        if given or neck_diameter_mm is not None or sleeve or sleeve_factor is not None:
-            raise BadInput(opt[given[0]] if given and given[0] in opt else "--" + (given[0] if given else "sleeve"),
-                           None,
+        extra = [(k, v) for k, v in (*explicit.items(), ("neck_diameter_mm", neck_diameter_mm),
+                                     ("sleeve", sleeve or None), ("sleeve-factor", sleeve_factor)) if v is not None]
+        if extra:
+            k, v = extra[0]
+            raise BadInput(opt[k] if k in opt else "--" + k, units.value_in(k, v, system) if k in opt else v,
                            "the geometry comes from the log with --pattern/--zone; leave the geometry options out")
         with open_store(db_path) as store:
             case = case_from_log(store, pattern, zone, riser, mould)
