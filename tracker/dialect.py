@@ -257,14 +257,6 @@ class SQLite:
                f"VALUES ({', '.join('?' * len(cols))})")
         self.conn.executemany(sql, rows)
 
-    def add_to_rows(self, table: str, keys: list[str], columns: list[str], rows: list[tuple]) -> None:
-        """Add to ``columns`` of the rows of ``table`` found by ``keys``: each of ``rows``
-        holds the key values, then the amounts in ``columns`` order."""
-        sets = ", ".join(f'"{c}" = "{c}" + ?' for c in columns)
-        where = " AND ".join(f'"{k}" = ?' for k in keys)
-        n = len(keys)
-        self.conn.executemany(f'UPDATE "{table}" SET {sets} WHERE {where}', (r[n:] + r[:n] for r in rows))
-
     def in_list(self, expr: str, values: list) -> Iterator[tuple[str, list]]:
         """``(condition, parameters)`` pairs that together select the rows whose
         ``expr`` is one of ``values``: here ``expr IN (?, ...)`` in chunks of
@@ -626,20 +618,6 @@ class PostgreSQL:
         thread = threading.Thread(target=run, name="pourback-copy", daemon=True)
         self._copying = (thread, failed)
         thread.start()
-
-    def add_to_rows(self, table: str, keys: list[str], columns: list[str], rows: list[tuple]) -> None:
-        """As :meth:`SQLite.add_to_rows`, in one statement: the rows go as one array
-        per column (keys as text, amounts as BIGINT)."""
-        if not rows:
-            return
-        n = len(keys)
-        names = keys + [f"add_{c}" for c in columns]
-        arrays = ", ".join(f"%s::{'text' if i < n else 'bigint'}[]" for i in range(len(names)))
-        sets = ", ".join(f'"{c}" = t."{c}" + d.add_{c}' for c in columns)
-        where = " AND ".join(f't."{k}" = d."{k}"' for k in keys)
-        sql = (f'UPDATE "{table}" AS t SET {sets} FROM unnest({arrays}) '
-               f'AS d({", ".join(chr(34) + x + chr(34) for x in names)}) WHERE {where}')
-        self.conn.execute(sql, [_Values(col) for col in zip(*rows)])
 
     def in_list(self, expr: str, values: list) -> Iterator[tuple[str, list]]:
         """As :meth:`SQLite.in_list`, in one statement: ``expr = ANY(?)`` with the
