@@ -10,6 +10,18 @@ from __future__ import annotations
 class PourbackError(Exception):
     """Base class of every error meant for a user."""
 
+    def __reduce__(self):
+        # Pickled as its message and fields, not through __init__ (whose arguments differ
+        # from class to class): an error raised in a child process reaches the parent whole.
+        return _rebuild, (type(self), self.args, self.__dict__)
+
+
+def _rebuild(cls, args: tuple, state: dict) -> PourbackError:
+    error = cls.__new__(cls)
+    Exception.__init__(error, *args)
+    error.__dict__.update(state)
+    return error
+
 
 class BadInput(PourbackError, ValueError):
     """A single value (an option, a form field) broke a rule."""
