@@ -348,3 +348,36 @@ def test_a_forked_child_opens_its_own_connection_and_leaves_the_parents_alone(pg
 def _child_pid(target: str) -> int:
     with Store(target, create=False) as s:
         return _backend_pid(s)
+
+
+def test_logs_in_two_schemas_of_one_database_never_wait_for_each_other(pg_logs):
+    """The writers' lock is per log: a write to one schema's log goes through while a
+    writer holds another schema's log in the same database; a second writer to the
+    same log still waits for it, and says so."""
+    import threading
+    import time
+
+    a, b = pg_logs.new("lock_a"), pg_logs.new("lock_b")
+    for target in (a, b):
+        Store(target).close()
+    said = []
+
+    def write(target, key):
+        with Store(target, create=False, on_wait=said.append) as s:
+            s.set_meta(key, "1")
+
+    with Store(a, create=False) as holder, holder.write():
+        holder.conn.execute("INSERT INTO meta (key, value) VALUES ('held', '1')")
+        other = threading.Thread(target=write, args=(b, "other"))
+        other.start()
+        other.join(timeout=5)
+        assert not other.is_alive() and said == []
+        same = threading.Thread(target=write, args=(a, "same"))
+        start = time.monotonic()
+        same.start()
+        time.sleep(1.5)
+        assert same.is_alive() and len(said) == 1 and "locked by another writer" in said[0]
+    same.join(timeout=10)
+    assert not same.is_alive() and time.monotonic() - start >= 1.5
+    with Store(a, create=False) as s, Store(b, create=False) as t:
+        assert (s.get_meta("held"), s.get_meta("same"), t.get_meta("other")) == ("1", "1", "1")

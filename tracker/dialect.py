@@ -39,8 +39,11 @@ NOTICE_AFTER_MS = 1_000  # say that a write waits for another writer after this 
 IN_LIST_MAX = 900
 # How long a PostgreSQL writer waits for the writers' lock before giving up (ms).
 PG_LOCK_TIMEOUT_MS = 600_000
-# pg_advisory_xact_lock key of the writers' lock ("pourback" in ASCII, folded to 63 bits).
+# Seed of the pg_advisory_xact_lock key of a log's writers' lock ("pourback" in ASCII, folded
+# to 63 bits): the key is this seed hashed with the log's schema, so that logs in other
+# schemas of the same database never wait for each other.
 PG_WRITE_LOCK = 0x706F75726261636B
+PG_WRITE_LOCK_KEY = "hashtextextended(current_schema(), %s)"
 
 
 def is_url(target) -> bool:
@@ -492,7 +495,8 @@ class PostgreSQL:
         """The writers' lock: polled for a second, then (saying so) waited for."""
         deadline = time.monotonic() + NOTICE_AFTER_MS / 1000
         while True:
-            if self.conn.execute("SELECT pg_try_advisory_xact_lock(%s)", (PG_WRITE_LOCK,)).fetchone()[0]:
+            lock = f"SELECT pg_try_advisory_xact_lock({PG_WRITE_LOCK_KEY})"
+            if self.conn.execute(lock, (PG_WRITE_LOCK,)).fetchone()[0]:
                 return
             if time.monotonic() >= deadline:
                 break
@@ -503,7 +507,7 @@ class PostgreSQL:
                          f"{rest / 1000:g} s more ...")
         self.conn.execute(f"SET LOCAL lock_timeout = {rest}")
         try:
-            self.conn.execute("SELECT pg_advisory_xact_lock(%s)", (PG_WRITE_LOCK,))
+            self.conn.execute(f"SELECT pg_advisory_xact_lock({PG_WRITE_LOCK_KEY})", (PG_WRITE_LOCK,))
         except _psycopg().errors.LockNotAvailable:
             raise LogLocked(display_name(self.target), PG_LOCK_TIMEOUT_MS / 1000) from None
 
