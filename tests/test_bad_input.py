@@ -30,6 +30,8 @@ from tracker.errors import BadFile
 from tracker.ingest import import_dir, import_file
 from tracker.store import Store
 
+from conftest import BACKENDS, LogFactory
+
 GOOD = pathlib.Path(__file__).parent / "data" / "good"
 TODAY = dt.date(2026, 6, 1)
 
@@ -77,6 +79,27 @@ def store(logs):
     with Store(logs.new()) as s:
         import_dir(s, GOOD, today=TODAY)
         yield s
+
+
+@pytest.fixture(scope="module", params=BACKENDS)
+def good_log(request, tmp_path_factory):
+    """The good data set imported once per backend for this module, and its rows."""
+    factory = LogFactory(request.param, tmp_path_factory.mktemp(f"good-{request.param}"))
+    try:
+        with Store(factory.new("good")) as s:
+            import_dir(s, GOOD, today=TODAY)
+            yield s, s.snapshot()
+    finally:
+        factory.close()
+
+
+@pytest.fixture
+def refusing_store(good_log):
+    """The module's shared good log, for a test that only sees imports refused (each
+    refusal checks that every table is unchanged, so the log stays as imported)."""
+    s, rows = good_log
+    assert s.snapshot() == rows, "an earlier test changed the shared good log"
+    return s
 
 
 def refuse(store, tmp_path, kind, content, name=None, skip_bad=False):
@@ -292,25 +315,25 @@ ROW_CASES = [
 
 
 @pytest.mark.parametrize("case", ROW_CASES, ids=[c[0] for c in ROW_CASES])
-def test_bad_row_is_refused_with_row_column_reason(store, tmp_path, case):
+def test_bad_row_is_refused_with_row_column_reason(refusing_store, tmp_path, case):
     _, kind, edit, column, reason = case
-    msg = refuse(store, tmp_path, kind, new_file(kind, edit))
+    msg = refuse(refusing_store, tmp_path, kind, new_file(kind, edit))
     assert f"{kind}.csv: refused, nothing written (1 bad row(s)):" in msg
     assert f"{kind}.csv, row 2, column {column}: {reason}" in msg.splitlines()
 
 
-def test_severity_above_zone_level_cannot_be_accepted(store, tmp_path):
+def test_severity_above_zone_level_cannot_be_accepted(refusing_store, tmp_path):
     # L1 is T-100; zone flange requires level 2, severity 4 is worse.
     edit = {"lot": "L1", "zone": "flange", "severity": "4", "xray_category": "CB",
             "result": "accept", "defect": "", "quantity": "1", "inspected_on": "2026-03-06"}
-    msg = refuse(store, tmp_path, "inspections", new_file("inspections", edit))
+    msg = refuse(refusing_store, tmp_path, "inspections", new_file("inspections", edit))
     assert ("inspections.csv, row 2, column result: got 'accept'; severity 4 is above zone flange's "
             "required level 2: write reject or rework") in msg
 
 
-def test_every_bad_row_is_listed_in_one_message(store, tmp_path):
+def test_every_bad_row_is_listed_in_one_message(refusing_store, tmp_path):
     content = new_file("lots", {"lot": "L5", "molds": "0"}, {"lot": "L6"}, {"lot": "L7", "heat": ""})
-    msg = refuse(store, tmp_path, "lots", content)
+    msg = refuse(refusing_store, tmp_path, "lots", content)
     assert "(2 bad row(s))" in msg
     assert "lots.csv, row 2, column molds: got '0';" in msg
     assert "lots.csv, row 4, column heat: got ''; heat is required" in msg
@@ -392,15 +415,15 @@ _NAMES = {"unknown-suffix": "patterns.json", "xlsx-not-a-workbook": "patterns.xl
 
 
 @pytest.mark.parametrize("case", FILE_CASES, ids=[c[0] for c in FILE_CASES])
-def test_bad_file_is_refused(store, tmp_path, case):
+def test_bad_file_is_refused(refusing_store, tmp_path, case):
     cid, kind, content, expected = case
-    msg = refuse(store, tmp_path, kind, content, name=_NAMES.get(cid))
+    msg = refuse(refusing_store, tmp_path, kind, content, name=_NAMES.get(cid))
     assert expected in msg
 
 
-def test_extra_filled_cells_refuse_the_file_even_with_skip_bad(store, tmp_path):
+def test_extra_filled_cells_refuse_the_file_even_with_skip_bad(refusing_store, tmp_path):
     # Its values may sit in the wrong columns: no row of such a file is trusted.
-    msg = refuse(store, tmp_path, "lots",
+    msg = refuse(refusing_store, tmp_path, "lots",
                  "lot,pattern,poured_on,heat,molds\nL4,T-100,2026-04-01,H4,5\nL5,T-100,2026-04-01,H5,5,9\n",
                  skip_bad=True)
     assert "lots.csv, row 3, column 6 (no header): got '9';" in msg
@@ -442,9 +465,9 @@ DUPLICATE_CASES = [
 
 
 @pytest.mark.parametrize("case", DUPLICATE_CASES, ids=[c[0] for c in DUPLICATE_CASES])
-def test_duplicate_key_with_other_content_is_refused(store, tmp_path, case):
+def test_duplicate_key_with_other_content_is_refused(refusing_store, tmp_path, case):
     _, kind, content, expected = case
-    assert expected in refuse(store, tmp_path, kind, content)
+    assert expected in refuse(refusing_store, tmp_path, kind, content)
 
 
 def test_reimport_of_stored_files_adds_nothing(store):

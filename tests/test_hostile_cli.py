@@ -185,12 +185,14 @@ def test_a_locked_log_is_announced_on_stderr(db, tmp_path):
     env = {**os.environ, "PYTHONPATH": str(pathlib.Path(__file__).resolve().parent.parent)}
     proc = subprocess.Popen([sys.executable, "-m", "tracker", "log", *LOG_ARGS, "--db", str(db)],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
-    time.sleep(6)  # the interpreter starts, then waits a second for the lock
+    # the interpreter starts and waits a second for the lock, then says so: its first
+    # line on stderr comes while the lock is still held (stderr is line-buffered)
+    said = proc.stderr.readline()
     holder.rollback()
     holder.close()
     out, err = proc.communicate(timeout=60)
-    assert proc.returncode == 0, err
-    assert err == f"The log {db} is locked by another writer; waiting up to 29 s more ...\n"
+    assert proc.returncode == 0, said + err
+    assert said + err == f"The log {db} is locked by another writer; waiting up to 29 s more ...\n"
     assert out.startswith("Logged record ")
 
 

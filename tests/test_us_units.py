@@ -9,6 +9,7 @@ import shutil
 import pandas as pd
 import pint
 import pytest
+from click.testing import CliRunner
 
 from tests.conftest import GOOD, SAMPLE
 from tracker import geometry, units
@@ -298,17 +299,49 @@ def _visible(text: str) -> str:
     return re.sub(r"<[^>]+>", " ", text)
 
 
-@pytest.fixture
-def us_log(demo_db, session_logs, tmp_path, runner):
-    """A private copy of the demo log (on the backend under test) set to US units."""
+def _us_copy(demo_db, session_logs, folder):
+    """A copy of the demo log (on the backend under test) set to US units."""
     if session_logs.backend == "sqlite":
-        db = tmp_path / "us.db"
+        db = folder / "us.db"
         shutil.copyfile(demo_db, db)
     else:
         db = session_logs.copy(demo_db, "us")
-    res = runner.invoke(main, ["settings", "--db", str(db), "--units", "us"])
+    res = CliRunner().invoke(main, ["settings", "--db", str(db), "--units", "us"])
     assert res.exit_code == 0, res.output
     return db
+
+
+@pytest.fixture
+def us_log(demo_db, session_logs, tmp_path):
+    """A private copy of the demo log set to US units (suggest and what-if store the
+    model they fit: a test running them gets a log of its own)."""
+    return _us_copy(demo_db, session_logs, tmp_path)
+
+
+def _rows(store):
+    return {t: store.count(t) for t in store.log_tables()}
+
+
+@pytest.fixture(scope="module")
+def us_log_shared(demo_db, session_logs, tmp_path_factory):
+    """One copy of the demo log set to US units per backend for the module, and its
+    row counts: for commands that only read it."""
+    db = _us_copy(demo_db, session_logs, tmp_path_factory.mktemp("us-shared"))
+    with Store(db) as s:
+        return db, _rows(s)
+
+
+@pytest.fixture
+def us_log_read(us_log_shared):
+    """The module's shared US log, checked to hold what it held when made."""
+    db, counts = us_log_shared
+    with Store(db) as s:
+        assert _rows(s) == counts, "an earlier test wrote to the shared US log"
+    return db
+
+
+# Commands that fit the reject model and store it in the log (a write).
+WRITES_THE_LOG = {"suggest", "what-if"}
 
 
 US_COMMANDS = [
@@ -329,9 +362,11 @@ US_COMMANDS = [
 
 @pytest.mark.parametrize("args", US_COMMANDS, ids=lambda a: " ".join(a[:3]))
 @pytest.mark.parametrize("as_json", [False, True], ids=["text", "json"])
-def test_no_metric_unit_label_in_us_output(us_log, runner, args, as_json):
+def test_no_metric_unit_label_in_us_output(request, session_logs, runner, args, as_json):
     if as_json and args[0] == "review" and len(args) > 1:
         pytest.skip("review takes --json or a --format")
+    # session_logs above: the backend, so the log fixture picked here runs on each
+    us_log = request.getfixturevalue("us_log" if args[0] in WRITES_THE_LOG else "us_log_read")
     res = runner.invoke(main, [*args, "--db", str(us_log)] + (["--json"] if as_json else []))
     assert res.exit_code == 0, res.output
     found = sorted({m.group(0) for m in METRIC_LABEL.finditer(_visible(res.output))})
@@ -341,8 +376,8 @@ def test_no_metric_unit_label_in_us_output(us_log, runner, args, as_json):
         assert re.search(r"\bin\b|_in\b|\(in\)|\blb\b|_lb\b|\(lb\)", res.output)
 
 
-def test_metric_override_on_a_us_log(us_log, runner):
-    res = runner.invoke(main, ["check", "--db", str(us_log), "--units", "metric"])
+def test_metric_override_on_a_us_log(us_log_read, runner):
+    res = runner.invoke(main, ["check", "--db", str(us_log_read), "--units", "metric"])
     assert res.exit_code == 0, res.output
     assert "D (mm)" in res.output and "D (in)" not in res.output
 

@@ -15,7 +15,31 @@ import pytest
 
 from tracker import views
 from tracker.errors import BadFile, NotFound
-from tracker.ingest import import_file, log_inspection
+from tracker.ingest import import_dir, import_file, log_inspection
+from tracker.store import Store
+
+from conftest import BACKENDS, GOOD, LogFactory
+
+
+@pytest.fixture(scope="module", params=BACKENDS)
+def good_log(request, tmp_path_factory):
+    """tests/data/good imported once per backend for this module, and its rows."""
+    factory = LogFactory(request.param, tmp_path_factory.mktemp(f"views-good-{request.param}"))
+    try:
+        with Store(factory.new("good")) as s:
+            import_dir(s, GOOD)
+            yield s, s.snapshot()
+    finally:
+        factory.close()
+
+
+@pytest.fixture
+def good_read(good_log):
+    """The module's shared good log, for a test that only reads it (or sees an import
+    refused), checked to hold exactly what was imported."""
+    s, rows = good_log
+    assert s.snapshot() == rows, "an earlier test changed the shared good log"
+    return s
 
 
 # --- data version ---------------------------------------------------------------------
@@ -44,16 +68,16 @@ def test_start_state_empty(mem_store):
     assert set(s["counts"].values()) == {0}
 
 
-def test_start_state_filled(good_store):
-    s = views.start_state(good_store)
+def test_start_state_filled(good_read):
+    s = views.start_state(good_read)
     assert s["ready"] and s["has_design"] and s["missing"] == []
     assert s["counts"]["lots"] == 3
 
 
 # --- pickers --------------------------------------------------------------------------
 
-def test_lot_options_newest_first_with_castings(good_store):
-    lots = views.lot_options(good_store)
+def test_lot_options_newest_first_with_castings(good_read):
+    lots = views.lot_options(good_read)
     assert lots["lot"].tolist() == ["L2", "L3", "L1"]  # poured 03-09, 03-03, 03-02
     assert lots.set_index("lot").loc["L1", "castings"] == 20
     assert lots.set_index("lot").loc["L1", "label"] == "L1 · T-100 · poured 2026-03-02 · 20 castings"
@@ -63,16 +87,16 @@ def test_lot_options_empty(mem_store):
     assert views.lot_options(mem_store).empty
 
 
-def test_zone_options(good_store):
-    assert views.zone_options(good_store, "T-100") == ["body", "flange"]
-    assert views.zone_options(good_store, None) == []
-    assert views.zone_options(good_store, "NOPE") == []
+def test_zone_options(good_read):
+    assert views.zone_options(good_read, "T-100") == ["body", "flange"]
+    assert views.zone_options(good_read, None) == []
+    assert views.zone_options(good_read, "NOPE") == []
 
 
-def test_pattern_and_alloy_options(good_store):
-    p = views.pattern_options(good_store)
+def test_pattern_and_alloy_options(good_read):
+    p = views.pattern_options(good_read)
     assert p["label"].tolist() == ["T-100 · test valve body (steel)", "T-200 · test bracket (aluminum)"]
-    assert views.alloy_options(good_store) == ["aluminum", "steel"]
+    assert views.alloy_options(good_read) == ["aluminum", "steel"]
 
 
 def test_sleeve_options_label(demo_store):
@@ -138,14 +162,14 @@ def test_latest_records_empty(mem_store):
     assert t.empty and "status" in t.columns
 
 
-def test_problems_frame_lists_every_refused_row(good_store, tmp_path):
+def test_problems_frame_lists_every_refused_row(good_read, tmp_path):
     bad = tmp_path / "inspections.csv"
     bad.write_text("lot,inspected_on,method,quantity,result\n"
                    "L3,2026-03-05,dimensional,1,accept\n"
                    "NOPE,2026-03-05,visual,1,accept\n"
                    "L1,2026-03-05,visual,-3,accept\n", encoding="utf-8")
     with pytest.raises(BadFile) as err:
-        import_file(good_store, "inspections", bad, today=dt.date(2026, 3, 10))
+        import_file(good_read, "inspections", bad, today=dt.date(2026, 3, 10))
     table = views.problems_frame(err.value.problems)
     assert table.columns.tolist() == ["row", "column", "reason"]
     assert table["row"].tolist() == [3, 4]
@@ -159,8 +183,8 @@ def test_week_options(good_store, file_store):
     assert views.week_options(file_store) == []
 
 
-def test_pattern_weekly_hand_counted(good_store):
-    w = views.pattern_weekly(good_store, "T-100").set_index("week")
+def test_pattern_weekly_hand_counted(good_read):
+    w = views.pattern_weekly(good_read, "T-100").set_index("week")
     assert w.index.tolist() == ["2026-W10", "2026-W11"]
     assert w.loc["2026-W10", ["poured", "inspected", "rejected", "shrinkage_rejected"]].tolist() == [20, 20, 3, 3]
     assert w.loc["2026-W11", ["poured", "inspected", "rejected", "shrinkage_rejected"]].tolist() == [16, 16, 1, 0]
@@ -182,9 +206,9 @@ def test_pattern_weekly_fills_gap_weeks(good_store, tmp_path):
     assert math.isnan(w.loc["2026-W13", "reject_rate_pct"])
 
 
-def test_pattern_weekly_unknown_pattern(good_store):
+def test_pattern_weekly_unknown_pattern(good_read):
     with pytest.raises(NotFound, match="unknown pattern 'NOPE'"):
-        views.pattern_weekly(good_store, "NOPE")
+        views.pattern_weekly(good_read, "NOPE")
 
 
 def test_pattern_weekly_matches_the_review(demo_store):
@@ -198,8 +222,8 @@ def test_pattern_weekly_matches_the_review(demo_store):
     assert int(w["shrinkage_rejected"].sum()) == row["shrinkage_rejected"]
 
 
-def test_pattern_summary(good_store):
-    s = views.pattern_summary(good_store, "T-100")
+def test_pattern_summary(good_read):
+    s = views.pattern_summary(good_read, "T-100")
     assert (s["lots"], s["poured"], s["inspected"], s["rejected"]) == (2, 36, 36, 4)
     assert s["reject_rate_pct"] == pytest.approx(400 / 36)
     assert s["first_pour"] == "2026-03-02" and s["last_pour"] == "2026-03-09"
