@@ -446,3 +446,26 @@ def test_dashboard_downloads_go_through_the_guard():
     text = csv_bytes(frame).decode("utf-8-sig")
     assert list(csv.reader(io.StringIO(text))) == [
         ["lot", "quantity", "'=col"], ["'=cmd|' /C calc'!A0", "1", "'-inf"], ["L1", "-2", "ok"]]
+
+
+def test_lot_totals_hold_across_many_chunks_and_lots(store, tmp_path):
+    """Rejects of one lot spread over chunks far apart, with thousands of lots between
+    (the importer's per-lot totals grow as lots come): the record that takes the lot
+    past its castings poured is refused, naming the lot; the ones before it pass."""
+    lots = "".join(f"M{i},T-100,2026-04-01,H,1\n" for i in range(3000))  # 1 mold x 2 castings each
+    import_file(store, "lots", write(tmp_path, "lots.csv", "lot,pattern,poured_on,heat,molds\n" + lots),
+                today=TODAY)
+    rows = ["M0,2026-04-02,visual,1,reject,sand,,,,,,"]
+    rows += [f"M{i},2026-04-02,visual,2,accept,,,,,,," for i in range(1, 3000)]
+    rows += ["M0,2026-04-03,visual,1,reject,sand,,,,,,", "M0,2026-04-04,visual,1,reject,sand,,,,,,"]
+    before = store.snapshot()
+    path = write(tmp_path, "insp.csv", INSP + "\n".join(rows) + "\n")
+    with pytest.raises(BadFile) as info:
+        import_file(store, "inspections", path, today=TODAY, chunk_rows=500)
+    [problem] = info.value.problems
+    assert (problem.row, problem.column) == (len(rows) + 1, "quantity")
+    assert "lot M0 would have 3 castings rejected but only 2 were poured" in str(problem)
+    assert store.snapshot() == before
+    r = import_file(store, "inspections", write(tmp_path, "ok.csv", INSP + "\n".join(rows[:-1]) + "\n"),
+                    today=TODAY, chunk_rows=500)
+    assert r.added == len(rows) - 1

@@ -720,10 +720,14 @@ def _log_spelling(values: pd.Series, patterns: list, known: dict) -> pd.Series:
     its pattern only when case is ignored ("Boss" for "boss") takes the stored
     spelling; an exact match always wins."""
     folded: dict = {}
-    for p, z in known:
-        folded.setdefault((p, fold(z)), z)
-    out = [z if not z or (p, z) in known else folded.get((p, fold(z)), z)
-           for p, z in zip(patterns, values.tolist())]
+
+    def stored(p: str, z: str) -> str:
+        if not folded:  # built only when a code is not spelled as stored (rare)
+            for q, y in known:
+                folded.setdefault((q, fold(y)), y)
+        return folded.get((p, fold(z)), z)
+
+    out = [z if not z or (p, z) in known else stored(p, z) for p, z in zip(patterns, values.tolist())]
     return pd.Series(out, index=values.index, dtype=object)
 
 
@@ -1206,8 +1210,14 @@ class _Importer:
                 add[j, 0] = t["rejected"]
                 for m, q in t["methods"].items():
                     add[j, 1 + METHODS.index(m)] = q
-            self._lot_tot = np.vstack([self._lot_tot, add])
-            self._lot_castings = np.concatenate([self._lot_castings, cast])
+            need = base + len(fresh)
+            if need > len(self._lot_castings):  # grown by doubling: a copy per chunk was quadratic
+                size = max(need, 2 * len(self._lot_castings), 1024)
+                tot, castings = np.zeros((size, 1 + len(METHODS)), dtype=np.int64), np.zeros(size, dtype=np.int64)
+                tot[:base], castings[:base] = self._lot_tot[:base], self._lot_castings[:base]
+                self._lot_tot, self._lot_castings = tot, castings
+            self._lot_tot[base:need] = add
+            self._lot_castings[base:need] = cast
         q = qty.fillna(0).to_numpy(dtype=np.int64)
         res = result.to_numpy()
         meth = method.to_numpy()
