@@ -343,3 +343,18 @@ def test_new_records_alone_are_added_to_the_totals_as_a_recompute_gives_them(tmp
         correct_inspection(s, int(rec["id"]), {"void": True}, by="QE-B", reason="recount", today=TODAY)
         assert taken == [True] * 4
         _check_totals(s)
+
+
+def test_without_update_from_new_records_are_recomputed_the_same(tmp_path, logs, monkeypatch):
+    """Where the database knows no UPDATE ... FROM (SQLite before 3.33), a write of new
+    records recomputes the totals instead of adding to them: the recount's figures."""
+    from tracker import dialect
+
+    for cls in (dialect.SQLite, dialect.PostgreSQL):
+        monkeypatch.setattr(cls, "update_from", False)
+    folder, late = _scenario(tmp_path / "log", 7)
+    with Store(logs.new()) as s:
+        import_dir(s, folder, today=TODAY)
+        import_file(s, "inspections", _write(tmp_path / "late.csv", late), today=TODAY)
+        assert not s._add_records_to_totals()
+        _check_totals(s)

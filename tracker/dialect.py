@@ -131,6 +131,10 @@ class SQLite:
     forced_join = "CROSS JOIN"
     # The review's pours and rejects per day: two plain aggregates (see Store.review_days).
     review_in_one_pass = False
+    # The schema a session's temporary tables live in; whether UPDATE ... FROM is known
+    # (SQLite 3.33 on; without it the running totals are recomputed instead of added to).
+    temp_schema = "temp"
+    update_from = sqlite3.sqlite_version_info >= (3, 33, 0)
     totals_settings: tuple[str, ...] = ()
 
     def __init__(self, path: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
@@ -408,6 +412,8 @@ class PostgreSQL:
     # The review's pours and rejects per day in one statement reading the window's
     # records once: each statement costs planning and a round trip (see Store.review_days).
     review_in_one_pass = True
+    temp_schema = "pg_temp"
+    update_from = True
     # Run before the running totals are recomputed, for the rest of the write transaction:
     # no JIT compilation. After a bulk load the planner has no statistics of the new rows;
     # it overestimates the recompute's cost and compiles it (about 0.1 s) for nothing.

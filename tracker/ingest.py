@@ -578,8 +578,7 @@ class _Checks:
         spaces or hyphens for underscores and the spelling variants in
         ALIASES), returned in the list's own spelling."""
         # Spelled out once per distinct value (a column holds a handful), then spread.
-        given = self.col(name)
-        where, distinct = pd.factorize(given.to_numpy(dtype=object), use_na_sentinel=False)
+        given, distinct, where = self.distinct(name)
         spelled = np.array([_code_spelling(v, lower) for v in distinct] or [""], dtype=object)
         s = pd.Series(spelled[where], index=given.index, dtype=given.dtype)
         if required:
@@ -641,29 +640,31 @@ class _Checks:
 
     def date(self, name: str, required: bool = True, not_after: dt.date | None = None,
              today: dt.date | None = None) -> pd.Series:
-        full, s, where = self.distinct(name)  # checked once per distinct value, spread by ``where``
+        full, s, where = self.distinct(name)  # checked once per distinct value
+
+        def rows(mask) -> np.ndarray:  # a verdict on the distinct values, spread to the rows
+            return np.asarray(mask, dtype=bool)[where]
+
         empty = s == ""
         if required:
-            self.fail(empty.to_numpy()[where], name, f"{name} is required (YYYY-MM-DD)")
+            self.fail(rows(empty), name, f"{name} is required (YYYY-MM-DD)")
         shape = s.str.fullmatch(r"\d{4}-\d{2}-\d{2}")
         # The year first: pandas cannot hold year 0001 or 9999, and such a date is a slip.
         year = pd.to_numeric(s.str[:4].where(shape, None), errors="coerce")
         early = shape & (year < EARLIEST_DATE.year)
-        self.fail(early.to_numpy(dtype=bool)[where], name,
-                  f"{name} lies before {EARLIEST_DATE.isoformat()}; check the year")
+        self.fail(rows(early), name, f"{name} lies before {EARLIEST_DATE.isoformat()}; check the year")
         latest = latest_date(today or dt.date.today())
         far = shape & (year > latest.year)
         parsed = pd.to_datetime(s.where(shape & ~empty & ~early & ~far, None), format="%Y-%m-%d",
                                 errors="coerce")
-        self.fail((~empty & ~early & ~far & parsed.isna()).to_numpy(dtype=bool)[where], name,
-                  f"{name} must be a date written YYYY-MM-DD")
+        self.fail(rows(~empty & ~early & ~far & parsed.isna()), name, f"{name} must be a date written YYYY-MM-DD")
         if not_after is not None:
             # Compare as timestamps: an all-NaT column's .dt.date is not comparable to a date.
-            self.fail((~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(not_after))))).to_numpy(
-                dtype=bool)[where], name, f"{name} lies in the future (after {not_after.isoformat()})")
-        self.fail((~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(latest))))).to_numpy(dtype=bool)[where],
-                  name, f"{name} lies more than a year ahead (after {latest.isoformat()}); check the year")
-        return full.where(~empty.to_numpy()[where], "")
+            self.fail(rows(~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(not_after))))), name,
+                      f"{name} lies in the future (after {not_after.isoformat()})")
+        self.fail(rows(~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(latest))))), name,
+                  f"{name} lies more than a year ahead (after {latest.isoformat()}); check the year")
+        return full.where(~rows(empty), "")
 
 
 # Characters that print as nothing or reorder the text around them (Unicode category Cf:

@@ -833,6 +833,8 @@ class Store:
         ``zone_totals`` is recomputed from those days (it holds shrinkage rejects only,
         a far smaller read). Returns False, having changed nothing, when a record's
         pour day has no row yet (the caller then recomputes)."""
+        if not self.dialect.update_from:
+            return False
         above = self._records_above
         execute = self.conn.execute
         for sql in self.dialect.totals_settings:
@@ -841,8 +843,7 @@ class Store:
         older = ("" if not above else
                  "AND NOT EXISTS (SELECT 1 FROM inspections i WHERE i.lot = r.lot AND i.id <= ? "
                  f"AND {_CURRENT}) ")
-        execute("DROP TABLE IF EXISTS temp.pourback_day_adds" if self.backend == "sqlite"
-                else "DROP TABLE IF EXISTS pg_temp.pourback_day_adds")
+        execute(f"DROP TABLE IF EXISTS {self.dialect.temp_schema}.pourback_day_adds")
         execute(f"""
             CREATE TEMP TABLE pourback_day_adds AS
             SELECT l.pattern, l.poured_on,
