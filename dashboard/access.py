@@ -2,7 +2,7 @@
 
 ``pourback dashboard`` says by $POURBACK_SIGN_IN whether visitors must sign in
 (always beyond loopback, or with --require-login). Signed in, the session is a
-``tracker.auth.Session`` kept in this browser tab's state; pages ask
+``tracker.log.accounts.Session`` kept in this browser tab's state; pages ask
 :func:`can` before offering a button, and write through :func:`open_store`,
 whose every write the library checks against the user's role again.
 
@@ -16,9 +16,9 @@ import os
 
 import streamlit as st
 
-from tracker import auth
+from tracker.log import accounts as auth
 from tracker.errors import SessionExpired, SignInRefused
-from tracker.store import Store
+from tracker.log.store import Store
 
 _KEY = "pourback_session"
 _NOTE = "pourback_sign_in_note"

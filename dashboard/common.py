@@ -17,13 +17,15 @@ import streamlit as st
 from tracker import limits, units, views
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadFile, PourbackError
-from tracker.store import DATABASE_ERRORS, Store, absolute_target, display_name, log_error
+from tracker.log.store import DATABASE_ERRORS, Store, absolute_target, display_name, log_error
 
 START_COMMANDS = "pourback demo"
 
 # The library calls a page may load (cached). Each takes an open Store first.
 def _registry() -> dict:
-    from tracker import advise, features, review, settings
+    from tracker.advice import suggest as advise, features
+    from tracker.review import weekly as review
+    from tracker.log import settings
 
     return {
         "start_state": views.start_state,
@@ -61,7 +63,7 @@ def _registry() -> dict:
 
 
 def _thermal_registry() -> dict:
-    from tracker.thermal import views as thermal_views
+    from tracker.views import thermal as thermal_views
 
     return {"pattern_thermal": thermal_views.pattern_thermal,
             "what_if_thermal": thermal_views.what_if_view}
@@ -208,7 +210,7 @@ def guard():
 def download_csv(frame, label: str, file_name: str, key: str) -> None:
     """A download of ``frame`` as CSV, every cell through the project's formula
     guard (the tables' built-in download is off: ``client.disableDataExport``)."""
-    from tracker.report import csv_bytes
+    from tracker.csvsafe import csv_bytes
 
     st.download_button(label, data=csv_bytes(frame), file_name=file_name, mime="text/csv", key=key,
                        icon=":material/download:", disabled=frame is None or len(frame) == 0)
@@ -250,7 +252,7 @@ def unit_switch() -> None:
 
 
 def _make_default(system: str) -> None:
-    from tracker import settings
+    from tracker.log import settings
 
     with guard(), open_store() as store:
         settings.set_units(store, system)

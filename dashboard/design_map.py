@@ -8,7 +8,7 @@ import streamlit as st
 
 from dashboard import charts, common
 from tracker import views
-from tracker.alloys import ALLOYS
+from tracker.design.alloys import ALLOYS
 
 
 def alloy_name(key: str) -> str:

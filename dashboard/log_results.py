@@ -17,8 +17,8 @@ import streamlit as st
 
 from dashboard import access, common
 from tracker import units, views
-from tracker.auth import MAX_UPLOAD_MB, TABLE_ACTION
-from tracker.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES, import_file, log_inspection
+from tracker.log.accounts import MAX_UPLOAD_MB, TABLE_ACTION
+from tracker.log.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES, import_file, log_inspection
 
 NONE = views.NONE
 XRAY = "xray"

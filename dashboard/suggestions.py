@@ -5,8 +5,9 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboard import access, charts, common, thermal_view
-from tracker import advise, units, views
-from tracker.assess import rule_words
+from tracker.advice import suggest as advise
+from tracker import units, views
+from tracker.design.assess import rule_words
 
 NUMBER = st.column_config.NumberColumn
 KEEP, BARE = "keep", "none"

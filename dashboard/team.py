@@ -5,7 +5,7 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboard import access, common
-from tracker import auth
+from tracker.log import accounts as auth
 
 
 def main() -> None:

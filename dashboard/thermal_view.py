@@ -12,7 +12,7 @@ from dashboard import charts, common
 
 
 def show(view: dict, key: str) -> None:
-    """Draw one thermal result (``tracker.thermal.views.view``)."""
+    """Draw one thermal result (``tracker.views.thermal.view``)."""
     s = view["summary"]
     c = st.columns(3)
     c[0].metric("Thermal check", "pass" if s["thermal_ok"] else "fail")

@@ -140,7 +140,7 @@ def patterns(review: dict) -> None:
 
 
 def download(review: dict) -> None:
-    from tracker import report
+    from tracker.review import report
 
     html = report.render(review, "html")
     st.download_button("Download this review as HTML", data=html.encode("utf-8"),

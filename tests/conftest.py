@@ -65,7 +65,7 @@ class LogFactory:
 
     def copy(self, source: str, name: str = "copy") -> str:
         """A private copy of the log at ``source`` (for a test that writes)."""
-        from tracker.copylog import copy_log
+        from tracker.review.copycheck import copy_log
 
         dest = self.new(name)
         copy_log(source, dest)
@@ -106,7 +106,7 @@ def session_logs(request, tmp_path_factory):
 @pytest.fixture
 def mem_store(logs):
     """An empty log on the backend under test, closed after the test."""
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     s = Store(logs.new())
     yield s
@@ -116,7 +116,7 @@ def mem_store(logs):
 @pytest.fixture
 def file_store(logs):
     """An empty log (a file, or a schema on the server) on the backend under test."""
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     s = Store(logs.new())
     yield s
@@ -125,7 +125,7 @@ def file_store(logs):
 
 @pytest.fixture
 def good_store(mem_store):
-    from tracker.ingest import import_dir
+    from tracker.log.ingest import import_dir
 
     import_dir(mem_store, GOOD)
     return mem_store
@@ -135,8 +135,8 @@ def good_store(mem_store):
 def demo_db(session_logs):
     """The demo log built once per session and backend (copy it before writing:
     ``session_logs.copy(demo_db)``)."""
-    from tracker.ingest import import_dir
-    from tracker.store import Store
+    from tracker.log.ingest import import_dir
+    from tracker.log.store import Store
 
     path = session_logs.new("demo")
     with Store(path) as s:
@@ -147,7 +147,7 @@ def demo_db(session_logs):
 @pytest.fixture
 def demo_store(demo_db):
     """The demo log opened read-mostly (tests must not write to it)."""
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     s = Store(demo_db)
     yield s
@@ -186,7 +186,7 @@ def app_db(app_demo_db, session_logs):
 @pytest.fixture
 def empty_db(logs):
     """A fresh, empty log."""
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     path = logs.new("empty")
     Store(path).close()

@@ -6,9 +6,9 @@ import pandas as pd
 import pytest
 from scipy.optimize import brentq
 
-from tracker import geometry
-from tracker.advise import suggest, what_if
-from tracker.alloys import get_alloy
+from tracker.design import geometry
+from tracker.advice.suggest import suggest, what_if
+from tracker.design.alloys import get_alloy
 from tracker.cli import main
 from tracker.demo import story
 
@@ -18,7 +18,7 @@ KEYS = ["pattern", "zone", "riser", "action", "current_diameter_mm", "suggested_
 
 @pytest.fixture(scope="module")
 def demo_suggestions(demo_db):
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     with Store(demo_db) as s:
         return suggest(s, week=story()["window"][1], target=0.02)
@@ -89,7 +89,7 @@ def test_every_suggested_riser_passes_every_rule(demo_suggestions, demo_store):
 
 
 def test_riser_that_passes_with_margin_is_not_enlarged_blindly(good_store, tmp_path):
-    from tracker.ingest import import_file
+    from tracker.log.ingest import import_file
 
     # T-100's flange riser passes every rule; plant shrinkage there anyway.
     lots = tmp_path / "lots.csv"
@@ -134,7 +134,7 @@ def _twin_riser_log(tmp_path, store):
     """A steel plate fed by two undersized side risers with narrow necks, a
     feeding length beyond the 2 T each riser feeds between two risers, and
     shrinkage in the plate."""
-    from tracker.ingest import import_dir
+    from tracker.log.ingest import import_dir
 
     files = {
         "patterns.csv": "pattern,description,alloy,casting_weight_kg,castings_per_mold,metal_cost_per_kg\n"
@@ -262,7 +262,7 @@ def test_choice_has_the_highest_balance_among_passing_candidates(demo_suggestion
 
 
 def test_pays_off_text_names_the_cheapest_passing_change():
-    from tracker.advise import _choose, _pays_off_text
+    from tracker.advice.suggest import _choose, _pays_off_text
 
     # Invented candidates of one zone: A and D reach the target, B passes the
     # rules only, C fails a rule.
@@ -287,7 +287,7 @@ def test_pays_off_text_names_the_cheapest_passing_change():
 
 
 def test_the_reason_says_how_each_choice_was_made():
-    from tracker.advise import _choose, _how_chosen
+    from tracker.advice.suggest import _choose, _how_chosen
 
     # Invented candidates: none passes every rule (tier 2), then one passes
     # without reaching the target (tier 1), then no model at all.
@@ -336,7 +336,7 @@ def test_riser_metal_charge_is_the_old_name_of_remelt_charge(tmp_path, mem_store
 
 
 def test_cli_charge_alias_and_labelled_rates(demo_db, session_logs, runner):
-    from tracker.advise import DEFAULT_REMELT_CHARGE
+    from tracker.advice.suggest import DEFAULT_REMELT_CHARGE
 
     db = session_logs.copy(demo_db)
     a = runner.invoke(main, ["suggest", "--db", str(db), "--json", "--remelt-charge", "0.25"])
@@ -386,9 +386,9 @@ def test_the_stored_model_serves_until_a_newer_pour(tmp_path):
     # The dashboard names the fit before a long step: model_is_current says whether get_model
     # takes the stored model as it is. Stored models carry the newest pour date they saw
     # (tests/data/good: 2026-03-09); a lot poured later makes the stored one out of date.
-    from tracker.advise import fit_model, get_model, model_is_current
-    from tracker.ingest import import_dir, import_file
-    from tracker.store import Store
+    from tracker.advice.suggest import fit_model, get_model, model_is_current
+    from tracker.log.ingest import import_dir, import_file
+    from tracker.log.store import Store
 
     good = __import__("pathlib").Path(__file__).resolve().parent / "data" / "good"
     with Store(tmp_path / "log.db") as s:

@@ -4,10 +4,11 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from tracker.assess import assess_frame, check
+from tracker.design.assess import assess_frame
+from tracker.review.riser_check import check
 from tracker.cli import main
-from tracker.ingest import import_file
-from tracker.sizing import size_riser
+from tracker.log.ingest import import_file
+from tracker.design.sizing import size_riser
 
 
 def _write(path, header, rows):
@@ -55,8 +56,8 @@ def test_check_judges_every_current_riser_and_json_keys(good_store, runner, tmp_
 
 
 def test_check_cli_json(tmp_path, runner):
-    from tracker.ingest import import_dir
-    from tracker.store import Store
+    from tracker.log.ingest import import_dir
+    from tracker.log.store import Store
 
     db = tmp_path / "x.db"
     with Store(db) as s:

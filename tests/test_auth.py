@@ -7,9 +7,9 @@ import pytest
 from argon2 import PasswordHasher
 from argon2.low_level import Type, hash_secret_raw, verify_secret
 
-from tracker import auth
+from tracker.log import accounts as auth
 from tracker.errors import AccountLocked, BadInput, PermissionDenied, SessionExpired, SignInRefused
-from tracker.ingest import correct_inspection, import_dir, import_file, log_inspection
+from tracker.log.ingest import correct_inspection, import_dir, import_file, log_inspection
 
 from conftest import GOOD
 

@@ -15,10 +15,10 @@ import pytest
 
 from tests.conftest import SAMPLE, LogFactory
 from tracker.cli import main
-from tracker.copylog import CopyMismatch, copy_log
+from tracker.review.copycheck import CopyMismatch, copy_log
 from tracker.errors import PourbackError
-from tracker.ingest import import_dir, log_inspection
-from tracker.store import LogLocked, Store, display_name
+from tracker.log.ingest import import_dir, log_inspection
+from tracker.log.store import LogLocked, Store, display_name
 
 
 @pytest.fixture
@@ -176,7 +176,7 @@ def test_backup_on_postgresql_without_pg_dump_prints_the_command(runner, pg_logs
 
 def test_a_transient_conflict_is_retried_not_reported(logs, tmp_path, monkeypatch):
     from tests.conftest import GOOD
-    from tracker.ingest import import_file
+    from tracker.log.ingest import import_file
 
     lots = tmp_path / "lots.csv"
     lots.write_text("lot,pattern,poured_on,heat,molds\nROOM,T-100,2026-03-01,H9,100\n", encoding="utf-8")
@@ -223,7 +223,7 @@ def test_an_insert_the_database_refuses_rolls_the_whole_write_back(logs):
     goes on: its error must still reach the caller (at the next use of the log, or at
     the end of the write) and nothing of the write may be committed."""
     from tests.conftest import GOOD
-    from tracker.store import TABLE_COLUMNS, LogError
+    from tracker.log.store import TABLE_COLUMNS, LogError
 
     with Store(logs.new()) as s:
         import_dir(s, GOOD)
@@ -252,7 +252,7 @@ def test_an_insert_the_database_refuses_rolls_the_whole_write_back(logs):
 @pytest.mark.slow
 def test_bench_runs_on_postgresql(tmp_path):
     from tests.conftest import pg_server
-    from tracker import bench
+    from benchmarks import scale as bench
 
     report = bench.run(400, sizing_risers=10, repeats=1, dashboard=False, backend="postgresql",
                        pg_url=pg_server())

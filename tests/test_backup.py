@@ -11,15 +11,15 @@ import time
 import pytest
 
 from tracker.cli import main
-from tracker.ingest import import_dir, import_file
-from tracker.store import Store
+from tracker.log.ingest import import_dir, import_file
+from tracker.log.store import Store
 
 GOOD = pathlib.Path(__file__).parent / "data" / "good"
 
 WRITER = r"""
 import pathlib, sys
-from tracker.ingest import log_inspection
-from tracker.store import Store
+from tracker.log.ingest import log_inspection
+from tracker.log.store import Store
 
 db, stop, ready = sys.argv[1], pathlib.Path(sys.argv[2]), pathlib.Path(sys.argv[3])
 n = 0

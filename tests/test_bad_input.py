@@ -27,8 +27,8 @@ import pytest
 
 from tracker.cli import main
 from tracker.errors import BadFile
-from tracker.ingest import import_dir, import_file
-from tracker.store import Store
+from tracker.log.ingest import import_dir, import_file
+from tracker.log.store import Store
 
 from conftest import BACKENDS, LogFactory
 

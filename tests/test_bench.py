@@ -1,11 +1,11 @@
 """The scale benchmark runs end to end at a tiny size (the real run is
-``python -m tracker.bench``; it is never part of the test suite)."""
+``python -m benchmarks.scale``; it is never part of the test suite)."""
 
 import json
 
 import pytest
 
-from tracker import bench
+from benchmarks import scale as bench
 
 MEASURES = ["import", "review_week", "review_13w", "review_52w", "sizing", "fit_model", "suggestions",
             "thermal_solve", "thermal_suggestions", "dashboard_review", "dashboard_design_map",

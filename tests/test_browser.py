@@ -53,7 +53,7 @@ def test_every_page_renders_with_the_caution(page, server, path, title, name):
 
 
 def test_log_one_result_through_the_form(page, server):
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     lot = lot_with_room(server["db"])
     open_page(page, server["url"], "", "Log results")

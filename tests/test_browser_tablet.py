@@ -77,7 +77,7 @@ def test_page_at_its_own_address_with_nothing_cut_off(browser, server, path, tit
 
 
 def test_one_reject_from_a_fresh_form_in_8_fields_and_12_clicks(browser, server):  # noqa: F811
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     lot = lot_with_room(server["db"])
     pg = visit(browser, server["url"], "log", "Log results", NARROW)
@@ -126,9 +126,9 @@ def test_one_reject_from_a_fresh_form_in_8_fields_and_12_clicks(browser, server)
 
 
 def test_html_report_tables_fit_a_tablet(browser, app_demo_file, tmp_path):
-    from tracker.report import render
-    from tracker.review import weekly_review
-    from tracker.store import Store
+    from tracker.review.report import render
+    from tracker.review.weekly import weekly_review
+    from tracker.log.store import Store
 
     with Store(app_demo_file) as s:
         page = tmp_path / "review.html"

@@ -21,10 +21,10 @@ import pytest
 
 from browser_kit import browser, sync_playwright  # noqa: F401 - the fixtures
 from browser_kit import choose, free_port, full_screenshot, lot_with_room, running_dashboard, settle
-from tracker import auth
+from tracker.log import accounts as auth
 from tracker.errors import PermissionDenied
-from tracker.ingest import log_inspection
-from tracker.store import Store
+from tracker.log.ingest import log_inspection
+from tracker.log.store import Store
 
 pytestmark = pytest.mark.browser
 

@@ -15,8 +15,8 @@ import pytest
 
 from browser_kit import browser, sync_playwright  # noqa: F401 - the fixtures
 from browser_kit import full_screenshot, served_copy, settle, visit
-from tracker import settings
-from tracker.store import Store
+from tracker.log import settings
+from tracker.log.store import Store
 
 pytestmark = pytest.mark.browser
 

@@ -5,7 +5,7 @@ import pytest
 
 from conftest import GOOD
 from tracker.cli import main
-from tracker.store import SCHEMA_VERSION, Store
+from tracker.log.store import SCHEMA_VERSION, Store
 
 
 def test_init_import_dir_and_reimport_adds_nothing(tmp_path, runner):
@@ -93,7 +93,7 @@ def test_skip_bad_writes_refused_csv(tmp_path, runner):
 def test_migration_from_version_1(tmp_path):
     import sqlite_utils
 
-    from tracker.store import MIGRATIONS
+    from tracker.log.store import MIGRATIONS
 
     path = tmp_path / "old.db"
     db = sqlite_utils.Database(path)
@@ -130,7 +130,7 @@ def test_patterns_lists_the_current_revision(tmp_path, runner):
 
 def test_quick_counts_equal_counts_after_imports_corrections_and_a_refused_file(tmp_path):
     from tracker.errors import BadFile
-    from tracker.ingest import correct_inspection, import_dir, import_file
+    from tracker.log.ingest import correct_inspection, import_dir, import_file
 
     with Store(tmp_path / "q.db") as s:
         import_dir(s, GOOD)

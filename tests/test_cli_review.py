@@ -7,8 +7,8 @@ import pathlib
 import pytest
 
 from tracker.cli import main
-from tracker.ingest import import_dir
-from tracker.store import Store
+from tracker.log.ingest import import_dir
+from tracker.log.store import Store
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 GOOD = ROOT / "tests" / "data" / "good"

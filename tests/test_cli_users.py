@@ -6,9 +6,9 @@ import json
 import pytest
 from argon2 import PasswordHasher
 
-from tracker import auth
+from tracker.log import accounts as auth
 from tracker.cli import main
-from tracker.store import Store
+from tracker.log.store import Store
 
 PASSWORD = "shift two at the bench"
 

@@ -2,7 +2,7 @@
 
 Each worker is a separate Python process with its own connection, started
 together (they wait for a "go" file), logging through
-tracker.ingest.log_inspection. On SQLite, WAL mode, the busy timeout and BEGIN
+tracker.log.ingest.log_inspection. On SQLite, WAL mode, the busy timeout and BEGIN
 IMMEDIATE must make them take turns instead of failing with "database is
 locked"; on PostgreSQL, the writers' advisory lock (and retried serialization
 failures) must do the same. Runs on both backends.
@@ -17,8 +17,8 @@ import time
 
 import pytest
 
-from tracker.ingest import import_dir, import_file
-from tracker.store import Store
+from tracker.log.ingest import import_dir, import_file
+from tracker.log.store import Store
 
 pytestmark = pytest.mark.slow
 
@@ -27,8 +27,8 @@ GOOD = pathlib.Path(__file__).parent / "data" / "good"
 WORKER = r"""
 import datetime as dt, json, pathlib, sys, time
 from tracker.errors import BadInput
-from tracker.ingest import log_inspection
-from tracker.store import Store
+from tracker.log.ingest import log_inspection
+from tracker.log.store import Store
 
 db, who, lot, n, result, go = sys.argv[1], sys.argv[2], sys.argv[3], int(sys.argv[4]), sys.argv[5], sys.argv[6]
 ids, refused = [], []

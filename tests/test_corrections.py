@@ -13,8 +13,8 @@ import pytest
 
 from tracker.cli import main
 from tracker.errors import BadInput
-from tracker.ingest import correct_inspection, import_dir, import_file, log_inspection
-from tracker.store import Store
+from tracker.log.ingest import correct_inspection, import_dir, import_file, log_inspection
+from tracker.log.store import Store
 
 GOOD = pathlib.Path(__file__).parent / "data" / "good"
 TODAY = dt.date(2026, 6, 1)

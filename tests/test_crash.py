@@ -19,8 +19,8 @@ import time
 import numpy as np
 import pytest
 
-from tracker.ingest import import_file, log_inspection
-from tracker.store import Store
+from tracker.log.ingest import import_file, log_inspection
+from tracker.log.store import Store
 
 pytestmark = pytest.mark.slow
 

@@ -14,7 +14,7 @@ import pytest
 from streamlit.testing.v1 import AppTest
 
 from tracker.cautions import SAFETY_CAUTION
-from tracker.store import Store
+from tracker.log.store import Store
 
 APP = pathlib.Path(__file__).resolve().parent.parent / "dashboard" / "app.py"
 PAGES = {
@@ -136,7 +136,7 @@ def _fill_form(at, lot, *, result="reject", defect="sand", name="Test Person", m
 
 
 def test_form_writes_a_record_the_review_counts(app_db, monkeypatch):
-    from tracker.review import weekly_review
+    from tracker.review.weekly import weekly_review
 
     lot, pattern = _lot_with_room(app_db)
     with Store(app_db) as s:
@@ -289,7 +289,7 @@ def test_good_upload_is_imported(app_db, monkeypatch):
 # --- weekly review ------------------------------------------------------------------------------
 
 def test_review_headline_charts_and_report(app_demo_db, monkeypatch):
-    from tracker.review import weekly_review
+    from tracker.review.weekly import weekly_review
 
     at = open_page(app_demo_db, "weekly_review.py", monkeypatch)
     with Store(app_demo_db) as s:
@@ -401,7 +401,7 @@ def test_suggestions_and_what_if(app_demo_db, monkeypatch):
     hit = change[(change["pattern"] == "P-1017") & (change["riser"] == "R3")]
     assert len(hit) == 1 and hit["action"].iat[0] != "no riser change"
     balance = next(d.value for d in at.dataframe if "yield after (%)" in d.value.columns)
-    from tracker.settings import DEFAULT_CURRENCY
+    from tracker.log.settings import DEFAULT_CURRENCY
     assert {"added metal (kg per mold)", f"balance ({DEFAULT_CURRENCY}/year)", "pays off"} <= set(balance.columns)
     # observed and predicted rates side by side, labelled
     cols = balance.columns.tolist()
@@ -438,7 +438,7 @@ def test_what_if_with_a_catalogue_sleeve(app_demo_db, monkeypatch):
 
 
 def test_what_if_bigger_riser_and_sleeve_with_money(app_demo_db, monkeypatch):
-    from tracker.advise import what_if
+    from tracker.advice.suggest import what_if
 
     at = open_page(app_demo_db, "suggestions.py", monkeypatch)
     at.selectbox(key="whatif_riser").set_value(("P-1036", "R2")).run()  # exothermic XS-90 in the demo
@@ -462,7 +462,7 @@ def test_what_if_bigger_riser_and_sleeve_with_money(app_demo_db, monkeypatch):
 # --- errors and user text ---------------------------------------------------------------------------
 
 def test_a_library_error_is_one_message_not_a_traceback(app_db, monkeypatch):
-    from tracker import review
+    from tracker.review import weekly as review
     from tracker.errors import PourbackError
 
     def broken(*args, **kwargs):
@@ -488,8 +488,8 @@ def test_user_text_in_messages_is_inert_markdown(app_db, monkeypatch):
 
 def test_design_map_counts_failing_designs_in_use_only(app_demo_db, monkeypatch):
     from tracker import views
-    from tracker.features import design_map
-    from tracker.review import default_week, weekly_review
+    from tracker.advice.features import design_map
+    from tracker.review.weekly import default_week, weekly_review
 
     at = open_page(app_demo_db, "design_map.py", monkeypatch)
     with Store(app_demo_db) as s:
@@ -527,7 +527,7 @@ def test_choosing_a_pattern_on_the_design_map_opens_its_file(app_demo_db, monkey
 
 
 def test_pattern_file_opens_on_the_first_flagged_pattern(app_demo_db, monkeypatch):
-    from tracker.review import default_week, weekly_review
+    from tracker.review.weekly import default_week, weekly_review
 
     with Store(app_demo_db) as s:
         first = weekly_review(s, default_week(s))["problems"][0]
@@ -540,7 +540,7 @@ def test_pattern_file_opens_on_the_first_flagged_pattern(app_demo_db, monkeypatc
 # --- weekly review: labelled Pareto, signals, verdicts in words ----------------------------------------
 
 def test_pareto_labels_every_bar_it_shows(app_demo_db, monkeypatch):
-    from tracker.review import default_week, weekly_review
+    from tracker.review.weekly import default_week, weekly_review
 
     at = open_page(app_demo_db, "weekly_review.py", monkeypatch)
     with Store(app_demo_db) as s:
@@ -559,7 +559,7 @@ def test_pareto_labels_every_bar_it_shows(app_demo_db, monkeypatch):
 
 
 def test_review_page_shows_the_chart_signals(app_demo_db, monkeypatch):
-    from tracker.review import default_week, weekly_review
+    from tracker.review.weekly import default_week, weekly_review
 
     at = open_page(app_demo_db, "weekly_review.py", monkeypatch)
     with Store(app_demo_db) as s:

@@ -7,7 +7,7 @@ import sys
 import pytest
 
 from tracker.cli import cmd_app, main
-from tracker.store import Store
+from tracker.log.store import Store
 
 
 @pytest.fixture
@@ -166,7 +166,7 @@ def test_sample_dir_is_next_to_the_package():
 def _admin(db, role="admin"):
     from argon2 import PasswordHasher
 
-    from tracker import auth
+    from tracker.log import accounts as auth
 
     with Store(db) as s:
         auth.HASHER, old = PasswordHasher(time_cost=1, memory_cost=8, parallelism=1), auth.HASHER

@@ -17,8 +17,8 @@ import pytest
 from streamlit.testing.v1 import AppTest
 
 from test_dashboard import chart_data, layers, mark
-from tracker import auth, settings
-from tracker.store import Store
+from tracker.log import accounts as auth, settings
+from tracker.log.store import Store
 
 APP = pathlib.Path(__file__).resolve().parent.parent / "dashboard" / "app.py"
 PAGES = ["log_results.py", "weekly_review.py", "design_map.py", "pattern_file.py", "suggestions.py"]

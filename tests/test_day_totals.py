@@ -16,11 +16,11 @@ import pandas as pd
 import pytest
 from scipy import stats as sps
 
-from tracker import stats
-from tracker import store as store_module
-from tracker.ingest import correct_inspection, import_dir, import_file, log_inspection
-from tracker.review import weekly_review
-from tracker.store import Store
+from tracker.review import stats
+from tracker.log import store as store_module
+from tracker.log.ingest import correct_inspection, import_dir, import_file, log_inspection
+from tracker.review.weekly import weekly_review
+from tracker.log.store import Store
 
 TODAY = dt.date(2027, 3, 1)
 FIRST_DAY = dt.date(2024, 1, 1)
@@ -348,7 +348,7 @@ def test_new_records_alone_are_added_to_the_totals_as_a_recompute_gives_them(tmp
 def test_without_update_from_new_records_are_recomputed_the_same(tmp_path, logs, monkeypatch):
     """Where the database knows no UPDATE ... FROM (SQLite before 3.33), a write of new
     records recomputes the totals instead of adding to them: the recount's figures."""
-    from tracker import dialect
+    from tracker.log import dialect
 
     for cls in (dialect.SQLite, dialect.PostgreSQL):
         monkeypatch.setattr(cls, "update_from", False)

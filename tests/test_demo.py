@@ -1,7 +1,7 @@
 """The demo foundry generator: reproducible, valid, and its planted story holds.
 
 Rule checks here judge each riser of the written CSV files the way `pourback
-check` does (imported into a log, tracker.assess), not through the generator's
+check` does (imported into a log, tracker.design.assess), not through the generator's
 own helper: every riser but the story's undersized ones passes the check.
 """
 
@@ -14,9 +14,9 @@ from collections import defaultdict
 import pytest
 
 from tracker import demo
-from tracker.assess import assess_frame
-from tracker.ingest import import_files
-from tracker.store import Store
+from tracker.design.assess import assess_frame
+from tracker.log.ingest import import_files
+from tracker.log.store import Store
 
 DEFECTS = {"shrinkage", "gas", "sand", "slag", "misrun", "cold_shut", "hot_tear", "crack",
            "dimensional", "other"}
@@ -67,7 +67,7 @@ def lot_results(data):
 @pytest.fixture(scope="module")
 def verdicts(paths, tmp_path_factory):
     """(pattern, revision, riser) -> (zone, passes every rule), every revision of the
-    files judged as `pourback check` judges the one in effect (tracker.assess, the
+    files judged as `pourback check` judges the one in effect (tracker.design.assess, the
     alloy's rule set, liquid contraction at its default superheat)."""
     db = tmp_path_factory.mktemp("verdicts") / "log.db"
     with Store(str(db)) as store:

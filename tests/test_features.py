@@ -4,7 +4,7 @@ import pathlib
 import numpy as np
 import pytest
 
-from tracker.features import aggregate_for_fit, design_map, fit_table, zone_lot_features
+from tracker.advice.features import aggregate_for_fit, design_map, fit_table, zone_lot_features
 
 GOOD = pathlib.Path(__file__).resolve().parent / "data" / "good"
 
@@ -95,8 +95,8 @@ def _edge_log(folder):
 
 
 def test_fit_table_counts_by_hand(tmp_path):
-    from tracker.ingest import import_dir
-    from tracker.store import Store
+    from tracker.log.ingest import import_dir
+    from tracker.log.store import Store
 
     with Store(":memory:") as s:
         import_dir(s, _edge_log(tmp_path / "log"), today=dt.date(2027, 1, 31))
@@ -123,8 +123,8 @@ def test_fit_table_is_the_row_level_table_aggregated(log, tmp_path, demo_store):
     # the reference: one row per lot and zone (zone_lot_features), then aggregate_for_fit
     import pandas as pd
 
-    from tracker.ingest import import_dir
-    from tracker.store import Store
+    from tracker.log.ingest import import_dir
+    from tracker.log.store import Store
 
     if log == "demo":
         store = demo_store
@@ -142,8 +142,8 @@ def test_fit_table_is_the_row_level_table_aggregated(log, tmp_path, demo_store):
 def test_fit_model_from_the_table_gives_the_same_model_and_scores(demo_store):
     # Same data, same figures: the stored model's coefficients and the grouped cross-validation
     # (log loss per casting) equal those of the fit on the row-level table, exactly.
-    from tracker.advise import fit_model
-    from tracker.model import ShrinkageRejectModel, cross_validate
+    from tracker.advice.suggest import fit_model
+    from tracker.advice.model import ShrinkageRejectModel, cross_validate
 
     ours = fit_model(demo_store, save=False)
     rows = aggregate_for_fit(zone_lot_features(demo_store))

@@ -1,7 +1,7 @@
 import numpy as np
 import pytest
 
-from tracker import geometry
+from tracker.design import geometry
 
 
 @pytest.mark.parametrize("d", [1.0, 5.0, 12.5])

@@ -24,9 +24,9 @@ import pytest
 
 from tracker.cli import main
 from tracker.errors import BadFile, BadInput, DiskFull, LogReadOnly
-from tracker.ingest import correct_inspection, import_dir, import_file, log_inspection
-from tracker.report import csv_bytes, safe_cell
-from tracker.store import Store, restore
+from tracker.log.ingest import correct_inspection, import_dir, import_file, log_inspection
+from tracker.csvsafe import csv_bytes, safe_cell
+from tracker.log.store import Store, restore
 
 GOOD = pathlib.Path(__file__).parent / "data" / "good"
 TODAY = dt.date(2026, 6, 1)
@@ -353,7 +353,7 @@ def test_skip_bad_into_a_folder_it_cannot_write_commits_nothing(db, tmp_path, re
 
 
 def test_skip_bad_on_a_full_disk_commits_nothing(db, tmp_path, monkeypatch):
-    from tracker import ingest
+    from tracker.log import ingest
 
     def full(self, row, columns):
         raise OSError(errno.ENOSPC, "No space left on device", str(self.tmp))

@@ -9,7 +9,7 @@ import pytest
 
 from test_dashboard import _lot_with_room, _upload, open_page, snapshot, texts
 from test_hostile import read_only  # noqa: F401  (a fixture)
-from tracker.store import Store
+from tracker.log.store import Store
 
 
 @pytest.mark.parametrize("page", ["log_results.py", "weekly_review.py", "design_map.py", "pattern_file.py",

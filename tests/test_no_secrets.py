@@ -10,9 +10,9 @@ import pathlib
 
 import pytest
 
-from tracker import auth
+from tracker.log import accounts as auth
 from tracker.cli import main
-from tracker.store import Store
+from tracker.log.store import Store
 
 RIGHT = "foundry night shift 42"
 NEW = "a fresh passphrase 2026"

@@ -15,9 +15,9 @@ from statsmodels.stats.proportion import proportion_confint
 from tests.conftest import GOOD, SAMPLE
 from tracker.cli import main
 from tracker.errors import BadFile, NotFound
-from tracker.ingest import import_dir, import_file
-from tracker.review import compare_plants, weekly_review
-from tracker.store import Store
+from tracker.log.ingest import import_dir, import_file
+from tracker.review.weekly import compare_plants, weekly_review
+from tracker.log.store import Store
 
 WEEK, WEEKS = "2026-W47", 13
 WINDOW = ("2026-08-24", "2026-11-22")  # ISO weeks 2026-W35 to W47 (ISO 8601 calendar)

@@ -10,7 +10,7 @@ import pytest
 
 from tracker import cli
 from tracker.cli import main
-from tracker.steps import Steps
+from tracker.cli.steps import Steps
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 SAMPLE = ROOT / "sample_data"
@@ -18,8 +18,8 @@ SAMPLE = ROOT / "sample_data"
 
 @pytest.fixture(scope="module")
 def demo_db(tmp_path_factory):
-    from tracker.ingest import import_dir
-    from tracker.store import Store
+    from tracker.log.ingest import import_dir
+    from tracker.log.store import Store
 
     path = tmp_path_factory.mktemp("progress") / "log.db"
     with Store(path) as s:

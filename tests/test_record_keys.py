@@ -16,8 +16,8 @@ import pytest
 import sqlite_utils
 
 from tracker.errors import BadFile
-from tracker.ingest import COLUMNS, import_dir, import_file
-from tracker.store import MIGRATIONS, Store
+from tracker.log.ingest import COLUMNS, import_dir, import_file
+from tracker.log.store import MIGRATIONS, Store
 
 GOOD = pathlib.Path(__file__).parent / "data" / "good"
 TODAY = dt.date(2026, 6, 1)
@@ -219,7 +219,7 @@ def test_record_id_is_an_optional_inspection_column():
 def test_fixed_refused_rows_report_imports_the_fixed_rows_only(store, tmp_path):
     # --skip-bad, then the refused rows fixed in the report and the report imported:
     # the good rows are not imported a second time.
-    from tracker.ingest import write_refused
+    from tracker.log.ingest import write_refused
 
     path = write(tmp_path, "shift.csv", HEADER + ACCEPT + REJECT.replace(",1,", ",x,"))
     r = import_file(store, "inspections", path, today=TODAY, skip_bad=True)

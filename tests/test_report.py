@@ -1,4 +1,4 @@
-"""Tests of tracker.report: every format renders, the HTML stands alone and
+"""Tests of tracker.review.report: every format renders, the HTML stands alone and
 escapes user text, the CSV cannot run formulas in a spreadsheet."""
 
 import csv
@@ -11,13 +11,14 @@ import re
 
 import pytest
 
-from tracker import stats
+from tracker.review import stats
 from tracker.cautions import SAFETY_CAUTION, SAFETY_CAUTION_SHORT
 from tracker.errors import BadInput
-from tracker.ingest import import_dir
-from tracker.report import ALERT, FORMATS, render, safe_cell
-from tracker.review import weekly_review
-from tracker.store import Store
+from tracker.log.ingest import import_dir
+from tracker.review.report import ALERT, FORMATS, render
+from tracker.csvsafe import safe_cell
+from tracker.review.weekly import weekly_review
+from tracker.log.store import Store
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 TODAY = dt.date(2027, 1, 31)

@@ -1,4 +1,4 @@
-"""Tests of tracker.review (the weekly scrap review).
+"""Tests of tracker.review.weekly (the weekly scrap review).
 
 Reference figures come from outside the project: statsmodels for the Wilson
 interval, the NIST/SEMATECH e-Handbook 6.3.3.2 formula for p-chart limits
@@ -18,11 +18,11 @@ import pytest
 from scipy import stats as sps
 from statsmodels.stats.proportion import proportion_confint
 
-from tracker import stats
+from tracker.review import stats
 from tracker.errors import BadInput
-from tracker.ingest import correct_inspection, import_dir, log_inspection
-from tracker.review import PATTERN_KEYS, p_charts, problem_patterns, weekly_review
-from tracker.store import Store
+from tracker.log.ingest import correct_inspection, import_dir, log_inspection
+from tracker.review.weekly import PATTERN_KEYS, p_charts, problem_patterns, weekly_review
+from tracker.log.store import Store
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 GOOD = ROOT / "tests" / "data" / "good"
@@ -507,7 +507,7 @@ def test_p_charts_of_many_patterns_match_stats_p_chart():
     k[7, 10:20] = n[7, 10:20] * 0.3 // 1        # a long high run in one pattern
     got = p_charts(k, n)
     for i in range(60):
-        ref = stats.p_chart(k[i], n[i])  # the one-pattern rules of tracker.stats (NIST 6.3.3.2)
+        ref = stats.p_chart(k[i], n[i])  # the one-pattern rules of tracker.review.stats (NIST 6.3.3.2)
         for key in ("p", "lcl", "ucl"):
             np.testing.assert_allclose(got[key][i], ref[key].to_numpy(), rtol=1e-12, equal_nan=True)
         for key in ("beyond", "run", "signal"):
@@ -546,7 +546,7 @@ def test_revision_probes_are_the_edges_of_the_judged_spans(demo_store):
     # Plumbing: the running totals the benchmark times beside the floor are those of
     # each judged revision's pattern at its spans' edges (before start, change, the
     # day after the after span), and its changed zones' where it is judged by zone.
-    from tracker.review import revision_probes
+    from tracker.review.weekly import revision_probes
 
     review = weekly_review(demo_store, "2026-W47", weeks=4)
     probes, zone_probes = revision_probes(demo_store, "2026-W47", 4)

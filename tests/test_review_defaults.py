@@ -14,12 +14,12 @@ from scipy import stats as sps
 
 from tests.test_review import TODAY, write_log
 from tracker import limits
-from tracker.advise import review_window
+from tracker.advice.suggest import review_window
 from tracker.cli import main
 from tracker.errors import BadInput
-from tracker.ingest import import_dir
-from tracker.review import default_week, weekly_review
-from tracker.store import Store
+from tracker.log.ingest import import_dir
+from tracker.review.weekly import default_week, weekly_review
+from tracker.log.store import Store
 
 
 def iso(d: dt.date) -> str:
@@ -84,7 +84,7 @@ def test_review_page_opens_on_the_default_week(app_db, monkeypatch):
 
 @pytest.mark.parametrize("target", [0.0, 0.02, 0.5])
 def test_review_and_suggest_accept_the_same_targets(good_store, target):
-    from tracker.advise import suggest
+    from tracker.advice.suggest import suggest
 
     assert weekly_review(good_store, target=target)["target"] == target
     suggest(good_store, target=target)  # no BadInput
@@ -92,7 +92,7 @@ def test_review_and_suggest_accept_the_same_targets(good_store, target):
 
 def _refusals(store, **kwargs) -> set[str]:
     """The messages of the review and of the suggestions refusing the same arguments."""
-    from tracker.advise import suggest
+    from tracker.advice.suggest import suggest
 
     messages = set()
     for call in (weekly_review, suggest):

@@ -9,13 +9,14 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from tracker import geometry
-from tracker.alloys import get_alloy
-from tracker.assess import assess_frame, check, rule_words
+from tracker.design import geometry
+from tracker.design.alloys import get_alloy
+from tracker.design.assess import assess_frame, rule_words
+from tracker.review.riser_check import check
 from tracker.cli import main
-from tracker.ingest import import_dir
-from tracker.model import ShrinkageRejectModel
-from tracker.sizing import size_riser
+from tracker.log.ingest import import_dir
+from tracker.advice.model import ShrinkageRejectModel
+from tracker.design.sizing import size_riser
 
 # A section of 2000 cm³ and 1100 cm² cooling area: M_s = 1.818 cm.
 VC, AC = 2000.0, 1100.0
@@ -223,7 +224,7 @@ GOOD = pathlib.Path(__file__).resolve().parent / "data" / "good"
 
 
 def _log(tmp_path):
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     db = tmp_path / "t.db"
     with Store(db) as s:
@@ -287,7 +288,7 @@ def test_mould_on_the_pattern_reaches_check(tmp_path, mem_store):
 def test_suggest_narrows_a_wide_pressure_control_neck(tmp_path, mem_store):
     import datetime as dt
 
-    from tracker.advise import suggest
+    from tracker.advice.suggest import suggest
 
     # A ductile-iron riser with a steel-style 80 mm neck (M_neck = 2.0 cm = 1.1 M_s) and
     # shrinkage in its zone: pressure control (Karsay, from memory) asks the neck to

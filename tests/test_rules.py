@@ -3,8 +3,8 @@ import math
 import numpy as np
 import pytest
 
-from tracker import geometry, rules
-from tracker.alloys import ALLOYS, get_alloy
+from tracker.design import geometry, rules
+from tracker.design.alloys import ALLOYS, get_alloy
 
 
 def test_chvorinov_worked_example_plate_and_riser():

@@ -11,9 +11,9 @@ import pytest
 
 from tracker.cli import main
 from tracker.errors import NotFound
-from tracker.ingest import import_dir, log_inspection
-from tracker.report import safe_cell
-from tracker.store import Store
+from tracker.log.ingest import import_dir, log_inspection
+from tracker.csvsafe import safe_cell
+from tracker.log.store import Store
 
 GOOD = pathlib.Path(__file__).parent / "data" / "good"
 TODAY = dt.date(2026, 6, 1)

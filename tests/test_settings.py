@@ -7,8 +7,8 @@ import json
 import pytest
 
 from tracker.cli import main
-from tracker.settings import DEFAULT_CURRENCY
-from tracker.store import Store
+from tracker.log.settings import DEFAULT_CURRENCY
+from tracker.log.store import Store
 
 
 def test_init_sets_the_currency_and_settings_changes_it(tmp_path, runner):
@@ -58,8 +58,8 @@ def test_init_sets_the_units_and_settings_changes_them(tmp_path, runner):
 
 
 def test_review_and_reports_name_the_currency(app_db, runner):
-    from tracker.report import render
-    from tracker.review import weekly_review
+    from tracker.review.report import render
+    from tracker.review.weekly import weekly_review
 
     runner.invoke(main, ["settings", "--db", str(app_db), "--currency", "CHF"])
     with Store(app_db) as s:

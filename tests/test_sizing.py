@@ -4,9 +4,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from tracker import geometry, rules
-from tracker.alloys import ALLOYS, get_alloy
-from tracker.sizing import size_riser, size_risers
+from tracker.design import geometry, rules
+from tracker.design.alloys import ALLOYS, get_alloy
+from tracker.design.sizing import size_riser, size_risers
 
 CAINE_ALLOYS = ["steel", "aluminum", "gray_iron", "cast_iron_brass", "aluminum_bronze"]
 

@@ -1,4 +1,4 @@
-"""Tests of tracker.stats against references outside the project."""
+"""Tests of tracker.review.stats against references outside the project."""
 
 import datetime as dt
 import math
@@ -15,7 +15,7 @@ from statsmodels.stats.proportion import (
     proportion_confint,
 )
 
-from tracker import stats
+from tracker.review import stats
 from tracker.errors import BadInput
 
 

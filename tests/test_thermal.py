@@ -15,13 +15,13 @@ import numpy as np
 import pytest
 from scipy import optimize
 
-from tracker import geometry, rules
+from tracker.design import geometry, rules
 from tracker.cli import main
 from tracker.errors import BadInput
-from tracker.sizing import caine_min_diameter_cm
-from tracker.alloys import ALLOYS
+from tracker.design.sizing import caine_min_diameter_cm
+from tracker.design.alloys import ALLOYS
 from tracker.thermal import JSON_KEYS, ThermalCase, notes_text, properties as P, run
-from tracker.thermal.model import _axis, build
+from tracker.thermal.mesh import _axis, build
 from tracker.thermal.solver import FIXED, MOULD, SECTION, SLEEVE, Grid, PhaseCurve, solve
 
 STEEL = P.thermal_alloy("steel")
@@ -34,7 +34,7 @@ POUR = 1560.0
 
 
 def _sand_b(alloy):
-    """Chvorinov's B from thermal properties, s/cm² (Flemings 1974, via tracker.rules)."""
+    """Chvorinov's B from thermal properties, s/cm² (Flemings 1974, via tracker.design.rules)."""
     return rules.mould_constant_from_properties(
         alloy.density_kg_m3, alloy.latent_j_kg, alloy.specific_heat_j_kgk, POUR - alloy.liquidus_c,
         0.5 * (alloy.liquidus_c + alloy.solidus_c), P.MOULD_INITIAL_C,
@@ -79,7 +79,7 @@ def _flemings_time(alloy, modulus_m, radius_m, n):
 def test_plate_in_sand_matches_the_analytic_sand_mould_solution():
     t_num, _ = _shape_solve("plate", FAST_STEEL)
     # Flemings (1974), semi-infinite sand mould: t = B·M² with B from thermal
-    # properties and the superheat in L' (tracker.rules.mould_constant_from_properties)
+    # properties and the superheat in L' (tracker.design.rules.mould_constant_from_properties)
     t_ref = _sand_b(FAST_STEEL) * 2.5**2
     assert t_num == pytest.approx(t_ref, rel=0.05)
 
@@ -212,7 +212,7 @@ def test_caine_sized_top_riser_on_a_steel_plate(scale, ok):
 
 def _long_cylinder(diameter_mm, sleeve_factor=1.0):
     """Freezing time (s) of an infinitely long steel cylinder in sand, bare or sleeved."""
-    from tracker.thermal.model import _sleeve_k
+    from tracker.thermal.mesh import _sleeve_k
 
     r = diameter_mm / 2.0
     wall = P.sleeve_wall_mm(diameter_mm) if sleeve_factor > 1 else 0.0
@@ -345,7 +345,7 @@ def test_what_if_thermal_adds_the_changed_risers_check(runner, demo_db):
 
 
 def _choose_cheapest_passing(priced):
-    """A stand-in for tracker.advise's choice: per zone, the cheapest candidate passing the rules."""
+    """A stand-in for tracker.advice.suggest's choice: per zone, the cheapest candidate passing the rules."""
     p = priced.assign(tier=np.where(priced["full_ok"], 0, 2)).rename_axis("_cand").reset_index()
     p = p.sort_values(["_z", "tier", "extra_cost_per_year"], kind="stable")
     return p.groupby("_z").head(1).set_index("_z")

@@ -12,11 +12,12 @@ import pytest
 from click.testing import CliRunner
 
 from tests.conftest import GOOD, SAMPLE
-from tracker import geometry, units
-from tracker.alloys import get_alloy
+from tracker.design import geometry
+from tracker import units
+from tracker.design.alloys import get_alloy
 from tracker.cli import main
-from tracker.ingest import import_dir
-from tracker.store import Store
+from tracker.log.ingest import import_dir
+from tracker.log.store import Store
 
 U = pint.UnitRegistry()
 
@@ -240,7 +241,7 @@ def test_us_import_gives_the_same_log_as_its_metric_twin(tmp_path, src):
 
 def test_a_file_giving_both_columns_is_refused(tmp_path, mem_store):
     from tracker.errors import BadFile
-    from tracker.ingest import import_file
+    from tracker.log.ingest import import_file
 
     import_file(mem_store, "patterns", GOOD / "patterns.csv")
     f = tmp_path / "zones.csv"
@@ -254,7 +255,7 @@ def test_a_file_giving_both_columns_is_refused(tmp_path, mem_store):
 
 def test_a_range_is_named_in_the_columns_unit(tmp_path, mem_store):
     from tracker.errors import BadFile
-    from tracker.ingest import import_file
+    from tracker.log.ingest import import_file
 
     f = tmp_path / "sleeves.csv"
     f.write_text("sleeve,kind,inner_diameter_in,height_in,modulus_factor,feeding_efficiency\n"
@@ -406,7 +407,7 @@ def test_bar_feeding_distance_from_its_published_form(runner, t_in, want_in):
 
 def test_resolve_units_override_then_log_then_metric(mem_store):
     from tracker.errors import BadInput
-    from tracker.settings import resolve_units, set_units
+    from tracker.log.settings import resolve_units, set_units
 
     # common practice: a command's own option wins over the log's setting
     assert resolve_units(None, None) == "metric"

@@ -15,8 +15,8 @@ import pytest
 
 from tracker import views
 from tracker.errors import BadFile, NotFound
-from tracker.ingest import import_dir, import_file, log_inspection
-from tracker.store import Store
+from tracker.log.ingest import import_dir, import_file, log_inspection
+from tracker.log.store import Store
 
 from conftest import BACKENDS, GOOD, LogFactory
 
@@ -45,7 +45,7 @@ def good_read(good_log):
 # --- data version ---------------------------------------------------------------------
 
 def test_db_version_changes_on_write_only(file_store):
-    from tracker.ingest import import_dir
+    from tracker.log.ingest import import_dir
     from tests.conftest import GOOD
 
     path = file_store.path
@@ -143,7 +143,7 @@ def test_form_record_is_accepted_by_log_inspection(good_store):
 
 
 def test_latest_records_units_order_and_status(good_store):
-    from tracker.ingest import correct_inspection
+    from tracker.log.ingest import correct_inspection
 
     first = views.latest_records(good_store, limit=50)
     assert "quantity (castings)" in first.columns and "severity (1-5)" in first.columns
@@ -212,7 +212,7 @@ def test_pattern_weekly_unknown_pattern(good_read):
 
 
 def test_pattern_weekly_matches_the_review(demo_store):
-    from tracker.review import weekly_review
+    from tracker.review.weekly import weekly_review
 
     r = weekly_review(demo_store, week="2026-W47", weeks=13)
     row = next(p for p in r["patterns"] if p["pattern"] == "P-1017")
@@ -315,7 +315,7 @@ def test_design_map_summary_and_table():
 
 
 def test_filter_design_map_on_the_demo(demo_store):
-    from tracker.features import design_map
+    from tracker.advice.features import design_map
 
     f = views.filter_design_map(design_map(demo_store), "steel", ["P-1017"])
     zone = f.set_index("zone")
@@ -393,8 +393,8 @@ def test_what_if_margins():
 
 @pytest.fixture(scope="module")
 def review(demo_db):
-    from tracker.review import weekly_review
-    from tracker.store import Store
+    from tracker.review.weekly import weekly_review
+    from tracker.log.store import Store
 
     with Store(demo_db) as s:
         return weekly_review(s, week="2026-W47", weeks=13, target=0.02)
@@ -487,8 +487,8 @@ def test_signal_and_reason_words():
 def test_verdict_in_plain_words_first_with_the_statistics_apart(app_demo_db):
     from scipy import stats as sps
 
-    from tracker.review import weekly_review
-    from tracker.store import Store
+    from tracker.review.weekly import weekly_review
+    from tracker.log.store import Store
 
     with Store(app_demo_db) as s:
         rev = next(r for r in weekly_review(s, "2026-W47")["revisions"] if r["pattern"] == "P-1031")

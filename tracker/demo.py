@@ -11,7 +11,7 @@ volume is L·W·T and its cooling area the block's surface less the faces joined
 to other metal. Every zone is fed by exactly one cylindrical riser. Most risers
 are designed properly, by the alloy's own rule set (pressure control for ductile
 iron, the liquid contraction at the alloy's default superheat): sized with
-:func:`tracker.sizing.size_riser` and rounded up to 10 mm steps (finer where
+:func:`tracker.design.sizing.size_riser` and rounded up to 10 mm steps (finer where
 10 mm would make a ductile-iron riser oversized), or fitted with the cheapest
 sleeve of the shop's catalogue that meets every rule. ``pourback check`` passes
 every one of them.
@@ -20,7 +20,7 @@ Reject law. Reject counts are not written per pattern. One law is applied to
 every zone of every lot (:func:`riser_margins`, :func:`shrinkage_rate`):
 
 - the riser's margins are the ones ``pourback check`` gives
-  (:func:`tracker.assess.assess_frame`: the modulus ratio against what the
+  (:func:`tracker.design.assess.assess_frame`: the modulus ratio against what the
   rule set asks, Caine's margin X - X_curve(Y) where the alloy has Caine
   constants, the feed-volume margin with the liquid contraction, the neck,
   and for steel the feeding distance where the zone gives it);
@@ -72,9 +72,9 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from tracker import geometry, rules
-from tracker.alloys import Alloy, get_alloy
-from tracker.sizing import size_riser, suggested_neck_mm
+from tracker.design import geometry, rules
+from tracker.design.alloys import Alloy, get_alloy
+from tracker.design.sizing import size_riser, suggested_neck_mm
 
 SCENARIO_NAME = "the demo foundry (invented)"
 
@@ -207,7 +207,7 @@ def riser_margins(alloy, section_volume_cm3: float, section_area_cm2: float, pla
                   neck_diameter_mm: float | None = None, thickness_mm: float | None = None,
                   length_mm: float | None = None) -> dict:
     """Every rule's verdict on one cylindrical riser feeding one section, as
-    ``pourback check`` gives it (:func:`tracker.assess.assess_frame`: the
+    ``pourback check`` gives it (:func:`tracker.design.assess.assess_frame`: the
     alloy's rule set, liquid contraction at the alloy's default superheat, a
     green-sand mould).
 
@@ -219,7 +219,7 @@ def riser_margins(alloy, section_volume_cm3: float, section_area_cm2: float, pla
     Caine row, ``neck_modulus_cm`` None without a neck, ``length_mm``, and
     ``shortfall``.
     """
-    from tracker.assess import assess_frame
+    from tracker.design.assess import assess_frame
 
     alloy = alloy if isinstance(alloy, Alloy) else get_alloy(alloy)
     cn = alloy.caine

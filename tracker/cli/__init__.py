@@ -19,10 +19,10 @@ import click
 import numpy as np
 
 from tracker import __version__, limits, units
-from tracker.alloys import ALLOYS
+from tracker.design.alloys import ALLOYS
 from tracker.cautions import SAFETY_CAUTION_SHORT
 from tracker.errors import PourbackError
-from tracker.steps import Steps, terminal  # noqa: F401 (Steps is used by the commands)
+from tracker.cli.steps import Steps, terminal  # noqa: F401 (Steps is used by the commands)
 
 
 # --- output -----------------------------------------------------------------------
@@ -120,7 +120,7 @@ def handle_errors(fn):
 
 
 def database_errors() -> tuple:
-    from tracker.store import DATABASE_ERRORS
+    from tracker.log.store import DATABASE_ERRORS
 
     return DATABASE_ERRORS
 
@@ -197,7 +197,7 @@ def take_measures(system: str, values: dict, *metric_names: str) -> dict:
 
 def resolve_units(store, override) -> str:
     """The unit system of a command: ``--units``, else the log's, else metric."""
-    from tracker.settings import resolve_units as resolve
+    from tracker.log.settings import resolve_units as resolve
 
     return resolve(store, override)
 
@@ -278,7 +278,7 @@ def db_option(fn):
 def open_store(db_path, create: bool = False):
     """The log in --db; a missing file is an error unless ``create`` (init only).
     A write that waits for another writer says so on stderr within a second."""
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     return Store(db_path, create=create, on_wait=lambda msg: click.echo(msg, err=True))
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from tracker.settings import DEFAULT_CURRENCY, currency
+from tracker.log.settings import DEFAULT_CURRENCY, currency
 
 from tracker import units
 from tracker.cli import (Steps, caution_text, db_option, emit, handle_errors, json_option, main, measure_option,
@@ -68,7 +68,7 @@ def suggest(pattern, target, week, weeks, remelt_charge, refit, thermal, units_o
 
         pourback suggest --target 0.02 --remelt-charge 0.3
     """
-    from tracker.advise import suggest as run
+    from tracker.advice.suggest import suggest as run
 
     with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
         system = resolve_units(store, units_override)
@@ -153,7 +153,7 @@ def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, units_o
 
         pourback what-if --pattern P-1017 --riser R3 --diameter-mm 130
     """
-    from tracker.advise import what_if as run
+    from tracker.advice.suggest import what_if as run
 
     with open_store(db_path) as store:
         system = resolve_units(store, units_override)
@@ -171,7 +171,7 @@ def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, units_o
 
 
 def _what_if_text(r: dict, code: str = DEFAULT_CURRENCY, system: str = units.METRIC) -> str:
-    from tracker.assess import rule_words
+    from tracker.design.assess import rule_words
 
     rows = [{"figure": k.replace("_", " "), "now": r.get(k + "_now"), "changed": r[k]} for k in
             ("modulus_ratio", "caine_margin", "feed_margin")]
@@ -219,9 +219,9 @@ def fit_model(alpha, folds, db_path, as_json):
 
         pourback fit-model
     """
-    from tracker.advise import fit_model as fit
-    from tracker.features import fit_table
-    from tracker.model import ShrinkageRejectModel, cross_validate
+    from tracker.advice.suggest import fit_model as fit
+    from tracker.advice.features import fit_table
+    from tracker.advice.model import ShrinkageRejectModel, cross_validate
 
     with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
         steps.step("Reading the lots and rejects")

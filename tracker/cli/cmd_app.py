@@ -14,7 +14,7 @@ import tempfile
 import click
 
 import tracker
-from tracker import auth
+from tracker.log import accounts as auth
 from tracker.cli import db_option, emit, handle_errors, json_option, main
 from tracker.errors import PourbackError
 
@@ -39,7 +39,7 @@ def streamlit_argv(host: str, port: int, tls: tuple[str, str] | None = None) -> 
             "--client.toolbarMode", "minimal", "--server.enableXsrfProtection", "true",
             "--server.maxUploadSize", str(auth.MAX_UPLOAD_MB),
             # The tables' own CSV download writes cells unguarded: it is off, and the
-            # pages offer downloads through tracker.report.csv_bytes instead.
+            # pages offer downloads through tracker.review.report.csv_bytes instead.
             "--client.disableDataExport", "true"]
     if tls:
         argv += ["--server.sslCertFile", tls[0], "--server.sslKeyFile", tls[1]]
@@ -90,7 +90,7 @@ def serve(db: pathlib.Path | str, host: str, port: int, *, require_login: bool =
           tls: tuple[str, str] | None = None, idle_hours: float | None = None) -> None:
     """Check the log may be served on ``host`` (refusing beyond loopback without an
     enabled admin account), then hand over to Streamlit."""
-    from tracker.store import Store, display_name
+    from tracker.log.store import Store, display_name
 
     idle = auth.check_idle_hours(auth.DEFAULT_IDLE_HOURS if idle_hours is None else idle_hours)
     with Store(db, create=False) as store:  # migrate before the first page opens; never create
@@ -150,7 +150,7 @@ def dashboard(db_path, port, host, require_login, tls_cert, tls_key, idle_hours)
         pourback dashboard --db plant.db --port 8502
         pourback dashboard --db plant.db --host 0.0.0.0 --tls-cert cert.pem --tls-key key.pem
     """
-    from tracker.store import absolute_target
+    from tracker.log.store import absolute_target
 
     if bool(tls_cert) != bool(tls_key):
         raise click.UsageError("give --tls-cert and --tls-key together (the certificate and its private key)")
@@ -167,7 +167,7 @@ def sample_dir() -> pathlib.Path:
 
 
 def _is_demo(path: pathlib.Path) -> bool:
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     try:
         with Store(path, create=False) as store:
@@ -184,7 +184,7 @@ def _remove_db(path: pathlib.Path) -> None:
 def _demo_files(tmp: str) -> tuple[pathlib.Path, bool]:
     """The demo's CSV folder (the committed one, else generated into ``tmp``) and whether it was generated."""
     from tracker import demo
-    from tracker.ingest import KINDS
+    from tracker.log.ingest import KINDS
 
     folder = sample_dir()
     if all((folder / f"{k}.csv").is_file() for k in KINDS):
@@ -195,8 +195,8 @@ def _demo_files(tmp: str) -> tuple[pathlib.Path, bool]:
 
 
 def _fill_demo(store) -> dict:
-    from tracker.advise import fit_model
-    from tracker.ingest import import_dir
+    from tracker.advice.suggest import fit_model
+    from tracker.log.ingest import import_dir
 
     with tempfile.TemporaryDirectory(prefix="pourback-demo-") as tmp:
         folder, generated = _demo_files(tmp)
@@ -209,7 +209,7 @@ def _fill_demo(store) -> dict:
 def build_demo(target: pathlib.Path | str) -> dict:
     """Build the demo log into ``target`` (replacing an earlier demo log file) and
     return its counts. On a PostgreSQL server (a URL) the log must be empty."""
-    from tracker.store import Store, display_name, is_url
+    from tracker.log.store import Store, display_name, is_url
 
     if is_url(str(target)):
         with Store(str(target)) as store:
@@ -265,7 +265,7 @@ def demo_command(db_path, no_dashboard, port, host, as_json):
 
         pourback demo --db /tmp/demo.db --port 8502
     """
-    from tracker.store import absolute_target
+    from tracker.log.store import absolute_target
 
     target = absolute_target(db_path)
     if not no_dashboard and not auth.is_loopback(host):

@@ -37,6 +37,6 @@ def copy_log_command(source, dest, as_json):
 
         pourback copy-log pourback.db plant-copy.db
     """
-    from tracker.copylog import copy_log
+    from tracker.review.copycheck import copy_log
 
     emit(copy_log(source, dest), as_json, _format)

@@ -6,7 +6,7 @@ import contextlib
 
 import click
 
-from tracker.alloys import ALLOYS
+from tracker.design.alloys import ALLOYS
 from tracker.cautions import SAFETY_CAUTION
 from tracker import units
 from tracker.cli import (caution_text, db_option, emit, handle_errors, json_option, main, measure_option,
@@ -75,7 +75,7 @@ def size(alloy, pattern, zone, placement, h_over_d, sleeve_code, sleeve_factor, 
 
         pourback size --units us --alloy steel --volume-in3 122 --area-in2 170 --step-in 0.5
     """
-    from tracker.sizing import round_up_to_step, size_riser, size_zone
+    from tracker.design.sizing import round_up_to_step, size_riser, size_zone
 
     uses_log = pattern is not None or sleeve_code is not None
     with contextlib.ExitStack() as stack:
@@ -123,7 +123,7 @@ def _log_exists(db_path) -> bool:
     that exists, or a server's URL (a missing log there is named when opened)."""
     import pathlib
 
-    from tracker.store import is_url, resolve_path
+    from tracker.log.store import is_url, resolve_path
 
     path = resolve_path(db_path)
     return is_url(path) or (path != ":memory:" and pathlib.Path(path).is_file())
@@ -229,7 +229,7 @@ def check(pattern, on_date, modulus_factor, thermal, units_override, db_path, as
 
         pourback check --pattern P-1042
     """
-    from tracker.assess import check as run_check
+    from tracker.review.riser_check import check as run_check
 
     with open_store(db_path) as store:
         system = resolve_units(store, units_override)
@@ -273,7 +273,7 @@ def patterns(units_override, db_path, as_json):
     """
     import datetime as dt
 
-    from tracker.assess import revision_in_effect
+    from tracker.design.assess import revision_in_effect
 
     with open_store(db_path) as store:
         system = resolve_units(store, units_override)

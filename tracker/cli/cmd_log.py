@@ -11,7 +11,7 @@ import click
 
 from tracker.cli import (db_option, emit, handle_errors, json_option, main, open_store, progress_bar, show_progress,
                          table)
-from tracker.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES
+from tracker.log.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES
 
 MAX_RECORD_ID = 2**63 - 1  # SQLite's largest integer
 
@@ -44,8 +44,8 @@ def init(currency, system, plant, db_path):
         pourback init --db plant.db --currency EUR --units metric
         pourback init --db north.db --plant NORTH
     """
-    from tracker import settings as log_settings
-    from tracker.ingest import set_default_plant
+    from tracker.log import settings as log_settings
+    from tracker.log.ingest import set_default_plant
 
     with open_store(db_path, create=True) as store:
         if currency is not None:
@@ -81,7 +81,7 @@ def settings(currency, system, db_path, as_json):
 
         pourback settings --db plant.db --currency USD --units us
     """
-    from tracker import settings as log_settings
+    from tracker.log import settings as log_settings
 
     with open_store(db_path) as store:
         if currency is not None:
@@ -125,7 +125,7 @@ def import_(kind_or_dir, file, skip_bad, sep, decimal, by, db_path, as_json):
         pourback import patterns patterns.csv
         pourback import sample_data
     """
-    from tracker.ingest import import_files
+    from tracker.log.ingest import import_files
 
     if file is None:
         folder = pathlib.Path(kind_or_dir)
@@ -198,7 +198,7 @@ def log(lot, inspected_on, method, quantity, result, defect, zone, xray_category
 
         pourback log --lot L2647-043 --method xray --quantity 1 --result reject --defect shrinkage --zone neck --xray-category CB --severity 4 --inspector QE-ML
     """
-    from tracker.ingest import log_inspection
+    from tracker.log.ingest import log_inspection
 
     record = dict(lot=lot, inspected_on=inspected_on or dt.date.today().isoformat(), method=method,
                   quantity=quantity, result=result, defect=defect, zone=zone, xray_category=xray_category,
@@ -234,7 +234,7 @@ def correct(record_id, reason, by, void, db_path, as_json, **changes):
 
         pourback correct 1834 --quantity 3 --reason "recount at the bench" --by QE-ML
     """
-    from tracker.ingest import correct_inspection
+    from tracker.log.ingest import correct_inspection
 
     changes = {k: v for k, v in changes.items() if v is not None}
     if void and changes:
@@ -316,7 +316,7 @@ def restore(backup_file, db_path):
 
         pourback restore backups/pourback-2026-12-01.db --db restored.db
     """
-    from tracker.store import is_url, resolve_path, restore as do_restore
+    from tracker.log.store import is_url, resolve_path, restore as do_restore
 
     target = resolve_path(db_path)
     if is_url(target):

@@ -8,7 +8,7 @@ import click
 
 from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, plant_option, resolve_units,
                           show_progress, target_option, units_option, week_option, weeks_option)
-from tracker.report import FORMATS
+from tracker.review.report import FORMATS
 
 
 @main.command()
@@ -48,8 +48,8 @@ def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, a
         raise click.UsageError("--alloy is for --compare-plants; the review covers every alloy")
     fmt = "json" if as_json else (fmt or "table")
 
-    from tracker.report import render, render_plants
-    from tracker.review import compare_plants as compare, in_system, weekly_review
+    from tracker.review.report import render, render_plants
+    from tracker.review.weekly import compare_plants as compare, in_system, weekly_review
 
     with Steps(show_progress(fmt == "json")) as steps:
         with open_store(db_path) as store:

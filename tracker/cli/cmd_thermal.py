@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from tracker.alloys import ALLOYS
+from tracker.design.alloys import ALLOYS
 from tracker import units
 from tracker.cli import (caution_text, db_option, emit, handle_errors, json_option, main, measure_option, open_store,
                          resolve_units, take_measures, units_option)
@@ -56,7 +56,7 @@ def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould
     """
     from tracker.thermal import run
     from tracker.thermal.cases import case_from_log
-    from tracker.thermal.model import ThermalCase
+    from tracker.thermal.mesh import ThermalCase
 
     if units_override is None and _log_exists(db_path):
         with open_store(db_path) as store:

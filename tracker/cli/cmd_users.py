@@ -21,7 +21,7 @@ password_stdin_option = click.option("--password-stdin", is_flag=True,
 
 
 def _read_password(from_stdin: bool) -> str:
-    from tracker.auth import MIN_PASSWORD_LENGTH
+    from tracker.log.accounts import MIN_PASSWORD_LENGTH
 
     if from_stdin:
         line = sys.stdin.readline()
@@ -57,7 +57,7 @@ def user_add(name, role, password_stdin, by, db_path):
         pourback user add mlopez --role inspector
         printf '%s\\n' "$PASS" | pourback user add qa-lead --role admin --password-stdin
     """
-    from tracker import auth
+    from tracker.log import accounts as auth
 
     auth.check_name(name)
     auth.check_role(role)
@@ -78,7 +78,7 @@ def user_list(db_path, as_json):
 
         pourback user list
     """
-    from tracker import auth
+    from tracker.log import accounts as auth
 
     with open_store(db_path) as store:
         rows = auth.list_users(store)
@@ -101,7 +101,7 @@ def user_passwd(name, password_stdin, by, db_path):
 
         pourback user passwd mlopez
     """
-    from tracker import auth
+    from tracker.log import accounts as auth
 
     with open_store(db_path) as store:
         auth.find_user(store, name)  # before asking for a password
@@ -123,7 +123,7 @@ def user_disable(name, by, db_path):
 
         pourback user disable mlopez
     """
-    from tracker import auth
+    from tracker.log import accounts as auth
 
     with open_store(db_path) as store:
         acc = auth.set_enabled(store, name, False, by=_who(by))
@@ -145,7 +145,7 @@ def user_enable(name, by, db_path):
 
         pourback user enable mlopez
     """
-    from tracker import auth
+    from tracker.log import accounts as auth
 
     with open_store(db_path) as store:
         acc = auth.set_enabled(store, name, True, by=_who(by))
@@ -161,7 +161,7 @@ def user_roles(as_json):
 
         pourback user roles
     """
-    from tracker import auth
+    from tracker.log import accounts as auth
 
     emit(auth.role_table(), as_json, lambda rs: table(rs, [("role", "role"), ("may", "may")]))
 
@@ -180,7 +180,7 @@ def audit(since, db_path, as_json):
 
         pourback audit --since 2026-12-01
     """
-    from tracker import auth
+    from tracker.log import accounts as auth
 
     with open_store(db_path) as store:
         rows = auth.audit_log(store, since)

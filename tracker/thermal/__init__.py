@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from tracker.thermal import properties
-from tracker.thermal.model import ThermalCase, build, model_kind, neck_note, validate
+from tracker.thermal.mesh import ThermalCase, build, model_kind, neck_note, validate
 from tracker.thermal.properties import NIYAMA_UNIT
 from tracker.thermal.solver import NECK, RISER, SECTION, solve
 

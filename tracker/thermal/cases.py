@@ -20,9 +20,9 @@ import math
 import pandas as pd
 
 from tracker.errors import BadInput, NotFound
-from tracker.thermal.model import ThermalCase
+from tracker.thermal.mesh import ThermalCase
 
-# The log's mould (rigidity, ``tracker.rules.MOULDS``) as a thermal mould: a rigid
+# The log's mould (rigidity, ``tracker.design.rules.MOULDS``) as a thermal mould: a rigid
 # mould is taken as chemically bonded sand, green sand as silica sand (common practice).
 MOULD_OF_RIGIDITY = {"green_sand": "silica_sand", "rigid": "chemically_bonded"}
 
@@ -57,7 +57,7 @@ def case_from_row(row: dict, pour_temp_c: float | None = None, mould: str = "sil
 
 def current_risers(store, pattern: str, on: str | None = None) -> pd.DataFrame:
     """The risers of ``pattern``'s revision in effect on ``on`` (default today)."""
-    from tracker.assess import revision_in_effect
+    from tracker.design.assess import revision_in_effect
 
     on = on or dt.date.today().isoformat()
     store.pattern(pattern)

@@ -120,7 +120,7 @@ def changed_row(store, pattern: str, revision: str, riser: str, diameter_mm: flo
 
 
 def what_if_fields(store, result: dict) -> dict:
-    """``row_fields`` of the changed riser of a what-if result (``tracker.advise.what_if``)."""
+    """``row_fields`` of the changed riser of a what-if result (``tracker.advice.suggest.what_if``)."""
     row = changed_row(store, result["pattern"], result["revision"], result["riser"], result["diameter_mm"],
                       result.get("height_mm"), result.get("sleeve"), result.get("neck_diameter_mm"))
     return row_fields(store, row)
@@ -153,7 +153,7 @@ MAX_SOLVES_PER_ZONE = 6
 
 def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
            max_solves: int = MAX_SOLVES_PER_ZONE, system: str = "metric") -> tuple[pd.DataFrame, dict]:
-    """The thermal check before ``choose`` (``tracker.advise``'s choice of one candidate per zone).
+    """The thermal check before ``choose`` (``tracker.advice.suggest``'s choice of one candidate per zone).
 
     The candidate ``choose`` takes for a zone is solved; where it fails, it no
     longer counts as passing every rule and the next one ``choose`` takes is

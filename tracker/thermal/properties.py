@@ -14,7 +14,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from tracker.alloys import ALLOYS
+from tracker.design.alloys import ALLOYS
 from tracker.errors import BadInput, UnknownAlloy
 
 # Niyama's criterion (Niyama, Uchida, Morikawa and Saito, 1982): Ny = G / sqrt(dT/dt)

@@ -53,15 +53,16 @@ import math
 import numpy as np
 import pandas as pd
 
-from tracker import limits, rules, units
-from tracker.assess import assess_frame, revision_in_effect, rule_words
+from tracker import limits, units
+from tracker.design import rules
+from tracker.design.assess import assess_frame, revision_in_effect, rule_words
 from tracker.cautions import SAFETY_CAUTION
 from tracker.errors import BadInput, NotFound
-from tracker.features import fit_table, weakest_margins, zone_lot_features
-from tracker.model import ShrinkageRejectModel
-from tracker.sizing import neck_needed_mm, size_risers
-from tracker.stats import week_start, wilson_interval
-from tracker.store import Store
+from tracker.advice.features import fit_table, weakest_margins, zone_lot_features
+from tracker.advice.model import ShrinkageRejectModel
+from tracker.design.sizing import neck_needed_mm, size_risers
+from tracker.review.stats import week_start, wilson_interval
+from tracker.log.store import Store
 from tracker.thermal import checks as thermal_checks
 
 ACTIONS = ("enlarge", "sleeve", "enlarge_and_sleeve", "neck", "no_riser_change")
@@ -147,7 +148,7 @@ def model_is_current(store: Store) -> bool:
 
 def review_window(store: Store, week: str | None, weeks: int) -> tuple[str, dt.date, dt.date]:
     """(ISO week, first day, last day) of a window of ``weeks`` ending with ``week``."""
-    from tracker.review import default_week
+    from tracker.review.weekly import default_week
 
     weeks = limits.check_weeks(weeks)
     if week is None:
@@ -782,7 +783,7 @@ def _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge,
         store.pattern(pattern)
         patterns = [pattern]
     else:
-        from tracker.review import problem_patterns
+        from tracker.review.weekly import problem_patterns
 
         patterns = problem_patterns(store, week=week, weeks=weeks, target=target)  # the review's, alone
     if not patterns:

@@ -1,13 +1,13 @@
 """Scale benchmark: a large foundry's ten years of history.
 
-``python -m tracker.bench [--lots N] [--json] [--keep DIR] [--backend postgresql
+``python -m benchmarks.scale [--lots N] [--json] [--keep DIR] [--backend postgresql
 --pg-url URL]`` generates a
 seeded synthetic history (patterns, zones, a sleeve catalogue, riser
 revisions, lots and inspections, written as CSV in the import formats) and
 measures, side by side in one run, each of the project's heavy paths against
 a floor or a plain alternative:
 
-- ``import``: ``tracker.ingest.import_file`` on the inspections CSV (the code
+- ``import``: ``tracker.log.ingest.import_file`` on the inspections CSV (the code
   path of ``pourback import``, after patterns, zones, sleeves, risers and lots
   are in) against the very rows the import wrote, written raw into an
   identical empty table (the same database before the import) in one
@@ -157,7 +157,7 @@ def _csv(path: pathlib.Path, frame: pd.DataFrame) -> pathlib.Path:
 
 def _design_rows(rng, n_pat, alloy, zones_per, last_day):
     """Zones, risers (one per zone, one or two revisions) and each riser's shortfall."""
-    from tracker.sizing import size_risers
+    from tracker.design.sizing import size_risers
 
     zp = np.repeat(np.arange(n_pat), zones_per)              # pattern of each zone
     slot = np.concatenate([np.arange(k) for k in zones_per])  # 0-based zone number in the pattern
@@ -432,7 +432,7 @@ STEP_LABELS = {"_c_generate": "generating the synthetic history", "_c_setup": "i
                "_c_import": "import (ours)", "_c_import_floor": "import floor (executemany)",
                "_c_review": "weekly review against its floor", "_c_sizing": "sizing",
                "_c_fit": "fitting the model", "_c_suggest": "suggestions", "_c_dashboard": "dashboard page"}
-_STEPS = None  # a tracker.steps.Steps while main() runs on a terminal
+_STEPS = None  # a tracker.cli.steps.Steps while main() runs on a terminal
 
 
 def _in_child(fn, *args, **kwargs):
@@ -464,8 +464,8 @@ def _c_generate(out_dir: str, lots: int, seed: int) -> dict:
 
 
 def _c_setup(db: str, paths: dict) -> dict:
-    from tracker.ingest import import_files
-    from tracker.store import Store
+    from tracker.log.ingest import import_files
+    from tracker.log.store import Store
 
     with Store(db) as store:
         items = [(k, paths[k]) for k in ("patterns", "zones", "sleeves", "risers", "lots")]
@@ -474,8 +474,8 @@ def _c_setup(db: str, paths: dict) -> dict:
 
 
 def _c_import(db: str, path: str) -> dict:
-    from tracker.ingest import import_file
-    from tracker.store import Store
+    from tracker.log.ingest import import_file
+    from tracker.log.store import Store
 
     before = _peak_mb()
     with Store(db) as store:
@@ -486,7 +486,7 @@ def _c_import(db: str, path: str) -> dict:
 
 def _c_import_floor(src_db: str, floor_db: str) -> dict:
     """The floor: the rows the import wrote, already in memory, into an identical empty table."""
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     rows = []
     memo: dict = {}
@@ -545,9 +545,9 @@ def _plans(store, calls) -> list[dict]:
 def _c_review(db: str, week: str, weeks: int, repeats: int, extras: bool = False) -> dict:
     """The review of ``weeks`` weeks against its floor, paired run by run (median of
     ``repeats``). ``extras``: also the old single-aggregate baseline and the query plans."""
-    from tracker import stats
-    from tracker.review import revision_probes, weekly_review
-    from tracker.store import Store
+    from tracker.review import stats
+    from tracker.review.weekly import revision_probes, weekly_review
+    from tracker.log.store import Store
 
     monday = stats.week_start(week)
     # the span the review reads: its weeks and the week before them (for "what changed")
@@ -606,7 +606,7 @@ def _c_review(db: str, week: str, weeks: int, repeats: int, extras: bool = False
 
 
 def _sizing_inputs(n: int, seed: int):
-    from tracker import geometry
+    from tracker.design import geometry
 
     rng = np.random.default_rng(seed + 1)
     alloys = np.array(["steel", "aluminum", "gray_iron", "aluminum_bronze"])[rng.integers(0, 4, n)]
@@ -620,7 +620,7 @@ def _sizing_inputs(n: int, seed: int):
 
 
 def _c_sizing(n: int, seed: int, repeats: int) -> dict:
-    from tracker.sizing import size_riser, size_risers
+    from tracker.design.sizing import size_riser, size_risers
 
     alloys, vol, area, placement, hd, f = _sizing_inputs(n, seed)
 
@@ -646,8 +646,8 @@ def _c_sizing(n: int, seed: int, repeats: int) -> dict:
 
 
 def _c_fit(db: str) -> dict:
-    from tracker.advise import fit_model
-    from tracker.store import Store
+    from tracker.advice.suggest import fit_model
+    from tracker.log.store import Store
 
     with Store(db, create=False) as store:
         secs, model = _timed(fit_model, store)
@@ -656,8 +656,8 @@ def _c_fit(db: str) -> dict:
 
 
 def _c_suggest(db: str, week: str) -> dict:
-    from tracker.advise import get_model, suggest
-    from tracker.store import Store
+    from tracker.advice.suggest import get_model, suggest
+    from tracker.log.store import Store
 
     with Store(db, create=False) as store:
         load_s, model = _timed(get_model, store)  # the stored model (fitted by _c_fit)
@@ -679,8 +679,8 @@ def _c_thermal_solve() -> dict:
 
 
 def _c_thermal_suggestions(db: str, week: str) -> dict:
-    from tracker.advise import get_model, suggest
-    from tracker.store import Store
+    from tracker.advice.suggest import get_model, suggest
+    from tracker.log.store import Store
     from tracker.thermal.checks import check_suggestions, solve_case
 
     with Store(db, create=False) as store:
@@ -725,8 +725,8 @@ def _c_dashboard(db: str, page: str, warm: bool = False) -> dict:
     if warm:
         import altair  # noqa: F401
 
-        import tracker.advise  # noqa: F401
-        import tracker.review  # noqa: F401
+        import tracker.advice.suggest  # noqa: F401
+        import tracker.review.weekly  # noqa: F401
         import tracker.views  # noqa: F401
 
     at = AppTest.from_file(page, default_timeout=900)
@@ -779,7 +779,7 @@ def _measure(name: str, ours_s=None, baseline_s=None, peak_rss_mb=None, **extra)
 
 
 def _c_version(db: str) -> str:
-    from tracker.store import Store
+    from tracker.log.store import Store
 
     with Store(db) as store:
         return store.server_version()
@@ -794,7 +794,7 @@ def run(lots: int = DEFAULT_LOTS, *, keep: str | os.PathLike | None = None, seed
     temporary folder, removed at the end; on PostgreSQL the schemas are kept
     too). ``backend``: "sqlite" or "postgresql" (on the server at ``pg_url``).
     """
-    from tracker.store import drop_schema, new_schema
+    from tracker.log.store import drop_schema, new_schema
 
     if backend not in BACKENDS:
         raise ValueError(f"backend: got {backend!r}; use one of {', '.join(BACKENDS)}")
@@ -991,7 +991,7 @@ def format_report(report: dict) -> str:
 
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(
-        prog="python -m tracker.bench",
+        prog="python -m benchmarks.scale",
         description="Scale benchmark on a synthetic ten-year history (see the module docstring).")
     parser.add_argument("--lots", type=int, default=DEFAULT_LOTS,
                         help=f"lots in the history (default {DEFAULT_LOTS:,}; full scale {FULL_LOTS:,})")
@@ -1015,7 +1015,7 @@ def main(argv=None) -> int:
     if args.risers < 1 or args.repeats < 1:
         parser.error("--risers and --repeats must be 1 or more")
     global _STEPS
-    from tracker.steps import Steps, terminal
+    from tracker.cli.steps import Steps, terminal
 
     with Steps(not args.json and terminal(sys.stderr)) as steps:
         _STEPS = steps if steps.show else None

@@ -40,7 +40,7 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 
-from tracker import geometry, rules
+from tracker.design import geometry, rules
 from tracker.errors import BadInput
 from tracker.thermal import properties as props
 from tracker.thermal.solver import MOULD, NECK, RISER, SECTION, SLEEVE, Grid, PhaseCurve, solve
@@ -180,7 +180,7 @@ def _sleeve_k(factor: float, wall_mm: float, modulus_mm: float, alloy_key: str, 
 
 
 def _chvorinov_b(alloy: props.ThermalAlloy, mould_: props.Mould, pour: float) -> float:
-    """Mould constant from properties, s/cm² (Flemings 1974 via tracker.rules)."""
+    """Mould constant from properties, s/cm² (Flemings 1974 via tracker.design.rules)."""
     t_melt = 0.5 * (alloy.liquidus_c + alloy.solidus_c)
     return rules.mould_constant_from_properties(
         alloy.density_kg_m3, alloy.latent_j_kg, alloy.specific_heat_j_kgk,

@@ -28,10 +28,12 @@ from typing import Callable, Iterator
 import numpy as np
 import pandas as pd
 
-from tracker import auth, geometry, units
+from tracker.log import accounts as auth
+from tracker.design import geometry
+from tracker import units
 from tracker.errors import BadFile, BadRecord, BadRow, cut
 from tracker.limits import EARLIEST_DATE, POUR_TEMP_RANGE_C, RANGES, latest_date
-from tracker.store import DEFAULT_PLANT_KEY, KEYS, TABLE_COLUMNS, Store, retrying
+from tracker.log.store import DEFAULT_PLANT_KEY, KEYS, TABLE_COLUMNS, Store, retrying
 
 KINDS = ("patterns", "zones", "sleeves", "risers", "lots", "inspections")  # dependency order
 
@@ -43,7 +45,7 @@ XRAY_CATEGORIES = ("A", "B", "CA", "CB", "CC", "CD", "D", "E", "F", "G")
 GRADED_CATEGORIES = ("A", "B", "CA", "CB", "CC", "CD")  # graded in severity levels 1-5
 NEVER_ACCEPTABLE = ("D", "E")  # cracks and hot tears: not acceptable at any level
 SLEEVE_KINDS = ("insulating", "exothermic")
-MOULDS = ("green_sand", "rigid")  # tracker.rules.MOULDS; empty = green sand
+MOULDS = ("green_sand", "rigid")  # tracker.design.rules.MOULDS; empty = green sand
 
 COLUMNS = {  # (required, optional)
     "patterns": (["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
@@ -841,7 +843,7 @@ class _Importer:
         return getattr(self, "_" + self.kind)(c)
 
     def _patterns(self, c: _Checks) -> list[tuple]:
-        from tracker.alloys import ALLOYS
+        from tracker.design.alloys import ALLOYS
 
         pattern = c.text("pattern", max_len=64)
         desc = c.text("description", required=False, max_len=500)
@@ -1375,7 +1377,7 @@ class _RefusedReport:
         self.published = False
 
     def write(self, row: dict, columns: list[str]) -> None:
-        from tracker.report import safe_cell
+        from tracker.csvsafe import safe_cell
 
         if self.writer is None:
             self.fh = self.tmp.open("w", newline="", encoding="utf-8")
@@ -1548,7 +1550,7 @@ def import_dir(store: Store, folder: str | os.PathLike, **kwargs) -> list[Import
 
 def write_refused(result: ImportResult, path: str | os.PathLike) -> pathlib.Path:
     """Write the refused rows of an import (with row number and reason) to CSV."""
-    from tracker.report import safe_cell
+    from tracker.csvsafe import safe_cell
 
     path = pathlib.Path(path)
     rows = result.refused_rows

@@ -13,7 +13,7 @@ import re
 
 from tracker import units as _units
 from tracker.errors import BadInput
-from tracker.store import Store
+from tracker.log.store import Store
 
 CURRENCY_KEY = "currency"
 DEFAULT_CURRENCY = "EUR"

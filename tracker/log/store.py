@@ -4,7 +4,7 @@ Nothing outside this module writes SQL. The log lives in an SQLite file (the
 embedded default) or on a PostgreSQL server (a ``postgresql://`` URL). The SQL
 here is written once for both; what differs between the two (connection,
 placeholders, DDL types, schema version, row ids, COPY, the writers' lock,
-retries, query plans) lives in :mod:`tracker.dialect`, used from here only.
+retries, query plans) lives in :mod:`tracker.log.dialect`, used from here only.
 
 Reads return pandas DataFrames or plain dicts; writes run in transactions that
 let one writer in at a time (SQLite's ``BEGIN IMMEDIATE``, PostgreSQL's
@@ -29,11 +29,19 @@ from typing import Callable, Iterable, Iterator
 
 import pandas as pd
 
-from tracker import auth
-from tracker import dialect as dialects
-from tracker.alloys import ALLOYS
-from tracker.dialect import (BUSY_TIMEOUT_MS, data_version, display_name, drop_schema,  # noqa: F401
-                             is_url, log_error, new_schema, with_schema)  # re-exported: callers use store.py only
+from tracker.log import accounts as auth
+from tracker.log import dialect as dialects
+from tracker.design.alloys import ALLOYS
+from tracker.log.dialect import (  # noqa: F401 (re-exported: callers use store.py only)
+    BUSY_TIMEOUT_MS,
+    data_version,
+    display_name,
+    drop_schema,
+    is_url,
+    log_error,
+    new_schema,
+    with_schema,
+)
 from tracker.errors import (DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog,  # noqa: F401
                             NotFound, PourbackError)
 
@@ -187,7 +195,7 @@ def _migration_2(db: "_Schema") -> None:
 
 def _migration_3(db: "_Schema") -> None:
     # Indexes for the review's queries on a large log (checked with EXPLAIN QUERY PLAN
-    # by ``python -m tracker.bench``). Lots by pour date carry pattern, lot and molds, so
+    # by ``python -m benchmarks.scale``). Lots by pour date carry pattern, lot and molds, so
     # a window's lots are read from the index alone (and come grouped by day and pattern).
     # A lot's records carry result and void, so "has the lot a current record" is answered
     # from the index. Each replaces a narrower index it starts with.
@@ -513,7 +521,7 @@ class Store:
         self.plant: str | None = None  # set by plant_scope: reads see that plant's patterns only
         # Who writes through this connection: None for the local desk (the command
         # line, a dashboard on loopback without sign-in), else a signed-in
-        # ``tracker.auth.Session`` whose role every write is checked against.
+        # ``tracker.log.accounts.Session`` whose role every write is checked against.
         self.actor = actor
         # Writes of lots and records not yet in day_totals / zone_totals: per pattern the
         # earliest pour day touched, and the largest record id before the first record
@@ -1524,7 +1532,7 @@ class Store:
 
     def user_account(self, name: str) -> dict | None:
         """One account (name matched without case) WITH its password hash, for
-        ``tracker.auth`` to verify a password; never shown or exported."""
+        ``tracker.log.accounts`` to verify a password; never shown or exported."""
         cur = self.conn.execute(f"SELECT {', '.join(self.USER_COLUMNS)}, password_hash FROM users "
                                 "WHERE name = ?", (name,))
         row = cur.fetchone()

@@ -8,15 +8,12 @@ unchanged); split such a section into zones of its own for a finer check.
 
 from __future__ import annotations
 
-import datetime as dt
-
 import numpy as np
 import pandas as pd
 
-from tracker import geometry, rules, units
-from tracker.alloys import ALLOYS, CaineConstants
-from tracker.errors import NotFound
-from tracker.store import Store
+from tracker.design import geometry, rules
+from tracker import units
+from tracker.design.alloys import ALLOYS, CaineConstants
 
 RESULT_COLUMNS = [
     "pattern", "revision", "effective_from", "riser", "zone", "alloy", "placement", "top",
@@ -274,24 +271,6 @@ def revision_in_effect(revisions: pd.DataFrame, on: str) -> pd.DataFrame:
     if r.empty:
         return r
     return r.sort_values(["pattern", "effective_from"]).groupby("pattern", as_index=False).tail(1)
-
-
-def check(store: Store, pattern: str | None = None, on: str | dt.date | None = None,
-          modulus_factor: float = rules.DEFAULT_MODULUS_FACTOR, *, system: str = units.METRIC) -> pd.DataFrame:
-    """Every riser of the revision in effect on ``on`` (default today), judged;
-    ``system``: the unit system the notes word their figures in (columns stay metric)."""
-    on = (on or dt.date.today())
-    on = on.isoformat() if hasattr(on, "isoformat") else str(on)
-    if pattern is not None:
-        store.pattern(pattern)  # raises NotFound with a hint
-    risers = store.risers_frame(pattern=pattern)
-    if risers.empty:
-        return pd.DataFrame(columns=RESULT_COLUMNS)
-    current = revision_in_effect(store.revisions_frame(pattern), on)
-    keep = risers.merge(current[["pattern", "revision"]], on=["pattern", "revision"])
-    if keep.empty and pattern is not None:
-        raise NotFound("riser revision", pattern, f"no revision of {pattern} is in effect on {on}")
-    return assess_frame(keep, modulus_factor, system=system)
 
 
 def caine_curve_points(a: float, b: float, c: float, y_max: float = 3.0, n: int = 200) -> pd.DataFrame:

@@ -23,49 +23,10 @@ import re
 
 from tracker import units
 from tracker.cautions import SAFETY_CAUTION, SAFETY_CAUTION_SHORT
-from tracker.settings import DEFAULT_CURRENCY
+from tracker.log.settings import DEFAULT_CURRENCY
+from tracker.csvsafe import csv_bytes, safe_cell, safe_frame  # noqa: F401 (re-used by the report's callers)
 
-FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 FORMATS = ("table", "md", "html", "csv", "json")
-
-
-_PLAIN_NUMBER = re.compile(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?")
-
-
-def safe_cell(value):
-    """A CSV cell that a spreadsheet will not run as a formula: the one guard
-    every export of the project goes through (CLI reports, refused-rows files,
-    the dashboard's downloads).
-
-    Text starting with = + - @ (or a tab / carriage return) gets a leading
-    apostrophe. Numbers are left alone, and so is text that is a plain
-    numeral (``-3``, ``+1.5e3``), which a spreadsheet reads as that number;
-    text that only Python reads as a number (``-inf``, ``-nan``, ``+1_000``)
-    is guarded like any other text.
-    """
-    if isinstance(value, str) and value.startswith(FORMULA_STARTS):
-        if _PLAIN_NUMBER.fullmatch(value):
-            return value
-        return "'" + value
-    return value
-
-
-def safe_frame(frame):
-    """A copy of a table with every text cell through :func:`safe_cell`."""
-    from pandas.api.types import is_numeric_dtype
-
-    out = frame.copy()
-    for col in out.columns:
-        if not is_numeric_dtype(out[col]):
-            out[col] = out[col].map(safe_cell)
-    out.columns = [safe_cell(str(c)) for c in out.columns]
-    return out
-
-
-def csv_bytes(frame) -> bytes:
-    """A table as CSV (UTF-8 with a byte-order mark, so spreadsheets read it as
-    UTF-8), every cell guarded."""
-    return safe_frame(frame).to_csv(index=False).encode("utf-8-sig")
 
 
 # --- wording --------------------------------------------------------------------------
@@ -396,7 +357,7 @@ def render_csv(review: dict) -> str:
     """The per-pattern table of the window as CSV, every cell made formula-safe."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    system = review.get("unit_system", units.METRIC)  # set by tracker.review.in_system
+    system = review.get("unit_system", units.METRIC)  # set by tracker.review.weekly.in_system
     columns = [(units.column_name(h, system), units.column_name(k, system)) for h, k in CSV_COLUMNS]
     w.writerow([h for h, _ in columns])
     for p in review["patterns"]:
@@ -405,7 +366,7 @@ def render_csv(review: dict) -> str:
 
 
 def render_json(review: dict) -> str:
-    from tracker.review import jsonable
+    from tracker.review.weekly import jsonable
 
     return json.dumps(jsonable(review), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
@@ -890,7 +851,7 @@ def _plants_head(d: dict) -> list[str]:
 
 
 def render_plants(d: dict, fmt: str = "table") -> str:
-    """A plant comparison (:func:`tracker.review.compare_plants`) in one of ``FORMATS``."""
+    """A plant comparison (:func:`tracker.review.weekly.compare_plants`) in one of ``FORMATS``."""
     cols = _plant_columns()
     if fmt == "json":
         return render_json(d)

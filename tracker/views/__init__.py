@@ -6,7 +6,7 @@ display tables carry their unit ("castings", "mm", "%", "kg") so a table
 never shows a bare number.
 
 Rates: functions returning ``*_pct`` columns give percentages (0..100);
-every other rate is a fraction (0..1), as in ``tracker.stats``.
+every other rate is a fraction (0..1), as in ``tracker.review.stats``.
 
 Unit systems: a display function that shows lengths, areas, volumes or
 masses takes ``system`` (``"metric"``, the default, or ``"us"``); its
@@ -26,13 +26,15 @@ import pathlib
 import numpy as np
 import pandas as pd
 
-from tracker import rules, stats, units
-from tracker.alloys import ALLOYS
-from tracker.assess import assess_frame, caine_curve_points, revision_in_effect
+from tracker.design import rules
+from tracker.review import stats
+from tracker import units
+from tracker.design.alloys import ALLOYS
+from tracker.design.assess import assess_frame, caine_curve_points, revision_in_effect
 from tracker.errors import BadRow, NotFound
-from tracker.ingest import COLUMNS as IMPORT_COLUMNS, METHODS
-from tracker.settings import DEFAULT_CURRENCY
-from tracker.store import Store, data_version
+from tracker.log.ingest import COLUMNS as IMPORT_COLUMNS, METHODS
+from tracker.log.settings import DEFAULT_CURRENCY
+from tracker.log.store import Store, data_version
 
 NONE = "(none)"  # the "no value" choice of an optional picker
 
@@ -40,7 +42,7 @@ NONE = "(none)"  # the "no value" choice of an optional picker
 # --- data version (cache key) ------------------------------------------------------
 
 def db_version(path: str | os.PathLike) -> tuple:
-    """A value that changes whenever the log changes (see :func:`tracker.store.data_version`)."""
+    """A value that changes whenever the log changes (see :func:`tracker.log.store.data_version`)."""
     return data_version(str(path))
 
 
@@ -246,7 +248,7 @@ def pattern_weekly(store: Store, pattern: str, start: str | None = None,
                    end: str | None = None) -> pd.DataFrame:
     """One pattern's pours and rejects per ISO week of pour, every week in between included.
 
-    Counted as the weekly review counts (``tracker.review``): a casting is
+    Counted as the weekly review counts (``tracker.review.weekly``): a casting is
     *inspected* when its lot holds a current inspection record; rates are
     castings rejected / castings inspected. Columns: week, week_start (the
     Monday, a date), lots, poured, inspected, rejected, shrinkage_rejected
@@ -350,7 +352,7 @@ def pattern_zones(store: Store, pattern: str, system: str = units.METRIC) -> pd.
 def risers_by_revision(store: Store, pattern: str, system: str = units.METRIC) -> pd.DataFrame:
     """Every riser of every revision of ``pattern`` with its rule margins, for display.
 
-    Margins as ``tracker.assess.assess_frame``: modulus ratio = effective riser
+    Margins as ``tracker.design.assess.assess_frame``: modulus ratio = effective riser
     modulus / zone modulus (rule: 1.2 or more); Caine margin = freezing ratio
     above the curve (0 or more passes; blank where the alloy has no
     constants); feed margin = feed volume held above the need, as a fraction
@@ -419,7 +421,7 @@ IN_USE_FLAGGED = "in use, pattern flagged"
 def filter_design_map(frame: pd.DataFrame, alloy: str | None = None,
                       patterns: list[str] | None = None, current: dict | None = None,
                       flagged=None) -> pd.DataFrame:
-    """Rows of a design map (``tracker.features.design_map``) for one alloy and some patterns.
+    """Rows of a design map (``tracker.advice.features.design_map``) for one alloy and some patterns.
 
     Adds shrinkage_rate_pct (% of castings poured rejected for shrinkage)
     when the frame has shrinkage_rate; rows without a volume or freezing
@@ -545,7 +547,7 @@ def balance_part(code: str | None = None, system: str = units.METRIC) -> list[st
 
 def suggestions_table(suggestions: list[dict], currency: str | None = None,
                       system: str = units.METRIC) -> pd.DataFrame:
-    """Suggestions (``tracker.advise.suggest``) as a display table, rates and yields in %,
+    """Suggestions (``tracker.advice.suggest.suggest``) as a display table, rates and yields in %,
     diameters and added metal in ``system``.
 
     Money columns are headed "(CODE/year)" with the log's ``currency`` code
@@ -588,7 +590,7 @@ WHAT_IF_RULES = (("modulus rule", "modulus_ratio", rules.DEFAULT_MODULUS_FACTOR)
 
 
 def what_if_margins(result: dict) -> pd.DataFrame:
-    """Rule margins of a what-if (``tracker.advise.what_if``), now and changed.
+    """Rule margins of a what-if (``tracker.advice.suggest.what_if``), now and changed.
 
     One row per rule and design ("now", "changed"): ``margin`` is how far the
     riser clears the rule (0 = just passes): modulus ratio less 1.2, Caine
@@ -654,7 +656,7 @@ VERDICT_WORDS = {"improved": "improved", "worse": "worse", "no_clear_change": "n
 
 
 def signal_words(names, high=None) -> str:
-    """Signal rule names (``tracker.stats.RULES``) in words ("" for none). With ``high``
+    """Signal rule names (``tracker.review.stats.RULES``) in words ("" for none). With ``high``
     (the rules that fired above the centre), a signal below it is marked "(low: fewer rejects)"."""
     if names is None or (isinstance(names, float) and math.isnan(names)):
         return ""
@@ -744,7 +746,7 @@ PLANT_TABLE = {
 
 
 def plant_comparison_table(comparison: dict) -> pd.DataFrame:
-    """A plant comparison (:func:`tracker.review.compare_plants`) for display: rates in %."""
+    """A plant comparison (:func:`tracker.review.weekly.compare_plants`) for display: rates in %."""
     rows = comparison.get("plants") or []
     if not rows:
         return pd.DataFrame(columns=list(PLANT_TABLE.values()))

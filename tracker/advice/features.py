@@ -1,7 +1,7 @@
 """Feature tables: each lot's riser zones with the design that was in the mould.
 
 A lot is judged against the riser revision in effect on its pour date. Each
-riser of that revision is assessed by the rules (``tracker.assess``); a zone
+riser of that revision is assessed by the rules (``tracker.design.assess``); a zone
 fed by several risers takes the weakest riser's margins. Shrinkage rejects
 are counted per lot and zone (result ``reject``, defect ``shrinkage``);
 shrinkage rejects logged without a zone cannot be tied to a riser and are
@@ -13,9 +13,9 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from tracker.assess import assess_frame
-from tracker.stats import wilson_interval
-from tracker.store import Store
+from tracker.design.assess import assess_frame
+from tracker.review.stats import wilson_interval
+from tracker.log.store import Store
 
 MARGIN_COLS = ["modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "freezing_ratio"]
 FEATURE_COLUMNS = [

@@ -2,18 +2,18 @@
 
 ``copy_log(source, dest)`` writes every table of ``source`` into ``dest`` (an
 empty log, created when missing) in one transaction, then, before committing,
-checks it: the row count and an order-free checksum of every table, and the
-weekly review of the latest week, must be the same on both. Any difference
-rolls the copy back and raises :class:`CopyMismatch`; nothing half-copied stays.
+checks it: the row count and an order-free checksum of every table, and
+whatever ``check(src, dst)`` compares (the review layer passes the latest
+week's review), must be the same on both. Any difference rolls the copy back
+and raises :class:`CopyMismatch`; nothing half-copied stays.
 """
 
 from __future__ import annotations
 
-import math
+from collections.abc import Callable
 
-from tracker import review
 from tracker.errors import PourbackError
-from tracker.store import Store, display_name
+from tracker.log.store import Store, display_name
 
 # Tables whose rows a fresh log already holds (seeded by the migrations).
 SEEDED = {"alloys"}
@@ -23,11 +23,14 @@ class CopyMismatch(PourbackError):
     """The copy differs from its source (a table's count or checksum, or the review)."""
 
 
-def copy_log(source: str, dest: str, *, progress=None) -> dict:
+def copy_tables(source: str, dest: str, *, progress=None,
+                check: Callable[[Store, Store], tuple[str | None, bool]] | None = None) -> dict:
     """Copy the log at ``source`` into ``dest`` and verify it.
 
     ``dest`` must hold no rows yet (other than the tables a new log is seeded
     with). ``progress(table, rows)`` is called after each table. Returns
+    ``check(src, dst)`` returns ``(week, same)`` for a further comparison
+    made inside the transaction (None: none). Returns
     ``source``, ``dest`` (passwords masked), ``tables`` (per table: rows in the
     source and in the copy, the two checksums, ``same``), ``review_week`` and
     ``review_same``.
@@ -59,7 +62,7 @@ def copy_log(source: str, dest: str, *, progress=None) -> dict:
                 row["same"] = (row["rows_from"] == row["rows_to"]
                                and row["checksum_from"] == row["checksum_to"])
                 tables[name] = row
-            week, review_same = _same_review(src, dst)
+            week, review_same = check(src, dst) if check else (None, True)
             bad = [n for n, r in tables.items() if not r["same"]]
             if bad or not review_same:
                 what = (f"tables {', '.join(bad)} differ" if bad else
@@ -68,25 +71,3 @@ def copy_log(source: str, dest: str, *, progress=None) -> dict:
                                    "written. Report this with both logs' pourback versions")
         return {"source": src.name, "dest": dst.name, "tables": tables, "review_week": week,
                 "review_same": review_same}
-
-
-def _same_review(src: Store, dst: Store) -> tuple[str | None, bool]:
-    """The latest week's review on both logs, compared as JSON."""
-    if src.count("lots") == 0 or src.count("inspections") == 0:
-        return None, True
-    a = review.jsonable(review.weekly_review(src))
-    b = review.jsonable(review.weekly_review(dst))
-    return a["week"], _same(a, b)
-
-
-def _same(a, b) -> bool:
-    """Equal JSON values, floats within 1e-9 relative: the databases may add a
-    column's rows in another order (the copy stores them in another physical
-    order), which moves a sum's last bits, not its figure."""
-    if isinstance(a, dict) and isinstance(b, dict):
-        return a.keys() == b.keys() and all(_same(a[k], b[k]) for k in a)
-    if isinstance(a, list) and isinstance(b, list):
-        return len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
-    if isinstance(a, float) and isinstance(b, (int, float)) or isinstance(b, float) and isinstance(a, int):
-        return math.isclose(a, b, rel_tol=1e-9, abs_tol=1e-12)
-    return a == b

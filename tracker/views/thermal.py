@@ -99,8 +99,8 @@ def pattern_thermal(store, pattern: str, system: str = units.METRIC) -> list[dic
 
 
 def what_if_view(store, result: dict, system: str = units.METRIC) -> dict:
-    """The thermal view of a what-if's changed riser (``tracker.advise.what_if``'s result)."""
+    """The thermal view of a what-if's changed riser (``tracker.advice.suggest.what_if``'s result)."""
     from tracker.thermal.checks import solve_case, what_if_fields
-    from tracker.thermal.model import ThermalCase
+    from tracker.thermal.mesh import ThermalCase
 
     return view(solve_case(ThermalCase(**what_if_fields(store, result)["thermal_case"])), system)

@@ -54,7 +54,7 @@ from sklearn.utils.validation import check_array, check_is_fitted, check_scalar
 
 from tracker import __version__ as _POURBACK_VERSION
 from tracker.errors import BadInput, BadRow, IncompatibleModel, MissingColumn, PourbackError  # noqa: F401 (re-exported)
-from tracker.rules import DEFAULT_MODULUS_FACTOR
+from tracker.design.rules import DEFAULT_MODULUS_FACTOR
 
 SHORTFALL_TERMS = ("modulus_shortfall", "freezing_shortfall", "caine_shortfall", "feed_shortfall")
 NUMERIC_TERMS = ("pour_temp_dev_10c", "log2_thickness")
@@ -264,7 +264,7 @@ class ShrinkageRejectModel(BaseEstimator):
         caine = _numeric(X, "caine_margin", allow_nan=True, allow_inf=True)
         feed = _numeric(X, "feed_margin", allow_inf=True)
         # A row's own rule set may ask another modulus ratio (``modulus_target``, as
-        # ``tracker.assess``'s modulus_required_ratio: 0.96 under ductile iron's pressure
+        # ``tracker.design.assess``'s modulus_required_ratio: 0.96 under ductile iron's pressure
         # control, 0 where no riser is needed); the freezing target scales with it.
         mod_t = np.full(len(mod), float(self.modulus_target))
         for name in ("modulus_target", "modulus_required_ratio"):

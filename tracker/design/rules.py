@@ -27,7 +27,7 @@ import math
 import numpy as np
 
 from tracker import units
-from tracker.alloys import CaineConstants
+from tracker.design.alloys import CaineConstants
 from tracker.errors import BadInput
 
 DEFAULT_MODULUS_FACTOR = 1.2

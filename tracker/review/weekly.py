@@ -36,7 +36,7 @@ A pattern is a *problem* when any of these holds (``problem_reasons``):
 ``signal:beyond_limit`` / ``signal:run_of_8`` — its weekly p-chart over the
 window (centre = the pattern's pooled rate over the window, NIST/SEMATECH
 e-Handbook 6.3.3.2; exact binomial probability limits for each week's castings
-inspected; the rules of :func:`tracker.stats.p_chart`) signals in the
+inspected; the rules of :func:`tracker.review.stats.p_chart`) signals in the
 review week or the week before at a point above the centre (a low-side
 signal means fewer rejects: reported in ``signal_rules`` but not a problem);
 ``shrinkage_above_target`` — the Wilson lower bound of its shrinkage reject
@@ -49,7 +49,7 @@ of the review week's end, however long ago it took effect: a change stays
 under judgement until it has a verdict. Lots
 poured under the previous revision (at most ``weeks`` weeks before the change)
 are compared with lots poured from the change to the review week's end (or to
-the next revision) by :func:`tracker.stats.compare_rates` (Fisher's exact
+the next revision) by :func:`tracker.review.stats.compare_rates` (Fisher's exact
 test) on shrinkage rejects in the zones of the risers that changed.
 """
 
@@ -63,10 +63,11 @@ import math
 import numpy as np
 import pandas as pd
 
-from tracker import limits, stats, units
+from tracker import limits, units
+from tracker.review import stats
 from tracker.cautions import SAFETY_CAUTION
-from tracker.settings import currency
-from tracker.store import Store
+from tracker.log.settings import currency
+from tracker.log.store import Store
 
 SHRINKAGE = "shrinkage"
 LATEST_WEEKS = 2          # the review week and the one before
@@ -246,10 +247,10 @@ def _nested(pattern: np.ndarray, key: np.ndarray, quantity: np.ndarray, n_patter
 def p_charts(rejected: np.ndarray, inspected: np.ndarray) -> dict[str, np.ndarray]:
     """Weekly p-charts of many patterns at once: one row per pattern, one column per week.
 
-    The same rules as :func:`tracker.stats.p_chart`, array-wise: centre
+    The same rules as :func:`tracker.review.stats.p_chart`, array-wise: centre
     p̄ = Σk / Σn of the row (NIST/SEMATECH e-Handbook 6.3.3.2), exact binomial
     probability limits for each week's own n (0.135 % of Binomial(nᵢ, p̄)
-    beyond each, :func:`tracker.stats.probability_limits`); "beyond" a count
+    beyond each, :func:`tracker.review.stats.probability_limits`); "beyond" a count
     above the upper limit or below the lower; "run" a point in 8 or more
     consecutive points on one side of the centre (a point on the centre breaks
     a run, a week with nothing inspected is skipped). Returns arrays ``p``,
@@ -887,7 +888,7 @@ def compare_plants(store: Store, alloy: str, week: str | None = None, weeks: int
     window and the review week, scrap cost, problem patterns) and ``caution``.
     A plant that poured none of the alloy in the window has zeros and None rates.
     """
-    from tracker.alloys import ALLOYS
+    from tracker.design.alloys import ALLOYS
     from tracker.errors import UnknownAlloy
 
     if alloy not in ALLOYS:

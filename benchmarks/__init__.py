@@ -1,0 +1,1 @@
+"""Benchmarks, apart from the tests and outside the installed package."""
