@@ -269,7 +269,7 @@ def generate_history(out_dir, lots: int = DEFAULT_LOTS, seed: int = SEED) -> dic
     patterns = pd.DataFrame({
         "pattern": codes,
         "description": [f"{WORDS[w]} {s}" for w, s in zip(rng.integers(0, len(WORDS), n_pat),
-                                                           rng.integers(2, 60, n_pat) * 10)],
+                                                           rng.integers(2, 60, n_pat) * 10, strict=False)],
         "alloy": np.array(ALLOY_KEYS)[alloy], "casting_weight_kg": kg, "castings_per_mold": cpm,
         "metal_cost_per_kg": np.array(METAL_COST)[alloy],
         "processing_cost_per_casting": np.round(fixed + per_kg * kg, 2)})
@@ -545,9 +545,9 @@ def _plans(store, calls) -> list[dict]:
 def _c_review(db: str, week: str, weeks: int, repeats: int, extras: bool = False) -> dict:
     """The review of ``weeks`` weeks against its floor, paired run by run (median of
     ``repeats``). ``extras``: also the old single-aggregate baseline and the query plans."""
+    from tracker.log.store import Store
     from tracker.review import stats
     from tracker.review.weekly import revision_probes, weekly_review
-    from tracker.log.store import Store
 
     monday = stats.week_start(week)
     # the span the review reads: its weeks and the week before them (for "what changed")
@@ -593,7 +593,7 @@ def _c_review(db: str, week: str, weeks: int, repeats: int, extras: bool = False
             agg_first, agg = _timed(store.rejects_by_pattern, wk_start, wk_end)
             agg_runs = [_timed(store.rejects_by_pattern, wk_start, wk_end)[0] for _ in range(repeats)]
             got = {p["pattern"]: p["rejected"] for p in review["patterns"] if p["rejected"] and weeks == 1}
-            want = {p: int(q) for p, q in zip(agg["pattern"], agg["rejected"]) if q}
+            want = {p: int(q) for p, q in zip(agg["pattern"], agg["rejected"], strict=False) if q}
             out["aggregate_s"] = statistics.median(agg_runs)
             out["aggregate_ratio"] = out["ours_s"] / out["aggregate_s"] if out["aggregate_s"] else None
             out["aggregate_note"] = ("the old baseline, for information: one SQL aggregate of the week's "
@@ -633,7 +633,7 @@ def _c_sizing(n: int, seed: int, repeats: int) -> dict:
 
     def baseline():
         return np.array([size_riser(float(v), float(s), str(a), str(p), float(h), float(k)).diameter_mm
-                         for a, v, s, p, h, k in zip(alloys, vol, area, placement, hd, f)])
+                         for a, v, s, p, h, k in zip(alloys, vol, area, placement, hd, f, strict=False)])
 
     ours()  # warm-up (imports, first allocation)
     runs = []

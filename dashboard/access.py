@@ -16,8 +16,8 @@ import os
 
 import streamlit as st
 
-from tracker.log import accounts as auth
 from tracker.errors import SessionExpired, SignInRefused
+from tracker.log import accounts as auth
 from tracker.log.store import Store
 
 _KEY = "pourback_session"

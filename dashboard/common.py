@@ -23,9 +23,10 @@ START_COMMANDS = "pourback demo"
 
 # The library calls a page may load (cached). Each takes an open Store first.
 def _registry() -> dict:
-    from tracker.advice import suggest as advise, features
-    from tracker.review import weekly as review
+    from tracker.advice import features
+    from tracker.advice import suggest as advise
     from tracker.log import settings
+    from tracker.review import weekly as review
 
     return {
         "start_state": views.start_state,

@@ -40,7 +40,7 @@ def main() -> None:
                            min_value=first, max_value=last, format="YYYY-MM-DD", key="period")
     opts = common.load("pattern_options")
     opts = opts[opts["alloy"] == alloy]
-    labels = dict(zip(opts["pattern"], opts["label"]))
+    labels = dict(zip(opts["pattern"], opts["label"], strict=False))
     patterns = st.multiselect("Patterns (none picked = all of this alloy)", list(labels),
                               format_func=labels.get, key="patterns")
     start, end = (period if isinstance(period, (tuple, list)) and len(period) == 2 else (first, last))

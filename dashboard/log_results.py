@@ -107,7 +107,7 @@ def record_form(state: dict) -> None:
         st.caption("No lots in the log yet: import patterns, zones, sleeves, risers and lots below, "
                    "then record their inspection results here.")
         return
-    labels = dict(zip(lots["lot"], lots["label"]))
+    labels = dict(zip(lots["lot"], lots["label"], strict=False))
     with st.container(border=True):
         c1, c2 = st.columns([3, 1])
         lot = c1.selectbox("Lot (newest first; type to search)", list(labels), format_func=labels.get,

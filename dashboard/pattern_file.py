@@ -20,7 +20,7 @@ def main() -> None:
         return
     flagged = common.flagged_patterns()
     labels = {code: label + (" · flagged" if code in flagged else "")
-              for code, label in zip(opts["pattern"], opts["label"])}
+              for code, label in zip(opts["pattern"], opts["label"], strict=False)}
     # the pattern asked for in the address (?pattern=P-1031), else the first one the review flags
     wanted = st.query_params.get("pattern")
     first = next((p for p in flagged if p in labels), None)

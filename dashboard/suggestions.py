@@ -5,8 +5,8 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboard import access, charts, common, thermal_view
-from tracker.advice import suggest as advise
 from tracker import units, views
+from tracker.advice import suggest as advise
 from tracker.design.assess import rule_words
 
 NUMBER = st.column_config.NumberColumn
@@ -92,8 +92,8 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
     if risers.empty:
         st.info("No risers in the log yet.")
         return
-    keys = list(zip(risers["pattern"], risers["riser"]))
-    labels = dict(zip(keys, risers["label"]))
+    keys = list(zip(risers["pattern"], risers["riser"], strict=False))
+    labels = dict(zip(keys, risers["label"], strict=False))
     first = next(((s["pattern"], s["riser"]) for s in found if s.get("riser")), keys[0])
     c1, c2, c3 = st.columns([2, 1, 1])
     key = c1.selectbox("Riser", keys, index=keys.index(first) if first in keys else 0,
@@ -102,7 +102,7 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
     sleeves = common.load("sleeve_options", system=system)  # smallest first
     sleeve_labels = {KEEP: "keep as it is" + (f" ({row['sleeve']})" if isinstance(row["sleeve"], str) else
                                               " (no sleeve)"),
-                     BARE: "no sleeve (bare riser)", **dict(zip(sleeves["sleeve"], sleeves["label"]))}
+                     BARE: "no sleeve (bare riser)", **dict(zip(sleeves["sleeve"], sleeves["label"], strict=False))}
     # the typed diameter is kept per unit system: a number typed in inches is never read as mm
     sleeve_key, dia_key = f"whatif_sleeve_{key[0]}_{key[1]}", f"whatif_dia_{'us_' if system == units.US else ''}{key[0]}_{key[1]}"
     sleeve = c2.selectbox("Sleeve (smallest first)", list(sleeve_labels), format_func=sleeve_labels.get,
@@ -191,7 +191,7 @@ def _money_metrics(result: dict) -> None:
             ("Yearly balance", "yearly_balance", "scrap saved less extra riser metal and sleeves" + unit)]
     for pair in (rows[:2], rows[2:]):
         c = st.columns(2)
-        for col, (label, key, note) in zip(c, pair):
+        for col, (label, key, note) in zip(c, pair, strict=False):
             delta = None
             if key == "yearly_balance" and result["changed"]:
                 delta = "pays off" if result["pays_off"] else "does not pay off"

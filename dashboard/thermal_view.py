@@ -56,7 +56,7 @@ def pattern_section(code: str) -> None:
                         status=f"Solving the thermal check of each riser of {code} (a few seconds per riser)")
     labels = [f"{v['riser']} on {v['zone']} ({'pass' if v['summary']['thermal_ok'] else 'fail'})" for v in views]
     tabs = st.tabs(labels)
-    for tab, v in zip(tabs, views):
+    for tab, v in zip(tabs, views, strict=False):
         with tab:
             show(v, f"thermal_{v['riser']}")
 

@@ -6,11 +6,11 @@ import pandas as pd
 import pytest
 from scipy.optimize import brentq
 
-from tracker.design import geometry
 from tracker.advice.suggest import suggest, what_if
-from tracker.design.alloys import get_alloy
 from tracker.cli import main
 from tracker.demo import story
+from tracker.design import geometry
+from tracker.design.alloys import get_alloy
 
 KEYS = ["pattern", "zone", "riser", "action", "current_diameter_mm", "suggested_diameter_mm", "suggested_sleeve",
         "reject_rate", "predicted_rate_after", "added_metal_kg_per_mold", "yield_before", "yield_after", "reason"]

@@ -4,11 +4,11 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from tracker.design.assess import assess_frame
-from tracker.review.riser_check import check
 from tracker.cli import main
-from tracker.log.ingest import import_file
+from tracker.design.assess import assess_frame
 from tracker.design.sizing import size_riser
+from tracker.log.ingest import import_file
+from tracker.review.riser_check import check
 
 
 def _write(path, header, rows):

@@ -6,15 +6,14 @@ import datetime as dt
 import pytest
 from argon2 import PasswordHasher
 from argon2.low_level import Type, hash_secret_raw, verify_secret
-
-from tracker.log import accounts as auth
-from tracker.errors import AccountLocked, BadInput, PermissionDenied, SessionExpired, SignInRefused
-from tracker.log.ingest import correct_inspection, import_dir, import_file, log_inspection
-
 from conftest import GOOD
 
+from tracker.errors import AccountLocked, BadInput, PermissionDenied, SessionExpired, SignInRefused
+from tracker.log import accounts as auth
+from tracker.log.ingest import correct_inspection, import_dir, import_file, log_inspection
+
 PASSWORD = "bench tablet seven"  # 18 characters
-T0 = dt.datetime(2026, 12, 2, 6, 0, tzinfo=dt.timezone.utc)
+T0 = dt.datetime(2026, 12, 2, 6, 0, tzinfo=dt.UTC)
 
 
 @pytest.fixture

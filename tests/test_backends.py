@@ -15,10 +15,10 @@ import pytest
 
 from tests.conftest import SAMPLE, LogFactory
 from tracker.cli import main
-from tracker.review.copycheck import CopyMismatch, copy_log
 from tracker.errors import PourbackError
 from tracker.log.ingest import import_dir, log_inspection
 from tracker.log.store import LogLocked, Store, display_name
+from tracker.review.copycheck import CopyMismatch, copy_log
 
 
 @pytest.fixture
@@ -227,7 +227,7 @@ def test_an_insert_the_database_refuses_rolls_the_whole_write_back(logs):
 
     with Store(logs.new()) as s:
         import_dir(s, GOOD)
-        row = dict(zip(TABLE_COLUMNS["inspections"][1:], next(s.iter_rows("inspections"))[0]))
+        row = dict(zip(TABLE_COLUMNS["inspections"][1:], next(s.iter_rows("inspections"))[0], strict=False))
         good = tuple({**row, "record_key": "test:good"}.values())
         orphan = tuple({**row, "record_key": "test:orphan", "lot": "NO-SUCH-LOT"}.values())
         before = s.snapshot()
@@ -251,8 +251,8 @@ def test_an_insert_the_database_refuses_rolls_the_whole_write_back(logs):
 
 @pytest.mark.slow
 def test_bench_runs_on_postgresql(tmp_path):
-    from tests.conftest import pg_server
     from benchmarks import scale as bench
+    from tests.conftest import pg_server
 
     report = bench.run(400, sizing_risers=10, repeats=1, dashboard=False, backend="postgresql",
                        pg_url=pg_server())
@@ -281,10 +281,10 @@ def test_review_days_equal_the_aggregates_with_rejects_in_group_order(demo_store
     # Reference: Store.pours_by_day, rejects_by_day and pattern_costs on the same log.
     want_pours = demo_store.pours_by_day(*span, columns=True)
     want_rejects = demo_store.rejects_by_day(*span, columns=True)
-    got = list(zip(*rejects.values()))
+    got = list(zip(*rejects.values(), strict=False))
     assert got and got == sorted(got, key=_none_first)
-    assert sorted(got, key=_none_first) == sorted(zip(*want_rejects.values()), key=_none_first)
-    assert sorted(zip(*pours.values())) == sorted(zip(*want_pours.values()))
+    assert sorted(got, key=_none_first) == sorted(zip(*want_rejects.values(), strict=False), key=_none_first)
+    assert sorted(zip(*pours.values(), strict=False)) == sorted(zip(*want_pours.values(), strict=False))
     assert costs == demo_store.pattern_costs(want_pours["pattern"])
 
 

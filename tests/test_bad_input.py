@@ -24,13 +24,12 @@ import shutil
 
 import openpyxl
 import pytest
+from conftest import BACKENDS, LogFactory
 
 from tracker.cli import main
 from tracker.errors import BadFile
 from tracker.log.ingest import import_dir, import_file
 from tracker.log.store import Store
-
-from conftest import BACKENDS, LogFactory
 
 GOOD = pathlib.Path(__file__).parent / "data" / "good"
 TODAY = dt.date(2026, 6, 1)

@@ -8,9 +8,8 @@ POURBACK_REQUIRE_BROWSER=1 (CI sets it), when it fails instead.
 """
 
 import pytest
+from browser_kit import browser, choose, full_screenshot, lot_with_room, server, settle, sync_playwright  # noqa: F401
 
-from browser_kit import (browser, choose, full_screenshot, lot_with_room, server, settle,  # noqa: F401
-                         sync_playwright)
 from tracker.cautions import SAFETY_CAUTION
 
 pytestmark = pytest.mark.browser

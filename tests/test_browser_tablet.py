@@ -12,9 +12,7 @@ import re
 import urllib.parse
 
 import pytest
-
-from browser_kit import (ARTIFACTS, browser, lot_with_room, server, settle, sync_playwright,  # noqa: F401
-                         visit)
+from browser_kit import ARTIFACTS, browser, lot_with_room, server, settle, sync_playwright, visit  # noqa: F401
 from browser_kit import full_screenshot as _full_screenshot
 
 pytestmark = pytest.mark.browser
@@ -126,9 +124,9 @@ def test_one_reject_from_a_fresh_form_in_8_fields_and_12_clicks(browser, server)
 
 
 def test_html_report_tables_fit_a_tablet(browser, app_demo_file, tmp_path):
+    from tracker.log.store import Store
     from tracker.review.report import render
     from tracker.review.weekly import weekly_review
-    from tracker.log.store import Store
 
     with Store(app_demo_file) as s:
         page = tmp_path / "review.html"

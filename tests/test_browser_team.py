@@ -18,11 +18,19 @@ import time
 import urllib.request
 
 import pytest
+from browser_kit import (  # noqa: F401 - the fixtures
+    browser,
+    choose,
+    free_port,
+    full_screenshot,
+    lot_with_room,
+    running_dashboard,
+    settle,
+    sync_playwright,
+)
 
-from browser_kit import browser, sync_playwright  # noqa: F401 - the fixtures
-from browser_kit import choose, free_port, full_screenshot, lot_with_room, running_dashboard, settle
-from tracker.log import accounts as auth
 from tracker.errors import PermissionDenied
+from tracker.log import accounts as auth
 from tracker.log.ingest import log_inspection
 from tracker.log.store import Store
 

@@ -12,9 +12,8 @@ Skipped without /usr/bin/chromium or playwright, unless POURBACK_REQUIRE_BROWSER
 import re
 
 import pytest
+from browser_kit import browser, full_screenshot, served_copy, settle, sync_playwright, visit  # noqa: F401 - the fixtures
 
-from browser_kit import browser, sync_playwright  # noqa: F401 - the fixtures
-from browser_kit import full_screenshot, served_copy, settle, visit
 from tracker.log import settings
 from tracker.log.store import Store
 

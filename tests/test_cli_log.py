@@ -1,9 +1,8 @@
 import json
-import shutil
 
 import pytest
-
 from conftest import GOOD
+
 from tracker.cli import main
 from tracker.log.store import SCHEMA_VERSION, Store
 

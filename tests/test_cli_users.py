@@ -6,8 +6,8 @@ import json
 import pytest
 from argon2 import PasswordHasher
 
-from tracker.log import accounts as auth
 from tracker.cli import main
+from tracker.log import accounts as auth
 from tracker.log.store import Store
 
 PASSWORD = "shift two at the bench"
@@ -103,7 +103,7 @@ def test_audit_since_keeps_later_entries(runner, db):
 
     assert add(runner, db, "early", "reviewer").exit_code == 0
     with Store(db) as s:
-        auth.sign_in(s, "early", PASSWORD, now=dt.datetime(2030, 1, 2, 7, 0, tzinfo=dt.timezone.utc))
+        auth.sign_in(s, "early", PASSWORD, now=dt.datetime(2030, 1, 2, 7, 0, tzinfo=dt.UTC))
     res = runner.invoke(main, ["audit", "--since", "2030-01-01", "--db", str(db)])
     assert res.exit_code == 0, res.output
     lines = res.output.splitlines()

@@ -55,7 +55,7 @@ def test_superseded_record_stays_readable_with_who_when_why(store):
     assert old["corrected_by"] == "QE-B"
     assert old["correction_why"] == "recount at the bench"
     when = dt.datetime.fromisoformat(old["corrected_at"])
-    assert abs((dt.datetime.now(dt.timezone.utc) - when).total_seconds()) < 120
+    assert abs((dt.datetime.now(dt.UTC) - when).total_seconds()) < 120
     rec = hist.loc[new]
     assert rec["supersedes"] == store.xray_id
     assert rec["quantity"] == 3

@@ -44,7 +44,7 @@ def big(tmp_path_factory):
     lots = rng.integers(0, LOTS, ROWS)
     reject = rng.random(ROWS) < 0.05
     lines = [HEADER]
-    for i, (lot, rej) in enumerate(zip(lots, reject)):
+    for i, (lot, rej) in enumerate(zip(lots, reject, strict=False)):
         if rej:
             lines.append(f"B{lot:02d},2026-01-12,visual,1,reject,sand,,,,S{i},QE-{i % 7},")
         else:

@@ -462,8 +462,8 @@ def test_what_if_bigger_riser_and_sleeve_with_money(app_demo_db, monkeypatch):
 # --- errors and user text ---------------------------------------------------------------------------
 
 def test_a_library_error_is_one_message_not_a_traceback(app_db, monkeypatch):
-    from tracker.review import weekly as review
     from tracker.errors import PourbackError
+    from tracker.review import weekly as review
 
     def broken(*args, **kwargs):
         raise PourbackError("the log is locked by another writer; try again in a moment")
@@ -498,7 +498,7 @@ def test_design_map_counts_failing_designs_in_use_only(app_demo_db, monkeypatch)
         start, end = at.date_input(key="period").value
         frame = design_map(s, start=start.isoformat(), end=end.isoformat(), alloy="steel")
     frame = frame.dropna(subset=["volume_ratio", "freezing_ratio"])
-    in_use = frame[[current.get(p) == str(r) for p, r in zip(frame["pattern"], frame["revision"])]]
+    in_use = frame[[current.get(p) == str(r) for p, r in zip(frame["pattern"], frame["revision"], strict=False)]]
     # the resized riser's old revision (P-1031 revision 1) fails a rule but is superseded
     old = frame[(frame["pattern"] == "P-1031") & (frame["revision"].astype(str) == "1")]
     assert len(old) and not old["passes"].astype(bool).all()
@@ -506,7 +506,7 @@ def test_design_map_counts_failing_designs_in_use_only(app_demo_db, monkeypatch)
     el = at.get("vega_lite_chart")[0]
     dots = next(l for l in layers(json.loads(el.proto.spec)) if mark(l) == "circle")
     points = chart_data(el, dots)
-    designs = dict(zip(zip(points["pattern"], points["revision"].astype(str)), points["design"]))
+    designs = dict(zip(zip(points["pattern"], points["revision"].astype(str), strict=False), points["design"], strict=False))
     assert designs[("P-1031", "1")] == "superseded by a later revision"
     for code in set(points["pattern"]) & set(problems):
         assert designs[next(k for k in designs if k[0] == code and current.get(code) == k[1])] == \

@@ -15,9 +15,10 @@ import re
 
 import pytest
 from streamlit.testing.v1 import AppTest
-
 from test_dashboard import chart_data, layers, mark
-from tracker.log import accounts as auth, settings
+
+from tracker.log import accounts as auth
+from tracker.log import settings
 from tracker.log.store import Store
 
 APP = pathlib.Path(__file__).resolve().parent.parent / "dashboard" / "app.py"
@@ -251,7 +252,7 @@ def test_thermal_view_in_inches_and_fahrenheit(app_demo_db, monkeypatch):
     assert metric_units_left(us) == []
     us_maps, si_maps = _cells(us), _cells(si)
     assert len(us_maps) == len(si_maps) > 0
-    for (spec, cells), (_, metric_cells) in zip(us_maps, si_maps):
+    for (spec, cells), (_, metric_cells) in zip(us_maps, si_maps, strict=False):
         titles = _spec_titles(spec)
         assert any(t.endswith("(in) from the riser's axis") or "x (in) along" in t for t in titles), titles
         assert "z (in), height" in titles

@@ -16,11 +16,11 @@ import pandas as pd
 import pytest
 from scipy import stats as sps
 
-from tracker.review import stats
 from tracker.log import store as store_module
 from tracker.log.ingest import correct_inspection, import_dir, import_file, log_inspection
-from tracker.review.weekly import weekly_review
 from tracker.log.store import Store
+from tracker.review import stats
+from tracker.review.weekly import weekly_review
 
 TODAY = dt.date(2027, 3, 1)
 FIRST_DAY = dt.date(2024, 1, 1)
@@ -152,7 +152,7 @@ def _changed_zones(store: Store) -> dict[tuple[str, str], list[str]]:
     out = {}
     for pattern, g in risers.groupby("pattern"):
         revs = g.drop_duplicates("revision").sort_values(["effective_from", "revision"])["revision"].tolist()
-        for prev, rev in zip(revs, revs[1:]):
+        for prev, rev in zip(revs, revs[1:], strict=False):
             old = g[g["revision"] == prev].set_index("riser")[fields]
             new = g[g["revision"] == rev].set_index("riser")[fields]
             zones = set()

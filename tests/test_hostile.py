@@ -23,9 +23,9 @@ import openpyxl
 import pytest
 
 from tracker.cli import main
+from tracker.csvsafe import csv_bytes, safe_cell
 from tracker.errors import BadFile, BadInput, DiskFull, LogReadOnly
 from tracker.log.ingest import correct_inspection, import_dir, import_file, log_inspection
-from tracker.csvsafe import csv_bytes, safe_cell
 from tracker.log.store import Store, restore
 
 GOOD = pathlib.Path(__file__).parent / "data" / "good"

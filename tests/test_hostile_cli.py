@@ -15,13 +15,17 @@ import time
 import urllib.request
 
 import pytest
+from test_hostile import (  # noqa: F401  (read_only is a fixture)
+    GOOD,
+    TODAY,
+    db,  # noqa: F401  (a fixture)
+    read_only,
+    snap,
+)
 
 from tracker.cli import cmd_app, main
-from tracker.log.store import Store
-
-from test_hostile import GOOD, TODAY, read_only, snap  # noqa: F401  (read_only is a fixture)
-from test_hostile import db  # noqa: F401  (a fixture)
 from tracker.log.ingest import import_dir
+from tracker.log.store import Store
 
 LOG_ARGS = ["--lot", "L3", "--method", "ut", "--quantity", "1", "--result", "accept",
             "--inspected-on", "2026-03-06"]

@@ -6,9 +6,9 @@ message, and the pages' table downloads go through the formula guard.
 import shutil
 
 import pytest
-
 from test_dashboard import _lot_with_room, _upload, open_page, snapshot, texts
 from test_hostile import read_only  # noqa: F401  (a fixture)
+
 from tracker.log.store import Store
 
 
@@ -16,7 +16,6 @@ from tracker.log.store import Store
                                   "suggestions.py"])
 def test_a_deleted_log_is_named_and_never_created_again(tmp_path, monkeypatch, page):
     from streamlit.testing.v1 import AppTest
-
     from test_dashboard import APP
 
     missing = tmp_path / "gone.db"

@@ -15,8 +15,16 @@ from sklearn.base import clone
 from sklearn.exceptions import NotFittedError
 from sklearn.metrics import log_loss
 
+from tracker.advice.model import (
+    BLOB_MAGIC,
+    MARGIN_COLUMNS,
+    IncompatibleModel,
+    MissingColumn,
+    ShrinkageRejectModel,
+    cross_validate,
+    weighted_log_loss,
+)
 from tracker.errors import BadRow
-from tracker.advice.model import (BLOB_MAGIC, MARGIN_COLUMNS, IncompatibleModel, MissingColumn, ShrinkageRejectModel, cross_validate, weighted_log_loss)
 
 ALLOYS = ["steel", "aluminum", "gray_iron", "ductile_iron", "cast_iron_brass",
           "aluminum_bronze", "silicon_bronze"]

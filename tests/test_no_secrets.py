@@ -10,8 +10,8 @@ import pathlib
 
 import pytest
 
-from tracker.log import accounts as auth
 from tracker.cli import main
+from tracker.log import accounts as auth
 from tracker.log.store import Store
 
 RIGHT = "foundry night shift 42"

@@ -16,8 +16,8 @@ from tests.conftest import GOOD, SAMPLE
 from tracker.cli import main
 from tracker.errors import BadFile, NotFound
 from tracker.log.ingest import import_dir, import_file
-from tracker.review.weekly import compare_plants, weekly_review
 from tracker.log.store import Store
+from tracker.review.weekly import compare_plants, weekly_review
 
 WEEK, WEEKS = "2026-W47", 13
 WINDOW = ("2026-08-24", "2026-11-22")  # ISO weeks 2026-W35 to W47 (ISO 8601 calendar)
@@ -147,7 +147,7 @@ def test_dashboard_plant_picker_and_plants_side_by_side(plant_log, monkeypatch):
     assert list(table["plant"]) == ["NORTH", "SOUTH"]
     alloy = at.selectbox(key="compare_alloy").value
     week = at.selectbox(key="week").value
-    for plant, inspected in zip(table["plant"], table["castings inspected"]):
+    for plant, inspected in zip(table["plant"], table["castings inspected"], strict=False):
         # Reference: pandas sums over the import files (the window is the 13 weeks up to the picked week).
         if week == WEEK:
             assert inspected == _expected(folder, plant, alloy)[0]

@@ -64,12 +64,11 @@ def test_quick_steps_and_hidden_steps_print_nothing():
 
 def test_a_failed_step_clears_its_line():
     out = io.StringIO()
-    with pytest.raises(ValueError):
-        with Steps(True, out) as steps:
-            steps.DELAY_S = 0.0
-            steps.step("Failing")
-            time.sleep(0.3)
-            raise ValueError("x")
+    with pytest.raises(ValueError), Steps(True, out) as steps:
+        steps.DELAY_S = 0.0
+        steps.step("Failing")
+        time.sleep(0.3)
+        raise ValueError("x")
     assert out.getvalue().endswith("\r\x1b[K")
 
 

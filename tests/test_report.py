@@ -11,14 +11,14 @@ import re
 
 import pytest
 
-from tracker.review import stats
 from tracker.cautions import SAFETY_CAUTION, SAFETY_CAUTION_SHORT
+from tracker.csvsafe import safe_cell
 from tracker.errors import BadInput
 from tracker.log.ingest import import_dir
-from tracker.review.report import ALERT, FORMATS, render
-from tracker.csvsafe import safe_cell
-from tracker.review.weekly import weekly_review
 from tracker.log.store import Store
+from tracker.review import stats
+from tracker.review.report import ALERT, FORMATS, render
+from tracker.review.weekly import weekly_review
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 TODAY = dt.date(2027, 1, 31)
@@ -163,7 +163,7 @@ def test_html_pchart_marks_signalled_weeks(hostile_review):
     charts = re.findall(r"<svg.*?</svg>", page, flags=re.S)
     pcharts = [c for c in charts if "p-chart" in c]
     assert len(pcharts) == 3
-    for p, chart in zip([p for p in hostile_review["patterns"] if p["problem"]], pcharts):
+    for p, chart in zip([p for p in hostile_review["patterns"] if p["problem"]], pcharts, strict=False):
         signalled = sum(pt["signal"] for pt in p["pchart"])
         high = sum(pt["signal"] and pt["p"] > pt["centre"] for pt in p["pchart"])
         assert p["pchart"][-1]["signal"] and high == 1 and signalled > high  # the spike, and a low run

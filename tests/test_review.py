@@ -18,11 +18,11 @@ import pytest
 from scipy import stats as sps
 from statsmodels.stats.proportion import proportion_confint
 
-from tracker.review import stats
 from tracker.errors import BadInput
 from tracker.log.ingest import correct_inspection, import_dir, log_inspection
-from tracker.review.weekly import PATTERN_KEYS, p_charts, problem_patterns, weekly_review
 from tracker.log.store import Store
+from tracker.review import stats
+from tracker.review.weekly import PATTERN_KEYS, p_charts, problem_patterns, weekly_review
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 GOOD = ROOT / "tests" / "data" / "good"

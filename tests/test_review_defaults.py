@@ -18,8 +18,8 @@ from tracker.advice.suggest import review_window
 from tracker.cli import main
 from tracker.errors import BadInput
 from tracker.log.ingest import import_dir
-from tracker.review.weekly import default_week, weekly_review
 from tracker.log.store import Store
+from tracker.review.weekly import default_week, weekly_review
 
 
 def iso(d: dt.date) -> str:

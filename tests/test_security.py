@@ -10,9 +10,9 @@ import shutil
 import pytest
 
 from tracker.cli import main
+from tracker.csvsafe import safe_cell
 from tracker.errors import NotFound
 from tracker.log.ingest import import_dir, log_inspection
-from tracker.csvsafe import safe_cell
 from tracker.log.store import Store
 
 GOOD = pathlib.Path(__file__).parent / "data" / "good"
@@ -80,7 +80,7 @@ def hostile(tmp_path):
         for line in old[1:]:
             w.writerow(line.split(","))
         for r in table[1:]:
-            rec = dict(zip(table[0], r))
+            rec = dict(zip(table[0], r, strict=False))
             w.writerow([rec.get(c, "") for c in header])
         (d / f"{kind}.csv").write_text(buf.getvalue(), encoding="utf-8")
     return d

@@ -112,7 +112,7 @@ def test_margins_grow_with_diameter(d1, d2, alloy, placement):
         return (mr / mc, rules.caine_margin(mr / mc, vr / vc, al.caine),
                 rules.feed_margin(vr, vc, al.shrinkage, al.bare_efficiency))
 
-    for m_lo, m_hi in zip(margins(lo), margins(hi)):
+    for m_lo, m_hi in zip(margins(lo), margins(hi), strict=False):
         assert m_hi >= m_lo
 
 

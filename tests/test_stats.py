@@ -15,9 +15,8 @@ from statsmodels.stats.proportion import (
     proportion_confint,
 )
 
-from tracker.review import stats
 from tracker.errors import BadInput
-
+from tracker.review import stats
 
 # --- Wilson interval ------------------------------------------------------------
 
@@ -102,7 +101,7 @@ def test_p_chart_limits_are_exact_binomial_probability_limits():
     chart = stats.p_chart(WORKED_K, WORKED_N)
     # NIST/SEMATECH e-Handbook 6.3.3.2: p̄ = Σ defectives / Σ inspected
     pbar = sum(WORKED_K) / sum(WORKED_N)
-    for i, (k, n) in enumerate(zip(WORKED_K, WORKED_N)):
+    for i, (k, n) in enumerate(zip(WORKED_K, WORKED_N, strict=False)):
         low, high = _exact_limits(n, pbar)
         assert chart["centre"][i] == pytest.approx(pbar, rel=1e-12)
         assert chart["p"][i] == pytest.approx(k / n, rel=1e-12)
@@ -396,7 +395,7 @@ def test_compare_rates_many_gives_scipys_fisher_p_values_exactly():
     extra = np.array(TABLES + [(5, 10, 5, 10), (0, 50, 0, 70), (9, 9, 9, 9), (3, 7, 6, 14), (2, 2000, 1, 1000)])
     kb, nb, ka, na = (np.concatenate([x, extra[:, j]]) for j, x in enumerate((kb, nb, ka, na)))
     many = stats.compare_rates_many(kb, nb, ka, na)
-    for row, *t in zip(many, kb.tolist(), nb.tolist(), ka.tolist(), na.tolist()):
+    for row, *t in zip(many, kb.tolist(), nb.tolist(), ka.tolist(), na.tolist(), strict=False):
         k1, n1, k2, n2 = t
         # scipy.stats.fisher_exact, two-sided: the same number, not merely close
         assert row["p_value"] == sps.fisher_exact([[k1, n1 - k1], [k2, n2 - k2]]).pvalue, t

@@ -15,12 +15,13 @@ import numpy as np
 import pytest
 from scipy import optimize
 
-from tracker.design import geometry, rules
 from tracker.cli import main
-from tracker.errors import BadInput
-from tracker.design.sizing import caine_min_diameter_cm
+from tracker.design import geometry, rules
 from tracker.design.alloys import ALLOYS
-from tracker.thermal import JSON_KEYS, ThermalCase, notes_text, properties as P, run
+from tracker.design.sizing import caine_min_diameter_cm
+from tracker.errors import BadInput
+from tracker.thermal import JSON_KEYS, ThermalCase, notes_text, run
+from tracker.thermal import properties as P
 from tracker.thermal.mesh import _axis, build
 from tracker.thermal.solver import FIXED, MOULD, SECTION, SLEEVE, Grid, PhaseCurve, solve
 

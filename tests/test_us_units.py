@@ -12,10 +12,10 @@ import pytest
 from click.testing import CliRunner
 
 from tests.conftest import GOOD, SAMPLE
-from tracker.design import geometry
 from tracker import units
-from tracker.design.alloys import get_alloy
 from tracker.cli import main
+from tracker.design import geometry
+from tracker.design.alloys import get_alloy
 from tracker.log.ingest import import_dir
 from tracker.log.store import Store
 
@@ -230,8 +230,8 @@ def test_us_import_gives_the_same_log_as_its_metric_twin(tmp_path, src):
     for kind in a:
         assert list(a[kind].columns) == list(b[kind].columns), kind
         assert len(a[kind]) == len(b[kind]) > 0, kind
-        for row_a, row_b in zip(a[kind].itertuples(index=False), b[kind].itertuples(index=False)):
-            for col, x, y in zip(a[kind].columns, row_a, row_b):
+        for row_a, row_b in zip(a[kind].itertuples(index=False), b[kind].itertuples(index=False), strict=False):
+            for col, x, y in zip(a[kind].columns, row_a, row_b, strict=False):
                 if isinstance(x, float) and not pd.isna(x):
                     # floats agree to 1e-9 relative (pint there, tracker.units back)
                     assert y == pytest.approx(x, rel=1e-9), (kind, col)

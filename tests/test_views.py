@@ -12,13 +12,12 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
+from conftest import BACKENDS, GOOD, LogFactory
 
 from tracker import views
 from tracker.errors import BadFile, NotFound
 from tracker.log.ingest import import_dir, import_file, log_inspection
 from tracker.log.store import Store
-
-from conftest import BACKENDS, GOOD, LogFactory
 
 
 @pytest.fixture(scope="module", params=BACKENDS)
@@ -45,8 +44,8 @@ def good_read(good_log):
 # --- data version ---------------------------------------------------------------------
 
 def test_db_version_changes_on_write_only(file_store):
-    from tracker.log.ingest import import_dir
     from tests.conftest import GOOD
+    from tracker.log.ingest import import_dir
 
     path = file_store.path
     first = views.db_version(path)
@@ -393,8 +392,8 @@ def test_what_if_margins():
 
 @pytest.fixture(scope="module")
 def review(demo_db):
-    from tracker.review.weekly import weekly_review
     from tracker.log.store import Store
+    from tracker.review.weekly import weekly_review
 
     with Store(demo_db) as s:
         return weekly_review(s, week="2026-W47", weeks=13, target=0.02)
@@ -487,8 +486,8 @@ def test_signal_and_reason_words():
 def test_verdict_in_plain_words_first_with_the_statistics_apart(app_demo_db):
     from scipy import stats as sps
 
-    from tracker.review.weekly import weekly_review
     from tracker.log.store import Store
+    from tracker.review.weekly import weekly_review
 
     with Store(app_demo_db) as s:
         rev = next(r for r in weekly_review(s, "2026-W47")["revisions"] if r["pattern"] == "P-1031")

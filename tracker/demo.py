@@ -773,7 +773,7 @@ def _inspections(rng: np.random.Generator, sc: _Scenario, lots: list[dict]) -> l
                          "inspector": radiographer if method == "xray" else inspector,
                          "notes": "first-off approved" if rng.random() < 0.02 else None})
         serials = iter(rng.permutation(n) + 1)
-        for (defect, z), c in zip(cats, counts[:-1]):
+        for (defect, z), c in zip(cats, counts[:-1], strict=False):
             for _ in range(int(c)):
                 result = "rework" if rng.random() < REWORK_SHARE[defect] else "reject"
                 method = _method(rng, p.alloy, defect)

@@ -19,8 +19,8 @@ same name carries the customary suffix (``diameter_in``, ``volume_in3``,
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable
 
 from tracker.errors import BadInput
 

@@ -14,8 +14,8 @@ import numpy as np
 import pandas as pd
 
 from tracker.design.assess import assess_frame
-from tracker.review.stats import wilson_interval
 from tracker.log.store import Store
+from tracker.review.stats import wilson_interval
 
 MARGIN_COLS = ["modulus_ratio", "caine_margin", "feed_margin", "volume_ratio", "freezing_ratio"]
 FEATURE_COLUMNS = [
@@ -143,7 +143,7 @@ def _lot_arrays(store: Store, patterns: list[str]) -> dict[str, np.ndarray]:
     ``castings`` and ``pour_temp_c`` (NaN where unknown)."""
     parts: dict[str, list] = {k: [] for k in ("lot", "pattern", "day", "castings", "pour_temp_c")}
     for batch in store.lot_batches():
-        lot, pattern, day, castings, temp = zip(*batch)
+        lot, pattern, day, castings, temp = zip(*batch, strict=False)
         del batch
         parts["lot"].append(np.array(lot, dtype=object))
         parts["pattern"].append(pd.Categorical(pattern, categories=patterns).codes.astype(np.int64))

@@ -40,7 +40,7 @@ import io
 import json
 import math
 import pickle
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from numbers import Real
 
 import numpy as np
@@ -53,8 +53,8 @@ from sklearn.model_selection import GroupKFold
 from sklearn.utils.validation import check_array, check_is_fitted, check_scalar
 
 from tracker import __version__ as _POURBACK_VERSION
-from tracker.errors import BadInput, BadRow, IncompatibleModel, MissingColumn, PourbackError  # noqa: F401 (re-exported)
 from tracker.design.rules import DEFAULT_MODULUS_FACTOR
+from tracker.errors import BadInput, BadRow, IncompatibleModel, MissingColumn, PourbackError  # noqa: F401 (re-exported)
 
 SHORTFALL_TERMS = ("modulus_shortfall", "freezing_shortfall", "caine_shortfall", "feed_shortfall")
 NUMERIC_TERMS = ("pour_temp_dev_10c", "log2_thickness")
@@ -363,7 +363,7 @@ class ShrinkageRejectModel(BaseEstimator):
         self.n_rows_ = int(len(X))
         self.n_castings_ = int(total)
         self.n_rejects_ = int(rejects.sum())
-        self.fitted_on_ = datetime.now(timezone.utc).isoformat(timespec="seconds")
+        self.fitted_on_ = datetime.now(UTC).isoformat(timespec="seconds")
         self.data_until_ = None
         if "poured_on" in X.columns:
             dates = pd.to_datetime(X["poured_on"], errors="coerce")

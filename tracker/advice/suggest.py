@@ -54,15 +54,15 @@ import numpy as np
 import pandas as pd
 
 from tracker import limits, units
-from tracker.design import rules
-from tracker.design.assess import assess_frame, revision_in_effect, rule_words
-from tracker.cautions import SAFETY_CAUTION
-from tracker.errors import BadInput, NotFound
 from tracker.advice.features import fit_table, weakest_margins, zone_lot_features
 from tracker.advice.model import ShrinkageRejectModel
+from tracker.cautions import SAFETY_CAUTION
+from tracker.design import rules
+from tracker.design.assess import assess_frame, revision_in_effect, rule_words
 from tracker.design.sizing import neck_needed_mm, size_risers
-from tracker.review.stats import week_start, wilson_interval
+from tracker.errors import BadInput, NotFound
 from tracker.log.store import Store
+from tracker.review.stats import week_start, wilson_interval
 from tracker.thermal import checks as thermal_checks
 
 ACTIONS = ("enlarge", "sleeve", "enlarge_and_sleeve", "neck", "no_riser_change")
@@ -322,7 +322,7 @@ def _neck_needed_mm(alloys, mc_cm, now_mm=None) -> np.ndarray:
     1.1 · M_section, or inside 0.5-0.8 · M_section under pressure control),
     in 5 mm steps; NaN where the present neck ``now_mm`` meets it."""
     now = [None] * len(alloys) if now_mm is None else [None if v != v else float(v) for v in now_mm]
-    need = [neck_needed_mm(a, m, n) for a, m, n in zip(alloys, np.asarray(mc_cm, dtype=float), now)]
+    need = [neck_needed_mm(a, m, n) for a, m, n in zip(alloys, np.asarray(mc_cm, dtype=float), now, strict=False)]
     return _round_up(np.array([np.nan if v is None else v for v in need], dtype=float), NECK_STEP_MM)
 
 
@@ -352,7 +352,7 @@ def _enlarge_candidates(bases: pd.DataFrame, step_mm: float, with_model: bool) -
     mould = b["mould"].map(rules.check_mould) if "mould" in b else pd.Series(rules.check_mould(None), b.index)
     # one call per alloy, mould and shrinkage: the feed rule takes one shrinkage per call
     shrink = b["shrinkage"].astype(float)
-    for alloy, mo, beta in set(zip(b["alloy"], mould, shrink)):
+    for alloy, mo, beta in set(zip(b["alloy"], mould, shrink, strict=False)):
         m = ((b["alloy"] == alloy) & (mould == mo) & (shrink == beta)).to_numpy()
         need[m] = size_risers(b["volume_cm3"].to_numpy(float)[m] / share[m],
                               b["cooling_area_cm2"].to_numpy(float)[m] / share[m], alloy,
@@ -661,9 +661,9 @@ def _pattern_text(pat: str, defects: pd.DataFrame, zones: pd.DataFrame, poured: 
     if dominant != "shrinkage":
         return (f"no riser change: {top} of {total} rejects are {dominant}, not shrinkage; "
                 f"{DEFECT_POINTERS.get(dominant, '')}")
-    mix = ", ".join(f"{d} {int(q)}" for d, q in zip(defects["defect"], defects["quantity"]))
+    mix = ", ".join(f"{d} {int(q)}" for d, q in zip(defects["defect"], defects["quantity"], strict=False))
     zoned = ", ".join(f"{zn} {r / c:.1%}" for zn, r, c in
-                      zip(zones["zone"], zones["shrinkage_rejects"], zones["castings"]) if c)
+                      zip(zones["zone"], zones["shrinkage_rejects"], zones["castings"], strict=False) if c)
     return (f"no riser change: no zone's shrinkage rate is above the target {target:.1%} "
             f"(by zone: {zoned or 'no shrinkage reject logged with a zone'}); the rejects are "
             f"mixed ({mix}). Log the zone on each shrinkage reject so it can be traced to a riser")
@@ -805,7 +805,7 @@ def _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge,
                                                           system=system)
     chosen = _choose(priced) if len(priced) else priced.assign(_cand=[], tier=[])
     ctx = {"win": win, "designs": designs, "money": money.to_dict("index"), "target": target, "start": start,
-           "end": end, "alloy": dict(zip(pats["pattern"], pats["alloy"])), "rate_now": rate_now.to_dict(),
+           "end": end, "alloy": dict(zip(pats["pattern"], pats["alloy"], strict=False)), "rate_now": rate_now.to_dict(),
            "current": designs["current"].to_dict(), "chosen": chosen.to_dict("index"),
            "defects": _groups(win["defects"], "pattern"), "zone_stats": _groups(win["zones"], ["pattern", "revision"]),
            "zones": _groups(zones, "pattern"), "priced": _records_by(priced.reset_index(), "_z"),
@@ -858,7 +858,7 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
     base, now = ctx["designs"]["risers"].loc[z["primary"]], ctx["designs"]["judged"].loc[z["primary"]]
     lo, hi = wilson_interval(int(z["shrinkage_rejects"]), int(z["castings"]))
     zone_j = ctx["risers_by_zone"][(z["pattern"], z["zone"])]
-    siblings = [r for i, r, ok in zip(zone_j.index, zone_j["riser"], zone_j["full_ok"])
+    siblings = [r for i, r, ok in zip(zone_j.index, zone_j["riser"], zone_j["full_ok"], strict=False)
                 if i != z["primary"] and not ok]
     common = {**_empty_fields(), **base_out, "zone": z["zone"], "riser": base["riser"], "rule_set": now["rule_set"],
               "zone_castings": int(z["castings"]), "shrinkage_rejects": int(z["shrinkage_rejects"]),

@@ -19,11 +19,10 @@ import click
 import numpy as np
 
 from tracker import __version__, limits, units
-from tracker.design.alloys import ALLOYS
 from tracker.cautions import SAFETY_CAUTION_SHORT
-from tracker.errors import PourbackError
 from tracker.cli.steps import Steps, terminal  # noqa: F401 (Steps is used by the commands)
-
+from tracker.design.alloys import ALLOYS
+from tracker.errors import PourbackError
 
 # --- output -----------------------------------------------------------------------
 
@@ -63,7 +62,7 @@ def table(rows: list[dict], columns: list[tuple[str, str]] | None = None) -> str
     heads = [h for _, h in columns]
     widths = [max(len(h), *(len(c[i]) for c in cells)) for i, h in enumerate(heads)]
     line = lambda vals: "  ".join(v.rjust(w) if _numeric(v) else v.ljust(w)  # noqa: E731
-                                  for v, w in zip(vals, widths)).rstrip()
+                                  for v, w in zip(vals, widths, strict=False)).rstrip()
     out = [line(heads), "  ".join("-" * w for w in widths)]
     out += [line(c) for c in cells]
     return "\n".join(out)
@@ -284,14 +283,16 @@ def open_store(db_path, create: bool = False):
 
 
 # Command groups register themselves on ``main`` when imported.
-from tracker.cli import cmd_design  # noqa: E402,F401
-from tracker.cli import cmd_review  # noqa: E402,F401
-from tracker.cli import cmd_log  # noqa: E402,F401
-from tracker.cli import cmd_app  # noqa: E402,F401
-from tracker.cli import cmd_advise  # noqa: E402,F401
-from tracker.cli import cmd_copy  # noqa: E402,F401
-from tracker.cli import cmd_thermal  # noqa: E402,F401
-from tracker.cli import cmd_users  # noqa: E402,F401
+from tracker.cli import (
+    cmd_advise,  # noqa: E402,F401
+    cmd_app,  # noqa: E402,F401
+    cmd_copy,  # noqa: E402,F401
+    cmd_design,  # noqa: E402,F401
+    cmd_log,  # noqa: E402,F401
+    cmd_review,  # noqa: E402,F401
+    cmd_thermal,  # noqa: E402,F401
+    cmd_users,  # noqa: E402,F401
+)
 
 if __name__ == "__main__":  # pragma: no cover
     main(prog_name="pourback")

@@ -4,12 +4,28 @@ from __future__ import annotations
 
 import click
 
-from tracker.log.settings import DEFAULT_CURRENCY, currency
-
 from tracker import units
-from tracker.cli import (Steps, caution_text, db_option, emit, handle_errors, json_option, main, measure_option,
-                         open_store, plant_option, resolve_units, show_progress, table, take_measures, target_option,
-                         units_option, week_option, weeks_option)
+from tracker.cli import (
+    Steps,
+    caution_text,
+    db_option,
+    emit,
+    handle_errors,
+    json_option,
+    main,
+    measure_option,
+    open_store,
+    plant_option,
+    resolve_units,
+    show_progress,
+    table,
+    take_measures,
+    target_option,
+    units_option,
+    week_option,
+    weeks_option,
+)
+from tracker.log.settings import DEFAULT_CURRENCY, currency
 
 
 def _pct(v, digits: int = 1) -> str | None:
@@ -219,9 +235,9 @@ def fit_model(alpha, folds, db_path, as_json):
 
         pourback fit-model
     """
-    from tracker.advice.suggest import fit_model as fit
     from tracker.advice.features import fit_table
     from tracker.advice.model import ShrinkageRejectModel, cross_validate
+    from tracker.advice.suggest import fit_model as fit
 
     with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
         steps.step("Reading the lots and rejects")

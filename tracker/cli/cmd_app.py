@@ -14,9 +14,9 @@ import tempfile
 import click
 
 import tracker
-from tracker.log import accounts as auth
 from tracker.cli import db_option, emit, handle_errors, json_option, main
 from tracker.errors import PourbackError
+from tracker.log import accounts as auth
 
 DEFAULT_DEMO_DB = "pourback-demo.db"
 DEFAULT_PORT = 8501

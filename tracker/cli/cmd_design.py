@@ -6,11 +6,23 @@ import contextlib
 
 import click
 
-from tracker.design.alloys import ALLOYS
-from tracker.cautions import SAFETY_CAUTION
 from tracker import units
-from tracker.cli import (caution_text, db_option, emit, handle_errors, json_option, main, measure_option,
-                         open_store, resolve_units, table, take_measures, units_option)
+from tracker.cautions import SAFETY_CAUTION
+from tracker.cli import (
+    caution_text,
+    db_option,
+    emit,
+    handle_errors,
+    json_option,
+    main,
+    measure_option,
+    open_store,
+    resolve_units,
+    table,
+    take_measures,
+    units_option,
+)
+from tracker.design.alloys import ALLOYS
 
 SIZE_MEASURES = ("volume_cm3", "area_cm2", "pour_temp_c", "thickness_mm", "width_mm", "length_mm", "step_mm")
 
@@ -196,7 +208,7 @@ def _format_size(d: dict, system: str = units.METRIC) -> str:
     out.append("")
     out.append(f"Smallest diameter by rule ({u('diameter_mm')}):")
     digits = _SIZE_DIGITS["diameter_mm"][system == units.US]
-    for (k, val), key in zip(mins, ("caine", "modulus", "feed_volume")):
+    for (k, val), key in zip(mins, ("caine", "modulus", "feed_volume"), strict=False):
         val = "not applied (no Caine constants for this alloy)" if val is None else f"{val:.{digits}f}"
         mark = "  <- governs" if key == d["governing_rule"] else ""
         out.append(f"  {k:<{w - 2}}  {val}{mark}")

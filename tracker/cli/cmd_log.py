@@ -9,8 +9,17 @@ import pathlib
 
 import click
 
-from tracker.cli import (db_option, emit, handle_errors, json_option, main, open_store, progress_bar, show_progress,
-                         table)
+from tracker.cli import (
+    db_option,
+    emit,
+    handle_errors,
+    json_option,
+    main,
+    open_store,
+    progress_bar,
+    show_progress,
+    table,
+)
 from tracker.log.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES
 
 MAX_RECORD_ID = 2**63 - 1  # SQLite's largest integer
@@ -316,7 +325,8 @@ def restore(backup_file, db_path):
 
         pourback restore backups/pourback-2026-12-01.db --db restored.db
     """
-    from tracker.log.store import is_url, resolve_path, restore as do_restore
+    from tracker.log.store import is_url, resolve_path
+    from tracker.log.store import restore as do_restore
 
     target = resolve_path(db_path)
     if is_url(target):

@@ -6,8 +6,21 @@ import pathlib
 
 import click
 
-from tracker.cli import (Steps, db_option, emit, handle_errors, main, open_store, plant_option, resolve_units,
-                          show_progress, target_option, units_option, week_option, weeks_option)
+from tracker.cli import (
+    Steps,
+    db_option,
+    emit,
+    handle_errors,
+    main,
+    open_store,
+    plant_option,
+    resolve_units,
+    show_progress,
+    target_option,
+    units_option,
+    week_option,
+    weeks_option,
+)
 from tracker.review.report import FORMATS
 
 
@@ -49,7 +62,8 @@ def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, a
     fmt = "json" if as_json else (fmt or "table")
 
     from tracker.review.report import render, render_plants
-    from tracker.review.weekly import compare_plants as compare, in_system, weekly_review
+    from tracker.review.weekly import compare_plants as compare
+    from tracker.review.weekly import in_system, weekly_review
 
     with Steps(show_progress(fmt == "json")) as steps:
         with open_store(db_path) as store:

@@ -4,10 +4,21 @@ from __future__ import annotations
 
 import click
 
-from tracker.design.alloys import ALLOYS
 from tracker import units
-from tracker.cli import (caution_text, db_option, emit, handle_errors, json_option, main, measure_option, open_store,
-                         resolve_units, take_measures, units_option)
+from tracker.cli import (
+    caution_text,
+    db_option,
+    emit,
+    handle_errors,
+    json_option,
+    main,
+    measure_option,
+    open_store,
+    resolve_units,
+    take_measures,
+    units_option,
+)
+from tracker.design.alloys import ALLOYS
 from tracker.errors import BadInput
 
 _EXPLICIT = ("alloy", "length_mm", "width_mm", "thickness_mm", "diameter_mm", "height_mm", "placement")

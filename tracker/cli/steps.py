@@ -41,7 +41,7 @@ class Steps:
         self._thread = None
         self._lock = None
 
-    def __enter__(self) -> "Steps":
+    def __enter__(self) -> Steps:
         if self.show:
             self._lock = threading.Lock()
             self._stop = threading.Event()

@@ -11,8 +11,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from tracker.design import geometry, rules
 from tracker import units
+from tracker.design import geometry, rules
 from tracker.design.alloys import ALLOYS, CaineConstants
 
 RESULT_COLUMNS = [

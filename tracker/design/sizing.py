@@ -17,8 +17,8 @@ from dataclasses import asdict, dataclass, replace
 
 import numpy as np
 
-from tracker.design import geometry, rules
 from tracker import units
+from tracker.design import geometry, rules
 from tracker.design.alloys import RULE_SETS, Alloy, get_alloy
 from tracker.errors import BadInput
 from tracker.limits import POUR_TEMP_RANGE_C, RANGES

@@ -25,8 +25,15 @@ from dataclasses import dataclass, field
 from argon2 import PasswordHasher
 from argon2.exceptions import InvalidHashError, VerificationError, VerifyMismatchError
 
-from tracker.errors import (AccountLocked, BadInput, NotFound, PermissionDenied, PourbackError,
-                            SessionExpired, SignInRefused)
+from tracker.errors import (
+    AccountLocked,
+    BadInput,
+    NotFound,
+    PermissionDenied,
+    PourbackError,
+    SessionExpired,
+    SignInRefused,
+)
 
 # --- roles ---------------------------------------------------------------------------
 
@@ -98,16 +105,16 @@ class Session:
 
 
 def _now() -> dt.datetime:
-    return dt.datetime.now(dt.timezone.utc)
+    return dt.datetime.now(dt.UTC)
 
 
 def _iso(t: dt.datetime) -> str:
-    return t.astimezone(dt.timezone.utc).isoformat(timespec="seconds")
+    return t.astimezone(dt.UTC).isoformat(timespec="seconds")
 
 
 def _parse(s: str) -> dt.datetime:
     t = dt.datetime.fromisoformat(s)
-    return t if t.tzinfo else t.replace(tzinfo=dt.timezone.utc)
+    return t if t.tzinfo else t.replace(tzinfo=dt.UTC)
 
 
 def _sha(token: str) -> str:

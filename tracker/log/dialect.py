@@ -28,7 +28,7 @@ import subprocess
 import threading
 import time
 import urllib.parse
-from typing import Callable, Iterable, Iterator
+from collections.abc import Callable, Iterable, Iterator
 
 from tracker.errors import DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog, PourbackError
 
@@ -67,7 +67,7 @@ def display_name(target) -> str:
     return urllib.parse.urlunsplit((parts.scheme, netloc, parts.path, query, parts.fragment))
 
 
-def for_target(target: str, create: bool, on_wait: Callable[[str], None] | None = None) -> "SQLite | PostgreSQL":
+def for_target(target: str, create: bool, on_wait: Callable[[str], None] | None = None) -> SQLite | PostgreSQL:
     """The dialect of ``target`` (a path or a URL), connected. ``on_wait`` is
     called with a message when a write has waited a second for another writer."""
     cls = PostgreSQL if is_url(target) else SQLite

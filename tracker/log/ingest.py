@@ -22,17 +22,17 @@ import pathlib
 import re
 import unicodedata
 import uuid
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
-from typing import Callable, Iterator
 
 import numpy as np
 import pandas as pd
 
-from tracker.log import accounts as auth
-from tracker.design import geometry
 from tracker import units
+from tracker.design import geometry
 from tracker.errors import BadFile, BadRecord, BadRow, cut
 from tracker.limits import EARLIEST_DATE, POUR_TEMP_RANGE_C, RANGES, latest_date
+from tracker.log import accounts as auth
 from tracker.log.store import DEFAULT_PLANT_KEY, KEYS, TABLE_COLUMNS, Store, retrying
 
 KINDS = ("patterns", "zones", "sleeves", "risers", "lots", "inspections")  # dependency order
@@ -730,7 +730,7 @@ def _log_spelling(values: pd.Series, patterns: list, known: dict) -> pd.Series:
                 folded.setdefault((q, fold(y)), y)
         return folded.get((p, fold(z)), z)
 
-    out = [z if not z or (p, z) in known else stored(p, z) for p, z in zip(patterns, values.tolist())]
+    out = [z if not z or (p, z) in known else stored(p, z) for p, z in zip(patterns, values.tolist(), strict=False)]
     return pd.Series(out, index=values.index, dtype=object)
 
 
@@ -809,7 +809,7 @@ class _Importer:
         self.today = today
         self.by = by
         self.result = result
-        self.now = dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds")
+        self.now = dt.datetime.now(dt.UTC).isoformat(timespec="seconds")
         # inspections: occurrence counting of identical rows across chunks (old keys)
         self._seen_digests = np.zeros(0, dtype=np.uint64)
         self._seen_counts = np.zeros(0, dtype=np.int64)
@@ -856,7 +856,7 @@ class _Importer:
         plant = self._plant(c)
         return [(p, d, a, w, int(n) if n == n else n, m, _float_or_none(q), _none(ml), f or None)
                 for p, d, a, w, n, m, q, ml, f in zip(pattern, desc, alloy, weight, per_mold, cost, proc, mould,
-                                                       plant)]
+                                                       plant, strict=False)]
 
     def _plant(self, c: _Checks) -> pd.Series:
         """The plant column: a short code; empty takes the log's default plant
@@ -903,7 +903,7 @@ class _Importer:
                 f"{self.file}, row {int(c.rows[i])}, zone {zone.iloc[i]}: "
                 + geometry.joined_faces_warning(float(vol.iloc[i]), float(area.iloc[i]), msys))
         return [(p, z, v, a, _float_or_none(t), _float_or_none(ln), _int_or_none(lv), _float_or_none(w))
-                for p, z, v, a, t, ln, lv, w in zip(pattern, zone, vol, area, thick, length, level, width)]
+                for p, z, v, a, t, ln, lv, w in zip(pattern, zone, vol, area, thick, length, level, width, strict=False)]
 
     def _sleeves(self, c: _Checks) -> list[tuple]:
         sleeve = c.text("sleeve", max_len=64)
@@ -914,7 +914,7 @@ class _Importer:
         eps = c.number("feeding_efficiency", low=0, high=1.0, unit="(a fraction, 0.30 = 30 %)")
         cost = c.measure("unit_cost", required=False)
         return [(s, k, d, hh, ff, e, _float_or_none(u))
-                for s, k, d, hh, ff, e, u in zip(sleeve, kind, dia, h, f, eps, cost)]
+                for s, k, d, hh, ff, e, u in zip(sleeve, kind, dia, h, f, eps, cost, strict=False)]
 
     def _risers(self, c: _Checks) -> list[tuple]:
         pattern = c.text("pattern", max_len=64)
@@ -938,9 +938,9 @@ class _Importer:
                "a neck is only given for a side riser")
         self._known_patterns(c, pattern)
         zones = self.store.zone_levels()
-        keys = list(zip(pattern, zone))
+        keys = list(zip(pattern, zone, strict=False))
         zone = _log_spelling(zone, pattern.tolist(), zones)
-        keys = list(zip(pattern, zone))
+        keys = list(zip(pattern, zone, strict=False))
         c.fail(c.ok("pattern", "zone") & np.array([k not in zones for k in keys], dtype=bool), "zone",
                lambda i: f"got {zone.iloc[i]!r}; pattern {pattern.iloc[i]} has no such zone; "
                          f"{_zones_text(zones, pattern.iloc[i])}; import it in zones.csv first")
@@ -950,7 +950,7 @@ class _Importer:
         c.fail(has_sleeve & ~known, "sleeve", "unknown sleeve; import it in sleeves.csv first")
         if sleeves is not None:
             inner = np.array([sleeves.at[s, "inner_diameter_mm"] if k else np.nan
-                              for s, k in zip(sleeve, known)], dtype=float)
+                              for s, k in zip(sleeve, known, strict=False)], dtype=float)
             dsys = c.system("diameter_mm")
             c.fail(has_sleeve & known & (np.abs(dia.to_numpy() - inner) > 1.0), "diameter_mm",
                    lambda i: f"got {units.value_in('diameter_mm', dia.iloc[i], dsys):g}; sleeve {sleeve.iloc[i]} "
@@ -958,9 +958,9 @@ class _Importer:
                              f"{units.symbol('diameter_mm', dsys)}; the riser diameter is the sleeve's")
         rows = [(p, r, rs, z, pl, t, d, hh, _none(s), _float_or_none(n))
                 for p, r, rs, z, pl, t, d, hh, s, n in
-                zip(pattern, revision, riser, zone, placement, top, dia, h, sleeve, neck)]
+                zip(pattern, revision, riser, zone, placement, top, dia, h, sleeve, neck, strict=False)]
         # Revisions: one effective date each, all risers listed once, never changed once stored.
-        for i, (p, r, e) in enumerate(zip(pattern, revision, eff)):
+        for i, (p, r, e) in enumerate(zip(pattern, revision, eff, strict=False)):
             if c.bad[i]:
                 continue
             rev = self._revisions_in_file.setdefault((p, r), {"effective_from": e, "rows": [],
@@ -1015,7 +1015,7 @@ class _Importer:
         temp = c.number("pour_temp_c", required=False, low=lo, low_inclusive=True, high=hi, unit="°C")
         self._known_patterns(c, pattern)
         return [(lt, p, d, h, int(m) if m == m else m, _float_or_none(t))
-                for lt, p, d, h, m, t in zip(lot, pattern, poured, heat, molds, temp)]
+                for lt, p, d, h, m, t in zip(lot, pattern, poured, heat, molds, temp, strict=False)]
 
     def _inspections(self, c: _Checks) -> list[tuple]:
         lot = c.text("lot", max_len=64)
@@ -1054,23 +1054,23 @@ class _Importer:
         lot_l, zone_l = lot.tolist(), zone.tolist()  # plain lists: iterating a Series is slow
         known = np.array([x in info for x in lot_l], dtype=bool)  # Series.isin is slow on many values
         c.fail((lot != "") & ~known, "lot", "unknown lot; import it in lots.csv first or check the code")
-        poured = np.array([info[x]["poured_on"] if k else "" for x, k in zip(lot_l, known)], dtype=object)
+        poured = np.array([info[x]["poured_on"] if k else "" for x, k in zip(lot_l, known, strict=False)], dtype=object)
         c.fail(c.ok("inspected_on") & known & (on != "") & (on.to_numpy() < poured), "inspected_on",
                lambda i: f"got {on.iloc[i]!r}; lot {lot.iloc[i]} was poured on {poured[i]}; "
                          "a casting is inspected after it is poured")
-        pattern = np.array([info[x]["pattern"] if k else "" for x, k in zip(lot_l, known)], dtype=object)
+        pattern = np.array([info[x]["pattern"] if k else "" for x, k in zip(lot_l, known, strict=False)], dtype=object)
         if self._levels is None:  # zones are not written while an inspections file is
             self._levels = self.store.zone_levels()
         levels = self._levels
         zone = _log_spelling(zone, pattern.tolist(), levels)
         zone_l = zone.tolist()
         has_zone = (zone != "").to_numpy()
-        zone_known = np.array([(p, z) in levels for p, z in zip(pattern, zone_l)], dtype=bool)
+        zone_known = np.array([(p, z) in levels for p, z in zip(pattern, zone_l, strict=False)], dtype=bool)
         c.fail(known & has_zone & ~zone_known, "zone",
                lambda i: f"got {zone.iloc[i]!r}; pattern {pattern[i]} has no such zone; "
                          f"{_zones_text(levels, pattern[i])}",
                form=None)
-        level = np.array([levels.get((p, z)) if zk else None for p, z, zk in zip(pattern, zone_l, zone_known)],
+        level = np.array([levels.get((p, z)) if zk else None for p, z, zk in zip(pattern, zone_l, zone_known, strict=False)],
                          dtype=float)
         sev_a = sev.to_numpy(dtype=float)
         graded = cat.isin(GRADED_CATEGORIES).to_numpy() & ~np.isnan(sev_a) & ~np.isnan(level)
@@ -1090,7 +1090,7 @@ class _Importer:
         self._check_lot_totals(c, lot, method, result, qty, known, new, info)
         self.already_present = present
         fixed = (self.now, self.by, self.file, None, 0, None)
-        return list(zip(*columns, keys, *(itertools.repeat(v, len(keys)) for v in fixed)))
+        return list(zip(*columns, keys, *(itertools.repeat(v, len(keys)) for v in fixed), strict=False))
 
     def _record_keys(self, c: _Checks, rid: pd.Series, columns: list, canon: list) -> tuple[list, np.ndarray]:
         """Each row's record key and whether it is already present.
@@ -1126,7 +1126,7 @@ class _Importer:
                     continue
                 if not _same(earlier, content):
                     cols = TABLE_COLUMNS["inspections"][1:13]
-                    diff = [col for col, a, b in zip(cols, earlier, content) if not _same_value(a, b)]
+                    diff = [col for col, a, b in zip(cols, earlier, content, strict=False) if not _same_value(a, b)]
                     c.fail(np.arange(len(keys)) == i, "record_id",
                            f"record {rid_l[i]} is {where} with other {', '.join(diff)}; a record is "
                            "imported once: correct the stored one with `pourback correct`")
@@ -1143,10 +1143,10 @@ class _Importer:
         lot, on, method, qty, result, defect, zone, cat, sev, serial, inspector, notes = canon
         canon = [lot, on, method, qty.fillna(0).astype(np.int64).astype(str), result, defect, zone, cat,
                  sev.fillna(0).astype(np.int64).astype(str).replace("0", ""), serial, inspector, notes]
-        joined = ["\x1f".join(t) for t in zip(*(col.tolist() for col in canon))]
+        joined = ["\x1f".join(t) for t in zip(*(col.tolist() for col in canon), strict=False)]
         digests = [hashlib.sha1(s.encode("utf-8")).hexdigest() for s in joined]
         occurrence = self._occurrences(np.array([int(d[:16], 16) for d in digests], dtype=np.uint64))
-        return [f"{d}:{n}" for d, n in zip(digests, occurrence)]
+        return [f"{d}:{n}" for d, n in zip(digests, occurrence, strict=False)]
 
     def _occurrences(self, d: np.ndarray) -> np.ndarray:
         """For each digest, how many identical rows came before it in this file."""
@@ -1205,7 +1205,7 @@ class _Importer:
         if fresh:
             stored = {} if self._log_was_empty else self.store.lot_totals(fresh, exclude=self.exclude)
             base = len(self._lot_index)
-            self._lot_index.update(zip(fresh, range(base, base + len(fresh))))
+            self._lot_index.update(zip(fresh, range(base, base + len(fresh)), strict=False))
             add = np.zeros((len(fresh), 1 + len(METHODS)), dtype=np.int64)
             cast = np.fromiter((info[x]["castings"] for x in fresh), dtype=np.int64, count=len(fresh))
             for x, t in stored.items():
@@ -1252,16 +1252,16 @@ def _compare_existing(store: Store, kind: str, rows: list[tuple], c: _Checks) ->
     cols = TABLE_COLUMNS[kind]
     key_idx = [cols.index(k) for k in KEYS[kind]]
     keys = [tuple(r[i] for i in key_idx) for r in rows]
-    stored = store.existing(kind, [k for k, b in zip(keys, c.bad) if not b])
+    stored = store.existing(kind, [k for k, b in zip(keys, c.bad, strict=False) if not b])
     skip = np.zeros(len(rows), dtype=bool)
-    for i, (k, r) in enumerate(zip(keys, rows)):
+    for i, (k, r) in enumerate(zip(keys, rows, strict=False)):
         if c.bad[i] or k not in stored:
             continue
         old = stored[k]
         if _same(old, r):
             skip[i] = True
         else:
-            diff = [col for col, a, b in zip(cols, old, r) if not _same_value(a, b)]
+            diff = [col for col, a, b in zip(cols, old, r, strict=False) if not _same_value(a, b)]
             c.fail(np.arange(len(rows)) == i, KEYS[kind][-1],
                    f"{' / '.join(map(str, k))} is stored already with other {', '.join(diff)}; a key "
                    "is imported once (change the key for a new item)")
@@ -1277,7 +1277,7 @@ def _same_value(a, b) -> bool:
 
 
 def _same(a: tuple, b: tuple) -> bool:
-    return len(a) == len(b) and all(_same_value(x, y) for x, y in zip(a, b))
+    return len(a) == len(b) and all(_same_value(x, y) for x, y in zip(a, b, strict=False))
 
 
 # --- public entry points ----------------------------------------------------------
@@ -1356,7 +1356,7 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
                 results.append(result)
             auth.note_write(store, "import", "; ".join(f"{r.kind} {r.file}: {r.added} added" for r in results))
             # The refused rows' reports are complete before the good rows are committed.
-            for report, result in zip(reports, results):
+            for report, result in zip(reports, results, strict=False):
                 result.refused_file = report.publish()
         return results
     except BaseException:
@@ -1444,7 +1444,7 @@ def _import_one(store: Store, kind: str, path: pathlib.Path, *, skip_bad, by, to
             skip = _compare_existing(store, kind, rows, c) & ~c.bad
             _repeated_keys(kind, rows, c, skip)
         c.finish()
-        good = [r for r, b, sk in zip(rows, c.bad, skip) if not b and not sk]
+        good = [r for r, b, sk in zip(rows, c.bad, skip, strict=False) if not b and not sk]
         if kind in LOOKALIKE_CODES:
             _warn_lookalikes(store, kind, rows, c, skip, result, imp.codes_seen)
         result.skipped += int((skip & ~c.bad).sum())

@@ -25,13 +25,14 @@ import hashlib
 import os
 import pathlib
 import sqlite3
-from typing import Callable, Iterable, Iterator
+from collections.abc import Callable, Iterable, Iterator
 
 import pandas as pd
 
+from tracker.design.alloys import ALLOYS
+from tracker.errors import DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog, NotFound, PourbackError  # noqa: F401
 from tracker.log import accounts as auth
 from tracker.log import dialect as dialects
-from tracker.design.alloys import ALLOYS
 from tracker.log.dialect import (  # noqa: F401 (re-exported: callers use store.py only)
     BUSY_TIMEOUT_MS,
     data_version,
@@ -42,8 +43,6 @@ from tracker.log.dialect import (  # noqa: F401 (re-exported: callers use store.
     new_schema,
     with_schema,
 )
-from tracker.errors import (DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog,  # noqa: F401
-                            NotFound, PourbackError)
 
 DEFAULT_DB = "pourback.db"
 ENV_DB = "POURBACK_DB"
@@ -111,7 +110,7 @@ def absolute_target(path: str | os.PathLike | None = None) -> str:
 # ``db.execute`` (a :class:`_Schema`), which maps the column types to the
 # dialect's (INTEGER PRIMARY KEY, REAL, BLOB, TEXT) and ``?`` to its placeholder.
 
-def _migration_1(db: "_Schema") -> None:
+def _migration_1(db: _Schema) -> None:
     db.execute("""
         CREATE TABLE alloys (
             alloy TEXT PRIMARY KEY NOT NULL, name TEXT, shrinkage REAL NOT NULL,
@@ -189,11 +188,11 @@ def _migration_1(db: "_Schema") -> None:
                     c.a if c else None, c.b if c else None, c.c if c else None, a.source))
 
 
-def _migration_2(db: "_Schema") -> None:
+def _migration_2(db: _Schema) -> None:
     db.execute("CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT)")
 
 
-def _migration_3(db: "_Schema") -> None:
+def _migration_3(db: _Schema) -> None:
     # Indexes for the review's queries on a large log (checked with EXPLAIN QUERY PLAN
     # by ``python -m benchmarks.scale``). Lots by pour date carry pattern, lot and molds, so
     # a window's lots are read from the index alone (and come grouped by day and pattern).
@@ -210,7 +209,7 @@ def _migration_3(db: "_Schema") -> None:
 _LEGACY_KEY = "substr(record_key, 41, 1) = ':'"
 
 
-def _migration_4(db: "_Schema") -> None:
+def _migration_4(db: _Schema) -> None:
     # Inspection rows were keyed by their content and its occurrence in the file, so an
     # identical row in a second file was taken as "already present" and lost. From now on
     # a row is keyed by the file it came from (its content digest) and its row number, or
@@ -233,7 +232,7 @@ def _migration_4(db: "_Schema") -> None:
         db.execute("INSERT INTO meta (key, value) VALUES ('legacy_keys', '1')")
 
 
-def _migration_5(db: "_Schema") -> None:
+def _migration_5(db: _Schema) -> None:
     # Accounts, dashboard sessions and the audit of who did what (tracker/auth.py).
     # A password is kept only as its Argon2id hash; a session only as the SHA-256
     # of its token.
@@ -266,7 +265,7 @@ def _migration_5(db: "_Schema") -> None:
     db.execute("CREATE INDEX sessions_user ON sessions(user)")
 
 
-def _migration_6(db: "_Schema") -> None:
+def _migration_6(db: _Schema) -> None:
     # The mould a pattern is moulded in (green_sand or rigid; empty = green sand): ductile
     # iron's pressure-control rules depend on it. A zone's width, for the feeding-distance
     # rules of bars and plates (width over thickness).
@@ -274,13 +273,13 @@ def _migration_6(db: "_Schema") -> None:
     db.execute("ALTER TABLE zones ADD COLUMN width_mm REAL")
 
 
-def _migration_7(db: "_Schema") -> None:
+def _migration_7(db: _Schema) -> None:
     # A new lot code that differs from a stored one only by case ("l26-0412" beside
     # "L26-0412") is imported with a warning: found through this index, not a scan.
     db.execute("CREATE INDEX lots_lot_lower ON lots(lower(lot))")
 
 
-def _migration_8(db: "_Schema") -> None:
+def _migration_8(db: _Schema) -> None:
     # Plants: a pattern belongs to one plant of a group (None: the log's only plant).
     db.execute("ALTER TABLE patterns ADD COLUMN plant TEXT")
     db.execute("CREATE INDEX patterns_plant ON patterns(plant, pattern)")
@@ -421,7 +420,7 @@ def _refresh_totals(execute, since: dict[str, str], tables: tuple[str, ...] = TO
                 execute(sql, params)
 
 
-def _migration_9(db: "_Schema") -> None:
+def _migration_9(db: _Schema) -> None:
     # The running totals the riser revisions' before/after are read from (see above).
     db.execute("""
         CREATE TABLE day_totals (
@@ -490,7 +489,7 @@ def retrying(fn):
     doubled. Only the outermost call retries (a nested one is inside a
     transaction that must fail as a whole). Gives up with :class:`LogLocked`."""
     @functools.wraps(fn)
-    def wrapper(store: "Store", *args, **kwargs):
+    def wrapper(store: Store, *args, **kwargs):
         if store.dialect.in_transaction:
             return fn(store, *args, **kwargs)
         return store.dialect.retry(lambda: fn(store, *args, **kwargs))
@@ -547,7 +546,7 @@ class Store:
     def close(self) -> None:
         self.dialect.close()
 
-    def __enter__(self) -> "Store":
+    def __enter__(self) -> Store:
         return self
 
     def __exit__(self, *exc) -> None:
@@ -557,7 +556,7 @@ class Store:
         return self.dialect.retry(fn, attempts)
 
     @contextlib.contextmanager
-    def write(self) -> Iterator["Store"]:
+    def write(self) -> Iterator[Store]:
         """A write transaction: everything inside commits together or not at all.
 
         A failure of the database (read-only file, full disk, a lock held too
@@ -589,7 +588,7 @@ class Store:
 
     # --- plants -------------------------------------------------------------------
     @contextlib.contextmanager
-    def plant_scope(self, plant: str | None) -> Iterator["Store"]:
+    def plant_scope(self, plant: str | None) -> Iterator[Store]:
         """Inside, the reads by pour date (lots, records, pours, rejects, notes,
         poured patterns, revisions, the pour span) see only ``plant``'s patterns.
         ``None`` keeps the scope as it is (every plant, unless an outer scope
@@ -608,7 +607,7 @@ class Store:
             self.plant = before
 
     @contextlib.contextmanager
-    def every_plant(self) -> Iterator["Store"]:
+    def every_plant(self) -> Iterator[Store]:
         """Inside, reads see every plant whatever scope is around."""
         before, self.plant = self.plant, None
         try:
@@ -653,7 +652,7 @@ class Store:
         cur = self.conn.execute(sql, tuple(params))
         cols = [d[0] for d in cur.description]
         rows = cur.fetchall()
-        return dict(zip(cols, zip(*rows))) if rows else {c: () for c in cols}
+        return dict(zip(cols, zip(*rows, strict=False), strict=False)) if rows else {c: () for c in cols}
 
     def table(self, name: str) -> pd.DataFrame:
         """All rows of one of the log's tables, in key order."""
@@ -968,7 +967,7 @@ class Store:
                           "imported_at, imported_by) VALUES (?, ?, ?, ?, ?, ?, ?) "
                           "ON CONFLICT (digest) DO NOTHING",
                           (digest, file, int(size), int(last_row), segments,
-                           dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"), by))
+                           dt.datetime.now(dt.UTC).isoformat(timespec="seconds"), by))
 
     def has_legacy_keys(self) -> bool:
         """Whether the log holds records imported before files were keyed by digest."""
@@ -999,7 +998,7 @@ class Store:
         row = cur.fetchone()
         if row is None:
             raise NotFound("inspection record", record_id, "see `pourback history` for record ids")
-        return dict(zip([d[0] for d in cur.description], row))
+        return dict(zip([d[0] for d in cur.description], row, strict=False))
 
     def superseded_by(self, record_id: int) -> int | None:
         r = self.conn.execute("SELECT id FROM inspections WHERE supersedes = ?", (record_id,)).fetchone()
@@ -1178,13 +1177,13 @@ class Store:
              "ORDER BY 1, 2, 3, 8 NULLS FIRST, 9 NULLS FIRST, 10 NULLS FIRST")
         rows = self.conn.execute(q, [*params, *params]).fetchall()
         ends = [next((k for k, r in enumerate(rows) if r[0] >= part), len(rows)) for part in (1, 2)]
-        p, r, c = (list(zip(*chunk)) or [()] * 14
+        p, r, c = (list(zip(*chunk, strict=False)) or [()] * 14
                    for chunk in (rows[:ends[0]], rows[ends[0]:ends[1]], rows[ends[1]:]))
         pours = dict(zip(("pattern", "poured_on", "lots", "castings", "inspected_lots", "inspected_castings"),
-                         p[1:7]))
-        rejects = dict(zip(("pattern", "poured_on", "result", "defect", "zone", "quantity"), [r[1], r[2], *r[7:11]]))
+                         p[1:7], strict=False))
+        rejects = dict(zip(("pattern", "poured_on", "result", "defect", "zone", "quantity"), [r[1], r[2], *r[7:11]], strict=False))
         costs = dict(zip(("pattern", "description", "alloy", "casting_weight_kg", "metal_cost_per_kg",
-                          "processing_cost_per_casting"), [c[1], c[2], c[7], *c[11:]]))
+                          "processing_cost_per_casting"), [c[1], c[2], c[7], *c[11:]], strict=False))
         return pours, rejects, costs
 
     def revision_steps(self, start: str, end: str, *, columns: bool = False) -> pd.DataFrame | dict[str, list]:
@@ -1206,8 +1205,8 @@ class Store:
         before = [none, *rows[:-1]]
         after = [*rows[1:], none]
         steps = [(p, r, e, b[1] if b[0] == p else None, b[2] if b[0] == p else None, a[2] if a[0] == p else None)
-                 for (p, r, e), b, a in zip(rows, before, after) if start <= e <= end]
-        out = {k: list(v) for k, v in zip(names, zip(*steps))} if steps else {k: [] for k in names}
+                 for (p, r, e), b, a in zip(rows, before, after, strict=False) if start <= e <= end]
+        out = {k: list(v) for k, v in zip(names, zip(*steps, strict=False), strict=False)} if steps else {k: [] for k in names}
         return out if columns else pd.DataFrame(out, columns=list(names))
 
     def pattern_costs(self, codes: Iterable[str]) -> dict[str, tuple]:
@@ -1221,7 +1220,7 @@ class Store:
             rows += self.conn.execute(f"SELECT {', '.join(cols)} FROM patterns WHERE pattern IN "
                                       f"({', '.join('?' * len(chunk))})", chunk).fetchall()
         rows.sort()
-        return dict(zip(cols, zip(*rows))) if rows else {c: () for c in cols}
+        return dict(zip(cols, zip(*rows, strict=False), strict=False)) if rows else {c: () for c in cols}
 
     def riser_designs(self, patterns: Iterable[str]) -> list[tuple]:
         """The stored risers (every revision) of ``patterns``, without joins, as rows
@@ -1255,7 +1254,7 @@ class Store:
         if rows:
             cur = self.conn.execute(q, (*params, int(per_pattern)))
             names = [d[0] for d in cur.description]
-            return [dict(zip(names, r)) for r in cur.fetchall()]
+            return [dict(zip(names, r, strict=False)) for r in cur.fetchall()]
         return self._frame(q, [*params, int(per_pattern)])
 
     def pour_span(self) -> tuple[str | None, str | None]:
@@ -1372,7 +1371,7 @@ class Store:
         step = 100  # SQLite's cost per probe grows with a longer VALUES list beyond ~150
         for i in range(0, max(map(len, lists)), step):
             ctes, selects, params = [], [], []
-            for k, (((names, cols, source), _), probes) in enumerate(zip(parts, lists)):
+            for k, (((names, cols, source), _), probes) in enumerate(zip(parts, lists, strict=False)):
                 chunk = probes[i:i + step]
                 if not chunk:
                     continue
@@ -1389,7 +1388,7 @@ class Store:
                 if got[-1] is not None:  # else no row before the day: zeros
                     outs[r[0]][r[1:1 + len(names)]] = got
         return [{probe: out.get(probe, (0,) * len(cols)) for probe in probes}
-                for out, probes, ((_, cols, _), _) in zip(outs, lists, parts)]
+                for out, probes, ((_, cols, _), _) in zip(outs, lists, parts, strict=False)]
 
     def query_plan(self, sql: str, params: Iterable = ()) -> list[str]:
         """The database's plan for one statement, one line per step (SQLite's
@@ -1436,7 +1435,7 @@ class Store:
         row = cur.fetchone()
         if row is None:
             raise NotFound("pattern", code, "see `pourback patterns` for the patterns in the log")
-        return dict(zip([d[0] for d in cur.description], row))
+        return dict(zip([d[0] for d in cur.description], row, strict=False))
 
     def zone(self, pattern: str, zone: str) -> dict:
         """One zone with its pattern's alloy and mould (raises NotFound naming the zones)."""
@@ -1448,7 +1447,7 @@ class Store:
             names = [r[0] for r in self.conn.execute(
                 "SELECT zone FROM zones WHERE pattern = ? ORDER BY zone", (pattern,))]
             raise NotFound("zone", zone, f"pattern {pattern} has the zones {', '.join(names) or '(none)'}")
-        return dict(zip([d[0] for d in cur.description], row))
+        return dict(zip([d[0] for d in cur.description], row, strict=False))
 
     def mean_pour_temp(self, pattern: str) -> float | None:
         """Mean pour temperature of the pattern's lots that give one, °C (None if none do)."""
@@ -1469,7 +1468,7 @@ class Store:
             names = [r[0] for r in self.conn.execute("SELECT sleeve FROM sleeves ORDER BY sleeve")]
             raise NotFound("sleeve", code, "the log's catalogue holds " + (", ".join(names) or "no sleeve; "
                                                                             "import sleeves.csv"))
-        return dict(zip([d[0] for d in cur.description], row))
+        return dict(zip([d[0] for d in cur.description], row, strict=False))
 
     def lot(self, code: str) -> dict:
         cur = self.conn.execute("SELECT l.*, l.molds * p.castings_per_mold AS castings "
@@ -1478,7 +1477,7 @@ class Store:
         row = cur.fetchone()
         if row is None:
             raise NotFound("lot", code, "import or log the lot first")
-        return dict(zip([d[0] for d in cur.description], row))
+        return dict(zip([d[0] for d in cur.description], row, strict=False))
 
     def latest_pour_temps(self, patterns: Iterable[str]) -> dict[str, float]:
         """Pouring temperature (°C) of each pattern's most recent lot that records one."""
@@ -1512,7 +1511,7 @@ class Store:
         with self.write():
             self.conn.execute("INSERT INTO models (fitted_at, rows, castings, data_until, blob) "
                               "VALUES (?, ?, ?, ?, ?)",
-                              (dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"),
+                              (dt.datetime.now(dt.UTC).isoformat(timespec="seconds"),
                                rows, castings, data_until, blob))
             return self.last_insert_id()
 
@@ -1520,7 +1519,7 @@ class Store:
         cur = self.conn.execute("SELECT id, fitted_at, rows, castings, data_until, blob FROM models "
                                 "ORDER BY id DESC LIMIT 1")
         row = cur.fetchone()
-        return None if row is None else dict(zip([d[0] for d in cur.description], row))
+        return None if row is None else dict(zip([d[0] for d in cur.description], row, strict=False))
 
     # --- accounts, sessions and the audit (tracker/auth.py) -------------------------
     USER_COLUMNS = ("name", "role", "enabled", "failed_sign_ins", "locked_until", "created_at",
@@ -1536,7 +1535,7 @@ class Store:
         cur = self.conn.execute(f"SELECT {', '.join(self.USER_COLUMNS)}, password_hash FROM users "
                                 "WHERE name = ?", (name,))
         row = cur.fetchone()
-        return None if row is None else dict(zip([d[0] for d in cur.description], row))
+        return None if row is None else dict(zip([d[0] for d in cur.description], row, strict=False))
 
     def insert_user(self, name: str, role: str, password_hash: str, at: str, by: str | None) -> None:
         self.conn.execute("INSERT INTO users (name, role, password_hash, enabled, failed_sign_ins, "
@@ -1566,7 +1565,7 @@ class Store:
         cur = self.conn.execute('SELECT token_sha256, "user", started_at, last_seen, ended_at, end_reason '
                                 "FROM sessions WHERE token_sha256 = ?", (token_sha256,))
         row = cur.fetchone()
-        return None if row is None else dict(zip([d[0] for d in cur.description], row))
+        return None if row is None else dict(zip([d[0] for d in cur.description], row, strict=False))
 
     def touch_session(self, token_sha256: str, at: str) -> None:
         self.conn.execute("UPDATE sessions SET last_seen = ? WHERE token_sha256 = ? AND ended_at IS NULL",

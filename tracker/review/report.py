@@ -23,8 +23,8 @@ import re
 
 from tracker import units
 from tracker.cautions import SAFETY_CAUTION, SAFETY_CAUTION_SHORT
-from tracker.log.settings import DEFAULT_CURRENCY
 from tracker.csvsafe import csv_bytes, safe_cell, safe_frame  # noqa: F401 (re-used by the report's callers)
+from tracker.log.settings import DEFAULT_CURRENCY
 
 FORMATS = ("table", "md", "html", "csv", "json")
 
@@ -193,7 +193,7 @@ def _text_table(items, columns) -> str:
 
     def line(vals):
         return "  " + "  ".join(v.rjust(w) if r else v.ljust(w)
-                                for v, w, r in zip(vals, widths, right)).rstrip()
+                                for v, w, r in zip(vals, widths, right, strict=False)).rstrip()
     return "\n".join([line(heads), "  " + "  ".join("-" * w for w in widths)] + [line(r) for r in cells])
 
 
@@ -561,7 +561,7 @@ def svg_pchart(pattern: dict) -> str:
                     f'centre {pct(centre, 2)} %</text>')
     line = [(f.x(i), f.y(100 * p["p"]) if _num(p["p"]) else None) for i, p in enumerate(pts)]
     body += _polyline(line, LINE, width=1.5)
-    for (x, y), p in zip(line, pts):
+    for (x, y), p in zip(line, pts, strict=False):
         if y is None:
             continue
         tip = (f'{_e(p["label"])}: {pct(p["p"], 2)} % of {count(p["inspected"])} castings'

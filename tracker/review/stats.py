@@ -492,7 +492,7 @@ def compare_rates_many(k_before, n_before, k_after, n_after, confidence: float =
     out = []
     for j, (k1, n1, k2, n2, r1, r2, dj, lo, hi, pv, pw, ok) in enumerate(zip(
             kb.tolist(), nb.tolist(), ka.tolist(), na.tolist(), p1.tolist(), p2.tolist(), d.tolist(),
-            low.tolist(), high.tolist(), p_value.tolist(), power.tolist(), judged.tolist())):
+            low.tolist(), high.tolist(), p_value.tolist(), power.tolist(), judged.tolist(), strict=False)):
         row = {"k_before": int(k1), "n_before": int(n1), "k_after": int(k2), "n_after": int(n2),
                "rate_before": r1 if n1 > 0 else math.nan, "rate_after": r2 if n2 > 0 else math.nan,
                "difference": math.nan, "diff_low": math.nan, "diff_high": math.nan,

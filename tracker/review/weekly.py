@@ -64,10 +64,10 @@ import numpy as np
 import pandas as pd
 
 from tracker import limits, units
-from tracker.review import stats
 from tracker.cautions import SAFETY_CAUTION
 from tracker.log.settings import currency
 from tracker.log.store import Store
+from tracker.review import stats
 
 SHRINKAGE = "shrinkage"
 LATEST_WEEKS = 2          # the review week and the one before
@@ -208,7 +208,7 @@ def _rows(cols: dict) -> list[dict]:
     """
     names = list(cols)
     values = [c if isinstance(c, list) else _column(c) for c in cols.values()]
-    return [dict(zip(names, vals)) for vals in zip(*values)]
+    return [dict(zip(names, vals, strict=False)) for vals in zip(*values, strict=False)]
 
 
 def _pareto_rows(keys, values, key: str, value: str, extra: dict | None = None) -> list[dict]:
@@ -237,7 +237,7 @@ def _nested(pattern: np.ndarray, key: np.ndarray, quantity: np.ndarray, n_patter
     cells = np.flatnonzero(sums)
     p, k, v = cells // len(names), cells % len(names), sums[cells]
     order = np.lexsort((k, -v, p))
-    for pi, ki, vi in zip(p[order].tolist(), k[order].tolist(), v[order].tolist()):
+    for pi, ki, vi in zip(p[order].tolist(), k[order].tolist(), v[order].tolist(), strict=False):
         out[pi][str(names[ki])] = int(vi)
     return out
 
@@ -286,8 +286,8 @@ def p_charts(rejected: np.ndarray, inspected: np.ndarray) -> dict[str, np.ndarra
 
 def _rules(beyond: np.ndarray, run: np.ndarray) -> list[list[str]]:
     """Per row, the names of the rules (``stats.RULES`` order) that fire anywhere in it."""
-    names = {(b, r): [n for n, on in zip(stats.RULES, (b, r)) if on] for b in (False, True) for r in (False, True)}
-    return [list(names[pair]) for pair in zip(beyond.any(axis=1).tolist(), run.any(axis=1).tolist())]
+    names = {(b, r): [n for n, on in zip(stats.RULES, (b, r), strict=False) if on] for b in (False, True) for r in (False, True)}
+    return [list(names[pair]) for pair in zip(beyond.any(axis=1).tolist(), run.any(axis=1).tolist(), strict=False)]
 
 
 # --- one window --------------------------------------------------------------------------
@@ -366,7 +366,7 @@ def _window(mx: dict, rejects: dict, mondays: list[dt.date], columns: slice, tar
     t["signal_rules_window"] = _rules(ch["beyond"], ch["run"])
     t["signal_high_rules"] = _rules(ch["beyond"][:, -last:] & high, ch["run"][:, -last:] & high)
     reasons = []
-    for hr, slo, lo_ in zip(t["signal_high_rules"], t["shrinkage_wilson_low"].tolist(), t["wilson_low"].tolist()):
+    for hr, slo, lo_ in zip(t["signal_high_rules"], t["shrinkage_wilson_low"].tolist(), t["wilson_low"].tolist(), strict=False):
         why = [f"signal:{rule}" for rule in hr]
         if slo > target:
             why.append("shrinkage_above_target")
@@ -384,11 +384,11 @@ def _window(mx: dict, rejects: dict, mondays: list[dt.date], columns: slice, tar
     starts = [_iso(m) for m in mondays]
     rejected, inspected = k_w.astype(np.int64).tolist(), n_w.astype(np.int64).tolist()
     seen = n_w > 0
-    judged = iter(zip(*(ch[x][seen].tolist() for x in ("p", "lcl", "ucl", "beyond", "run", "signal"))))
+    judged = iter(zip(*(ch[x][seen].tolist() for x in ("p", "lcl", "ucl", "beyond", "run", "signal")), strict=False))
     charts = []
-    for c, ks, ns in zip(_column(ch["centre"]), rejected, inspected):
+    for c, ks, ns in zip(_column(ch["centre"]), rejected, inspected, strict=False):
         chart = []
-        for a, b, k, n in zip(labels, starts, ks, ns):
+        for a, b, k, n in zip(labels, starts, ks, ns, strict=False):
             if n:
                 p_, lo_, hi_, be, ru, si = next(judged)
                 chart.append({"label": a, "week_start": b, "rejected": k, "inspected": n, "p": p_, "centre": c,
@@ -497,8 +497,8 @@ def in_system(review: dict, system: str) -> dict:
     if system != units.US:
         return review
     out = units.convert_record(review, system)
-    for rev_out, rev_in in zip(out.get("revisions", []), review.get("revisions", [])):
-        for ch_out, ch_in in zip(rev_out.get("riser_changes", []), rev_in.get("riser_changes", [])):
+    for rev_out, rev_in in zip(out.get("revisions", []), review.get("revisions", []), strict=False):
+        for ch_out, ch_in in zip(rev_out.get("riser_changes", []), rev_in.get("riser_changes", []), strict=False):
             ch_out["change"] = riser_change_text(ch_in["before"], ch_in["after"], system)
     out["units"] = {units.column_name(k, system): units.symbol(k, system) if units.kind_of(k) else v
                     for k, v in review.get("units", {}).items()}
@@ -512,7 +512,7 @@ def _candidates(store: Store, mondays: list[dt.date], weeks: int) -> dict | None
     # every revision up to the review week: one still without a verdict stays under
     # judgement however long ago it took effect (the revisions table is small)
     revs = store.revision_steps(EARLIEST_DAY, review_end, columns=True)
-    keep = [i for i, (eff, prev, nxt) in enumerate(zip(revs["effective_from"], revs["previous"], revs["next_from"]))
+    keep = [i for i, (eff, prev, nxt) in enumerate(zip(revs["effective_from"], revs["previous"], revs["next_from"], strict=False))
             if first <= eff <= review_end or (eff < first and prev is not None and (nxt is None or nxt > first))]
     if not keep:
         return None
@@ -521,7 +521,7 @@ def _candidates(store: Store, mondays: list[dt.date], weeks: int) -> dict | None
     cand["before_start"] = [eff if prev is None else max(prev_from, _iso(dt.date.fromisoformat(eff)
                                                                          - dt.timedelta(weeks=weeks)))
                             for eff, prev, prev_from in zip(cand["effective_from"], cand["previous"],
-                                                            cand["previous_from"])]
+                                                            cand["previous_from"], strict=False)]
     cand["before_end"] = [_day_before(e) for e in cand["effective_from"]]
     cand["after_end"] = [review_end if nf is None else min(review_end, _day_before(nf))
                          for nf in cand["next_from"]]
@@ -533,9 +533,9 @@ def _changed(store: Store, cand: dict) -> tuple[list[list[str]], list[list[dict]
     of the candidates' patterns, a handful of rows each)."""
     designs: dict[tuple, dict] = {}
     for pattern, revision, riser, *fields in store.riser_designs(sorted(set(cand["pattern"]))):
-        designs.setdefault((pattern, revision), {})[riser] = dict(zip(RISER_FIELDS, fields))
+        designs.setdefault((pattern, revision), {})[riser] = dict(zip(RISER_FIELDS, fields, strict=False))
     changes = [_riser_changes(designs.get((c, prev), {}), designs.get((c, rv), {})) if prev else []
-               for c, rv, prev in zip(cand["pattern"], cand["revision"], cand["previous"])]
+               for c, rv, prev in zip(cand["pattern"], cand["revision"], cand["previous"], strict=False)]
     return [sorted({z for ch in chs for z in ch["zones"]}) for chs in changes], changes
 
 
@@ -557,15 +557,15 @@ def _read_totals(store: Store, cand: dict, zones: list[list[str]]) -> dict:
         if e not in day_after:
             day_after[e] = _iso(dt.date.fromisoformat(e) + dt.timedelta(days=1))
     edges = [(bs, eff, day_after[ae])
-             for bs, eff, ae in zip(cand["before_start"], cand["effective_from"], cand["after_end"])]
-    probes = [(c, d) for c, e in zip(cand["pattern"], edges) for d in e]
+             for bs, eff, ae in zip(cand["before_start"], cand["effective_from"], cand["after_end"], strict=False)]
+    probes = [(c, d) for c, e in zip(cand["pattern"], edges, strict=False) for d in e]
     # the changed zones of every revision, read with the totals (one statement) though
     # only those whose spans hold zoned shrinkage rejects are used
-    zone_probes = [(c, z, d) for c, zs, e in zip(cand["pattern"], zones, edges) for z in zs for d in e]
+    zone_probes = [(c, z, d) for c, zs, e in zip(cand["pattern"], zones, edges, strict=False) for z in zs for d in e]
     totals, zone_totals = store.totals_and_zones_before(probes, zone_probes)
     zoned = Store.TOTALS.index("zoned_shrinkage")
     use_zones = [bool(zs) and totals[(c, e[2])][zoned] - totals[(c, e[0])][zoned] > 0
-                 for c, zs, e in zip(cand["pattern"], zones, edges)]
+                 for c, zs, e in zip(cand["pattern"], zones, edges, strict=False)]
     return {"edges": edges, "totals": totals, "use_zones": use_zones,
             "zone_totals": zone_totals, "probes": probes, "zone_probes": zone_probes}
 
@@ -618,7 +618,7 @@ def _revisions(store: Store, mondays: list[dt.date], weeks: int, confidence: flo
     bounds = {"before": (before_start, before_end), "after": (cand["effective_from"], after_end)}
     judged = stats.compare_rates_many(*zip(*((s["before"]["shrinkage_rejected"], s["before"]["inspected"],
                                               s["after"]["shrinkage_rejected"], s["after"]["inspected"])
-                                             for s in sums)), confidence)
+                                             for s in sums), strict=False), confidence)
     out = []
     for i in range(n):
         part = {}
@@ -722,7 +722,7 @@ def problem_patterns(store: Store, week: str | None = None, weeks: int = limits.
     weeks, target, _, monday = _checked(store, week, weeks, target)
     mondays, _, _, _, _, rejects, mx = _fetched(store, monday, weeks)
     t = _window(mx, rejects, mondays, slice(1, None), target, confidence)["table"]
-    return [c for c, problem in zip(t["pattern"].tolist(), t["problem"]) if problem]
+    return [c for c, problem in zip(t["pattern"].tolist(), t["problem"], strict=False) if problem]
 
 
 @_without_gc_pauses
@@ -843,13 +843,13 @@ def _by_code(t: dict, value: str) -> tuple[list, np.ndarray]:
 def _changes(now: dict, before: dict, revisions: list[dict], monday: dt.date, week_end: dt.date) -> dict:
     """What moved since the review of the week before."""
     a, b = now["table"], before["table"]
-    was = {c for c, pr in zip(b["pattern"].tolist(), b["problem"]) if pr}
-    is_ = {c for c, pr in zip(a["pattern"].tolist(), a["problem"]) if pr}
-    reasons = dict(zip(a["pattern"].tolist(), a["problem_reasons"]))
+    was = {c for c, pr in zip(b["pattern"].tolist(), b["problem"], strict=False) if pr}
+    is_ = {c for c, pr in zip(a["pattern"].tolist(), a["problem"], strict=False) if pr}
+    reasons = dict(zip(a["pattern"].tolist(), a["problem_reasons"], strict=False))
     prev = {c: (n, r) for c, n, r in zip(b["pattern"].tolist(), b["week_inspected"].tolist(),
-                                         b["week_reject_rate"].tolist())}
+                                         b["week_reject_rate"].tolist(), strict=False)}
     moves = []
-    for c, n, r in zip(a["pattern"].tolist(), a["week_inspected"].tolist(), a["week_reject_rate"].tolist()):
+    for c, n, r in zip(a["pattern"].tolist(), a["week_inspected"].tolist(), a["week_reject_rate"].tolist(), strict=False):
         if c in prev and n > 0 and prev[c][0] > 0:
             moves.append({"pattern": c, "previous_week_reject_rate": prev[c][1], "week_reject_rate": r,
                           "change": r - prev[c][1], "previous_week_inspected": prev[c][0], "week_inspected": n})

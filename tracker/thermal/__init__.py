@@ -94,14 +94,14 @@ def _reasons(last: str, isolated: bool, isolated_share: float, min_ny, thr, syst
     return reasons
 
 
-def reasons_text(result: "ThermalResult", system: str = "metric") -> list[str]:
+def reasons_text(result: ThermalResult, system: str = "metric") -> list[str]:
     """``result.reasons`` worded in ``system`` (tracker.units): the Niyama
     criterion in (°F·min)^0.5/in for ``us``."""
     return _reasons(result.last_to_freeze, result.isolated_liquid, result.isolated_share, result.min_niyama,
                     result.niyama_threshold, system)
 
 
-def notes_text(result: "ThermalResult", system: str = "metric") -> list[str]:
+def notes_text(result: ThermalResult, system: str = "metric") -> list[str]:
     """``result.notes`` worded in ``system`` (tracker.units): the one note with a
     length in it, the neck wider than the riser, in inches for ``us``."""
     case = result.case

@@ -65,7 +65,7 @@ def thermal_columns(store, judged: pd.DataFrame, columns=THERMAL_COLUMNS) -> pd.
     for i, r in judged.iterrows():
         key = (r["pattern"], r["revision"], r["riser"])
         row = rows.loc[key].to_dict()
-        row.update(zip(("pattern", "revision", "riser"), key))
+        row.update(zip(("pattern", "revision", "riser"), key, strict=False))
         if r["pattern"] not in temps:
             temps[r["pattern"]] = pour_temp_for(store, r["pattern"], row["alloy"])
         found = fields(check_row(row, temps[r["pattern"]]))
@@ -207,7 +207,7 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
         elif ok is True:
             first = fails[0]
             notes[z] = (f" Thermal check: the first choice ({first[0]}, {units.say('diameter_mm', first[1], system)}) "
-                        "fails (" + "; ".join(first[2]) + f"); this is the next candidate that passes"
+                        "fails (" + "; ".join(first[2]) + "); this is the next candidate that passes"
                         + (f" ({len(fails)} failed before it)." if len(fails) > 1 else "."))
         elif fails:
             # none tried passes: keep the rule-based choice, say so

@@ -199,7 +199,7 @@ def _axis(breaks, h, lo_margin, hi_margin, growth=GROWTH):
             keep[-1] = max(keep[-1], v) if len(keep) > 1 else keep[-1]
     b = np.array(keep)
     edges = [b[0]]
-    for lo, hi in zip(b[:-1], b[1:]):
+    for lo, hi in zip(b[:-1], b[1:], strict=False):
         n = max(1, int(round((hi - lo) / h)))
         edges.extend(np.linspace(lo, hi, n + 1)[1:])
     edges = np.array(edges)

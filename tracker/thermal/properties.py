@@ -70,7 +70,7 @@ class ThermalAlloy:
         """rho·L, J/m³."""
         return self.density_kg_m3 * self.latent_j_kg
 
-    def with_overrides(self, **kw) -> "ThermalAlloy":
+    def with_overrides(self, **kw) -> ThermalAlloy:
         kw = {k: v for k, v in kw.items() if v is not None}
         out = replace(self, **kw)
         if "liquidus_c" in kw or "solidus_c" in kw:

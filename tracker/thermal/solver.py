@@ -75,7 +75,7 @@ class PhaseCurve:
     volumetric_latent: float
 
     @classmethod
-    def from_alloy(cls, alloy) -> "PhaseCurve":
+    def from_alloy(cls, alloy) -> PhaseCurve:
         pts = sorted(alloy.fs_curve, key=lambda p: (p[0], -p[1]))
         t = np.array([p[0] for p in pts], dtype=float)
         fl = 1.0 - np.array([p[1] for p in pts], dtype=float)

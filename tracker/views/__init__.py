@@ -26,15 +26,16 @@ import pathlib
 import numpy as np
 import pandas as pd
 
-from tracker.design import rules
-from tracker.review import stats
 from tracker import units
+from tracker.design import rules
 from tracker.design.alloys import ALLOYS
 from tracker.design.assess import assess_frame, caine_curve_points, revision_in_effect
 from tracker.errors import BadRow, NotFound
-from tracker.log.ingest import COLUMNS as IMPORT_COLUMNS, METHODS
+from tracker.log.ingest import COLUMNS as IMPORT_COLUMNS
+from tracker.log.ingest import METHODS
 from tracker.log.settings import DEFAULT_CURRENCY
 from tracker.log.store import Store, data_version
+from tracker.review import stats
 
 NONE = "(none)"  # the "no value" choice of an optional picker
 
@@ -410,7 +411,7 @@ def current_revisions(store: Store, on: str | None = None) -> dict[str, str]:
     use from one a later revision superseded."""
     on = on or dt.date.today().isoformat()
     cur = revision_in_effect(store.revisions_frame(), on)
-    return dict(zip(cur["pattern"], cur["revision"].astype(str))) if not cur.empty else {}
+    return dict(zip(cur["pattern"], cur["revision"].astype(str), strict=False)) if not cur.empty else {}
 
 
 SUPERSEDED = "superseded by a later revision"
@@ -448,7 +449,7 @@ def filter_design_map(frame: pd.DataFrame, alloy: str | None = None,
             f["rules_text"] = f["rules_text"] + " (" + f["rule_set"].fillna("").astype(str).str.replace(
                 "_", " ") + ")"
     if current is not None and "revision" in f:
-        f["superseded"] = [current.get(p) not in (None, str(r)) for p, r in zip(f["pattern"], f["revision"])]
+        f["superseded"] = [current.get(p) not in (None, str(r)) for p, r in zip(f["pattern"], f["revision"], strict=False)]
     else:
         f["superseded"] = False
     f["flagged"] = f["pattern"].isin(list(flagged or []))
@@ -729,9 +730,9 @@ def review_patterns_table(review: dict, full: bool = True) -> pd.DataFrame:
         return pd.DataFrame(columns=[names[k] for k in keys])
     p = pd.DataFrame(rows)
     p["reject_rate_pct"] = _pct(p["reject_rate"])
-    p["range_text"] = [_range(lo, hi) for lo, hi in zip(p["wilson_low"], p["wilson_high"])]
+    p["range_text"] = [_range(lo, hi) for lo, hi in zip(p["wilson_low"], p["wilson_high"], strict=False)]
     p["flag_text"] = p["problem_reasons"].map(reason_words)
-    p["signal_text"] = [signal_words(r, high) for r, high in zip(p["signal_rules"], p["signal_high_rules"])]
+    p["signal_text"] = [signal_words(r, high) for r, high in zip(p["signal_rules"], p["signal_high_rules"], strict=False)]
     p["scrap_cost"] = p["scrap_cost"].astype(float).round(0)  # whole currency units
     return p[keys].rename(columns=names).reset_index(drop=True)
 

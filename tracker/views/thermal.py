@@ -45,10 +45,10 @@ def outline_frame(result: ThermalResult, system: str = units.METRIC) -> pd.DataF
     pad = np.pad(body, 1)
     # vertical edges: between columns j-1 and j
     dz = np.nonzero(pad[1:-1, :-1] != pad[1:-1, 1:])
-    for i, j in zip(*dz):
+    for i, j in zip(*dz, strict=False):
         segs.append((xe[j], ze[i], xe[j], ze[i + 1]))
     dx = np.nonzero(pad[:-1, 1:-1] != pad[1:, 1:-1])
-    for i, j in zip(*dx):
+    for i, j in zip(*dx, strict=False):
         segs.append((xe[j], ze[i], xe[j + 1], ze[i]))
     return pd.DataFrame(segs, columns=["x", "z", "x2", "z2"])
 
