@@ -5,80 +5,19 @@ skipped, unless POURBACK_REQUIRE_PG=1 (CI sets it): then they fail."""
 
 import os
 import pathlib
-import urllib.parse
-import uuid
+import shutil
+import subprocess
 
 import pytest
 from click.testing import CliRunner
 
-REPO = pathlib.Path(__file__).resolve().parent.parent
-GOOD = REPO / "tests" / "data" / "good"
-SAMPLE = REPO / "sample_data"
-BACKENDS = ["sqlite", "postgresql"]
+from tests.support import BACKENDS, GOOD, SAMPLE, LogFactory
+from tests.support.hostile import TODAY as HOSTILE_TODAY
 
 
 @pytest.fixture
 def runner():
     return CliRunner()
-
-
-# --- backends -----------------------------------------------------------------------------
-
-def pg_server() -> str:
-    """The test server's URL ($POURBACK_TEST_PG); skips (or, under
-    POURBACK_REQUIRE_PG=1, fails) the test when there is none."""
-    url = os.environ.get("POURBACK_TEST_PG", "").strip()
-    if not url:
-        if os.environ.get("POURBACK_REQUIRE_PG") == "1":
-            pytest.fail("POURBACK_TEST_PG is not set and POURBACK_REQUIRE_PG=1: the PostgreSQL tests "
-                        "need a server (.ci/pg-server start DIR PORT prints its URL)")
-        pytest.skip("set POURBACK_TEST_PG to a postgresql:// URL to run the PostgreSQL tests")
-    return url
-
-
-def _with_schema(url: str, schema: str) -> str:
-    parts = urllib.parse.urlsplit(url)
-    query = urllib.parse.parse_qsl(parts.query)
-    query.append(("options", f"-csearch_path={schema}"))
-    return urllib.parse.urlunsplit(parts._replace(query=urllib.parse.urlencode(query)))
-
-
-class LogFactory:
-    """Fresh, empty log targets on one backend; PostgreSQL schemas are dropped at the end."""
-
-    def __init__(self, backend: str, folder: pathlib.Path):
-        self.backend = backend
-        self.folder = folder
-        self.schemas: list[str] = []
-        self.server = pg_server() if backend == "postgresql" else None
-
-    def new(self, name: str = "log") -> str:
-        if self.backend == "sqlite":
-            return str(self.folder / f"{name}-{uuid.uuid4().hex[:6]}.db")
-        import psycopg
-
-        schema = f"t_{name.replace('-', '_')}_{uuid.uuid4().hex[:10]}"
-        with psycopg.connect(self.server, autocommit=True) as conn:
-            conn.execute(f'CREATE SCHEMA "{schema}"')
-        self.schemas.append(schema)
-        return _with_schema(self.server, schema)
-
-    def copy(self, source: str, name: str = "copy") -> str:
-        """A private copy of the log at ``source`` (for a test that writes)."""
-        from tracker.review.copycheck import copy_log
-
-        dest = self.new(name)
-        copy_log(source, dest)
-        return dest
-
-    def close(self) -> None:
-        if not self.schemas:
-            return
-        import psycopg
-
-        with psycopg.connect(self.server, autocommit=True) as conn:
-            for schema in self.schemas:
-                conn.execute(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE')
 
 
 @pytest.fixture(params=BACKENDS)
@@ -191,3 +130,40 @@ def empty_db(logs):
     path = logs.new("empty")
     Store(path).close()
     return path
+
+
+# --- hostile-input fixtures -----------------------------------------------------------
+
+@pytest.fixture
+def db(tmp_path):
+    """The good data's log in an SQLite file, imported as on 2026-06-01 (the hostile-input tests)."""
+    from tracker.log.ingest import import_dir
+    from tracker.log.store import Store
+
+    path = tmp_path / "log.db"
+    with Store(path) as s:
+        import_dir(s, GOOD, today=HOSTILE_TODAY)
+    return path
+
+
+@pytest.fixture
+def read_only():
+    """Make a file read-only, also for root (whom file modes do not stop): the
+    immutable attribute (chattr +i) where modes are not enough."""
+    made = []
+
+    def make(path):
+        path = pathlib.Path(path)
+        os.chmod(path, 0o444)
+        made.append(path)
+        if os.access(path, os.W_OK):
+            if shutil.which("chattr") is None or subprocess.run(["chattr", "+i", str(path)],
+                                                                 capture_output=True).returncode:
+                pytest.skip("cannot make a file read-only here")
+        return path
+
+    yield make
+    for p in made:
+        if shutil.which("chattr"):
+            subprocess.run(["chattr", "-i", str(p)], capture_output=True)
+        os.chmod(p, 0o644)

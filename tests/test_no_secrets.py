@@ -3,7 +3,7 @@
 A log with accounts goes through every command that prints, exports or
 refuses; each password tried (right and wrong) and every stored hash (whole,
 and its salt and tag apart) is searched for in all of it. The pages are
-searched in tests/test_browser_team.py.
+searched in tests/browser/test_browser_team.py.
 """
 
 import pathlib

@@ -144,6 +144,10 @@ class SessionExpired(PourbackError):
     """A dashboard session ended (idle too long, signed out, or its account disabled)."""
 
 
+class CopyMismatch(PourbackError):
+    """A copy of a log differs from its source (a table's count or checksum, or the review)."""
+
+
 # --- the log file itself ---------------------------------------------------------------
 
 class LogError(PourbackError):

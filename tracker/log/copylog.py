@@ -12,15 +12,11 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
-from tracker.errors import PourbackError
+from tracker.errors import CopyMismatch, PourbackError
 from tracker.log.store import Store, display_name
 
 # Tables whose rows a fresh log already holds (seeded by the migrations).
 SEEDED = {"alloys"}
-
-
-class CopyMismatch(PourbackError):
-    """The copy differs from its source (a table's count or checksum, or the review)."""
 
 
 def copy_tables(source: str, dest: str, *, progress=None,

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import math
 
-from tracker.log.copylog import CopyMismatch, copy_tables  # noqa: F401 (CopyMismatch is part of this API)
+from tracker.log.copylog import copy_tables
 from tracker.log.store import Store
 from tracker.review import weekly as review
 
