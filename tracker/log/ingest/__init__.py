@@ -15,7 +15,6 @@ The public interface of the import; where each part lives:
 A new import column: name it in ``columns.py`` and check it in its kind's validator.
 """
 
-from tracker.log.ingest.checks import Checks
 from tracker.log.ingest.columns import (
     COLUMNS,
     DEFECTS,
@@ -36,7 +35,6 @@ from tracker.log.ingest.plant import set_default_plant
 from tracker.log.ingest.record import log_inspection
 from tracker.log.ingest.refused import RefusedReport, write_refused
 from tracker.log.ingest.result import MAX_PROBLEMS, ImportResult
-from tracker.log.ingest.text import fold
 
 # tests/test_hostile.py patches the report's write through this name: the class itself.
 _RefusedReport = RefusedReport  # kept for callers outside this area until they move
@@ -44,7 +42,7 @@ _RefusedReport = RefusedReport  # kept for callers outside this area until they 
 __all__ = [
     "CHUNK_ROWS", "COLUMNS", "DEFECTS", "GRADED_CATEGORIES", "KINDS", "MAX_PROBLEMS", "METHODS", "MOULDS",
     "NEVER_ACCEPTABLE", "RESULTS", "SLEEVE_KINDS", "US_COLUMNS", "XRAY_CATEGORIES",
-    "Checks", "FileIdentity", "ImportResult", "RefusedReport",
-    "correct_inspection", "file_identity", "fold", "import_dir", "import_file", "import_files",
+    "FileIdentity", "ImportResult",
+    "correct_inspection", "file_identity", "import_dir", "import_file", "import_files",
     "log_inspection", "set_default_plant", "write_refused",
 ]

@@ -27,6 +27,7 @@ from tracker.log.ingest.columns import KINDS
 from tracker.log.ingest.duplicates import LOOKALIKE_CODES, warn_lookalikes
 from tracker.log.ingest.identity import file_identity
 from tracker.log.ingest.kinds import validator_for
+from tracker.log.ingest.kinds.base import Validator
 from tracker.log.ingest.reading.chunks import ahead, read_chunks
 from tracker.log.ingest.reading.csv_shape import SEPARATORS
 from tracker.log.ingest.refused import RefusedReport
@@ -132,6 +133,7 @@ class _FileImport:
         return self.skip_bad or not self.result.refused
 
     def refuse_row(self, row: dict) -> None:
+        """A refused row (its row number, cells and reasons) to the report, or kept in the result."""
         if self.report is not None:
             self.report.write(row, self.columns)
         else:
@@ -163,7 +165,7 @@ class _FileImport:
                                      json.dumps(identity.segments), self.by)
         return self.result
 
-    def _chunk(self, validator, chunk: pd.DataFrame, following: pd.DataFrame | None, decimal: str) -> None:
+    def _chunk(self, validator: Validator, chunk: pd.DataFrame, following: pd.DataFrame | None, decimal: str) -> None:
         """Validate one chunk, count and refuse its bad rows, write its good ones."""
         result = self.result
         self.columns = list(chunk.columns)

@@ -37,7 +37,7 @@ LOOKALIKE_CODES = {"patterns": "pattern", "sleeves": "sleeve", "lots": "lot", "z
 
 
 def warn_lookalikes(store: Store, kind: str, rows: list[tuple], c: Checks, skip: np.ndarray,
-                     result: ImportResult, seen: dict) -> None:
+                    result: ImportResult, seen: dict) -> None:
     """Warn where a new code differs from a stored one (or one earlier in the
     file) only by case or Unicode compatibility form ("l26-0412" beside "L26-0412")."""
     column = LOOKALIKE_CODES[kind]

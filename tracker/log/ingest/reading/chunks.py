@@ -16,7 +16,7 @@ from tracker.log.ingest.reading.workbook import read_xlsx
 
 
 def read_chunks(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict | None = None,
-                 sep: str = ",") -> Iterator[pd.DataFrame]:
+                sep: str = ",") -> Iterator[pd.DataFrame]:
     """Chunks of the file as all-string frames with a ``_row`` column (file row
     number). ``shape["last_row"]`` is set to the file's last row number, blank
     rows included."""
