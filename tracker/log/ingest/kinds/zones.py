@@ -1,0 +1,62 @@
+"""The zones file: one row per zone of a pattern (its volume, cooling area and sizes)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from tracker import units
+from tracker.design import geometry
+from tracker.log.ingest.checks import Checks
+from tracker.log.ingest.kinds.base import Validator
+from tracker.log.ingest.result import MAX_PROBLEMS
+from tracker.log.ingest.values import int_or_none
+from tracker.numbers import finite
+
+
+class ZonesValidator(Validator):
+    """Checks the rows of a zones file."""
+
+    kind = "zones"
+
+    def validate(self, c: Checks) -> list[tuple]:
+        pattern = c.text("pattern", max_len=64)
+        zone = c.text("zone", max_len=64)
+        vol = c.measure("volume_cm3")
+        area = c.measure("cooling_area_cm2")
+        thick = c.measure("thickness_mm", required=False)
+        m = (vol / area).to_numpy(dtype=float)
+        self._check_modulus(c, m, thick)
+        length = c.measure("length_mm", required=False)
+        width = c.measure("width_mm", required=False)
+        level = c.number("required_xray_level", required=False, low=1, low_inclusive=True, high=5,
+                         whole=True)
+        self.known_patterns(c, pattern)
+        self._warn_joined(c, zone, vol, area, m)
+        # finite(): a refused number arrives as NaN (never infinite), stored as NULL
+        return [(p, z, v, a, finite(t), finite(ln), int_or_none(lv), finite(w))
+                for p, z, v, a, t, ln, lv, w in zip(pattern, zone, vol, area, thick, length, level, width,
+                                                    strict=False)]
+
+    @staticmethod
+    def _check_modulus(c: Checks, m: np.ndarray, thick: pd.Series) -> None:
+        """A section of thickness T cooling on both faces has a modulus of at most T/2 (a plate)."""
+        measured = ("cooling_area_cm2", "volume_cm3", "thickness_mm")
+        msys = c.system("volume_cm3")  # the modulus is worded in the volume's system
+        c.fail(thick.notna().to_numpy() & ~np.isnan(m) & (m > thick.to_numpy(dtype=float) / 20.0 * (1 + 1e-9)),
+               "cooling_area_cm2",
+               lambda i: f"the modulus V/A = {units.show('length_cm', m[i], msys, 2)} is above half the "
+                         f"thickness ({units.show('length_cm', thick.iloc[i] / 20.0, msys, 2)}), more than a "
+                         "plate of that thickness cooling on both faces can have; check the units "
+                         f"({', '.join(units.symbol(n, c.system(n)) for n in measured)})")
+
+    def _warn_joined(self, c: Checks, zone: pd.Series, vol: pd.Series, area: pd.Series, m: np.ndarray) -> None:
+        """Below a same-volume sphere's area is possible where faces are joined to
+        other metal: `check` notes it, the import takes it with a warning."""
+        msys = c.system("volume_cm3")
+        joined = ~c.bad & ~np.isnan(m) & geometry.exceeds_sphere_modulus(vol.to_numpy(dtype=float),
+                                                                          area.to_numpy(dtype=float))
+        for i in np.flatnonzero(joined)[:MAX_PROBLEMS]:
+            self.result.warnings.append(
+                f"{self.file}, row {int(c.rows[i])}, zone {zone.iloc[i]}: "
+                + geometry.joined_faces_warning(float(vol.iloc[i]), float(area.iloc[i]), msys))
