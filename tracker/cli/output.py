@@ -5,7 +5,6 @@ from __future__ import annotations
 
 import contextlib
 import json
-import math
 import os
 import sys
 from collections.abc import Callable, Iterator
@@ -16,7 +15,7 @@ import numpy as np
 
 from tracker.cautions import SAFETY_CAUTION_SHORT
 from tracker.cli.steps import terminal
-from tracker.numbers import jsonable
+from tracker.numbers import finite, jsonable
 
 
 def emit(data: Any, as_json: bool, human: Callable[[Any], str] | None = None) -> None:
@@ -59,8 +58,8 @@ def _cell(v: Any) -> str:
     if isinstance(v, (bool, np.bool_)):
         return "yes" if v else "no"
     if isinstance(v, (float, np.floating)):
-        f = float(v)
-        if not math.isfinite(f):
+        f = finite(v)
+        if f is None:
             return "-"
         return f"{f:.3g}" if abs(f) < 0.01 and f != 0 else f"{f:,.2f}"
     return str(v)
