@@ -1,3 +1,5 @@
+"""``python -m tracker``: the ``pourback`` command line."""
+
 from tracker.cli import main
 
 if __name__ == "__main__":

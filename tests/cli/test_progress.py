@@ -8,8 +8,8 @@ import time
 import pytest
 
 from tests.support import REPO
-from tracker import cli
 from tracker.cli import main
+from tracker.cli import output as cli
 from tracker.cli.steps import Steps
 
 ROOT = REPO

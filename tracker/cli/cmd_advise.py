@@ -2,39 +2,29 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import click
 
 from tracker import units
-from tracker.cli import (
-    Steps,
-    caution_text,
+from tracker.cli.command import command
+from tracker.cli.errors import handle_errors
+from tracker.cli.options import (
     db_option,
-    emit,
-    handle_errors,
     json_option,
-    main,
     measure_option,
     open_store,
     plant_option,
-    resolve_units,
-    show_progress,
-    table,
     take_measures,
     target_option,
     units_option,
     week_option,
     weeks_option,
 )
-from tracker.log.settings import DEFAULT_CURRENCY, currency
-
-
-def _pct(v, digits: int = 1) -> str | None:
-    return None if v is None else f"{100 * v:.{digits}f} %"
-
-
-def _money(v) -> str | None:
-    return None if v is None else f"{v:,.0f}"
-
+from tracker.cli.output import caution_text, emit, show_progress, table
+from tracker.cli.steps import Steps
+from tracker.log.settings import DEFAULT_CURRENCY, currency, resolve_units
+from tracker.numbers import money_text, pct_text
 
 remelt_option = click.option(
     "--remelt-charge", "--riser-metal-charge", "remelt_charge", type=float, default=None,
@@ -46,7 +36,7 @@ basis_note = ("Money basis: the predicted rates now and after are both the rejec
               "now - predicted after) x cost per scrapped casting.")
 
 
-@main.command()
+@command()
 @click.option("--pattern", default=None, help="Only this pattern (default: every problem pattern of the review).")
 @target_option
 @week_option
@@ -113,14 +103,14 @@ def _format(rows: list[dict], code: str = DEFAULT_CURRENCY, system: str = units.
             if r.get("suggested_sleeve"):
                 change += f" + {r['suggested_sleeve']}"
         changed = r["action"] != "no_riser_change"
-        show.append({**r, "change": change, "observed": _pct(r["reject_rate"]),
-                     "now": _pct(r["predicted_rate_now"]),
-                     "after": _pct(r["predicted_rate_after"]) if changed else None,
+        show.append({**r, "change": change, "observed": pct_text(r["reject_rate"]),
+                     "now": pct_text(r["predicted_rate_now"]),
+                     "after": pct_text(r["predicted_rate_after"]) if changed else None,
                      "yield": None if r["yield_before"] is None else
                      f"{r['yield_before']:.1%} -> {r['yield_after']:.1%}",
-                     "saved": _money(r["scrap_saved_per_year"]) if changed else None,
-                     "extra": _money(r["extra_cost_per_year"]) if changed else None,
-                     "balance": _money(r["yearly_balance"]) if changed else None,
+                     "saved": money_text(r["scrap_saved_per_year"]) if changed else None,
+                     "extra": money_text(r["extra_cost_per_year"]) if changed else None,
+                     "balance": money_text(r["yearly_balance"]) if changed else None,
                      "pays": ("yes" if r["pays_off"] else "no") if changed else None})
     out = [table(show, [("pattern", "pattern"), ("zone", "zone"), ("riser", "riser"), ("action", "action"),
                         ("change", "change"), ("observed", "observed now"), ("now", "predicted now"),
@@ -140,7 +130,7 @@ def _format(rows: list[dict], code: str = DEFAULT_CURRENCY, system: str = units.
     return "\n".join(out)
 
 
-@main.command("what-if")
+@command("what-if")
 @click.option("--pattern", required=True, help="Pattern code.")
 @click.option("--riser", required=True, help="Riser code in the pattern's current revision.")
 @measure_option("diameter_mm", "New diameter, {unit} (keeps H/D unless a new height is given). With a "
@@ -189,41 +179,56 @@ def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, units_o
 def _what_if_text(r: dict, code: str = DEFAULT_CURRENCY, system: str = units.METRIC) -> str:
     from tracker.design.assess import rule_words
 
-    rows = [{"figure": k.replace("_", " "), "now": r.get(k + "_now"), "changed": r[k]} for k in
-            ("modulus_ratio", "caine_margin", "feed_margin")]
-    rows += [{"figure": "shrinkage rate, observed", "now": _pct(r["observed_rate"], 2), "changed": None},
-             {"figure": "shrinkage rate, predicted", "now": _pct(r["predicted_rate_now"], 2),
-              "changed": _pct(r["predicted_rate_after"], 2)},
-             {"figure": "yield", "now": _pct(r["yield_before"]), "changed": _pct(r["yield_after"])}]
-    money = [{"per year": "castings", "value": _money(r["castings_per_year"])},
-             {"per year": f"scrap saved ({code})", "value": _money(r["scrap_saved_per_year"])},
-             {"per year": f"extra riser metal ({code})", "value": _money(r["extra_metal_cost_per_year"])},
-             {"per year": f"sleeves ({code})", "value": _money(r["sleeve_cost_per_year"])},
-             {"per year": f"balance ({code})", "value": _money(r["yearly_balance"])}]
-    also = [x for x in r["changed_risers"] if x != r["riser"]]
-    def v(name):
+    def v(name: str) -> Any:
         return r[units.column_name(name, system)]
 
     size = (f"{v('diameter_mm'):.0f} x {v('height_mm'):.0f} mm" if system != units.US else
             f"{v('diameter_mm'):.2f} x {v('height_mm'):.2f} in")
-    return (f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {size}" + (f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare") + "\n"
-            + table(rows) + f"\npasses every rule: {'yes' if r['passes'] else 'no: ' + rule_words(r['failed_rules'])}"
-            + f" (rule set: {r['rule_set'].replace('_', ' ')})"
-            f"\nadded metal per mould: {v('added_metal_kg_per_mold'):.2f} "
-            f"{units.symbol('added_metal_kg_per_mold', system)}"
-            + (f"\nthermal check: {'pass' if r['thermal_ok'] else 'fail'}, last to freeze: {r['last_to_freeze']}"
-               if "thermal_ok" in r else "") + "\n\n"
-            + table(money) + "\npays off: " + ("yes" if r["pays_off"] else "no" if r["changed"] else "- (no change)")
-            + (f" (priced with the same change on {', '.join(also)}, which fail the rules on the same zone)"
-               if also else "")
-            + f"\n{basis_note} Cost per scrapped casting {_money(r['cost_per_scrapped_casting'])}; remelt "
-              f"charge {r['remelt_charge']:g}.\n\n" + caution_text())
+    sleeve = f", sleeve {r['sleeve']}" if r["sleeve"] else ", bare"
+    passes = "yes" if r["passes"] else "no: " + rule_words(r["failed_rules"])
+    design = [f"{r['pattern']} riser {r['riser']} (zone {r['zone']}): {size}{sleeve}",
+              table(_what_if_figures(r)),
+              f"passes every rule: {passes} (rule set: {r['rule_set'].replace('_', ' ')})",
+              f"added metal per mould: {v('added_metal_kg_per_mold'):.2f} "
+              f"{units.symbol('added_metal_kg_per_mold', system)}"]
+    if "thermal_ok" in r:
+        design.append(f"thermal check: {'pass' if r['thermal_ok'] else 'fail'}, "
+                      f"last to freeze: {r['last_to_freeze']}")
+    pays = "yes" if r["pays_off"] else "no" if r["changed"] else "- (no change)"
+    also = [x for x in r["changed_risers"] if x != r["riser"]]
+    if also:
+        pays += f" (priced with the same change on {', '.join(also)}, which fail the rules on the same zone)"
+    money = [table(_what_if_money(r, code)), f"pays off: {pays}",
+             f"{basis_note} Cost per scrapped casting {money_text(r['cost_per_scrapped_casting'])}; remelt "
+             f"charge {r['remelt_charge']:g}."]
+    return "\n".join(design) + "\n\n" + "\n".join(money) + "\n\n" + caution_text()
 
 
-@main.command("fit-model")
+def _what_if_figures(r: dict) -> list[dict]:
+    """The rule margins, shrinkage rates and yield, now and changed."""
+    rows = [{"figure": k.replace("_", " "), "now": r.get(k + "_now"), "changed": r[k]} for k in
+            ("modulus_ratio", "caine_margin", "feed_margin")]
+    rows += [{"figure": "shrinkage rate, observed", "now": pct_text(r["observed_rate"], 2), "changed": None},
+             {"figure": "shrinkage rate, predicted", "now": pct_text(r["predicted_rate_now"], 2),
+              "changed": pct_text(r["predicted_rate_after"], 2)},
+             {"figure": "yield", "now": pct_text(r["yield_before"]), "changed": pct_text(r["yield_after"])}]
+    return rows
+
+
+def _what_if_money(r: dict, code: str) -> list[dict]:
+    """The money per year of the change, in currency ``code``."""
+    return [{"per year": "castings", "value": money_text(r["castings_per_year"])},
+            {"per year": f"scrap saved ({code})", "value": money_text(r["scrap_saved_per_year"])},
+            {"per year": f"extra riser metal ({code})", "value": money_text(r["extra_metal_cost_per_year"])},
+            {"per year": f"sleeves ({code})", "value": money_text(r["sleeve_cost_per_year"])},
+            {"per year": f"balance ({code})", "value": money_text(r["yearly_balance"])}]
+
+
+@command("fit-model")
 @click.option("--alpha", type=float, default=10.0, show_default=True,
               help="Pull toward the rule-based prior, in castings (more: leans on the rules).")
-@click.option("--folds", type=click.IntRange(2, 100), default=5, show_default=True, help="Cross-validation folds (grouped by pattern).")
+@click.option("--folds", type=click.IntRange(2, 100), default=5, show_default=True,
+              help="Cross-validation folds (grouped by pattern).")
 @db_option
 @json_option
 @handle_errors
@@ -245,7 +250,8 @@ def fit_model(alpha, folds, db_path, as_json):
         steps.step("Fitting the reject model")
         model = fit(store, alpha=alpha, table=feats)
         if model is None:
-            raise click.ClickException("the log has no lots under a known riser design; import risers and lots first")
+            raise click.ClickException("the log has no lots under a known riser design; import risers and lots "
+                                       "first")
         cv = None
         if feats["pattern"].nunique() >= 2:
             steps.step(f"Cross-validating ({folds} folds, grouped by pattern)")
@@ -258,14 +264,16 @@ def fit_model(alpha, folds, db_path, as_json):
         for k in ("model", "baseline"):
             data["cross_validation"][k] = {kk: vv for kk, vv in cv[k].items() if kk != "bins"}
 
-    def human(d):
-        out = [f"Fitted on {d['rows']} rows ({d['castings']} castings) up to {d['data_until']}.", "",
-               table(d["coefficients"], [("term", "term"), ("coefficient", "coefficient"), ("prior", "prior"),
-                                         ("unit", "meaning")])]
-        if "cross_validation" in d:
-            m, b = d["cross_validation"]["model"], d["cross_validation"]["baseline"]
-            out += ["", "Grouped cross-validation by pattern (log loss per casting, lower is better):",
-                    f"  model     {m['log_loss']:.4f}   predicted/observed rejects {m['calibration_ratio']:.2f}",
-                    f"  one rate  {b['log_loss']:.4f}   predicted/observed rejects {b['calibration_ratio']:.2f}"]
-        return "\n".join(out)
-    emit(data, as_json, human)
+    emit(data, as_json, _format_fit)
+
+
+def _format_fit(d: dict) -> str:
+    out = [f"Fitted on {d['rows']} rows ({d['castings']} castings) up to {d['data_until']}.", "",
+           table(d["coefficients"], [("term", "term"), ("coefficient", "coefficient"), ("prior", "prior"),
+                                     ("unit", "meaning")])]
+    if "cross_validation" in d:
+        m, b = d["cross_validation"]["model"], d["cross_validation"]["baseline"]
+        out += ["", "Grouped cross-validation by pattern (log loss per casting, lower is better):",
+                f"  model     {m['log_loss']:.4f}   predicted/observed rejects {m['calibration_ratio']:.2f}",
+                f"  one rate  {b['log_loss']:.4f}   predicted/observed rejects {b['calibration_ratio']:.2f}"]
+    return "\n".join(out)

@@ -14,7 +14,10 @@ import tempfile
 import click
 
 import tracker
-from tracker.cli import db_option, emit, handle_errors, json_option, main
+from tracker.cli.command import command
+from tracker.cli.errors import handle_errors
+from tracker.cli.options import db_option, json_option
+from tracker.cli.output import emit
 from tracker.errors import PourbackError
 from tracker.log import accounts as auth
 
@@ -123,7 +126,7 @@ host_option = click.option("--host", default=DEFAULT_HOST, show_default=True, ca
                                 "address needs an enabled admin account, and every visitor signs in.")
 
 
-@main.command()
+@command()
 @db_option
 @port_option
 @host_option
@@ -248,7 +251,7 @@ def _format_demo(d: dict) -> str:
     return text
 
 
-@main.command("demo")
+@command("demo")
 @click.option("--db", "db_path", type=click.Path(dir_okay=False), default=DEFAULT_DEMO_DB, show_default=True,
               help="File to build the demo log in; an existing file is replaced only if `pourback demo` "
                    "made it. A postgresql:// URL builds it in that (empty) database.")

@@ -4,7 +4,10 @@ from __future__ import annotations
 
 import click
 
-from tracker.cli import emit, handle_errors, json_option, main, table
+from tracker.cli.command import command
+from tracker.cli.errors import handle_errors
+from tracker.cli.options import json_option
+from tracker.cli.output import emit, table
 
 
 def _format(d: dict) -> str:
@@ -19,7 +22,7 @@ def _format(d: dict) -> str:
     return "\n".join(lines)
 
 
-@main.command("copy-log")
+@command("copy-log")
 @click.argument("source", metavar="FROM")
 @click.argument("dest", metavar="TO")
 @json_option

@@ -3,31 +3,33 @@
 from __future__ import annotations
 
 import contextlib
+import datetime as dt
+from typing import Any
 
 import click
 
 from tracker import units
 from tracker.cautions import SAFETY_CAUTION
-from tracker.cli import (
-    caution_text,
+from tracker.cli.command import command
+from tracker.cli.errors import handle_errors
+from tracker.cli.options import (
     db_option,
-    emit,
-    handle_errors,
     json_option,
-    main,
+    log_exists,
     measure_option,
     open_store,
-    resolve_units,
-    table,
     take_measures,
     units_option,
 )
+from tracker.cli.output import caution_text, emit, table
 from tracker.design.alloys import ALLOYS
+from tracker.design.sizing import round_up_to_step, size_riser, size_zone
+from tracker.log.settings import resolve_units
 
 SIZE_MEASURES = ("volume_cm3", "area_cm2", "pour_temp_c", "thickness_mm", "width_mm", "length_mm", "step_mm")
 
 
-@main.command()
+@command()
 @click.option("--alloy", default=None, metavar="ALLOY",
               help="Alloy family: " + ", ".join(sorted(ALLOYS)) + " (default with --zone: the pattern's).")
 @measure_option("volume_cm3", "Volume of the fed section, {unit}.")
@@ -87,37 +89,26 @@ def size(alloy, pattern, zone, placement, h_over_d, sleeve_code, sleeve_factor, 
 
         pourback size --units us --alloy steel --volume-in3 122 --area-in2 170 --step-in 0.5
     """
-    from tracker.design.sizing import round_up_to_step, size_riser, size_zone
-
-    uses_log = pattern is not None or sleeve_code is not None
     with contextlib.ExitStack() as stack:
         # the log is read for its unit system where it is there; a missing one is an
         # error only where the command needs it (after the checks of the options)
-        store = stack.enter_context(open_store(db_path)) if _log_exists(db_path) else None
+        store = stack.enter_context(open_store(db_path)) if log_exists(db_path) else None
         system = resolve_units(store, units_override)
         m = take_measures(system, measures, *SIZE_MEASURES)
-        opt = {k: units.option_name(k, system) for k in SIZE_MEASURES}
-        if (pattern is None) != (zone is None):
-            raise click.UsageError("give --pattern and --zone together")
-        if pattern is None and (alloy is None or m["volume_cm3"] is None or m["area_cm2"] is None):
-            raise click.UsageError(f"give --alloy, {opt['volume_cm3']} and {opt['area_cm2']}, "
-                                   "or --pattern and --zone")
-        if pattern is not None and (m["volume_cm3"] is not None or m["area_cm2"] is not None):
-            raise click.UsageError(f"{opt['volume_cm3']} and {opt['area_cm2']} come from the zone; leave them "
-                                   "out with --zone")
+        _check_size_options(pattern, zone, alloy, m, {k: units.option_name(k, system) for k in SIZE_MEASURES})
         step = units.value_in("step_mm", m.pop("step_mm"), system)
-        opts = dict(placement=placement, h_over_d=h_over_d, sleeve_factor=sleeve_factor,
-                    modulus_factor=modulus_factor, efficiency=efficiency, shrinkage=shrinkage,
-                    mould=mould, pour_temp_c=m["pour_temp_c"], thickness_mm=m["thickness_mm"],
-                    width_mm=m["width_mm"], length_mm=m["length_mm"], system=system)
-        if uses_log and store is None:
-            store = stack.enter_context(open_store(db_path))  # says there is no log
-        if sleeve_code is not None:
-            opts["sleeve"] = store.sleeve(sleeve_code)
-        if pattern is not None:
-            r = size_zone(store, pattern, zone, alloy=alloy.lower() if alloy else None, **opts)
-            if step is None:
-                step = units.value_in("step_mm", units.default_step_mm(system), system)
+        opts: dict[str, Any] = dict(
+            placement=placement, h_over_d=h_over_d, sleeve_factor=sleeve_factor, modulus_factor=modulus_factor,
+            efficiency=efficiency, shrinkage=shrinkage, mould=mould, pour_temp_c=m["pour_temp_c"],
+            thickness_mm=m["thickness_mm"], width_mm=m["width_mm"], length_mm=m["length_mm"], system=system)
+        if pattern is not None or sleeve_code is not None:
+            log = store if store is not None else stack.enter_context(open_store(db_path))  # says there is no log
+            if sleeve_code is not None:
+                opts["sleeve"] = log.sleeve(sleeve_code)
+            if pattern is not None:
+                r = size_zone(log, pattern, zone, alloy=alloy.lower() if alloy else None, **opts)
+                if step is None:
+                    step = units.value_in("step_mm", units.default_step_mm(system), system)
     if pattern is None:
         r = size_riser(m["volume_cm3"], m["area_cm2"], alloy.lower(), **opts)
     data = r.to_dict()
@@ -130,15 +121,18 @@ def size(alloy, pattern, zone, placement, h_over_d, sleeve_code, sleeve_factor, 
     emit(data, as_json, lambda d: _format_size(d, system))
 
 
-def _log_exists(db_path) -> bool:
-    """A log is there to read the unit system from (size needs no log): a file
-    that exists, or a server's URL (a missing log there is named when opened)."""
-    import pathlib
-
-    from tracker.log.store import is_url, resolve_path
-
-    path = resolve_path(db_path)
-    return is_url(path) or (path != ":memory:" and pathlib.Path(path).is_file())
+def _check_size_options(pattern: str | None, zone: str | None, alloy: str | None, m: dict,
+                        opt: dict[str, str]) -> None:
+    """A section from the log (--pattern and --zone) or from the options (--alloy, volume
+    and area), never both; ``m`` the measures in metric, ``opt`` their option names."""
+    if (pattern is None) != (zone is None):
+        raise click.UsageError("give --pattern and --zone together")
+    if pattern is None and (alloy is None or m["volume_cm3"] is None or m["area_cm2"] is None):
+        raise click.UsageError(f"give --alloy, {opt['volume_cm3']} and {opt['area_cm2']}, "
+                               "or --pattern and --zone")
+    if pattern is not None and (m["volume_cm3"] is not None or m["area_cm2"] is not None):
+        raise click.UsageError(f"{opt['volume_cm3']} and {opt['area_cm2']} come from the zone; leave them "
+                               "out with --zone")
 
 
 # Decimals per quantity shown by size: (metric, us)
@@ -148,16 +142,47 @@ _SIZE_DIGITS = {"section_modulus_cm": (3, 3), "riser_modulus_cm": (3, 3), "diame
                 "neck_modulus_cm": (2, 3), "pour_temp_c": (0, 0), "feeding_distance_mm": (0, 1)}
 
 
+class _SizeText:
+    """The figures of a size record converted to ``system``, as text in its usual decimals."""
+
+    def __init__(self, d: dict, system: str):
+        self.d, self.system = d, system
+
+    def v(self, name: str) -> Any:
+        """The value of a metric key in the converted record."""
+        return self.d.get(units.column_name(name, self.system))
+
+    def f(self, name: str) -> str:
+        """The value as text in the system's usual decimals."""
+        return f"{self.v(name):.{_SIZE_DIGITS[name][self.system == units.US]}f}"
+
+    def u(self, name: str) -> str:
+        return units.symbol(name, self.system)
+
+
 def _format_size(d: dict, system: str = units.METRIC) -> str:
-    def v(name):  # the value of a metric key in the converted record
-        return d.get(units.column_name(name, system))
+    t = _SizeText(d, system)
+    rows = _size_rows(d, t)
+    mins = _size_minimums(d, t)
+    w = max([len(k) for k, _ in rows] + [len(k) + 2 for k, _ in mins])
+    out = [f"{k:<{w}}  {val}" for k, val in rows]
+    out.append("")
+    out.append(f"Smallest diameter by rule ({t.u('diameter_mm')}):")
+    digits = _SIZE_DIGITS["diameter_mm"][system == units.US]
+    for (k, val), key in zip(mins, ("caine", "modulus", "feed_volume"), strict=False):
+        shown = "not applied (no Caine constants for this alloy)" if val is None else f"{val:.{digits}f}"
+        mark = "  <- governs" if key == d["governing_rule"] else ""
+        out.append(f"  {k:<{w - 2}}  {shown}{mark}")
+    for label, items in (("Warning", d.get("warnings") or []), ("Note", d.get("notes") or [])):
+        out += [f"{label}: {text}" for text in items]
+    out.append("")
+    out.append(caution_text())
+    return "\n".join(out)
 
-    def f(name):  # the value as text in the system's usual decimals
-        return f"{v(name):.{_SIZE_DIGITS[name][system == units.US]}f}"
 
-    def u(name):
-        return units.symbol(name, system)
-
+def _size_rows(d: dict, t: _SizeText) -> list[tuple[str, str]]:
+    """The (label, value) lines of the sized riser, in the order shown."""
+    v, f, u = t.v, t.f, t.u
     rows = [("Pattern, zone", f"{d['pattern']}, {d['zone']}")] if d.get("pattern") else []
     rows += [
         ("Alloy", d["alloy"]),
@@ -179,8 +204,16 @@ def _format_size(d: dict, system: str = units.METRIC) -> str:
         ("Volume ratio Y", f"{d['volume_ratio']:.3f}"),
         ("Freezing time, riser / section", f"{d['freezing_time_ratio']:.2f}"),
     ]
+    return rows + _size_extra_rows(d, t)
+
+
+def _size_extra_rows(d: dict, t: _SizeText) -> list[tuple[str, str]]:
+    """The lines shown only where they apply: the neck, the liquid contraction,
+    the feeding distance, and a section that needs no riser."""
+    v, f, u = t.v, t.f, t.u
+    rows = []
     if v("neck_diameter_mm") is not None:
-        rows.append((f"Neck diameter ({u('neck_diameter_mm')})" + (", round" if system != units.US else ""),
+        rows.append((f"Neck diameter ({u('neck_diameter_mm')})" + (", round" if t.system != units.US else ""),
                      f"{f('neck_diameter_mm')} (modulus {f('neck_modulus_cm')} {u('neck_modulus_cm')})"))
     if v("pour_temp_c") is not None:
         rows.append(("Liquid contraction",
@@ -193,34 +226,25 @@ def _format_size(d: dict, system: str = units.METRIC) -> str:
                      f"{f('feeding_distance_mm')}, {judged}"))
     if not d.get("riser_needed", True):
         rows.append(("Riser needed", "no: may be cast without a riser (rigid mould, heavy section)"))
+    return rows
+
+
+def _size_minimums(d: dict, t: _SizeText) -> list[tuple[str, float | None]]:
+    """(rule, smallest diameter it allows in the shown unit, None where not applied),
+    in the order Caine, modulus, feed volume."""
     feed = f"eff. {d['efficiency']:.0%}, shrink {d['shrinkage']:.1%}"
     if d.get("liquid_contraction"):
         feed += f" + liquid {d['liquid_contraction']:.1%}"
     mod = (f"Modulus rule (x{d['modulus_factor']:g} the neck)" if d.get("rule_set") == "pressure_control"
            else f"Modulus rule (x{d['modulus_factor']:g})")
-    mins = [
-        ("Caine's curve", v("caine_min_diameter_mm")),
-        (mod, v("modulus_min_diameter_mm")),
-        (f"Feed volume ({feed})", v("feed_min_diameter_mm")),
+    return [
+        ("Caine's curve", t.v("caine_min_diameter_mm")),
+        (mod, t.v("modulus_min_diameter_mm")),
+        (f"Feed volume ({feed})", t.v("feed_min_diameter_mm")),
     ]
-    w = max([len(k) for k, _ in rows] + [len(k) + 2 for k, _ in mins])
-    out = [f"{k:<{w}}  {val}" for k, val in rows]
-    out.append("")
-    out.append(f"Smallest diameter by rule ({u('diameter_mm')}):")
-    digits = _SIZE_DIGITS["diameter_mm"][system == units.US]
-    for (k, val), key in zip(mins, ("caine", "modulus", "feed_volume"), strict=False):
-        val = "not applied (no Caine constants for this alloy)" if val is None else f"{val:.{digits}f}"
-        mark = "  <- governs" if key == d["governing_rule"] else ""
-        out.append(f"  {k:<{w - 2}}  {val}{mark}")
-    for label, items in (("Warning", d.get("warnings") or []), ("Note", d.get("notes") or [])):
-        out += [f"{label}: {t}" for t in items]
-    out.append("")
-    out.append(caution_text())
-    return "\n".join(out)
 
 
-
-@main.command()
+@command()
 @click.option("--pattern", default=None, help="Only this pattern.")
 @click.option("--on", "on_date", default=None, help="Judge the revision in effect on this date (YYYY-MM-DD).")
 @click.option("--modulus-factor", type=float, default=1.2, show_default=True,
@@ -271,7 +295,7 @@ def check(pattern, on_date, modulus_factor, thermal, units_override, db_path, as
     click.echo("\n" + caution_text())
 
 
-@main.command()
+@command()
 @units_option
 @db_option
 @json_option
@@ -283,8 +307,6 @@ def patterns(units_override, db_path, as_json):
 
         pourback patterns
     """
-    import datetime as dt
-
     from tracker.design.assess import revision_in_effect
 
     with open_store(db_path) as store:

@@ -3,38 +3,20 @@
 from __future__ import annotations
 
 import datetime as dt
-import getpass
-import os
 import pathlib
 
 import click
 
-from tracker.cli import (
-    db_option,
-    emit,
-    handle_errors,
-    json_option,
-    main,
-    open_store,
-    progress_bar,
-    show_progress,
-    table,
-)
+from tracker.cli.command import command
+from tracker.cli.errors import handle_errors
+from tracker.cli.options import db_option, json_option, open_store, who
+from tracker.cli.output import emit, progress_bar, show_progress, table
 from tracker.log.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES
 
 MAX_RECORD_ID = 2**63 - 1  # SQLite's largest integer
 
 
-def _who(by: str | None) -> str:
-    if by:
-        return by
-    try:
-        return os.environ.get("POURBACK_USER") or getpass.getuser()
-    except Exception:  # no login name on some service accounts
-        return "unknown"
-
-
-@main.command()
+@command()
 @click.option("--currency", default=None, metavar="CODE",
               help="Three-letter code of the currency the log's costs are in, e.g. EUR (default EUR; "
                    "change it later with `pourback settings --currency`).")
@@ -71,7 +53,7 @@ def init(currency, system, plant, db_path):
                    f"units {shown}{extra})")
 
 
-@main.command()
+@command()
 @click.option("--currency", default=None, metavar="CODE",
               help="Set the three-letter code of the currency the log's costs are in, e.g. USD.")
 @click.option("--units", "system", type=click.Choice(["metric", "us"], case_sensitive=False), default=None,
@@ -108,7 +90,7 @@ def _count_rows(path: pathlib.Path) -> int:
         return max(sum(buf.count(b"\n") for buf in iter(lambda: fh.read(1 << 20), b"")) - 1, 0)
 
 
-@main.command("import")
+@command("import")
 @click.argument("kind_or_dir")
 @click.argument("file", required=False, type=click.Path(exists=True, dir_okay=False))
 @click.option("--skip-bad", is_flag=True,
@@ -152,7 +134,7 @@ def import_(kind_or_dir, file, skip_bad, sep, decimal, by, db_path, as_json):
     total = sum(_count_rows(pathlib.Path(p)) for _, p in items)
     with open_store(db_path) as store:
         with progress_bar(show_progress(as_json) and total >= 5000, total, "Importing") as bar:
-            results = import_files(store, items, skip_bad=skip_bad, by=_who(by), progress=bar.update,
+            results = import_files(store, items, skip_bad=skip_bad, by=who(by), progress=bar.update,
                                    sep=sep, decimal=decimal,
                                    refused_to=lambda p: pathlib.Path(p).with_suffix(".refused.csv"))
         out = [r.to_dict() for r in results]
@@ -193,7 +175,7 @@ def _inspection_options(fn):
     return fn
 
 
-@main.command()
+@command()
 @_inspection_options
 @click.option("--by", default=None, help="Who logs the result (default: login name).")
 @db_option
@@ -206,20 +188,20 @@ def log(lot, inspected_on, method, quantity, result, defect, zone, xray_category
     Example:
 
         pourback log --lot L2647-043 --method xray --quantity 1 --result reject --defect shrinkage --zone neck --xray-category CB --severity 4 --inspector QE-ML
-    """
+    """  # noqa: E501 (an example stays on one line, to paste and run)
     from tracker.log.ingest import log_inspection
 
     record = dict(lot=lot, inspected_on=inspected_on or dt.date.today().isoformat(), method=method,
                   quantity=quantity, result=result, defect=defect, zone=zone, xray_category=xray_category,
                   severity=severity, serial=serial, inspector=inspector, notes=notes)
     with open_store(db_path) as store:
-        rid = log_inspection(store, record, by=_who(by), source="cli")
+        rid = log_inspection(store, record, by=who(by), source="cli")
         rec = store.inspection(rid)
     emit(rec, as_json, lambda r: f"Logged record {r['id']}: lot {r['lot']}, {r['quantity']} x {r['result']}"
          + (f" ({r['defect']}" + (f", zone {r['zone']}" if r['zone'] else "") + ")" if r["defect"] else ""))
 
 
-@main.command()
+@command()
 @click.argument("record_id", type=click.IntRange(1, MAX_RECORD_ID))
 @click.option("--reason", required=True, help="Why the record is corrected.")
 @click.option("--by", default=None, help="Who corrects it (default: login name).")
@@ -253,13 +235,13 @@ def correct(record_id, reason, by, void, db_path, as_json, **changes):
     if void:
         changes["void"] = True
     with open_store(db_path) as store:
-        rid = correct_inspection(store, record_id, changes, by=_who(by), reason=reason)
+        rid = correct_inspection(store, record_id, changes, by=who(by), reason=reason)
         rec = store.inspection(rid)
     emit(rec, as_json, lambda r: f"Record {record_id} superseded by record {r['id']}"
          + (" (withdrawn)" if r["void"] else ""))
 
 
-@main.command()
+@command()
 @click.option("--lot", default=None, help="Only this lot.")
 @click.option("--limit", type=click.IntRange(1, 1_000_000), default=50, show_default=True,
               help="Newest records to show.")
@@ -287,7 +269,7 @@ def history(lot, limit, db_path, as_json):
         ("correction_why", "why")]))
 
 
-@main.command()
+@command()
 @click.argument("file", type=click.Path(dir_okay=False))
 @db_option
 @handle_errors
@@ -314,7 +296,7 @@ def backup(file, db_path):
     click.echo(f"Note: {done['note']}")
 
 
-@main.command()
+@command()
 @click.argument("backup_file", type=click.Path(exists=True, dir_okay=False))
 @db_option
 @handle_errors

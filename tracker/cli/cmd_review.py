@@ -6,25 +6,24 @@ import pathlib
 
 import click
 
-from tracker.cli import (
-    Steps,
+from tracker.cli.command import command
+from tracker.cli.errors import handle_errors
+from tracker.cli.options import (
     db_option,
-    emit,
-    handle_errors,
-    main,
     open_store,
     plant_option,
-    resolve_units,
-    show_progress,
     target_option,
     units_option,
     week_option,
     weeks_option,
 )
+from tracker.cli.output import emit, show_progress
+from tracker.cli.steps import Steps
+from tracker.log.settings import resolve_units
 from tracker.review.report import FORMATS
 
 
-@main.command()
+@command()
 @week_option
 @weeks_option
 @target_option

@@ -2,29 +2,34 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass, replace
+from typing import Any
+
 import click
 
 from tracker import units
-from tracker.cli import (
-    caution_text,
+from tracker.cli.command import command
+from tracker.cli.errors import handle_errors
+from tracker.cli.options import (
     db_option,
-    emit,
-    handle_errors,
     json_option,
-    main,
+    log_exists,
     measure_option,
     open_store,
-    resolve_units,
     take_measures,
     units_option,
 )
+from tracker.cli.output import caution_text, emit
 from tracker.design.alloys import ALLOYS
 from tracker.errors import BadInput
+from tracker.log.settings import resolve_units
 
 _EXPLICIT = ("alloy", "length_mm", "width_mm", "thickness_mm", "diameter_mm", "height_mm", "placement")
+_LENGTHS = ("length_mm", "width_mm", "thickness_mm", "diameter_mm", "height_mm", "neck_diameter_mm")
+_MEASURES = (*_LENGTHS, "pour_temp_c")
 
 
-@main.command()
+@command()
 @click.option("--pattern", default=None, help="Pattern in the log (with --zone).")
 @click.option("--zone", default=None, help="Zone of the pattern fed by the riser.")
 @click.option("--riser", default=None, help="Riser feeding the zone (needed where several feed it).")
@@ -64,64 +69,26 @@ def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould
         pourback thermal --pattern P-1004 --zone body
 
         pourback thermal --alloy steel --length-mm 300 --width-mm 300 --thickness-mm 50 --diameter-mm 155 --height-mm 155 --placement top
-    """
+    """  # noqa: E501 (an example stays on one line, to paste and run)
     from tracker.thermal import run
-    from tracker.thermal.cases import case_from_log
-    from tracker.thermal.mesh import ThermalCase
 
-    if units_override is None and _log_exists(db_path):
+    if units_override is None and log_exists(db_path):
         with open_store(db_path) as store:
             system = resolve_units(store, units_override)
     else:  # a missing log is an error only where the command needs it
         system = resolve_units(None, units_override)
-    names = ("length_mm", "width_mm", "thickness_mm", "diameter_mm", "height_mm", "neck_diameter_mm", "pour_temp_c")
-    m = take_measures(system, measures, *names)
-    opt = {k: units.option_name(k, system) for k in names}
-    for k in names[:-1]:
+    m = take_measures(system, measures, *_MEASURES)
+    opt = {k: units.option_name(k, system) for k in _MEASURES}
+    for k in _LENGTHS:
         if m[k] is not None and not m[k] > 0:
             raise BadInput(opt[k], units.value_in(k, m[k], system),
                            f"must be a length above 0 {units.symbol(k, system)}")
-    length_mm, width_mm, thickness_mm, diameter_mm, height_mm, neck_diameter_mm, pour_temp_c = (m[k] for k in names)
-
-    explicit = dict(alloy=alloy, length_mm=length_mm, width_mm=width_mm, thickness_mm=thickness_mm,
-                    diameter_mm=diameter_mm, height_mm=height_mm, placement=placement)
-    given = [k for k, v in explicit.items() if v is not None]
+    explicit = {"alloy": alloy, **{k: m[k] for k in _LENGTHS[:-1]}, "placement": placement}
+    given = _Given(explicit, m, sleeve, sleeve_factor, opt, system)
     if pattern is not None or zone is not None:
-        if pattern is None or zone is None:
-            raise BadInput("pattern" if pattern is None else "zone", None,
-                           "--pattern and --zone go together; give both")
-        extra = [(k, v) for k, v in (*explicit.items(), ("neck_diameter_mm", neck_diameter_mm),
-                                     ("sleeve", sleeve or None), ("sleeve-factor", sleeve_factor)) if v is not None]
-        if extra:
-            k, v = extra[0]
-            raise BadInput(opt[k] if k in opt else "--" + k, units.value_in(k, v, system) if k in opt else v,
-                           "the geometry comes from the log with --pattern/--zone; leave the geometry options out")
-        with open_store(db_path) as store:
-            case = case_from_log(store, pattern, zone, riser, mould)
-        if pour_temp_c is not None:
-            case = _replace(case, pour_temp_c=pour_temp_c)
+        case = _case_from_log(db_path, pattern, zone, riser, mould, given)
     else:
-        if riser is not None:
-            raise BadInput("riser", riser, "--riser needs --pattern and --zone")
-        missing = [k for k in _EXPLICIT if explicit[k] is None]
-        if missing:
-            raise BadInput(opt.get(missing[0], "--" + missing[0]), None,
-                           f"give --pattern and --zone, or all of --alloy, {opt['length_mm']}, {opt['width_mm']}, "
-                           f"{opt['thickness_mm']}, {opt['diameter_mm']}, {opt['height_mm']} and --placement")
-        if sleeve and sleeve_factor is not None:
-            raise BadInput("sleeve-factor", sleeve_factor, "give --sleeve or --sleeve-factor, not both")
-        if neck_diameter_mm is not None and neck_diameter_mm > diameter_mm:
-            raise BadInput(opt["neck_diameter_mm"].lstrip("-"), units.value_in("diameter_mm", neck_diameter_mm, system),
-                           f"a neck wider than the riser ({units.value_in('diameter_mm', diameter_mm, system):g} "
-                           f"{units.symbol('diameter_mm', system)}) is not a neck; give at most the riser diameter")
-        factor = 1.0 if sleeve_factor is None else sleeve_factor
-        if sleeve:
-            with open_store(db_path) as store:
-                factor = float(store.sleeve(sleeve)["modulus_factor"])
-        case = ThermalCase(alloy=alloy.strip().lower(), placement=placement, thickness_mm=thickness_mm,
-                           length_mm=length_mm, width_mm=width_mm, diameter_mm=diameter_mm,
-                           height_mm=height_mm, neck_diameter_mm=neck_diameter_mm,
-                           sleeve_factor=factor, pour_temp_c=pour_temp_c, mould=mould)
+        case = _case_from_options(db_path, riser, mould, given)
     result = run(case, cells_across=cells_across, keep_maps=False)
     if as_json:
         emit(thermal_record(result, system), True)
@@ -129,10 +96,75 @@ def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould
         click.echo(format_thermal(result, system))
 
 
-def _log_exists(db_path) -> bool:
-    from tracker.cli.cmd_design import _log_exists as exists
+@dataclass(frozen=True)
+class _Given:
+    """What the options give of the case: ``explicit`` the geometry options by
+    name (alloy, lengths in mm, placement), ``m`` every measure in metric, the
+    sleeve options, ``opt`` the measures' option names in ``system``."""
 
-    return exists(db_path)
+    explicit: dict
+    m: dict
+    sleeve: str | None
+    sleeve_factor: float | None
+    opt: dict[str, str]
+    system: str
+
+    def refuse(self, key: str, value: Any, rule: str) -> BadInput:
+        """The error for option ``key`` (a measure's metric name or an option's
+        name) given ``value`` (a measure in metric)."""
+        if key in self.opt:
+            return BadInput(self.opt[key], units.value_in(key, value, self.system), rule)
+        return BadInput("--" + key, value, rule)
+
+
+def _case_from_log(db_path: str | None, pattern: str | None, zone: str | None, riser: str | None, mould: str,
+                   given: _Given) -> Any:
+    """The case of a pattern's zone in the log; no geometry option may be given with it."""
+    from tracker.thermal.cases import case_from_log
+
+    if pattern is None or zone is None:
+        raise BadInput("pattern" if pattern is None else "zone", None,
+                       "--pattern and --zone go together; give both")
+    extra = [(k, v) for k, v in (*given.explicit.items(), ("neck_diameter_mm", given.m["neck_diameter_mm"]),
+                                 ("sleeve", given.sleeve or None), ("sleeve-factor", given.sleeve_factor))
+             if v is not None]
+    if extra:
+        raise given.refuse(*extra[0], "the geometry comes from the log with --pattern/--zone; leave the "
+                           "geometry options out")
+    with open_store(db_path) as store:
+        case = case_from_log(store, pattern, zone, riser, mould)
+    if given.m["pour_temp_c"] is not None:
+        case = replace(case, pour_temp_c=given.m["pour_temp_c"])
+    return case
+
+
+def _case_from_options(db_path: str | None, riser: str | None, mould: str, given: _Given) -> Any:
+    """The case the geometry options describe; every one of them is needed."""
+    from tracker.thermal.mesh import ThermalCase
+
+    if riser is not None:
+        raise BadInput("riser", riser, "--riser needs --pattern and --zone")
+    explicit, m, opt, system = given.explicit, given.m, given.opt, given.system
+    missing = [k for k in _EXPLICIT if explicit[k] is None]
+    if missing:
+        raise BadInput(opt.get(missing[0], "--" + missing[0]), None,
+                       f"give --pattern and --zone, or all of --alloy, {opt['length_mm']}, {opt['width_mm']}, "
+                       f"{opt['thickness_mm']}, {opt['diameter_mm']}, {opt['height_mm']} and --placement")
+    if given.sleeve and given.sleeve_factor is not None:
+        raise BadInput("sleeve-factor", given.sleeve_factor, "give --sleeve or --sleeve-factor, not both")
+    neck, diameter = m["neck_diameter_mm"], m["diameter_mm"]
+    if neck is not None and neck > diameter:
+        raise BadInput(opt["neck_diameter_mm"].lstrip("-"), units.value_in("diameter_mm", neck, system),
+                       f"a neck wider than the riser ({units.value_in('diameter_mm', diameter, system):g} "
+                       f"{units.symbol('diameter_mm', system)}) is not a neck; give at most the riser diameter")
+    factor = 1.0 if given.sleeve_factor is None else given.sleeve_factor
+    if given.sleeve:
+        with open_store(db_path) as store:
+            factor = float(store.sleeve(given.sleeve)["modulus_factor"])
+    return ThermalCase(alloy=explicit["alloy"].strip().lower(), placement=explicit["placement"],
+                       thickness_mm=m["thickness_mm"], length_mm=m["length_mm"], width_mm=m["width_mm"],
+                       diameter_mm=diameter, height_mm=m["height_mm"], neck_diameter_mm=neck,
+                       sleeve_factor=factor, pour_temp_c=m["pour_temp_c"], mould=mould)
 
 
 def thermal_record(result, system: str) -> dict:
@@ -143,12 +175,6 @@ def thermal_record(result, system: str) -> dict:
             d[k] = units.value_in("niyama", d[k], system)
         d["niyama_unit"] = units.symbol("niyama", system)
     return d
-
-
-def _replace(case, **kw):
-    from dataclasses import replace
-
-    return replace(case, **kw)
 
 
 def _at(p, system: str = units.METRIC) -> str:

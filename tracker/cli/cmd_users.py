@@ -10,8 +10,10 @@ import sys
 
 import click
 
-from tracker.cli import db_option, emit, handle_errors, json_option, main, open_store, table
-from tracker.cli.cmd_log import _who
+from tracker.cli.command import command, group
+from tracker.cli.errors import handle_errors
+from tracker.cli.options import db_option, json_option, open_store, who
+from tracker.cli.output import emit, table
 
 by_option = click.option("--by", default=None, help="Who makes the change (recorded in the audit; "
                                                     "default: login name).")
@@ -30,7 +32,7 @@ def _read_password(from_stdin: bool) -> str:
                         confirmation_prompt="Repeat the password", prompt_suffix=": ")
 
 
-@main.group()
+@group()
 def user():
     """Accounts that sign in to a served dashboard, and their roles.
 
@@ -63,7 +65,7 @@ def user_add(name, role, password_stdin, by, db_path):
     auth.check_role(role)
     password = _read_password(password_stdin)
     with open_store(db_path, create=True) as store:
-        acc = auth.add_user(store, name, role, password, by=_who(by))
+        acc = auth.add_user(store, name, role, password, by=who(by))
     click.echo(f"Added user {acc['name']} (role {acc['role']}) to {store.name}")
 
 
@@ -106,7 +108,7 @@ def user_passwd(name, password_stdin, by, db_path):
     with open_store(db_path) as store:
         auth.find_user(store, name)  # before asking for a password
         password = _read_password(password_stdin)
-        acc = auth.set_password(store, name, password, by=_who(by))
+        acc = auth.set_password(store, name, password, by=who(by))
     click.echo(f"New password set for {acc['name']}; its open sessions are ended")
 
 
@@ -126,7 +128,7 @@ def user_disable(name, by, db_path):
     from tracker.log import accounts as auth
 
     with open_store(db_path) as store:
-        acc = auth.set_enabled(store, name, False, by=_who(by))
+        acc = auth.set_enabled(store, name, False, by=who(by))
     click.echo(f"Disabled user {acc['name']}")
     if acc["enabled_admins"] == 0:
         click.echo("Note: the log has no enabled admin account now; the dashboard will not start beyond "
@@ -148,7 +150,7 @@ def user_enable(name, by, db_path):
     from tracker.log import accounts as auth
 
     with open_store(db_path) as store:
-        acc = auth.set_enabled(store, name, True, by=_who(by))
+        acc = auth.set_enabled(store, name, True, by=who(by))
     click.echo(f"Enabled user {acc['name']}")
 
 
@@ -166,7 +168,7 @@ def user_roles(as_json):
     emit(auth.role_table(), as_json, lambda rs: table(rs, [("role", "role"), ("may", "may")]))
 
 
-@main.command("audit")
+@command("audit")
 @click.option("--since", default=None, help="Only entries from this date (YYYY-MM-DD) or time "
                                             "(YYYY-MM-DDTHH:MM, UTC) on.")
 @db_option

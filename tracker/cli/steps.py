@@ -8,9 +8,10 @@ from __future__ import annotations
 import sys
 import threading
 import time
+from typing import IO, Any
 
 
-def terminal(stream) -> bool:
+def terminal(stream: Any) -> bool:
     """True when ``stream`` is a terminal."""
     try:
         return bool(stream.isatty())
@@ -31,26 +32,24 @@ class Steps:
     TICK_S = 0.2
     DELAY_S = 0.5
 
-    def __init__(self, show: bool, stream=None):
+    def __init__(self, show: bool, stream: IO[str] | None = None):
         self.show = show
         self.stream = stream or sys.stderr
-        self._label = None
+        self._label: str | None = None
         self._started = 0.0
         self._shown = False
-        self._stop = None
-        self._thread = None
-        self._lock = None
+        self._lock = threading.Lock()
+        self._stop = threading.Event()
+        self._thread: threading.Thread | None = None  # runs only while shown
 
     def __enter__(self) -> Steps:
         if self.show:
-            self._lock = threading.Lock()
-            self._stop = threading.Event()
             self._thread = threading.Thread(target=self._tick, daemon=True)
             self._thread.start()
         return self
 
-    def __exit__(self, *exc) -> None:
-        if not self.show:
+    def __exit__(self, *exc: object) -> None:
+        if self._thread is None:
             return
         self._stop.set()
         self._thread.join()
