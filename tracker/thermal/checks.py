@@ -7,12 +7,13 @@ case is a frozen dataclass), so a riser judged twice is solved once.
 from __future__ import annotations
 
 import functools
-import math
 import time
 
 import pandas as pd
 
 from tracker import units
+from tracker.errors import NotFound
+from tracker.numbers import finite
 from tracker.thermal import ThermalCase, ThermalResult, reasons_text, run
 from tracker.thermal.cases import case_from_row, pour_temp_for
 
@@ -43,12 +44,8 @@ def check_row(row: dict, pour_temp_c: float | None = None, mould: str = "silica_
 def fields(result: ThermalResult) -> dict:
     """The few figures that go beside a riser's rule margins."""
     return {"thermal_ok": bool(result.thermal_ok), "last_to_freeze": result.last_to_freeze,
-            "freeze_ratio": _finite(result.freeze_ratio), "isolated_liquid": bool(result.isolated_liquid),
-            "min_niyama": _finite(result.min_niyama)}
-
-
-def _finite(v):
-    return None if v is None or not math.isfinite(v) else float(v)
+            "freeze_ratio": finite(result.freeze_ratio), "isolated_liquid": bool(result.isolated_liquid),
+            "min_niyama": finite(result.min_niyama)}
 
 
 def thermal_columns(store, judged: pd.DataFrame, columns=THERMAL_COLUMNS) -> pd.DataFrame:
@@ -108,8 +105,6 @@ def changed_row(store, pattern: str, revision: str, riser: str, diameter_mm: flo
     rows = store.risers_frame(pattern=pattern, revision=revision)
     hit = rows[rows["riser"] == riser]
     if hit.empty:
-        from tracker.errors import NotFound
-
         raise NotFound("riser", riser, f"{pattern} revision {revision} has " + ", ".join(rows["riser"]))
     row = hit.iloc[0].to_dict()
     row.update(diameter_mm=float(diameter_mm), height_mm=float(height_mm or row["height_mm"]))
