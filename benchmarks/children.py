@@ -323,11 +323,11 @@ def _c_dashboard(db: str, page: str, warm: bool = False) -> dict:
 
     st_logger.set_log_level("error")  # no "bare mode" warnings in the middle of the report
     if warm:
-        import altair  # noqa: F401
+        import altair  # noqa: F401 (imported before the clock starts, as a running dashboard has it)
 
-        import tracker.advice.suggest  # noqa: F401
-        import tracker.review.weekly  # noqa: F401
-        import tracker.views  # noqa: F401
+        import tracker.advice.suggest  # noqa: F401 (imported before the clock starts)
+        import tracker.review.weekly  # noqa: F401 (imported before the clock starts)
+        import tracker.views  # noqa: F401 (imported before the clock starts)
 
     at = AppTest.from_file(page, default_timeout=900)
     first, _ = _timed(at.run)

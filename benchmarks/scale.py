@@ -287,6 +287,7 @@ def run(lots: int = DEFAULT_LOTS, *, keep: str | os.PathLike | None = None, seed
 
 
 def main(argv=None) -> int:
+    """``python -m benchmarks.scale``: run the benchmark and print its report (text or ``--json``)."""
     parser = argparse.ArgumentParser(
         prog="python -m benchmarks.scale",
         description="Scale benchmark on a synthetic ten-year history (see the module docstring).")

@@ -146,6 +146,33 @@ def check_suggestions(store, suggestions: list[dict]) -> list[dict | None]:
 MAX_SOLVES_PER_ZONE = 6
 
 
+def _zone_notes(priced: pd.DataFrame, choose, failed: dict, original: pd.Series,
+                system: str) -> dict:
+    """A note per zone on its thermal check; a zone where every candidate tried failed
+    gets its rule-based ``full_ok`` back from ``original`` (in ``priced``)."""
+    notes = {}
+    chosen = choose(priced)
+    for z, c in chosen.iterrows():
+        ok = priced.at[c["_cand"], "thermal_ok"]
+        fails = failed.get(z, [])
+        if ok is True and not fails:
+            notes[z] = (" Thermal check: passes (the riser freezes last, nothing cut off, Niyama at or above "
+                        "the threshold where one applies).")
+        elif ok is True:
+            first = fails[0]
+            notes[z] = (f" Thermal check: the first choice ({first[0]}, {units.say('diameter_mm', first[1], system)}) "
+                        "fails (" + "; ".join(first[2]) + "); this is the next candidate that passes"
+                        + (f" ({len(fails)} failed before it)." if len(fails) > 1 else "."))
+        elif fails:
+            # none tried passes: keep the rule-based choice, say so
+            zone_c = priced["_z"] == z
+            priced.loc[zone_c, "full_ok"] = original[zone_c]
+            notes[z] = (f" Thermal check: none of the {len(fails)} candidates tried passes ("
+                        + "; ".join(fails[0][2]) + "); the rule-based choice stands: confirm it by a full "
+                        "solidification simulation or a trial pour.")
+    return notes
+
+
 def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
            max_solves: int = MAX_SOLVES_PER_ZONE, system: str = "metric") -> tuple[pd.DataFrame, dict]:
     """The thermal check before ``choose`` (``tracker.advice.suggest``'s choice of one candidate per zone).
@@ -191,26 +218,7 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
             priced.at[cand, "full_ok"] = False
             if tries[z] >= max_solves:
                 done.add(z)
-    notes = {}
-    chosen = choose(priced)
-    for z, c in chosen.iterrows():
-        ok = priced.at[c["_cand"], "thermal_ok"]
-        fails = failed.get(z, [])
-        if ok is True and not fails:
-            notes[z] = (" Thermal check: passes (the riser freezes last, nothing cut off, Niyama at or above "
-                        "the threshold where one applies).")
-        elif ok is True:
-            first = fails[0]
-            notes[z] = (f" Thermal check: the first choice ({first[0]}, {units.say('diameter_mm', first[1], system)}) "
-                        "fails (" + "; ".join(first[2]) + "); this is the next candidate that passes"
-                        + (f" ({len(fails)} failed before it)." if len(fails) > 1 else "."))
-        elif fails:
-            # none tried passes: keep the rule-based choice, say so
-            zone_c = priced["_z"] == z
-            priced.loc[zone_c, "full_ok"] = original[zone_c]
-            notes[z] = (f" Thermal check: none of the {len(fails)} candidates tried passes ("
-                        + "; ".join(fails[0][2]) + "); the rule-based choice stands: confirm it by a full "
-                        "solidification simulation or a trial pour.")
+    notes = _zone_notes(priced, choose, failed, original, system)
     return priced, notes
 
 

@@ -79,6 +79,7 @@ class ThermalCase:
     label: str = ""
 
     def to_dict(self) -> dict:
+        """The case as a plain dict (the keys of its fields)."""
         return asdict(self)
 
 

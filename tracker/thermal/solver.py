@@ -46,17 +46,21 @@ class Grid:
 
     @property
     def shape(self):
+        """(nz, nx) cells."""
         return self.region.shape
 
     @property
     def xc(self):
+        """Cell centres along x (or r), m."""
         return 0.5 * (self.x_edges[1:] + self.x_edges[:-1])
 
     @property
     def zc(self):
+        """Cell centres along z, m."""
         return 0.5 * (self.z_edges[1:] + self.z_edges[:-1])
 
     def volumes(self) -> np.ndarray:
+        """Cell volumes, m³ (per metre of depth where planar)."""
         dz = np.diff(self.z_edges)[:, None]
         if self.axisymmetric:
             return np.pi * np.diff(self.x_edges**2)[None, :] * dz
@@ -76,6 +80,7 @@ class PhaseCurve:
 
     @classmethod
     def from_alloy(cls, alloy) -> PhaseCurve:
+        """The curve of a ``properties.ThermalAlloy`` (its solid fraction against temperature)."""
         pts = sorted(alloy.fs_curve, key=lambda p: (p[0], -p[1]))
         t = np.array([p[0] for p in pts], dtype=float)
         fl = 1.0 - np.array([p[1] for p in pts], dtype=float)
@@ -91,6 +96,7 @@ class PhaseCurve:
         return np.diff(self.t) / np.diff(self.h)
 
     def temperature(self, h):
+        """T (°C) at enthalpy per volume h (J/m³)."""
         return np.interp(h, self.h, self.t)
 
     def enthalpy(self, t):
@@ -100,16 +106,20 @@ class PhaseCurve:
         return np.interp(t, self.t, self.h)
 
     def liquid_fraction(self, h):
+        """Liquid fraction (0..1) at enthalpy per volume h (J/m³)."""
         c, lv = self.volumetric_heat, self.volumetric_latent
         return np.clip((h - c * self.temperature(h)) / lv, 0.0, 1.0)
 
     @property
     def h_solidus(self) -> float:
+        """Enthalpy per volume at the solidus, J/m³ (all latent heat released)."""
         return self.volumetric_heat * self.solidus
 
 
 @dataclass
 class SolveOutput:
+    """What one solve gives: times in s, positions in m, maps of (nz, nx) cells."""
+
     grid: Grid
     time_step_s: float
     steps: int
@@ -164,9 +174,11 @@ class _Sweep:
         self.inv_heat = 1.0 / self.flat(heat)
 
     def flat(self, a):
+        """A (nz, nx) array as this direction's lines, one after the other."""
         return (a.T if self.transpose else a).ravel()
 
     def unflat(self, v, shape):
+        """The inverse of ``flat`` for an array of ``shape``."""
         if self.transpose:
             return v.reshape(shape[1], shape[0]).T
         return v.reshape(shape)
