@@ -15,9 +15,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from tracker import units
-from tracker.thermal import properties
 from tracker.thermal.mesh import ThermalCase, build, model_kind, neck_note, validate
-from tracker.thermal.properties import NIYAMA_UNIT
+from tracker.thermal.properties import FEEDING_SOLID_FRACTION, NIYAMA_EVAL_SHARE, NIYAMA_UNIT
 from tracker.thermal.solver import NECK, RISER, SECTION, solve
 
 # A pocket of cut-off liquid smaller than this share of the section's volume is
@@ -117,8 +116,7 @@ def run(case: ThermalCase, cells_across: int | None = None, keep_maps: bool = Tr
     kw = {} if cells_across is None else {"cells_across": cells_across}
     b = build(case, **kw)
     out = solve(b.grid, b.k, b.heat, b.curve, b.t_init, b.dt, b.t_max,
-                niyama_share=properties.NIYAMA_EVAL_SHARE,
-                feeding_fraction=properties.FEEDING_SOLID_FRACTION)
+                niyama_share=NIYAMA_EVAL_SHARE, feeding_fraction=FEEDING_SOLID_FRACTION)
     return judge(case, b, out, keep_maps)
 
 

@@ -40,10 +40,10 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 
+import tracker.thermal.properties as props
 from tracker import units
 from tracker.design import geometry, rules
 from tracker.errors import BadInput
-from tracker.thermal import properties as props
 from tracker.thermal.solver import MOULD, NECK, RISER, SECTION, SLEEVE, Grid, PhaseCurve, solve
 
 LONG_PLATE_RATIO = 2.0          # length / width above which a top riser's section is planar
