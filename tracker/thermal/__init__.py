@@ -1,6 +1,6 @@
 """Thermal check: a solidification solve of one riser and the section it feeds.
 
-``run(case)`` builds the 2-D model (``model.build``), solves it
+``run(case)`` builds the 2-D model (``mesh.build``), solves it
 (``solver.solve``) and judges it: freezing times of section and riser, the
 last point to freeze, liquid in the section cut off from the riser's, and
 Niyama's criterion against the alloy family's threshold. A screening solve,
@@ -14,9 +14,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from tracker.thermal import properties
+from tracker import units
 from tracker.thermal.mesh import ThermalCase, build, model_kind, neck_note, validate
-from tracker.thermal.properties import NIYAMA_UNIT
+from tracker.thermal.properties import FEEDING_SOLID_FRACTION, NIYAMA_EVAL_SHARE, NIYAMA_UNIT
 from tracker.thermal.solver import NECK, RISER, SECTION, solve
 
 # A pocket of cut-off liquid smaller than this share of the section's volume is
@@ -38,6 +38,8 @@ JSON_KEYS = ("section_freeze_s", "riser_freeze_s", "freeze_ratio", "last_to_free
 
 @dataclass
 class ThermalResult:
+    """One judged solve: freezing times in s, positions in mm, the Niyama value in NIYAMA_UNIT."""
+
     case: ThermalCase
     model: str
     section_freeze_s: float
@@ -78,8 +80,6 @@ class ThermalResult:
 
 def _reasons(last: str, isolated: bool, isolated_share: float, min_ny, thr, system: str = "metric") -> list[str]:
     """Why a solve fails the thermal check, in words (the Niyama in ``system``'s unit)."""
-    from tracker import units
-
     reasons = []
     if last != "riser":
         reasons.append("the section freezes after the riser")
@@ -104,11 +104,11 @@ def reasons_text(result: ThermalResult, system: str = "metric") -> list[str]:
 def notes_text(result: ThermalResult, system: str = "metric") -> list[str]:
     """``result.notes`` worded in ``system`` (tracker.units): the one note with a
     length in it, the neck wider than the riser, in inches for ``us``."""
-    case = result.case
-    wide = case.neck_diameter_mm is not None and case.neck_diameter_mm > case.diameter_mm
-    metric = neck_note(case.neck_diameter_mm, case.diameter_mm) if wide else None
-    return [neck_note(case.neck_diameter_mm, case.diameter_mm, system) if wide and n == metric else n
-            for n in result.notes]
+    neck, riser = result.case.neck_diameter_mm, result.case.diameter_mm
+    if neck is None or not neck > riser:
+        return list(result.notes)
+    metric = neck_note(neck, riser)
+    return [neck_note(neck, riser, system) if n == metric else n for n in result.notes]
 
 
 def run(case: ThermalCase, cells_across: int | None = None, keep_maps: bool = True) -> ThermalResult:
@@ -116,12 +116,13 @@ def run(case: ThermalCase, cells_across: int | None = None, keep_maps: bool = Tr
     kw = {} if cells_across is None else {"cells_across": cells_across}
     b = build(case, **kw)
     out = solve(b.grid, b.k, b.heat, b.curve, b.t_init, b.dt, b.t_max,
-                niyama_share=properties.NIYAMA_EVAL_SHARE,
-                feeding_fraction=properties.FEEDING_SOLID_FRACTION)
+                niyama_share=NIYAMA_EVAL_SHARE, feeding_fraction=FEEDING_SOLID_FRACTION)
     return judge(case, b, out, keep_maps)
 
 
 def judge(case, b, out, keep_maps: bool = True) -> ThermalResult:
+    """The result of one solve: ``b`` the built model (``mesh.Built``), ``out`` the
+    solver's output; times in s, positions in mm. ``keep_maps``: keep the cell maps."""
     g = b.grid
     region = g.region
     st = out.solid_time_s

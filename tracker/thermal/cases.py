@@ -15,50 +15,51 @@ latest lot that records one, else the alloy's default.
 from __future__ import annotations
 
 import datetime as dt
-import math
 
 import pandas as pd
 
+from tracker.design.assess import revision_in_effect
 from tracker.errors import BadInput, NotFound
+from tracker.numbers import finite
 from tracker.thermal.mesh import ThermalCase
+from tracker.thermal.properties import thermal_alloy
 
 # The log's mould (rigidity, ``tracker.design.rules.MOULDS``) as a thermal mould: a rigid
 # mould is taken as chemically bonded sand, green sand as silica sand (common practice).
 MOULD_OF_RIGIDITY = {"green_sand": "silica_sand", "rigid": "chemically_bonded"}
+LENGTH_RULE = "must be a length above 0 mm"     # validate()'s words for a missing diameter or height
 
 
-def _num(v):
-    try:
-        f = float(v)
-    except (TypeError, ValueError):
-        return None
-    return f if math.isfinite(f) else None
+def _required(row: dict, key: str, reason: str) -> float:
+    """``row[key]`` as a finite float; BadInput (named as the option) where it is missing."""
+    v = finite(row.get(key))
+    if v is None:
+        raise BadInput(key.replace("_", "-"), None, reason)
+    return v
 
 
 def case_from_row(row: dict, pour_temp_c: float | None = None, mould: str = "silica_sand") -> ThermalCase:
     """The thermal case of one row of ``Store.risers_frame`` (or ``assess`` input)."""
-    share = max(_num(row.get("risers_on_zone")) or 1.0, 1.0)
-    vol = _num(row.get("volume_cm3")) / share
-    area = _num(row.get("cooling_area_cm2")) / share
-    thick = _num(row.get("thickness_mm")) or 20.0 * vol / area
-    length = _num(row.get("length_mm"))
+    share = max(finite(row.get("risers_on_zone")) or 1.0, 1.0)
+    vol = _required(row, "volume_cm3", "give the zone's volume (cm³)") / share
+    area = _required(row, "cooling_area_cm2", "give the zone's cooling area (cm²)") / share
+    thick = finite(row.get("thickness_mm")) or 20.0 * vol / area
+    length = finite(row.get("length_mm"))
     if length and str(row["placement"]) == "top":
         length *= 2.0      # the log's length runs from the riser to the far end; the riser sits mid-section
-    width = _num(row.get("width_mm")) or (vol * 1000.0 / (length * thick) if length else None)
+    width = finite(row.get("width_mm")) or (vol * 1000.0 / (length * thick) if length else None)
     mould = MOULD_OF_RIGIDITY.get(str(row.get("mould") or "").strip().lower(), mould)
     return ThermalCase(
         alloy=str(row["alloy"]), placement=str(row["placement"]), thickness_mm=thick,
-        length_mm=length, width_mm=width, diameter_mm=_num(row["diameter_mm"]),
-        height_mm=_num(row["height_mm"]), neck_diameter_mm=_num(row.get("neck_diameter_mm")),
-        sleeve_factor=_num(row.get("sleeve_factor")) or 1.0, pour_temp_c=pour_temp_c, mould=mould,
+        length_mm=length, width_mm=width, diameter_mm=_required(row, "diameter_mm", LENGTH_RULE),
+        height_mm=_required(row, "height_mm", LENGTH_RULE), neck_diameter_mm=finite(row.get("neck_diameter_mm")),
+        sleeve_factor=finite(row.get("sleeve_factor")) or 1.0, pour_temp_c=pour_temp_c, mould=mould,
         volume_cm3=vol, area_cm2=area,
         label=f"{row.get('pattern', '')} {row.get('zone', '')} {row.get('riser', '')}".strip())
 
 
 def current_risers(store, pattern: str, on: str | None = None) -> pd.DataFrame:
     """The risers of ``pattern``'s revision in effect on ``on`` (default today)."""
-    from tracker.design.assess import revision_in_effect
-
     on = on or dt.date.today().isoformat()
     store.pattern(pattern)
     risers = store.risers_frame(pattern=pattern)
@@ -90,8 +91,6 @@ def case_from_log(store, pattern: str, zone: str, riser: str | None = None,
 def pour_temp_for(store, pattern: str, alloy: str) -> float | None:
     """The latest lot's pouring temperature, or None (the alloy's default) where the
     log has none or it does not lie above the alloy's liquidus."""
-    from tracker.thermal.properties import thermal_alloy
-
     t = store.latest_pour_temps([pattern]).get(pattern)
     a = thermal_alloy(alloy)
     return t if t is not None and a.liquidus_c < t < a.liquidus_c + 500 else None

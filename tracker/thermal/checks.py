@@ -7,12 +7,13 @@ case is a frozen dataclass), so a riser judged twice is solved once.
 from __future__ import annotations
 
 import functools
-import math
 import time
 
 import pandas as pd
 
 from tracker import units
+from tracker.errors import NotFound
+from tracker.numbers import finite
 from tracker.thermal import ThermalCase, ThermalResult, reasons_text, run
 from tracker.thermal.cases import case_from_row, pour_temp_for
 
@@ -43,12 +44,8 @@ def check_row(row: dict, pour_temp_c: float | None = None, mould: str = "silica_
 def fields(result: ThermalResult) -> dict:
     """The few figures that go beside a riser's rule margins."""
     return {"thermal_ok": bool(result.thermal_ok), "last_to_freeze": result.last_to_freeze,
-            "freeze_ratio": _finite(result.freeze_ratio), "isolated_liquid": bool(result.isolated_liquid),
-            "min_niyama": _finite(result.min_niyama)}
-
-
-def _finite(v):
-    return None if v is None or not math.isfinite(v) else float(v)
+            "freeze_ratio": finite(result.freeze_ratio), "isolated_liquid": bool(result.isolated_liquid),
+            "min_niyama": finite(result.min_niyama)}
 
 
 def thermal_columns(store, judged: pd.DataFrame, columns=THERMAL_COLUMNS) -> pd.DataFrame:
@@ -108,8 +105,6 @@ def changed_row(store, pattern: str, revision: str, riser: str, diameter_mm: flo
     rows = store.risers_frame(pattern=pattern, revision=revision)
     hit = rows[rows["riser"] == riser]
     if hit.empty:
-        from tracker.errors import NotFound
-
         raise NotFound("riser", riser, f"{pattern} revision {revision} has " + ", ".join(rows["riser"]))
     row = hit.iloc[0].to_dict()
     row.update(diameter_mm=float(diameter_mm), height_mm=float(height_mm or row["height_mm"]))
@@ -149,6 +144,33 @@ def check_suggestions(store, suggestions: list[dict]) -> list[dict | None]:
 # --- suggest: the thermal filter before the choice ------------------------------------
 
 MAX_SOLVES_PER_ZONE = 6
+
+
+def _zone_notes(priced: pd.DataFrame, choose, failed: dict, original: pd.Series,
+                system: str) -> dict:
+    """A note per zone on its thermal check; a zone where every candidate tried failed
+    gets its rule-based ``full_ok`` back from ``original`` (in ``priced``)."""
+    notes = {}
+    chosen = choose(priced)
+    for z, c in chosen.iterrows():
+        ok = priced.at[c["_cand"], "thermal_ok"]
+        fails = failed.get(z, [])
+        if ok is True and not fails:
+            notes[z] = (" Thermal check: passes (the riser freezes last, nothing cut off, Niyama at or above "
+                        "the threshold where one applies).")
+        elif ok is True:
+            first = fails[0]
+            notes[z] = (f" Thermal check: the first choice ({first[0]}, {units.say('diameter_mm', first[1], system)}) "
+                        "fails (" + "; ".join(first[2]) + "); this is the next candidate that passes"
+                        + (f" ({len(fails)} failed before it)." if len(fails) > 1 else "."))
+        elif fails:
+            # none tried passes: keep the rule-based choice, say so
+            zone_c = priced["_z"] == z
+            priced.loc[zone_c, "full_ok"] = original[zone_c]
+            notes[z] = (f" Thermal check: none of the {len(fails)} candidates tried passes ("
+                        + "; ".join(fails[0][2]) + "); the rule-based choice stands: confirm it by a full "
+                        "solidification simulation or a trial pour.")
+    return notes
 
 
 def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
@@ -196,26 +218,7 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
             priced.at[cand, "full_ok"] = False
             if tries[z] >= max_solves:
                 done.add(z)
-    notes = {}
-    chosen = choose(priced)
-    for z, c in chosen.iterrows():
-        ok = priced.at[c["_cand"], "thermal_ok"]
-        fails = failed.get(z, [])
-        if ok is True and not fails:
-            notes[z] = (" Thermal check: passes (the riser freezes last, nothing cut off, Niyama at or above "
-                        "the threshold where one applies).")
-        elif ok is True:
-            first = fails[0]
-            notes[z] = (f" Thermal check: the first choice ({first[0]}, {units.say('diameter_mm', first[1], system)}) "
-                        "fails (" + "; ".join(first[2]) + "); this is the next candidate that passes"
-                        + (f" ({len(fails)} failed before it)." if len(fails) > 1 else "."))
-        elif fails:
-            # none tried passes: keep the rule-based choice, say so
-            zone_c = priced["_z"] == z
-            priced.loc[zone_c, "full_ok"] = original[zone_c]
-            notes[z] = (f" Thermal check: none of the {len(fails)} candidates tried passes ("
-                        + "; ".join(fails[0][2]) + "); the rule-based choice stands: confirm it by a full "
-                        "solidification simulation or a trial pour.")
+    notes = _zone_notes(priced, choose, failed, original, system)
     return priced, notes
 
 

@@ -40,9 +40,10 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 
+import tracker.thermal.properties as props
+from tracker import units
 from tracker.design import geometry, rules
 from tracker.errors import BadInput
-from tracker.thermal import properties as props
 from tracker.thermal.solver import MOULD, NECK, RISER, SECTION, SLEEVE, Grid, PhaseCurve, solve
 
 LONG_PLATE_RATIO = 2.0          # length / width above which a top riser's section is planar
@@ -78,10 +79,12 @@ class ThermalCase:
     label: str = ""
 
     def to_dict(self) -> dict:
+        """The case as a plain dict (the keys of its fields)."""
         return asdict(self)
 
 
 def validate(case: ThermalCase) -> ThermalCase:
+    """``case`` where every figure is usable; BadInput naming the option otherwise."""
     geometry.check_placement(case.placement)
     for name in ("thickness_mm", "diameter_mm", "height_mm"):
         v = getattr(case, name)
@@ -105,6 +108,7 @@ def validate(case: ThermalCase) -> ThermalCase:
 
 
 def model_kind(case: ThermalCase) -> str:
+    """"axisymmetric" or "planar" (see the module docstring)."""
     if case.placement == "side":
         return "planar"
     if case.length_mm and case.width_mm:
@@ -116,6 +120,8 @@ def model_kind(case: ThermalCase) -> str:
 
 @dataclass
 class Built:
+    """One case's model: the grid, per-cell properties (SI) and the time step, s."""
+
     grid: Grid
     k: np.ndarray
     heat: np.ndarray
@@ -174,7 +180,9 @@ def _sleeve_k(factor: float, wall_mm: float, modulus_mm: float, alloy_key: str, 
     target = factor**2 * bare
     lo, hi = math.log(0.01), math.log(mould_.conductivity_w_mk * 2)
     try:
-        return float(math.exp(optimize.brentq(lambda lk: freeze(math.exp(lk), bare / 40.0, 1.5 * target) - target, lo, hi, xtol=0.05)))
+        log_k = optimize.brentq(lambda lk: freeze(math.exp(lk), bare / 40.0, 1.5 * target) - target, lo, hi,
+                                xtol=0.05)
+        return float(math.exp(log_k))
     except ValueError:
         return 0.01       # even the best insulator tried does not reach f²: take it
 
@@ -198,11 +206,11 @@ def _axis(breaks, h, lo_margin, hi_margin, growth=GROWTH):
         else:
             keep[-1] = max(keep[-1], v) if len(keep) > 1 else keep[-1]
     b = np.array(keep)
-    edges = [b[0]]
+    uniform = [b[0]]
     for lo, hi in zip(b[:-1], b[1:], strict=False):
         n = max(1, int(round((hi - lo) / h)))
-        edges.extend(np.linspace(lo, hi, n + 1)[1:])
-    edges = np.array(edges)
+        uniform.extend(np.linspace(lo, hi, n + 1)[1:])
+    edges = np.array(uniform)
 
     def grade(margin):
         out, size, pos = [], h, 0.0
@@ -230,6 +238,13 @@ def _paint(xe, ze, rects):
     return region
 
 
+def _volume_cm3(case: ThermalCase) -> float:
+    """The zone's volume, cm³, where the section's plan needs it (no width, or no length given)."""
+    if case.volume_cm3 is None:
+        raise BadInput("width-mm", None, "give the section's width (or the zone's volume)")
+    return case.volume_cm3
+
+
 def section_dims(case: ThermalCase, kind: str) -> tuple[float, float]:
     """(thickness, extent) of the section in the model, mm.
 
@@ -238,10 +253,7 @@ def section_dims(case: ThermalCase, kind: str) -> tuple[float, float]:
     """
     t = case.thickness_mm
     if kind == "axisymmetric":
-        if case.length_mm and case.width_mm:
-            plan = case.length_mm * case.width_mm
-        else:
-            plan = case.volume_cm3 * 1000.0 / t
+        plan = case.length_mm * case.width_mm if case.length_mm and case.width_mm else _volume_cm3(case) * 1000.0 / t
         return t, math.sqrt(plan / math.pi)
     if case.width_mm:
         t2 = case.width_mm * t / (case.width_mm + t)
@@ -249,10 +261,7 @@ def section_dims(case: ThermalCase, kind: str) -> tuple[float, float]:
         t2 = min(t, 20.0 * case.volume_cm3 / case.area_cm2)
     else:
         t2 = t
-    if case.length_mm:
-        length = case.length_mm
-    else:
-        length = math.sqrt(case.volume_cm3 * 1000.0 / t)
+    length = case.length_mm or math.sqrt(_volume_cm3(case) * 1000.0 / t)
     if case.placement == "top":
         length /= 2.0
     return t2, length
@@ -260,21 +269,27 @@ def section_dims(case: ThermalCase, kind: str) -> tuple[float, float]:
 
 def neck_note(neck_mm: float, riser_mm: float, system: str = "metric") -> str:
     """The note of a neck given wider than its riser, its figures in ``system``."""
-    from tracker import units
-
     return (f"the neck ({units.show('diameter_mm', neck_mm, system)}) is wider than the riser: taken as "
             f"wide as the riser ({units.show('diameter_mm', riser_mm, system)})")
 
 
-def build(case: ThermalCase, cells_across: int = DEFAULT_CELLS_ACROSS,
-          steps_per_section: int = STEPS_PER_SECTION) -> Built:
-    """The grid, properties and time step of one case."""
-    case = validate(case)
-    alloy = props.thermal_alloy(case.alloy)
-    mould_ = props.mould(case.mould)
-    pour = case.pour_temp_c if case.pour_temp_c is not None else alloy.pour_temp_c
-    kind = model_kind(case)
-    notes = []
+@dataclass
+class _Sizes:
+    """The figures the layout and the time step start from (mm, s, W/(m·K))."""
+
+    t_sec: float                # the section's thickness in the model, mm
+    extent: float               # disc radius or length from the riser, mm (``section_dims``)
+    m_riser: float              # the riser's modulus, cm
+    t_sec_est: float            # Chvorinov's freezing time of the section, s
+    t_riser_est: float          # and of the riser (with its sleeve), s
+    sleeved: bool
+    wall: float                 # sleeve wall, mm (0 where bare)
+    k_sleeve: float             # the sleeve wall's conductivity (the mould's where bare)
+    margin: float               # mould around the metal, mm
+
+
+def _sizes(case: ThermalCase, kind: str, alloy: props.ThermalAlloy, mould_: props.Mould, pour: float) -> _Sizes:
+    """Section and riser sizes, Chvorinov's estimates, the sleeve and the mould margin of one case."""
     d, hgt = case.diameter_mm, case.height_mm
     t_sec, extent = section_dims(case, kind)
     m_riser = float(geometry.cylinder_modulus(d / 10, hgt / 10, case.placement))     # cm
@@ -288,72 +303,115 @@ def build(case: ThermalCase, cells_across: int = DEFAULT_CELLS_ACROSS,
                          mould_.key, round(pour)) if sleeved else mould_.conductivity_w_mk
     alpha = mould_.conductivity_w_mk / mould_.volumetric_heat
     t_end = 1.5 * max(t_sec_est, t_riser_est)
+    # deep enough that the heat does not reach the mould's edge by the end of the solve
     margin = float(np.clip(3.5 * math.sqrt(alpha * t_end) * 1000.0, 25.0, 250.0))
+    return _Sizes(t_sec, extent, m_riser, t_sec_est, t_riser_est, sleeved, wall, k_sleeve, margin)
 
-    h = t_sec / cells_across
+
+@dataclass
+class _Layout:
+    """The bodies of one model as rectangles (x0, x1, z0, z1, region code) in mm, the
+    breaks the grid lines keep, and the mould margins beyond x's ends."""
+
+    rects: list
+    xb: list
+    zb: list
+    x_lo: float
+    x_hi: float
+
+
+def _axisymmetric_layout(case: ThermalCase, s: _Sizes, neck_d: float | None, notes: list) -> _Layout:
+    """Riser, neck and section disc on the axis (r from 0), riser on top."""
+    t_sec, wall, sleeved = s.t_sec, s.wall, s.sleeved
+    r_sec = s.extent
+    r_riser = case.diameter_mm / 2.0
+    ln = NECK_LENGTH_SHARE * neck_d if neck_d else 0.0
+    z_rb = t_sec + ln
+    z_rt = z_rb + case.height_mm
+    rects = []
+    if sleeved:
+        rects.append((r_riser, r_riser + wall, z_rb, z_rt, SLEEVE))
+    rects.append((0.0, r_riser, z_rb, z_rt, RISER))
+    if neck_d:
+        rects.append((0.0, neck_d / 2.0, t_sec, z_rb, NECK))
+    rects.append((0.0, r_sec, 0.0, t_sec, SECTION))
+    xb = [0.0, r_riser, r_sec] + ([r_riser + wall] if sleeved else []) + ([neck_d / 2] if neck_d else [])
+    zb = [0.0, t_sec, z_rb, z_rt]
+    if r_riser + wall > r_sec:
+        notes.append("riser wider than the section's equivalent disc")
+    return _Layout(rects, xb, zb, 0.0, s.margin)
+
+
+def _side_layout(case: ThermalCase, s: _Sizes, neck_d: float | None) -> _Layout:
+    """Planar cut: the riser left of the section's fed end (x = 0), joined by its neck."""
+    t_sec, wall, sleeved, extent = s.t_sec, s.wall, s.sleeved, s.extent
+    hgt = case.height_mm
+    w = 2.0 * s.m_riser * 10 * hgt / (hgt - 2.0 * s.m_riser * 10)
+    n2 = min(neck_d / 2.0, t_sec, hgt) if neck_d else min(t_sec, hgt)
+    ln = max(NECK_LENGTH_SHARE * neck_d if neck_d else 0.0, wall)
+    zc = min(t_sec / 2.0, hgt - n2 / 2.0)
+    x_r1 = -ln
+    x_r0 = x_r1 - w
+    rects = []
+    if sleeved:
+        rects.append((x_r0 - wall, x_r1 + wall, 0.0, hgt, SLEEVE))
+    rects.append((x_r0, x_r1, 0.0, hgt, RISER))
+    if ln > 0:
+        rects.append((x_r1 - 1e-6, 0.0, zc - n2 / 2.0, zc + n2 / 2.0, NECK))
+    rects.append((0.0, extent, 0.0, t_sec, SECTION))
+    xb = [x_r0, x_r1, 0.0, extent] + ([x_r0 - wall, x_r1 + wall] if sleeved else [])
+    zb = [0.0, t_sec, hgt, zc - n2 / 2.0, zc + n2 / 2.0]
+    return _Layout(rects, xb, zb, s.margin, s.margin)
+
+
+def _top_planar_layout(case: ThermalCase, s: _Sizes, neck_d: float | None) -> _Layout:
+    """Planar cut of a long plate: half the riser on top of the section's middle (x = 0)."""
+    t_sec, wall, sleeved, extent = s.t_sec, s.wall, s.sleeved, s.extent
+    hgt = case.height_mm
+    w = 2.0 * s.m_riser * 10 * hgt / (hgt - s.m_riser * 10)
+    n2 = min(neck_d / 2.0, w) if neck_d else 0.0
+    ln = NECK_LENGTH_SHARE * neck_d if neck_d else 0.0
+    z_rb = t_sec + ln
+    z_rt = z_rb + hgt
+    rects = []
+    if sleeved:
+        rects.append((w / 2.0, w / 2.0 + wall, z_rb, z_rt, SLEEVE))
+    rects.append((0.0, w / 2.0, z_rb, z_rt, RISER))
+    if neck_d:
+        rects.append((0.0, n2 / 2.0, t_sec, z_rb, NECK))
+    rects.append((0.0, extent, 0.0, t_sec, SECTION))
+    xb = [0.0, w / 2.0, extent] + ([w / 2 + wall] if sleeved else []) + ([n2 / 2] if neck_d else [])
+    zb = [0.0, t_sec, z_rb, z_rt]
+    return _Layout(rects, xb, zb, 0.0, s.margin)
+
+
+def _layout(case: ThermalCase, kind: str, s: _Sizes, notes: list) -> _Layout:
+    """The model's bodies; a neck wider than the riser is taken as wide as the riser (noted)."""
+    d = case.diameter_mm
     neck_d = case.neck_diameter_mm
     if neck_d is not None and neck_d > d:
         notes.append(neck_note(neck_d, d))
         neck_d = d
-    rects = []
     if kind == "axisymmetric":
-        r_sec = extent
-        r_riser = d / 2.0
-        ln = NECK_LENGTH_SHARE * neck_d if neck_d else 0.0
-        z_rb = t_sec + ln
-        z_rt = z_rb + hgt
-        if sleeved:
-            rects.append((r_riser, r_riser + wall, z_rb, z_rt, SLEEVE))
-        rects.append((0.0, r_riser, z_rb, z_rt, RISER))
-        if neck_d:
-            rects.append((0.0, neck_d / 2.0, t_sec, z_rb, NECK))
-        rects.append((0.0, r_sec, 0.0, t_sec, SECTION))
-        xb = [0.0, r_riser, r_sec] + ([r_riser + wall] if sleeved else []) + ([neck_d / 2] if neck_d else [])
-        zb = [0.0, t_sec, z_rb, z_rt]
-        x_lo, x_hi = 0.0, margin
-        if r_riser + wall > r_sec:
-            notes.append("riser wider than the section's equivalent disc")
-    else:
-        if case.placement == "side":
-            w = 2.0 * m_riser * 10 * hgt / (hgt - 2.0 * m_riser * 10)
-            n2 = min(neck_d / 2.0, t_sec, hgt) if neck_d else min(t_sec, hgt)
-            ln = max(NECK_LENGTH_SHARE * neck_d if neck_d else 0.0, wall)
-            zc = min(t_sec / 2.0, hgt - n2 / 2.0)
-            x_r1 = -ln
-            x_r0 = x_r1 - w
-            if sleeved:
-                rects.append((x_r0 - wall, x_r1 + wall, 0.0, hgt, SLEEVE))
-            rects.append((x_r0, x_r1, 0.0, hgt, RISER))
-            if ln > 0:
-                rects.append((x_r1 - 1e-6, 0.0, zc - n2 / 2.0, zc + n2 / 2.0, NECK))
-            rects.append((0.0, extent, 0.0, t_sec, SECTION))
-            xb = [x_r0, x_r1, 0.0, extent] + ([x_r0 - wall, x_r1 + wall] if sleeved else [])
-            zb = [0.0, t_sec, hgt, zc - n2 / 2.0, zc + n2 / 2.0]
-            x_lo, x_hi = margin, margin
-        else:
-            w = 2.0 * m_riser * 10 * hgt / (hgt - m_riser * 10)
-            n2 = min(neck_d / 2.0, w) if neck_d else 0.0
-            ln = NECK_LENGTH_SHARE * neck_d if neck_d else 0.0
-            z_rb = t_sec + ln
-            z_rt = z_rb + hgt
-            if sleeved:
-                rects.append((w / 2.0, w / 2.0 + wall, z_rb, z_rt, SLEEVE))
-            rects.append((0.0, w / 2.0, z_rb, z_rt, RISER))
-            if neck_d:
-                rects.append((0.0, n2 / 2.0, t_sec, z_rb, NECK))
-            rects.append((0.0, extent, 0.0, t_sec, SECTION))
-            xb = [0.0, w / 2.0, extent] + ([w / 2 + wall] if sleeved else []) + ([n2 / 2] if neck_d else [])
-            zb = [0.0, t_sec, z_rb, z_rt]
-            x_lo, x_hi = 0.0, margin
-    span_x = max(xb) - min(xb)
-    span_z = max(zb) - min(zb)
-    # keep the cell count bounded: coarser cells on very large models
+        return _axisymmetric_layout(case, s, neck_d, notes)
+    if case.placement == "side":
+        return _side_layout(case, s, neck_d)
+    return _top_planar_layout(case, s, neck_d)
+
+
+def _cell_size(lay: _Layout, h: float) -> float:
+    """``h`` (mm), made coarser where the model would hold more than MAX_CELLS cells."""
+    span_x = max(lay.xb) - min(lay.xb)
+    span_z = max(lay.zb) - min(lay.zb)
     est = (span_x / h + 2 * 8) * (span_z / h + 2 * 8)
     if est > MAX_CELLS:
         h *= math.sqrt(est / MAX_CELLS)
-    xe = _axis(xb, h, x_lo, x_hi)
-    ze = _axis(zb, h, margin, margin)
-    region = _paint(xe, ze, rects)
+    return h
+
+
+def _properties(region: np.ndarray, alloy: props.ThermalAlloy, mould_: props.Mould, k_sleeve: float,
+                pour: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Conductivity W/(m·K), volumetric heat J/(m³·K) and starting temperature °C of every cell."""
     k = np.full(region.shape, mould_.conductivity_w_mk)
     heat = np.full(region.shape, mould_.volumetric_heat)
     metal = np.isin(region, (SECTION, RISER, NECK))
@@ -362,10 +420,30 @@ def build(case: ThermalCase, cells_across: int = DEFAULT_CELLS_ACROSS,
     k[region == SLEEVE] = k_sleeve
     heat[region == SLEEVE] = props.SLEEVE_DENSITY_KG_M3 * props.SLEEVE_SPECIFIC_HEAT_J_KGK
     t_init = np.where(metal, pour, props.MOULD_INITIAL_C)
+    return k, heat, t_init
+
+
+def build(case: ThermalCase, cells_across: int = DEFAULT_CELLS_ACROSS,
+          steps_per_section: int = STEPS_PER_SECTION) -> Built:
+    """The grid, properties and time step of one case (cells about T / ``cells_across``
+    mm; a time step of the section's estimated freezing time / ``steps_per_section``)."""
+    case = validate(case)
+    alloy = props.thermal_alloy(case.alloy)
+    mould_ = props.mould(case.mould)
+    pour = case.pour_temp_c if case.pour_temp_c is not None else alloy.pour_temp_c
+    kind = model_kind(case)
+    notes: list = []
+    s = _sizes(case, kind, alloy, mould_, pour)
+    lay = _layout(case, kind, s, notes)
+    h = _cell_size(lay, s.t_sec / cells_across)
+    xe = _axis(lay.xb, h, lay.x_lo, lay.x_hi)
+    ze = _axis(lay.zb, h, s.margin, s.margin)
+    region = _paint(xe, ze, lay.rects)
+    k, heat, t_init = _properties(region, alloy, mould_, s.k_sleeve, pour)
     grid = Grid(xe / 1000.0, ze / 1000.0, region, kind == "axisymmetric")
-    dt = t_sec_est / steps_per_section
+    dt = s.t_sec_est / steps_per_section
     return Built(grid, k, heat, t_init, PhaseCurve.from_alloy(alloy), alloy, kind, pour, dt,
-                 8.0 * max(t_sec_est, t_riser_est), h, t_sec_est, t_riser_est, notes)
+                 8.0 * max(s.t_sec_est, s.t_riser_est), h, s.t_sec_est, s.t_riser_est, notes)
 
 
 __all__ = ["ThermalCase", "Built", "build", "model_kind", "validate"]

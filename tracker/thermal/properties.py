@@ -71,6 +71,8 @@ class ThermalAlloy:
         return self.density_kg_m3 * self.latent_j_kg
 
     def with_overrides(self, **kw) -> ThermalAlloy:
+        """A copy with the given fields replaced (None leaves a field); a new liquidus or
+        solidus gives a linear solid-fraction curve between them."""
         kw = {k: v for k, v in kw.items() if v is not None}
         out = replace(self, **kw)
         if "liquidus_c" in kw or "solidus_c" in kw:
@@ -122,6 +124,8 @@ THERMAL_ALLOYS: dict[str, ThermalAlloy] = {a.key: a for a in [
 
 @dataclass(frozen=True)
 class Mould:
+    """A mould material's properties: W/(m·K), kg/m³, J/(kg·K)."""
+
     key: str
     name: str
     conductivity_w_mk: float
@@ -161,6 +165,7 @@ def sleeve_wall_mm(diameter_mm: float) -> float:
 
 
 def thermal_alloy(key: str, **overrides) -> ThermalAlloy:
+    """The thermal properties of alloy ``key`` (any case), with ``overrides`` (``with_overrides``)."""
     k = str(key).strip().lower()
     if k not in THERMAL_ALLOYS:
         raise UnknownAlloy(key, ALLOYS)
@@ -168,6 +173,7 @@ def thermal_alloy(key: str, **overrides) -> ThermalAlloy:
 
 
 def mould(key: str) -> Mould:
+    """The mould material ``key`` (any case); BadInput naming the known ones otherwise."""
     k = str(key).strip().lower()
     if k not in MOULDS:
         raise BadInput("mould", key, "known moulds are " + ", ".join(sorted(MOULDS)))

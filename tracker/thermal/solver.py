@@ -46,17 +46,21 @@ class Grid:
 
     @property
     def shape(self):
+        """(nz, nx) cells."""
         return self.region.shape
 
     @property
     def xc(self):
+        """Cell centres along x (or r), m."""
         return 0.5 * (self.x_edges[1:] + self.x_edges[:-1])
 
     @property
     def zc(self):
+        """Cell centres along z, m."""
         return 0.5 * (self.z_edges[1:] + self.z_edges[:-1])
 
     def volumes(self) -> np.ndarray:
+        """Cell volumes, m³ (per metre of depth where planar)."""
         dz = np.diff(self.z_edges)[:, None]
         if self.axisymmetric:
             return np.pi * np.diff(self.x_edges**2)[None, :] * dz
@@ -76,6 +80,7 @@ class PhaseCurve:
 
     @classmethod
     def from_alloy(cls, alloy) -> PhaseCurve:
+        """The curve of a ``properties.ThermalAlloy`` (its solid fraction against temperature)."""
         pts = sorted(alloy.fs_curve, key=lambda p: (p[0], -p[1]))
         t = np.array([p[0] for p in pts], dtype=float)
         fl = 1.0 - np.array([p[1] for p in pts], dtype=float)
@@ -91,6 +96,7 @@ class PhaseCurve:
         return np.diff(self.t) / np.diff(self.h)
 
     def temperature(self, h):
+        """T (°C) at enthalpy per volume h (J/m³)."""
         return np.interp(h, self.h, self.t)
 
     def enthalpy(self, t):
@@ -100,16 +106,20 @@ class PhaseCurve:
         return np.interp(t, self.t, self.h)
 
     def liquid_fraction(self, h):
+        """Liquid fraction (0..1) at enthalpy per volume h (J/m³)."""
         c, lv = self.volumetric_heat, self.volumetric_latent
         return np.clip((h - c * self.temperature(h)) / lv, 0.0, 1.0)
 
     @property
     def h_solidus(self) -> float:
+        """Enthalpy per volume at the solidus, J/m³ (all latent heat released)."""
         return self.volumetric_heat * self.solidus
 
 
 @dataclass
 class SolveOutput:
+    """What one solve gives: times in s, positions in m, maps of (nz, nx) cells."""
+
     grid: Grid
     time_step_s: float
     steps: int
@@ -150,21 +160,98 @@ def conductances(grid: Grid, k: np.ndarray):
 class _Sweep:
     """One direction's tridiagonal structure, flattened line after line."""
 
-    def __init__(self, g_faces: np.ndarray, vol: np.ndarray, transpose: bool):
-        # g_faces: (lines, n+1) conductances along each line (both ends zero)
+    def __init__(self, g_faces: np.ndarray, vol: np.ndarray, transpose: bool, fixed: np.ndarray,
+                 metal: np.ndarray, heat: np.ndarray):
+        # g_faces: (lines, n+1) conductances along each line (both ends zero); vol, fixed,
+        # metal and heat are (nz, nx) cell arrays, taken in this direction's order
         self.transpose = transpose
         self.glo = g_faces[:, :-1].ravel().copy()
         self.ghi = g_faces[:, 1:].ravel().copy()
         self.vol = vol.ravel().copy()
         self.n = self.glo.size
+        self.fixed = self.flat(fixed)
+        self.metal_idx = np.flatnonzero(self.flat(metal))
+        self.inv_heat = 1.0 / self.flat(heat)
 
     def flat(self, a):
+        """A (nz, nx) array as this direction's lines, one after the other."""
         return (a.T if self.transpose else a).ravel()
 
     def unflat(self, v, shape):
+        """The inverse of ``flat`` for an array of ``shape``."""
         if self.transpose:
             return v.reshape(shape[1], shape[0]).T
         return v.reshape(shape)
+
+
+class _Watch:
+    """What the solve records as the metal freezes: when each cell became solid, its
+    Niyama value, and the largest share of the section cut off from the riser."""
+
+    def __init__(self, grid: Grid, vol: np.ndarray, metal: np.ndarray, h: np.ndarray, curve: PhaseCurve,
+                 niyama_share: float, feeding_fraction: float):
+        c, lv = curve.volumetric_heat, curve.volumetric_latent
+        self.metal = metal
+        self.h_sol = curve.h_solidus
+        t_eval = curve.solidus + niyama_share * (curve.liquidus - curve.solidus)
+        self.h_eval = float(curve.enthalpy(t_eval))
+        # the enthalpy below which a cell no longer feeds (solid fraction feeding_fraction), J/m³
+        self.fs_feed_h = float(np.interp(1.0 - feeding_fraction, (curve.h - c * curve.t) / lv, curve.h)) \
+            if lv > 0 else self.h_sol
+        shape = grid.shape
+        self.solid_time = np.full(shape, np.nan)
+        self.niyama = np.full(shape, np.nan)
+        self.solid_time[metal & (h < self.h_sol)] = 0.0
+        self.vol = vol
+        self.sec = grid.region == SECTION
+        self.sec_vol = float(self.vol[self.sec].sum()) or 1.0
+        self.feeder = np.isin(grid.region, (RISER,))
+        self.xc, self.zc = grid.xc, grid.zc
+        self.iso_share: float = 0.0
+        self.iso_time: float | None = None
+        self.iso_at: tuple | None = None
+
+    def update(self, t: float, dt: float, h_prev: np.ndarray, h: np.ndarray, temp_prev: np.ndarray,
+               temp: np.ndarray) -> None:
+        """Record the step from ``t`` to ``t + dt`` s (enthalpy and temperature before and after)."""
+        self._solid(t, dt, h_prev, h)
+        self._niyama(dt, h_prev, h, temp_prev, temp)
+        self._isolated(t + dt, h)
+
+    def _solid(self, t, dt, h_prev, h):
+        # the time a cell crosses the solidus, interpolated within the step
+        m = self.metal & np.isnan(self.solid_time) & (h < self.h_sol)
+        if m.any():
+            frac = (h_prev[m] - self.h_sol) / np.maximum(h_prev[m] - h[m], 1e-30)
+            self.solid_time[m] = t + dt * np.clip(frac, 0.0, 1.0)
+
+    def _niyama(self, dt, h_prev, h, temp_prev, temp):
+        # Niyama's G/sqrt(R) in the step a cell passes the evaluation temperature
+        m = self.metal & np.isnan(self.niyama) & (h_prev >= self.h_eval) & (h < self.h_eval)
+        if m.any():
+            gzz, gxx = _gradient(temp, self.zc, self.xc)
+            grad = np.hypot(gxx[m], gzz[m]) / 100.0           # K/m -> °C/cm
+            rate = (temp_prev[m] - temp[m]) / dt * 60.0       # °C/min
+            self.niyama[m] = grad / np.sqrt(np.maximum(rate, 1e-12))
+
+    def _isolated(self, t_new, h):
+        # liquid of the section no longer joined to the riser's liquid
+        liquid = self.metal & (h > self.fs_feed_h)
+        if not (liquid & self.sec).any():
+            return
+        lab, n = ndimage.label(liquid)
+        fed = np.zeros(n + 1, bool)
+        fed[np.unique(lab[liquid & self.feeder])] = True
+        fed[0] = True
+        cut = self.sec & ~fed[lab]
+        if not cut.any():
+            return
+        share = float(self.vol[cut].sum()) / self.sec_vol
+        if share > self.iso_share:
+            self.iso_share, self.iso_time = share, t_new
+            w = self.vol[cut]
+            zz, xx = np.nonzero(cut)
+            self.iso_at = (float(np.average(self.xc[xx], weights=w)), float(np.average(self.zc[zz], weights=w)))
 
 
 def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
@@ -181,43 +268,24 @@ def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
     """
     start = time.perf_counter()
     shape = grid.shape
-    region = grid.region
-    metal = np.isin(region, (SECTION, RISER, NECK))
-    fixed = region == FIXED
+    metal = np.isin(grid.region, (SECTION, RISER, NECK))
+    fixed = grid.region == FIXED
     vol = grid.volumes()
     gx, gz = conductances(grid, k)
-    sweeps = [_Sweep(gx, vol, False), _Sweep(gz.T, vol.T, True)]
-    for s in sweeps:
-        s.fixed = s.flat(fixed)
-        s.metal_idx = np.flatnonzero(s.flat(metal))
-        s.inv_heat = 1.0 / s.flat(heat)
+    sweeps = [_Sweep(gx, vol, False, fixed, metal, heat), _Sweep(gz.T, vol.T, True, fixed, metal, heat)]
 
     h = np.where(metal, curve.enthalpy(t_init), heat * t_init)
     h0 = h.copy()
     temp = np.where(metal, curve.temperature(h), h / heat)
-
-    c, lv = curve.volumetric_heat, curve.volumetric_latent
-    h_sol = curve.h_solidus
-    t_eval = curve.solidus + niyama_share * (curve.liquidus - curve.solidus)
-    h_eval = float(curve.enthalpy(t_eval))
-    fs_feed_h = float(np.interp(1.0 - feeding_fraction, (curve.h - c * curve.t) / lv, curve.h)) \
-        if lv > 0 else h_sol
-
-    solid_time = np.full(shape, np.nan)
-    niyama = np.full(shape, np.nan)
-    solid_time[metal & (h < h_sol)] = 0.0
-    sec = region == SECTION
-    sec_vol = float(vol[sec].sum()) or 1.0
-    feeder = np.isin(region, (RISER,))
-    iso_share, iso_time, iso_at = 0.0, None, None
+    watch = _Watch(grid, vol, metal, h, curve, niyama_share, feeding_fraction)
     newton_max = 0
-    xc, zc = grid.xc, grid.zc
-    history = []
+    history: list = []
     rec = sorted(record_times)
 
     t = 0.0
     step = 0
     while t < t_max - 1e-9:
+        # the order of the two directions alternates from step to step
         order = sweeps if step % 2 == 0 else sweeps[::-1]
         h_prev, temp_prev = h, temp
         for s in order:
@@ -227,39 +295,16 @@ def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
         temp = np.where(metal, curve.temperature(h), h / heat)
         t_new = t + dt
         if track:
-            m = metal & np.isnan(solid_time) & (h < h_sol)
-            if m.any():
-                frac = (h_prev[m] - h_sol) / np.maximum(h_prev[m] - h[m], 1e-30)
-                solid_time[m] = t + dt * np.clip(frac, 0.0, 1.0)
-            m = metal & np.isnan(niyama) & (h_prev >= h_eval) & (h < h_eval)
-            if m.any():
-                gzz, gxx = _gradient(temp, zc, xc)
-                grad = np.hypot(gxx[m], gzz[m]) / 100.0           # K/m -> °C/cm
-                rate = (temp_prev[m] - temp[m]) / dt * 60.0       # °C/min
-                niyama[m] = grad / np.sqrt(np.maximum(rate, 1e-12))
-            liquid = metal & (h > fs_feed_h)
-            if (liquid & sec).any():
-                lab, n = ndimage.label(liquid)
-                fed = np.zeros(n + 1, bool)
-                fed[np.unique(lab[liquid & feeder])] = True
-                fed[0] = True
-                cut = sec & ~fed[lab]
-                if cut.any():
-                    share = float(vol[cut].sum()) / sec_vol
-                    if share > iso_share:
-                        iso_share, iso_time = share, t_new
-                        w = vol[cut]
-                        zz, xx = np.nonzero(cut)
-                        iso_at = (float(np.average(xc[xx], weights=w)), float(np.average(zc[zz], weights=w)))
+            watch.update(t, dt, h_prev, h, temp_prev, temp)
         while rec and rec[0] <= t_new + 1e-9:
             rec.pop(0)
             history.append((t_new, np.where(metal, curve.liquid_fraction(h), np.nan)))
         t = t_new
         step += 1
-        if not (metal & (h >= h_sol)).any():
+        if not (metal & (h >= watch.h_sol)).any():
             break
-    return SolveOutput(grid, dt, step, t, solid_time, niyama, temp, h0, h, iso_share, iso_time,
-                       iso_at, newton_max, time.perf_counter() - start, history)
+    return SolveOutput(grid, dt, step, t, watch.solid_time, watch.niyama, temp, h0, h, watch.iso_share,
+                       watch.iso_time, watch.iso_at, newton_max, time.perf_counter() - start, history)
 
 
 def _gradient(temp, zc, xc):
@@ -281,6 +326,21 @@ def _state(curve: PhaseCurve, h: np.ndarray, mi: np.ndarray, inv_heat: np.ndarra
     return seg, temp, slope
 
 
+def _secant(slope: np.ndarray, h: np.ndarray, h_last: np.ndarray, temp: np.ndarray, t_last: np.ndarray,
+            mi: np.ndarray) -> None:
+    """Set ``slope`` (dT/dH) of the metal cells ``mi`` that moved to the chord of their last two iterates.
+
+    A cell that crossed a kink of T(H) takes that chord (a secant step): a
+    tangent step can cycle across a kink.
+    """
+    dh_last = (h - h_last)[mi]
+    moved = np.abs(dh_last) > 1e-9 * np.abs(h[mi])
+    chord = (temp[mi] - t_last[mi])[moved] / dh_last[moved]
+    sl = slope[mi]
+    sl[moved] = np.maximum(chord, 0.0)
+    slope[mi] = sl
+
+
 def _implicit_1d(s: _Sweep, h_old: np.ndarray, dt: float, curve: PhaseCurve):
     """Backward-Euler step of dH/dt = div(k grad T) along one direction, Newton on H."""
     a = s.vol / dt
@@ -288,18 +348,12 @@ def _implicit_1d(s: _Sweep, h_old: np.ndarray, dt: float, curve: PhaseCurve):
     fixed, mi, inv_heat = s.fixed, s.metal_idx, s.inv_heat
     h = h_old.copy()
     seg, temp, slope = _state(curve, h, mi, inv_heat)
-    h_last = t_last = None
+    h_last: np.ndarray | None = None
+    t_last: np.ndarray | None = None
     has_fixed = bool(fixed.any())
     for it in range(1, NEWTON_MAX + 1):
-        if h_last is not None:
-            # A cell that crossed a kink of T(H) takes the chord of its last two
-            # iterates (a secant step): a tangent step can cycle across a kink.
-            dh_last = (h - h_last)[mi]
-            moved = np.abs(dh_last) > 1e-9 * np.abs(h[mi])
-            chord = (temp[mi] - t_last[mi])[moved] / dh_last[moved]
-            sl = slope[mi]
-            sl[moved] = np.maximum(chord, 0.0)
-            slope[mi] = sl
+        if h_last is not None and t_last is not None:
+            _secant(slope, h, h_last, temp, t_last, mi)
         if has_fixed:
             slope[fixed] = 0.0
         flux = np.zeros_like(h)
