@@ -10,6 +10,8 @@ left out of the zone tables (they still count in the review).
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pandas as pd
 
@@ -109,8 +111,7 @@ def zone_lot_features(store: Store, start: str | None = None, end: str | None = 
         design.drop(columns=["effective_from"]), on=["pattern", "revision"])
     rej = store.rejects_by_lot(start, end, pattern) if rejects is None else rejects
     rej = rej[(rej["result"] == "reject") & (rej["defect"] == "shrinkage") & rej["zone"].notna()]
-    rej = rej.groupby(["lot", "zone"], as_index=False)["quantity"].sum().rename(
-        columns={"quantity": "shrinkage_rejects"})
+    rej = rej.groupby(["lot", "zone"], as_index=False).agg(shrinkage_rejects=("quantity", "sum"))
     rows = rows.merge(rej, on=["lot", "zone"], how="left")
     rows["shrinkage_rejects"] = rows["shrinkage_rejects"].fillna(0).astype(np.int64)
     rows["castings"] = rows["castings"].astype(np.int64)
@@ -150,7 +151,8 @@ def _lot_arrays(store: Store, patterns: list[str]) -> dict[str, np.ndarray]:
         parts["day"].append(np.array(day, dtype="datetime64[D]"))
         parts["castings"].append(np.array(castings, dtype=np.int64))
         parts["pour_temp_c"].append(np.array(temp, dtype=float))  # None -> NaN
-    empty = {"lot": object, "pattern": np.int64, "day": "datetime64[D]", "castings": np.int64, "pour_temp_c": float}
+    empty: dict[str, Any] = {"lot": object, "pattern": np.int64, "day": "datetime64[D]", "castings": np.int64,
+                             "pour_temp_c": float}
     return {k: np.concatenate(v) if v else np.array([], dtype=empty[k]) for k, v in parts.items()}
 
 
@@ -202,7 +204,8 @@ def fit_table(store: Store, temp_bin_c: float = 5.0) -> pd.DataFrame:
     where = pd.Index(lots["lot"]).get_indexer(rej["lot"])
     g = np.where(where >= 0, group_of_lot[np.maximum(where, 0)], -1)
     rej = pd.DataFrame({"_g": g, "zone": rej["zone"].to_numpy(), "shrinkage_rejects": rej["quantity"].to_numpy()})
-    rej = rej[rej["_g"] >= 0].groupby(["_g", "zone"], as_index=False)["shrinkage_rejects"].sum()
+    rej = rej[rej["_g"] >= 0].groupby(["_g", "zone"], as_index=False).agg(
+        shrinkage_rejects=("shrinkage_rejects", "sum"))
     del lots, group_of_lot
 
     out = pd.DataFrame({

@@ -159,8 +159,8 @@ def price_candidates(cands: pd.DataFrame, zones: pd.DataFrame, designs: dict, mo
     others = cands[["_cand", "_z"]].merge(zone_risers, on="_z")
     others = others[~others.set_index(["_cand", "_old"]).index.isin(new.set_index(["_cand", "_old"]).index)]
     after = weakest_margins(pd.concat([new, others.drop(columns="_z")], ignore_index=True), ["_cand"])
-    rate_now, rate_after = _predict(model, [now, after])
-    rate_now = pd.Series(rate_now, index=now["_z"].to_numpy())
+    now_rates, rate_after = _predict(model, [now, after])
+    rate_now = pd.Series(now_rates, index=now["_z"].to_numpy())
 
     out = _per_candidate(cands, new, judged_now)
     m = money.loc[zones.loc[out["_z"], "pattern"].to_numpy()]

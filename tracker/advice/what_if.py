@@ -78,7 +78,7 @@ def _differs(base: pd.Series, row: pd.Series) -> bool:
     """Whether a what-if row changes the stored riser (size, sleeve or neck)."""
     for c in ("diameter_mm", "height_mm", "neck_diameter_mm"):
         a, b = finite(base[c]), finite(row[c])
-        if (a is None) != (b is None) or (a is not None and abs(a - b) > 1e-9):
+        if (a is None) != (b is None) or (a is not None and b is not None and abs(a - b) > 1e-9):
             return True
     return sleeve_or_none(base["sleeve"]) != sleeve_or_none(row["sleeve"])
 
@@ -125,17 +125,8 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
             raise BadInput(units.column_name(name, system), units.value_in(name, value, system),
                            f"must be a number above 0 {units.symbol(name, system)}")
     info = store.pattern(pattern)
-    revs = store.revisions_frame(pattern)
-    if revs.empty:
-        raise NotFound("riser revision", pattern, "import the pattern's risers first")
-    rev = revision or revision_in_effect(revs, "9999-12-31")["revision"].iat[0]
-    every = risers_of(store, [pattern])
-    designs = designs_in_effect(store, [pattern], "9999-12-31", revision=rev, risers=every)
-    risers = designs["risers"]
-    if riser not in set(risers["riser"]):
-        raise NotFound("riser", riser, f"{pattern} revision {rev} has " + ", ".join(risers["riser"]))
-    k = risers.index[risers["riser"] == riser][0]
-    base = risers.loc[k]
+    rev, every, designs, k = _stored_riser(store, pattern, riser, revision)
+    base = designs["risers"].loc[k]
     s = _resolve_sleeve(store.table("sleeves"), base, sleeve, diameter_mm, system)
     row = _what_if_row(base, s, diameter_mm, height_mm, neck_diameter_mm)
     if model is None:
@@ -148,12 +139,38 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
     wz = win["zones"]
     wz = wz[(wz["pattern"] == pattern) & (wz["revision"] == rev) & (wz["zone"] == base["zone"])]
     figures, changed = _what_if_money(designs, k, row, money, model)
-    new = judge(pd.DataFrame([row]))
-    now, new = designs["judged"].loc[k], new.iloc[0]
     castings = int(wz["castings"].sum())
     observed = float(wz["shrinkage_rejects"].sum()) / castings if castings else None
     return {
         "pattern": pattern, "revision": rev, "riser": riser, "zone": base["zone"], "alloy": info["alloy"],
+        **_margins(base, judge(pd.DataFrame([row])).iloc[0], designs["judged"].loc[k]),
+        "observed_rate": observed, "zone_castings": castings, "week": week, "weeks": int(weeks),
+        "predicted_rate": figures["predicted_rate_after"], **figures, "changed": bool(changed),
+        "changed_risers": changed, "yield_before": float(money["yield_before"].to_numpy()[0]),
+        "caution": SAFETY_CAUTION,
+    }
+
+
+def _stored_riser(store: Store, pattern: str, riser: str, revision: str | None) -> tuple[str, pd.DataFrame, dict, int]:
+    """The revision asked (else the newest in effect), the pattern's
+    ``risers_frame``, the revision's designs (``zones.designs_in_effect``) and
+    the index of ``riser`` in them."""
+    revs = store.revisions_frame(pattern)
+    if revs.empty:
+        raise NotFound("riser revision", pattern, "import the pattern's risers first")
+    rev = revision or str(revision_in_effect(revs, "9999-12-31")["revision"].iat[0])
+    every = risers_of(store, [pattern])
+    designs = designs_in_effect(store, [pattern], "9999-12-31", revision=rev, risers=every)
+    risers = designs["risers"]
+    if riser not in set(risers["riser"]):
+        raise NotFound("riser", riser, f"{pattern} revision {rev} has " + ", ".join(risers["riser"]))
+    return rev, every, designs, risers.index[risers["riser"] == riser][0]
+
+
+def _margins(base: pd.Series, new: pd.Series, now: pd.Series) -> dict:
+    """The what-if's size and rule margins (``new``: the changed riser judged),
+    beside the stored riser's (``base`` as stored, ``now`` judged)."""
+    return {
         "diameter_mm": float(new["diameter_mm"]), "height_mm": float(new["height_mm"]),
         "sleeve": sleeve_or_none(new["sleeve"]), "current_diameter_mm": float(base["diameter_mm"]),
         "current_sleeve": sleeve_or_none(base["sleeve"]),
@@ -163,8 +180,4 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
         "passes": bool(new["passes"]), "failed_rules": new["failed_rules"], "rule_set": new["rule_set"],
         "modulus_ratio_now": float(now["modulus_ratio"]), "caine_margin_now": finite(now["caine_margin"]),
         "feed_margin_now": float(now["feed_margin"]),
-        "observed_rate": observed, "zone_castings": castings, "week": week, "weeks": int(weeks),
-        "predicted_rate": figures["predicted_rate_after"], **figures, "changed": bool(changed),
-        "changed_risers": changed, "yield_before": float(money.loc[pattern, "yield_before"]),
-        "caution": SAFETY_CAUTION,
     }

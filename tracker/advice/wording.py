@@ -145,7 +145,7 @@ def pattern_text(pat: str, defects: pd.DataFrame, zones: pd.DataFrame, poured: i
     total = int(defects["quantity"].sum())
     if not total:
         return f"no rejects in the window ({start} to {end}); nothing to change"
-    dominant, top = defects["defect"].iat[0], int(defects["quantity"].iat[0])
+    dominant, top = defects["defect"].to_numpy()[0], int(defects["quantity"].to_numpy()[0])
     if poured and total / poured <= target:
         return (f"no riser change: the pattern's rejects ({total} of {poured} castings, "
                 f"{total / poured:.1%}) are within the target {target:.1%}")
