@@ -22,6 +22,7 @@ from tracker.design import geometry, rules
 from tracker.design.alloys import RULE_SETS, Alloy, CaineConstants, get_alloy
 from tracker.errors import BadInput
 from tracker.limits import POUR_TEMP_RANGE_C, RANGES
+from tracker.numbers import missing
 
 H_OVER_D_RANGE = (0.5, 3.0)
 RULES = ("caine", "modulus", "feed_volume")
@@ -578,7 +579,7 @@ def size_zone(store, pattern: str, zone: str, **options) -> RiserSize:
 
     def val(key):
         v = z.get(key)
-        return None if v is None or (isinstance(v, float) and math.isnan(v)) else v
+        return None if missing(v) else v
 
     logged = {"mould": val("mould"), "thickness_mm": val("thickness_mm"), "width_mm": val("width_mm"),
               "length_mm": val("length_mm"), "pour_temp_c": store.mean_pour_temp(pattern)}
