@@ -29,10 +29,12 @@ SLEEVE_COLUMNS = ("sleeve", "sleeve_kind", "sleeve_factor", "sleeve_efficiency",
 
 
 def _round_up(x, step: float):
+    """``x`` rounded up to a multiple of ``step`` (a hair of tolerance keeps exact multiples)."""
     return np.ceil(np.asarray(x, dtype=float) / step - 1e-9) * step
 
 
 def has_neck(rows: pd.DataFrame) -> np.ndarray:
+    """Side risers with a neck of a known width (a top riser has none)."""
     n = rows["neck_diameter_mm"].astype(float).to_numpy()
     return (rows["placement"].to_numpy() == "side") & (n > 0)
 

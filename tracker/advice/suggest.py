@@ -160,6 +160,7 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
 
 
 def _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge, thermal, system) -> list[dict]:
+    """The run of :func:`suggest` on checked arguments, inside the plant scope."""
     week, first, last = review_window(store, week, weeks)
     start, end = first.isoformat(), last.isoformat()
     if pattern is not None:

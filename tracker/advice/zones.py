@@ -29,6 +29,7 @@ MIN_REJECTS = 3
 # few per cent above the rule before blaming something else).
 COMFORT = {"modulus_ratio": 1.05, "caine_margin": 0.05, "feed_margin": 0.10}
 
+
 def review_window(store: Store, week: str | None, weeks: int) -> tuple[str, dt.date, dt.date]:
     """(ISO week, first day, last day) of a window of ``weeks`` ending with ``week``."""
     weeks = limits.check_weeks(weeks)
@@ -75,6 +76,7 @@ def riser_weight_kg(riser_volume_cm3, density_kg_dm3):
 
 
 def sleeve_or_none(v):
+    """A sleeve code as stored, or None for a bare riser (empty, None or NaN)."""
     return v if isinstance(v, str) and v else None
 
 
