@@ -137,7 +137,7 @@ def column_name(metric_name: str, system: str) -> str:
 def us_names(metric_names) -> dict[str, str]:
     """``{us name: metric name}`` for the metric names that convert; used to read
     a file whose columns may be in either system."""
-    out = {}
+    out: dict[str, str] = {}
     for name in metric_names:
         us = column_name(name, US)
         if us != name:

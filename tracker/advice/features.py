@@ -10,6 +10,8 @@ left out of the zone tables (they still count in the review).
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pandas as pd
 
@@ -109,8 +111,7 @@ def zone_lot_features(store: Store, start: str | None = None, end: str | None = 
         design.drop(columns=["effective_from"]), on=["pattern", "revision"])
     rej = store.rejects_by_lot(start, end, pattern) if rejects is None else rejects
     rej = rej[(rej["result"] == "reject") & (rej["defect"] == "shrinkage") & rej["zone"].notna()]
-    rej = rej.groupby(["lot", "zone"], as_index=False)["quantity"].sum().rename(
-        columns={"quantity": "shrinkage_rejects"})
+    rej = rej.groupby(["lot", "zone"], as_index=False).agg(shrinkage_rejects=("quantity", "sum"))
     rows = rows.merge(rej, on=["lot", "zone"], how="left")
     rows["shrinkage_rejects"] = rows["shrinkage_rejects"].fillna(0).astype(np.int64)
     rows["castings"] = rows["castings"].astype(np.int64)
@@ -150,7 +151,8 @@ def _lot_arrays(store: Store, patterns: list[str]) -> dict[str, np.ndarray]:
         parts["day"].append(np.array(day, dtype="datetime64[D]"))
         parts["castings"].append(np.array(castings, dtype=np.int64))
         parts["pour_temp_c"].append(np.array(temp, dtype=float))  # None -> NaN
-    empty = {"lot": object, "pattern": np.int64, "day": "datetime64[D]", "castings": np.int64, "pour_temp_c": float}
+    empty: dict[str, Any] = {"lot": object, "pattern": np.int64, "day": "datetime64[D]", "castings": np.int64,
+                             "pour_temp_c": float}
     return {k: np.concatenate(v) if v else np.array([], dtype=empty[k]) for k, v in parts.items()}
 
 
@@ -170,39 +172,8 @@ def fit_table(store: Store, temp_bin_c: float = 5.0) -> pd.DataFrame:
         return aggregate_for_fit(pd.DataFrame(columns=FEATURE_COLUMNS))
     codes = sorted(set(revs["pattern"]))  # a lot of any other pattern has no design
     lots = _lot_arrays(store, codes)
-
-    # the revision in effect on each lot's pour date: the last of its pattern's from that day or before
-    r_pat = pd.Categorical(revs["pattern"], categories=codes).codes.astype(np.int64)
-    r_day = np.array(revs["effective_from"].tolist(), dtype="datetime64[D]").astype(np.int64)
-    key = lambda p, d: (p << 32) + (d + (1 << 31))  # noqa: E731 (pattern, day) in one sortable number
-    order = np.argsort(key(r_pat, r_day), kind="stable")
-    r_key = key(r_pat, r_day)[order]
-    l_pat = lots["pattern"]
-    at = np.searchsorted(r_key, key(l_pat, lots["day"].astype(np.int64)), side="right") - 1
-    found = at >= 0
-    found[found] = r_pat[order][at[found]] == l_pat[found]
-    rev = np.where(found, order[np.maximum(at, 0)], -1)
-
-    # lots under a known design: pour temperature less the pattern's median, binned
-    keep = np.flatnonzero(rev >= 0)
-    temp = pd.Series(lots["pour_temp_c"][keep])
-    dev = (temp - temp.groupby(l_pat[keep]).transform("median")).to_numpy()
-    tbin = np.round(np.nan_to_num(dev, nan=0.0) / temp_bin_c) * temp_bin_c
-    kept = pd.DataFrame({"rev": rev[keep], "_tbin": tbin, "castings": lots["castings"][keep],
-                         "day": lots["day"][keep]})
-    grouped = kept.groupby(["rev", "_tbin"], sort=False)
-    group_of_lot = np.full(len(rev), -1, dtype=np.int64)
-    group_of_lot[keep] = grouped.ngroup().to_numpy()
-    groups = grouped.agg(castings=("castings", "sum"), day=("day", "max")).reset_index()
-    del kept, grouped, temp, dev, tbin
-
-    # zoned shrinkage rejects per group and zone
-    rej = store.rejects_by_lot()
-    rej = rej[(rej["result"] == "reject") & (rej["defect"] == "shrinkage") & rej["zone"].notna()]
-    where = pd.Index(lots["lot"]).get_indexer(rej["lot"])
-    g = np.where(where >= 0, group_of_lot[np.maximum(where, 0)], -1)
-    rej = pd.DataFrame({"_g": g, "zone": rej["zone"].to_numpy(), "shrinkage_rejects": rej["quantity"].to_numpy()})
-    rej = rej[rej["_g"] >= 0].groupby(["_g", "zone"], as_index=False)["shrinkage_rejects"].sum()
+    groups, group_of_lot = _lot_groups(lots, _revision_of_lots(revs, codes, lots), temp_bin_c)
+    rej = _zoned_rejects(store, lots, group_of_lot)
     del lots, group_of_lot
 
     out = pd.DataFrame({
@@ -217,6 +188,49 @@ def fit_table(store: Store, temp_bin_c: float = 5.0) -> pd.DataFrame:
                "riser", "alloy", "sleeve_kind", "thickness_mm", "passes", "rule_set", "modulus_target"] + MARGIN_COLS
     out = out.sort_values(["pattern", "revision", "zone", "pour_temp_dev_c"], kind="stable")
     return out[columns].reset_index(drop=True)
+
+
+def _revision_of_lots(revs: pd.DataFrame, codes: list, lots: dict) -> np.ndarray:
+    """The row of ``revs`` in effect on each lot's pour date (the last of its
+    pattern's from that day or before), -1 where none is."""
+    r_pat = pd.Categorical(revs["pattern"], categories=codes).codes.astype(np.int64)
+    r_day = np.array(revs["effective_from"].tolist(), dtype="datetime64[D]").astype(np.int64)
+    key = lambda p, d: (p << 32) + (d + (1 << 31))  # noqa: E731 (pattern, day) in one sortable number
+    order = np.argsort(key(r_pat, r_day), kind="stable")
+    r_key = key(r_pat, r_day)[order]
+    l_pat = lots["pattern"]
+    at = np.searchsorted(r_key, key(l_pat, lots["day"].astype(np.int64)), side="right") - 1
+    found = at >= 0
+    found[found] = r_pat[order][at[found]] == l_pat[found]
+    return np.where(found, order[np.maximum(at, 0)], -1)
+
+
+def _lot_groups(lots: dict, rev: np.ndarray, temp_bin_c: float) -> tuple[pd.DataFrame, np.ndarray]:
+    """Lots under a known design summed per (revision row, pour temperature
+    bin): castings and last pour day per group, and each lot's group (-1
+    where it has no design). The bin is the pour temperature less the
+    pattern's median, to ``temp_bin_c``."""
+    keep = np.flatnonzero(rev >= 0)
+    temp = pd.Series(lots["pour_temp_c"][keep])
+    dev = (temp - temp.groupby(lots["pattern"][keep]).transform("median")).to_numpy()
+    tbin = np.round(np.nan_to_num(dev, nan=0.0) / temp_bin_c) * temp_bin_c
+    kept = pd.DataFrame({"rev": rev[keep], "_tbin": tbin, "castings": lots["castings"][keep],
+                         "day": lots["day"][keep]})
+    grouped = kept.groupby(["rev", "_tbin"], sort=False)
+    group_of_lot = np.full(len(rev), -1, dtype=np.int64)
+    group_of_lot[keep] = grouped.ngroup().to_numpy()
+    return grouped.agg(castings=("castings", "sum"), day=("day", "max")).reset_index(), group_of_lot
+
+
+def _zoned_rejects(store: Store, lots: dict, group_of_lot: np.ndarray) -> pd.DataFrame:
+    """Zoned shrinkage rejects per lot group (``_g``) and zone."""
+    rej = store.rejects_by_lot()
+    rej = rej[(rej["result"] == "reject") & (rej["defect"] == "shrinkage") & rej["zone"].notna()]
+    where = pd.Index(lots["lot"]).get_indexer(rej["lot"])
+    g = np.where(where >= 0, group_of_lot[np.maximum(where, 0)], -1)
+    rej = pd.DataFrame({"_g": g, "zone": rej["zone"].to_numpy(), "shrinkage_rejects": rej["quantity"].to_numpy()})
+    return rej[rej["_g"] >= 0].groupby(["_g", "zone"], as_index=False).agg(
+        shrinkage_rejects=("shrinkage_rejects", "sum"))
 
 
 def design_map(store: Store, start: str | None = None, end: str | None = None, alloy=None,

@@ -324,8 +324,22 @@ class ShrinkageRejectModel(BaseEstimator):
                        + [f"alloy={a}" for a in self.alloys_]
                        + [f"sleeve={k}" for k in self.sleeve_kinds_])
         D = self._design(X)
+        self._set_prior(D, rejects, castings, prior_slopes)
+        res = self._minimise(D, rejects, castings)
         n_short = len(SHORTFALL_TERMS)
+        self.intercept_ = float(res.x[0])
+        self.coef_ = np.asarray(res.x[1:], dtype=float)
+        self.coef_[:n_short] = np.maximum(self.coef_[:n_short], 0.0)
+        self.converged_ = bool(res.success)
+        self.n_iter_ = int(res.nit)
+        self._record_data(X, castings.sum(), rejects)
+        self.coefficients_ = self._coefficient_table()
+        return self
 
+    def _set_prior(self, D, rejects, castings, prior_slopes):
+        """``prior_rate_``, ``prior_intercept_`` and ``prior_coef_``: the given
+        prior rate, else the shop's own on the rows that pass every rule."""
+        n_short = len(SHORTFALL_TERMS)
         if self.prior_rate is None:
             passing = ~(D[:, :n_short] > 0).any(axis=1)
             rows = passing if passing.any() else np.ones(len(D), dtype=bool)
@@ -335,6 +349,9 @@ class ShrinkageRejectModel(BaseEstimator):
         self.prior_intercept_ = float(logit(self.prior_rate_))
         self.prior_coef_ = np.concatenate([prior_slopes, np.zeros(D.shape[1] - n_short)])
 
+    def _minimise(self, D, rejects, castings):
+        """The penalised binomial fit by L-BFGS-B from the prior (scipy's result)."""
+        n_short = len(SHORTFALL_TERMS)
         theta0 = np.concatenate([[self.prior_intercept_], self.prior_coef_])
         A = np.column_stack([np.ones(len(D)), D])
         total = castings.sum()
@@ -352,14 +369,11 @@ class ShrinkageRejectModel(BaseEstimator):
             return (nll + 0.5 * (alpha * diff) @ diff) / total, grad / total
 
         bounds = [(None, None)] + [(0.0, None)] * n_short + [(None, None)] * (D.shape[1] - n_short)
-        res = minimize(objective, theta0, jac=True, method="L-BFGS-B", bounds=bounds,
-                       options={"gtol": self.tol, "ftol": 1e-15, "maxiter": 2000})
-        self.intercept_ = float(res.x[0])
-        self.coef_ = np.asarray(res.x[1:], dtype=float)
-        self.coef_[:n_short] = np.maximum(self.coef_[:n_short], 0.0)
-        self.converged_ = bool(res.success)
-        self.n_iter_ = int(res.nit)
+        return minimize(objective, theta0, jac=True, method="L-BFGS-B", bounds=bounds,
+                        options={"gtol": self.tol, "ftol": 1e-15, "maxiter": 2000})
 
+    def _record_data(self, X, total, rejects):
+        """The size of the training data, its last pour date, the fit time and versions."""
         self.n_rows_ = int(len(X))
         self.n_castings_ = int(total)
         self.n_rejects_ = int(rejects.sum())
@@ -373,8 +387,6 @@ class ShrinkageRejectModel(BaseEstimator):
         self.pourback_version_ = _POURBACK_VERSION
         self.n_features_in_ = len(FEATURE_COLUMNS)
         self.feature_names_in_ = np.array(FEATURE_COLUMNS, dtype=object)
-        self.coefficients_ = self._coefficient_table()
-        return self
 
     def _checked_design(self, X):
         check_is_fitted(self)

@@ -14,6 +14,7 @@ import pandas as pd
 from tracker import units
 from tracker.design import geometry, rules
 from tracker.design.alloys import ALLOYS, CaineConstants
+from tracker.numbers import missing
 
 RESULT_COLUMNS = [
     "pattern", "revision", "effective_from", "riser", "zone", "alloy", "placement", "top",
@@ -38,7 +39,7 @@ RULE_WORDS = {
 def rule_words(failed_rules) -> str:
     """Failed rule keys ("modulus,caine,feed_volume" or a list) as words:
     "modulus, Caine, feed volume"; "" where none failed."""
-    if failed_rules is None or (isinstance(failed_rules, float) and failed_rules != failed_rules):
+    if missing(failed_rules):
         return ""
     keys = failed_rules.split(",") if isinstance(failed_rules, str) else list(failed_rules)
     return ", ".join(RULE_WORDS.get(k.strip(), k.strip().replace("_", " ")) for k in keys if k.strip())
@@ -87,6 +88,30 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
     section of modulus 2.5 cm or more may need no riser.
     """
     df = risers.copy()
+    r = _section_and_riser(df)
+    r.update(_caine_rule(r))
+    r.update(_neck_rule(r))
+    r.update(_modulus_rule(r, modulus_factor))
+    r["fm"] = rules.feed_margin(r["vr"], r["vc"], r["need"], r["eff"])
+    r["feed_ok"] = (r["fm"] >= -1e-9) | ~r["riser_needed"]
+    r["over"] = _oversized(r, modulus_factor)
+    r.update(_feeding_distance(r))
+    r["joined"] = geometry.exceeds_sphere_modulus(r["vc"], r["ac"])
+    out = _result_frame(df, r, modulus_factor)
+    failed = [_failed_rules(i, r) for i in range(len(df))]
+    out["passes"] = [not fl for fl in failed]
+    out["failed_rules"] = [",".join(fl) for fl in failed]
+    out["notes"] = ["; ".join(_notes(i, r, system)) for i in range(len(df))]
+    out["failed_rules_text"] = [rule_words(fl) for fl in failed]
+    return out[RESULT_COLUMNS]
+
+
+def _section_and_riser(df: pd.DataFrame) -> dict:
+    """Per row (numpy arrays): the alloy's constants, the mould, the riser's
+    share of its zone (``share``; volume ``vc`` cm³, cooling area ``ac`` cm²,
+    modulus ``mc`` cm), the riser (diameter ``d`` and height ``h`` cm, sleeve
+    factor ``f``, feeding efficiency ``eff``, volume ``vr`` cm³, geometric and
+    effective moduli ``m_geo``, ``mr`` cm) and the metal to feed (``need``)."""
     n = len(df)
 
     def col(name, default=np.nan):
@@ -103,7 +128,6 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
     share = np.where(np.isnan(share), 1.0, share)
     vc = col("volume_cm3") / share
     ac = col("cooling_area_cm2") / share
-    mc = vc / ac
     f = np.where(np.isnan(col("sleeve_factor")), 1.0, col("sleeve_factor"))
     eff = np.where(np.isnan(col("sleeve_efficiency")), col("bare_efficiency"), col("sleeve_efficiency"))
     # the metal to feed: solidification shrinkage (0 under pressure control in a rigid
@@ -112,156 +136,175 @@ def assess_frame(risers: pd.DataFrame, modulus_factor: float = rules.DEFAULT_MOD
     pour = col("pour_temp_c")
     pour = np.where(np.isnan(pour), k["liquidus"] + k["superheat"], pour)
     liquid = np.nan_to_num(k["per_100k"] * np.maximum(pour - k["liquidus"], 0.0) / 100.0, nan=0.0)
-    need = np.maximum(beta, 0.0) + liquid
     vr = geometry.cylinder_volume(d, h)
     m_geo = np.where(top, geometry.cylinder_modulus(d, h, "top"), geometry.cylinder_modulus(d, h, "side"))
-    mr = rules.effective_modulus(m_geo, f)
-    ratio = mr / mc
-    x = ratio
-    y = vr / vc
-    a, b, c = col("caine_a"), col("caine_b"), col("caine_c")
+    return {"col": col, "alloy_keys": alloy_keys, "graphitic": k["graphitic"], "pc": pc, "mould": mould,
+            "d": d, "h": h, "top": top, "share": share, "vc": vc, "ac": ac, "mc": vc / ac, "f": f, "eff": eff,
+            "beta": beta, "liquid": liquid, "need": np.maximum(beta, 0.0) + liquid, "vr": vr, "m_geo": m_geo,
+            "mr": rules.effective_modulus(m_geo, f)}
+
+
+def _caine_rule(r: dict) -> dict:
+    """Caine's freezing ratio ``x`` = M_r / M_c, volume ratio ``y``, the
+    curve's X at ``y`` (``xc``) and the margin x - xc, where the row has Caine constants."""
+    x = r["mr"] / r["mc"]
+    y = r["vr"] / r["vc"]
+    a, b, c = r["col"]("caine_a"), r["col"]("caine_b"), r["col"]("caine_c")
     caine_applied = ~np.isnan(a)
     with np.errstate(divide="ignore", invalid="ignore"):
         xc = np.where(caine_applied & (y > b), a / (y - b) + c, np.where(caine_applied, np.inf, np.nan))
         margin = np.where(caine_applied, np.where(np.isfinite(xc), x - xc, -np.inf), np.nan)
-    fm = rules.feed_margin(vr, vc, need, eff)
-    neck = col("neck_diameter_mm") / 10.0
+    return {"ratio": x, "x": x, "y": y, "caine_applied": caine_applied, "xc": xc, "margin": margin}
+
+
+def _neck_rule(r: dict) -> dict:
+    """The neck's modulus (cm) against the window the rule set allows
+    (``neck_lo``-``neck_hi``); ``neck_ok`` 1.0, 0.0, or NaN where no neck is given."""
+    mc, mr, pc, graphitic = r["mc"], r["mr"], r["pc"], r["graphitic"]
+    neck = r["col"]("neck_diameter_mm") / 10.0
     neck_m = geometry.bar_neck_modulus(neck)
     # modulus sequence: neck at least 1.1 x the section (non-graphitic alloys) and below the riser
-    seq_neck = rules.neck_ok(neck_m, mc, mr, np.where(k["graphitic"], 1.0, rules.NECK_FACTOR))
+    seq_neck = rules.neck_ok(neck_m, mc, mr, np.where(graphitic, 1.0, rules.NECK_FACTOR))
     neck_lo, neck_hi = rules.pc_neck_window(mc)
-    neck_lo = np.where(pc, neck_lo, np.where(k["graphitic"], mc, rules.NECK_FACTOR * mc))
+    neck_lo = np.where(pc, neck_lo, np.where(graphitic, mc, rules.NECK_FACTOR * mc))
     neck_hi = np.where(pc, neck_hi, mr)
     neck_ok = np.where(np.isnan(neck), np.nan,
                        np.where(pc, rules.pc_neck_ok(neck_m, mc) & (neck_m < mr), seq_neck).astype(float))
-    # what the modulus rule asks, as a ratio to the section's modulus
-    required = np.where(pc, rules.pc_required_riser_modulus(mc, np.where(neck_ok == 1.0, neck_m, np.nan),
+    return {"neck": neck, "neck_m": neck_m, "neck_lo": neck_lo, "neck_hi": neck_hi, "neck_ok": neck_ok}
+
+
+def _modulus_rule(r: dict, modulus_factor: float) -> dict:
+    """What the modulus rule asks, as a ratio to the section's modulus
+    (``required``; 0 where no riser is needed), and whether the riser meets it."""
+    mc, pc = r["mc"], r["pc"]
+    required = np.where(pc, rules.pc_required_riser_modulus(mc, np.where(r["neck_ok"] == 1.0, r["neck_m"], np.nan),
                                                             modulus_factor) / mc,
                         modulus_factor)
-    riser_needed = ~(pc & rules.riserless_possible(mc, mould))
+    riser_needed = ~(pc & rules.riserless_possible(mc, r["mould"]))
     required = np.where(riser_needed, required, 0.0)
-    modulus_ok = ratio >= required * (1 - 1e-9)
-    feed_ok = (fm >= -1e-9) | ~riser_needed
-    # pressure control: oversized where the riser reaches 1.2 x the larger of the section's
-    # modulus and the least riser the modulus and feed rules ask at this H/D
+    return {"required": required, "riser_needed": riser_needed,
+            "modulus_ok": r["ratio"] >= required * (1 - 1e-9)}
+
+
+def _oversized(r: dict, modulus_factor: float) -> np.ndarray:
+    """Pressure control: oversized where the riser reaches 1.2 x the larger of
+    the section's modulus and the least riser the modulus and feed rules ask
+    at this H/D."""
+    d, h, top, mc = r["d"], r["h"], r["top"], r["mc"]
     hd = np.where(d > 0, h / d, 1.0)
     kk = np.where(top, geometry.modulus_per_diameter(hd, "top"), geometry.modulus_per_diameter(hd, "side"))
     with np.errstate(divide="ignore", invalid="ignore"):
-        v_need = rules.feed_min_volume(vc, need, eff)
-    least = np.maximum(required * mc, f * kk * geometry.diameter_for_volume(np.maximum(v_need, 0.0), hd))
-    over = pc & rules.oversized(mr, mc, least, modulus_factor)
+        v_need = rules.feed_min_volume(r["vc"], r["need"], r["eff"])
+    least = np.maximum(r["required"] * mc, r["f"] * kk * geometry.diameter_for_volume(np.maximum(v_need, 0.0), hd))
+    return r["pc"] & rules.oversized(r["mr"], mc, least, modulus_factor)
 
-    shape = rules.section_shape(col("thickness_mm"), col("width_mm"))
-    steel = alloy_keys == "steel"
+
+def _feeding_distance(r: dict) -> dict:
+    """The section's shape, and for steel the feeding distance (mm) against the
+    feeding length (``fd_ok`` 1.0, 0.0, or NaN where not judged)."""
+    col = r["col"]
     thick, width, length = col("thickness_mm"), col("width_mm"), col("length_mm")
-    fd = np.where(steel, rules.feeding_distance_mm(thick, width, share), np.nan)
+    steel = r["alloy_keys"] == "steel"
+    fd = np.where(steel, rules.feeding_distance_mm(thick, width, r["share"]), np.nan)
     fd_ok = np.where(np.isnan(fd) | np.isnan(length), np.nan, (length <= fd + 1e-9).astype(float))
+    return {"shape": rules.section_shape(col("thickness_mm"), col("width_mm")), "steel": steel,
+            "thick": thick, "width": width, "length": length, "fd": fd, "fd_ok": fd_ok}
 
+
+def _result_frame(df: pd.DataFrame, r: dict, modulus_factor: float) -> pd.DataFrame:
+    """The judged arrays as ``RESULT_COLUMNS`` (all but the failed rules and notes)."""
     out = pd.DataFrame({k: df[k].to_numpy() if k in df else None for k in
                         ("pattern", "revision", "effective_from", "riser", "zone", "alloy", "placement",
                          "top", "diameter_mm", "height_mm", "sleeve", "sleeve_kind")})
     kind = out["sleeve_kind"].astype(object)
     out["sleeve_kind"] = kind.where(kind.notna(), "none")
-    out["sleeve_factor"] = f
-    out["efficiency"] = eff
-    out["shrinkage"] = beta
-    out["section_modulus_cm"] = mc
-    out["riser_modulus_cm"] = mr
-    out["riser_geometric_modulus_cm"] = m_geo
-    out["modulus_ratio"] = ratio
-    out["modulus_factor"] = modulus_factor
-    out["modulus_ok"] = modulus_ok
-    out["freezing_ratio"] = x
-    out["volume_ratio"] = y
-    out["caine_applied"] = caine_applied
-    out["caine_curve_x"] = xc
-    out["caine_margin"] = margin
-    out["caine_ok"] = np.where(caine_applied, margin >= -1e-9, np.nan)
-    out["feed_margin"] = fm
-    out["feed_ok"] = feed_ok
-    out["neck_modulus_cm"] = neck_m
-    out["neck_ok"] = neck_ok
-    out["feeding_distance_mm"] = fd
-    out["feeding_length_mm"] = length
-    out["feeding_distance_ok"] = fd_ok
-    out["riser_volume_cm3"] = vr
-    out["riser_weight_kg"] = vr * col("density_kg_dm3", np.nan) / 1000.0
-    out["rule_set"] = np.where(pc, "pressure_control", "modulus_sequence")
-    out["mould"] = mould
-    out["modulus_required_ratio"] = required
-    out["liquid_contraction"] = liquid
-    out["feed_fraction"] = need
-    out["neck_min_modulus_cm"] = neck_lo
-    out["neck_max_modulus_cm"] = neck_hi
-    out["oversized"] = over
-    out["riser_needed"] = riser_needed
-    out["section_shape"] = shape
-    out["width_mm"] = width
-    joined = geometry.exceeds_sphere_modulus(vc, ac)
-    failed, notes = [], []
-    for i in range(n):
-        fl = []
-        if not modulus_ok[i]:
-            fl.append("modulus")
-        if caine_applied[i] and not margin[i] >= -1e-9:
-            fl.append("caine")
-        if not feed_ok[i]:
-            fl.append("feed_volume")
-        if neck_ok[i] == 0.0:
-            fl.append("neck")
-        if fd_ok[i] == 0.0:
-            fl.append("feeding_distance")
-        if over[i]:
-            fl.append("oversized")
-        failed.append(fl)
-        notes.append("; ".join(_notes(i, pc, caine_applied, steel, fd_ok, thick, width, length, share,
-                                      neck, neck_ok, neck_m, neck_lo, neck_hi, top, riser_needed, mc,
-                                      mould, over, joined, shape, system)))
-    out["passes"] = [not fl for fl in failed]
-    out["failed_rules"] = [",".join(fl) for fl in failed]
-    out["notes"] = notes
-    out["failed_rules_text"] = [rule_words(fl) for fl in failed]
-    return out[RESULT_COLUMNS]
+    columns = {
+        "sleeve_factor": r["f"], "efficiency": r["eff"], "shrinkage": r["beta"], "section_modulus_cm": r["mc"],
+        "riser_modulus_cm": r["mr"], "riser_geometric_modulus_cm": r["m_geo"], "modulus_ratio": r["ratio"],
+        "modulus_factor": modulus_factor, "modulus_ok": r["modulus_ok"], "freezing_ratio": r["x"],
+        "volume_ratio": r["y"], "caine_applied": r["caine_applied"], "caine_curve_x": r["xc"],
+        "caine_margin": r["margin"], "caine_ok": np.where(r["caine_applied"], r["margin"] >= -1e-9, np.nan),
+        "feed_margin": r["fm"], "feed_ok": r["feed_ok"], "neck_modulus_cm": r["neck_m"], "neck_ok": r["neck_ok"],
+        "feeding_distance_mm": r["fd"], "feeding_length_mm": r["length"], "feeding_distance_ok": r["fd_ok"],
+        "riser_volume_cm3": r["vr"], "riser_weight_kg": r["vr"] * r["col"]("density_kg_dm3", np.nan) / 1000.0,
+        "rule_set": np.where(r["pc"], "pressure_control", "modulus_sequence"), "mould": r["mould"],
+        "modulus_required_ratio": r["required"], "liquid_contraction": r["liquid"], "feed_fraction": r["need"],
+        "neck_min_modulus_cm": r["neck_lo"], "neck_max_modulus_cm": r["neck_hi"], "oversized": r["over"],
+        "riser_needed": r["riser_needed"], "section_shape": r["shape"], "width_mm": r["width"],
+    }
+    for name, values in columns.items():  # one at a time, as the columns were always added
+        out[name] = values
+    return out
 
 
-def _notes(i, pc, caine_applied, steel, fd_ok, thick, width, length, share, neck, neck_ok, neck_m,
-           neck_lo, neck_hi, top, riser_needed, mc, mould, over, joined, shape, system=units.METRIC) -> list[str]:
+def _failed_rules(i: int, r: dict) -> list[str]:
+    """The rule keys row ``i`` fails, in RULE_WORDS order."""
+    fl = []
+    if not r["modulus_ok"][i]:
+        fl.append("modulus")
+    if r["caine_applied"][i] and not r["margin"][i] >= -1e-9:
+        fl.append("caine")
+    if not r["feed_ok"][i]:
+        fl.append("feed_volume")
+    if r["neck_ok"][i] == 0.0:
+        fl.append("neck")
+    if r["fd_ok"][i] == 0.0:
+        fl.append("feeding_distance")
+    if r["over"][i]:
+        fl.append("oversized")
+    return fl
+
+
+def _notes(i: int, r: dict, system: str = units.METRIC) -> list[str]:
+    """The notes of row ``i``: the rule set, the neck, Caine, feeding distance,
+    a shared zone and joined faces; moduli worded in ``system``."""
     def cm(x):  # a modulus in the system's unit, metric text as it always was
         return f"{x:.2f} cm" if system != units.US else units.show("length_cm", x, system, 2)
 
     nt = []
-    if pc[i]:
-        nt.append(f"judged by pressure control ({str(mould[i]).replace('_', ' ')} mould)")
-        if not riser_needed[i]:
-            limit = (f"{rules.PC_RISERLESS_MODULUS_CM:g} cm" if system != units.US
-                     else cm(rules.PC_RISERLESS_MODULUS_CM))
-            nt.append(f"section modulus {cm(mc[i])} >= {limit} in a rigid mould: may be cast without a riser")
-        if np.isnan(neck[i]):
-            nt.append("neck not judged: " + ("a top riser has no neck; pressure control needs one"
-                                              if top[i] else "give " + units.column_name("neck_diameter_mm", system)))
-        elif neck_ok[i] == 0.0:
-            side = "wide: the expansion pushes metal back into the riser" if neck_m[i] > neck_hi[i]                 else "narrow: it freezes before the liquid contraction ends"
-            lo_hi = (f"{neck_lo[i]:.2f}-{neck_hi[i]:.2f} cm" if system != units.US else
-                     f"{units.number('length_cm', neck_lo[i], system, 2)}-{cm(neck_hi[i])}")
-            nt.append(f"neck modulus {cm(neck_m[i])} outside {lo_hi}, too {side}")
-        if over[i]:
-            nt.append("oversized: the riser outlasts the section as a steel riser must; pressure control "
-                      "needs it to outlast the neck only")
-    elif not caine_applied[i]:
+    if r["pc"][i]:
+        nt.extend(_pressure_control_notes(i, r, system, cm))
+    elif not r["caine_applied"][i]:
         nt.append("Caine not applied: no constants for this alloy")
-    if not steel[i]:
+    share = r["share"]
+    if not r["steel"][i]:
         nt.append("feeding distance not judged (the published rule is for steel)")
-    elif np.isnan(fd_ok[i]):
+    elif np.isnan(r["fd_ok"][i]):
         missing = [units.column_name(name, system) for name, v in
-                   (("thickness_mm", thick[i]), ("width_mm", width[i]), ("length_mm", length[i])) if np.isnan(v)]
+                   (("thickness_mm", r["thick"][i]), ("width_mm", r["width"][i]), ("length_mm", r["length"][i]))
+                   if np.isnan(v)]
         nt.append(f"feeding distance not judged (give the zone's {', '.join(missing)})")
     else:
-        nt.append(f"feeding distance by the {shape[i]} rule"
+        nt.append(f"feeding distance by the {r['shape'][i]} rule"
                   + (", between risers" if share[i] > 1 else ", to the section's end"))
     if share[i] > 1:
         nt.append(f"zone shared by {int(share[i])} risers: each judged on an equal share")
-    if joined[i]:
+    if r["joined"][i]:
         nt.append("modulus above a same-volume sphere's: right only where faces are joined to other metal")
+    return nt
+
+
+def _pressure_control_notes(i: int, r: dict, system: str, cm) -> list[str]:
+    """The notes of a row judged by pressure control: the mould, a section
+    that needs no riser, the neck, an oversized riser."""
+    neck_lo, neck_hi, neck_m = r["neck_lo"], r["neck_hi"], r["neck_m"]
+    nt = [f"judged by pressure control ({str(r['mould'][i]).replace('_', ' ')} mould)"]
+    if not r["riser_needed"][i]:
+        limit = (f"{rules.PC_RISERLESS_MODULUS_CM:g} cm" if system != units.US
+                 else cm(rules.PC_RISERLESS_MODULUS_CM))
+        nt.append(f"section modulus {cm(r['mc'][i])} >= {limit} in a rigid mould: may be cast without a riser")
+    if np.isnan(r["neck"][i]):
+        nt.append("neck not judged: " + ("a top riser has no neck; pressure control needs one"
+                                          if r["top"][i] else "give " + units.column_name("neck_diameter_mm", system)))
+    elif r["neck_ok"][i] == 0.0:
+        side = ("wide: the expansion pushes metal back into the riser" if neck_m[i] > neck_hi[i]
+                else "narrow: it freezes before the liquid contraction ends")
+        lo_hi = (f"{neck_lo[i]:.2f}-{neck_hi[i]:.2f} cm" if system != units.US else
+                 f"{units.number('length_cm', neck_lo[i], system, 2)}-{cm(neck_hi[i])}")
+        nt.append(f"neck modulus {cm(neck_m[i])} outside {lo_hi}, too {side}")
+    if r["over"][i]:
+        nt.append("oversized: the riser outlasts the section as a steel riser must; pressure control "
+                  "needs it to outlast the neck only")
     return nt
 
 

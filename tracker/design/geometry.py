@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from tracker import units
 from tracker.errors import BadInput
 
 PLACEMENTS = ("top", "side")
@@ -105,11 +106,9 @@ def exceeds_sphere_modulus(volume, cooling_area):
     return v / np.asarray(cooling_area, dtype=float) > sphere_modulus_for_volume(v) * (1 + 1e-9)
 
 
-def joined_faces_warning(volume, cooling_area, system: str = "metric") -> str:
+def joined_faces_warning(volume, cooling_area, system: str = units.METRIC) -> str:
     """The warning text where V/A exceeds a same-volume sphere's modulus, else '';
     figures and units in ``system`` (tracker.units)."""
-    from tracker import units
-
     if not bool(exceeds_sphere_modulus(volume, cooling_area)):
         return ""
     m, ms = float(volume) / float(cooling_area), float(sphere_modulus_for_volume(volume))

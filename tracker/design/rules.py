@@ -29,6 +29,7 @@ import numpy as np
 from tracker import units
 from tracker.design.alloys import CaineConstants
 from tracker.errors import BadInput
+from tracker.numbers import missing
 
 DEFAULT_MODULUS_FACTOR = 1.2
 DEFAULT_CHVORINOV_N = 2.0
@@ -141,8 +142,7 @@ def neck_factor(alloy) -> float:
 # --- pressure control (ductile iron) -------------------------------------------
 
 def check_mould(mould) -> str:
-    m = DEFAULT_MOULD if mould is None or (isinstance(mould, float) and mould != mould) \
-        else str(mould).strip().lower().replace(" ", "_").replace("-", "_")
+    m = DEFAULT_MOULD if missing(mould) else str(mould).strip().lower().replace(" ", "_").replace("-", "_")
     if m == "":
         m = DEFAULT_MOULD
     if m not in MOULDS:

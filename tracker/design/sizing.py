@@ -19,9 +19,10 @@ import numpy as np
 
 from tracker import units
 from tracker.design import geometry, rules
-from tracker.design.alloys import RULE_SETS, Alloy, get_alloy
+from tracker.design.alloys import RULE_SETS, Alloy, CaineConstants, get_alloy
 from tracker.errors import BadInput
 from tracker.limits import POUR_TEMP_RANGE_C, RANGES
+from tracker.numbers import missing
 
 H_OVER_D_RANGE = (0.5, 3.0)
 RULES = ("caine", "modulus", "feed_volume")
@@ -360,6 +361,113 @@ class RiserSize:
         return d
 
 
+def _with_rule_set(alloy: Alloy, rule_set: str | None) -> Alloy:
+    """The alloy judged by ``rule_set`` (a RULE_SETS key) instead of its own, for a comparison."""
+    if rule_set is None:
+        return alloy
+    if rule_set not in RULE_SETS:
+        raise BadInput("rule_set", rule_set, "must be one of " + ", ".join(RULE_SETS))
+    return replace(alloy, rule_set=rule_set)
+
+
+def _efficiency(alloy: Alloy, efficiency: float | None, sleeve: dict | None,
+                sleeve_factor: float) -> tuple[float, str]:
+    """The feeding efficiency (fraction) and where it comes from: given, the
+    catalogue sleeve's, the sleeved default, or the alloy's bare-sand value."""
+    if efficiency is not None:
+        return float(efficiency), "given"
+    if sleeve is not None:
+        return float(sleeve["feeding_efficiency"]), f"sleeve {sleeve['sleeve']} from the log's catalogue"
+    if sleeve_factor > 1.0:
+        return SLEEVED_EFFICIENCY, SLEEVED_EFFICIENCY_SOURCE
+    return alloy.bare_efficiency, "bare sand, the alloy's value (from memory)"
+
+
+def _caine_root_cm(caine: CaineConstants, vc: float, mc: float, h_over_d: float, k: float,
+                   sleeve_factor: float) -> float:
+    """The smallest diameter, cm, on Caine's curve for one section (volume
+    ``vc`` cm³, modulus ``mc`` cm): the root of g(D) by scipy's brentq,
+    bracketed above the diameter where Y = b."""
+    from scipy.optimize import brentq  # scipy.optimize is slow to import; only the scalar path needs it
+
+    kappa = np.pi * h_over_d / 4.0 / vc
+
+    def g(d):
+        return sleeve_factor * k * d / mc - caine.a / (kappa * d**3 - caine.b) - caine.c
+
+    lo = (caine.b / kappa) ** (1 / 3) * (1 + 1e-12) + 1e-300
+    hi = max(2 * lo, (caine.a + caine.c) * mc / (sleeve_factor * k))
+    while g(hi) <= 0:
+        hi *= 2
+    return brentq(g, lo, hi, xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=500)
+
+
+def _rule_diameters_cm(alloy: Alloy, vc: float, mc: float, need: float, eff: float, h_over_d: float, k: float,
+                       sleeve_factor: float, modulus_factor: float) -> dict:
+    """The smallest diameter, cm, each rule allows (RULES keys; Caine's is
+    -inf where the alloy has no Caine constants), for a riser of modulus
+    ``k`` x D feeding a section of ``vc`` cm³ and modulus ``mc`` cm, the feed
+    fraction ``need`` at efficiency ``eff``."""
+    d_mod = modulus_factor * modulus_basis(alloy) * mc / (sleeve_factor * k)
+    d_feed = float(geometry.diameter_for_volume(rules.feed_min_volume(vc, need, eff), h_over_d))
+    d_caine = None if alloy.caine is None else _caine_root_cm(alloy.caine, vc, mc, h_over_d, k, sleeve_factor)
+    return {"caine": d_caine if d_caine is not None else -np.inf, "modulus": d_mod, "feed_volume": d_feed}
+
+
+def _rule_set_notes(alloy: Alloy, mould: str, pour_temp_c: float | None, mc: float, needed: bool,
+                    system: str) -> list[str]:
+    """Notes on the pour temperature and on the pressure-control rule set
+    (``needed``: whether the section needs a riser at all)."""
+    notes = []
+    if pour_temp_c is not None and alloy.liquidus_c is not None and pour_temp_c < alloy.liquidus_c:
+        notes.append(f"pour temperature {units.show('pour_temp_c', pour_temp_c, system)} is below the alloy's "
+                     f"liquidus ({units.show('pour_temp_c', alloy.liquidus_c, system)}): no liquid contraction "
+                     "is counted; check the figure")
+    if alloy.rule_set == "pressure_control":
+        notes.append(f"pressure control ({mould.replace('_', ' ')} mould): the riser feeds the liquid "
+                     f"contraction{'' if mould == 'rigid' else ' and the mould-wall allowance'} until "
+                     "graphite expansion starts; the neck freezes then (modulus "
+                     f"{rules.PC_NECK_RATIO[0]:g}-{rules.PC_NECK_RATIO[1]:g} x the section's)")
+        if not needed:
+            limit = (f"{rules.PC_RISERLESS_MODULUS_CM:g} cm" if system != units.US
+                     else units.show("length_cm", rules.PC_RISERLESS_MODULUS_CM, system, 2))
+            notes.append(f"section modulus {units.show('length_cm', mc, system, 2)} >= {limit} in a rigid "
+                         "mould: the section may be cast without a riser (Karsay, from memory)")
+    return notes
+
+
+def _feeding_distance(alloy: Alloy, thickness_mm: float | None, width_mm: float | None,
+                      length_mm: float | None, system: str) -> dict:
+    """The section's shape, and for steel its feeding distance (mm) and whether
+    the feeding length is within it; ``note`` where it was not judged."""
+    fd = fd_ok = None
+    shape = ""
+    if thickness_mm is not None and width_mm is not None:
+        shape = str(rules.section_shape(thickness_mm, width_mm))
+    if alloy.key == "steel" and thickness_mm is not None and width_mm is not None:
+        fd = float(rules.feeding_distance_mm(thickness_mm, width_mm))
+        fd_ok = None if length_mm is None else bool(length_mm <= fd + 1e-9)
+    note = None
+    if alloy.key != "steel":
+        note = "feeding distance not judged (the published rule is for steel)"
+    elif fd is None or fd_ok is None:
+        note = ("feeding distance not judged (give "
+                + ", ".join(units.option_name(n, system) for n, v in
+                            (("thickness_mm", thickness_mm), ("width_mm", width_mm),
+                             ("length_mm", length_mm)) if v is None) + ")")
+    return {"section_shape": shape, "feeding_distance_mm": fd, "feeding_distance_ok": fd_ok, "note": note}
+
+
+def _pour_temp_used(alloy: Alloy, pour_temp_c: float | None) -> float | None:
+    """The pour temperature the liquid contraction is counted from, °C: the
+    given one, else the liquidus plus the alloy's superheat (None where the
+    alloy has no liquidus)."""
+    if alloy.liquidus_c is None:
+        return None
+    return float(pour_temp_c if pour_temp_c is not None
+                 else alloy.liquidus_c + (alloy.default_superheat_k or 0.0))
+
+
 def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str = "side",
                h_over_d: float = 1.0, sleeve_factor: float = 1.0,
                modulus_factor: float = rules.DEFAULT_MODULUS_FACTOR,
@@ -385,24 +493,10 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
     system: the unit system (tracker.units) the notes and warnings word their
     figures in; every number of the result stays metric.
     """
-    from scipy.optimize import brentq
-
-    alloy = _as_alloy(alloy)
-    if rule_set is not None:
-        if rule_set not in RULE_SETS:
-            raise BadInput("rule_set", rule_set, "must be one of " + ", ".join(RULE_SETS))
-        alloy = replace(alloy, rule_set=rule_set)
+    alloy = _with_rule_set(_as_alloy(alloy), rule_set)
     placement = geometry.check_placement(placement)
     mould = rules.check_mould(mould)
-    sleeve_code = None if sleeve is None else sleeve["sleeve"]
-    if efficiency is not None:
-        eff, eff_src = float(efficiency), "given"
-    elif sleeve is not None:
-        eff, eff_src = float(sleeve["feeding_efficiency"]), f"sleeve {sleeve_code} from the log's catalogue"
-    elif sleeve_factor > 1.0:
-        eff, eff_src = SLEEVED_EFFICIENCY, SLEEVED_EFFICIENCY_SOURCE
-    else:
-        eff, eff_src = alloy.bare_efficiency, "bare sand, the alloy's value (from memory)"
+    eff, eff_src = _efficiency(alloy, efficiency, sleeve, sleeve_factor)
     if sleeve is not None:
         sleeve_factor = float(sleeve["modulus_factor"])
     validate_pour_temp(pour_temp_c, system)
@@ -413,62 +507,19 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
     need = max(beta, 0.0) + liquid
     vc, mc = float(volume_cm3), float(volume_cm3) / float(area_cm2)
     k = float(geometry.modulus_per_diameter(h_over_d, placement))
-    d_mod = modulus_factor * modulus_basis(alloy) * mc / (sleeve_factor * k)
-    d_feed = float(geometry.diameter_for_volume(rules.feed_min_volume(vc, need, eff), h_over_d))
-    d_caine = None
-    if alloy.caine is not None:
-        cn = alloy.caine
-        kappa = np.pi * h_over_d / 4.0 / vc
-
-        def g(d):
-            return sleeve_factor * k * d / mc - cn.a / (kappa * d**3 - cn.b) - cn.c
-
-        lo = (cn.b / kappa) ** (1 / 3) * (1 + 1e-12) + 1e-300
-        hi = max(2 * lo, (cn.a + cn.c) * mc / (sleeve_factor * k))
-        while g(hi) <= 0:
-            hi *= 2
-        d_caine = brentq(g, lo, hi, xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=500)
-    cands = {"caine": d_caine if d_caine is not None else -np.inf,
-             "modulus": d_mod, "feed_volume": d_feed}
-    governing = max(RULES, key=lambda r: cands[r])
-    d = cands[governing]
+    mins = _rule_diameters_cm(alloy, vc, mc, need, eff, h_over_d, k, sleeve_factor, modulus_factor)
+    governing = max(RULES, key=lambda r: mins[r])  # the largest of the smallest diameters governs
+    d, d_caine = mins[governing], mins["caine"] if alloy.caine is not None else None
     vr = float(geometry.cylinder_volume(d, h_over_d * d))
     mr = sleeve_factor * k * d
     x, y = mr / mc, vr / vc
-    margin = None if alloy.caine is None else float(rules.caine_margin(x, y, alloy.caine))
     neck = float(suggested_neck_mm(alloy, mc, placement))
-    pc = alloy.rule_set == "pressure_control"
-    needed = not (pc and bool(rules.riserless_possible(mc, mould)))
+    needed = not (alloy.rule_set == "pressure_control" and bool(rules.riserless_possible(mc, mould)))
     warn = geometry.joined_faces_warning(vc, float(area_cm2), system)
-    notes = []
-    if pour_temp_c is not None and alloy.liquidus_c is not None and pour_temp_c < alloy.liquidus_c:
-        notes.append(f"pour temperature {units.show('pour_temp_c', pour_temp_c, system)} is below the alloy's "
-                     f"liquidus ({units.show('pour_temp_c', alloy.liquidus_c, system)}): no liquid contraction "
-                     "is counted; check the figure")
-    if pc:
-        notes.append(f"pressure control ({mould.replace('_', ' ')} mould): the riser feeds the liquid "
-                     f"contraction{'' if mould == 'rigid' else ' and the mould-wall allowance'} until "
-                     "graphite expansion starts; the neck freezes then (modulus "
-                     f"{rules.PC_NECK_RATIO[0]:g}-{rules.PC_NECK_RATIO[1]:g} x the section's)")
-        if not needed:
-            limit = (f"{rules.PC_RISERLESS_MODULUS_CM:g} cm" if system != units.US
-                     else units.show("length_cm", rules.PC_RISERLESS_MODULUS_CM, system, 2))
-            notes.append(f"section modulus {units.show('length_cm', mc, system, 2)} >= {limit} in a rigid "
-                         "mould: the section may be cast without a riser (Karsay, from memory)")
-    fd = fd_ok = None
-    shape = ""
-    if thickness_mm is not None and width_mm is not None:
-        shape = str(rules.section_shape(thickness_mm, width_mm))
-    if alloy.key == "steel" and thickness_mm is not None and width_mm is not None:
-        fd = float(rules.feeding_distance_mm(thickness_mm, width_mm))
-        fd_ok = None if length_mm is None else bool(length_mm <= fd + 1e-9)
-    if alloy.key != "steel":
-        notes.append("feeding distance not judged (the published rule is for steel)")
-    elif fd is None or fd_ok is None:
-        notes.append("feeding distance not judged (give "
-                     + ", ".join(units.option_name(n, system) for n, v in
-                                 (("thickness_mm", thickness_mm), ("width_mm", width_mm),
-                                  ("length_mm", length_mm)) if v is None) + ")")
+    notes = _rule_set_notes(alloy, mould, pour_temp_c, mc, needed, system)
+    feeding = _feeding_distance(alloy, thickness_mm, width_mm, length_mm, system)
+    if feeding["note"] is not None:
+        notes.append(feeding["note"])
     return RiserSize(
         alloy=alloy.key, placement=placement, h_over_d=float(h_over_d),
         sleeve_factor=float(sleeve_factor), modulus_factor=float(modulus_factor),
@@ -477,19 +528,19 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
         riser_modulus_cm=mr, section_modulus_cm=mc, freezing_ratio=x, volume_ratio=y,
         caine_applied=alloy.caine is not None,
         caine_min_diameter_mm=None if d_caine is None else d_caine * 10,
-        modulus_min_diameter_mm=d_mod * 10, feed_min_diameter_mm=d_feed * 10,
-        governing_rule=governing, caine_margin=margin,
+        modulus_min_diameter_mm=mins["modulus"] * 10, feed_min_diameter_mm=mins["feed_volume"] * 10,
+        governing_rule=governing,
+        caine_margin=None if alloy.caine is None else float(rules.caine_margin(x, y, alloy.caine)),
         freezing_time_ratio=x ** rules.DEFAULT_CHVORINOV_N,
         riser_weight_kg=vr * alloy.density_kg_dm3 / 1000.0,
         rule_set=alloy.rule_set, rule_set_text=RULE_SETS[alloy.rule_set], mould=mould,
-        liquid_contraction=liquid,
-        pour_temp_c=None if alloy.liquidus_c is None else float(
-            pour_temp_c if pour_temp_c is not None else alloy.liquidus_c + (alloy.default_superheat_k or 0.0)),
-        feed_fraction=need, efficiency_source=eff_src, sleeve=sleeve_code,
+        liquid_contraction=liquid, pour_temp_c=_pour_temp_used(alloy, pour_temp_c),
+        feed_fraction=need, efficiency_source=eff_src, sleeve=None if sleeve is None else sleeve["sleeve"],
         neck_diameter_mm=None if np.isnan(neck) else neck,
         neck_modulus_cm=None if np.isnan(neck) else neck / 40.0,
-        riser_needed=needed, thickness_mm=thickness_mm, width_mm=width_mm, section_shape=shape,
-        feeding_distance_mm=fd, feeding_length_mm=length_mm, feeding_distance_ok=fd_ok,
+        riser_needed=needed, thickness_mm=thickness_mm, width_mm=width_mm, section_shape=feeding["section_shape"],
+        feeding_distance_mm=feeding["feeding_distance_mm"], feeding_length_mm=length_mm,
+        feeding_distance_ok=feeding["feeding_distance_ok"],
         source="; ".join(x for x in (alloy.source, alloy.liquid_source, rule_set_source(alloy.rule_set, system)) if x),
         warnings=(warn,) if warn else (), notes=tuple(notes),
     )
@@ -528,7 +579,7 @@ def size_zone(store, pattern: str, zone: str, **options) -> RiserSize:
 
     def val(key):
         v = z.get(key)
-        return None if v is None or (isinstance(v, float) and math.isnan(v)) else v
+        return None if missing(v) else v
 
     logged = {"mould": val("mould"), "thickness_mm": val("thickness_mm"), "width_mm": val("width_mm"),
               "length_mm": val("length_mm"), "pour_temp_c": store.mean_pour_temp(pattern)}
