@@ -6,6 +6,8 @@ import os
 import pathlib
 import sqlite3
 
+import sqlite_utils
+
 from tracker.errors import PourbackError
 from tracker.log import accounts as auth
 from tracker.log.core import StoreCore
@@ -51,7 +53,7 @@ def restore(backup_file: str | os.PathLike, dest: str | os.PathLike) -> None:
     try:
         try:
             ok = src.execute("PRAGMA integrity_check").fetchone()[0]
-            tables = {r[0] for r in src.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
+            tables = set(sqlite_utils.Database(src, recursive_triggers=False, execute_plugins=False).table_names())
             version = src.execute("PRAGMA user_version").fetchone()[0]
         except sqlite3.DatabaseError as exc:
             raise PourbackError(f"backup {backup_file} is not a readable SQLite database ({exc}); "

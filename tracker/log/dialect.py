@@ -30,6 +30,8 @@ import time
 import urllib.parse
 from collections.abc import Callable, Iterable, Iterator
 
+import sqlite_utils
+
 from tracker.errors import DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog, PourbackError
 
 URL_SCHEMES = ("postgresql://", "postgres://")
@@ -136,11 +138,11 @@ class SQLite:
     temp_schema = "temp"
     update_from = sqlite3.sqlite_version_info >= (3, 33, 0)
     totals_settings: tuple[str, ...] = ()
+    conn: sqlite3.Connection  # set once the file is open
 
     def __init__(self, path: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         self.target = path
         self.on_wait = on_wait
-        self.conn = None
         memory = path == ":memory:"
         if not memory and not create and not pathlib.Path(path).exists():
             raise LogNotFound(path)
@@ -154,7 +156,7 @@ class SQLite:
             self.conn.execute("PRAGMA foreign_keys = ON")
             self._check_foreign()
             if not memory:
-                self.retry(lambda: self.conn.execute("PRAGMA journal_mode = WAL"))
+                self.retry(self.utils.enable_wal)
                 self.conn.execute("PRAGMA synchronous = NORMAL")
         except sqlite3.Error as exc:
             self.close()
@@ -167,15 +169,21 @@ class SQLite:
         """Refuse an SQLite database of another program (its tables, no schema version)."""
         if self.schema_version() != 0:
             return
-        tables = [r[0] for r in self.conn.execute(
-            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name LIMIT 4")]
+        tables = self.table_names()[:4]
         if tables:
             raise NotALog(self.target, "an SQLite database of another program, with the tables "
                                        + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else ""))
 
     def close(self) -> None:
-        if self.conn is not None:
-            self.conn.close()
+        conn = getattr(self, "conn", None)  # None when the file never opened
+        if conn is not None:
+            conn.close()
+
+    @property
+    def utils(self) -> sqlite_utils.Database:
+        """The connection as sqlite-utils sees it: the same connection (so whatever it
+        runs is part of the open transaction), without its plugins or pragmas."""
+        return sqlite_utils.Database(self.conn, recursive_triggers=False, execute_plugins=False)
 
     # errors -----------------------------------------------------------------------
     @staticmethod
@@ -248,8 +256,22 @@ class SQLite:
         self.conn.execute(f"PRAGMA user_version = {int(version)}")
 
     def table_names(self) -> list[str]:
-        return [r[0] for r in self.conn.execute(
-            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name")]
+        return sorted(self.utils.table_names())
+
+    def columns(self, table: str) -> list[str]:
+        """The columns of ``table``, in their order."""
+        return [c.name for c in self.utils.table(table).columns]
+
+    def count(self, table: str) -> int:
+        return self.utils.table(table).count
+
+    def create_table(self, name: str, columns: dict[str, type], pk: str | tuple[str, ...],
+                     not_null: Iterable[str] = ()) -> None:
+        """Create table ``name`` (``columns``: name to Python type; ``pk``: the key's column or columns)."""
+        self.utils.create_table(name, columns, pk=pk, not_null=set(not_null))
+
+    def add_column(self, table: str, column: str, col_type: type) -> None:
+        self.utils.table(table).add_column(column, col_type)
 
     # rows -------------------------------------------------------------------------
     def execute(self, sql: str, params: Iterable = ()):
@@ -583,6 +605,29 @@ class PostgreSQL:
         return [r[0] for r in self.conn.execute(
             "SELECT table_name FROM information_schema.tables WHERE table_schema = current_schema() "
             "AND table_type = 'BASE TABLE' AND table_name != 'pourback_schema' ORDER BY table_name")]
+
+    def columns(self, table: str) -> list[str]:
+        """The columns of ``table``, in their order."""
+        cur = self.conn.execute(f'SELECT * FROM "{table}" WHERE 1 = 0')
+        return [d[0] for d in cur.description or ()]
+
+    def count(self, table: str) -> int:
+        return self.conn.execute(f'SELECT COUNT(*) FROM "{table}"').fetchone()[0]
+
+    # The shared DDL types of the Python types a migration names (mapped on by ddl()).
+    _TYPES = {str: "TEXT", int: "INTEGER", float: "REAL", bytes: "BLOB"}
+
+    def create_table(self, name: str, columns: dict[str, type], pk: str | tuple[str, ...],
+                     not_null: Iterable[str] = ()) -> None:
+        """As :meth:`SQLite.create_table`, written out in the shared DDL."""
+        keys = (pk,) if isinstance(pk, str) else tuple(pk)
+        required = set(not_null)
+        cols = [f"{c} {self._TYPES[t]}" + (" NOT NULL" if c in required else "") for c, t in columns.items()]
+        cols.append("PRIMARY KEY (" + ", ".join(keys) + ")")
+        self.execute(self.ddl(f"CREATE TABLE {name} ({', '.join(cols)})"))
+
+    def add_column(self, table: str, column: str, col_type: type) -> None:
+        self.execute(self.ddl(f"ALTER TABLE {table} ADD COLUMN {column} {self._TYPES[col_type]}"))
 
     # rows -------------------------------------------------------------------------
     def sql(self, sql: str) -> str:

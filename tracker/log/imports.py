@@ -34,7 +34,7 @@ class ImportBookkeeping(MetaRows):
     def legacy_keys_present(self, keys: Iterable[str], file: str) -> set:
         """Which of ``keys`` (old content-and-occurrence keys) a record imported
         from a file named ``file`` holds."""
-        found = set()
+        found: set[str] = set()
         for where, params in self.dialect.in_list("record_key", list(dict.fromkeys(keys))):
             q = f"SELECT record_key FROM inspections WHERE {where} AND source = ?"
             found.update(r[0] for r in self.conn.execute(q, [*params, file]).fetchall())
@@ -44,7 +44,7 @@ class ImportBookkeeping(MetaRows):
         """The stored content (lot .. notes, as TABLE_COLUMNS orders them) of the
         records with the given keys."""
         cols = TABLE_COLUMNS["inspections"][1:13]
-        out = {}
+        out: dict[str, tuple] = {}
         for where, params in self.dialect.in_list("record_key", list(dict.fromkeys(keys))):
             q = f"SELECT record_key, {', '.join(cols)} FROM inspections WHERE {where}"
             out.update((r[0], tuple(r[1:])) for r in self.conn.execute(q, params).fetchall())

@@ -24,6 +24,16 @@ class Schema:
     def execute(self, sql: str, params: Iterable = ()):
         return self.dialect.execute(self.dialect.ddl(sql), params)
 
+    def create_table(self, name: str, columns: dict[str, type], pk: str | tuple[str, ...],
+                     not_null: Iterable[str] = ()) -> None:
+        """Create a plain table: columns of Python types (str, int, float, bytes), a
+        primary key, NOT NULL columns (sqlite-utils' ``Database.create_table`` on SQLite)."""
+        self.dialect.create_table(name, columns, pk, not_null)
+
+    def add_column(self, table: str, column: str, col_type: type) -> None:
+        """Add a column of Python type ``col_type`` (sqlite-utils' ``Table.add_column`` on SQLite)."""
+        self.dialect.add_column(table, column, col_type)
+
 
 # --- migrations -------------------------------------------------------------------
 # Each migration is plain SQL in the subset both dialects share, run through
@@ -109,7 +119,7 @@ def _migration_1(db: Schema) -> None:
 
 
 def _migration_2(db: Schema) -> None:
-    db.execute("CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT)")
+    db.create_table("meta", {"key": str, "value": str}, pk="key")
 
 
 def _migration_3(db: Schema) -> None:
@@ -189,8 +199,8 @@ def _migration_6(db: Schema) -> None:
     # The mould a pattern is moulded in (green_sand or rigid; empty = green sand): ductile
     # iron's pressure-control rules depend on it. A zone's width, for the feeding-distance
     # rules of bars and plates (width over thickness).
-    db.execute("ALTER TABLE patterns ADD COLUMN mould TEXT")
-    db.execute("ALTER TABLE zones ADD COLUMN width_mm REAL")
+    db.add_column("patterns", "mould", str)
+    db.add_column("zones", "width_mm", float)
 
 
 def _migration_7(db: Schema) -> None:
@@ -201,25 +211,17 @@ def _migration_7(db: Schema) -> None:
 
 def _migration_8(db: Schema) -> None:
     # Plants: a pattern belongs to one plant of a group (None: the log's only plant).
-    db.execute("ALTER TABLE patterns ADD COLUMN plant TEXT")
+    db.add_column("patterns", "plant", str)
     db.execute("CREATE INDEX patterns_plant ON patterns(plant, pattern)")
 
 
 def _migration_9(db: Schema) -> None:
     # The running totals the riser revisions' before/after are read from (see above).
-    db.execute("""
-        CREATE TABLE day_totals (
-            pattern TEXT NOT NULL, poured_on TEXT NOT NULL,
-            lots INTEGER NOT NULL, castings INTEGER NOT NULL, inspected_castings INTEGER NOT NULL,
-            rejected INTEGER NOT NULL, shrinkage INTEGER NOT NULL, zoned_shrinkage INTEGER NOT NULL,
-            PRIMARY KEY (pattern, poured_on)
-        )""")
-    db.execute("""
-        CREATE TABLE zone_totals (
-            pattern TEXT NOT NULL, zone TEXT NOT NULL, poured_on TEXT NOT NULL,
-            shrinkage INTEGER NOT NULL,
-            PRIMARY KEY (pattern, zone, poured_on)
-        )""")
+    day = {"pattern": str, "poured_on": str, "lots": int, "castings": int, "inspected_castings": int,
+           "rejected": int, "shrinkage": int, "zoned_shrinkage": int}
+    db.create_table("day_totals", day, pk=("pattern", "poured_on"), not_null=day)
+    zone = {"pattern": str, "zone": str, "poured_on": str, "shrinkage": int}
+    db.create_table("zone_totals", zone, pk=("pattern", "zone", "poured_on"), not_null=zone)
     _totals_from(db.execute, EARLIEST_DAY)
 
 

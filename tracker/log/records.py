@@ -29,14 +29,14 @@ class Records(StoreCore):
 
         ``exclude``: record ids to leave out (the record a correction replaces).
         """
-        exclude = [int(x) for x in exclude]
-        skip = f" AND i.id NOT IN ({', '.join('?' * len(exclude))})" if exclude else ""
+        ids = [int(x) for x in exclude]
+        skip = f" AND i.id NOT IN ({', '.join('?' * len(ids))})" if ids else ""
         out: dict[str, dict] = {}
         for where, params in self.dialect.in_list("i.lot", list(dict.fromkeys(lots))):
             q = ("SELECT i.lot, i.method, i.result, SUM(i.quantity) FROM inspections i "
                  f"WHERE {where} AND {CURRENT}"
                  + skip + " GROUP BY i.lot, i.method, i.result")
-            for lot, method, result, qty in self.conn.execute(q, params + exclude).fetchall():
+            for lot, method, result, qty in self.conn.execute(q, params + ids).fetchall():
                 d = out.setdefault(lot, {"rejected": 0, "methods": {}})
                 d["methods"][method] = d["methods"].get(method, 0) + qty
                 if result == "reject":

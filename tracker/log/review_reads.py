@@ -4,6 +4,7 @@ and the floor the scale benchmark holds the review against."""
 from __future__ import annotations
 
 from collections.abc import Iterable
+from typing import cast
 
 import pandas as pd
 
@@ -79,8 +80,9 @@ class ReviewReads(StoreCore):
         statement that reads the window's current records once; else from the
         two aggregates and the patterns."""
         if not self.dialect.review_in_one_pass:
-            pours = self.pours_by_day(start, end, columns=True)
-            return pours, self.rejects_by_day(start, end, columns=True), self.pattern_costs(pours["pattern"])
+            pours = cast(dict[str, tuple], self.pours_by_day(start, end, columns=True))
+            rejects = cast(dict[str, tuple], self.rejects_by_day(start, end, columns=True))
+            return pours, rejects, self.pattern_costs(pours["pattern"])
         where, params = self._lot_filter(start, end, None)
         cond = " AND ".join(where) or "1 = 1"
         # A lot counts as inspected when it holds a current record: the lots of the

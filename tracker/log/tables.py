@@ -39,10 +39,8 @@ class Tables(StoreCore):
         return self._frame(f'SELECT * FROM "{name}" ORDER BY {order}')
 
     def count(self, name: str) -> int:
-        # A table name cannot be a parameter: take only the log's own tables.
-        if name not in self.dialect.table_names():
-            raise NotFound("table", name)
-        return self.conn.execute(f'SELECT COUNT(*) FROM "{name}"').fetchone()[0]
+        """The rows of table ``name`` (one of the log's own tables)."""
+        return self.dialect.count(self._known(name))
 
     def has_rows(self, name: str) -> bool:
         """Whether table ``name`` (one of the import kinds) holds any row."""
@@ -60,8 +58,8 @@ class Tables(StoreCore):
         return {t: self.dialect.quick_count(t)
                 for t in ("patterns", "zones", "sleeves", "revisions", "risers", "lots", "inspections")}
 
-    def snapshot(self) -> dict[str, list[tuple]]:
-        """Every row of every table (for checks that nothing changed)."""
+    def snapshot(self) -> dict[str, list[str]]:
+        """Every row of every table, each as its repr, sorted (for checks that nothing changed)."""
         names = self.dialect.table_names()
         return {n: sorted(map(repr, self.conn.execute(f'SELECT * FROM "{n}"').fetchall()))
                 for n in names}
@@ -87,7 +85,7 @@ class Tables(StoreCore):
 
     def keys_present(self, name: str, column: str, values: Iterable) -> set:
         """Which of ``values`` are present in ``name.column``."""
-        found = set()
+        found: set = set()
         for where, params in self.dialect.in_list(f'"{column}"', list(dict.fromkeys(values))):
             q = f'SELECT "{column}" FROM "{name}" WHERE {where}'
             found.update(r[0] for r in self.conn.execute(q, params).fetchall())
@@ -108,10 +106,8 @@ class Tables(StoreCore):
         return first + sorted(t for t in names if t not in COPY_ORDER)
 
     def table_columns(self, name: str) -> list[str]:
-        if name not in self.dialect.table_names():
-            raise NotFound("table", name)
-        cur = self.conn.execute(f'SELECT * FROM "{name}" WHERE 1 = 0')
-        return [d[0] for d in cur.description]
+        """The columns of table ``name``, in their order."""
+        return self.dialect.columns(self._known(name))
 
     def iter_table(self, name: str, columns: list[str], size: int = 50_000) -> Iterator[list[tuple]]:
         """Every row of ``name`` (the given columns), ``size`` at a time, in no set order."""
