@@ -19,17 +19,18 @@ record supersedes and that are not void (:data:`tracker.log.schema.CURRENT`).
 write transaction, retries, migrations) with one class per family of tables,
 each in its own module:
 
-========================  ==================================================
-:mod:`~tracker.log.tables`        any table by name, bulk inserts, copy-log
-:mod:`~tracker.log.designs`       patterns, zones, sleeves, revisions, risers
-:mod:`~tracker.log.records`       lots and inspection records
-:mod:`~tracker.log.review_reads`  what the weekly review reads
-:mod:`~tracker.log.totals`        the running totals per pattern and pour day
-:mod:`~tracker.log.imports`       imported files and their keys
-:mod:`~tracker.log.users`         accounts, sessions, the audit
-:mod:`~tracker.log.meta`          settings (``meta``) and fitted models
-:mod:`~tracker.log.backup`        backup, restore, integrity check
-========================  ==================================================
+- ``tables``: any table by name, bulk inserts, copy-log;
+- ``designs``: patterns, zones, sleeves, revisions, risers;
+- ``records``: lots and inspection records;
+- ``review_reads``: what the weekly review reads;
+- ``totals``: the running totals per pattern and pour day (their SQL in ``totals_sql``);
+- ``imports``: imported files and their keys;
+- ``users``: accounts, sessions, the audit;
+- ``meta``: settings (``meta``) and fitted models;
+- ``backup``: backup, restore, integrity check.
+
+The schema's names (columns, keys, the current-record condition) are in
+``schema``, its versions in ``migrations``.
 
 The names other layers import from here (``Store``, ``KEYS``, ``TABLE_COLUMNS``,
 ``retrying``, ``DATABASE_ERRORS``, ...) stay importable from this module.
@@ -62,15 +63,13 @@ from tracker.log.dialect import (  # noqa: F401 (re-exported: callers use store.
     BUSY_TIMEOUT_MS,
     data_version,
     display_name,
-    drop_schema,
     is_url,
     log_error,
-    new_schema,
-    with_schema,
 )
 from tracker.log.imports import ImportBookkeeping
 from tracker.log.meta import MetaRows, ModelRows
 from tracker.log.migrations import MIGRATIONS, SCHEMA_VERSION  # noqa: F401 (re-exported for tests and the CLI)
+from tracker.log.pgpool import drop_schema, new_schema, with_schema  # noqa: F401 (re-exported for tests, benchmark)
 from tracker.log.records import Records
 from tracker.log.review_reads import ReviewReads
 from tracker.log.schema import (  # noqa: F401 (re-exported: callers import them from here)
