@@ -39,6 +39,12 @@ class Schema:
 # Each migration is plain SQL in the subset both dialects share, run through
 # ``db.execute`` (a :class:`Schema`), which maps the column types to the
 # dialect's (INTEGER PRIMARY KEY, REAL, BLOB, TEXT) and ``?`` to its placeholder.
+# A plain table (typed columns, a primary key, NOT NULL) is made by
+# ``db.create_table`` and a new column by ``db.add_column``: sqlite-utils on SQLite.
+# Tables with CHECK constraints, collations, foreign keys or partial indexes stay
+# in SQL, which says them the same way to both dialects. Migrations 1 to 3 run in
+# the tests on a bare sqlite-utils ``Database`` too (its ``execute`` and
+# ``create_table`` take the same arguments).
 
 def _migration_1(db: Schema) -> None:
     db.execute("""
@@ -110,6 +116,11 @@ def _migration_1(db: Schema) -> None:
     db.execute("CREATE UNIQUE INDEX inspections_supersedes ON inspections(supersedes) "
                "WHERE supersedes IS NOT NULL")
     db.execute("CREATE INDEX risers_zone ON risers(pattern, zone)")
+    _seed_alloys(db)
+
+
+def _seed_alloys(db: Schema) -> None:
+    """The alloys table as the program knows them (tracker.design.alloys)."""
     for a in ALLOYS.values():
         c = a.caine
         db.execute("INSERT INTO alloys (alloy, name, shrinkage, density_kg_dm3, bare_efficiency, "
