@@ -16,7 +16,7 @@ import pandas as pd
 import pytest
 from scipy import stats as sps
 
-from tracker.log import store as store_module
+from tracker.log import totals as store_module
 from tracker.log.ingest import correct_inspection, import_dir, import_file, log_inspection
 from tracker.log.store import Store
 from tracker.review import stats

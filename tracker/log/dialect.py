@@ -1,14 +1,15 @@
 """The two database backends of the log: SQLite (the embedded default) and PostgreSQL.
 
-Used by ``tracker/store.py`` only. Every difference between the dialects lives
+Used by :mod:`tracker.log` only (its connections to PostgreSQL come from
+:mod:`tracker.log.pgpool`). Every difference between the dialects lives
 here: how a connection opens, placeholders, identifier types in the DDL, the
 schema version, row ids, bulk insert (``executemany`` against ``COPY``), "value
 in a list" lookups (``IN`` chunks against one array), the writers' lock, the
 errors worth retrying, query plans, integrity checks, kept idle connections,
 the settings of the running totals' recompute and how a change to the log is
-noticed. ``store.py`` writes its SQL once, in the
-common subset of both (``?`` placeholders, ``"double-quoted"`` identifiers,
-``ON CONFLICT ... DO UPDATE`` upserts), and asks the dialect for the rest.
+noticed. The store writes its SQL once, in the common subset of both
+(``?`` placeholders, ``"double-quoted"`` identifiers, ``ON CONFLICT ... DO
+UPDATE`` upserts), and asks the dialect for the rest.
 
 A log is named by a file path (SQLite) or a ``postgresql://`` URL. The URL's
 password (or ``PGPASSWORD`` / a ``.pgpass`` file, read by libpq) is used to
@@ -30,7 +31,10 @@ import time
 import urllib.parse
 from collections.abc import Callable, Iterable, Iterator
 
+import sqlite_utils
+
 from tracker.errors import DiskFull, LogError, LogLocked, LogNotFound, LogReadOnly, NotALog, PourbackError
+from tracker.log.pgpool import _connect, _psycopg, _release, _Values
 
 URL_SCHEMES = ("postgresql://", "postgres://")
 BUSY_TIMEOUT_MS = 30_000
@@ -136,11 +140,11 @@ class SQLite:
     temp_schema = "temp"
     update_from = sqlite3.sqlite_version_info >= (3, 33, 0)
     totals_settings: tuple[str, ...] = ()
+    conn: sqlite3.Connection  # set once the file is open
 
     def __init__(self, path: str, create: bool = True, on_wait: Callable[[str], None] | None = None):
         self.target = path
         self.on_wait = on_wait
-        self.conn = None
         memory = path == ":memory:"
         if not memory and not create and not pathlib.Path(path).exists():
             raise LogNotFound(path)
@@ -154,7 +158,7 @@ class SQLite:
             self.conn.execute("PRAGMA foreign_keys = ON")
             self._check_foreign()
             if not memory:
-                self.retry(lambda: self.conn.execute("PRAGMA journal_mode = WAL"))
+                self.retry(self.utils.enable_wal)
                 self.conn.execute("PRAGMA synchronous = NORMAL")
         except sqlite3.Error as exc:
             self.close()
@@ -167,15 +171,21 @@ class SQLite:
         """Refuse an SQLite database of another program (its tables, no schema version)."""
         if self.schema_version() != 0:
             return
-        tables = [r[0] for r in self.conn.execute(
-            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name LIMIT 4")]
+        tables = self.table_names()[:4]
         if tables:
             raise NotALog(self.target, "an SQLite database of another program, with the tables "
                                        + ", ".join(tables[:3]) + (" ..." if len(tables) > 3 else ""))
 
     def close(self) -> None:
-        if self.conn is not None:
-            self.conn.close()
+        conn = getattr(self, "conn", None)  # None when the file never opened
+        if conn is not None:
+            conn.close()
+
+    @property
+    def utils(self) -> sqlite_utils.Database:
+        """The connection as sqlite-utils sees it: the same connection (so whatever it
+        runs is part of the open transaction), without its plugins or pragmas."""
+        return sqlite_utils.Database(self.conn, recursive_triggers=False, execute_plugins=False)
 
     # errors -----------------------------------------------------------------------
     @staticmethod
@@ -248,8 +258,22 @@ class SQLite:
         self.conn.execute(f"PRAGMA user_version = {int(version)}")
 
     def table_names(self) -> list[str]:
-        return [r[0] for r in self.conn.execute(
-            "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name")]
+        return sorted(self.utils.table_names())
+
+    def columns(self, table: str) -> list[str]:
+        """The columns of ``table``, in their order."""
+        return [c.name for c in self.utils.table(table).columns]
+
+    def count(self, table: str) -> int:
+        return self.utils.table(table).count
+
+    def create_table(self, name: str, columns: dict[str, type], pk: str | tuple[str, ...],
+                     not_null: Iterable[str] = ()) -> None:
+        """Create table ``name`` (``columns``: name to Python type; ``pk``: the key's column or columns)."""
+        self.utils.create_table(name, columns, pk=pk, not_null=set(not_null))
+
+    def add_column(self, table: str, column: str, col_type: type) -> None:
+        self.utils.table(table).add_column(column, col_type)
 
     # rows -------------------------------------------------------------------------
     def execute(self, sql: str, params: Iterable = ()):
@@ -324,75 +348,6 @@ class SQLite:
                                 "can be written and has room") from None
         return {"ran": True, "command": None, "note": "restore it with `pourback restore`"}
 
-
-# --- PostgreSQL --------------------------------------------------------------------------
-
-class _Values(list):
-    """A list sent to PostgreSQL as one array parameter in binary form (psycopg writes
-    a text array value by value in Python, and the server parses it: slower)."""
-
-
-def _psycopg():
-    try:
-        import psycopg
-    except ImportError:  # pragma: no cover - psycopg is a dependency
-        raise PourbackError("a postgresql:// log needs the psycopg package: "
-                            "pip install 'psycopg[binary]'") from None
-    return psycopg
-
-
-# Idle connections kept for a moment after a log is closed, newest last: (url, when, conn).
-# Opening one costs a new server process and its sign-in (some 10 ms), paid by every
-# dashboard load (its cache key, data_version, and a Store on a miss) without them.
-IDLE_KEEP = 4
-IDLE_KEEP_S = 30.0
-_idle: list = []
-_idle_lock = threading.Lock()
-
-
-def _forget_idle_in_child() -> None:
-    # A forked child shares its parent's sockets: using (or closing, which signs the
-    # server session off) a connection kept idle by the parent would break the
-    # parent's. The child forgets them unclosed and starts with a fresh lock.
-    global _idle_lock
-    _idle.clear()
-    _idle_lock = threading.Lock()
-
-
-os.register_at_fork(after_in_child=_forget_idle_in_child)
-
-
-def _connect(url: str, fresh: bool = False):
-    """An autocommit connection to ``url``: one left idle in the last
-    ``IDLE_KEEP_S`` seconds by :func:`_release` (unless ``fresh``), else a new one."""
-    if fresh:
-        return _psycopg().connect(url, autocommit=True, application_name="pourback")
-    now = time.monotonic()
-    stale, found = [], None
-    with _idle_lock:
-        for k in range(len(_idle) - 1, -1, -1):
-            u, at, conn = _idle[k]
-            if now - at > IDLE_KEEP_S or conn.closed or conn.broken:
-                stale.append(_idle.pop(k)[2])
-            elif found is None and u == url:
-                found = _idle.pop(k)[2]
-    for conn in stale:
-        conn.close()
-    return found or _psycopg().connect(url, autocommit=True, application_name="pourback")
-
-
-def _release(url: str, conn) -> None:
-    """Keep ``conn`` idle for :func:`_connect` when it is sound and outside a
-    transaction (the oldest beyond ``IDLE_KEEP`` is closed); else close it."""
-    pq = _psycopg().pq
-    if conn.closed or conn.broken or conn.info.transaction_status != pq.TransactionStatus.IDLE:
-        conn.close()
-        return
-    with _idle_lock:
-        _idle.append((url, time.monotonic(), conn))
-        extra = [_idle.pop(0)[2] for _ in range(len(_idle) - IDLE_KEEP)]
-    for c in extra:
-        c.close()
 
 
 class PostgreSQL:
@@ -584,6 +539,29 @@ class PostgreSQL:
             "SELECT table_name FROM information_schema.tables WHERE table_schema = current_schema() "
             "AND table_type = 'BASE TABLE' AND table_name != 'pourback_schema' ORDER BY table_name")]
 
+    def columns(self, table: str) -> list[str]:
+        """The columns of ``table``, in their order."""
+        cur = self.conn.execute(f'SELECT * FROM "{table}" WHERE 1 = 0')
+        return [d[0] for d in cur.description or ()]
+
+    def count(self, table: str) -> int:
+        return self.conn.execute(f'SELECT COUNT(*) FROM "{table}"').fetchone()[0]
+
+    # The shared DDL types of the Python types a migration names (mapped on by ddl()).
+    _TYPES = {str: "TEXT", int: "INTEGER", float: "REAL", bytes: "BLOB"}
+
+    def create_table(self, name: str, columns: dict[str, type], pk: str | tuple[str, ...],
+                     not_null: Iterable[str] = ()) -> None:
+        """As :meth:`SQLite.create_table`, written out in the shared DDL."""
+        keys = (pk,) if isinstance(pk, str) else tuple(pk)
+        required = set(not_null)
+        cols = [f"{c} {self._TYPES[t]}" + (" NOT NULL" if c in required else "") for c, t in columns.items()]
+        cols.append("PRIMARY KEY (" + ", ".join(keys) + ")")
+        self.execute(self.ddl(f"CREATE TABLE {name} ({', '.join(cols)})"))
+
+    def add_column(self, table: str, column: str, col_type: type) -> None:
+        self.execute(self.ddl(f"ALTER TABLE {table} ADD COLUMN {column} {self._TYPES[col_type]}"))
+
     # rows -------------------------------------------------------------------------
     def sql(self, sql: str) -> str:
         """``?`` placeholders to psycopg's ``%s`` (the store's SQL has no ``?`` or ``%`` in literals)."""
@@ -741,28 +719,3 @@ def data_version(target: str) -> tuple:
     return tuple(out)
 
 
-def with_schema(url: str, schema: str) -> str:
-    """``url`` with its search_path set to ``schema`` (libpq's ``options`` parameter)."""
-    parts = urllib.parse.urlsplit(url)
-    query = [(k, v) for k, v in urllib.parse.parse_qsl(parts.query) if k != "options"]
-    query.append(("options", f"-csearch_path={schema}"))
-    return urllib.parse.urlunsplit(parts._replace(query=urllib.parse.urlencode(query)))
-
-
-def new_schema(url: str, schema: str) -> str:
-    """Create ``schema`` afresh (dropping one of that name) on the server at ``url``;
-    the URL of a log in it."""
-    if not re.fullmatch(r"[a-z_][a-z0-9_]{0,62}", schema):
-        raise PourbackError(f"schema: got {schema!r}; use lower-case letters, digits and '_'")
-    with _psycopg().connect(url, autocommit=True) as conn:
-        conn.execute(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE')
-        conn.execute(f'CREATE SCHEMA "{schema}"')
-    return with_schema(url, schema)
-
-
-def drop_schema(url: str, schema: str) -> None:
-    """Drop ``schema`` and everything in it, if it exists."""
-    if not re.fullmatch(r"[a-z_][a-z0-9_]{0,62}", schema):
-        raise PourbackError(f"schema: got {schema!r}; use lower-case letters, digits and '_'")
-    with _psycopg().connect(url, autocommit=True) as conn:
-        conn.execute(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE')
