@@ -26,6 +26,7 @@ def _registry() -> dict:
     from tracker.advice import features
     from tracker.advice import suggest as advise
     from tracker.log import settings
+    from tracker.review import plants as plant_review
     from tracker.review import weekly as review
 
     return {
@@ -49,7 +50,7 @@ def _registry() -> dict:
         "sleeve_options": views.sleeve_options,
         "pour_span": lambda s: s.pour_span(),
         "plant_options": lambda s: s.plants(),
-        "compare_plants": review.compare_plants,
+        "compare_plants": plant_review.compare_plants,
         "currency": settings.currency,
         "unit_setting": settings.units,
         "weekly_review": review.weekly_review,

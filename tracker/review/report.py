@@ -21,7 +21,7 @@ import json
 import math
 import re
 
-from tracker import units
+from tracker import numbers, units
 from tracker.cautions import SAFETY_CAUTION, SAFETY_CAUTION_SHORT
 from tracker.csvsafe import csv_bytes, safe_cell, safe_frame  # noqa: F401 (re-used by the report's callers)
 from tracker.log.settings import DEFAULT_CURRENCY
@@ -366,9 +366,7 @@ def render_csv(review: dict) -> str:
 
 
 def render_json(review: dict) -> str:
-    from tracker.review.weekly import jsonable
-
-    return json.dumps(jsonable(review), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    return json.dumps(numbers.jsonable(review, day_only=True), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
 
 # --- SVG charts ---------------------------------------------------------------------------
