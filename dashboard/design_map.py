@@ -7,8 +7,8 @@ import datetime as dt
 import streamlit as st
 
 from dashboard import charts, common
-from tracker import views
 from tracker.design.alloys import ALLOYS
+from tracker.views import design_map as views
 
 
 def alloy_name(key: str) -> str:

@@ -5,7 +5,8 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboard import charts, common, thermal_view
-from tracker import views
+from tracker.views import pattern_file as views
+from tracker.views.common import label as view_label
 
 NUMBER = st.column_config.NumberColumn
 
@@ -30,7 +31,7 @@ def main() -> None:
         st.query_params["pattern"] = code  # the address names the pattern shown
 
     system = common.unit_system()
-    label = lambda metric_label: views.label(metric_label, system)  # noqa: E731
+    label = lambda metric_label: view_label(metric_label, system)  # noqa: E731
     info = common.load("pattern_summary", code)
     c = st.columns(3)
     c[0].metric("Alloy", info.get("alloy_name") or info["alloy"], help=f"alloy key: {info['alloy']}")

@@ -5,9 +5,11 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboard import access, charts, common, thermal_view
-from tracker import units, views
+from tracker import units
 from tracker.advice import suggest as advise
 from tracker.design.assess import rule_words
+from tracker.views import suggestions as views
+from tracker.views.common import label, length_text
 
 NUMBER = st.column_config.NumberColumn
 KEEP, BARE = "keep", "none"
@@ -33,14 +35,14 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
     st.markdown("**What to change**")
     st.dataframe(table[views.change_part(system)], hide_index=True, width="stretch", key="suggestions_table",
                  placeholder="", column_config={
-                     views.label("now: diameter (mm)", system): NUMBER(format=common.length_format()),
-                     views.label("suggested: diameter (mm)", system): NUMBER(format=common.length_format())})
+                     label("now: diameter (mm)", system): NUMBER(format=common.length_format()),
+                     label("suggested: diameter (mm)", system): NUMBER(format=common.length_format())})
     st.markdown("**What it brings**")
     st.dataframe(table[views.balance_part(code, system)], hide_index=True, width="stretch", key="balance_table",
                  placeholder="", column_config={
                      "observed now (%)": NUMBER(format="%.2f"), "predicted now (%)": NUMBER(format="%.2f"),
                      "predicted after (%)": NUMBER(format="%.2f"),
-                     views.label("added metal (kg per mold)", system): NUMBER(format="%+.2f"),
+                     label("added metal (kg per mold)", system): NUMBER(format="%+.2f"),
                      "yield now (%)": NUMBER(format="%.1f"),
                      "yield after (%)": NUMBER(format="%.1f"),
                      f"scrap saved ({money})": NUMBER(format="%,.0f"),
@@ -62,7 +64,7 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
 def _sleeve_picked(sleeves, row, sleeve_key: str, dia_key: str) -> None:
     """A sleeve picked: show its inner diameter (the riser's own for keep or bare)."""
     code = st.session_state[sleeve_key]
-    if code == KEEP or code == BARE:
+    if code in (KEEP, BARE):
         mm = float(row["diameter_mm"])
     else:
         mm = float(sleeves.loc[sleeves["sleeve"] == code, "inner_diameter_mm"].iat[0])
@@ -104,7 +106,8 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
                                               " (no sleeve)"),
                      BARE: "no sleeve (bare riser)", **dict(zip(sleeves["sleeve"], sleeves["label"], strict=False))}
     # the typed diameter is kept per unit system: a number typed in inches is never read as mm
-    sleeve_key, dia_key = f"whatif_sleeve_{key[0]}_{key[1]}", f"whatif_dia_{'us_' if system == units.US else ''}{key[0]}_{key[1]}"
+    sleeve_key = f"whatif_sleeve_{key[0]}_{key[1]}"
+    dia_key = f"whatif_dia_{'us_' if system == units.US else ''}{key[0]}_{key[1]}"
     sleeve = c2.selectbox("Sleeve (smallest first)", list(sleeve_labels), format_func=sleeve_labels.get,
                           key=sleeve_key, on_change=_sleeve_picked, args=(sleeves, row, sleeve_key, dia_key))
     now = float(common.shown("diameter_mm", float(row["diameter_mm"])))
@@ -126,7 +129,7 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
                              remelt_charge=charge, system=system)
     if result is None:
         return
-    size = " x ".join(views.length_text(result[k], system) for k in ("diameter_mm", "height_mm"))
+    size = " x ".join(length_text(result[k], system) for k in ("diameter_mm", "height_mm"))
     st.markdown(common.md_escape(
         f"{result['pattern']} revision {result['revision']}, riser {result['riser']} on zone "
         f"{result['zone']}: {size} {common.unit('diameter_mm')}, "
@@ -191,11 +194,11 @@ def _money_metrics(result: dict) -> None:
             ("Yearly balance", "yearly_balance", "scrap saved less extra riser metal and sleeves" + unit)]
     for pair in (rows[:2], rows[2:]):
         c = st.columns(2)
-        for col, (label, key, note) in zip(c, pair, strict=False):
+        for col, (heading, key, note) in zip(c, pair, strict=False):
             delta = None
             if key == "yearly_balance" and result["changed"]:
                 delta = "pays off" if result["pays_off"] else "does not pay off"
-            col.metric(label, common.money(result[key]), delta=delta, help=note,
+            col.metric(heading, common.money(result[key]), delta=delta, help=note,
                        delta_color="normal" if result["pays_off"] else "inverse")
     also = [r for r in result["changed_risers"] if r != result["riser"]]
     st.caption(common.md_escape(

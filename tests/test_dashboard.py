@@ -111,7 +111,7 @@ def test_sidebar_names_the_log_and_its_size(app_demo_db, monkeypatch):
 
 def _lot_with_room(db):
     """A lot of the newest pour week whose visual inspection total leaves room for one more casting."""
-    from tracker import views
+    from tracker.views import log_results as views
 
     with Store(db) as s:
         lots = views.lot_options(s)
@@ -228,7 +228,7 @@ def test_after_a_save_the_result_fields_clear_and_the_session_fields_stay(app_db
 
 
 def test_form_shows_what_each_method_accounted_for(app_db, monkeypatch):
-    from tracker import views
+    from tracker.views import log_results as views
 
     lot, _ = _lot_with_room(app_db)
     at = open_page(app_db, "log_results.py", monkeypatch)
@@ -487,9 +487,9 @@ def test_user_text_in_messages_is_inert_markdown(app_db, monkeypatch):
 # --- design map: designs in use, flagged patterns, links to the pattern file ----------------------
 
 def test_design_map_counts_failing_designs_in_use_only(app_demo_db, monkeypatch):
-    from tracker import views
     from tracker.advice.features import design_map
     from tracker.review.weekly import default_week, weekly_review
+    from tracker.views import design_map as views
 
     at = open_page(app_demo_db, "design_map.py", monkeypatch)
     with Store(app_demo_db) as s:
