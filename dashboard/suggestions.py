@@ -8,28 +8,35 @@ from dashboard import access, charts, common, thermal_view
 from tracker import units
 from tracker.advice import suggest as advise
 from tracker.design.assess import rule_words
+from tracker.thermal.checks import AUTO_BUDGET_S
 from tracker.views import suggestions as views
 from tracker.views.common import label, length_text
 
 NUMBER = st.column_config.NumberColumn
 KEEP, BARE = "keep", "none"
 DIAMETER_RANGE_MM = (10.0, 2000.0)  # what the what-if's diameter field takes
+THERMAL_NOTE = ("Thermal filter: as `pourback suggest` does by default, each chosen riser is checked by a 2-D "
+                "solidification solve and the next candidate is taken where it fails, when the solves of all "
+                f"problem zones fit in {AUTO_BUDGET_S:.0f} s; otherwise a row's reason says the check was not "
+                "run (`pourback suggest --thermal` runs it). The same log gives the same risers here and there.")
 
 
 def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list[dict]:
-    # the page stays quick: the thermal check is in what-if below (and `pourback suggest --thermal`)
-    status = "Pricing riser changes for the problem patterns"
+    system = common.unit_system()
+    status = ("Pricing riser changes for the problem patterns and checking each chosen riser by a "
+              "solidification solve (a few seconds per zone)")
     if not common.load("model_is_current"):
         status = ("Fitting the reject model on the whole log (no stored fit covers the newest pours), "
                   "then " + status[0].lower() + status[1:])
+    # the library call of `pourback suggest`, with its defaults: the thermal check on where the
+    # solves of all problem zones fit in its budget, the shop's diameter step of the unit system
     found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge,
-                        thermal=False, system=common.unit_system(), status=status)
+                        thermal=None, step_mm=units.default_step_mm(system), system=system, status=status)
     st.subheader("Suggested changes")
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")
         return []
     code = common.load("currency")
-    system = common.unit_system()
     money = views.money_per_year(code)
     table = views.suggestions_table(found, currency=code, system=system)
     st.markdown("**What to change**")
@@ -54,6 +61,7 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
                "castings per year × (predicted now − predicted after) × cost per scrapped casting. Extra "
                "cost: added riser metal at the remelt charge, and the change in sleeve cost. Yield: casting "
                "weight / (casting + riser weight), gating left out.")
+    st.caption(THERMAL_NOTE)
     for s in found:
         where = " · ".join(str(x) for x in (s["pattern"], s.get("zone"), s.get("riser")) if x)
         with st.expander(common.md_escape(f"{where}: {s['action'].replace('_', ' ')}")):

@@ -420,6 +420,24 @@ def test_suggestions_and_what_if(app_demo_db, monkeypatch):
     assert [m for m in at.metric if m.label == "Yield changed"][0].delta.startswith("-")
 
 
+def test_suggestions_page_shows_the_riser_pourback_suggest_shows(app_demo_db, monkeypatch):
+    # The page runs the library call of `pourback suggest` with its defaults (thermal filter
+    # included): on the demo, P-1017's R3 goes to 120 mm with sleeve XS-120 once the filter has
+    # run (130 mm bare without it), on the page and in the library alike.
+    from tracker.advice.suggest import suggest
+
+    at = open_page(app_demo_db, "suggestions.py", monkeypatch)
+    change = next(d.value for d in at.dataframe if "suggested: sleeve" in d.value.columns)
+    page = change[(change["pattern"] == "P-1017") & (change["riser"] == "R3")].iloc[0]
+    with Store(app_demo_db) as s:
+        want = next(r for r in suggest(s, week=at.selectbox(key="week").value)
+                    if r["pattern"] == "P-1017" and r.get("riser") == "R3")
+    assert (want["suggested_diameter_mm"], want["suggested_sleeve"]) == (120.0, "XS-120")
+    assert page["suggested: diameter (mm)"] == want["suggested_diameter_mm"]
+    assert page["suggested: sleeve"] == (want["suggested_sleeve"] or "none")
+    assert any("Thermal filter" in c for c in texts(at.caption))
+
+
 def test_what_if_with_a_catalogue_sleeve(app_demo_db, monkeypatch):
     at = open_page(app_demo_db, "suggestions.py", monkeypatch)
     box = at.selectbox(key="whatif_sleeve_P-1017_R3")
