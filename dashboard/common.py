@@ -25,6 +25,7 @@ from tracker.errors import BadFile, PourbackError
 from tracker.log import settings
 from tracker.log.store import DATABASE_ERRORS, Store, absolute_target, display_name, log_error
 from tracker.review import plants as plant_review
+from tracker.review import rates
 from tracker.review import weekly as review
 from tracker.views import common as views
 from tracker.views import design_map as map_views
@@ -68,6 +69,7 @@ def _registry() -> dict:
         "suggest": advise.suggest,
         "model_is_current": advise.model_is_current,
         "what_if": advise.what_if,
+        "pattern_reject_rate": rates.pattern_reject_rate,
         "pattern_thermal": thermal_views.pattern_thermal,
         "what_if_thermal": thermal_views.what_if_view,
     }

@@ -65,6 +65,8 @@ def main() -> None:
                 help="rejects with defect shrinkage logged against a zone")
     c[3].metric("Zones in use whose riser fails a rule", f"{s['failing']:,}",
                 help="risers of the revision in use today; superseded revisions are not counted")
+    st.caption("Shrinkage rate on this page: " + common.md_escape(views.rate_scope(start.isoformat(),
+                                                                                end.isoformat())) + ".")
     if curve is None:
         why = " (no textbook row is known for ductile iron)" if alloy == "ductile_iron" else ""
         st.info(f"No Caine curve for {common.md_escape(alloy_name(alloy))}: the log holds no Caine "

@@ -2,13 +2,20 @@
 
 from __future__ import annotations
 
+import datetime as dt
+
 import streamlit as st
 
 from dashboard import charts, common, thermal_view
+from tracker import limits
 from tracker.views import pattern_file as views
 from tracker.views.common import label as view_label
 
 NUMBER = st.column_config.NumberColumn
+
+
+def _pct(fraction):
+    return None if fraction is None else 100.0 * fraction
 
 
 def main() -> None:
@@ -43,6 +50,12 @@ def main() -> None:
     c[1].metric("Castings poured", f"{info['poured']:,}")
     c[2].metric("Reject rate, all time", common.pct(info["reject_rate_pct"], 2),
                 help=f"{info['rejected']:,} of {info['inspected']:,} castings inspected")
+    recent = common.load("pattern_reject_rate", code, weeks=limits.WEEKS_DEFAULT,
+                         week=common.load("default_week", today=dt.date.today().isoformat()))
+    st.caption(common.md_escape(
+        "Reject rate, all time: all rejects, pattern " + code + ", every pour, % of castings inspected. "
+        f"Over the review window: {common.pct(_pct(recent['rate']), 2)} ({recent['scope']}; as the Weekly "
+        "review shows it)."))
     mould = info["mould"].replace("_", " ") if info.get("mould") else "not given, taken as green sand"
     st.caption((f"Poured from {info['first_pour']} to {info['last_pour']}. " if info["first_pour"] else "")
                + f"Mould: {mould} (ductile iron's pressure-control rules depend on it).")

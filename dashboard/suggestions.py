@@ -28,10 +28,11 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
     if not common.load("model_is_current"):
         status = ("Fitting the reject model on the whole log (no stored fit covers the newest pours), "
                   "then " + status[0].lower() + status[1:])
-    # the library call of `pourback suggest`, with its defaults: the thermal check on where the
-    # solves of all problem zones fit in its budget, the shop's diameter step of the unit system
+    # the library call of `pourback suggest` with its metric defaults: the thermal check on where
+    # the solves of all problem zones fit in its budget. The diameter step stays the metric one in
+    # either unit system, so the page suggests the same risers in inches as in mm.
     found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge,
-                        thermal=None, step_mm=units.default_step_mm(system), system=system, status=status)
+                        thermal=None, system=system, status=status)
     st.subheader("Suggested changes")
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")
@@ -55,8 +56,8 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
                      f"scrap saved ({money})": NUMBER(format="%,.0f"),
                      f"extra cost ({money})": NUMBER(format="%,.0f"),
                      f"balance ({money})": NUMBER(format="%+,.0f")})
-    st.caption("Observed now: shrinkage rejects in the zone (or all rejects where no riser change is "
-               "suggested), % of castings poured in the window. Predicted now and after: the shop's reject "
+    st.caption("Observed now: " + common.md_escape(views.observed_scope(week, weeks)) + " (all rejects of the "
+               "pattern where no riser change is suggested). Predicted now and after: the shop's reject "
                "model for the present and the changed riser; the money is on that one basis: scrap saved = "
                "castings per year × (predicted now − predicted after) × cost per scrapped casting. Extra "
                "cost: added riser metal at the remelt charge, and the change in sleeve cost. Yield: casting "

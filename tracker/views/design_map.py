@@ -12,6 +12,7 @@ import pandas as pd
 from tracker.design.assess import caine_curve_points, revision_in_effect
 from tracker.errors import NotFound
 from tracker.log.store import Store
+from tracker.review.rates import POURED, scope_text
 from tracker.views.common import pct_column
 
 
@@ -86,6 +87,12 @@ def filter_design_map(frame: pd.DataFrame, alloy: str | None = None,
     f["flagged"] = f["pattern"].isin(list(flagged or []))
     f["design"] = np.where(f["superseded"], SUPERSEDED, np.where(f["flagged"], IN_USE_FLAGGED, IN_USE))
     return f.reset_index(drop=True)
+
+
+def rate_scope(start: str, end: str) -> str:
+    """Which figure the map's shrinkage rates are: "shrinkage rejects, each zone, poured
+    START to END, % of castings poured" (:func:`tracker.review.rates.zone_shrinkage_rate`)."""
+    return scope_text("shrinkage", who="each zone", start=start, end=end, basis=POURED)
 
 
 def design_map_summary(frame: pd.DataFrame) -> dict:

@@ -12,6 +12,7 @@ import pandas as pd
 from tracker import numbers
 from tracker.errors import BadInput, NotFound
 from tracker.log.settings import DEFAULT_CURRENCY
+from tracker.review.rates import scope_text
 from tracker.views.common import money_head, pct_column
 
 RULE_WORDS = {"beyond_limit": "point beyond a limit", "run_of_8": "8 or more weeks on one side"}
@@ -43,6 +44,13 @@ def reason_words(reasons) -> str:
 
 def _num(v) -> float:
     return float("nan") if v is None else float(v)
+
+
+def rate_scope(review: dict, defect: str | None = None, who: str = "each pattern") -> str:
+    """Which figure the review's rates are (:func:`tracker.review.rates.scope_text`):
+    "all rejects, each pattern, last 13 weeks (2026-W35 to 2026-W47), % of castings inspected"."""
+    w = review["window"]
+    return scope_text(defect, weeks=w["weeks"], first_week=w["first_week"], last_week=w["last_week"], who=who)
 
 
 def review_headline(review: dict) -> dict:

@@ -4,6 +4,8 @@ for the conventions)."""
 
 from __future__ import annotations
 
+import datetime as dt
+
 import numpy as np
 import pandas as pd
 
@@ -12,6 +14,8 @@ from tracker.design import rules
 from tracker.design.assess import revision_in_effect
 from tracker.log.settings import DEFAULT_CURRENCY
 from tracker.log.store import Store
+from tracker.review import stats
+from tracker.review.rates import POURED, scope_text
 from tracker.views.common import in_system, labels, length_text, pct_column
 
 MONEY_UNIT = "currency units/year"
@@ -57,6 +61,15 @@ def balance_part(code: str | None = None, system: str = units.METRIC) -> list[st
     """BALANCE_PART's columns in ``system``, money headed with the currency ``code``."""
     cols = labels(BALANCE_PART, system)
     return with_currency(cols, code) if code else cols
+
+
+def observed_scope(week: str, weeks: int) -> str:
+    """Which figure the suggestions' observed rate is: "shrinkage rejects, each problem zone,
+    last 13 weeks (2026-W35 to 2026-W47), % of castings poured"
+    (:func:`tracker.review.rates.zone_shrinkage_rate`)."""
+    first = stats.iso_week(stats.week_start(week) - dt.timedelta(weeks=int(weeks) - 1))
+    return scope_text("shrinkage", who="each problem zone", weeks=int(weeks), first_week=first, last_week=week,
+                      basis=POURED)
 
 
 def suggestions_table(suggestions: list[dict], currency: str | None = None,
