@@ -41,7 +41,8 @@ def compare_plants(store: Store, alloy: str, week: str | None = None, weeks: int
         raise BadInput("plant", None, NO_PLANTS)
     if week is None:
         week = default_week(store)
-    rows, head = [], {}
+    rows: list[dict] = []
+    head: dict = {}
     for plant in plants:
         r = weekly_review(store, week=week, weeks=weeks, target=target, confidence=confidence, plant=plant)
         head = head or r

@@ -98,7 +98,7 @@ def zone_shrinkage_rate(store: Store, pattern: str, zone: str, *, week: str | No
     map's and the suggestions' observed rate. Returns ``rejected``, ``poured``
     (castings), ``rate`` (fraction or None), ``window`` and ``scope``."""
     store.pattern(pattern)
-    win = window(store, week, weeks) if weeks is not None else {"start": start, "end": end, "weeks": None}
+    win: dict = window(store, week, weeks) if weeks is not None else {"start": start, "end": end, "weeks": None}
     pours = cast(pd.DataFrame, store.pours_by_day(win["start"], win["end"], pattern))
     rejects = cast(pd.DataFrame, store.rejects_by_day(win["start"], win["end"], pattern))
     poured = int(pours["castings"].sum()) if len(pours) else 0

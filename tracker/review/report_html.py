@@ -121,7 +121,8 @@ def _short_week(label: str) -> str:
 
 def _polyline(points, color, width=2, dash=None) -> list[str]:
     """Polylines through (x, y) pairs, broken where a y is None."""
-    out, run = [], []
+    out: list[str] = []
+    run: list = []
     for x, y in points + [(None, None)]:
         if y is None:
             if len(run) > 1:
@@ -153,9 +154,9 @@ def svg_trend(review: dict) -> str:
                 f'stroke-width="1.5" stroke-dasharray="6 4"/>')
     body.append(f'<text x="{f.w - f.r + 6}" y="{ty + 4:.1f}" class="note">'
                 f'target {pct(review["target"])} %</text>')
-    pts = [(f.x(i), f.y(100 * v) if is_number(v) else None) for i, v in enumerate(rates)]
-    body += _polyline(pts, LINE)
-    for x, y in pts:
+    dots = [(f.x(i), f.y(100 * v) if is_number(v) else None) for i, v in enumerate(rates)]
+    body += _polyline(dots, LINE)
+    for x, y in dots:
         if y is not None:
             body.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3.5" fill="{LINE}"/>')
     return f.svg(body, "Weekly reject rate, all patterns")
@@ -209,15 +210,15 @@ def svg_pchart(pattern: dict) -> str:
     for key, color, dash in (("ucl", LIMIT, "5 3"), ("lcl", LIMIT, "5 3")):
         for i, p in enumerate(pts):
             if is_number(p[key]) and (key == "ucl" or p[key] > 0):
-                y = f.y(100 * p[key])
-                body.append(f'<line x1="{f.x(i) - half:.1f}" y1="{y:.1f}" x2="{f.x(i) + half:.1f}" '
-                            f'y2="{y:.1f}" stroke="{color}" stroke-width="1.5" stroke-dasharray="{dash}"/>')
+                ly = f.y(100 * p[key])
+                body.append(f'<line x1="{f.x(i) - half:.1f}" y1="{ly:.1f}" x2="{f.x(i) + half:.1f}" '
+                            f'y2="{ly:.1f}" stroke="{color}" stroke-width="1.5" stroke-dasharray="{dash}"/>')
     centre = next((p["centre"] for p in pts if is_number(p["centre"])), None)
     if centre is not None:
-        y = f.y(100 * centre)
-        body.append(f'<line x1="{f.l}" y1="{y:.1f}" x2="{f.w - f.r}" y2="{y:.1f}" stroke="{INK}" '
+        cy = f.y(100 * centre)
+        body.append(f'<line x1="{f.l}" y1="{cy:.1f}" x2="{f.w - f.r}" y2="{cy:.1f}" stroke="{INK}" '
                     f'stroke-width="1"/>')
-        body.append(f'<text x="{f.w - f.r + 6}" y="{y + 4:.1f}" class="note">'
+        body.append(f'<text x="{f.w - f.r + 6}" y="{cy + 4:.1f}" class="note">'
                     f'centre {pct(centre, 2)} %</text>')
     line = [(f.x(i), f.y(100 * p["p"]) if is_number(p["p"]) else None) for i, p in enumerate(pts)]
     body += _polyline(line, LINE, width=1.5)

@@ -195,9 +195,10 @@ def judge_revisions(store: Store, mondays: list[dt.date], weeks: int, confidence
                                                   ("after", (t1, t2, s1, s2)))})
 
     bounds = {"before": (before_start, before_end), "after": (cand["effective_from"], after_end)}
-    judged = stats.compare_rates_many(*zip(*((s["before"]["shrinkage_rejected"], s["before"]["inspected"],
-                                              s["after"]["shrinkage_rejected"], s["after"]["inspected"])
-                                             for s in sums), strict=False), confidence)
+    judged = stats.compare_rates_many([s["before"]["shrinkage_rejected"] for s in sums],
+                                      [s["before"]["inspected"] for s in sums],
+                                      [s["after"]["shrinkage_rejected"] for s in sums],
+                                      [s["after"]["inspected"] for s in sums], confidence)
     out = []
     for i in range(n):
         part = {}

@@ -49,6 +49,7 @@ from __future__ import annotations
 import datetime as dt
 import functools
 import gc
+from typing import cast
 
 import numpy as np
 import pandas as pd
@@ -188,7 +189,7 @@ def _pareto_rows(keys, values, key: str, value: str, extra: dict | None = None) 
 
 def _nested(pattern: np.ndarray, key: np.ndarray, quantity: np.ndarray, n_patterns: int) -> list[dict]:
     """Per pattern number, {key: summed quantity}, largest first (ties by key)."""
-    out = [{} for _ in range(n_patterns)]
+    out: list[dict] = [{} for _ in range(n_patterns)]
     if not len(pattern):
         return out
     names = sorted(set(key.tolist()))
@@ -249,8 +250,9 @@ def _rules(beyond: np.ndarray, run: np.ndarray) -> list[list[str]]:
     """Per row, the names of the rules (``stats.RULES`` order) that fire anywhere in it."""
     names = {(b, r): [n for n, on in zip(stats.RULES, (b, r), strict=False) if on]
              for b in (False, True) for r in (False, True)}
-    return [list(names[pair])
-            for pair in zip(beyond.any(axis=1).tolist(), run.any(axis=1).tolist(), strict=False)]
+    any_beyond = cast(list, beyond.any(axis=1).tolist())
+    any_run = cast(list, run.any(axis=1).tolist())
+    return [list(names[(bool(b), bool(r))]) for b, r in zip(any_beyond, any_run, strict=False)]
 
 
 # --- one window --------------------------------------------------------------------------

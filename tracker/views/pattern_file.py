@@ -5,6 +5,7 @@ revisions on a time axis (see :mod:`tracker.views.common` for the conventions)."
 from __future__ import annotations
 
 import datetime as dt
+from typing import cast
 
 import numpy as np
 import pandas as pd
@@ -33,13 +34,13 @@ def pattern_weekly(store: Store, pattern: str, start: str | None = None,
     cols = ["week", "week_start", "lots", "poured", "inspected", "rejected", "shrinkage_rejected",
             "reject_rate_pct", "shrinkage_rate_pct"]
     counts = ["lots", "poured", "inspected", "rejected", "shrinkage_rejected"]
-    pours = store.pours_by_day(start, end, pattern)
+    pours = cast(pd.DataFrame, store.pours_by_day(start, end, pattern))
     if pours.empty:
         return pd.DataFrame(columns=cols)
     pours["week"] = stats.iso_week(pours["poured_on"]).to_numpy()
     w = (pours.groupby("week")[["lots", "castings", "inspected_castings"]].sum()
          .rename(columns={"castings": "poured", "inspected_castings": "inspected"}))
-    rej = store.rejects_by_day(start, end, pattern)
+    rej = cast(pd.DataFrame, store.rejects_by_day(start, end, pattern))
     rej = rej[rej["result"] == "reject"]
     if not rej.empty:
         rej = rej.assign(week=stats.iso_week(rej["poured_on"]).to_numpy(),
@@ -51,7 +52,7 @@ def pattern_weekly(store: Store, pattern: str, start: str | None = None,
     weeks = [stats.iso_week(first + dt.timedelta(weeks=i)) for i in range((last - first).days // 7 + 1)]
     w = w.reindex(weeks).rename_axis("week").reset_index()
     for c in counts:
-        w[c] = pd.to_numeric(w.get(c, 0), errors="coerce").fillna(0).astype(np.int64)
+        w[c] = pd.to_numeric(w[c], errors="coerce").fillna(0).astype(np.int64) if c in w else 0
     w["week_start"] = [stats.week_start(x) for x in w["week"]]
     seen = w["inspected"] > 0
     w["reject_rate_pct"] = (100.0 * w["rejected"] / w["inspected"]).where(seen)
@@ -96,7 +97,7 @@ def pattern_summary(store: Store, pattern: str) -> dict:
     poured, inspected, rejected = (int(w[c].sum()) if not w.empty else 0
                                    for c in ("poured", "inspected", "rejected"))
     lots = store.lots_frame(pattern=pattern)
-    alloy = ALLOYS.get(p.get("alloy"))
+    alloy = ALLOYS.get(str(p.get("alloy")))
     return {**p, "alloy_name": alloy.name if alloy else p.get("alloy"),
             "lots": int(len(lots)), "poured": poured, "inspected": inspected, "rejected": rejected,
             "reject_rate_pct": 100.0 * rejected / inspected if inspected else float("nan"),

@@ -58,7 +58,7 @@ def review_headline(review: dict) -> dict:
 
     Counts in castings, rates in %, costs in the log's currency units.
     """
-    out = {}
+    out: dict = {}
     for part in ("week", "window"):
         t = review["totals"][part]
         out[part] = {"poured": int(t["poured"]), "inspected": int(t["inspected"]),
@@ -252,16 +252,17 @@ def verdict_details(rev: dict) -> str:
     """The statistics behind a verdict, for a help tooltip."""
     parts = []
     d, lo, hi = rev.get("difference"), rev.get("diff_low"), rev.get("diff_high")
-    if not numbers.missing(d):
-        parts.append(f"change {100 * d:+.1f} % points"
-                     + (f" (95 % interval {100 * lo:+.1f} to {100 * hi:+.1f})" if not numbers.missing(lo)
-                        else ""))
+    if d is not None and not numbers.missing(d):
+        interval = ""
+        if lo is not None and hi is not None and not numbers.missing(lo):
+            interval = f" (95 % interval {100 * lo:+.1f} to {100 * hi:+.1f})"
+        parts.append(f"change {100 * d:+.1f} % points" + interval)
     p = rev.get("p_value")
-    if not numbers.missing(p):
+    if p is not None and not numbers.missing(p):
         parts.append(f"Fisher's exact test p = {p:.2g} (the chance of a difference this large if the "
                      "revision changed nothing)")
     power = rev.get("power_to_halve")
-    if not numbers.missing(power):
+    if power is not None and not numbers.missing(power):
         parts.append(f"with these numbers of castings a real halving of the rate would show with "
                      f"about {100 * power:.0f} % chance (80 % or more is needed before 'no clear change' "
                      "counts as a finding)")

@@ -6,7 +6,6 @@ from __future__ import annotations
 
 import datetime as dt
 
-import numpy as np
 import pandas as pd
 
 from tracker import units
@@ -95,14 +94,16 @@ def suggestions_table(suggestions: list[dict], currency: str | None = None,
         if key in s:
             s[key] = pd.to_numeric(s[key], errors="coerce").where(changes)
     if "pays_off" in s:
-        s["pays_off"] = np.where(changes, np.where(s["pays_off"].fillna(False).astype(bool), "yes", "no"), None)
+        pays = s["pays_off"].fillna(False).astype(bool)
+        s["pays_off"] = pd.Series([("yes" if p else "no") if c else None for c, p in zip(changes, pays, strict=True)],
+                                  index=s.index, dtype=object)
     for key in ("reject_rate", "predicted_rate_now", "predicted_rate_after", "yield_before", "yield_after"):
         if key in s:
             s[f"{key}_pct"] = pct_column(s[key])
     has_riser = s["riser"].notna() if "riser" in s else pd.Series(False, index=s.index)
     for key in ("suggested_sleeve", "current_sleeve"):
         if key in s:  # "none" = a bare riser; blank where no riser is concerned
-            fill = pd.Series(np.where(has_riser, "none", None), index=s.index, dtype=object)
+            fill = pd.Series(["none" if h else None for h in has_riser], index=s.index, dtype=object)
             s[key] = s[key].astype(object).where(s[key].notna(), fill)
     cols = [c for c in SUGGESTION_COLUMNS if c in s]
     out = in_system(s[cols].rename(columns=SUGGESTION_COLUMNS).reset_index(drop=True), system)
