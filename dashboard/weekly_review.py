@@ -131,8 +131,7 @@ def patterns(review: dict) -> None:
     full = st.toggle("Show every column", key="patterns_all_columns",
                      help="Poured castings, the 95 % range of the rate, shrinkage rejects and chart signals.")
     cost = money_head("scrap cost", review)
-    st.caption("Reject rate (%): " + common.md_escape(views.rate_scope(review)) + "; shrinkage: "
-               + common.md_escape(views.rate_scope(review, "shrinkage")) + ".")
+    st.caption("Reject rate (%): " + common.md_escape(views.rate_scope(review)) + ".")
     st.dataframe(views.review_patterns_table(review, full=full), hide_index=True, width="stretch",
                  key="patterns_table", placeholder="",
                  column_config={"reject rate (%)": st.column_config.NumberColumn(format="%.2f"),

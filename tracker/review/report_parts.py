@@ -34,18 +34,23 @@ def reason_text(reasons) -> str:
 
 
 def is_number(v) -> bool:
+    """A finite int or float (not a bool, not text): what the report shows as a number."""
     return isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v)
 
 
 def pct(v, digits: int = 1) -> str:
+    """A fraction as a percentage without its unit ("-" otherwise). Not numbers.pct_text: that
+    one reads numeric text and bools as numbers, where the report shows "-"."""
     return f"{100.0 * v:.{digits}f}" if is_number(v) else "-"
 
 
 def count(v) -> str:
+    """A whole number of castings, thousands separated ("-" where not a number)."""
     return f"{int(v):,}" if is_number(v) else "-"
 
 
 def money(v) -> str:
+    """Whole currency units ("-" for what :func:`is_number` refuses; see :func:`pct` on why local)."""
     return f"{v:,.0f}" if is_number(v) else "-"
 
 
