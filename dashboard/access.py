@@ -16,6 +16,7 @@ import os
 
 import streamlit as st
 
+from dashboard.format import md_escape
 from tracker.errors import SessionExpired, SignInRefused
 from tracker.log import accounts as auth
 from tracker.log.store import Store
@@ -25,8 +26,6 @@ _NOTE = "pourback_sign_in_note"
 
 
 def _md(text: str) -> str:
-    from dashboard.common import md_escape  # common opens stores through this module
-
     return md_escape(text)
 
 

@@ -8,6 +8,8 @@ what needs attention. Every axis names its unit.
 
 from __future__ import annotations
 
+import math
+
 import altair as alt
 import pandas as pd
 
@@ -126,7 +128,7 @@ def design_map(points: pd.DataFrame, curve: pd.DataFrame | None) -> alt.LayerCha
             alt.Tooltip("freezing_ratio:Q", title="freezing ratio", format=".2f"),
             alt.Tooltip("rules_text:N", title="rules")]
     top = float(points["shrinkage_rate_pct"].max()) if len(points) else 0.0
-    top = top if top == top and top > 0 else 1.0
+    top = top if not math.isnan(top) and top > 0 else 1.0
     designs = ["in use", "in use, pattern flagged", "superseded by a later revision"]
     pick = alt.selection_point(name=PICK, fields=["pattern"], on="click", clear="dblclick")
     dots = alt.Chart(points).mark_circle().encode(

@@ -10,46 +10,56 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
-import re
+import math
 
 import streamlit as st
 
-from tracker import limits, units, views
+from dashboard import access
+from dashboard.format import md_escape
+from tracker import limits, units
+from tracker.advice import features
+from tracker.advice import suggest as advise
 from tracker.cautions import SAFETY_CAUTION
+from tracker.csvsafe import csv_bytes
 from tracker.errors import BadFile, PourbackError
+from tracker.log import settings
 from tracker.log.store import DATABASE_ERRORS, Store, absolute_target, display_name, log_error
+from tracker.review import plants as plant_review
+from tracker.review import rates
+from tracker.review import weekly as review
+from tracker.views import common as views
+from tracker.views import design_map as map_views
+from tracker.views import log_results as log_views
+from tracker.views import pattern_file as pattern_views
+from tracker.views import suggestions as suggestion_views
+from tracker.views import thermal as thermal_views
 
 START_COMMANDS = "pourback demo"
 
 # The library calls a page may load (cached). Each takes an open Store first.
 def _registry() -> dict:
-    from tracker.advice import features
-    from tracker.advice import suggest as advise
-    from tracker.log import settings
-    from tracker.review import weekly as review
-
     return {
         "start_state": views.start_state,
         "pattern_options": views.pattern_options,
         "alloy_options": views.alloy_options,
-        "lot_options": views.lot_options,
-        "zone_options": views.zone_options,
-        "latest_records": views.latest_records,
-        "lot_accounting": views.lot_accounting,
+        "lot_options": log_views.lot_options,
+        "zone_options": log_views.zone_options,
+        "latest_records": log_views.latest_records,
+        "lot_accounting": log_views.lot_accounting,
         "week_options": views.week_options,
         "default_week": review.default_week,
-        "current_revisions": views.current_revisions,
-        "pattern_weekly": views.pattern_weekly,
-        "pattern_summary": views.pattern_summary,
-        "risers_by_revision": views.risers_by_revision,
-        "pattern_zones": views.pattern_zones,
-        "revision_marks": views.revision_marks,
-        "caine_curve": views.caine_curve,
-        "riser_options": views.riser_options,
-        "sleeve_options": views.sleeve_options,
+        "current_revisions": map_views.current_revisions,
+        "pattern_weekly": pattern_views.pattern_weekly,
+        "pattern_summary": pattern_views.pattern_summary,
+        "risers_by_revision": pattern_views.risers_by_revision,
+        "pattern_zones": pattern_views.pattern_zones,
+        "revision_marks": pattern_views.revision_marks,
+        "caine_curve": map_views.caine_curve,
+        "riser_options": suggestion_views.riser_options,
+        "sleeve_options": suggestion_views.sleeve_options,
         "pour_span": lambda s: s.pour_span(),
         "plant_options": lambda s: s.plants(),
-        "compare_plants": review.compare_plants,
+        "compare_plants": plant_review.compare_plants,
         "currency": settings.currency,
         "unit_setting": settings.units,
         "weekly_review": review.weekly_review,
@@ -59,15 +69,10 @@ def _registry() -> dict:
         "suggest": advise.suggest,
         "model_is_current": advise.model_is_current,
         "what_if": advise.what_if,
-        **_thermal_registry(),
+        "pattern_reject_rate": rates.pattern_reject_rate,
+        "pattern_thermal": thermal_views.pattern_thermal,
+        "what_if_thermal": thermal_views.what_if_view,
     }
-
-
-def _thermal_registry() -> dict:
-    from tracker.views import thermal as thermal_views
-
-    return {"pattern_thermal": thermal_views.pattern_thermal,
-            "what_if_thermal": thermal_views.what_if_view}
 
 
 def db_path() -> str:
@@ -86,8 +91,6 @@ def open_store() -> Store:
     the signed-in user, whose role the library checks on every write. A missing
     log is an error, never created here: only ``pourback init`` and ``demo``
     create one."""
-    from dashboard import access
-
     return access.open_store(db_path())
 
 
@@ -152,29 +155,22 @@ def forget() -> None:
 
 # --- text -------------------------------------------------------------------------------
 
-_MD_SPECIAL = re.compile(r"([\\`*_{}\[\]()#+\-.!|<>~$:=])")
-
-
-def md_escape(text) -> str:
-    """User text made inert for Streamlit's markdown (no links, images, colours, HTML)."""
-    return _MD_SPECIAL.sub(r"\\\1", str(text))
-
-
 def pct(value, digits: int = 1) -> str:
     """A percentage for display ("-" where undefined)."""
     try:
         v = float(value)
     except (TypeError, ValueError):
         return "-"
-    return "-" if v != v else f"{v:.{digits}f} %"
+    return "-" if math.isnan(v) else f"{v:.{digits}f} %"
 
 
 def money(value) -> str:
+    """An amount in whole currency units, thousands separated ("-" where undefined)."""
     try:
         v = float(value)
     except (TypeError, ValueError):
         return "-"
-    return "-" if v != v else f"{v:,.0f}"
+    return "-" if math.isnan(v) else f"{v:,.0f}"  # not numbers.money_text: "inf" stays "inf"
 
 
 # --- the one place errors are shown -------------------------------------------------------
@@ -211,8 +207,6 @@ def guard():
 def download_csv(frame, label: str, file_name: str, key: str) -> None:
     """A download of ``frame`` as CSV, every cell through the project's formula
     guard (the tables' built-in download is off: ``client.disableDataExport``)."""
-    from tracker.csvsafe import csv_bytes
-
     st.download_button(label, data=csv_bytes(frame), file_name=file_name, mime="text/csv", key=key,
                        icon=":material/download:", disabled=frame is None or len(frame) == 0)
 
@@ -235,8 +229,6 @@ def unit_switch() -> None:
     """The sidebar's unit-system switch. It changes what this browser session shows
     and takes, never the log (everything is stored in metric); where the user may
     change the log's settings, a button makes the choice the log's default."""
-    from dashboard import access
-
     log_default = load("unit_setting")
     if st.session_state.get(_UNITS) not in units.SYSTEMS:
         st.session_state[_UNITS] = log_default
@@ -253,8 +245,6 @@ def unit_switch() -> None:
 
 
 def _make_default(system: str) -> None:
-    from tracker.log import settings
-
     with guard(), open_store() as store:
         settings.set_units(store, system)
         forget()

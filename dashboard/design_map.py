@@ -7,8 +7,8 @@ import datetime as dt
 import streamlit as st
 
 from dashboard import charts, common
-from tracker import views
 from tracker.design.alloys import ALLOYS
+from tracker.views import design_map as views
 
 
 def alloy_name(key: str) -> str:
@@ -56,15 +56,7 @@ def main() -> None:
         return
     curve = common.load("caine_curve", alloy, y_max=float(points["volume_ratio"].max()) * 1.15,
                         x_max=max(float(points["freezing_ratio"].max()) * 1.3, 2.0))
-    s = views.design_map_summary(points)
-    c = st.columns(4)
-    c[0].metric("Riser zones shown", f"{s['zones']:,}",
-                help=f"{s['superseded']:,} of them under a revision since superseded (faded on the map)")
-    c[1].metric("Castings poured", f"{s['castings']:,}")
-    c[2].metric("Shrinkage rejects (castings)", f"{s['shrinkage_rejects']:,}",
-                help="rejects with defect shrinkage logged against a zone")
-    c[3].metric("Zones in use whose riser fails a rule", f"{s['failing']:,}",
-                help="risers of the revision in use today; superseded revisions are not counted")
+    s = _metrics(points, start, end)
     if curve is None:
         why = " (no textbook row is known for ductile iron)" if alloy == "ductile_iron" else ""
         st.info(f"No Caine curve for {common.md_escape(alloy_name(alloy))}: the log holds no Caine "
@@ -96,6 +88,22 @@ def main() -> None:
                                 "freezing ratio": st.column_config.NumberColumn(format="%.2f"),
                                 "Caine margin": st.column_config.NumberColumn(format="%+.2f"),
                                 "feed margin": st.column_config.NumberColumn(format="%+.2f")})
+
+
+def _metrics(points, start: dt.date, end: dt.date) -> dict:
+    """The map's headline figures and the words that say which rate it shows; returns the summary."""
+    s = views.design_map_summary(points)
+    c = st.columns(4)
+    c[0].metric("Riser zones shown", f"{s['zones']:,}",
+                help=f"{s['superseded']:,} of them under a revision since superseded (faded on the map)")
+    c[1].metric("Castings poured", f"{s['castings']:,}")
+    c[2].metric("Shrinkage rejects (castings)", f"{s['shrinkage_rejects']:,}",
+                help="rejects with defect shrinkage logged against a zone")
+    c[3].metric("Zones in use whose riser fails a rule", f"{s['failing']:,}",
+                help="risers of the revision in use today; superseded revisions are not counted")
+    st.caption("Shrinkage rate on this page: " + common.md_escape(views.rate_scope(start.isoformat(),
+                                                                                end.isoformat())) + ".")
+    return s
 
 
 def _picked() -> None:

@@ -16,11 +16,11 @@ import tempfile
 import streamlit as st
 
 from dashboard import access, common
-from tracker import units, views
+from tracker import units
 from tracker.log.accounts import MAX_UPLOAD_MB, TABLE_ACTION
 from tracker.log.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES, import_file, log_inspection
+from tracker.views import log_results as views
 
-NONE = views.NONE
 XRAY = "xray"
 KIND_HELP = {
     "patterns": "pattern, description, alloy, casting_weight_kg, castings_per_mold, metal_cost_per_kg",

@@ -2,12 +2,20 @@
 
 from __future__ import annotations
 
+import datetime as dt
+
 import streamlit as st
 
 from dashboard import charts, common, thermal_view
-from tracker import views
+from tracker import limits
+from tracker.views import pattern_file as views
+from tracker.views.common import label as view_label
 
 NUMBER = st.column_config.NumberColumn
+
+
+def _pct(fraction):
+    return None if fraction is None else 100.0 * fraction
 
 
 def main() -> None:
@@ -18,33 +26,11 @@ def main() -> None:
     if opts.empty:
         common.start_message(state, "a pattern file")
         return
-    flagged = common.flagged_patterns()
-    labels = {code: label + (" · flagged" if code in flagged else "")
-              for code, label in zip(opts["pattern"], opts["label"], strict=False)}
-    # the pattern asked for in the address (?pattern=P-1031), else the first one the review flags
-    wanted = st.query_params.get("pattern")
-    first = next((p for p in flagged if p in labels), None)
-    index = list(labels).index(wanted) if wanted in labels else (list(labels).index(first) if first else 0)
-    code = st.selectbox("Pattern", list(labels), index=index, format_func=labels.get, key="pattern")
-    if code != wanted:
-        st.query_params["pattern"] = code  # the address names the pattern shown
+    code = _picked_pattern(opts)
 
     system = common.unit_system()
-    label = lambda metric_label: views.label(metric_label, system)  # noqa: E731
-    info = common.load("pattern_summary", code)
-    c = st.columns(3)
-    c[0].metric("Alloy", info.get("alloy_name") or info["alloy"], help=f"alloy key: {info['alloy']}")
-    c[1].metric(f"Casting weight ({common.unit('casting_weight_kg')})",
-                f"{common.shown('casting_weight_kg', info['casting_weight_kg']):.4g}")
-    c[2].metric("Castings per mold", f"{info['castings_per_mold']:,}")
-    c = st.columns(3)
-    c[0].metric("Lots poured", f"{info['lots']:,}")
-    c[1].metric("Castings poured", f"{info['poured']:,}")
-    c[2].metric("Reject rate, all time", common.pct(info["reject_rate_pct"], 2),
-                help=f"{info['rejected']:,} of {info['inspected']:,} castings inspected")
-    mould = info["mould"].replace("_", " ") if info.get("mould") else "not given, taken as green sand"
-    st.caption((f"Poured from {info['first_pour']} to {info['last_pour']}. " if info["first_pour"] else "")
-               + f"Mould: {mould} (ductile iron's pressure-control rules depend on it).")
+    label = lambda metric_label: view_label(metric_label, system)  # noqa: E731
+    _summary(code)
 
     st.subheader("Zones")
     zones = common.load("pattern_zones", code, system=system)
@@ -104,6 +90,47 @@ def main() -> None:
                    "the date each riser revision took effect. " + note)
     else:
         st.caption("No lots of this pattern are logged yet.")
+
+
+def _picked_pattern(opts) -> str:
+    """The pattern picker: the pattern asked for in the address (?pattern=P-1031), else the
+    first one the review flags; the address then names the pattern shown."""
+    flagged = common.flagged_patterns()
+    labels = {code: label + (" · flagged" if code in flagged else "")
+              for code, label in zip(opts["pattern"], opts["label"], strict=False)}
+    wanted = st.query_params.get("pattern")
+    first = next((p for p in flagged if p in labels), None)
+    index = list(labels).index(wanted) if wanted in labels else (list(labels).index(first) if first else 0)
+    code = st.selectbox("Pattern", list(labels), index=index, format_func=labels.get, key="pattern")
+    if code != wanted:
+        st.query_params["pattern"] = code  # the address names the pattern shown
+
+    return code
+
+
+def _summary(code: str) -> None:
+    """The pattern's master data and pour totals, and its reject rate all time and over
+    the review window (the weekly review's figure, by the same library function)."""
+    info = common.load("pattern_summary", code)
+    c = st.columns(3)
+    c[0].metric("Alloy", info.get("alloy_name") or info["alloy"], help=f"alloy key: {info['alloy']}")
+    c[1].metric(f"Casting weight ({common.unit('casting_weight_kg')})",
+                f"{common.shown('casting_weight_kg', info['casting_weight_kg']):.4g}")
+    c[2].metric("Castings per mold", f"{info['castings_per_mold']:,}")
+    c = st.columns(3)
+    c[0].metric("Lots poured", f"{info['lots']:,}")
+    c[1].metric("Castings poured", f"{info['poured']:,}")
+    c[2].metric("Reject rate, all time", common.pct(info["reject_rate_pct"], 2),
+                help=f"{info['rejected']:,} of {info['inspected']:,} castings inspected")
+    recent = common.load("pattern_reject_rate", code, weeks=limits.WEEKS_DEFAULT,
+                         week=common.load("default_week", today=dt.date.today().isoformat()))
+    st.caption(common.md_escape(
+        "Reject rate, all time: all rejects, pattern " + code + ", every pour, % of castings inspected. "
+        f"Over the review window: {common.pct(_pct(recent['rate']), 2)} ({recent['scope']}; as the Weekly "
+        "review shows it)."))
+    mould = info["mould"].replace("_", " ") if info.get("mould") else "not given, taken as green sand"
+    st.caption((f"Poured from {info['first_pour']} to {info['last_pour']}. " if info["first_pour"] else "")
+               + f"Mould: {mould} (ductile iron's pressure-control rules depend on it).")
 
 
 main()

@@ -5,53 +5,64 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboard import access, charts, common, thermal_view
-from tracker import units, views
+from tracker import units
 from tracker.advice import suggest as advise
 from tracker.design.assess import rule_words
+from tracker.thermal.checks import AUTO_BUDGET_S
+from tracker.views import suggestions as views
+from tracker.views.common import label, length_text
 
 NUMBER = st.column_config.NumberColumn
 KEEP, BARE = "keep", "none"
 DIAMETER_RANGE_MM = (10.0, 2000.0)  # what the what-if's diameter field takes
+THERMAL_NOTE = ("Thermal filter: as `pourback suggest` does by default, each chosen riser is checked by a 2-D "
+                "solidification solve and the next candidate is taken where it fails, when the solves of all "
+                f"problem zones fit in {AUTO_BUDGET_S:.0f} s; otherwise a row's reason says the check was not "
+                "run (`pourback suggest --thermal` runs it). The same log gives the same risers here and there.")
 
 
 def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list[dict]:
-    # the page stays quick: the thermal check is in what-if below (and `pourback suggest --thermal`)
-    status = "Pricing riser changes for the problem patterns"
+    system = common.unit_system()
+    status = ("Pricing riser changes for the problem patterns and checking each chosen riser by a "
+              "solidification solve (a few seconds per zone)")
     if not common.load("model_is_current"):
         status = ("Fitting the reject model on the whole log (no stored fit covers the newest pours), "
                   "then " + status[0].lower() + status[1:])
+    # the library call of `pourback suggest` with its metric defaults: the thermal check on where
+    # the solves of all problem zones fit in its budget. The diameter step stays the metric one in
+    # either unit system, so the page suggests the same risers in inches as in mm.
     found = common.load("suggest", target=target / 100.0, week=week, weeks=weeks, remelt_charge=charge,
-                        thermal=False, system=common.unit_system(), status=status)
+                        thermal=None, system=system, status=status)
     st.subheader("Suggested changes")
     if not found:
         st.success(f"No pattern is flagged in the {weeks} weeks up to {week} at a target of {target:g} %.")
         return []
     code = common.load("currency")
-    system = common.unit_system()
     money = views.money_per_year(code)
     table = views.suggestions_table(found, currency=code, system=system)
     st.markdown("**What to change**")
     st.dataframe(table[views.change_part(system)], hide_index=True, width="stretch", key="suggestions_table",
                  placeholder="", column_config={
-                     views.label("now: diameter (mm)", system): NUMBER(format=common.length_format()),
-                     views.label("suggested: diameter (mm)", system): NUMBER(format=common.length_format())})
+                     label("now: diameter (mm)", system): NUMBER(format=common.length_format()),
+                     label("suggested: diameter (mm)", system): NUMBER(format=common.length_format())})
     st.markdown("**What it brings**")
     st.dataframe(table[views.balance_part(code, system)], hide_index=True, width="stretch", key="balance_table",
                  placeholder="", column_config={
                      "observed now (%)": NUMBER(format="%.2f"), "predicted now (%)": NUMBER(format="%.2f"),
                      "predicted after (%)": NUMBER(format="%.2f"),
-                     views.label("added metal (kg per mold)", system): NUMBER(format="%+.2f"),
+                     label("added metal (kg per mold)", system): NUMBER(format="%+.2f"),
                      "yield now (%)": NUMBER(format="%.1f"),
                      "yield after (%)": NUMBER(format="%.1f"),
                      f"scrap saved ({money})": NUMBER(format="%,.0f"),
                      f"extra cost ({money})": NUMBER(format="%,.0f"),
                      f"balance ({money})": NUMBER(format="%+,.0f")})
-    st.caption("Observed now: shrinkage rejects in the zone (or all rejects where no riser change is "
-               "suggested), % of castings poured in the window. Predicted now and after: the shop's reject "
+    st.caption("Observed now: " + common.md_escape(views.observed_scope(week, weeks)) + " (all rejects of the "
+               "pattern where no riser change is suggested). Predicted now and after: the shop's reject "
                "model for the present and the changed riser; the money is on that one basis: scrap saved = "
                "castings per year × (predicted now − predicted after) × cost per scrapped casting. Extra "
                "cost: added riser metal at the remelt charge, and the change in sleeve cost. Yield: casting "
                "weight / (casting + riser weight), gating left out.")
+    st.caption(THERMAL_NOTE)
     for s in found:
         where = " · ".join(str(x) for x in (s["pattern"], s.get("zone"), s.get("riser")) if x)
         with st.expander(common.md_escape(f"{where}: {s['action'].replace('_', ' ')}")):
@@ -62,7 +73,7 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
 def _sleeve_picked(sleeves, row, sleeve_key: str, dia_key: str) -> None:
     """A sleeve picked: show its inner diameter (the riser's own for keep or bare)."""
     code = st.session_state[sleeve_key]
-    if code == KEEP or code == BARE:
+    if code in (KEEP, BARE):
         mm = float(row["diameter_mm"])
     else:
         mm = float(sleeves.loc[sleeves["sleeve"] == code, "inner_diameter_mm"].iat[0])
@@ -104,7 +115,8 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
                                               " (no sleeve)"),
                      BARE: "no sleeve (bare riser)", **dict(zip(sleeves["sleeve"], sleeves["label"], strict=False))}
     # the typed diameter is kept per unit system: a number typed in inches is never read as mm
-    sleeve_key, dia_key = f"whatif_sleeve_{key[0]}_{key[1]}", f"whatif_dia_{'us_' if system == units.US else ''}{key[0]}_{key[1]}"
+    sleeve_key = f"whatif_sleeve_{key[0]}_{key[1]}"
+    dia_key = f"whatif_dia_{'us_' if system == units.US else ''}{key[0]}_{key[1]}"
     sleeve = c2.selectbox("Sleeve (smallest first)", list(sleeve_labels), format_func=sleeve_labels.get,
                           key=sleeve_key, on_change=_sleeve_picked, args=(sleeves, row, sleeve_key, dia_key))
     now = float(common.shown("diameter_mm", float(row["diameter_mm"])))
@@ -126,7 +138,7 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
                              remelt_charge=charge, system=system)
     if result is None:
         return
-    size = " x ".join(views.length_text(result[k], system) for k in ("diameter_mm", "height_mm"))
+    size = " x ".join(length_text(result[k], system) for k in ("diameter_mm", "height_mm"))
     st.markdown(common.md_escape(
         f"{result['pattern']} revision {result['revision']}, riser {result['riser']} on zone "
         f"{result['zone']}: {size} {common.unit('diameter_mm')}, "
@@ -191,11 +203,11 @@ def _money_metrics(result: dict) -> None:
             ("Yearly balance", "yearly_balance", "scrap saved less extra riser metal and sleeves" + unit)]
     for pair in (rows[:2], rows[2:]):
         c = st.columns(2)
-        for col, (label, key, note) in zip(c, pair, strict=False):
+        for col, (heading, key, note) in zip(c, pair, strict=False):
             delta = None
             if key == "yearly_balance" and result["changed"]:
                 delta = "pays off" if result["pays_off"] else "does not pay off"
-            col.metric(label, common.money(result[key]), delta=delta, help=note,
+            col.metric(heading, common.money(result[key]), delta=delta, help=note,
                        delta_color="normal" if result["pays_off"] else "inverse")
     also = [r for r in result["changed_risers"] if r != result["riser"]]
     st.caption(common.md_escape(

@@ -6,6 +6,7 @@ import streamlit as st
 
 from dashboard import access, common
 from tracker.log import accounts as auth
+from tracker.views import team as views
 
 
 def main() -> None:
@@ -18,23 +19,17 @@ def main() -> None:
     if access.served_without_tls():
         st.warning(access.NO_TLS_TEXT, icon=":material/lock_open:")
     with common.open_store() as store:
-        users = auth.list_users(store)
-        audit = auth.audit_log(store)
+        users = views.users_rows(store)
+        audit = views.audit_rows(store)
     st.subheader("Accounts")
-    st.dataframe([{"user": u["name"], "role": u["role"], "enabled": u["enabled"], "locked now": u["locked"],
-                   "last sign-in (UTC)": u["last_sign_in"], "password set (UTC)": u["password_set_at"],
-                   "added by": u["created_by"]} for u in users],
-                 hide_index=True, width="stretch", key="users_table")
+    st.dataframe(users, hide_index=True, width="stretch", key="users_table")
     st.caption(f"A user is locked for {auth.LOCK_MINUTES} minutes after {auth.LOCK_AFTER_FAILURES} wrong "
                "passwords in a row; `pourback user passwd NAME` sets a new password and lifts the lock.")
     st.subheader("Roles")
-    st.dataframe([{"role": r["role"], "may": r["may"]} for r in auth.role_table()], hide_index=True,
-                 width="stretch", key="roles_table")
+    st.dataframe(views.roles_rows(), hide_index=True, width="stretch", key="roles_table")
     st.subheader("Audit (newest first)")
-    st.dataframe([{"at (UTC)": r["at"], "event": r["event"], "by": r["user"], "account": r["subject"],
-                   "detail": r["detail"], "via": r["via"]} for r in reversed(audit[-500:])],
-                 hide_index=True, width="stretch", key="audit_table")
-    st.caption("The last 500 entries; `pourback audit --since DATE` prints them all.")
+    st.dataframe(audit, hide_index=True, width="stretch", key="audit_table")
+    st.caption(f"The last {views.AUDIT_SHOWN} entries; `pourback audit --since DATE` prints them all.")
 
 
 main()

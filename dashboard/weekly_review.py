@@ -5,7 +5,9 @@ from __future__ import annotations
 import streamlit as st
 
 from dashboard import charts, common
-from tracker import views
+from tracker.review import report
+from tracker.views import review as views
+from tracker.views.common import money_head
 
 
 def headline(review: dict) -> None:
@@ -56,7 +58,7 @@ def scrap(review: dict) -> None:
                   format_func={"cost": "scrap cost", "count": "castings rejected"}.get)
     data = views.review_pareto(review, of, by, top=PARETO_BARS)
     item = "pattern" if of == "patterns" else "defect"
-    value = views.money_head("scrap cost", review) if by == "cost" else "castings rejected"
+    value = money_head("scrap cost", review) if by == "cost" else "castings rejected"
     st.altair_chart(charts.pareto(data, item, value, item), width="stretch", key="pareto_chart")
     st.caption(f"Bars: the window's scrap, largest first (faded after the items that make up 80 %); at most "
                f"{PARETO_BARS} bars, the last one holding all the rest. Line: cumulative share (%, right axis).")
@@ -65,7 +67,7 @@ def scrap(review: dict) -> None:
 def trend(review: dict) -> None:
     st.subheader("Trend")
     st.altair_chart(charts.trend(views.review_trend(review), 100.0 * review["target"],
-                                 views.money_head("scrap cost", review)), width="stretch", key="trend_chart")
+                                 money_head("scrap cost", review)), width="stretch", key="trend_chart")
     st.caption("All patterns: weekly reject rate with its 95 % range (shaded), against the target.")
 
 
@@ -128,7 +130,8 @@ def patterns(review: dict) -> None:
     st.subheader("Patterns in the window")
     full = st.toggle("Show every column", key="patterns_all_columns",
                      help="Poured castings, the 95 % range of the rate, shrinkage rejects and chart signals.")
-    cost = views.money_head("scrap cost", review)
+    cost = money_head("scrap cost", review)
+    st.caption("Reject rate (%): " + common.md_escape(views.rate_scope(review)) + ".")
     st.dataframe(views.review_patterns_table(review, full=full), hide_index=True, width="stretch",
                  key="patterns_table", placeholder="",
                  column_config={"reject rate (%)": st.column_config.NumberColumn(format="%.2f"),
@@ -140,8 +143,6 @@ def patterns(review: dict) -> None:
 
 
 def download(review: dict) -> None:
-    from tracker.review import report
-
     html = report.render(review, "html")
     st.download_button("Download this review as HTML", data=html.encode("utf-8"),
                        file_name=f"pourback-review-{review['week']}.html", mime="text/html",

@@ -174,7 +174,7 @@ def test_after_a_save_the_result_fields_clear_and_the_session_fields_stay(app_db
 
 
 def test_form_shows_what_each_method_accounted_for(app_db, monkeypatch):
-    from tracker import views
+    from tracker.views import log_results as views
 
     lot, _ = _lot_with_room(app_db)
     at = open_page(app_db, "log_results.py", monkeypatch)
@@ -358,6 +358,24 @@ def test_suggestions_and_what_if(app_demo_db, monkeypatch):
     assert [m for m in at.metric if m.label == "Yield changed"][0].delta.startswith("-")
 
 
+def test_suggestions_page_shows_the_riser_pourback_suggest_shows(app_demo_db, monkeypatch):
+    # The page runs the library call of `pourback suggest` with its defaults (thermal filter
+    # included): on the demo, P-1017's R3 goes to 120 mm with sleeve XS-120 once the filter has
+    # run (130 mm bare without it), on the page and in the library alike.
+    from tracker.advice.suggest import suggest
+
+    at = open_page(app_demo_db, "suggestions.py", monkeypatch)
+    change = next(d.value for d in at.dataframe if "suggested: sleeve" in d.value.columns)
+    page = change[(change["pattern"] == "P-1017") & (change["riser"] == "R3")].iloc[0]
+    with Store(app_demo_db) as s:
+        want = next(r for r in suggest(s, week=at.selectbox(key="week").value)
+                    if r["pattern"] == "P-1017" and r.get("riser") == "R3")
+    assert (want["suggested_diameter_mm"], want["suggested_sleeve"]) == (120.0, "XS-120")
+    assert page["suggested: diameter (mm)"] == want["suggested_diameter_mm"]
+    assert page["suggested: sleeve"] == (want["suggested_sleeve"] or "none")
+    assert any("Thermal filter" in c for c in texts(at.caption))
+
+
 def test_what_if_with_a_catalogue_sleeve(app_demo_db, monkeypatch):
     at = open_page(app_demo_db, "suggestions.py", monkeypatch)
     box = at.selectbox(key="whatif_sleeve_P-1017_R3")
@@ -425,9 +443,9 @@ def test_user_text_in_messages_is_inert_markdown(app_db, monkeypatch):
 # --- design map: designs in use, flagged patterns, links to the pattern file ----------------------
 
 def test_design_map_counts_failing_designs_in_use_only(app_demo_db, monkeypatch):
-    from tracker import views
     from tracker.advice.features import design_map
     from tracker.review.weekly import default_week, weekly_review
+    from tracker.views import design_map as views
 
     at = open_page(app_demo_db, "design_map.py", monkeypatch)
     with Store(app_demo_db) as s:

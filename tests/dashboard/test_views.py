@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 
 from tests.support import BACKENDS, GOOD, LogFactory
-from tracker import views
+from tests.support import views_kit as views
 from tracker.errors import BadFile, NotFound
 from tracker.log.ingest import import_dir, import_file, log_inspection
 from tracker.log.store import Store

@@ -14,10 +14,11 @@ from statsmodels.stats.proportion import proportion_confint
 
 from tests.support import GOOD, SAMPLE
 from tracker.cli import main
-from tracker.errors import BadFile, NotFound
+from tracker.errors import BadFile, BadInput, NotFound
 from tracker.log.ingest import import_dir, import_file
 from tracker.log.store import Store
-from tracker.review.weekly import compare_plants, weekly_review
+from tracker.review.plants import compare_plants
+from tracker.review.weekly import weekly_review
 
 WEEK, WEEKS = "2026-W47", 13
 WINDOW = ("2026-08-24", "2026-11-22")  # ISO weeks 2026-W35 to W47 (ISO 8601 calendar)
@@ -156,3 +157,14 @@ def test_dashboard_plant_picker_and_plants_side_by_side(plant_log, monkeypatch):
     with Store(db) as s:
         north = weekly_review(s, week=at.selectbox(key="week").value, weeks=13, plant="NORTH")
     assert metric(at, "Castings inspected, window") == f"{north['totals']['window']['inspected']:,}"
+
+
+def test_compare_plants_on_a_log_without_plants_says_how_to_name_them(logs):
+    # a log whose patterns name no plant: one BadInput with the fix, not a NameError
+    target = logs.new()
+    with Store(target) as s:
+        import_dir(s, SAMPLE, by="test")
+        with pytest.raises(BadInput) as err:
+            compare_plants(s, "steel", week=WEEK, weeks=WEEKS)
+    assert str(err.value) == ("plant: got None; the log names no plants: give patterns a plant column, or set "
+                              "`pourback init --plant CODE` before importing them")

@@ -18,7 +18,8 @@ from tracker.errors import BadInput
 from tracker.log.ingest import import_dir
 from tracker.log.store import Store
 from tracker.review import stats
-from tracker.review.report import ALERT, FORMATS, render
+from tracker.review.report import FORMATS, render
+from tracker.review.report_html import ALERT
 from tracker.review.weekly import weekly_review
 
 ROOT = REPO

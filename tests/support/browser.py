@@ -134,8 +134,8 @@ def choose(pg, label: str, option: str) -> None:
 
 def lot_with_room(db):
     """A lot of the newest pours whose visual inspections leave room for one more casting."""
-    from tracker import views
     from tracker.log.store import Store
+    from tracker.views import log_results as views
 
     with Store(db) as s:
         lots = views.lot_options(s).head(40)

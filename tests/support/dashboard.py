@@ -63,7 +63,7 @@ def snapshot(db) -> dict:
 
 def lot_with_room(db):
     """A lot of the newest pour week whose visual inspection total leaves room for one more casting."""
-    from tracker import views
+    from tracker.views import log_results as views
 
     with Store(db) as s:
         lots = views.lot_options(s)

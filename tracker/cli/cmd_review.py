@@ -60,8 +60,8 @@ def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, a
         raise click.UsageError("--alloy is for --compare-plants; the review covers every alloy")
     fmt = "json" if as_json else (fmt or "table")
 
+    from tracker.review.plants import compare_plants as compare
     from tracker.review.report import render, render_plants
-    from tracker.review.weekly import compare_plants as compare
     from tracker.review.weekly import in_system, weekly_review
 
     with Steps(show_progress(fmt == "json")) as steps:

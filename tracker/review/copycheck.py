@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import math
 
+from tracker import numbers
 from tracker.log.copylog import copy_tables
 from tracker.log.store import Store
 from tracker.review import weekly as review
@@ -21,8 +22,8 @@ def _same_review(src: Store, dst: Store) -> tuple[str | None, bool]:
     """The latest week's review on both logs, compared as JSON."""
     if src.count("lots") == 0 or src.count("inspections") == 0:
         return None, True
-    a = review.jsonable(review.weekly_review(src))
-    b = review.jsonable(review.weekly_review(dst))
+    a = numbers.jsonable(review.weekly_review(src), day_only=True)
+    b = numbers.jsonable(review.weekly_review(dst), day_only=True)
     return a["week"], _same(a, b)
 
 

@@ -190,6 +190,26 @@ def probability_limits(inspected, centre) -> tuple[np.ndarray, np.ndarray]:
     return low, high
 
 
+def _p_chart_input(rejected, inspected, labels, centre: float | None) -> tuple[np.ndarray, np.ndarray, list, float]:
+    """:func:`p_chart`'s counts, labels and centre (fraction; NaN where nothing was
+    inspected), checked: BadInput names the argument that breaks a rule."""
+    k = _counts("rejected", rejected).ravel()
+    n = _counts("inspected", inspected).ravel()
+    if k.size != n.size:
+        raise BadInput("inspected", f"{n.size} values", f"need one per rejected value ({k.size})")
+    _check_k_le_n(k, n, "rejected", "inspected")
+    labels = list(np.arange(k.size) if labels is None else labels)
+    if len(labels) != k.size:
+        raise BadInput("labels", f"{len(labels)} values", f"need one per period ({k.size})")
+    if centre is None:
+        total = n.sum()
+        return k, n, labels, k.sum() / total if total > 0 else math.nan
+    pbar = float(centre)
+    if not (0.0 <= pbar <= 1.0):
+        raise BadInput("centre", centre, "the baseline reject rate must be a fraction between 0 and 1")
+    return k, n, labels, pbar
+
+
 def p_chart(rejected, inspected, labels=None, *, centre: float | None = None) -> pd.DataFrame:
     """p-chart of reject rate with a sample size that varies point to point.
 
@@ -225,25 +245,7 @@ def p_chart(rejected, inspected, labels=None, *, centre: float | None = None) ->
         If nothing at all was inspected and no ``centre`` is given, the centre
         is NaN and no point signals.
     """
-    k = _counts("rejected", rejected).ravel()
-    n = _counts("inspected", inspected).ravel()
-    if k.size != n.size:
-        raise BadInput("inspected", f"{n.size} values", f"need one per rejected value ({k.size})")
-    _check_k_le_n(k, n, "rejected", "inspected")
-    if labels is None:
-        labels = np.arange(k.size)
-    labels = list(labels)
-    if len(labels) != k.size:
-        raise BadInput("labels", f"{len(labels)} values", f"need one per period ({k.size})")
-
-    if centre is None:
-        total = n.sum()
-        pbar = k.sum() / total if total > 0 else math.nan
-    else:
-        pbar = float(centre)
-        if not (0.0 <= pbar <= 1.0):
-            raise BadInput("centre", centre, "the baseline reject rate must be a fraction between 0 and 1")
-
+    k, n, labels, pbar = _p_chart_input(rejected, inspected, labels, centre)
     seen = n > 0
     with np.errstate(invalid="ignore", divide="ignore"):
         p = np.where(seen, k / n, np.nan)
@@ -490,9 +492,8 @@ def compare_rates_many(k_before, n_before, k_after, n_after, confidence: float =
         p_value[i] = _fisher_two_sided(kb[i], nb[i], ka[i], na[i])
         power[i] = _power_to_detect(p1[i], nb[i], na[i], a)
     out = []
-    for j, (k1, n1, k2, n2, r1, r2, dj, lo, hi, pv, pw, ok) in enumerate(zip(
-            kb.tolist(), nb.tolist(), ka.tolist(), na.tolist(), p1.tolist(), p2.tolist(), d.tolist(),
-            low.tolist(), high.tolist(), p_value.tolist(), power.tolist(), judged.tolist(), strict=False)):
+    columns: list = [x.tolist() for x in (kb, nb, ka, na, p1, p2, d, low, high, p_value, power, judged)]
+    for k1, n1, k2, n2, r1, r2, dj, lo, hi, pv, pw, ok in zip(*columns, strict=False):
         row = {"k_before": int(k1), "n_before": int(n1), "k_after": int(k2), "n_after": int(n2),
                "rate_before": r1 if n1 > 0 else math.nan, "rate_after": r2 if n2 > 0 else math.nan,
                "difference": math.nan, "diff_low": math.nan, "diff_high": math.nan,

@@ -12,11 +12,8 @@ the statistical test of each). pandas is left out of the hot path: its fixed
 cost per operation was most of a one-week review. The scale benchmark holds
 the review against the bare fetch of the rows it reads
 (``Store.review_floor``). The riser revisions' before/after figures come from
-the log's running totals per pattern and pour day (``Store.totals_before``,
-read with the changed zones' in one statement by
-``Store.totals_and_zones_before``; kept up to date by every write of lots
-and records): two rows a span, however long ago the revision took effect,
-instead of re-reading its history.
+:mod:`tracker.review.revisions`; the plants side by side from
+:mod:`tracker.review.plants`.
 
 Counting rules
 --------------
@@ -43,14 +40,8 @@ signal means fewer rejects: reported in ``signal_rules`` but not a problem);
 rate over the window lies above ``target``; ``rejects_above_target`` — the same
 for all rejects.
 
-Riser revisions: every revision that took effect inside the window, and every
-revision in effect at the window's start that is still ``not_enough_data`` as
-of the review week's end, however long ago it took effect: a change stays
-under judgement until it has a verdict. Lots
-poured under the previous revision (at most ``weeks`` weeks before the change)
-are compared with lots poured from the change to the review week's end (or to
-the next revision) by :func:`tracker.review.stats.compare_rates` (Fisher's exact
-test) on shrinkage rejects in the zones of the risers that changed.
+Riser revisions: see :mod:`tracker.review.revisions` (every revision that
+took effect inside the window, and every earlier one still without a verdict).
 """
 
 from __future__ import annotations
@@ -58,25 +49,29 @@ from __future__ import annotations
 import datetime as dt
 import functools
 import gc
-import math
+from typing import cast
 
 import numpy as np
 import pandas as pd
 
-from tracker import limits, units
+from tracker import limits, numbers, units
 from tracker.cautions import SAFETY_CAUTION
 from tracker.log.settings import currency
 from tracker.log.store import Store
 from tracker.review import stats
+from tracker.review.revisions import (
+    iso,
+    judge_revisions,
+    revision_probes,  # noqa: F401 (kept for callers outside this area until they move)
+    riser_change_text,
+)
 
 SHRINKAGE = "shrinkage"
 LATEST_WEEKS = 2          # the review week and the one before
 NO_ZONE = "(no zone)"
 NO_DEFECT = "(no defect given)"
 RATE_MOVES_SHOWN = 5
-EARLIEST_DAY = "0001-01-01"  # "from the start of the log" for date filters
 NOTES_PER_PATTERN = 3
-RISER_FIELDS = ("zone", "placement", "top", "diameter_mm", "height_mm", "sleeve", "neck_diameter_mm")
 RATE_BASIS = "castings rejected / castings inspected (castings poured in lots with an inspection record)"
 UNITS = {
     "poured": "castings", "inspected": "castings", "awaiting_inspection": "castings",
@@ -98,26 +93,6 @@ PATTERN_KEYS = [
 
 # --- helpers --------------------------------------------------------------------------
 
-def jsonable(obj):
-    """JSON-ready copy: numpy scalars to Python, NaN/inf to None, dates to ISO text."""
-    if isinstance(obj, dict):
-        return {str(k): jsonable(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [jsonable(v) for v in obj]
-    if isinstance(obj, (bool, np.bool_)):
-        return bool(obj)
-    if isinstance(obj, (int, np.integer)):
-        return int(obj)
-    if isinstance(obj, (float, np.floating)):
-        f = float(obj)
-        return f if math.isfinite(f) else None
-    if isinstance(obj, (dt.date, pd.Timestamp)):
-        return obj.isoformat()[:10]
-    if obj is None or obj is pd.NA or obj is pd.NaT:
-        return None
-    return obj
-
-
 _PLAIN = (str, bool, int, list, dict, type(None))
 
 
@@ -133,15 +108,7 @@ def _column(values) -> list:
         return out.tolist()
     if a.dtype.kind in "iub":
         return a.tolist()
-    return [v if type(v) in _PLAIN else jsonable(v) for v in a.tolist()]
-
-
-def _iso(d: dt.date) -> str:
-    return d.isoformat()
-
-
-def _day_before(iso: str) -> str:
-    return _iso(dt.date.fromisoformat(iso) - dt.timedelta(days=1))
+    return [v if type(v) in _PLAIN else numbers.jsonable(v, day_only=True) for v in a.tolist()]
 
 
 def _ints(values) -> np.ndarray:
@@ -187,13 +154,8 @@ def _reject_arrays(cols: dict, index: dict) -> dict[str, np.ndarray]:
     return {k: v[keep] for k, v in out.items()}
 
 
-def _finite(x) -> float | None:
-    """A number as a Python float, None where it is NaN or infinite."""
-    f = float(x)
-    return f if math.isfinite(f) else None
-
-
-def _rate(k, n):
+def rate(k, n) -> np.ndarray:
+    """k / n element-wise (castings rejected / castings inspected), NaN where n is 0."""
     k = np.asarray(k, dtype=float)
     n = np.asarray(n, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -227,7 +189,7 @@ def _pareto_rows(keys, values, key: str, value: str, extra: dict | None = None) 
 
 def _nested(pattern: np.ndarray, key: np.ndarray, quantity: np.ndarray, n_patterns: int) -> list[dict]:
     """Per pattern number, {key: summed quantity}, largest first (ties by key)."""
-    out = [{} for _ in range(n_patterns)]
+    out: list[dict] = [{} for _ in range(n_patterns)]
     if not len(pattern):
         return out
     names = sorted(set(key.tolist()))
@@ -286,8 +248,11 @@ def p_charts(rejected: np.ndarray, inspected: np.ndarray) -> dict[str, np.ndarra
 
 def _rules(beyond: np.ndarray, run: np.ndarray) -> list[list[str]]:
     """Per row, the names of the rules (``stats.RULES`` order) that fire anywhere in it."""
-    names = {(b, r): [n for n, on in zip(stats.RULES, (b, r), strict=False) if on] for b in (False, True) for r in (False, True)}
-    return [list(names[pair]) for pair in zip(beyond.any(axis=1).tolist(), run.any(axis=1).tolist(), strict=False)]
+    names = {(b, r): [n for n, on in zip(stats.RULES, (b, r), strict=False) if on]
+             for b in (False, True) for r in (False, True)}
+    any_beyond = cast(list, beyond.any(axis=1).tolist())
+    any_run = cast(list, run.any(axis=1).tolist())
+    return [list(names[(bool(b), bool(r))]) for b, r in zip(any_beyond, any_run, strict=False)]
 
 
 # --- one window --------------------------------------------------------------------------
@@ -339,80 +304,17 @@ def _window(mx: dict, rejects: dict, mondays: list[dt.date], columns: slice, tar
     rows = np.flatnonzero(keep)
     w = {k: mx[k][keep][:, columns] for k in COUNTS}
     codes = mx["codes"][keep]
-    t = {"pattern": codes, **{k: w[k].sum(axis=1).astype(np.int64) for k in COUNTS}}
-    for k in ("poured", "inspected", "rejected"):
-        t["week_" + k] = w[k][:, -1].astype(np.int64)
-    t["awaiting_inspection"] = t["poured"] - t["inspected"]
-    t["reject_rate"] = _rate(t["rejected"], t["inspected"])
-    t["wilson_low"], t["wilson_high"] = stats.wilson_interval(t["rejected"], t["inspected"], confidence)
-    t["shrinkage_rate"] = _rate(t["shrinkage_rejected"], t["inspected"])
-    t["shrinkage_wilson_low"], t["shrinkage_wilson_high"] = stats.wilson_interval(
-        t["shrinkage_rejected"], t["inspected"], confidence)
-    t["week_reject_rate"] = _rate(t["week_rejected"], t["week_inspected"])
     unit = mx["unit_cost"][keep]
-    t["unit_scrap_cost"] = unit
-    t["scrap_cost"] = t["rejected"] * unit
-    t["scrap_weight_kg"] = t["rejected"] * mx["weight"][keep]
-    t["week_scrap_cost"] = t["week_rejected"] * unit
-
+    t = _counts_table(codes, w, unit, mx["weight"][keep], confidence)
     # weekly p-charts, all patterns at once (weeks without inspected castings stay empty)
-    k_w, n_w = w["rejected"], w["inspected"]
-    ch = p_charts(k_w, n_w)
-    last = min(LATEST_WEEKS, len(mondays))
-    with np.errstate(invalid="ignore"):
-        high = ch["p"][:, -last:] > ch["centre"][:, None]
-    t["signal_rules"] = _rules(ch["beyond"][:, -last:], ch["run"][:, -last:])
-    t["signal"] = [bool(x) for x in t["signal_rules"]]
-    t["signal_rules_window"] = _rules(ch["beyond"], ch["run"])
-    t["signal_high_rules"] = _rules(ch["beyond"][:, -last:] & high, ch["run"][:, -last:] & high)
-    reasons = []
-    for hr, slo, lo_ in zip(t["signal_high_rules"], t["shrinkage_wilson_low"].tolist(), t["wilson_low"].tolist(), strict=False):
-        why = [f"signal:{rule}" for rule in hr]
-        if slo > target:
-            why.append("shrinkage_above_target")
-        if lo_ > target:
-            why.append("rejects_above_target")
-        reasons.append(why)
-    t["problem_reasons"] = reasons
-    t["problem"] = [bool(x) for x in reasons]
+    ch = p_charts(w["rejected"], w["inspected"])
+    _flag(t, ch, min(LATEST_WEEKS, len(mondays)), target)
     if not full:
         return {"table": t, "labels": labels}
 
-    # the charts as plain rows, one list per pattern (keys as in PCHART_KEYS). Where
-    # nothing was inspected p and the limits are undefined (None) and no rule fires,
-    # so only the weeks with castings inspected are read from the chart arrays.
-    starts = [_iso(m) for m in mondays]
-    rejected, inspected = k_w.astype(np.int64).tolist(), n_w.astype(np.int64).tolist()
-    seen = n_w > 0
-    judged = iter(zip(*(ch[x][seen].tolist() for x in ("p", "lcl", "ucl", "beyond", "run", "signal")), strict=False))
-    charts = []
-    for c, ks, ns in zip(_column(ch["centre"]), rejected, inspected, strict=False):
-        chart = []
-        for a, b, k, n in zip(labels, starts, ks, ns, strict=False):
-            if n:
-                p_, lo_, hi_, be, ru, si = next(judged)
-                chart.append({"label": a, "week_start": b, "rejected": k, "inspected": n, "p": p_, "centre": c,
-                              "lcl": lo_, "ucl": hi_, "beyond": be, "run": ru, "signal": si})
-            else:
-                chart.append({"label": a, "week_start": b, "rejected": k, "inspected": n, "p": None, "centre": c,
-                              "lcl": None, "ucl": None, "beyond": False, "run": False, "signal": False})
-        charts.append(chart)
-    t["pchart"] = charts
-
-    # scrap by defect and shrinkage by zone, per pattern (rows of the window's weeks)
-    col = (rejects["day"] - mx["origin"]) // 7
-    lo_col, hi_col, _ = columns.indices(mx["lots"].shape[1])
-    sel = rejects["reject"] & (col >= lo_col) & (col < hi_col)
-    where = np.full(len(mx["codes"]), -1, dtype=np.int64)
-    where[rows] = np.arange(len(rows))
-    pat, qty = where[rejects["pattern"][sel]], rejects["quantity"][sel]
-    defect = rejects["defect"][sel]
-    defect = np.where(pd.isna(defect), NO_DEFECT, defect)
-    zone = rejects["zone"][sel]
-    zone = np.where(pd.isna(zone), NO_ZONE, zone)
-    shr = defect == SHRINKAGE
-    t["by_defect"] = _nested(pat, defect, qty, len(codes))
-    t["shrinkage_by_zone"] = _nested(pat[shr], zone[shr], qty[shr], len(codes))
+    starts = [iso(m) for m in mondays]
+    t["pchart"] = _chart_rows(ch, w["rejected"], w["inspected"], labels, starts)
+    pat, qty, defect = _defects_by_pattern(t, mx, rejects, columns, rows)
     t["description"] = [mx["description"][i] for i in rows.tolist()]
     t["alloy"] = [mx["alloy"][i] for i in rows.tolist()]
     t["casting_weight_kg"] = mx["weight"][keep]
@@ -427,13 +329,103 @@ def _window(mx: dict, rejects: dict, mondays: list[dt.date], columns: slice, tar
     dc = np.fromiter(map(code.__getitem__, defect.tolist()), dtype=np.int64, count=len(defect))
     d = {"defect": names, "rejected": np.bincount(dc, weights=qty, minlength=len(names)).astype(np.int64),
          "scrap_cost": np.bincount(dc, weights=qty * unit[pat], minlength=len(names))}
+    overall, per = _trend(w, codes, unit, labels, starts, confidence)
+    return {"table": t, "defects": d, "overall": overall, "per_pattern": per, "labels": labels}
 
-    # trend, overall and per pattern (the pattern's weeks with pours)
+
+def _counts_table(codes: np.ndarray, w: dict, unit: np.ndarray, weight: np.ndarray, confidence: float) -> dict:
+    """The window's counts, rates (fractions, Wilson intervals at ``confidence``) and
+    scrap per pattern, from the pattern × week tables ``w``; ``unit`` the scrap cost
+    of one casting (currency units), ``weight`` its weight (kg)."""
+    t = {"pattern": codes, **{k: w[k].sum(axis=1).astype(np.int64) for k in COUNTS}}
+    for k in ("poured", "inspected", "rejected"):
+        t["week_" + k] = w[k][:, -1].astype(np.int64)
+    t["awaiting_inspection"] = t["poured"] - t["inspected"]
+    t["reject_rate"] = rate(t["rejected"], t["inspected"])
+    t["wilson_low"], t["wilson_high"] = stats.wilson_interval(t["rejected"], t["inspected"], confidence)
+    t["shrinkage_rate"] = rate(t["shrinkage_rejected"], t["inspected"])
+    t["shrinkage_wilson_low"], t["shrinkage_wilson_high"] = stats.wilson_interval(
+        t["shrinkage_rejected"], t["inspected"], confidence)
+    t["week_reject_rate"] = rate(t["week_rejected"], t["week_inspected"])
+    t["unit_scrap_cost"] = unit
+    t["scrap_cost"] = t["rejected"] * unit
+    t["scrap_weight_kg"] = t["rejected"] * weight
+    t["week_scrap_cost"] = t["week_rejected"] * unit
+    return t
+
+
+def _flag(t: dict, ch: dict, last: int, target: float) -> None:
+    """Add the chart signals of the ``last`` weeks and the problem flags to the table ``t``."""
+    with np.errstate(invalid="ignore"):
+        high = ch["p"][:, -last:] > ch["centre"][:, None]
+    t["signal_rules"] = _rules(ch["beyond"][:, -last:], ch["run"][:, -last:])
+    t["signal"] = [bool(x) for x in t["signal_rules"]]
+    t["signal_rules_window"] = _rules(ch["beyond"], ch["run"])
+    t["signal_high_rules"] = _rules(ch["beyond"][:, -last:] & high, ch["run"][:, -last:] & high)
+    reasons = []
+    for hr, slo, lo_ in zip(t["signal_high_rules"], t["shrinkage_wilson_low"].tolist(), t["wilson_low"].tolist(),
+                            strict=False):
+        why = [f"signal:{rule}" for rule in hr]
+        if slo > target:
+            why.append("shrinkage_above_target")
+        if lo_ > target:
+            why.append("rejects_above_target")
+        reasons.append(why)
+    t["problem_reasons"] = reasons
+    t["problem"] = [bool(x) for x in reasons]
+
+
+def _chart_rows(ch: dict, k_w: np.ndarray, n_w: np.ndarray, labels: list[str], starts: list[str]) -> list[list]:
+    """The charts as plain rows, one list per pattern (keys as in PCHART_KEYS). Where
+    nothing was inspected p and the limits are undefined (None) and no rule fires,
+    so only the weeks with castings inspected are read from the chart arrays."""
+    rejected, inspected = k_w.astype(np.int64).tolist(), n_w.astype(np.int64).tolist()
+    seen = n_w > 0
+    judged = iter(zip(*(ch[x][seen].tolist() for x in ("p", "lcl", "ucl", "beyond", "run", "signal")),
+                      strict=False))
+    charts = []
+    for c, ks, ns in zip(_column(ch["centre"]), rejected, inspected, strict=False):
+        chart = []
+        for a, b, k, n in zip(labels, starts, ks, ns, strict=False):
+            if n:
+                p_, lo_, hi_, be, ru, si = next(judged)
+                chart.append({"label": a, "week_start": b, "rejected": k, "inspected": n, "p": p_, "centre": c,
+                              "lcl": lo_, "ucl": hi_, "beyond": be, "run": ru, "signal": si})
+            else:
+                chart.append({"label": a, "week_start": b, "rejected": k, "inspected": n, "p": None, "centre": c,
+                              "lcl": None, "ucl": None, "beyond": False, "run": False, "signal": False})
+        charts.append(chart)
+    return charts
+
+
+def _defects_by_pattern(t: dict, mx: dict, rejects: dict, columns: slice,
+                        rows: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Add scrap by defect and shrinkage by zone per pattern to ``t`` (rejects of the
+    window's weeks); returns the rejects' table row, quantity and defect."""
+    col = (rejects["day"] - mx["origin"]) // 7
+    lo_col, hi_col, _ = columns.indices(mx["lots"].shape[1])
+    sel = rejects["reject"] & (col >= lo_col) & (col < hi_col)
+    where = np.full(len(mx["codes"]), -1, dtype=np.int64)
+    where[rows] = np.arange(len(rows))
+    pat, qty = where[rejects["pattern"][sel]], rejects["quantity"][sel]
+    defect = rejects["defect"][sel]
+    defect = np.where(pd.isna(defect), NO_DEFECT, defect)
+    zone = rejects["zone"][sel]
+    zone = np.where(pd.isna(zone), NO_ZONE, zone)
+    shr = defect == SHRINKAGE
+    t["by_defect"] = _nested(pat, defect, qty, len(rows))
+    t["shrinkage_by_zone"] = _nested(pat[shr], zone[shr], qty[shr], len(rows))
+    return pat, qty, defect
+
+
+def _trend(w: dict, codes: np.ndarray, unit: np.ndarray, labels: list[str], starts: list[str],
+           confidence: float) -> tuple[dict, dict]:
+    """The weekly trend, overall and per pattern (the pattern's weeks with pours)."""
     cost_w = w["rejected"] * unit[:, None]
     overall = {"week": labels, "week_start": starts,
                **{k: w[k].sum(axis=0).astype(np.int64) for k in ("poured", "inspected", "rejected", "reworked")},
                "scrap_cost": cost_w.sum(axis=0)}
-    overall["reject_rate"] = _rate(overall["rejected"], overall["inspected"])
+    overall["reject_rate"] = rate(overall["rejected"], overall["inspected"])
     overall["wilson_low"], overall["wilson_high"] = stats.wilson_interval(overall["rejected"],
                                                                           overall["inspected"], confidence)
     i, j = np.nonzero(w["lots"] > 0)
@@ -442,52 +434,11 @@ def _window(mx: dict, rejects: dict, mondays: list[dt.date], columns: slice, tar
     per = {"week": np.asarray(labels, dtype=object)[j], "pattern": codes[i],
            **{k: w[k][i, j].astype(np.int64) for k in ("poured", "inspected", "rejected")},
            "scrap_cost": cost_w[i, j]}
-    per["reject_rate"] = _rate(per["rejected"], per["inspected"])
-    return {"table": t, "defects": d, "overall": overall, "per_pattern": per, "labels": labels}
+    per["reject_rate"] = rate(per["rejected"], per["inspected"])
+    return overall, per
 
 
-# --- riser revisions ----------------------------------------------------------------------
-
-def _fmt(v) -> str:
-    if v is None:
-        return "none"
-    if isinstance(v, float):
-        return f"{v:g}"
-    return str(v)
-
-
-def _riser_changes(old: dict, new: dict) -> list[dict]:
-    """Risers whose zone, geometry or sleeve differ between two revisions ({riser: fields})."""
-    out = []
-    empty = dict.fromkeys(RISER_FIELDS)
-    for riser in sorted(set(old) | set(new)):
-        before, after = old.get(riser, empty), new.get(riser, empty)
-        if before == after:
-            continue
-        zones = sorted({z for z in (before["zone"], after["zone"]) if z})
-        out.append({"riser": riser, "zones": zones, "before": before, "after": after,
-                    "change": riser_change_text(before, after)})
-    return out
-
-
-def riser_change_text(before: dict, after: dict, system: str = units.METRIC) -> str:
-    """What changed between two states of one riser (RISER_FIELDS each, metric),
-    sizes worded in ``system``: "diameter 120 → 140 mm", "diameter 4.72 → 5.51 in"."""
-    if before["zone"] is None:
-        return "added"
-    if after["zone"] is None:
-        return "removed"
-
-    def size(f, v):
-        if system != units.US or v is None or not f.endswith("_mm"):
-            return _fmt(v)
-        return units.number(f, v, system)
-
-    return ", ".join(f"{f.removesuffix('_mm')} {size(f, before[f])} → {size(f, after[f])}"
-                     + (f" {units.symbol(f, system)}" if f.endswith("_mm") else "")
-                     for f in ("diameter_mm", "height_mm", "neck_diameter_mm", "sleeve", "placement", "top", "zone")
-                     if before[f] != after[f])
-
+# --- units ---------------------------------------------------------------------------------
 
 def in_system(review: dict, system: str) -> dict:
     """The review (as ``weekly_review`` gives it) with every figure that has a unit
@@ -504,146 +455,6 @@ def in_system(review: dict, system: str) -> dict:
                     for k, v in review.get("units", {}).items()}
     out["unit_system"] = system
     return out
-
-
-def _candidates(store: Store, mondays: list[dt.date], weeks: int) -> dict | None:
-    """The riser revisions the review of the weeks ``mondays`` judges, with their spans."""
-    first, review_end = _iso(mondays[0]), _iso(mondays[-1] + dt.timedelta(days=6))
-    # every revision up to the review week: one still without a verdict stays under
-    # judgement however long ago it took effect (the revisions table is small)
-    revs = store.revision_steps(EARLIEST_DAY, review_end, columns=True)
-    keep = [i for i, (eff, prev, nxt) in enumerate(zip(revs["effective_from"], revs["previous"], revs["next_from"], strict=False))
-            if first <= eff <= review_end or (eff < first and prev is not None and (nxt is None or nxt > first))]
-    if not keep:
-        return None
-    cand = {c: [v[i] for i in keep] for c, v in revs.items()}
-    cand["in_window"] = [eff >= first for eff in cand["effective_from"]]
-    cand["before_start"] = [eff if prev is None else max(prev_from, _iso(dt.date.fromisoformat(eff)
-                                                                         - dt.timedelta(weeks=weeks)))
-                            for eff, prev, prev_from in zip(cand["effective_from"], cand["previous"],
-                                                            cand["previous_from"], strict=False)]
-    cand["before_end"] = [_day_before(e) for e in cand["effective_from"]]
-    cand["after_end"] = [review_end if nf is None else min(review_end, _day_before(nf))
-                         for nf in cand["next_from"]]
-    return cand
-
-
-def _changed(store: Store, cand: dict) -> tuple[list[list[str]], list[list[dict]]]:
-    """Per candidate, the zones of its changed risers and the changes (from the risers
-    of the candidates' patterns, a handful of rows each)."""
-    designs: dict[tuple, dict] = {}
-    for pattern, revision, riser, *fields in store.riser_designs(sorted(set(cand["pattern"]))):
-        designs.setdefault((pattern, revision), {})[riser] = dict(zip(RISER_FIELDS, fields, strict=False))
-    changes = [_riser_changes(designs.get((c, prev), {}), designs.get((c, rv), {})) if prev else []
-               for c, rv, prev in zip(cand["pattern"], cand["revision"], cand["previous"], strict=False)]
-    return [sorted({z for ch in chs for z in ch["zones"]}) for chs in changes], changes
-
-
-def _read_totals(store: Store, cand: dict, zones: list[list[str]]) -> dict:
-    """The running totals each candidate's spans are read from.
-
-    Per candidate three edges (``edges``: before_start, effective_from, the day
-    after after_end): before = [before_start, effective_from), after =
-    [effective_from, after_end], each the difference of the pattern's totals at
-    two edges (``totals``, ``Store.totals_before``), however long ago the
-    revision took effect. ``use_zones``: the revision changed risers and
-    shrinkage rejects in its spans name a zone; then the shrinkage rejects of
-    the changed zones at the edges (``zone_totals``, read with the totals for
-    every revision that changed risers, used for those only). ``probes`` and
-    ``zone_probes`` list what was read.
-    """
-    day_after: dict[str, str] = {}
-    for e in cand["after_end"]:
-        if e not in day_after:
-            day_after[e] = _iso(dt.date.fromisoformat(e) + dt.timedelta(days=1))
-    edges = [(bs, eff, day_after[ae])
-             for bs, eff, ae in zip(cand["before_start"], cand["effective_from"], cand["after_end"], strict=False)]
-    probes = [(c, d) for c, e in zip(cand["pattern"], edges, strict=False) for d in e]
-    # the changed zones of every revision, read with the totals (one statement) though
-    # only those whose spans hold zoned shrinkage rejects are used
-    zone_probes = [(c, z, d) for c, zs, e in zip(cand["pattern"], zones, edges, strict=False) for z in zs for d in e]
-    totals, zone_totals = store.totals_and_zones_before(probes, zone_probes)
-    zoned = Store.TOTALS.index("zoned_shrinkage")
-    use_zones = [bool(zs) and totals[(c, e[2])][zoned] - totals[(c, e[0])][zoned] > 0
-                 for c, zs, e in zip(cand["pattern"], zones, edges, strict=False)]
-    return {"edges": edges, "totals": totals, "use_zones": use_zones,
-            "zone_totals": zone_totals, "probes": probes, "zone_probes": zone_probes}
-
-
-def revision_probes(store: Store, week: str, weeks: int) -> tuple[list, list]:
-    """The rows of ``day_totals`` and ``zone_totals`` the review of ``week`` (``weeks``
-    weeks) reads to judge riser revisions, as the probes of ``Store.totals_before``
-    and ``Store.zone_shrinkage_before``: for the benchmark, which times that read
-    beside the floor (the review itself reads them in :func:`_revisions`)."""
-    monday = stats.week_start(week)
-    cand = _candidates(store, [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)], weeks)
-    if cand is None:
-        return [], []
-    read = _read_totals(store, cand, _changed(store, cand)[0])
-    return read["probes"], read["zone_probes"]
-
-
-def _revisions(store: Store, mondays: list[dt.date], weeks: int, confidence: float) -> list[dict]:
-    cand = _candidates(store, mondays, weeks)
-    if cand is None:
-        return []
-    n = len(cand["pattern"])
-    in_window, before_start, before_end, after_end = (
-        cand["in_window"], cand["before_start"], cand["before_end"], cand["after_end"])
-    zones, changes = _changed(store, cand)
-    read = _read_totals(store, cand, zones)
-    edges, totals, zone_totals = read["edges"], read["totals"], read["zone_totals"]
-    at = {k: j for j, k in enumerate(Store.TOTALS)}
-    basis, sums = [], []
-    for i in range(n):
-        c, (bs, eff, end) = cand["pattern"][i], edges[i]
-        t0, t1, t2 = totals[(c, bs)], totals[(c, eff)], totals[(c, end)]
-        use_zones = read["use_zones"][i]
-        if not zones[i]:
-            basis.append("all zones (no riser changed)")
-        elif use_zones:
-            basis.append("zones of the changed risers")
-        else:
-            basis.append("all zones (no zone recorded on the shrinkage rejects)")
-        if use_zones:
-            s0, s1, s2 = (sum(zone_totals[(c, z, d)] for z in zones[i]) for d in (bs, eff, end))
-        else:
-            s0, s1, s2 = t0[at["shrinkage"]], t1[at["shrinkage"]], t2[at["shrinkage"]]
-        sums.append({side: {"lots": b[at["lots"]] - a[at["lots"]], "poured": b[at["castings"]] - a[at["castings"]],
-                            "inspected": b[at["inspected_castings"]] - a[at["inspected_castings"]],
-                            "rejected": b[at["rejected"]] - a[at["rejected"]], "shrinkage_rejected": sb - sa}
-                     for side, (a, b, sa, sb) in (("before", (t0, t1, s0, s1)),
-                                                  ("after", (t1, t2, s1, s2)))})
-
-    bounds = {"before": (before_start, before_end), "after": (cand["effective_from"], after_end)}
-    judged = stats.compare_rates_many(*zip(*((s["before"]["shrinkage_rejected"], s["before"]["inspected"],
-                                              s["after"]["shrinkage_rejected"], s["after"]["inspected"])
-                                             for s in sums), strict=False), confidence)
-    out = []
-    for i in range(n):
-        part = {}
-        for side, (a, b) in bounds.items():
-            part[side] = {"start": a[i] if side == "after" or cand["previous"][i] is not None else None,
-                          "end": b[i], **sums[i][side]}
-        b, a = part["before"], part["after"]
-        c = judged[i]
-        if not in_window[i] and c["verdict"] != "not_enough_data":
-            continue
-        rb = b["rejected"] / b["inspected"] if b["inspected"] else math.nan
-        ra = a["rejected"] / a["inspected"] if a["inspected"] else math.nan
-        out.append({
-            "pattern": cand["pattern"][i], "revision": cand["revision"][i],
-            "previous_revision": cand["previous"][i],
-            "effective_from": cand["effective_from"][i], "took_effect_in_window": bool(in_window[i]),
-            "changed_risers": [ch["riser"] for ch in changes[i]], "changed_zones": zones[i],
-            "riser_changes": changes[i], "zone_basis": basis[i],
-            "before": b, "after": a,
-            **{k: _finite(c[k]) for k in ("rate_before", "rate_after", "difference", "diff_low", "diff_high",
-                                          "p_value", "power_to_halve")}, "verdict": c["verdict"],
-            "all_defects": {"rate_before": _finite(rb), "rate_after": _finite(ra), "difference": _finite(ra - rb)},
-        })
-    out.sort(key=lambda d: (d["effective_from"], d["pattern"], d["revision"]), reverse=True)
-    return out  # JSON-ready as built: counts, text and riser fields as read; floats through _finite
 
 
 # --- the review ---------------------------------------------------------------------------
@@ -679,7 +490,7 @@ def default_week(store: Store, today: dt.date | str | None = None) -> str:
     """
     today = dt.date.fromisoformat(today) if isinstance(today, str) else (today or dt.date.today())
     this_monday = today - dt.timedelta(days=today.weekday())
-    last = store.last_pour_before(_iso(this_monday))
+    last = store.last_pour_before(iso(this_monday))
     if last is None:
         _, last = store.pour_span()
     return stats.iso_week(last if last else this_monday - dt.timedelta(weeks=1))
@@ -702,7 +513,7 @@ def _fetched(store: Store, monday: dt.date, weeks: int) -> tuple:
     mondays = [monday - dt.timedelta(weeks=weeks - 1 - i) for i in range(weeks)]
     previous = [m - dt.timedelta(weeks=1) for m in mondays]
     fetch_from = previous[0]
-    span = (_iso(fetch_from), _iso(monday + dt.timedelta(days=6)))
+    span = (iso(fetch_from), iso(monday + dt.timedelta(days=6)))
     pour_cols, reject_cols, costs = store.review_days(*span)
     codes = sorted(set(pour_cols["pattern"]))
     index = {c: i for i, c in enumerate(codes)}
@@ -778,47 +589,24 @@ def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WE
     week_end = monday + dt.timedelta(days=6)
     now = _window(mx, rejects, mondays, slice(1, None), target, confidence)
     before = _window(mx, rejects, previous, slice(0, -1), target, confidence, full=False)
-    revisions = _revisions(store, mondays, weeks, confidence)
+    revisions = judge_revisions(store, mondays, weeks, confidence)
 
     t = now["table"]
     patterns = _rows({k: t[k] for k in PATTERN_KEYS + ["pchart"]})
     problems = [p["pattern"] for p in patterns if p["problem"]]
 
-    def defect_table(value: str) -> list[dict]:
-        d = now["defects"]
-        other = "scrap_cost" if value == "rejected" else "rejected"
-        return _pareto_rows(d["defect"], d[value], "defect", value, {other: d[other]})
-
-    pareto = {
-        "patterns_by_cost": _pareto_rows(*_by_code(t, "scrap_cost"), "pattern", "scrap_cost"),
-        "patterns_by_count": _pareto_rows(*_by_code(t, "rejected"), "pattern", "rejected"),
-        "defects_by_cost": defect_table("scrap_cost"),
-        "defects_by_count": defect_table("rejected"),
-    }
-
+    pareto = _pareto(now)
     overall = now["overall"]
-    win = {c: int(t[c].sum()) for c in ("lots", "poured", "inspected", "rejected", "reworked",
-                                         "shrinkage_rejected")}
-    win["scrap_cost"] = float(t["scrap_cost"].sum())
-    win["scrap_weight_kg"] = float(t["scrap_weight_kg"].sum())
-    win["reject_rate"] = float(_rate(win["rejected"], win["inspected"]))
-    win["wilson_low"], win["wilson_high"] = stats.wilson_interval(win["rejected"], win["inspected"],
-                                                                  confidence)
-    totals = {"window": win, "week": {
-        "poured": int(overall["poured"][-1]), "inspected": int(overall["inspected"][-1]),
-        "rejected": int(overall["rejected"][-1]), "reworked": int(overall["reworked"][-1]),
-        "reject_rate": overall["reject_rate"][-1], "wilson_low": overall["wilson_low"][-1],
-        "wilson_high": overall["wilson_high"][-1], "scrap_cost": float(overall["scrap_cost"][-1])}}
+    totals = _totals(t, overall, confidence)
 
     money = currency(store)
-    notes = []
-    if problems:
-        notes = store.reject_notes(_iso(monday), _iso(week_end), problems, NOTES_PER_PATTERN, rows=True)
+    notes = (store.reject_notes(iso(monday), iso(week_end), problems, NOTES_PER_PATTERN, rows=True)
+             if problems else [])
 
-    head = jsonable({
-        "week": week, "week_start": _iso(monday), "week_end": _iso(week_end),
-        "window": {"first_week": now["labels"][0], "last_week": week, "start": _iso(mondays[0]),
-                   "end": _iso(week_end), "weeks": weeks},
+    head = numbers.jsonable(day_only=True, obj={
+        "week": week, "week_start": iso(monday), "week_end": iso(week_end),
+        "window": {"first_week": now["labels"][0], "last_week": week, "start": iso(mondays[0]),
+                   "end": iso(week_end), "weeks": weeks},
         "target": target, "confidence": confidence, "rate_basis": RATE_BASIS,
         "currency": money, "units": {**UNITS, "scrap_cost": money},
         "totals": totals,
@@ -832,6 +620,39 @@ def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WE
         "notes": notes,
         "caution": SAFETY_CAUTION,
     }
+
+
+def _pareto(now: dict) -> dict:
+    """The window's Pareto tables: patterns and defects, by scrap cost and by castings rejected."""
+    t, d = now["table"], now["defects"]
+
+    def defect_table(value: str) -> list[dict]:
+        other = "scrap_cost" if value == "rejected" else "rejected"
+        return _pareto_rows(d["defect"], d[value], "defect", value, {other: d[other]})
+
+    return {
+        "patterns_by_cost": _pareto_rows(*_by_code(t, "scrap_cost"), "pattern", "scrap_cost"),
+        "patterns_by_count": _pareto_rows(*_by_code(t, "rejected"), "pattern", "rejected"),
+        "defects_by_cost": defect_table("scrap_cost"),
+        "defects_by_count": defect_table("rejected"),
+    }
+
+
+def _totals(t: dict, overall: dict, confidence: float) -> dict:
+    """Totals of the window (summed over the pattern table ``t``) and of the review
+    week (the last row of the trend ``overall``): castings, rates (fractions), cost."""
+    win: dict = {c: int(t[c].sum()) for c in ("lots", "poured", "inspected", "rejected", "reworked",
+                                               "shrinkage_rejected")}
+    win["scrap_cost"] = float(t["scrap_cost"].sum())
+    win["scrap_weight_kg"] = float(t["scrap_weight_kg"].sum())
+    win["reject_rate"] = float(rate(win["rejected"], win["inspected"]))
+    win["wilson_low"], win["wilson_high"] = stats.wilson_interval(win["rejected"], win["inspected"], confidence)
+    return {"window": win, "week": {
+        "poured": int(overall["poured"][-1]), "inspected": int(overall["inspected"][-1]),
+        "rejected": int(overall["rejected"][-1]), "reworked": int(overall["reworked"][-1]),
+        "reject_rate": overall["reject_rate"][-1], "wilson_low": overall["wilson_low"][-1],
+        "wilson_high": overall["wilson_high"][-1], "scrap_cost": float(overall["scrap_cost"][-1])}}
+
 
 
 def _by_code(t: dict, value: str) -> tuple[list, np.ndarray]:
@@ -849,14 +670,15 @@ def _changes(now: dict, before: dict, revisions: list[dict], monday: dt.date, we
     prev = {c: (n, r) for c, n, r in zip(b["pattern"].tolist(), b["week_inspected"].tolist(),
                                          b["week_reject_rate"].tolist(), strict=False)}
     moves = []
-    for c, n, r in zip(a["pattern"].tolist(), a["week_inspected"].tolist(), a["week_reject_rate"].tolist(), strict=False):
+    for c, n, r in zip(a["pattern"].tolist(), a["week_inspected"].tolist(), a["week_reject_rate"].tolist(),
+                       strict=False):
         if c in prev and n > 0 and prev[c][0] > 0:
             moves.append({"pattern": c, "previous_week_reject_rate": prev[c][1], "week_reject_rate": r,
                           "change": r - prev[c][1], "previous_week_inspected": prev[c][0], "week_inspected": n})
     moves.sort(key=lambda m: -abs(m["change"]))
     took = [{"pattern": r["pattern"], "revision": r["revision"], "effective_from": r["effective_from"],
              "changed_risers": r["changed_risers"]}
-            for r in revisions if _iso(monday) <= r["effective_from"] <= _iso(week_end)]
+            for r in revisions if iso(monday) <= r["effective_from"] <= iso(week_end)]
     return {
         "previous_week": before["labels"][-1],
         "new_problems": [{"pattern": c, "problem_reasons": list(reasons.get(c, []))} for c in sorted(is_ - was)],
@@ -865,62 +687,3 @@ def _changes(now: dict, before: dict, revisions: list[dict], monday: dt.date, we
         "revisions_took_effect": took,
         "rate_moves": moves[:RATE_MOVES_SHOWN],
     }
-
-
-# --- plants side by side -------------------------------------------------------------------
-
-PLANT_COMPARE_KEYS = [
-    "plant", "patterns", "poured", "inspected", "rejected", "reject_rate", "wilson_low", "wilson_high",
-    "shrinkage_rejected", "shrinkage_rate", "scrap_cost", "week_poured", "week_inspected",
-    "week_rejected", "week_reject_rate", "week_wilson_low", "week_wilson_high", "week_scrap_cost",
-    "problems",
-]
-
-
-def compare_plants(store: Store, alloy: str, week: str | None = None, weeks: int = 13,
-                   target: float = 0.02, *, confidence: float = 0.95) -> dict:
-    """The plants side by side for one alloy: each plant's review (same week and
-    window for all) summed over its patterns of ``alloy``.
-
-    Returns ``alloy``, ``week``, ``window`` (as in :func:`weekly_review`),
-    ``target``, ``confidence``, ``rate_basis``, ``units``, ``plants`` (one dict
-    per plant, keys ``PLANT_COMPARE_KEYS``: rates with Wilson intervals over the
-    window and the review week, scrap cost, problem patterns) and ``caution``.
-    A plant that poured none of the alloy in the window has zeros and None rates.
-    """
-    from tracker.design.alloys import ALLOYS
-    from tracker.errors import UnknownAlloy
-
-    if alloy not in ALLOYS:
-        raise UnknownAlloy(alloy, ALLOYS)
-    plants = store.plants()
-    if not plants:
-        raise BadInput("plant", None, "the log names no plants: give patterns a plant column, or set "
-                                      "`pourback init --plant CODE` before importing them")
-    if week is None:
-        week = default_week(store)
-    rows, head = [], None
-    for plant in plants:
-        r = weekly_review(store, week=week, weeks=weeks, target=target, confidence=confidence, plant=plant)
-        head = head or r
-        mine = [p for p in r["patterns"] if p["alloy"] == alloy]
-        row = {"plant": plant, "patterns": len(mine)}
-        for k in ("poured", "inspected", "rejected", "shrinkage_rejected", "week_poured", "week_inspected",
-                  "week_rejected"):
-            row[k] = int(sum(p[k] or 0 for p in mine))
-        row["scrap_cost"] = float(sum(p["scrap_cost"] or 0.0 for p in mine))
-        row["week_scrap_cost"] = float(sum(p["week_scrap_cost"] or 0.0 for p in mine))
-        row["reject_rate"] = float(_rate(row["rejected"], row["inspected"]))
-        row["wilson_low"], row["wilson_high"] = stats.wilson_interval(row["rejected"], row["inspected"],
-                                                                      confidence)
-        row["shrinkage_rate"] = float(_rate(row["shrinkage_rejected"], row["inspected"]))
-        row["week_reject_rate"] = float(_rate(row["week_rejected"], row["week_inspected"]))
-        row["week_wilson_low"], row["week_wilson_high"] = stats.wilson_interval(
-            row["week_rejected"], row["week_inspected"], confidence)
-        row["problems"] = [p["pattern"] for p in mine if p["problem"]]
-        rows.append({k: row[k] for k in PLANT_COMPARE_KEYS})
-    return jsonable({
-        "alloy": alloy, "week": head["week"], "window": head["window"], "target": head["target"],
-        "confidence": confidence, "rate_basis": head["rate_basis"], "units": head["units"],
-        "plants": rows, "caution": SAFETY_CAUTION,
-    })

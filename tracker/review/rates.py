@@ -1,0 +1,111 @@
+"""One function per rate a page, a command or the report shows of one pattern or
+one zone, with its window and its scope in its arguments and in the words that
+label it, so two places never show two figures under one name.
+
+- :func:`pattern_reject_rate`: a pattern's rejects (all defects, or one) over the
+  castings inspected in a review window: the weekly review's basis
+  (``tracker.review.weekly.RATE_BASIS``).
+- :func:`zone_shrinkage_rate`: a zone's shrinkage rejects over the castings poured
+  in a window: the basis of the design map and of the suggestions' observed rate.
+- :func:`scope_text`: the words that say which figure a rate is ("shrinkage
+  rejects, zone flange-B, last 13 weeks (2026-W35 to 2026-W47), % of castings
+  poured").
+
+Rates are fractions 0..1 (None where nothing was inspected or poured); counts
+are castings. A window is ``weeks`` ISO weeks ending with ``week`` (default: the
+review's default week), or the pour days ``start`` to ``end``.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from typing import cast
+
+import pandas as pd
+
+from tracker import limits
+from tracker.log.store import Store
+from tracker.review import stats
+from tracker.review.weekly import SHRINKAGE, default_week
+
+INSPECTED = "castings inspected"
+POURED = "castings poured"
+
+
+def window(store: Store, week: str | None = None, weeks: int = limits.WEEKS_DEFAULT) -> dict:
+    """The window of ``weeks`` ISO weeks ending with ``week`` (default the review's
+    default week): ``first_week``, ``last_week``, ``start``, ``end`` (ISO days), ``weeks``."""
+    weeks = limits.check_weeks(weeks)
+    week = week or default_week(store)
+    monday = limits.check_review_week(week, stats.week_start(week))
+    first = monday - dt.timedelta(weeks=weeks - 1)
+    return {"first_week": stats.iso_week(first), "last_week": stats.iso_week(monday), "start": first.isoformat(),
+            "end": (monday + dt.timedelta(days=6)).isoformat(), "weeks": weeks}
+
+
+def scope_text(defect: str | None = None, zone: str | None = None, *, weeks: int | None = None,
+               first_week: str | None = None, last_week: str | None = None, start: str | None = None,
+               end: str | None = None, basis: str = INSPECTED, who: str | None = None) -> str:
+    """Which figure a rate is, in words: what is counted (``defect``: None for all
+    rejects), where (``zone``, or ``who``: "each pattern", "pattern P-1017"), over
+    which window (``weeks`` ending with ``last_week``, or the days ``start`` to
+    ``end``) and on which basis (``basis``: castings inspected or poured).
+
+    Example: "shrinkage rejects, zone boss, last 52 weeks (2025-W48 to 2026-W47), % of castings poured".
+    """
+    what = "all rejects" if defect is None else f"{defect} rejects"
+    where = f"zone {zone}" if zone is not None else who
+    when = ""
+    if weeks is not None:
+        when = f"last {weeks} weeks" + (f" ({first_week} to {last_week})" if first_week and last_week else "")
+    elif start and end:
+        when = f"poured {start} to {end}"
+    return ", ".join(p for p in (what, where, when, f"% of {basis}") if p)
+
+
+def _rate(k: int, n: int) -> float | None:
+    return k / n if n else None
+
+
+def pattern_reject_rate(store: Store, pattern: str, defect: str | None = None, *, week: str | None = None,
+                        weeks: int = limits.WEEKS_DEFAULT) -> dict:
+    """``pattern``'s castings rejected (for ``defect``, or all defects) over its
+    castings inspected in the window of ``weeks`` ending with ``week``: the figure
+    the weekly review shows (``reject_rate``, and ``shrinkage_rate`` for the
+    defect "shrinkage"). Returns ``rejected``, ``inspected`` (castings), ``rate``
+    (fraction or None), ``window`` (see :func:`window`) and ``scope`` (:func:`scope_text`)."""
+    store.pattern(pattern)  # NotFound with a hint for an unknown pattern
+    win = window(store, week, weeks)
+    pours = cast(pd.DataFrame, store.pours_by_day(win["start"], win["end"], pattern))
+    rejects = cast(pd.DataFrame, store.rejects_by_day(win["start"], win["end"], pattern))
+    inspected = int(pours["inspected_castings"].sum()) if len(pours) else 0
+    hit = rejects["result"] == "reject"
+    if defect is not None:
+        hit &= rejects["defect"] == defect
+    rejected = int(rejects.loc[hit, "quantity"].sum())
+    return {"pattern": pattern, "defect": defect, "rejected": rejected, "inspected": inspected,
+            "rate": _rate(rejected, inspected), "window": win,
+            "scope": scope_text(defect, weeks=win["weeks"], first_week=win["first_week"],
+                                last_week=win["last_week"], who=f"pattern {pattern}")}
+
+
+def zone_shrinkage_rate(store: Store, pattern: str, zone: str, *, week: str | None = None,
+                        weeks: int | None = limits.WEEKS_DEFAULT, start: str | None = None,
+                        end: str | None = None) -> dict:
+    """Shrinkage rejects logged against ``zone`` of ``pattern`` over the pattern's
+    castings poured in the window (``weeks`` ending with ``week``; or, with
+    ``weeks`` None, the pour days ``start`` to ``end``): the basis of the design
+    map's and the suggestions' observed rate. Returns ``rejected``, ``poured``
+    (castings), ``rate`` (fraction or None), ``window`` and ``scope``."""
+    store.pattern(pattern)
+    win: dict = window(store, week, weeks) if weeks is not None else {"start": start, "end": end, "weeks": None}
+    pours = cast(pd.DataFrame, store.pours_by_day(win["start"], win["end"], pattern))
+    rejects = cast(pd.DataFrame, store.rejects_by_day(win["start"], win["end"], pattern))
+    poured = int(pours["castings"].sum()) if len(pours) else 0
+    hit = (rejects["result"] == "reject") & (rejects["defect"] == SHRINKAGE) & (rejects["zone"] == zone)
+    rejected = int(rejects.loc[hit, "quantity"].sum())
+    return {"pattern": pattern, "zone": zone, "rejected": rejected, "poured": poured,
+            "rate": _rate(rejected, poured), "window": win,
+            "scope": scope_text(SHRINKAGE, zone, weeks=win["weeks"], first_week=win.get("first_week"),
+                                last_week=win.get("last_week"), start=win["start"], end=win["end"],
+                                basis=POURED)}
