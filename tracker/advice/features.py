@@ -233,6 +233,27 @@ def _zoned_rejects(store: Store, lots: dict, group_of_lot: np.ndarray) -> pd.Dat
         shrinkage_rejects=("shrinkage_rejects", "sum"))
 
 
+ZONE_KEYS = ["pattern", "revision", "zone"]
+
+
+def zone_shrinkage_rates(store: Store, start: str | None = None, end: str | None = None, patterns=None, *,
+                         features: pd.DataFrame | None = None) -> pd.DataFrame:
+    """A zone's shrinkage reject rate over the castings poured from ``start`` to
+    ``end`` (ISO days, inclusive; None: no bound), per pattern, revision and zone:
+    the one computation of the figure the design map and the suggestions show.
+    Columns ``pattern``, ``revision``, ``zone``, ``lots``, ``castings`` (poured),
+    ``shrinkage_rejects`` and ``shrinkage_rate`` (a fraction; NaN where nothing
+    was poured). ``features``: the window's :func:`zone_lot_features` when the
+    caller has them already (then ``start``, ``end`` and ``patterns`` are not read)."""
+    f = zone_lot_features(store, start, end, patterns) if features is None else features
+    g = f.groupby(ZONE_KEYS, as_index=False).agg(lots=("lot", "count"), castings=("castings", "sum"),
+                                                 shrinkage_rejects=("shrinkage_rejects", "sum"))
+    castings = g["castings"].to_numpy(np.float64)
+    g["shrinkage_rate"] = np.divide(g["shrinkage_rejects"].to_numpy(np.float64), castings,
+                                    out=np.full(len(g), np.nan), where=castings > 0)
+    return g
+
+
 def design_map(store: Store, start: str | None = None, end: str | None = None, alloy=None,
                pattern=None) -> pd.DataFrame:
     """Per pattern, revision and zone: design point (volume ratio, freezing
@@ -245,14 +266,13 @@ def design_map(store: Store, start: str | None = None, end: str | None = None, a
         return pd.DataFrame(columns=cols)
     if alloy:
         f = f[f["alloy"].isin([alloy] if isinstance(alloy, str) else list(alloy))]
-    g = f.groupby(["pattern", "revision", "zone"], as_index=False).agg(
+    design = f.groupby(ZONE_KEYS, as_index=False).agg(
         riser=("riser", "first"), alloy=("alloy", "first"), volume_ratio=("volume_ratio", "first"),
         freezing_ratio=("freezing_ratio", "first"), modulus_ratio=("modulus_ratio", "first"),
         caine_margin=("caine_margin", "first"), feed_margin=("feed_margin", "first"),
-        passes=("passes", "first"), sleeve_kind=("sleeve_kind", "first"), lots=("lot", "count"),
-        rule_set=("rule_set", "first"), modulus_target=("modulus_target", "first"),
-        castings=("castings", "sum"), shrinkage_rejects=("shrinkage_rejects", "sum"))
-    g["shrinkage_rate"] = g["shrinkage_rejects"] / g["castings"]
+        passes=("passes", "first"), sleeve_kind=("sleeve_kind", "first"),
+        rule_set=("rule_set", "first"), modulus_target=("modulus_target", "first"))
+    g = design.merge(zone_shrinkage_rates(store, features=f), on=ZONE_KEYS)
     lo, hi = wilson_interval(g["shrinkage_rejects"].to_numpy(), g["castings"].to_numpy())
     g["wilson_low"], g["wilson_high"] = lo, hi
     return g[cols]

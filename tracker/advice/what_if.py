@@ -140,7 +140,7 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
     wz = wz[(wz["pattern"] == pattern) & (wz["revision"] == rev) & (wz["zone"] == base["zone"])]
     figures, changed = _what_if_money(designs, k, row, money, model)
     castings = int(wz["castings"].sum())
-    observed = float(wz["shrinkage_rejects"].sum()) / castings if castings else None
+    observed = float(wz["shrinkage_rate"].iat[0]) if castings else None  # zone_shrinkage_rates' figure
     return {
         "pattern": pattern, "revision": rev, "riser": riser, "zone": base["zone"], "alloy": info["alloy"],
         **_margins(base, judge(pd.DataFrame([row])).iloc[0], designs["judged"].loc[k]),

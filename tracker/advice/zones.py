@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from tracker import limits
-from tracker.advice.features import zone_lot_features
+from tracker.advice.features import zone_lot_features, zone_shrinkage_rates
 from tracker.design import rules
 from tracker.design.assess import assess_frame, revision_in_effect
 from tracker.log.store import Store
@@ -64,8 +64,7 @@ def window_statistics(store: Store, patterns: list[str], start: str, end: str, w
     defects = (rej.groupby(["pattern", "defect"])["quantity"].sum().reset_index()
                .sort_values(["pattern", "quantity", "defect"], ascending=[True, False, True]))
     feats = zone_lot_features(store, start, end, patterns, lots=lots, rejects=fetched, risers=risers)
-    zones = feats.groupby(["pattern", "revision", "zone"], as_index=False).agg(
-        castings=("castings", "sum"), shrinkage_rejects=("shrinkage_rejects", "sum"))
+    zones = zone_shrinkage_rates(store, features=feats)
     return {"poured": lots.groupby("pattern")["castings"].sum(), "defects": defects, "zones": zones,
             "weeks_covered": _weeks_covered(store, start, end, weeks)}
 
@@ -132,7 +131,7 @@ def problem_zones(win: dict, designs: dict, target: float) -> pd.DataFrame:
     weakest riser (lowest modulus ratio; the one to change) as ``primary``."""
     cur = designs["current"].rename("revision").reset_index()
     z = win["zones"].merge(cur, on=["pattern", "revision"])
-    z["rate"] = np.where(z["castings"] > 0, z["shrinkage_rejects"] / z["castings"].clip(lower=1), 0.0)
+    z["rate"] = z["shrinkage_rate"].fillna(0.0)  # the figure of zone_shrinkage_rates; 0 where nothing was poured
     z = z[(z["rate"] > target) & (z["shrinkage_rejects"] >= MIN_REJECTS)]
     j = designs["judged"]
     primary = j.groupby(["pattern", "zone"])["modulus_ratio"].idxmin().rename("primary").reset_index()

@@ -3,10 +3,11 @@ one zone, with its window and its scope in its arguments and in the words that
 label it, so two places never show two figures under one name.
 
 - :func:`pattern_reject_rate`: a pattern's rejects (all defects, or one) over the
-  castings inspected in a review window: the weekly review's basis
-  (``tracker.review.weekly.RATE_BASIS``).
-- :func:`zone_shrinkage_rate`: a zone's shrinkage rejects over the castings poured
-  in a window: the basis of the design map and of the suggestions' observed rate.
+  castings inspected in a review window, read from the weekly review itself, so
+  the page that shows one pattern and the review of every pattern cannot differ.
+- A zone's shrinkage rate over the castings poured in a window (the design map's
+  and the suggestions' observed rate) is
+  :func:`tracker.advice.features.zone_shrinkage_rates`, which both call.
 - :func:`scope_text`: the words that say which figure a rate is ("shrinkage
   rejects, zone flange-B, last 13 weeks (2026-W35 to 2026-W47), % of castings
   poured").
@@ -19,14 +20,11 @@ review's default week), or the pour days ``start`` to ``end``.
 from __future__ import annotations
 
 import datetime as dt
-from typing import cast
-
-import pandas as pd
 
 from tracker import limits
 from tracker.log.store import Store
 from tracker.review import stats
-from tracker.review.weekly import SHRINKAGE, default_week
+from tracker.review.weekly import default_week, weekly_review
 
 INSPECTED = "castings inspected"
 POURED = "castings poured"
@@ -63,49 +61,26 @@ def scope_text(defect: str | None = None, zone: str | None = None, *, weeks: int
     return ", ".join(p for p in (what, where, when, f"% of {basis}") if p)
 
 
-def _rate(k: int, n: int) -> float | None:
-    return k / n if n else None
-
-
 def pattern_reject_rate(store: Store, pattern: str, defect: str | None = None, *, week: str | None = None,
                         weeks: int = limits.WEEKS_DEFAULT) -> dict:
     """``pattern``'s castings rejected (for ``defect``, or all defects) over its
-    castings inspected in the window of ``weeks`` ending with ``week``: the figure
-    the weekly review shows (``reject_rate``, and ``shrinkage_rate`` for the
-    defect "shrinkage"). Returns ``rejected``, ``inspected`` (castings), ``rate``
-    (fraction or None), ``window`` (see :func:`window`) and ``scope`` (:func:`scope_text`)."""
+    castings inspected in the window of ``weeks`` ending with ``week``, as the
+    weekly review of that window shows it (its ``reject_rate``; for a defect, the
+    pattern's ``by_defect`` count over the same castings). Returns ``rejected``,
+    ``inspected`` (castings), ``rate`` (fraction or None), ``window`` (see
+    :func:`window`) and ``scope`` (:func:`scope_text`)."""
     store.pattern(pattern)  # NotFound with a hint for an unknown pattern
     win = window(store, week, weeks)
-    pours = cast(pd.DataFrame, store.pours_by_day(win["start"], win["end"], pattern))
-    rejects = cast(pd.DataFrame, store.rejects_by_day(win["start"], win["end"], pattern))
-    inspected = int(pours["inspected_castings"].sum()) if len(pours) else 0
-    hit = rejects["result"] == "reject"
-    if defect is not None:
-        hit &= rejects["defect"] == defect
-    rejected = int(rejects.loc[hit, "quantity"].sum())
+    review = weekly_review(store, win["last_week"], win["weeks"])
+    row = next((p for p in review["patterns"] if p["pattern"] == pattern), None)
+    inspected = int(row["inspected"]) if row else 0
+    if row is None:
+        rejected = 0
+    elif defect is None:
+        rejected = int(row["rejected"])
+    else:
+        rejected = int((row["by_defect"] or {}).get(defect, 0))
     return {"pattern": pattern, "defect": defect, "rejected": rejected, "inspected": inspected,
-            "rate": _rate(rejected, inspected), "window": win,
+            "rate": rejected / inspected if inspected else None, "window": win,
             "scope": scope_text(defect, weeks=win["weeks"], first_week=win["first_week"],
                                 last_week=win["last_week"], who=f"pattern {pattern}")}
-
-
-def zone_shrinkage_rate(store: Store, pattern: str, zone: str, *, week: str | None = None,
-                        weeks: int | None = limits.WEEKS_DEFAULT, start: str | None = None,
-                        end: str | None = None) -> dict:
-    """Shrinkage rejects logged against ``zone`` of ``pattern`` over the pattern's
-    castings poured in the window (``weeks`` ending with ``week``; or, with
-    ``weeks`` None, the pour days ``start`` to ``end``): the basis of the design
-    map's and the suggestions' observed rate. Returns ``rejected``, ``poured``
-    (castings), ``rate`` (fraction or None), ``window`` and ``scope``."""
-    store.pattern(pattern)
-    win: dict = window(store, week, weeks) if weeks is not None else {"start": start, "end": end, "weeks": None}
-    pours = cast(pd.DataFrame, store.pours_by_day(win["start"], win["end"], pattern))
-    rejects = cast(pd.DataFrame, store.rejects_by_day(win["start"], win["end"], pattern))
-    poured = int(pours["castings"].sum()) if len(pours) else 0
-    hit = (rejects["result"] == "reject") & (rejects["defect"] == SHRINKAGE) & (rejects["zone"] == zone)
-    rejected = int(rejects.loc[hit, "quantity"].sum())
-    return {"pattern": pattern, "zone": zone, "rejected": rejected, "poured": poured,
-            "rate": _rate(rejected, poured), "window": win,
-            "scope": scope_text(SHRINKAGE, zone, weeks=win["weeks"], first_week=win.get("first_week"),
-                                last_week=win.get("last_week"), start=win["start"], end=win["end"],
-                                basis=POURED)}

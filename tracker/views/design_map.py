@@ -91,7 +91,7 @@ def filter_design_map(frame: pd.DataFrame, alloy: str | None = None,
 
 def rate_scope(start: str, end: str) -> str:
     """Which figure the map's shrinkage rates are: "shrinkage rejects, each zone, poured
-    START to END, % of castings poured" (:func:`tracker.review.rates.zone_shrinkage_rate`)."""
+    START to END, % of castings poured" (:func:`tracker.advice.features.zone_shrinkage_rates`)."""
     return scope_text("shrinkage", who="each zone", start=start, end=end, basis=POURED)
 
 

@@ -65,7 +65,7 @@ def balance_part(code: str | None = None, system: str = units.METRIC) -> list[st
 def observed_scope(week: str, weeks: int) -> str:
     """Which figure the suggestions' observed rate is: "shrinkage rejects, each problem zone,
     last 13 weeks (2026-W35 to 2026-W47), % of castings poured"
-    (:func:`tracker.review.rates.zone_shrinkage_rate`)."""
+    (:func:`tracker.advice.features.zone_shrinkage_rates`)."""
     first = stats.iso_week(stats.week_start(week) - dt.timedelta(weeks=int(weeks) - 1))
     return scope_text("shrinkage", who="each problem zone", weeks=int(weeks), first_week=first, last_week=week,
                       basis=POURED)
