@@ -158,7 +158,8 @@ def _c_review(db: str, week: str, weeks: int, repeats: int, extras: bool = False
     ``repeats``). ``extras``: also the old single-aggregate baseline and the query plans."""
     from tracker.log.store import Store
     from tracker.review import stats
-    from tracker.review.weekly import revision_probes, weekly_review
+    from tracker.review.revisions import revision_probes
+    from tracker.review.weekly import weekly_review
 
     monday = stats.week_start(week)
     # the span the review reads: its weeks and the week before them (for "what changed")
@@ -246,7 +247,7 @@ def _c_sizing(n: int, seed: int, repeats: int) -> dict:
 
 
 def _c_fit(db: str) -> dict:
-    from tracker.advice.suggest import fit_model
+    from tracker.advice.fitting import fit_model
     from tracker.log.store import Store
 
     with Store(db, create=False) as store:
@@ -256,7 +257,8 @@ def _c_fit(db: str) -> dict:
 
 
 def _c_suggest(db: str, week: str) -> dict:
-    from tracker.advice.suggest import get_model, suggest
+    from tracker.advice.fitting import get_model
+    from tracker.advice.suggest import suggest
     from tracker.log.store import Store
 
     with Store(db, create=False) as store:
@@ -279,7 +281,8 @@ def _c_thermal_solve() -> dict:
 
 
 def _c_thermal_suggestions(db: str, week: str) -> dict:
-    from tracker.advice.suggest import get_model, suggest
+    from tracker.advice.fitting import get_model
+    from tracker.advice.suggest import suggest
     from tracker.log.store import Store
     from tracker.thermal.checks import check_suggestions, solve_case
 

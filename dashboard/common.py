@@ -17,7 +17,7 @@ import streamlit as st
 from dashboard import access
 from dashboard.format import md_escape
 from tracker import limits, units
-from tracker.advice import features
+from tracker.advice import features, fitting, what_if
 from tracker.advice import suggest as advise
 from tracker.cautions import SAFETY_CAUTION
 from tracker.csvsafe import csv_bytes
@@ -67,8 +67,8 @@ def _registry() -> dict:
         "problem_patterns": review.problem_patterns,
         "design_map": features.design_map,
         "suggest": advise.suggest,
-        "model_is_current": advise.model_is_current,
-        "what_if": advise.what_if,
+        "model_is_current": fitting.model_is_current,
+        "what_if": what_if.what_if,
         "pattern_reject_rate": rates.pattern_reject_rate,
         "pattern_thermal": thermal_views.pattern_thermal,
         "what_if_thermal": thermal_views.what_if_view,

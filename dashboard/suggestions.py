@@ -6,7 +6,8 @@ import streamlit as st
 
 from dashboard import access, charts, common, thermal_view
 from tracker import units
-from tracker.advice import suggest as advise
+from tracker.advice import pricing
+from tracker.advice import what_if as what_if_run
 from tracker.design.assess import rule_words
 from tracker.thermal.checks import AUTO_BUDGET_S
 from tracker.views import suggestions as views
@@ -89,7 +90,7 @@ def _diameter_typed(sleeves, row, sleeve_key: str, dia_key: str) -> None:
     present = row["sleeve"] if code == KEEP else code
     kind = sleeves.loc[sleeves["sleeve"] == present, "kind"]
     mm = units.to_metric("diameter_mm", st.session_state[dia_key], common.unit_system())
-    hit = advise.same_kind_sleeve(sleeves, kind.iat[0], mm) if len(kind) else None
+    hit = what_if_run.same_kind_sleeve(sleeves, kind.iat[0], mm) if len(kind) else None
     if hit is not None:
         st.session_state[sleeve_key] = hit["sleeve"]
 
@@ -228,7 +229,7 @@ def main() -> None:
     week, weeks, target = common.review_controls()
     c1, _ = st.columns([1, 3])
     charge = float(c1.number_input("Remelt charge (share of metal price)", min_value=0.0, max_value=1.0,
-                                   value=advise.DEFAULT_REMELT_CHARGE, step=0.05, format="%.2f", key="remelt",
+                                   value=pricing.DEFAULT_REMELT_CHARGE, step=0.05, format="%.2f", key="remelt",
                                    help=f"What is lost on each {common.unit('metal_kg')} poured that does "
                                         "not ship (scrapped "
                                         "castings, extra riser metal): melting, handling, melt loss. "

@@ -7,7 +7,8 @@ import pytest
 from scipy.optimize import brentq
 
 from tests.support import GOOD
-from tracker.advice.suggest import suggest, what_if
+from tracker.advice.suggest import suggest
+from tracker.advice.what_if import what_if
 from tracker.cli import main
 from tracker.demo import story
 from tracker.design import geometry
@@ -263,7 +264,8 @@ def test_choice_has_the_highest_balance_among_passing_candidates(demo_suggestion
 
 
 def test_pays_off_text_names_the_cheapest_passing_change():
-    from tracker.advice.suggest import _choose, _pays_off_text
+    from tracker.advice.suggest import _choose
+    from tracker.advice.wording import pays_off_text as _pays_off_text
 
     # Invented candidates of one zone: A and D reach the target, B passes the
     # rules only, C fails a rule.
@@ -288,7 +290,8 @@ def test_pays_off_text_names_the_cheapest_passing_change():
 
 
 def test_the_reason_says_how_each_choice_was_made():
-    from tracker.advice.suggest import _choose, _how_chosen
+    from tracker.advice.suggest import _choose
+    from tracker.advice.wording import how_chosen as _how_chosen
 
     # Invented candidates: none passes every rule (tier 2), then one passes
     # without reaching the target (tier 1), then no model at all.
@@ -337,7 +340,7 @@ def test_riser_metal_charge_is_the_old_name_of_remelt_charge(tmp_path, mem_store
 
 
 def test_cli_charge_alias_and_labelled_rates(demo_db, session_logs, runner):
-    from tracker.advice.suggest import DEFAULT_REMELT_CHARGE
+    from tracker.advice.pricing import DEFAULT_REMELT_CHARGE
 
     db = session_logs.copy(demo_db)
     a = runner.invoke(main, ["suggest", "--db", str(db), "--json", "--remelt-charge", "0.25"])
@@ -387,7 +390,7 @@ def test_the_stored_model_serves_until_a_newer_pour(tmp_path):
     # The dashboard names the fit before a long step: model_is_current says whether get_model
     # takes the stored model as it is. Stored models carry the newest pour date they saw
     # (tests/data/good: 2026-03-09); a lot poured later makes the stored one out of date.
-    from tracker.advice.suggest import fit_model, get_model, model_is_current
+    from tracker.advice.fitting import fit_model, get_model, model_is_current
     from tracker.log.ingest import import_dir, import_file
     from tracker.log.store import Store
 

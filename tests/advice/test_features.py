@@ -140,8 +140,8 @@ def test_fit_table_is_the_row_level_table_aggregated(log, tmp_path, demo_store):
 def test_fit_model_from_the_table_gives_the_same_model_and_scores(demo_store):
     # Same data, same figures: the stored model's coefficients and the grouped cross-validation
     # (log loss per casting) equal those of the fit on the row-level table, exactly.
+    from tracker.advice.fitting import fit_model
     from tracker.advice.model import ShrinkageRejectModel, cross_validate
-    from tracker.advice.suggest import fit_model
 
     ours = fit_model(demo_store, save=False)
     rows = aggregate_for_fit(zone_lot_features(demo_store))

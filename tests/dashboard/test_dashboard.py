@@ -394,7 +394,7 @@ def test_what_if_with_a_catalogue_sleeve(app_demo_db, monkeypatch):
 
 
 def test_what_if_bigger_riser_and_sleeve_with_money(app_demo_db, monkeypatch):
-    from tracker.advice.suggest import what_if
+    from tracker.advice.what_if import what_if
 
     at = open_page(app_demo_db, "suggestions.py", monkeypatch)
     at.selectbox(key="whatif_riser").set_value(("P-1036", "R2")).run()  # exothermic XS-90 in the demo

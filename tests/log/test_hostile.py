@@ -314,12 +314,12 @@ def test_skip_bad_into_a_folder_it_cannot_write_commits_nothing(db, tmp_path, re
 
 
 def test_skip_bad_on_a_full_disk_commits_nothing(db, tmp_path, monkeypatch):
-    from tracker.log import ingest
+    from tracker.log.ingest.refused import RefusedReport
 
     def full(self, row, columns):
         raise OSError(errno.ENOSPC, "No space left on device", str(self.tmp))
 
-    monkeypatch.setattr(ingest._RefusedReport, "write", full)
+    monkeypatch.setattr(RefusedReport, "write", full)
     _, part, before, run = _skip_bad_import(db, tmp_path)
     res = run()
     assert res.exit_code == 1

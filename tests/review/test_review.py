@@ -528,7 +528,7 @@ def test_revision_probes_are_the_edges_of_the_judged_spans(demo_store):
     # Plumbing: the running totals the benchmark times beside the floor are those of
     # each judged revision's pattern at its spans' edges (before start, change, the
     # day after the after span), and its changed zones' where it is judged by zone.
-    from tracker.review.weekly import revision_probes
+    from tracker.review.revisions import revision_probes
 
     review = weekly_review(demo_store, "2026-W47", weeks=4)
     probes, zone_probes = revision_probes(demo_store, "2026-W47", 4)

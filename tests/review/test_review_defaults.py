@@ -14,7 +14,7 @@ from scipy import stats as sps
 
 from tests.support.review import TODAY, write_log
 from tracker import limits
-from tracker.advice.suggest import review_window
+from tracker.advice.zones import review_window
 from tracker.cli import main
 from tracker.errors import BadInput
 from tracker.log.ingest import import_dir

@@ -36,33 +36,18 @@ import pandas as pd
 
 from tracker import limits, units
 from tracker.advice.candidates import DEFAULT_STEP_MM, zone_candidates
-from tracker.advice.fitting import (
-    fit_model,  # noqa: F401 (kept for callers outside this area until they move)
-    get_model,
-    model_is_current,  # noqa: F401 (kept for callers outside this area until they move)
-)
+from tracker.advice.fitting import get_model
 from tracker.advice.pricing import (
-    DEFAULT_REMELT_CHARGE,  # noqa: F401 (kept for callers outside this area until they move)
     check_remelt_charge,
     money_fields,
     no_change_money,
     pattern_money,
     price_candidates,
 )
-from tracker.advice.what_if import (
-    same_kind_sleeve,  # noqa: F401 (kept for callers outside this area until they move)
-    what_if,  # noqa: F401 (kept for callers outside this area until they move)
-)
 from tracker.advice.wording import (
     comfortable_text,
     pattern_text,
     reason_text,
-)
-from tracker.advice.wording import (
-    how_chosen as _how_chosen,  # noqa: F401 (kept for callers outside this area until they move)
-)
-from tracker.advice.wording import (
-    pays_off_text as _pays_off_text,  # noqa: F401 (kept for callers outside this area until they move)
 )
 from tracker.advice.zones import (
     designs_in_effect,

@@ -159,7 +159,7 @@ def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, units_o
 
         pourback what-if --pattern P-1017 --riser R3 --diameter-mm 130
     """
-    from tracker.advice.suggest import what_if as run
+    from tracker.advice.what_if import what_if as run
 
     with open_store(db_path) as store:
         system = resolve_units(store, units_override)
@@ -241,8 +241,8 @@ def fit_model(alpha, folds, db_path, as_json):
         pourback fit-model
     """
     from tracker.advice.features import fit_table
+    from tracker.advice.fitting import fit_model as fit
     from tracker.advice.model import ShrinkageRejectModel, cross_validate
-    from tracker.advice.suggest import fit_model as fit
 
     with Steps(show_progress(as_json)) as steps, open_store(db_path) as store:
         steps.step("Reading the lots and rejects")

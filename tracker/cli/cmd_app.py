@@ -42,7 +42,7 @@ def streamlit_argv(host: str, port: int, tls: tuple[str, str] | None = None) -> 
             "--client.toolbarMode", "minimal", "--server.enableXsrfProtection", "true",
             "--server.maxUploadSize", str(auth.MAX_UPLOAD_MB),
             # The tables' own CSV download writes cells unguarded: it is off, and the
-            # pages offer downloads through tracker.review.report.csv_bytes instead.
+            # pages offer downloads through tracker.csvsafe.csv_bytes instead.
             "--client.disableDataExport", "true"]
     if tls:
         argv += ["--server.sslCertFile", tls[0], "--server.sslKeyFile", tls[1]]
@@ -198,7 +198,7 @@ def _demo_files(tmp: str) -> tuple[pathlib.Path, bool]:
 
 
 def _fill_demo(store) -> dict:
-    from tracker.advice.suggest import fit_model
+    from tracker.advice.fitting import fit_model
     from tracker.log.ingest import import_dir
 
     with tempfile.TemporaryDirectory(prefix="pourback-demo-") as tmp:

@@ -20,7 +20,7 @@ import json
 
 from tracker import numbers, units
 from tracker.cautions import SAFETY_CAUTION, SAFETY_CAUTION_SHORT
-from tracker.csvsafe import csv_bytes, safe_cell, safe_frame  # noqa: F401 (re-used by the report's callers)
+from tracker.csvsafe import safe_cell
 from tracker.errors import BadInput
 from tracker.review.report_html import render_html, render_plants_html
 from tracker.review.report_parts import (

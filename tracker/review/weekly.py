@@ -62,7 +62,6 @@ from tracker.review import stats
 from tracker.review.revisions import (
     iso,
     judge_revisions,
-    revision_probes,  # noqa: F401 (kept for callers outside this area until they move)
     riser_change_text,
 )
 

@@ -33,11 +33,8 @@ from tracker.log.ingest.driver import CHUNK_ROWS, import_dir, import_file, impor
 from tracker.log.ingest.identity import FileIdentity, file_identity
 from tracker.log.ingest.plant import set_default_plant
 from tracker.log.ingest.record import log_inspection
-from tracker.log.ingest.refused import RefusedReport, write_refused
+from tracker.log.ingest.refused import write_refused
 from tracker.log.ingest.result import MAX_PROBLEMS, ImportResult
-
-# tests/test_hostile.py patches the report's write through this name: the class itself.
-_RefusedReport = RefusedReport  # kept for callers outside this area until they move
 
 __all__ = [
     "CHUNK_ROWS", "COLUMNS", "DEFECTS", "GRADED_CATEGORIES", "KINDS", "MAX_PROBLEMS", "METHODS", "MOULDS",
