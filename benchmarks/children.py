@@ -273,7 +273,7 @@ def _c_suggest(db: str, week: str) -> dict:
 def _c_thermal_solve() -> dict:
     from tracker.thermal import ThermalCase, run
 
-    # the README's worked example: a 155 mm top riser on a 300 x 300 x 50 mm steel plate
+    # the worked example of docs/thermal-check.md: a 155 mm top riser on a 300 x 300 x 50 mm steel plate
     case = ThermalCase("steel", "top", 50.0, 300.0, 300.0, 155.0, 155.0)
     secs, r = _timed(run, case, keep_maps=False)
     return {"ours_s": secs, "cells": r.cells, "grid": list(r.grid), "time_step_s": r.time_step_s,
@@ -330,7 +330,10 @@ def _c_dashboard(db: str, page: str, warm: bool = False) -> dict:
 
         import tracker.advice.suggest  # noqa: F401 (imported before the clock starts)
         import tracker.review.weekly  # noqa: F401 (imported before the clock starts)
-        import tracker.views  # noqa: F401 (imported before the clock starts)
+        import tracker.views.design_map  # noqa: F401 (imported before the clock starts)
+        import tracker.views.pattern_file  # noqa: F401 (imported before the clock starts)
+        import tracker.views.review  # noqa: F401 (imported before the clock starts)
+        import tracker.views.suggestions  # noqa: F401 (imported before the clock starts)
 
     at = AppTest.from_file(page, default_timeout=900)
     first, _ = _timed(at.run)

@@ -204,7 +204,7 @@ def _thermal_measures(ours_db, gen: dict) -> list[dict]:
     th = _in_child(_c_thermal_solve)
     m = measure("thermal_solve", th.pop("ours_s"), None, th.pop("peak_rss_mb"),
                 memory_target=f"peak RSS < {THERMAL_MEMORY_MB:g} MB",
-                note="one thermal solve at the default resolution (README's worked example)", **th)
+                note="one thermal solve at the default resolution (the worked example of docs/thermal-check.md)", **th)
     m["met"] = bool(m["met"] and m["peak_rss_mb"] < THERMAL_MEMORY_MB)
     ts = _in_child(_c_thermal_suggestions, str(ours_db), gen["review_week"])
     return [m, measure("thermal_suggestions", ts.pop("ours_s"), None, ts.pop("peak_rss_mb"),
