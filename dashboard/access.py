@@ -91,7 +91,7 @@ def gate(path: str, url_paths: list[str]) -> bool:
         except SessionExpired as exc:
             st.session_state.clear()
             st.session_state[_NOTE] = str(exc)
-    form = lambda: _sign_in_page(path)  # noqa: E731
+    form = lambda: _sign_in_page(path)  # noqa: E731 (a one-line local helper)
     st.navigation([st.Page(form, title="Sign in", url_path=u, default=i == 0) for i, u in enumerate(url_paths)],
                   position="hidden").run()
     return False

@@ -29,7 +29,7 @@ def main() -> None:
     code = _picked_pattern(opts)
 
     system = common.unit_system()
-    label = lambda metric_label: view_label(metric_label, system)  # noqa: E731
+    label = lambda metric_label: view_label(metric_label, system)  # noqa: E731 (a one-line local helper)
     _summary(code)
 
     st.subheader("Zones")

@@ -25,7 +25,7 @@ PAGES = [
 
 
 @pytest.fixture(scope="module")
-def page(browser, server):  # noqa: F811
+def page(browser, server):
     pg = browser.new_page(viewport={"width": 1400, "height": 900})
     pg.set_default_timeout(60_000)
     yield pg

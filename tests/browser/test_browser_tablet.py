@@ -55,7 +55,7 @@ def sidebar_open(pg) -> bool:
 
 @pytest.mark.parametrize("width", [WIDE, NARROW])
 @pytest.mark.parametrize("path,title,name", PAGES)
-def test_page_at_its_own_address_with_nothing_cut_off(browser, server, path, title, name, width):  # noqa: F811
+def test_page_at_its_own_address_with_nothing_cut_off(browser, server, path, title, name, width):
     pg = visit(browser, server["url"], path, title, width)
     try:
         # its own address, not the app's main page under another name
@@ -75,7 +75,7 @@ def test_page_at_its_own_address_with_nothing_cut_off(browser, server, path, tit
         pg.close()
 
 
-def test_one_reject_from_a_fresh_form_in_8_fields_and_12_clicks(browser, server):  # noqa: F811
+def test_one_reject_from_a_fresh_form_in_8_fields_and_12_clicks(browser, server):
     from tracker.log.store import Store
 
     lot = lot_with_room(server["db"])
@@ -147,7 +147,7 @@ def test_html_report_tables_fit_a_tablet(browser, app_demo_file, tmp_path):
         pg.close()
 
 
-def test_clicking_a_point_on_the_design_map_opens_that_patterns_file(browser, server):  # noqa: F811
+def test_clicking_a_point_on_the_design_map_opens_that_patterns_file(browser, server):
     pg = visit(browser, server["url"], "design-map", "Design map", WIDE)
     try:
         # Vega draws each zone as an SVG mark labelled with its tooltip (pattern, zone, ...)

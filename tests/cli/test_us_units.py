@@ -4,6 +4,7 @@ columns, checked against the metric path and against the `pint` units library
 
 import json
 import math
+import re
 import shutil
 
 import pandas as pd
@@ -287,7 +288,6 @@ def test_a_pour_temperature_in_fahrenheit(tmp_path):
 
 # --- no metric unit label left in --units us output ----------------------------------------
 
-import re  # noqa: E402
 
 # A metric unit as a label, a suffix or an option: mm, cm, cm², cm³, kg, °C, "per kg"
 # (SI brochure, 9th edition, table 2 and 4 spellings; "per kg" is the trade's money per mass).

@@ -259,7 +259,7 @@ def test_thermal_view_in_inches_and_fahrenheit(app_demo_db, monkeypatch):
         for col in ("x0", "x1", "z0", "z1"):
             assert (cells[col] * MM_PER_IN).to_numpy() == pytest.approx(metric_cells[col].to_numpy(), rel=1e-9)
     # °F = °C × 9/5 + 32 (NIST SP 811 B.8, degree Fahrenheit); the caption gives the pouring temperature
-    pour = lambda at, unit: [float(m.group(1)) for c in at.caption  # noqa: E731
+    pour = lambda at, unit: [float(m.group(1)) for c in at.caption  # noqa: E731 (a one-line local helper)
                              for m in [re.search(rf"pouring at (-?\d+) {unit}", _plain(c.value))] if m]
     f, c = pour(us, "°F"), pour(si, "°C")
     assert f and len(f) == len(c)

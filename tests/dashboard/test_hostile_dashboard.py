@@ -41,7 +41,7 @@ def app_file(app_demo_file, tmp_path):
     return str(db)
 
 
-def test_upload_to_a_read_only_log_is_one_message(app_file, monkeypatch, read_only):  # noqa: F811
+def test_upload_to_a_read_only_log_is_one_message(app_file, monkeypatch, read_only):
     app_db = app_file
     lot, _ = _lot_with_room(app_db)
     read_only(app_db)

@@ -174,7 +174,7 @@ def _check_review(store: Store, week: str, weeks: int):
     monday = stats.week_start(week)
     first = (monday - dt.timedelta(weeks=weeks - 1)).isoformat()
     end = (monday + dt.timedelta(days=6)).isoformat()
-    day = lambda iso, n: (dt.date.fromisoformat(iso) + dt.timedelta(days=n)).isoformat()  # noqa: E731
+    day = lambda iso, n: (dt.date.fromisoformat(iso) + dt.timedelta(days=n)).isoformat()  # noqa: E731 (a one-line local helper)
     revs = store.revisions_frame()
     shown = {(r["pattern"], r["revision"]): r for r in review["revisions"]}
     expected = set()

@@ -165,7 +165,7 @@ def sleeve_options(store: Store, system: str = units.METRIC) -> pd.DataFrame:
     if s.empty:
         return pd.DataFrame(columns=["sleeve", "kind", "inner_diameter_mm", "label"])
     s = s.sort_values(["inner_diameter_mm", "height_mm", "kind", "sleeve"], kind="stable")
-    size = lambda v: length_text(v, system)  # noqa: E731
+    size = lambda v: length_text(v, system)  # noqa: E731 (a one-line local helper)
     s["label"] = (s["sleeve"] + " · " + s["kind"] + " · " + s["inner_diameter_mm"].map(size)
                   + " x " + s["height_mm"].map(size) + f" {units.symbol('height_mm', system)} · factor "
                   + s["modulus_factor"].map(lambda v: f"{v:g}"))

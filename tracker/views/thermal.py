@@ -61,7 +61,7 @@ def summary(result: ThermalResult, system: str = units.METRIC) -> dict:
     ``x_label`` and ``z_label`` (axis titles)."""
     d = result.to_dict()
     u = units.symbol("length_mm", system)
-    ny = lambda v: None if v is None else float(units.value_in("niyama", v, system))  # noqa: E731
+    ny = lambda v: None if v is None else float(units.value_in("niyama", v, system))  # noqa: E731 (a one-line local helper)
     d.update(reasons=reasons_text(result, system),
              grid=result.grid, cell_mm=result.cell_mm, time_step_s=result.time_step_s,
              steps=result.steps, pour_temp_c=result.pour_temp_c, last_point_mm=result.last_point_mm,
