@@ -4,6 +4,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from tests.support import GOOD
 from tracker.cli import main
 from tracker.design.assess import assess_frame
 from tracker.design.sizing import size_riser
@@ -61,7 +62,7 @@ def test_check_cli_json(tmp_path, runner):
 
     db = tmp_path / "x.db"
     with Store(db) as s:
-        import_dir(s, __import__("conftest").GOOD)
+        import_dir(s, GOOD)
     res = runner.invoke(main, ["check", "--db", str(db), "--on", "2026-06-01", "--json"])
     assert res.exit_code == 0, res.output
     rows = json.loads(res.output)
