@@ -237,6 +237,12 @@ class StoreCore:
         cols = [d[0] for d in cur.description]
         return pd.DataFrame.from_records(cur.fetchall(), columns=cols)
 
+    def _row(self, sql: str, params: Iterable = ()) -> dict | None:
+        """A query's first row as {column: value}; None where it returns none."""
+        cur = self.conn.execute(sql, tuple(params))
+        row = cur.fetchone()
+        return None if row is None else dict(zip([d[0] for d in cur.description], row, strict=True))
+
     def _columns(self, sql: str, params: Iterable = ()) -> dict[str, tuple]:
         """A query's result column by column ({name: tuple of values}), no DataFrame:
         for the review, where building frames costs more than the query."""

@@ -30,23 +30,21 @@ class Designs(StoreCore):
         return {(r[0], r[1]): r[2] for r in self.conn.execute(q, params)}
 
     def pattern(self, code: str) -> dict:
-        cur = self.conn.execute("SELECT * FROM patterns WHERE pattern = ?", (code,))
-        row = cur.fetchone()
+        row = self._row("SELECT * FROM patterns WHERE pattern = ?", (code,))
         if row is None:
             raise NotFound("pattern", code, "see `pourback patterns` for the patterns in the log")
-        return dict(zip([d[0] for d in cur.description], row, strict=False))
+        return row
 
     def zone(self, pattern: str, zone: str) -> dict:
         """One zone with its pattern's alloy and mould (raises NotFound naming the zones)."""
         self.pattern(pattern)
-        cur = self.conn.execute("SELECT z.*, p.alloy, p.mould FROM zones z JOIN patterns p "
-                                "ON p.pattern = z.pattern WHERE z.pattern = ? AND z.zone = ?", (pattern, zone))
-        row = cur.fetchone()
+        row = self._row("SELECT z.*, p.alloy, p.mould FROM zones z JOIN patterns p "
+                        "ON p.pattern = z.pattern WHERE z.pattern = ? AND z.zone = ?", (pattern, zone))
         if row is None:
             names = [r[0] for r in self.conn.execute(
                 "SELECT zone FROM zones WHERE pattern = ? ORDER BY zone", (pattern,))]
             raise NotFound("zone", zone, f"pattern {pattern} has the zones {', '.join(names) or '(none)'}")
-        return dict(zip([d[0] for d in cur.description], row, strict=False))
+        return row
 
     def zones_frame(self, pattern: str) -> pd.DataFrame:
         """The zones of one pattern, as stored, by zone code."""
@@ -55,13 +53,12 @@ class Designs(StoreCore):
 
     def sleeve(self, code: str) -> dict:
         """One sleeve of the catalogue (raises NotFound naming the catalogue)."""
-        cur = self.conn.execute("SELECT * FROM sleeves WHERE sleeve = ?", (code,))
-        row = cur.fetchone()
+        row = self._row("SELECT * FROM sleeves WHERE sleeve = ?", (code,))
         if row is None:
             names = [r[0] for r in self.conn.execute("SELECT sleeve FROM sleeves ORDER BY sleeve")]
             raise NotFound("sleeve", code, "the log's catalogue holds " + (", ".join(names) or "no sleeve; "
                                                                             "import sleeves.csv"))
-        return dict(zip([d[0] for d in cur.description], row, strict=False))
+        return row
 
     def risers_frame(self, pattern: str | None = None, revision: str | None = None) -> pd.DataFrame:
         """Every riser of every revision joined with its zone, sleeve, pattern and alloy."""

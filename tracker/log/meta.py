@@ -35,7 +35,4 @@ class ModelRows(StoreCore):
             return self.last_insert_id()
 
     def latest_model(self) -> dict | None:
-        cur = self.conn.execute("SELECT id, fitted_at, rows, castings, data_until, blob FROM models "
-                                "ORDER BY id DESC LIMIT 1")
-        row = cur.fetchone()
-        return None if row is None else dict(zip([d[0] for d in cur.description], row, strict=False))
+        return self._row("SELECT id, fitted_at, rows, castings, data_until, blob FROM models ORDER BY id DESC LIMIT 1")

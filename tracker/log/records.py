@@ -44,11 +44,10 @@ class Records(StoreCore):
         return out
 
     def inspection(self, record_id: int) -> dict:
-        cur = self.conn.execute("SELECT * FROM inspections WHERE id = ?", (record_id,))
-        row = cur.fetchone()
+        row = self._row("SELECT * FROM inspections WHERE id = ?", (record_id,))
         if row is None:
             raise NotFound("inspection record", record_id, "see `pourback history` for record ids")
-        return dict(zip([d[0] for d in cur.description], row, strict=False))
+        return row
 
     def superseded_by(self, record_id: int) -> int | None:
         r = self.conn.execute("SELECT id FROM inspections WHERE supersedes = ?", (record_id,)).fetchone()
