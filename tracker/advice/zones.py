@@ -16,13 +16,11 @@ import datetime as dt
 import numpy as np
 import pandas as pd
 
-from tracker import limits
 from tracker.advice.features import zone_lot_features, zone_shrinkage_rates
 from tracker.design import rules
 from tracker.design.assess import assess_frame, revision_in_effect
 from tracker.log.store import Store
-from tracker.review.stats import week_start
-from tracker.review.weekly import default_week
+from tracker.review import rates
 
 MIN_REJECTS = 3
 # "With margin": the riser clears each rule by this much (common practice: a
@@ -31,12 +29,10 @@ COMFORT = {"modulus_ratio": 1.05, "caine_margin": 0.05, "feed_margin": 0.10}
 
 
 def review_window(store: Store, week: str | None, weeks: int) -> tuple[str, dt.date, dt.date]:
-    """(ISO week, first day, last day) of a window of ``weeks`` ending with ``week``."""
-    weeks = limits.check_weeks(weeks)
-    if week is None:
-        week = default_week(store)
-    monday = limits.check_review_week(week, week_start(week))
-    return week, monday - dt.timedelta(weeks=int(weeks) - 1), monday + dt.timedelta(days=6)
+    """(ISO week, first day, last day) of a window of ``weeks`` ending with ``week``
+    (:func:`tracker.review.rates.window`)."""
+    win = rates.window(store, week, weeks)
+    return win["week"], dt.date.fromisoformat(win["start"]), dt.date.fromisoformat(win["end"])
 
 
 def _weeks_covered(store: Store, start: str, end: str, weeks: int) -> float:

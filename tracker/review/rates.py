@@ -32,13 +32,15 @@ POURED = "castings poured"
 
 def window(store: Store, week: str | None = None, weeks: int = limits.WEEKS_DEFAULT) -> dict:
     """The window of ``weeks`` ISO weeks ending with ``week`` (default the review's
-    default week): ``first_week``, ``last_week``, ``start``, ``end`` (ISO days), ``weeks``."""
+    default week): ``week`` (as given, or the default), ``first_week``, ``last_week``,
+    ``start``, ``end`` (ISO days), ``weeks``. The suggestions' window is this one too."""
     weeks = limits.check_weeks(weeks)
-    week = week or default_week(store)
+    if week is None:
+        week = default_week(store)
     monday = limits.check_review_week(week, stats.week_start(week))
     first = monday - dt.timedelta(weeks=weeks - 1)
-    return {"first_week": stats.iso_week(first), "last_week": stats.iso_week(monday), "start": first.isoformat(),
-            "end": (monday + dt.timedelta(days=6)).isoformat(), "weeks": weeks}
+    return {"week": week, "first_week": stats.iso_week(first), "last_week": stats.iso_week(monday),
+            "start": first.isoformat(), "end": (monday + dt.timedelta(days=6)).isoformat(), "weeks": weeks}
 
 
 def scope_text(defect: str | None = None, zone: str | None = None, *, weeks: int | None = None,
