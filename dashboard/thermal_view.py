@@ -15,19 +15,23 @@ def show(view: dict, key: str) -> None:
     """Draw one thermal result (``tracker.views.thermal.view``)."""
     s = view["summary"]
     c = st.columns(3)
-    c[0].metric("Thermal check", "pass" if s["thermal_ok"] else "fail")
+    c[0].metric("Thermal check", s["verdict"])
     c[1].metric("Last to freeze", s["last_to_freeze"])
-    c[2].metric("Freezing ratio riser / section", f"{s['freeze_ratio']:.2f}")
-    c = st.columns(3)
-    c[0].metric("Section freezing (min)", f"{s['section_freeze_s'] / 60:.1f}")
+    c[2].metric("Freezing ratio riser / section's own", f"{s['freeze_ratio']:.2f}")
+    c = st.columns(4)
+    c[0].metric("Section's own freezing (min)", f"{s['section_freeze_s'] / 60:.1f}",
+                help="beyond the riser's footprint plus one section thickness")
+    c[3].metric("Junction freezing (min)", f"{s['junction_freeze_s'] / 60:.1f}", help="under and beside the riser")
     c[1].metric("Riser freezing (min)", f"{s['riser_freeze_s'] / 60:.1f}")
-    ny = "-" if s["min_niyama_shown"] is None else f"{s['min_niyama_shown']:.2f}"
+    ny = "-" if s["min_niyama_shown"] is None else f"{s['min_niyama_shown']:.2f}" + (
+        "" if s["niyama_uncertainty_shown"] is None else f" ± {s['niyama_uncertainty_shown']:.2f}")
     limit = s["niyama_threshold_shown"]
     thr = "no threshold" if limit is None else f"threshold {limit:.3g}"
     c[2].metric("Minimum Niyama", ny, help=f"{s['niyama_unit_shown']}; {thr}; "
                                           f"{common.PUBLISHED_FORM} {s['niyama_source']}")
     if s["reasons"]:
-        st.warning(common.md_escape("Fails: " + "; ".join(s["reasons"]) + "."))
+        word = "Fails" if s["verdict"] == "fail" else "Inconclusive (a margin inside the solver's own error)"
+        st.warning(common.md_escape(f"{word}: " + "; ".join(s["reasons"]) + "."))
     # stacked, each at its own width: the maps keep one length scale on both axes
     st.markdown("**Freezing time** (min; + marks the last point to freeze; the narrow box beside a "
                 "sleeved riser is its sleeve)")
@@ -54,7 +58,7 @@ def pattern_section(code: str) -> None:
         return
     views = common.load("pattern_thermal", code, system=common.unit_system(),
                         status=f"Solving the thermal check of each riser of {code} (a few seconds per riser)")
-    labels = [f"{v['riser']} on {v['zone']} ({'pass' if v['summary']['thermal_ok'] else 'fail'})" for v in views]
+    labels = [f"{v['riser']} on {v['zone']} ({v['summary']['verdict']})" for v in views]
     tabs = st.tabs(labels)
     for tab, v in zip(tabs, views, strict=False):
         with tab:

@@ -93,6 +93,16 @@ class NotFound(PourbackError, LookupError):
         super().__init__(msg + (f"; {hint}" if hint else ""))
 
 
+class SolveTooLong(PourbackError):
+    """A thermal solve passed its time bound (it is stopped, nothing is kept)."""
+
+    def __init__(self, limit_s: float, steps: int, expected_steps: int, cells: int):
+        self.limit_s = limit_s
+        super().__init__(f"thermal solve stopped at its time limit of {limit_s:g} s after {steps:,} of about "
+                         f"{expected_steps:,} time steps on {cells:,} cells; check the dimensions, or ask for "
+                         "a coarser grid (--cells-across)")
+
+
 class MissingColumn(PourbackError, ValueError):
     """A feature table lacks columns the shrinkage model needs."""
 

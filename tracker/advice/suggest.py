@@ -253,6 +253,7 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
         "passes_after": bool(choice["full_ok"]), "meets_target": bool(choice["meets_target"]),
         "reason": (reason_text(z, base, now, choice, zone_priced, siblings, ctx["system"])
                    + ctx["thermal_notes"].get(z_id, "")),
-        "thermal_ok": choice.get("thermal_ok"), "last_to_freeze": choice.get("last_to_freeze"),
+        "thermal_ok": choice.get("thermal_ok"), "thermal_verdict": choice.get("thermal_verdict"),
+        "last_to_freeze": choice.get("last_to_freeze"),
         "alternatives": _alternatives(zone_priced, c_id, m),
     }

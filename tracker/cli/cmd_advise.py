@@ -142,7 +142,8 @@ def _format(rows: list[dict], code: str = DEFAULT_CURRENCY, system: str = units.
 @weeks_option
 @remelt_option
 @click.option("--thermal", is_flag=True,
-              help="Add the thermal check of the changed riser (a solidification solve): thermal_ok, last_to_freeze.")
+              help="Add the thermal check of the changed riser (a solidification solve): thermal_ok, "
+                   "thermal_verdict (pass, fail or inconclusive), last_to_freeze.")
 @units_option
 @db_option
 @json_option
@@ -170,7 +171,8 @@ def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, units_o
             from tracker.thermal.checks import what_if_fields
 
             t = what_if_fields(store, r)
-            r.update(thermal_ok=t["thermal_ok"], last_to_freeze=t["last_to_freeze"])
+            r.update(thermal_ok=t["thermal_ok"], thermal_verdict=t["thermal_verdict"],
+                     last_to_freeze=t["last_to_freeze"])
         code = currency(store)
     r = units.convert_record(r, system)
     emit(r, as_json, lambda found: _what_if_text(found, code, system))
@@ -192,7 +194,7 @@ def _what_if_text(r: dict, code: str = DEFAULT_CURRENCY, system: str = units.MET
               f"added metal per mould: {v('added_metal_kg_per_mold'):.2f} "
               f"{units.symbol('added_metal_kg_per_mold', system)}"]
     if "thermal_ok" in r:
-        design.append(f"thermal check: {'pass' if r['thermal_ok'] else 'fail'}, "
+        design.append(f"thermal check: {r['thermal_verdict']}, "
                       f"last to freeze: {r['last_to_freeze']}")
     pays = "yes" if r["pays_off"] else "no" if r["changed"] else "- (no change)"
     also = [x for x in r["changed_risers"] if x != r["riser"]]

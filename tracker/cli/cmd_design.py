@@ -250,7 +250,8 @@ def _size_minimums(d: dict, t: _SizeText) -> list[tuple[str, float | None]]:
 @click.option("--modulus-factor", type=float, default=1.2, show_default=True,
               help="Modulus rule factor: M_riser >= factor x M_section.")
 @click.option("--thermal", is_flag=True,
-              help="Add the thermal check per riser (a solidification solve each): thermal_ok, last_to_freeze.")
+              help="Add the thermal check per riser (a solidification solve each): thermal_ok, thermal_verdict "
+                   "(pass, fail or inconclusive), last_to_freeze.")
 @units_option
 @db_option
 @json_option
@@ -289,7 +290,7 @@ def check(pattern, on_date, modulus_factor, thermal, units_override, db_path, as
         ("sleeve", "sleeve"), ("modulus_ratio", "M ratio"),
         ("caine_margin", "Caine margin"), ("feed_margin", "feed margin"), ("rule_set", "rule set"),
         ("passes", "passes"), ("failed_rules_text", "fails")]
-        + ([("thermal_ok", "thermal ok"), ("last_to_freeze", "last to freeze")] if thermal else [])))
+        + ([("thermal_verdict", "thermal"), ("last_to_freeze", "last to freeze")] if thermal else [])))
     click.echo(f"\n{sum(r['passes'] for r in rows)} of {len(rows)} risers pass every rule "
                f"(modulus factor {modulus_factor:g}).")
     click.echo("\n" + caution_text())

@@ -191,7 +191,10 @@ def format_thermal(r, system: str = units.METRIC) -> str:
 
     us = system == units.US
     ny_value = units.value_in("niyama", r.min_niyama, system) if us else r.min_niyama
-    ny = "-" if r.min_niyama is None else f"{ny_value:.2f} at {_at(r.min_niyama_at_mm, system)}"
+    unc = "" if r.niyama_uncertainty is None else \
+        f" ± {units.value_in('niyama', r.niyama_uncertainty, system) if us else r.niyama_uncertainty:.2f}"
+    ny = "-" if r.min_niyama is None else \
+        f"{ny_value:.2f}{unc} at {_at(r.min_niyama_at_mm, system)} (extrapolated from two grids)"
     thr = ("none (see source)" if r.niyama_threshold is None else
            units.number("niyama", r.niyama_threshold, system) if us else f"{r.niyama_threshold:g}")
     length = units.symbol("length_mm", system)
@@ -204,15 +207,21 @@ def format_thermal(r, system: str = units.METRIC) -> str:
         ("Time step (s)", f"{r.time_step_s:.2f} ({r.steps} steps)"),
         (f"Pouring temperature ({units.symbol('pour_temp_c', system)})",
          f"{units.value_in('pour_temp_c', r.pour_temp_c, system):.0f}"),
-        ("Section freezing time (s)", f"{r.section_freeze_s:,.0f} ({r.section_freeze_s / 60:.1f} min)"),
+        ("Section's own freezing time (s)", f"{r.section_freeze_s:,.0f} ({r.section_freeze_s / 60:.1f} min), "
+                                            "beyond the riser's footprint plus one thickness"),
+        ("Junction freezing time (s)", f"{r.junction_freeze_s:,.0f} ({r.junction_freeze_s / 60:.1f} min), "
+                                       "under and beside the riser"),
         ("Riser freezing time (s)", f"{r.riser_freeze_s:,.0f} ({r.riser_freeze_s / 60:.1f} min)"),
-        ("Freezing ratio riser / section", f"{r.freeze_ratio:.2f}"),
+        ("Freezing ratio riser / section's own", f"{r.freeze_ratio:.2f}"),
+        ("Solver error (two grids, two steps)", "-" if r.solver_error_share is None
+         else f"±{r.solver_error_share:.1%} of each time"),
         ("Last to freeze", f"{r.last_to_freeze} ({_at(r.last_point_mm, system)})"),
         ("Isolated liquid in the section", ("yes" if r.isolated_liquid else "no")
          + (f" ({r.isolated_share:.1%} of its volume at {_at(r.isolated_at_mm, system)})" if r.isolated_share else "")),
         (f"Minimum Niyama {units.symbol('niyama', system) if us else r.niyama_unit}", ny),
         ("Niyama threshold", thr),
-        ("Thermal check", "pass" if r.thermal_ok else "FAIL: " + "; ".join(reasons_text(r, system))),
+        ("Thermal check", "pass" if r.verdict == "pass" else
+         ("FAIL: " if r.verdict == "fail" else "INCONCLUSIVE: ") + "; ".join(reasons_text(r, system))),
         ("Solve time (s)", f"{r.solve_s:.2f}"),
     ]
     w = max(len(k) for k, _ in rows)

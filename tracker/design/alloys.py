@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import asdict, dataclass, replace
 
-from tracker.errors import UnknownAlloy
+from tracker.errors import BadInput, UnknownAlloy
 
 
 @dataclass(frozen=True)
@@ -122,7 +122,7 @@ ALLOYS: dict[str, Alloy] = {
               rule_set="pressure_control", graphitic=True,
               liquid_contraction_per_100k=0.012, liquidus_c=1150.0, default_superheat_k=200.0,
               liquid_source=f"{_SRC_LIQ}; cast irons 1.0-1.2 % per 100 K (upper end taken)"),
-        Alloy("cast_iron_brass", "Cast iron and brass (Caine's combined row)", 0.045, 8.40, 0.14,
+        Alloy("cast_iron_brass", "Brass (Caine's row 'cast iron & brass', used for brass only)", 0.045, 8.40, 0.14,
               CaineConstants(0.04, 0.017, 1.00),
               f"{_SRC_CAINE}; {_SRC_SHRINK} copper-base 4-6 %",
               # density and shrinkage of this row are brass values: judged as a non-graphitic alloy
@@ -142,13 +142,32 @@ ALLOYS: dict[str, Alloy] = {
 }
 
 
+# Other spellings of a family, taken wherever an alloy is named (the imports' aliases too).
+ALIASES = {"aluminium": "aluminum", "aluminium_bronze": "aluminum_bronze", "grey_iron": "gray_iron",
+           "brass": "cast_iron_brass"}
+# Caine's "cast iron & brass" row is brass here: an iron named by it is refused.
+IRON_NAMES = ("cast_iron", "iron")
+IRON_REFUSAL = ("Caine's row 'cast iron & brass' is used for brass only; for an iron give gray_iron "
+                "(Caine's grey cast iron row) or ductile_iron (pressure control)")
+
+
+def alloy_key(key) -> str:
+    """The family key of an alloy as typed (any case, spaces as underscores, aliases
+    such as ``aluminium``); BadInput for an iron named by the brass row."""
+    k = "_".join(str(key).strip().lower().replace("-", " ").split())
+    if k in IRON_NAMES:
+        raise BadInput("alloy", key, IRON_REFUSAL)
+    return ALIASES.get(k, k)
+
+
 def get_alloy(key: str, **overrides) -> Alloy:
-    """The alloy family ``key``, with any field replaced by ``overrides``.
+    """The alloy family ``key`` (``alloy_key``'s spellings), with any field replaced by
+    ``overrides``.
 
     Raises UnknownAlloy naming the known keys.
     """
     try:
-        alloy = ALLOYS[str(key).strip().lower()]
+        alloy = ALLOYS[alloy_key(key)]
     except KeyError:
         raise UnknownAlloy(key, ALLOYS) from None
     overrides = {k: v for k, v in overrides.items() if v is not None}

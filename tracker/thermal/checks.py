@@ -20,7 +20,7 @@ from tracker.thermal.cases import case_from_row, pour_temp_for
 # `suggest` checks its risers thermally by default when all problem zones'
 # solves are expected to take at most this long (the issue: "fits in a minute").
 AUTO_BUDGET_S = 60.0
-THERMAL_COLUMNS = ("thermal_ok", "last_to_freeze")
+THERMAL_COLUMNS = ("thermal_ok", "thermal_verdict", "last_to_freeze")
 
 
 @functools.lru_cache(maxsize=128)
@@ -43,7 +43,8 @@ def check_row(row: dict, pour_temp_c: float | None = None, mould: str = "silica_
 
 def fields(result: ThermalResult) -> dict:
     """The few figures that go beside a riser's rule margins."""
-    return {"thermal_ok": bool(result.thermal_ok), "last_to_freeze": result.last_to_freeze,
+    return {"thermal_ok": bool(result.thermal_ok), "thermal_verdict": result.verdict,
+            "last_to_freeze": result.last_to_freeze,
             "freeze_ratio": finite(result.freeze_ratio), "isolated_liquid": bool(result.isolated_liquid),
             "min_niyama": finite(result.min_niyama)}
 
@@ -186,6 +187,7 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
     """
     priced = priced.copy()
     priced["thermal_ok"] = None
+    priced["thermal_verdict"] = None
     priced["last_to_freeze"] = None
     rows = cands.set_index("_cand")
     pours: dict = {}
@@ -209,6 +211,7 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
                 pours[key] = pour_temp_for(store, *key)
             r = check_row(row, pours[key])
             priced.at[cand, "thermal_ok"] = bool(r.thermal_ok)
+            priced.at[cand, "thermal_verdict"] = r.verdict
             priced.at[cand, "last_to_freeze"] = r.last_to_freeze
             tries[z] = tries.get(z, 0) + 1
             if r.thermal_ok:

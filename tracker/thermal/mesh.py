@@ -44,12 +44,17 @@ import tracker.thermal.properties as props
 from tracker import units
 from tracker.design import geometry, rules
 from tracker.errors import BadInput
+from tracker.limits import RANGES
 from tracker.thermal.solver import MOULD, NECK, RISER, SECTION, SLEEVE, Grid, PhaseCurve, solve
 
 LONG_PLATE_RATIO = 2.0          # length / width above which a top riser's section is planar
 NECK_LENGTH_SHARE = 0.5         # neck length as a share of its diameter (from memory: short necks)
 DEFAULT_CELLS_ACROSS = 8        # cells across the section's thickness at default resolution
 MAX_CELLS = 12_000              # coarser where a fine grid would hold more cells
+MIN_CELLS_ACROSS = 3            # fewer across the section than this: refused, not coarsened
+BYTES_PER_CELL = 600            # the solve's working arrays per cell (measured, rounded up)
+MAX_STEPS = 3_000               # a longer step where the solve would take more (said in the notes)
+MIN_STEPS_PER_SECTION = 10      # fewer steps within the section's freezing time: refused
 STEPS_PER_SECTION = 100         # time steps within the section's estimated freezing time
 GROWTH = 1.3                    # cell growth into the mould
 
@@ -83,6 +88,20 @@ class ThermalCase:
         return asdict(self)
 
 
+# The lengths of a case and their plausible range (tracker.limits.RANGES, the imports' own),
+# checked before any grid is built: a grid of 1e-300 mm cells or 1e300 mm bodies never starts.
+LENGTH_FIELDS = ("thickness_mm", "length_mm", "width_mm", "diameter_mm", "height_mm", "neck_diameter_mm")
+
+
+def length_rule(name: str, system: str = units.METRIC) -> str:
+    """The words of a length's range check, in ``system``."""
+    lo, hi, _ = RANGES[name]
+    sym = units.symbol(name, system)
+    return (f"must lie between {units.value_in(name, lo, system):,.6g} {sym} and "
+            f"{units.value_in(name, hi, system):,.6g} {sym}, the range the imports take; check the figure "
+            "and its unit")
+
+
 def validate(case: ThermalCase) -> ThermalCase:
     """``case`` where every figure is usable; BadInput naming the option otherwise."""
     geometry.check_placement(case.placement)
@@ -94,6 +113,11 @@ def validate(case: ThermalCase) -> ThermalCase:
         v = getattr(case, name)
         if v is not None and (not math.isfinite(v) or v <= 0):
             raise BadInput(name.replace("_", "-"), v, "must be a length above 0 mm, or left out")
+    for name in LENGTH_FIELDS:
+        v = getattr(case, name)
+        lo, hi, _ = RANGES[name]
+        if v is not None and not lo <= v <= hi:
+            raise BadInput(name.replace("_", "-"), v, length_rule(name))
     if case.length_mm is None and case.volume_cm3 is None:
         raise BadInput("length-mm", None, "give the section's length and width (or the zone's volume)")
     if not (1.0 <= case.sleeve_factor <= 2.0):
@@ -399,14 +423,69 @@ def _layout(case: ThermalCase, kind: str, s: _Sizes, notes: list) -> _Layout:
     return _top_planar_layout(case, s, neck_d)
 
 
-def _cell_size(lay: _Layout, h: float) -> float:
-    """``h`` (mm), made coarser where the model would hold more than MAX_CELLS cells."""
+def _cells_at(lay: _Layout, h: float, margin_z: float) -> int:
+    """Cells of the model at a section cell size of ``h`` mm (the axes' own count)."""
+    xe = _axis(lay.xb, h, lay.x_lo, lay.x_hi)
+    ze = _axis(lay.zb, h, margin_z, margin_z)
+    return (xe.size - 1) * (ze.size - 1)
+
+
+def _estimate_cells(lay: _Layout, h: float, margin: float) -> float:
+    """About how many cells the model holds at cell size ``h`` mm, without building an axis."""
+    graded = math.log(4.0) / math.log(GROWTH) + margin / (4.0 * h)     # cells of one graded margin
     span_x = max(lay.xb) - min(lay.xb)
     span_z = max(lay.zb) - min(lay.zb)
-    est = (span_x / h + 2 * 8) * (span_z / h + 2 * 8)
-    if est > MAX_CELLS:
-        h *= math.sqrt(est / MAX_CELLS)
+    return (span_x / h + 2 * graded) * (span_z / h + 2 * graded)
+
+
+def _cell_size(lay: _Layout, t_sec: float, cells_across: int, margin: float, notes: list) -> float:
+    """The section's cell size, mm: t_sec / ``cells_across``, coarser where the model would
+    hold more than MAX_CELLS cells (said in ``notes``). Refused (BadInput naming the cells and
+    the memory) where even MIN_CELLS_ACROSS cells across the section would exceed it."""
+    h = t_sec / cells_across
+    for _ in range(8):
+        est = _estimate_cells(lay, h, margin)
+        if est <= MAX_CELLS:
+            break
+        h *= math.sqrt(est / MAX_CELLS) * 1.01
+    while _cells_at(lay, h, margin) > MAX_CELLS:
+        h *= 1.05
+    across = t_sec / h
+    if across < MIN_CELLS_ACROSS - 1e-9:
+        need = _estimate_cells(lay, t_sec / MIN_CELLS_ACROSS, margin)
+        span_x = max(lay.xb) - min(lay.xb)
+        span_z = max(lay.zb) - min(lay.zb)
+        raise BadInput("thickness-mm", round(t_sec, 3),
+                       f"a model {span_x:,.0f} mm by {span_z:,.0f} mm with {MIN_CELLS_ACROSS} cells across this "
+                       f"section needs about {need:,.0f} cells (about {need * BYTES_PER_CELL / 1e6:,.0f} MB); "
+                       f"the limit is {MAX_CELLS:,} cells: the section is too thin for the length and riser "
+                       "given; check the dimensions, or model a shorter part of the section")
+    if across < cells_across - 1e-9:
+        notes.append(f"grid coarsened to {h:.2f} mm cells ({across:.1f} across the section instead of "
+                     f"{cells_across}) to stay within {MAX_CELLS:,} cells")
     return h
+
+
+def _time_step(s: _Sizes, steps_per_section: int, notes: list) -> float:
+    """The time step, s: the section's estimated freezing time / ``steps_per_section``, longer
+    where the solve would take more than MAX_STEPS (said in ``notes``); BadInput where that
+    leaves fewer than MIN_STEPS_PER_SECTION steps within the section's freezing time."""
+    dt = s.t_sec_est / steps_per_section
+    span = 1.5 * max(s.t_sec_est, s.t_riser_est)
+    if span / dt <= MAX_STEPS:
+        return dt
+    dt = span / MAX_STEPS
+    per_section = s.t_sec_est / dt
+    if per_section < MIN_STEPS_PER_SECTION:
+        raise BadInput("diameter-mm", None,
+                       f"the riser freezes about {s.t_riser_est / s.t_sec_est:,.0f} times later than the section "
+                       f"(about {s.t_riser_est:,.0f} s against {s.t_sec_est:,.3g} s by Chvorinov's rule); a solve "
+                       f"of both needs over {span / s.t_sec_est * MIN_STEPS_PER_SECTION:,.0f} time steps, the "
+                       f"limit is {MAX_STEPS:,}: check the dimensions (a riser that size does not feed a "
+                       "section that thin)")
+    notes.append(f"time step lengthened to {dt:.3g} s ({per_section:.0f} steps within the section's "
+                 f"estimated freezing time instead of {steps_per_section}) to stay within {MAX_STEPS:,} steps")
+    return dt
 
 
 def _properties(region: np.ndarray, alloy: props.ThermalAlloy, mould_: props.Mould, k_sleeve: float,
@@ -435,13 +514,13 @@ def build(case: ThermalCase, cells_across: int = DEFAULT_CELLS_ACROSS,
     notes: list = []
     s = _sizes(case, kind, alloy, mould_, pour)
     lay = _layout(case, kind, s, notes)
-    h = _cell_size(lay, s.t_sec / cells_across)
+    h = _cell_size(lay, s.t_sec, cells_across, s.margin, notes)
+    dt = _time_step(s, steps_per_section, notes)
     xe = _axis(lay.xb, h, lay.x_lo, lay.x_hi)
     ze = _axis(lay.zb, h, s.margin, s.margin)
     region = _paint(xe, ze, lay.rects)
     k, heat, t_init = _properties(region, alloy, mould_, s.k_sleeve, pour)
     grid = Grid(xe / 1000.0, ze / 1000.0, region, kind == "axisymmetric")
-    dt = s.t_sec_est / steps_per_section
     return Built(grid, k, heat, t_init, PhaseCurve.from_alloy(alloy), alloy, kind, pour, dt,
                  8.0 * max(s.t_sec_est, s.t_riser_est), h, s.t_sec_est, s.t_riser_est, notes)
 

@@ -14,7 +14,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from tracker.design.alloys import ALLOYS
+from tracker.design.alloys import ALLOYS, alloy_key
 from tracker.errors import BadInput, UnknownAlloy
 
 # Niyama's criterion (Niyama, Uchida, Morikawa and Saito, 1982): Ny = G / sqrt(dT/dt)
@@ -106,13 +106,14 @@ THERMAL_ALLOYS: dict[str, ThermalAlloy] = {a.key: a for a in [
     ThermalAlloy("gray_iron", 1200.0, 1150.0, 230e3, 840.0, 40.0, 7000.0, 1400.0,
                  _linear(1200.0, 1150.0), None, _NO_NY,
                  "hypoeutectic grey iron, eutectic near 1150 °C (from memory)"),
+    # near-eutectic: it freezes at its eutectic arrest, spread here over 1,180-1,140 °C (from memory)
     ThermalAlloy("ductile_iron", 1180.0, 1140.0, 230e3, 840.0, 35.0, 7000.0, 1400.0,
                  _linear(1180.0, 1140.0), None, _NO_NY,
                  "near-eutectic ductile iron (from memory)"),
-    # Caine's combined row "cast iron and brass": thermal values of a yellow brass.
+    # Caine's row "cast iron & brass", used here for brass only: thermal values of a yellow brass.
     ThermalAlloy("cast_iron_brass", 930.0, 900.0, 170e3, 440.0, 100.0, 7900.0, 1050.0,
                  _linear(930.0, 900.0), None, _CU_NY,
-                 "yellow brass (from memory); Caine's row is shared with cast iron"),
+                 "yellow brass (from memory); Caine's row 'cast iron & brass', used for brass only"),
     ThermalAlloy("aluminum_bronze", 1045.0, 1035.0, 230e3, 440.0, 60.0, 7300.0, 1180.0,
                  _linear(1045.0, 1035.0), None, _CU_NY,
                  "aluminium bronze, narrow freezing range (from memory)"),
@@ -166,7 +167,7 @@ def sleeve_wall_mm(diameter_mm: float) -> float:
 
 def thermal_alloy(key: str, **overrides) -> ThermalAlloy:
     """The thermal properties of alloy ``key`` (any case), with ``overrides`` (``with_overrides``)."""
-    k = str(key).strip().lower()
+    k = alloy_key(key)
     if k not in THERMAL_ALLOYS:
         raise UnknownAlloy(key, ALLOYS)
     return THERMAL_ALLOYS[k].with_overrides(**overrides) if overrides else THERMAL_ALLOYS[k]

@@ -21,6 +21,7 @@ balance is exact up to the Newton tolerance). Units: SI inside (m, s, K).
 from __future__ import annotations
 
 import functools
+import math
 import time
 from dataclasses import dataclass, field
 
@@ -28,11 +29,16 @@ import numpy as np
 from scipy import ndimage
 from scipy.linalg import lapack
 
+from tracker.errors import SolveTooLong
+
 # region codes of the cells
 MOULD, SLEEVE, SECTION, RISER, NECK, FIXED = 0, 1, 2, 3, 4, 5
 
 NEWTON_TOL_K = 1e-3
 NEWTON_MAX = 12
+# Every solve stops here (wall-clock seconds); a case inside the limits of mesh.build takes
+# well under a second at the default grid on an idle machine.
+TIME_LIMIT_S = 60.0
 
 
 @dataclass
@@ -135,6 +141,8 @@ class SolveOutput:
     newton_max: int
     solve_s: float
     history: list = field(default_factory=list)
+    arrest_time_s: np.ndarray | None = None    # (nz, nx), time each metal cell cooled through arrest_c
+    cut_time_s: float | None = None            # the first time 0.5 % of the section was cut off from the riser
 
 
 def conductances(grid: Grid, k: np.ndarray):
@@ -189,7 +197,7 @@ class _Watch:
     Niyama value, and the largest share of the section cut off from the riser."""
 
     def __init__(self, grid: Grid, vol: np.ndarray, metal: np.ndarray, h: np.ndarray, curve: PhaseCurve,
-                 niyama_share: float, feeding_fraction: float):
+                 niyama_share: float, feeding_fraction: float, arrest_c: float | None = None):
         c, lv = curve.volumetric_heat, curve.volumetric_latent
         self.metal = metal
         self.h_sol = curve.h_solidus
@@ -210,13 +218,27 @@ class _Watch:
         self.iso_share: float = 0.0
         self.iso_time: float | None = None
         self.iso_at: tuple | None = None
+        self.cut_time: float | None = None     # the first time a share of the section was cut off
+        self.cut_min_share = 0.005
+        self.h_arrest = None if arrest_c is None else float(curve.enthalpy(arrest_c))
+        self.arrest_time = None if arrest_c is None else np.where(metal & (h < (self.h_arrest or 0.0)), 0.0,
+                                                                   np.nan)
 
     def update(self, t: float, dt: float, h_prev: np.ndarray, h: np.ndarray, temp_prev: np.ndarray,
                temp: np.ndarray) -> None:
         """Record the step from ``t`` to ``t + dt`` s (enthalpy and temperature before and after)."""
         self._solid(t, dt, h_prev, h)
+        if self.arrest_time is not None:
+            self._crossed(self.arrest_time, self.h_arrest, t, dt, h_prev, h)
         self._niyama(dt, h_prev, h, temp_prev, temp)
         self._isolated(t + dt, h)
+
+    def _crossed(self, times, h_mark, t, dt, h_prev, h):
+        # the time a cell's enthalpy first falls below h_mark, interpolated within the step
+        m = self.metal & np.isnan(times) & (h < h_mark)
+        if m.any():
+            frac = (h_prev[m] - h_mark) / np.maximum(h_prev[m] - h[m], 1e-30)
+            times[m] = t + dt * np.clip(frac, 0.0, 1.0)
 
     def _solid(self, t, dt, h_prev, h):
         # the time a cell crosses the solidus, interpolated within the step
@@ -247,6 +269,8 @@ class _Watch:
         if not cut.any():
             return
         share = float(self.vol[cut].sum()) / self.sec_vol
+        if self.cut_time is None and share >= self.cut_min_share:
+            self.cut_time = t_new
         if share > self.iso_share:
             self.iso_share, self.iso_time = share, t_new
             w = self.vol[cut]
@@ -257,7 +281,8 @@ class _Watch:
 def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
           t_init: np.ndarray, dt: float, t_max: float, *,
           track: bool = True, niyama_share: float = 0.1,
-          feeding_fraction: float = 0.7, record_times=()) -> SolveOutput:
+          feeding_fraction: float = 0.7, record_times=(), time_limit_s: float | None = TIME_LIMIT_S,
+          arrest_c: float | None = None) -> SolveOutput:
     """Run the solve until every metal cell is solid (or ``t_max`` s).
 
     k: conductivity W/(m·K) per cell; heat: rho·c J/(m³·K) per cell (the
@@ -265,6 +290,9 @@ def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
     are those whose region is SECTION, RISER or NECK; FIXED cells keep their
     temperature (a wall held at constant temperature).
     record_times: times (s) at which to keep a copy of the liquid fraction.
+    time_limit_s: wall-clock bound; SolveTooLong past it (None: no bound).
+    arrest_c: a temperature (°C) whose crossing time each metal cell records
+    (``SolveOutput.arrest_time_s``; the eutectic arrest of a cast iron).
     """
     start = time.perf_counter()
     shape = grid.shape
@@ -277,7 +305,7 @@ def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
     h = np.where(metal, curve.enthalpy(t_init), heat * t_init)
     h0 = h.copy()
     temp = np.where(metal, curve.temperature(h), h / heat)
-    watch = _Watch(grid, vol, metal, h, curve, niyama_share, feeding_fraction)
+    watch = _Watch(grid, vol, metal, h, curve, niyama_share, feeding_fraction, arrest_c)
     newton_max = 0
     history: list = []
     rec = sorted(record_times)
@@ -303,8 +331,11 @@ def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
         step += 1
         if not (metal & (h >= watch.h_sol)).any():
             break
+        if time_limit_s is not None and time.perf_counter() - start > time_limit_s:
+            raise SolveTooLong(time_limit_s, step, int(math.ceil(t_max / dt)), int(metal.size))
     return SolveOutput(grid, dt, step, t, watch.solid_time, watch.niyama, temp, h0, h, watch.iso_share,
-                       watch.iso_time, watch.iso_at, newton_max, time.perf_counter() - start, history)
+                       watch.iso_time, watch.iso_at, newton_max, time.perf_counter() - start, history,
+                       watch.arrest_time, watch.cut_time)
 
 
 def _gradient(temp, zc, xc):

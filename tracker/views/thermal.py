@@ -72,6 +72,7 @@ def summary(result: ThermalResult, system: str = units.METRIC) -> dict:
              pour_temp=float(units.to_system("pour_temp_c", result.pour_temp_c, system)),
              temp_unit=units.symbol("pour_temp_c", system),
              min_niyama_shown=ny(result.min_niyama), niyama_threshold_shown=ny(result.niyama_threshold),
+             niyama_uncertainty_shown=ny(result.niyama_uncertainty),
              niyama_unit_shown=units.symbol("niyama", system),
              x_label=f"r ({u}) from the riser's axis" if result.model == "axisymmetric"
              else f"x ({u}) along the section, from its fed end",

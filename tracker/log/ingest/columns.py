@@ -43,6 +43,7 @@ PLANT_CODE = r"[A-Za-z0-9][A-Za-z0-9._-]{0,31}"
 
 # Spelling variants of the trade, written either way: matched to the log's own spelling.
 ALIASES = {"aluminium": "aluminum", "aluminium_bronze": "aluminum_bronze", "grey_iron": "gray_iron",
-           "grey_cast_iron": "gray_iron", "gray_cast_iron": "gray_iron", "cast_steel": "steel",
+           "brass": "cast_iron_brass", "grey_cast_iron": "gray_iron", "gray_cast_iron": "gray_iron",
+           "cast_steel": "steel",
            "nodular_iron": "ductile_iron", "sg_iron": "ductile_iron", "coldshut": "cold_shut",
            "hottear": "hot_tear", "x_ray": "xray", "rt": "xray"}
