@@ -147,6 +147,9 @@ def test_every_command_on_a_read_only_log(runner, launched, tmp_path, name, read
 
 # --- numbers and weeks ------------------------------------------------------------------
 
+THERMAL = ["thermal", "--alloy", "steel", "--placement", "side"]
+
+
 @pytest.mark.parametrize("args, message", [
     (["correct", "99999999999999999999", "--reason", "x", "--void"],
      "Error: Invalid value for 'RECORD_ID': 99999999999999999999 is not in the range 1<=x<=9223372036854775807."),
@@ -162,6 +165,27 @@ def test_every_command_on_a_read_only_log(runner, launched, tmp_path, name, read
      "Error: week: got '9999-W52'; the log holds dates from 1950 to {last} only; give a week in those years"),
     (["suggest", "--week", "0001-W01"],
      "Error: week: got '0001-W01'; the log holds dates from 1950 to {last} only; give a week in those years"),
+    # thermal: every length range-checked before a grid is built (it grew without bound at 1e-300 mm
+    # and ended in a traceback at 1e300 mm)
+    ([*THERMAL, "--length-mm", "1e-300", "--width-mm", "1e-300", "--thickness-mm", "1e-300",
+      "--diameter-mm", "1e-300", "--height-mm", "1e-300"],
+     "Error: --length-mm: got 1e-300; must lie between 0.1 mm and 20,000 mm, the range the imports take; check "
+     "the figure and its unit"),
+    ([*THERMAL, "--length-mm", "300", "--width-mm", "300", "--thickness-mm", "1e300",
+      "--diameter-mm", "1e300", "--height-mm", "1e300"],
+     "Error: --thickness-mm: got 1e+300; must lie between 0.1 mm and 5,000 mm, the range the imports take; "
+     "check the figure and its unit"),
+    ([*THERMAL, "--length-mm", "300", "--width-mm", "300", "--thickness-mm", "50",
+      "--diameter-mm", "100", "--height-mm", "100", "--neck-diameter-mm", "1e-300"],
+     "Error: --neck-diameter-mm: got 1e-300; must lie between 2 mm and 3,000 mm, the range the imports take; "
+     "check the figure and its unit"),
+    # inside every limit, but a model no grid of bounded size resolves: refused with the figures
+    # (it ran past 60 s)
+    ([*THERMAL, "--length-mm", "20000", "--width-mm", "20000", "--thickness-mm", "5",
+      "--diameter-mm", "3000", "--height-mm", "5000"],
+     "Error: thickness-mm: got 5.0; a model 21,500 mm by 5,000 mm with 3 cells across this section needs about "
+     "40,087,842 cells (about 24,053 MB); the limit is 50,000 cells: the section is too thin for the length and "
+     "riser given; check the dimensions, or model a shorter part of the section"),
 ])
 def test_numbers_and_weeks_out_of_range_are_one_line(runner, db, args, message):
     import datetime as dt
@@ -175,6 +199,27 @@ def test_numbers_and_weeks_out_of_range_are_one_line(runner, db, args, message):
     assert res.output.strip().splitlines()[-1].startswith("Error:")
     assert "Traceback" not in res.output
     assert snap(db) == before
+
+
+def test_every_thermal_solve_stops_at_its_time_bound():
+    from tracker.errors import SolveTooLong
+    from tracker.thermal import ThermalCase, run
+
+    case = ThermalCase("steel", "top", 50.0, 300.0, 300.0, 155.0, 155.0)
+    with pytest.raises(SolveTooLong) as err:
+        run(case, time_limit_s=0.0)
+    assert str(err.value).startswith("thermal solve stopped at its time limit of 0 s after 1 of about ")
+    assert str(err.value).endswith("check the dimensions, or ask for a coarser grid (--cells-across)")
+
+
+def test_a_riser_far_too_big_for_its_section_is_refused_before_a_step_is_taken():
+    from tracker.errors import BadInput
+    from tracker.thermal import ThermalCase, run
+
+    # 10,000 time steps would be needed to resolve both: refused with the figures, never a long solve
+    with pytest.raises(BadInput, match=r"the riser freezes about [\d,]+ times later than the section .* the "
+                                       r"limit is 3,000: check the dimensions"):
+        run(ThermalCase("steel", "side", 10.0, 100.0, 100.0, 400.0, 400.0))
 
 
 def test_a_locked_log_is_announced_on_stderr(db, tmp_path):

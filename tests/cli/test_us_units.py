@@ -451,7 +451,7 @@ def test_what_if_takes_inches_and_refuses_mm_in_us(us_log, runner):
 
 
 def test_niyama_in_us_units_against_pint():
-    from tracker.thermal import _reasons
+    from tracker.thermal import _Judged, _reasons
 
     # pint: (delta_degC min)^0.5 / cm -> (delta_degF min)^0.5 / in
     want = U.Quantity(1.0, "delta_degC**0.5 * minute**0.5 / centimeter").to(
@@ -459,6 +459,7 @@ def test_niyama_in_us_units_against_pint():
     assert units.value_in("niyama", 1.0, "us") == pytest.approx(want, rel=1e-12)
     assert units.value_from("niyama", want, "us") == pytest.approx(1.0, rel=1e-12)
     # Niyama et al. (1982) threshold about 1 (°C·min)^0.5/cm (from memory): 3.41 in US units
-    text = _reasons("riser", False, 0.0, 0.5, 1.0, "us")
+    judged = _Judged("modulus_sequence", 0.5, 0.0, False, 0.0, 0.5, None, 1.0)
+    text = _reasons(judged, "us")
     assert text == [f"Niyama {0.5 * want:.2f} below {want:.2f} (°F·min)^0.5/in in the section"]
-    assert _reasons("riser", False, 0.0, 0.5, 1.0) == ["Niyama 0.50 below 1 (°C·min)^0.5/cm in the section"]
+    assert _reasons(judged) == ["Niyama 0.50 below 1 (°C·min)^0.5/cm in the section"]

@@ -22,6 +22,7 @@ from tracker.cli.options import (
 from tracker.cli.output import caution_text, emit
 from tracker.design.alloys import ALLOYS
 from tracker.errors import BadInput
+from tracker.limits import RANGES
 from tracker.log.settings import resolve_units
 
 _EXPLICIT = ("alloy", "length_mm", "width_mm", "thickness_mm", "diameter_mm", "height_mm", "placement")
@@ -49,12 +50,15 @@ _MEASURES = (*_LENGTHS, "pour_temp_c")
               show_default=True, help="Mould material.")
 @click.option("--cells-across", type=click.IntRange(4, 40), default=None,
               help="Cells across the section thickness (default 8; finer is slower).")
+@click.option("--joined-faces", default=None, metavar="FACES",
+              help="Faces of the section joined to the rest of the casting, insulated in the model: any of top, "
+                   "bottom, edges, separated by ';' (with --pattern/--zone: the zone's joined_faces).")
 @units_option
 @db_option
 @json_option
 @handle_errors
-def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould, cells_across, units_override,
-            db_path, as_json, **measures):
+def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould, cells_across, joined_faces,
+            units_override, db_path, as_json, **measures):
     """Solidification solve of one riser and the section it feeds.
 
     A 2-D transient conduction solve with latent heat (enthalpy method):
@@ -84,7 +88,7 @@ def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould
             raise BadInput(opt[k], units.value_in(k, m[k], system),
                            f"must be a length above 0 {units.symbol(k, system)}")
     explicit = {"alloy": alloy, **{k: m[k] for k in _LENGTHS[:-1]}, "placement": placement}
-    given = _Given(explicit, m, sleeve, sleeve_factor, opt, system)
+    given = _Given(explicit, m, sleeve, sleeve_factor, opt, system, joined_faces)
     if pattern is not None or zone is not None:
         case = _case_from_log(db_path, pattern, zone, riser, mould, given)
     else:
@@ -108,6 +112,7 @@ class _Given:
     sleeve_factor: float | None
     opt: dict[str, str]
     system: str
+    joined_faces: str | None = None
 
     def refuse(self, key: str, value: Any, rule: str) -> BadInput:
         """The error for option ``key`` (a measure's metric name or an option's
@@ -126,7 +131,8 @@ def _case_from_log(db_path: str | None, pattern: str | None, zone: str | None, r
         raise BadInput("pattern" if pattern is None else "zone", None,
                        "--pattern and --zone go together; give both")
     extra = [(k, v) for k, v in (*given.explicit.items(), ("neck_diameter_mm", given.m["neck_diameter_mm"]),
-                                 ("sleeve", given.sleeve or None), ("sleeve-factor", given.sleeve_factor))
+                                 ("sleeve", given.sleeve or None), ("sleeve-factor", given.sleeve_factor),
+                                 ("joined-faces", given.joined_faces))
              if v is not None]
     if extra:
         raise given.refuse(*extra[0], "the geometry comes from the log with --pattern/--zone; leave the "
@@ -140,11 +146,15 @@ def _case_from_log(db_path: str | None, pattern: str | None, zone: str | None, r
 
 def _case_from_options(db_path: str | None, riser: str | None, mould: str, given: _Given) -> Any:
     """The case the geometry options describe; every one of them is needed."""
-    from tracker.thermal.mesh import ThermalCase
+    from tracker.thermal.mesh import ThermalCase, length_rule
 
     if riser is not None:
         raise BadInput("riser", riser, "--riser needs --pattern and --zone")
     explicit, m, opt, system = given.explicit, given.m, given.opt, given.system
+    for k in _LENGTHS:      # every length in its range before a grid is built
+        lo, hi, _ = RANGES[k]
+        if m[k] is not None and not lo <= m[k] <= hi:
+            raise BadInput(opt[k], units.value_in(k, m[k], system), length_rule(k, system))
     missing = [k for k in _EXPLICIT if explicit[k] is None]
     if missing:
         raise BadInput(opt.get(missing[0], "--" + missing[0]), None,
@@ -164,7 +174,8 @@ def _case_from_options(db_path: str | None, riser: str | None, mould: str, given
     return ThermalCase(alloy=explicit["alloy"].strip().lower(), placement=explicit["placement"],
                        thickness_mm=m["thickness_mm"], length_mm=m["length_mm"], width_mm=m["width_mm"],
                        diameter_mm=diameter, height_mm=m["height_mm"], neck_diameter_mm=neck,
-                       sleeve_factor=factor, pour_temp_c=m["pour_temp_c"], mould=mould)
+                       sleeve_factor=factor, pour_temp_c=m["pour_temp_c"], mould=mould,
+                       joined_faces=given.joined_faces)
 
 
 def thermal_record(result, system: str) -> dict:

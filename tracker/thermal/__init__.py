@@ -167,12 +167,13 @@ def notes_text(result: ThermalResult, system: str = "metric") -> list[str]:
     return [neck_note(neck, riser, system) if n == metric else n for n in result.notes]
 
 
-def _solve(b, time_limit_s):
+def _solve(b, time_limit_s, isolation: bool = True):
     """Solve built model ``b``; for pressure control, record when each cell starts to freeze
     (a near-eutectic iron's eutectic arrest: the end of its liquid contraction)."""
     arrest = b.alloy.liquidus_c if get_alloy(b.alloy.key).rule_set == "pressure_control" else None
     return solve(b.grid, b.k, b.heat, b.curve, b.t_init, b.dt, b.t_max, niyama_share=NIYAMA_EVAL_SHARE,
-                 feeding_fraction=FEEDING_SOLID_FRACTION, arrest_c=arrest, time_limit_s=time_limit_s)
+                 feeding_fraction=FEEDING_SOLID_FRACTION, arrest_c=arrest, time_limit_s=time_limit_s,
+                 isolation=isolation)
 
 
 def run(case: ThermalCase, cells_across: int | None = None, keep_maps: bool = True,
@@ -189,8 +190,8 @@ def run(case: ThermalCase, cells_across: int | None = None, keep_maps: bool = Tr
     if error_estimate:
         n_c = max(MIN_CELLS_ACROSS, n // 2)
         bc, bl = build(case, n_c, sps), build(case, n_c, max(sps // 2, 1))
-        extra = (bc.cell_mm / b.cell_mm, figures(bc, _solve(bc, time_limit_s), case.thickness_mm),
-                 figures(bl, _solve(bl, time_limit_s), case.thickness_mm))
+        extra = (bc.cell_mm / b.cell_mm, figures(bc, _solve(bc, time_limit_s, False), case.thickness_mm),
+                 figures(bl, _solve(bl, time_limit_s, False), case.thickness_mm))
     return judge(case, b, out, keep_maps, extra)
 
 

@@ -54,8 +54,13 @@ def case_from_row(row: dict, pour_temp_c: float | None = None, mould: str = "sil
         length_mm=length, width_mm=width, diameter_mm=_required(row, "diameter_mm", LENGTH_RULE),
         height_mm=_required(row, "height_mm", LENGTH_RULE), neck_diameter_mm=finite(row.get("neck_diameter_mm")),
         sleeve_factor=finite(row.get("sleeve_factor")) or 1.0, pour_temp_c=pour_temp_c, mould=mould,
-        volume_cm3=vol, area_cm2=area,
+        volume_cm3=vol, area_cm2=area, joined_faces=_joined(row),
         label=f"{row.get('pattern', '')} {row.get('zone', '')} {row.get('riser', '')}".strip())
+
+
+def _joined(row: dict) -> str | None:
+    v = row.get("joined_faces")
+    return v if isinstance(v, str) and v else None
 
 
 def current_risers(store, pattern: str, on: str | None = None) -> pd.DataFrame:

@@ -51,8 +51,9 @@ LONG_PLATE_RATIO = 2.0          # length / width above which a top riser's secti
 NECK_LENGTH_SHARE = 0.5         # neck length as a share of its diameter (from memory: short necks)
 DEFAULT_CELLS_ACROSS = 8        # cells across the section's thickness at default resolution
 MAX_CELLS = 12_000              # coarser where a fine grid would hold more cells
-MIN_CELLS_ACROSS = 3            # fewer across the section than this: refused, not coarsened
-BYTES_PER_CELL = 600            # the solve's working arrays per cell (measured, rounded up)
+MIN_CELLS_ACROSS = 3            # never fewer across the section: more cells instead, up to HARD_MAX_CELLS
+HARD_MAX_CELLS = 50_000         # over this (at MIN_CELLS_ACROSS) a case is refused with the figures
+BYTES_PER_CELL = 600            # model and solve per cell (tracemalloc: 340-360 B at a solve's peak; rounded up)
 MAX_STEPS = 3_000               # a longer step where the solve would take more (said in the notes)
 MIN_STEPS_PER_SECTION = 10      # fewer steps within the section's freezing time: refused
 STEPS_PER_SECTION = 100         # time steps within the section's estimated freezing time
@@ -82,6 +83,7 @@ class ThermalCase:
     volume_cm3: float | None = None
     area_cm2: float | None = None
     label: str = ""
+    joined_faces: str | None = None     # faces joined to the rest of the casting ("bottom;edges"): insulated
 
     def to_dict(self) -> dict:
         """The case as a plain dict (the keys of its fields)."""
@@ -125,6 +127,7 @@ def validate(case: ThermalCase) -> ThermalCase:
                        "a sleeve's modulus extension factor lies between 1.0 (bare sand) and 2.0")
     a = props.thermal_alloy(case.alloy)
     props.mould(case.mould)
+    geometry.joined_faces(case.joined_faces)
     if case.pour_temp_c is not None and not (a.liquidus_c < case.pour_temp_c < a.liquidus_c + 500):
         raise BadInput("pour-temp-c", case.pour_temp_c,
                        f"must lie above the {case.alloy} liquidus {a.liquidus_c:g} °C and within 500 K of it")
@@ -279,7 +282,9 @@ def section_dims(case: ThermalCase, kind: str) -> tuple[float, float]:
     if kind == "axisymmetric":
         plan = case.length_mm * case.width_mm if case.length_mm and case.width_mm else _volume_cm3(case) * 1000.0 / t
         return t, math.sqrt(plan / math.pi)
-    if case.width_mm:
+    if "edges" in (case.joined_faces or ""):
+        t2 = t          # the plate's sides are joined: only its faces cool
+    elif case.width_mm:
         t2 = case.width_mm * t / (case.width_mm + t)
     elif case.volume_cm3 and case.area_cm2:
         t2 = min(t, 20.0 * case.volume_cm3 / case.area_cm2)
@@ -438,7 +443,8 @@ def _estimate_cells(lay: _Layout, h: float, margin: float) -> float:
     return (span_x / h + 2 * graded) * (span_z / h + 2 * graded)
 
 
-def _cell_size(lay: _Layout, t_sec: float, cells_across: int, margin: float, notes: list) -> float:
+def _cell_size(lay: _Layout, t_sec: float, cells_across: int, margin: float, notes: list,
+               thickness_mm: float | None = None) -> float:
     """The section's cell size, mm: t_sec / ``cells_across``, coarser where the model would
     hold more than MAX_CELLS cells (said in ``notes``). Refused (BadInput naming the cells and
     the memory) where even MIN_CELLS_ACROSS cells across the section would exceed it."""
@@ -452,21 +458,27 @@ def _cell_size(lay: _Layout, t_sec: float, cells_across: int, margin: float, not
         h *= 1.05
     across = t_sec / h
     if across < MIN_CELLS_ACROSS - 1e-9:
-        need = _estimate_cells(lay, t_sec / MIN_CELLS_ACROSS, margin)
-        span_x = max(lay.xb) - min(lay.xb)
-        span_z = max(lay.zb) - min(lay.zb)
-        raise BadInput("thickness-mm", round(t_sec, 3),
-                       f"a model {span_x:,.0f} mm by {span_z:,.0f} mm with {MIN_CELLS_ACROSS} cells across this "
-                       f"section needs about {need:,.0f} cells (about {need * BYTES_PER_CELL / 1e6:,.0f} MB); "
-                       f"the limit is {MAX_CELLS:,} cells: the section is too thin for the length and riser "
-                       "given; check the dimensions, or model a shorter part of the section")
+        h = t_sec / MIN_CELLS_ACROSS
+        need = _estimate_cells(lay, h, margin)
+        if need > 2 * HARD_MAX_CELLS or _cells_at(lay, h, margin) > HARD_MAX_CELLS:
+            span_x = max(lay.xb) - min(lay.xb)
+            span_z = max(lay.zb) - min(lay.zb)
+            raise BadInput("thickness-mm", thickness_mm if thickness_mm is not None else round(t_sec, 3),
+                           f"a model {span_x:,.0f} mm by {span_z:,.0f} mm with {MIN_CELLS_ACROSS} cells across "
+                           f"this section needs about {need:,.0f} cells (about "
+                           f"{need * BYTES_PER_CELL / 1e6:,.0f} MB); the limit is {HARD_MAX_CELLS:,} cells: the "
+                           "section is too thin for the length and riser given; check the dimensions, or model "
+                           "a shorter part of the section")
+        notes.append(f"{MIN_CELLS_ACROSS} cells across the section take more than the {MAX_CELLS:,} cells of a "
+                     "default grid: a slower solve")
+        return h
     if across < cells_across - 1e-9:
         notes.append(f"grid coarsened to {h:.2f} mm cells ({across:.1f} across the section instead of "
                      f"{cells_across}) to stay within {MAX_CELLS:,} cells")
     return h
 
 
-def _time_step(s: _Sizes, steps_per_section: int, notes: list) -> float:
+def _time_step(s: _Sizes, steps_per_section: int, notes: list, diameter_mm: float | None = None) -> float:
     """The time step, s: the section's estimated freezing time / ``steps_per_section``, longer
     where the solve would take more than MAX_STEPS (said in ``notes``); BadInput where that
     leaves fewer than MIN_STEPS_PER_SECTION steps within the section's freezing time."""
@@ -477,7 +489,7 @@ def _time_step(s: _Sizes, steps_per_section: int, notes: list) -> float:
     dt = span / MAX_STEPS
     per_section = s.t_sec_est / dt
     if per_section < MIN_STEPS_PER_SECTION:
-        raise BadInput("diameter-mm", None,
+        raise BadInput("diameter-mm", diameter_mm,
                        f"the riser freezes about {s.t_riser_est / s.t_sec_est:,.0f} times later than the section "
                        f"(about {s.t_riser_est:,.0f} s against {s.t_sec_est:,.3g} s by Chvorinov's rule); a solve "
                        f"of both needs over {span / s.t_sec_est * MIN_STEPS_PER_SECTION:,.0f} time steps, the "
@@ -486,6 +498,46 @@ def _time_step(s: _Sizes, steps_per_section: int, notes: list) -> float:
     notes.append(f"time step lengthened to {dt:.3g} s ({per_section:.0f} steps within the section's "
                  f"estimated freezing time instead of {steps_per_section}) to stay within {MAX_STEPS:,} steps")
     return dt
+
+
+INSULATED_K = 1e-4      # W/(m·K): a joined face passes next to no heat (sand's is about 0.6)
+
+
+def _runs(region: np.ndarray, lines, start, step) -> list:
+    """Cells of the contiguous mould run of each line from ``start`` in direction ``step``."""
+    out = []
+    n = region.shape[0] if step[0] else region.shape[1]
+    for line in lines:
+        i = start
+        while 0 <= i < n:
+            cell = (i, line) if step[0] else (line, i)
+            if region[cell] != MOULD:
+                break
+            out.append(cell)
+            i += step[0] or step[1]
+    return out
+
+
+def joined_mask(region: np.ndarray, joined: str | None) -> np.ndarray:
+    """The mould cells against the section's joined faces (``geometry.JOINED_FACES``): the
+    run of mould below its bottom, above its top (where no riser or neck stands) and beyond
+    its far edge."""
+    mask = np.zeros(region.shape, bool)
+    faces = (joined or "").split(";")
+    sec = region == SECTION
+    if not joined or not sec.any():
+        return mask
+    rows, cols = np.nonzero(sec.any(axis=1))[0], np.nonzero(sec.any(axis=0))[0]
+    cells = []
+    if "bottom" in faces:
+        cells += _runs(region, cols, rows.min() - 1, (-1, 0))
+    if "top" in faces:
+        cells += _runs(region, cols, rows.max() + 1, (1, 0))
+    if "edges" in faces:
+        cells += _runs(region, rows, cols.max() + 1, (0, 1))
+    for c in cells:
+        mask[c] = True
+    return mask
 
 
 def _properties(region: np.ndarray, alloy: props.ThermalAlloy, mould_: props.Mould, k_sleeve: float,
@@ -514,15 +566,20 @@ def build(case: ThermalCase, cells_across: int = DEFAULT_CELLS_ACROSS,
     notes: list = []
     s = _sizes(case, kind, alloy, mould_, pour)
     lay = _layout(case, kind, s, notes)
-    h = _cell_size(lay, s.t_sec, cells_across, s.margin, notes)
-    dt = _time_step(s, steps_per_section, notes)
+    h = _cell_size(lay, s.t_sec, cells_across, s.margin, notes, case.thickness_mm)
+    dt = _time_step(s, steps_per_section, notes, case.diameter_mm)
     xe = _axis(lay.xb, h, lay.x_lo, lay.x_hi)
     ze = _axis(lay.zb, h, s.margin, s.margin)
     region = _paint(xe, ze, lay.rects)
     k, heat, t_init = _properties(region, alloy, mould_, s.k_sleeve, pour)
+    joined = geometry.joined_faces(case.joined_faces)
+    if joined:
+        k[joined_mask(region, joined)] = INSULATED_K
+        notes.append(f"faces joined to the rest of the casting ({joined.replace(';', ', ')}) insulated")
     grid = Grid(xe / 1000.0, ze / 1000.0, region, kind == "axisymmetric")
+    # joined faces do not cool: the section may take several times Chvorinov's estimate
     return Built(grid, k, heat, t_init, PhaseCurve.from_alloy(alloy), alloy, kind, pour, dt,
-                 8.0 * max(s.t_sec_est, s.t_riser_est), h, s.t_sec_est, s.t_riser_est, notes)
+                 (32.0 if joined else 8.0) * max(s.t_sec_est, s.t_riser_est), h, s.t_sec_est, s.t_riser_est, notes)
 
 
 __all__ = ["ThermalCase", "Built", "build", "model_kind", "validate"]

@@ -220,6 +220,7 @@ class _Watch:
         self.iso_at: tuple | None = None
         self.cut_time: float | None = None     # the first time a share of the section was cut off
         self.cut_min_share = 0.005
+        self.isolation = True
         self.h_arrest = None if arrest_c is None else float(curve.enthalpy(arrest_c))
         self.arrest_time = None if arrest_c is None else np.where(metal & (h < (self.h_arrest or 0.0)), 0.0,
                                                                    np.nan)
@@ -231,7 +232,8 @@ class _Watch:
         if self.arrest_time is not None:
             self._crossed(self.arrest_time, self.h_arrest, t, dt, h_prev, h)
         self._niyama(dt, h_prev, h, temp_prev, temp)
-        self._isolated(t + dt, h)
+        if self.isolation:
+            self._isolated(t + dt, h)
 
     def _crossed(self, times, h_mark, t, dt, h_prev, h):
         # the time a cell's enthalpy first falls below h_mark, interpolated within the step
@@ -282,7 +284,7 @@ def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
           t_init: np.ndarray, dt: float, t_max: float, *,
           track: bool = True, niyama_share: float = 0.1,
           feeding_fraction: float = 0.7, record_times=(), time_limit_s: float | None = TIME_LIMIT_S,
-          arrest_c: float | None = None) -> SolveOutput:
+          arrest_c: float | None = None, isolation: bool = True) -> SolveOutput:
     """Run the solve until every metal cell is solid (or ``t_max`` s).
 
     k: conductivity W/(m·K) per cell; heat: rho·c J/(m³·K) per cell (the
@@ -293,6 +295,8 @@ def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
     time_limit_s: wall-clock bound; SolveTooLong past it (None: no bound).
     arrest_c: a temperature (°C) whose crossing time each metal cell records
     (``SolveOutput.arrest_time_s``; the eutectic arrest of a cast iron).
+    isolation: track liquid cut off from the riser (a labelling per step; the
+    error-estimate solves leave it out).
     """
     start = time.perf_counter()
     shape = grid.shape
@@ -306,6 +310,7 @@ def solve(grid: Grid, k: np.ndarray, heat: np.ndarray, curve: PhaseCurve,
     h0 = h.copy()
     temp = np.where(metal, curve.temperature(h), h / heat)
     watch = _Watch(grid, vol, metal, h, curve, niyama_share, feeding_fraction, arrest_c)
+    watch.isolation = isolation
     newton_max = 0
     history: list = []
     rec = sorted(record_times)
