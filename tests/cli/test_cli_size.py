@@ -74,3 +74,33 @@ def test_size_pour_temperature_in_us_units_is_refused_in_fahrenheit(runner):
     assert res.exit_code != 0
     # 400 °C = 752 °F and 1,800 °C = 3,272 °F (F = C x 9/5 + 32)
     assert "Error: pour_temp_f: got 5000.0; a pour temperature lies between 752 °F and 3,272 °F" in res.output
+
+
+def test_joined_faces_let_a_zone_exceed_half_its_thickness(runner):
+    pad = ["size", "--alloy", "steel", "--volume-cm3", "2000", "--area-cm2", "600", "--thickness-mm", "50"]
+    # A plate cooling on both faces has V/A <= T/2 (DOMAIN.md, "Geometry and modulus"): 3.33 cm > 2.5 cm
+    res = runner.invoke(main, pad)
+    assert res.exit_code == 1 and "is above half the thickness" in res.output and "--joined-faces" in res.output
+    res = runner.invoke(main, [*pad, "--joined-faces", "bottom;edges", "--json"])
+    assert res.exit_code == 0, res.output
+    d = json.loads(res.output)
+    assert d["section_modulus_cm"] == pytest.approx(2000 / 600)
+    assert any("joined to the rest of the casting: bottom, edges" in n for n in d["notes"])
+
+
+@pytest.mark.parametrize("spelling", ["aluminium", "Aluminium", "aluminum"])
+def test_aluminium_is_accepted_wherever_an_alloy_is_named(runner, spelling):
+    res = runner.invoke(main, ["size", "--alloy", spelling, "--volume-cm3", "2000", "--area-cm2", "1100", "--json"])
+    assert res.exit_code == 0, res.output
+    assert json.loads(res.output)["alloy"] == "aluminum"
+
+
+def test_the_cast_iron_and_brass_caine_row_is_brass_and_refused_for_an_iron(runner):
+    # Caine's table (from memory) has a row "cast iron & brass"; the project uses it for brass.
+    res = runner.invoke(main, ["size", "--alloy", "brass", "--volume-cm3", "2000", "--area-cm2", "1100", "--json"])
+    assert res.exit_code == 0 and json.loads(res.output)["alloy"] == "cast_iron_brass"
+    res = runner.invoke(main, ["size", "--alloy", "cast iron", "--volume-cm3", "2000", "--area-cm2", "1100"])
+    assert res.exit_code == 1
+    assert res.output == ("Error: alloy: got 'cast iron'; Caine's row 'cast iron & brass' is used for brass only; "
+                          "for an iron give gray_iron (Caine's grey cast iron row) or ductile_iron (pressure "
+                          "control)\n")

@@ -38,7 +38,8 @@ NEW = {
                  "casting_weight_kg": "5", "castings_per_mold": "1", "metal_cost_per_kg": "1.8",
                  "processing_cost_per_casting": "10", "mould": ""},
     "zones": {"pattern": "T-100", "zone": "neck", "volume_cm3": "500", "cooling_area_cm2": "400",
-              "thickness_mm": "30", "length_mm": "60", "required_xray_level": "2", "width_mm": ""},
+              "thickness_mm": "30", "length_mm": "60", "required_xray_level": "2", "width_mm": "",
+              "joined_faces": ""},
     "sleeves": {"sleeve": "EXO-150", "kind": "exothermic", "inner_diameter_mm": "150",
                 "height_mm": "160", "modulus_factor": "1.4", "feeding_efficiency": "0.4",
                 "unit_cost": "7"},
@@ -150,7 +151,11 @@ ROW_CASES = [
     # A plate of thickness T cooling on both faces has V/A = T/2 (geometry): 500/10 = 50 cm > 1.5 cm.
     ("zone-modulus-above-half-thickness", "zones", {"cooling_area_cm2": "10"}, "cooling_area_cm2",
      "got '10'; the modulus V/A = 50.00 cm is above half the thickness (1.50 cm), more than a plate "
-     "of that thickness cooling on both faces can have; check the units (cm², cm³, mm)"),
+     "of that thickness cooling on both faces can have; check the units (cm², cm³, mm), or name the faces "
+     "joined to the rest of the casting in joined_faces"),
+    ("zone-joined-faces-unknown", "zones", {"joined_faces": "bottom;inside"}, "joined_faces",
+     "got 'bottom;inside'; joined_faces lists the faces joined to the rest of the casting: any of top, "
+     "bottom, edges, separated by ';' (for example bottom;edges)"),
     ("zone-width-negative", "zones", {"width_mm": "-5"}, "width_mm",
      "got '-5'; width_mm must be a number of at least 0.1 and at most 20,000 mm"),
     ("zone-level-six", "zones", {"required_xray_level": "6"}, "required_xray_level",
@@ -317,6 +322,19 @@ def test_bad_row_is_refused_with_row_column_reason(refusing_store, tmp_path, cas
     msg = refuse(refusing_store, tmp_path, kind, new_file(kind, edit))
     assert f"{kind}.csv: refused, nothing written (1 bad row(s)):" in msg
     assert f"{kind}.csv, row 2, column {column}: {reason}" in msg.splitlines()
+
+
+def test_a_zone_with_joined_faces_may_exceed_half_its_thickness(store, tmp_path):
+    # The pad, 200 x 200 x 50 mm joined on its bottom and two edges: V 2,000 cm³,
+    # cooling area 600 cm² (the top 400 cm² and two edges of 100 cm²), V/A 3.33 cm > T/2 =
+    # 2.5 cm: right for a body whose faces do not all cool (DOMAIN.md, "Geometry and modulus").
+    pad = {"zone": "pad", "volume_cm3": "2000", "cooling_area_cm2": "600", "thickness_mm": "50"}
+    msg = refuse(store, tmp_path, "zones", new_file("zones", pad))
+    assert "above half the thickness" in msg
+    path = tmp_path / "zones.csv"
+    path.write_text(new_file("zones", {**pad, "joined_faces": "Bottom + edges"}), encoding="utf-8")
+    assert import_file(store, "zones", path, today=TODAY).added == 1
+    assert store.zone("T-100", "pad")["joined_faces"] == "bottom;edges"
 
 
 def test_severity_above_zone_level_cannot_be_accepted(refusing_store, tmp_path):

@@ -63,12 +63,16 @@ SIZE_MEASURES = ("volume_cm3", "area_cm2", "pour_temp_c", "thickness_mm", "width
 @measure_option("length_mm", "Feeding length from the riser to the farthest point it feeds, {unit}.")
 @measure_option("step_mm", "The shop's diameter step, {unit}: the answer is also rounded up to it (default "
                 "with --zone: 10 mm, or 1/2 in with --units us).")
+@click.option("--joined-faces", default=None, metavar="FACES",
+              help="Faces of the section joined to the rest of the casting (they do not cool): any of top, "
+                   "bottom, edges, separated by ';' (default with --zone: the zone's joined_faces). V/A may "
+                   "then exceed T/2.")
 @units_option
 @db_option
 @json_option
 @handle_errors
 def size(alloy, pattern, zone, placement, h_over_d, sleeve_code, sleeve_factor, modulus_factor, efficiency,
-         shrinkage, mould, units_override, db_path, as_json, **measures):
+         shrinkage, mould, joined_faces, units_override, db_path, as_json, **measures):
     """Size the smallest cylindrical riser that meets every rule.
 
     The riser must pass its alloy's rule set: the modulus rule, Caine's curve
@@ -100,7 +104,8 @@ def size(alloy, pattern, zone, placement, h_over_d, sleeve_code, sleeve_factor, 
         opts: dict[str, Any] = dict(
             placement=placement, h_over_d=h_over_d, sleeve_factor=sleeve_factor, modulus_factor=modulus_factor,
             efficiency=efficiency, shrinkage=shrinkage, mould=mould, pour_temp_c=m["pour_temp_c"],
-            thickness_mm=m["thickness_mm"], width_mm=m["width_mm"], length_mm=m["length_mm"], system=system)
+            thickness_mm=m["thickness_mm"], width_mm=m["width_mm"], length_mm=m["length_mm"], system=system,
+            joined_faces=joined_faces)
         if pattern is not None or sleeve_code is not None:
             log = store if store is not None else stack.enter_context(open_store(db_path))  # says there is no log
             if sleeve_code is not None:

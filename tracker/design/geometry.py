@@ -7,6 +7,8 @@ lose heat to the mould; a face joined to other metal does not count.
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 
 from tracker import units
@@ -116,3 +118,26 @@ def joined_faces_warning(volume, cooling_area, system: str = units.METRIC) -> st
             f"{units.show('length_cm', ms, system, 2)}: right only where faces are joined to other metal; "
             f"check the cooling area ({units.symbol('area_cm2', system)}) and volume "
             f"({units.symbol('volume_cm3', system)})")
+
+
+# A zone's faces joined to the rest of the casting (they do not cool): V/A <= T/2 holds only
+# where every face cools, so a zone that names its joined faces may exceed it, and the
+# thermal model insulates those faces. "edges" are the section's sides (the far end of a
+# plate, the rim of a disc).
+JOINED_FACES = ("top", "bottom", "edges")
+
+
+def joined_faces(value) -> str | None:
+    """The joined faces as typed ("bottom; edges", "bottom+edges", any case) in their
+    canonical form ("bottom;edges"), or None where none is given; BadInput naming the
+    faces otherwise."""
+    if value is None or (isinstance(value, float) and value != value):
+        return None
+    parts = [p for p in re.split(r"[;+,\s]+", str(value).strip().lower()) if p]
+    if not parts:
+        return None
+    bad = [p for p in parts if p not in JOINED_FACES]
+    if bad:
+        raise BadInput("joined_faces", value, "list the faces joined to the rest of the casting: any of "
+                       + ", ".join(JOINED_FACES) + ", separated by ';' (for example bottom;edges)")
+    return ";".join(f for f in JOINED_FACES if f in parts)

@@ -50,11 +50,14 @@ def _as_alloy(alloy) -> Alloy:
     return alloy if isinstance(alloy, Alloy) else get_alloy(alloy)
 
 
-def validate_section(volume_cm3, area_cm2, thickness_mm=None, system: str = units.METRIC):
+def validate_section(volume_cm3, area_cm2, thickness_mm=None, system: str = units.METRIC, joined: bool = False):
     """Refuse sections no body can have: volume or cooling area not above 0,
     or (where the thickness is given) a modulus above T/2, the modulus of a
     plate of thickness T cooling on both faces. The refusal names the fields,
     values and units of ``system`` (tracker.units).
+
+    ``joined``: some faces are joined to the rest of the casting (they do not
+    cool), so V/A may exceed T/2: not refused.
 
     A modulus above a same-volume sphere's is possible where faces are joined
     to other metal: it is a warning (``geometry.joined_faces_warning``), not a
@@ -80,7 +83,7 @@ def validate_section(volume_cm3, area_cm2, thickness_mm=None, system: str = unit
         t = np.asarray(thickness_mm, dtype=float)
         if np.any(~np.isnan(t) & (t <= 0)):
             refuse("thickness_mm", _first_bad(t, t <= 0), f"thickness must be above 0 {sym['thickness_mm']}")
-        bad = ~np.isnan(t) & (v / a > t / 20.0 * (1 + 1e-9))
+        bad = ~np.isnan(t) & (v / a > t / 20.0 * (1 + 1e-9)) & (not joined)
         if np.any(bad):
             i = int(np.argmax(np.atleast_1d(bad)))
             m = float(np.atleast_1d(v / a)[i])
@@ -89,7 +92,8 @@ def validate_section(volume_cm3, area_cm2, thickness_mm=None, system: str = unit
                    f"the modulus V/A = {units.show('length_cm', m, system, 2)} is above half the thickness "
                    f"({units.show('length_cm', half, system, 2)}), more than a plate of that "
                    f"thickness cooling on both faces can have; check the units ({sym['area_cm2']}, "
-                   f"{sym['volume_cm3']}, {sym['thickness_mm']})")
+                   f"{sym['volume_cm3']}, {sym['thickness_mm']}), or name the faces joined to the rest of the "
+                   "casting (--joined-faces)")
 
 
 def validate_pour_temp(pour_temp_c, system: str = units.METRIC) -> None:
@@ -475,7 +479,7 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
                mould: str | None = None, pour_temp_c: float | None = None,
                thickness_mm: float | None = None, width_mm: float | None = None,
                length_mm: float | None = None, sleeve: dict | None = None,
-               rule_set: str | None = None, system: str = units.METRIC) -> RiserSize:
+               rule_set: str | None = None, system: str = units.METRIC, joined_faces: str | None = None) -> RiserSize:
     """Size one riser (the scalar path: Caine's root by scipy's brentq).
 
     volume_cm3, area_cm2: the fed section's volume and cooling area.
@@ -492,8 +496,9 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
     a comparison.
     system: the unit system (tracker.units) the notes and warnings word their
     figures in; every number of the result stays metric.
+    joined_faces: faces joined to the rest of the casting ("bottom;edges"): V/A may exceed T/2.
     """
-    alloy = _with_rule_set(_as_alloy(alloy), rule_set)
+    alloy, joined = _with_rule_set(_as_alloy(alloy), rule_set), geometry.joined_faces(joined_faces)
     placement = geometry.check_placement(placement)
     mould = rules.check_mould(mould)
     eff, eff_src = _efficiency(alloy, efficiency, sleeve, sleeve_factor)
@@ -501,7 +506,7 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
         sleeve_factor = float(sleeve["modulus_factor"])
     validate_pour_temp(pour_temp_c, system)
     beta, liquid = rules.feed_fraction(alloy, mould, pour_temp_c, shrinkage)
-    validate_section(volume_cm3, area_cm2, thickness_mm, system)
+    validate_section(volume_cm3, area_cm2, thickness_mm, system, joined=joined is not None)
     validate_design_options(h_over_d, sleeve_factor, modulus_factor)
     rules.check_efficiency(eff, beta, liquid)
     need = max(beta, 0.0) + liquid
@@ -520,6 +525,8 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
     feeding = _feeding_distance(alloy, thickness_mm, width_mm, length_mm, system)
     if feeding["note"] is not None:
         notes.append(feeding["note"])
+    notes += [f"faces joined to the rest of the casting: {joined.replace(';', ', ')} (they do not cool; V/A may "
+              "exceed T/2)"] if joined else []
     return RiserSize(
         alloy=alloy.key, placement=placement, h_over_d=float(h_over_d),
         sleeve_factor=float(sleeve_factor), modulus_factor=float(modulus_factor),
@@ -582,7 +589,8 @@ def size_zone(store, pattern: str, zone: str, **options) -> RiserSize:
         return None if missing(v) else v
 
     logged = {"mould": val("mould"), "thickness_mm": val("thickness_mm"), "width_mm": val("width_mm"),
-              "length_mm": val("length_mm"), "pour_temp_c": store.mean_pour_temp(pattern)}
+              "length_mm": val("length_mm"), "pour_temp_c": store.mean_pour_temp(pattern),
+              "joined_faces": val("joined_faces")}
     for k, v in logged.items():
         if options.get(k) is None:
             options[k] = v

@@ -49,7 +49,7 @@ class Designs(StoreCore):
     def zones_frame(self, pattern: str) -> pd.DataFrame:
         """The zones of one pattern, as stored, by zone code."""
         return self._frame("SELECT zone, volume_cm3, cooling_area_cm2, thickness_mm, width_mm, length_mm, "
-                           "required_xray_level FROM zones WHERE pattern = ? ORDER BY zone", (pattern,))
+                           "required_xray_level, joined_faces FROM zones WHERE pattern = ? ORDER BY zone", (pattern,))
 
     def sleeve(self, code: str) -> dict:
         """One sleeve of the catalogue (raises NotFound naming the catalogue)."""
@@ -74,7 +74,8 @@ class Designs(StoreCore):
              "s.kind AS sleeve_kind, s.modulus_factor AS sleeve_factor, "
              "s.feeding_efficiency AS sleeve_efficiency, s.unit_cost AS sleeve_unit_cost, "
              "z.volume_cm3, z.cooling_area_cm2, z.thickness_mm, z.length_mm, z.required_xray_level, "
-             "z.width_mm, p.mould, p.alloy, p.casting_weight_kg, p.castings_per_mold, a.shrinkage, a.bare_efficiency, "
+             "z.width_mm, z.joined_faces, "
+             "p.mould, p.alloy, p.casting_weight_kg, p.castings_per_mold, a.shrinkage, a.bare_efficiency, "
              "a.density_kg_dm3, a.caine_a, a.caine_b, a.caine_c, "
              "(SELECT COUNT(*) FROM risers r2 WHERE r2.pattern = r.pattern "
              " AND r2.revision = r.revision AND r2.zone = r.zone) AS risers_on_zone "

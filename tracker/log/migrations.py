@@ -236,6 +236,13 @@ def _migration_9(db: Schema) -> None:
     _totals_from(db.execute, EARLIEST_DAY)
 
 
+def _migration_10(db: Schema) -> None:
+    # A zone's faces joined to the rest of the casting ("bottom;edges"; empty: every face
+    # cools): its V/A may then exceed T/2, and the thermal model insulates those faces.
+    db.add_column("zones", "joined_faces", str)
+
+
 MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6,
-              _migration_7, _migration_8, _migration_9]  # index i brings the schema from version i to i + 1
+              _migration_7, _migration_8, _migration_9,
+              _migration_10]  # index i brings the schema from version i to i + 1
 SCHEMA_VERSION = len(MIGRATIONS)

@@ -25,7 +25,7 @@ COLUMNS = {  # (required, optional)
     "patterns": (["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
                   "metal_cost_per_kg"], ["processing_cost_per_casting", "mould", "plant"]),
     "zones": (["pattern", "zone", "volume_cm3", "cooling_area_cm2"],
-              ["thickness_mm", "length_mm", "required_xray_level", "width_mm"]),
+              ["thickness_mm", "length_mm", "required_xray_level", "width_mm", "joined_faces"]),
     "sleeves": (["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
                  "feeding_efficiency"], ["unit_cost"]),
     "risers": (["pattern", "revision", "effective_from", "riser", "zone", "placement", "top",
