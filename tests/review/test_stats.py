@@ -563,3 +563,37 @@ def test_week_start_parse_errors(text, message):
 def test_iso_week_refuses_bad_date():
     with pytest.raises(BadInput, match="write the date as YYYY-MM-DD"):
         stats.iso_week("16/11/2026")
+
+
+def _run_of_8_exact(points: int = 26, run: int = 8) -> float:
+    """P(a run of ``run`` or more on one side somewhere in ``points`` fair tosses), by
+    dynamic programming over the length of the current run (the textbook longest-run
+    recursion, e.g. Feller, An Introduction to Probability Theory, vol. 1, XIII.7)."""
+    state = np.zeros(run - 1)       # state[j]: no run of ``run`` yet, the current one j + 1 long
+    state[0] = 1.0
+    for _ in range(points - 1):
+        new = np.zeros(run - 1)
+        new[0] = 0.5 * state.sum()              # the side changes
+        new[1:] = 0.5 * state[:-1]              # the run grows (state[-1] grows into a signal: gone)
+        state = new
+    return 1.0 - float(state.sum())
+
+
+def test_the_run_of_8_rule_signals_on_4_to_9_percent_of_in_control_26_week_charts():
+    from tracker.review.stats import RUN_RULE_NOTE
+
+    # Independent reference: 26 points each above or below the centre with probability 1/2.
+    exact = _run_of_8_exact()
+    assert 0.04 <= exact <= 0.09
+    # Seeded simulation of in-control charts (binomial weeks, centre from the chart itself).
+    rng = np.random.default_rng(26)
+    reps = 300
+    for n, p in ((200, 0.1), (30, 0.03)):
+        hits = sum(bool(stats.p_chart(rng.binomial(n, p, 26), np.full(26, n))["run"].any()) for _ in range(reps))
+        rate = hits / reps
+        se = (exact * (1 - exact) / reps) ** 0.5
+        if n * p >= 5:
+            assert abs(rate - exact) <= 3 * se, rate         # near the coin-toss rate
+        else:
+            assert rate >= exact - 3 * se, rate               # small n·p: not fewer, often more
+    assert "4-9 %" in RUN_RULE_NOTE

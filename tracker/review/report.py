@@ -64,6 +64,8 @@ def render_table(review: dict) -> str:
     cols = [c for c in pattern_columns(review) if c[0].startswith(TERMINAL_HEADS)
             or c[0].endswith(TERMINAL_HEADS)]
     out += ["", "Patterns, whole window, by scrap cost", text_table(review["patterns"], cols)]
+    if review.get("run_rule_note"):
+        out += ["Note: " + review["run_rule_note"]]
     out += ["", "Scrap by defect, whole window", text_table(review["defects"], defect_columns(review))]
     out += ["", "Weekly trend, all patterns", text_table(review["trend"]["overall"], trend_columns(review))]
     out += ["", "Riser revisions (shrinkage rejects in the changed risers' zones)"]
@@ -108,6 +110,7 @@ def render_md(review: dict) -> str:
     out += [f"- {md_cell(s)}" for s in change_lines(review)]
     out += ["", "## Patterns, whole window, by scrap cost", "",
             md_table(review["patterns"], pattern_columns(review)), "",
+            *([f"_{md_cell(review['run_rule_note'])}_", ""] if review.get("run_rule_note") else []),
             "## Scrap by defect", "", md_table(review["defects"], defect_columns(review)), "",
             "## Weekly trend", "", md_table(review["trend"]["overall"], trend_columns(review)), "",
             "## Riser revisions", "", md_table(review["revisions"], revision_columns()), ""]

@@ -407,7 +407,8 @@ def render_html(review: dict) -> str:
     out.append(f"<footer>Rates: {_e(review.get('rate_basis', ''))}. Counts in castings; costs in "
                f"{_e(review.get('currency') or DEFAULT_CURRENCY)}; weights in "
                f"{units.symbol('mass_kg', review.get('unit_system', units.METRIC))}. Rework is counted apart and "
-               "is not scrap. Rejects count against the week the lot was poured.</footer></body></html>")
+               "is not scrap. Rejects count against the week the lot was poured. "
+               f"{_e(review.get('run_rule_note', ''))}</footer></body></html>")
     return "\n".join(out) + "\n"
 
 

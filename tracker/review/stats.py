@@ -43,6 +43,11 @@ from tracker.errors import BadInput
 TAIL = 0.00135
 RUN_LENGTH = 8
 RULES = ("beyond_limit", "run_of_8")
+# The run rule's own false-signal rate (measured by a seeded simulation in
+# tests/review/test_stats.py, and the exact rate of a run of 8 in 26 fair coin tosses).
+RUN_RULE_NOTE = ("The run-of-8 rule signals on about 4-9 % of in-control 26-week charts by chance alone, "
+                 "more where n·p̄ is small (a few rejects a week): read a run as a prompt to look, "
+                 "not as proof of a change.")
 CHART_COLUMNS = ("label", "rejected", "inspected", "p", "centre", "lcl", "ucl",
                  "beyond", "run", "signal")
 

@@ -607,6 +607,7 @@ def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WE
         "window": {"first_week": now["labels"][0], "last_week": week, "start": iso(mondays[0]),
                    "end": iso(week_end), "weeks": weeks},
         "target": target, "confidence": confidence, "rate_basis": RATE_BASIS,
+        "run_rule_note": stats.RUN_RULE_NOTE,
         "currency": money, "units": {**UNITS, "scrap_cost": money},
         "totals": totals,
     })
