@@ -450,3 +450,89 @@ def test_niyama_is_extrapolated_from_two_grids_with_its_uncertainty():
     # uncertainty must hold a solve at twice the resolution, which reads lower still.
     assert r.niyama_default_grid > fine.niyama_default_grid
     assert r.min_niyama - r.niyama_uncertainty <= fine.niyama_default_grid <= r.min_niyama + r.niyama_uncertainty
+    # The issue's independent solve (an explicit enthalpy code at 2.5 mm cells) puts the
+    # converged value near 1.13 where the default grid read 2.41: inside the uncertainty.
+    assert abs(r.min_niyama - 1.13) <= r.niyama_uncertainty
+    assert r.niyama_default_grid > 1.13 + r.niyama_uncertainty / 2
+
+
+def test_one_verdict_on_every_surface(runner, demo_db, demo_store):
+    from tracker.thermal.checks import row_fields
+    from tracker.views.thermal import pattern_thermal
+
+    # the same riser through the thermal command, check --thermal, what-if --thermal
+    # (unchanged diameter), the dashboard's view and suggest's row check
+    single = json.loads(runner.invoke(main, ["thermal", "--db", str(demo_db), "--pattern", "P-1004", "--zone",
+                                             "end-A", "--json"]).output)
+    checked = json.loads(runner.invoke(main, ["check", "--db", str(demo_db), "--pattern", "P-1004", "--thermal",
+                                              "--json"]).output)
+    row = next(r for r in checked if r["zone"] == "end-A")
+    what_if = json.loads(runner.invoke(main, ["what-if", "--db", str(demo_db), "--pattern", "P-1004", "--riser",
+                                              row["riser"], "--diameter-mm", str(row["diameter_mm"]), "--thermal",
+                                              "--json"]).output)
+    view = next(v for v in pattern_thermal(demo_store, "P-1004") if v["zone"] == "end-A")
+    stored = demo_store.risers_frame(pattern="P-1004")
+    fields = row_fields(demo_store, stored[stored["riser"] == row["riser"]].iloc[0].to_dict())
+    verdicts = {single["verdict"], row["thermal_verdict"], what_if["thermal_verdict"], view["summary"]["verdict"],
+                fields["thermal_verdict"]}
+    assert len(verdicts) == 1 and verdicts <= {"pass", "fail", "inconclusive"}
+
+
+def _explicit_plate_niyama(half_mm: float, dz_mm: float = 1.0, sand_mm: float = 80.0):
+    """An independent solve written here: an explicit (forward Euler) enthalpy code for
+    half a steel plate in sand, uniform cells, its own T(H) for steel's linear curve, and
+    Niyama's G/sqrt(dT/dt) where each metal cell cools through the solidus + 10 % of the
+    freezing range. Returns (cell centres from the mid-plane, mm; Niyama, (°C·min)^0.5/cm)."""
+    n_m, n = int(round(half_mm / dz_mm)), int(round((half_mm + sand_mm) / dz_mm))
+    dz = dz_mm / 1000.0
+    metal = np.arange(n) < n_m
+    k = np.where(metal, STEEL.conductivity_w_mk, SAND.conductivity_w_mk)
+    c = np.where(metal, STEEL.volumetric_heat, SAND.volumetric_heat)
+    cm, lat, tl, ts = STEEL.volumetric_heat, STEEL.volumetric_latent, STEEL.liquidus_c, STEEL.solidus_c
+    hs, hl = cm * ts, cm * tl + lat
+
+    def temp(h):
+        t = h / c
+        hm = h[metal]
+        t[metal] = np.where(hm <= hs, hm / cm, np.where(hm >= hl, (hm - lat) / cm,
+                                                          ts + (hm - hs) / (hl - hs) * (tl - ts)))
+        return t
+
+    h = np.where(metal, cm * POUR + lat, SAND.volumetric_heat * P.MOULD_INITIAL_C)
+    kf = 2 * k[:-1] * k[1:] / (k[:-1] + k[1:])
+    dt = 0.4 * dz * dz / float((k / c).max())          # inside the explicit stability limit
+    t_eval = ts + 0.1 * (tl - ts)
+    ny = np.full(n, np.nan)
+    t = temp(h)
+    while np.isnan(ny[:n_m]).any():
+        q = kf * np.diff(t) / dz
+        div = np.zeros(n)
+        div[:-1] += q
+        div[1:] -= q
+        t_prev, h = t, h + dt * div / dz
+        t = temp(h)
+        hit = metal & np.isnan(ny) & (t_prev >= t_eval) & (t < t_eval)
+        if hit.any():
+            grad = np.abs(np.gradient(t, dz))[hit] / 100.0        # °C/cm
+            rate = (t_prev - t)[hit] / dt * 60.0                  # °C/min
+            ny[hit] = grad / np.sqrt(rate)
+    return (np.arange(n_m) + 0.5) * dz_mm, ny[:n_m]
+
+
+def test_niyama_on_a_plate_matches_an_independent_explicit_solve():
+    half = 15.0
+    z_ref, ny_ref = _explicit_plate_niyama(half)
+    ze = _axis([0, half], 1.0, 0, 80)
+    zc = 0.5 * (ze[1:] + ze[:-1])
+    inside = zc < half
+    region = np.where(inside, SECTION, MOULD)[:, None]
+    grid = Grid(np.array([0.0, 0.001]), ze / 1000.0, region, False)
+    k = np.where(region == SECTION, STEEL.conductivity_w_mk, SAND.conductivity_w_mk)
+    heat = np.where(region == SECTION, STEEL.volumetric_heat, SAND.volumetric_heat)
+    out = solve(grid, k, heat, PhaseCurve.from_alloy(STEEL), np.where(region == SECTION, POUR, 20.0), 1.0, 3000.0)
+    ny = out.niyama[np.nonzero(inside)[0], 0]
+    # Independent solve (the explicit enthalpy code above, named _explicit_plate_niyama):
+    # Niyama as published (Niyama et al. 1982, G/sqrt(cooling rate) near the solidus)
+    # agrees across the plate away from its mid-plane (where G, and Ny, go to 0).
+    for z in (5.0, 7.5, 10.0, 12.5):
+        assert np.interp(z, zc[inside], ny) == pytest.approx(np.interp(z, z_ref, ny_ref), rel=0.03)

@@ -226,6 +226,8 @@ def format_thermal(r, system: str = units.METRIC) -> str:
         ("Freezing ratio riser / section's own", f"{r.freeze_ratio:.2f}"),
         ("Solver error (two grids, two steps)", "-" if r.solver_error_share is None
          else f"±{r.solver_error_share:.1%} of each time"),
+        *([("Section at its eutectic arrest (s)", f"{r.arrest_s:,.0f} (its liquid contraction ends)"),
+           ("Neck closes (s)", f"{r.neck_freeze_s:,.0f}")] if r.rule_set == "pressure_control" else []),
         ("Last to freeze", f"{r.last_to_freeze} ({_at(r.last_point_mm, system)})"),
         ("Isolated liquid in the section", ("yes" if r.isolated_liquid else "no")
          + (f" ({r.isolated_share:.1%} of its volume at {_at(r.isolated_at_mm, system)})" if r.isolated_share else "")),

@@ -45,7 +45,8 @@ THERMAL_CAUTION = (
 # The keys of ``pourback thermal --json``, in order (the issue's contract).
 JSON_KEYS = ("section_freeze_s", "junction_freeze_s", "riser_freeze_s", "freeze_ratio", "last_to_freeze",
              "isolated_liquid", "min_niyama", "niyama_uncertainty", "niyama_threshold", "niyama_unit",
-             "thermal_ok", "verdict", "solver_error_share", "rule_set", "model", "cells", "solve_s")
+             "thermal_ok", "verdict", "solver_error_share", "rule_set", "neck_freeze_s", "arrest_s", "model",
+             "cells", "solve_s")
 VERDICTS = ("pass", "fail", "inconclusive")
 
 
@@ -58,6 +59,8 @@ class ThermalResult:
     freeze_ratio riser / section's own. verdict: pass, fail or inconclusive (a margin
     inside ``solver_error_share``, the error from two grids and two steps); thermal_ok
     is verdict == "pass". min_niyama is extrapolated from two grids, ± niyama_uncertainty.
+    Pressure control (ductile iron) only: neck_freeze_s when the neck closes, arrest_s when
+    the whole section has reached its eutectic arrest (None otherwise).
     """
 
     case: ThermalCase
@@ -265,7 +268,9 @@ def judge(case, b, out, keep_maps: bool = True, extra: tuple | None = None) -> T
         verdict=verdict, reasons=reasons, solver_error_share=err, rule_set=rule_set,
         cells=int(g.region.size), grid=(int(g.region.shape[1]), int(g.region.shape[0])), cell_mm=b.cell_mm,
         time_step_s=b.dt, steps=out.steps, pour_temp_c=b.pour_temp_c, solve_s=out.solve_s,
-        neck_freeze_s=f.neck_s, arrest_s=f.arrest_s, niyama_default_grid=f.min_niyama, notes=notes, maps=maps)
+        neck_freeze_s=f.neck_s if rule_set == "pressure_control" else None,
+        arrest_s=f.arrest_s if rule_set == "pressure_control" else None, niyama_default_grid=f.min_niyama,
+        notes=notes, maps=maps)
 
 
 __all__ = ["ThermalCase", "ThermalResult", "run", "reasons_text", "notes_text", "build", "model_kind",
