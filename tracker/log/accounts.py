@@ -378,22 +378,22 @@ def sign_in(store, name: str, password: str, *, idle_hours: float = DEFAULT_IDLE
     password = password if isinstance(password, str) else ""
     dummy = _dummy_hash()
     acc = store.user_account(name) if NAME_RULE.fullmatch(name) else None
-    known = acc is not None and bool(acc["enabled"])
+    known: dict = acc if acc is not None and acc["enabled"] else {}
     # The slow check, outside the write lock; a known name's locked account is checked too.
-    right = verify_password(acc["password_hash"] if known else dummy, password)
-    rehash = known and right and HASHER.check_needs_rehash(acc["password_hash"])
+    right = verify_password(known.get("password_hash", dummy), password)
+    rehash = bool(known) and right and HASHER.check_needs_rehash(known["password_hash"])
     new_hash = hash_password(password) if rehash else None
     if not known:
         # An unknown name is not recorded: it may be a password typed in the wrong field.
         record(store, "sign_in_failed", user=None, subject=acc["name"] if acc else None,
                detail="disabled account" if acc else "unknown user name", via="dashboard", at=now)
         raise refusal()
-    user = acc["name"]
+    user = known["name"]
     token = secrets.token_urlsafe(32)
     until = _iso(now + dt.timedelta(minutes=LOCK_MINUTES))
     with store.write():
         if right:
-            opened = store.open_sign_in(user, acc["password_hash"], at, new_hash)
+            opened = store.open_sign_in(user, known["password_hash"], at, new_hash)
             counted = None
         else:
             opened, counted = False, store.count_failed_sign_in(user, at, LOCK_AFTER_FAILURES, until)
@@ -412,8 +412,7 @@ def sign_in(store, name: str, password: str, *, idle_hours: float = DEFAULT_IDLE
         else:  # locked (or disabled, or its password changed, since it was read)
             store.insert_audit(at, "sign_in_refused", user, user, "account locked", "dashboard")
     if opened:
-        return Session(user=user, role=acc["role"], idle_hours=idle_hours, started_at=at,
-                       token=token)
+        return Session(user=user, role=known["role"], idle_hours=idle_hours, started_at=at, token=token)
     if counted is None or counted[1]:
         raise AccountLocked(refusal())
     raise refusal()
