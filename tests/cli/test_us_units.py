@@ -263,11 +263,21 @@ def test_a_range_is_named_in_the_columns_unit(tmp_path, mem_store):
                  "S1,insulating,0.1,4,1.2,0.3\n")
     with pytest.raises(BadFile) as exc:
         import_file(mem_store, "sleeves", f)
-    # 5 mm is 0.19685 in (pint), 3000 mm is 118.11 in
+    # 5 mm is 0.1968504 in (pint), 3000 mm is 118.1102 in; a bound is printed so that it stays
+    # true (issue 27): the lower one rounded up, the upper one down, to 6 significant digits
     low, high = q(5, "mm", "inch"), q(3000, "mm", "inch")
-    assert f"{low:g}" == "0.19685" and f"{high:g}" == "118.11"
+    assert 0.19685 < low < 0.196851 and 118.11 < high < 118.111
     assert ("sleeves.csv, row 2, column inner_diameter_in: got '0.1'; inner_diameter_in must be a number of "
-            "at least 0.19685 and at most 118.11 in") in str(exc.value)
+            "at least 0.196851 and at most 118.11 in") in str(exc.value)
+    # 0.19685 in is below 5 mm: refused, and the message does not claim it is allowed
+    f.write_text("sleeve,kind,inner_diameter_in,height_in,modulus_factor,feeding_efficiency\n"
+                 "S1,insulating,0.19685,4,1.2,0.3\n")
+    with pytest.raises(BadFile) as exc:
+        import_file(mem_store, "sleeves", f)
+    assert "got '0.19685'; inner_diameter_in must be a number of at least 0.196851 and" in str(exc.value)
+    f.write_text("sleeve,kind,inner_diameter_in,height_in,modulus_factor,feeding_efficiency\n"
+                 "S1,insulating,0.196851,4,1.2,0.3\n")
+    assert import_file(mem_store, "sleeves", f).added == 1
 
 
 def test_a_pour_temperature_in_fahrenheit(tmp_path):
