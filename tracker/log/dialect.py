@@ -198,8 +198,10 @@ class SQLite:
 
     # transactions -----------------------------------------------------------------
     def _begin(self) -> None:
-        """BEGIN IMMEDIATE: wait a second for another writer, say so, then wait the rest."""
+        """BEGIN IMMEDIATE: wait a second for another writer, say so, then wait the
+        rest of BUSY_TIMEOUT_MS in all (the message's figure), never longer."""
         first = min(NOTICE_AFTER_MS, BUSY_TIMEOUT_MS)
+        deadline = time.monotonic() + BUSY_TIMEOUT_MS / 1000
         self.conn.execute(f"PRAGMA busy_timeout = {first}")
         try:
             try:
@@ -211,8 +213,18 @@ class SQLite:
             if self.on_wait is not None:
                 self.on_wait(f"The log {self.target} is locked by another writer; waiting up to "
                              f"{(BUSY_TIMEOUT_MS - first) / 1000:g} s more ...")
-            self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS - first}")
-            self.retry(lambda: self.conn.execute("BEGIN IMMEDIATE"))
+            while True:  # SQLite may answer "busy" before its timeout: try again until the deadline
+                left_ms = int((deadline - time.monotonic()) * 1000)
+                if left_ms <= 0:
+                    raise LogLocked(self.target, BUSY_TIMEOUT_MS / 1000)
+                self.conn.execute(f"PRAGMA busy_timeout = {left_ms}")
+                try:
+                    self.conn.execute("BEGIN IMMEDIATE")
+                    return
+                except sqlite3.OperationalError as exc:
+                    if not self.transient(exc):
+                        raise
+                time.sleep(min(0.05, left_ms / 1000))
         finally:
             self.conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
 

@@ -1,6 +1,7 @@
-"""Hostile imports of issue 27's second round, on both backends: a line break in a
+"""Hostile input of issue 27's second round, on both backends: a line break in a
 code, a file cut after a digit, rows found from another file (named, and added
-with ``new_records``), a revision that leaves risers out, a pipe. Each refused
+with ``new_records``), a revision that leaves risers out, a pipe, a lock held past
+the wait the message names. Each refused
 case asserts the exact message and that the log is unchanged (Store.snapshot()).
 
 Plumbing tests on the invented data in tests/data/good; no trade figures here.
@@ -8,13 +9,15 @@ Plumbing tests on the invented data in tests/data/good; no trade figures here.
 
 import os
 import threading
+import time
 
 import pytest
 
 from tests.support import GOOD
 from tests.support.hostile import TODAY
-from tracker.errors import BadFile
-from tracker.log.ingest import import_dir, import_file
+from tracker.errors import BadFile, LogLocked
+from tracker.log import dialect
+from tracker.log.ingest import import_dir, import_file, log_inspection
 from tracker.log.store import Store
 
 INSP = "lot,inspected_on,method,quantity,result,defect,zone,xray_category,severity,serial,inspector,notes\n"
@@ -153,3 +156,39 @@ def test_a_pipe_is_read(store, tmp_path):
     finally:
         writer.join(timeout=10)
     assert (result.file, result.added) == ("stdin", 1)
+
+
+# --- a lock held past the wait the message names -----------------------------------------------
+
+def test_a_writer_gives_up_when_the_wait_it_named_is_over(store, monkeypatch):
+    # The wait is cut to 1.5 s (1 s before the message, 0.5 s after) to keep the test short.
+    monkeypatch.setattr(dialect, "BUSY_TIMEOUT_MS", 1500)
+    monkeypatch.setattr(dialect, "PG_LOCK_TIMEOUT_MS", 1500)
+    before = store.snapshot()
+    holding, done = threading.Event(), threading.Event()
+
+    def hold():
+        with Store(store.path, create=False) as other, other.write():
+            holding.set()
+            done.wait(timeout=30)
+
+    holder = threading.Thread(target=hold)
+    holder.start()
+    said = []
+    try:
+        assert holding.wait(timeout=30)
+        with Store(store.path, create=False, on_wait=said.append) as s:
+            start = time.monotonic()
+            with pytest.raises(LogLocked) as exc:
+                log_inspection(s, {"lot": "L3", "inspected_on": "2026-03-06", "method": "ut", "quantity": 1,
+                                   "result": "accept"}, today=TODAY)
+            waited = time.monotonic() - start
+    finally:
+        done.set()
+        holder.join(timeout=30)
+    assert said == [f"The log {store.name} is locked by another writer; waiting up to 0.5 s more ..."]
+    assert str(exc.value) == (f"the log {store.name} stayed locked by another writer for 1.5 s; nothing was "
+                              "written; try again when the other import or backup has finished")
+    # It gave up when the wait it named was over (it waited 8 times as long before).
+    assert 1.4 < waited < 3.0
+    assert store.snapshot() == before
