@@ -88,6 +88,8 @@ def bound_text(x: float, lower: bool, digits: int = 6) -> str:
     short = f"{x:g}"
     if float(short) == x:
         return short
+    if abs(x) >= 10.0 ** (digits - 1):  # a whole number is exact enough: 6,102,374 (in³)
+        return f"{int(math.ceil(x) if lower else math.floor(x)):,}"
     scale = 10.0 ** (math.floor(math.log10(abs(x))) - digits + 1)
     y = (math.ceil(x / scale) if lower else math.floor(x / scale)) * scale
     return f"{y:.{digits}g}"

@@ -170,7 +170,10 @@ def test_us_bad_value_is_named_in_us(runner):
     res = runner.invoke(main, ["size", "--units", "us", "--alloy", "steel", "--volume-in3", "-1",
                                "--area-in2", "10"])
     assert res.exit_code == 1
-    assert res.output.strip() == "Error: volume_in3: got -1.0; section volume must be a number above 0 in³"
+    # 0.001 cm³ = 6.1023744e-05 in³ and 1e8 cm³ = 6,102,374.4 in³ (1 in = 2.54 cm exactly), each
+    # rounded inwards so that the bound stays true
+    assert res.output.strip() == ("Error: --volume-in3: got -1.0; volume_in3 must be a number of at least "
+                                  "6.10238e-05 and at most 6,102,374 in³; check the figure and its unit")
 
 
 # --- imports: a US-unit file gives the same log as its metric twin --------------------------
