@@ -140,14 +140,12 @@ class SignInRefused(PourbackError):
 
 
 class AccountLocked(SignInRefused):
-    """Too many failed sign-ins in a row: the account is locked for a while."""
+    """Too many failed sign-ins in a row: the account is locked for a while. Its
+    words are those of every refused sign-in (``tracker.log.accounts.refusal``),
+    so that a lock does not tell that the name exists."""
 
-    def __init__(self, user: str, until: str, failures: int, minutes: int):
-        self.user = user
-        self.until = until
-        super().__init__(f"{user} is locked after {failures} failed sign-ins in a row, for {minutes} minutes "
-                         f"(until {until} UTC); wait, or ask an admin to set a new password with "
-                         f"`pourback user passwd {user}`")
+    def __init__(self, refused: SignInRefused):
+        super().__init__(str(refused))
 
 
 class SessionExpired(PourbackError):

@@ -7,6 +7,8 @@
   Python, NaN and infinity to None, dates to ISO text).
 - :func:`pct_text` and :func:`money_text`: the one way a rate or an amount of
   money is written as text.
+- :func:`bound_text`: a limit written so that it stays true (a lower one rounded
+  up, an upper one down).
 """
 
 from __future__ import annotations
@@ -73,3 +75,21 @@ def money_text(value: Any, *, none: str = "-") -> str:
     """An amount in whole currency units with thousands separated, ``12,345``."""
     f = finite(value)
     return none if f is None else f"{f:,.0f}"
+
+
+def bound_text(x: float, lower: bool, digits: int = 6) -> str:
+    """A limit as people write it (1,000,000 rather than 1e+06), exact where it has
+    few digits; else to ``digits`` significant digits rounded so that the text stays
+    true: a lower limit up, an upper one down (5 mm is at least 0.196851 in, not
+    0.19685 in, which is below it)."""
+    x = float(x)
+    if x.is_integer() and abs(x) < 1e15:
+        return f"{int(x):,}"
+    short = f"{x:g}"
+    if float(short) == x:
+        return short
+    if abs(x) >= 10.0 ** (digits - 1):  # a whole number is exact enough: 6,102,374 (in³)
+        return f"{int(math.ceil(x) if lower else math.floor(x)):,}"
+    scale = 10.0 ** (math.floor(math.log10(abs(x))) - digits + 1)
+    y = (math.ceil(x / scale) if lower else math.floor(x / scale)) * scale
+    return f"{y:.{digits}g}"

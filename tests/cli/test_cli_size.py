@@ -31,17 +31,17 @@ def test_size_human_output_has_units_and_caution(runner):
 
 
 @pytest.mark.parametrize("args,message", [
-    (["--volume-cm3", "-1", "--area-cm2", "10"], "Error: volume_cm3: got -1.0; section volume must be a number above 0 cm³"),
-    (["--volume-cm3", "0", "--area-cm2", "10"], "Error: volume_cm3: got 0.0"),
+    (["--volume-cm3", "-1", "--area-cm2", "10"], "Error: --volume-cm3: got -1.0; volume_cm3 must be a number of at least 0.001 and at most 100,000,000 cm³"),  # noqa: E501 (one case a line)
+    (["--volume-cm3", "0", "--area-cm2", "10"], "Error: --volume-cm3: got 0.0"),
     (["--volume-cm3", "100", "--area-cm2", "150", "--h-over-d", "3.1"], "Error: h_over_d: got 3.1; H/D must lie between 0.5 and 3.0"),
     (["--volume-cm3", "100", "--area-cm2", "150", "--efficiency", "0.02"], "Error: efficiency: got 0.02; must be above the metal to feed 0.0462 (shrinkage 0.035 + liquid contraction 0.0112)"),
     # A pour temperature out of the lots import's range is named as such, not as an
     # efficiency too low for an absurd liquid contraction.
     (["--volume-cm3", "100", "--area-cm2", "150", "--pour-temp-c", "99999"],
-     "Error: pour_temp_c: got 99999.0; a pour temperature lies between 400 °C and 1,800 °C"),
-    (["--volume-cm3", "100", "--area-cm2", "150", "--pour-temp-c", "nan"], "Error: pour_temp_c: got nan"),
-    (["--volume-cm3", "1e12", "--area-cm2", "1e9"], "Error: volume_cm3: got 1000000000000.0; at most 100,000,000 cm³"),
-    (["--volume-cm3", "100", "--area-cm2", "1e8"], "Error: area_cm2: got 100000000.0; at most 10,000,000 cm²"),
+     "Error: --pour-temp-c: got 99999.0; a pour temperature lies between 400 °C and 1,800 °C"),
+    (["--volume-cm3", "100", "--area-cm2", "150", "--pour-temp-c", "nan"], "Error: --pour-temp-c: got nan"),
+    (["--volume-cm3", "1e12", "--area-cm2", "1e9"], "Error: --volume-cm3: got 1000000000000.0; volume_cm3 must be a number of at least 0.001 and at most 100,000,000 cm³"),  # noqa: E501 (one case a line)
+    (["--volume-cm3", "100", "--area-cm2", "1e8"], "Error: --area-cm2: got 100000000.0; area_cm2 must be a number of at least 0.01 and at most 10,000,000 cm²"),  # noqa: E501 (one case a line)
 ])
 def test_size_bad_input_one_line_no_traceback(runner, args, message):
     res = runner.invoke(main, ["size", "--alloy", "steel", *args])
@@ -73,7 +73,7 @@ def test_size_pour_temperature_in_us_units_is_refused_in_fahrenheit(runner):
                                "--area-in2", "170", "--pour-temp-f", "5000"])
     assert res.exit_code != 0
     # 400 °C = 752 °F and 1,800 °C = 3,272 °F (F = C x 9/5 + 32)
-    assert "Error: pour_temp_f: got 5000.0; a pour temperature lies between 752 °F and 3,272 °F" in res.output
+    assert "Error: --pour-temp-f: got 5000.0; a pour temperature lies between 752 °F and 3,272 °F" in res.output
 
 
 def test_joined_faces_let_a_zone_exceed_half_its_thickness(runner):

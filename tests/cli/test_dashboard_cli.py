@@ -6,6 +6,7 @@ import sys
 
 import pytest
 
+from tests.support.hostile import tls_pair
 from tracker.cli import cmd_app, main
 from tracker.log.store import Store
 
@@ -193,9 +194,7 @@ def test_beyond_loopback_with_an_admin_asks_for_sign_in_and_warns_without_tls(ru
 def test_tls_options_go_to_streamlit(runner, launched, tmp_path):
     db = tmp_path / "team.db"
     _admin(db)
-    cert, key = tmp_path / "cert.pem", tmp_path / "key.pem"
-    cert.write_text("certificate")
-    key.write_text("key")
+    cert, key = tls_pair(tmp_path)  # a real pair: files that are not one are refused (issue 27)
     res = runner.invoke(main, ["dashboard", "--db", str(db), "--host", "0.0.0.0", "--port", "8443",
                                "--tls-cert", str(cert), "--tls-key", str(key)])
     assert res.exit_code == 0, res.output

@@ -170,7 +170,10 @@ def test_us_bad_value_is_named_in_us(runner):
     res = runner.invoke(main, ["size", "--units", "us", "--alloy", "steel", "--volume-in3", "-1",
                                "--area-in2", "10"])
     assert res.exit_code == 1
-    assert res.output.strip() == "Error: volume_in3: got -1.0; section volume must be a number above 0 in³"
+    # 0.001 cm³ = 6.1023744e-05 in³ and 1e8 cm³ = 6,102,374.4 in³ (1 in = 2.54 cm exactly), each
+    # rounded inwards so that the bound stays true
+    assert res.output.strip() == ("Error: --volume-in3: got -1.0; volume_in3 must be a number of at least "
+                                  "6.10238e-05 and at most 6,102,374 in³; check the figure and its unit")
 
 
 # --- imports: a US-unit file gives the same log as its metric twin --------------------------
@@ -263,11 +266,21 @@ def test_a_range_is_named_in_the_columns_unit(tmp_path, mem_store):
                  "S1,insulating,0.1,4,1.2,0.3\n")
     with pytest.raises(BadFile) as exc:
         import_file(mem_store, "sleeves", f)
-    # 5 mm is 0.19685 in (pint), 3000 mm is 118.11 in
+    # 5 mm is 0.1968504 in (pint), 3000 mm is 118.1102 in; a bound is printed so that it stays
+    # true (issue 27): the lower one rounded up, the upper one down, to 6 significant digits
     low, high = q(5, "mm", "inch"), q(3000, "mm", "inch")
-    assert f"{low:g}" == "0.19685" and f"{high:g}" == "118.11"
+    assert 0.19685 < low < 0.196851 and 118.11 < high < 118.111
     assert ("sleeves.csv, row 2, column inner_diameter_in: got '0.1'; inner_diameter_in must be a number of "
-            "at least 0.19685 and at most 118.11 in") in str(exc.value)
+            "at least 0.196851 and at most 118.11 in") in str(exc.value)
+    # 0.19685 in is below 5 mm: refused, and the message does not claim it is allowed
+    f.write_text("sleeve,kind,inner_diameter_in,height_in,modulus_factor,feeding_efficiency\n"
+                 "S1,insulating,0.19685,4,1.2,0.3\n")
+    with pytest.raises(BadFile) as exc:
+        import_file(mem_store, "sleeves", f)
+    assert "got '0.19685'; inner_diameter_in must be a number of at least 0.196851 and" in str(exc.value)
+    f.write_text("sleeve,kind,inner_diameter_in,height_in,modulus_factor,feeding_efficiency\n"
+                 "S1,insulating,0.196851,4,1.2,0.3\n")
+    assert import_file(mem_store, "sleeves", f).added == 1
 
 
 def test_a_pour_temperature_in_fahrenheit(tmp_path):

@@ -154,7 +154,8 @@ def test_modulus_above_half_the_thickness_is_refused():
     with pytest.raises(ValueError, match="above half the thickness"):
         size_riser(1000.0, 100.0, "steel", "top", thickness_mm=100.0)
     assert size_riser(1000.0, 100.0, "steel", "top").section_modulus_cm == pytest.approx(10.0)
-    with pytest.raises(ValueError, match="cooling area must be a number above 0"):
+    # the import's lower bound on a cooling area, 0.01 cm² (tracker/limits.py; issue 27)
+    with pytest.raises(ValueError, match="area_cm2 must be a number of at least 0.01 and"):
         size_riser(1000.0, 0.0, "steel")
 
 

@@ -135,7 +135,11 @@ def test_vectorised_equals_scalar_on_1000_random_cases():
 
 
 @pytest.mark.parametrize("kwargs,message", [
-    (dict(volume_cm3=0, area_cm2=10), "volume_cm3: got 0.0; section volume must be a number above 0 cm³"),
+    # the import's bounds on a section (tracker/limits.py; issue 27)
+    (dict(volume_cm3=0, area_cm2=10), "volume_cm3: got 0.0; volume_cm3 must be a number of at least 0.001 and "
+                                      "at most 100,000,000 cm³"),
+    (dict(volume_cm3=1e-300, area_cm2=1e-300), "volume_cm3: got 1e-300; volume_cm3 must be a number of at least "
+                                               "0.001"),
     (dict(volume_cm3=-5, area_cm2=10), "volume_cm3: got -5.0"),
     (dict(volume_cm3=100, area_cm2=150, h_over_d=0.4), "h_over_d: got 0.4; H/D must lie between 0.5 and 3.0"),
     (dict(volume_cm3=100, area_cm2=150, h_over_d=3.5), "h_over_d: got 3.5"),

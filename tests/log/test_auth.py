@@ -104,9 +104,14 @@ def test_five_wrong_passwords_lock_the_account_for_15_minutes(team):
         assert not isinstance(exc.value, AccountLocked)
     with pytest.raises(AccountLocked) as exc:
         auth.sign_in(team, "ins", "wrong password 4", now=T0 + dt.timedelta(seconds=4))
-    assert str(exc.value) == ("ins is locked after 5 failed sign-ins in a row, for 15 minutes (until "
-                              "2026-12-02 06:15 UTC); wait, or ask an admin to set a new password with "
-                              "`pourback user passwd ins`")
+    # The lock reads as any refusal (issue 27): a real name's lock must not tell that it exists.
+    with pytest.raises(SignInRefused) as unknown:
+        auth.sign_in(team, "nobody", "wrong password 4", now=T0 + dt.timedelta(seconds=4))
+    assert str(exc.value) == str(unknown.value) == (
+        "The user name or the password is wrong, or the account is locked (names are matched without case; "
+        "after 5 wrong passwords in a row an account is locked for 15 minutes): wait, or ask an admin to set "
+        "a new password with `pourback user passwd NAME`")
+    assert [u["locked_until"] for u in auth.list_users(team) if u["name"] == "ins"] == ["2026-12-02T06:15:04+00:00"]
     # Locked: even the right password is refused until the 15 minutes are over.
     with pytest.raises(AccountLocked):
         auth.sign_in(team, "ins", PASSWORD, now=T0 + dt.timedelta(minutes=14, seconds=59))

@@ -45,7 +45,9 @@ NEW = {
                 "unit_cost": "7"},
     "risers": {"pattern": "T-100", "revision": "B", "effective_from": "2026-04-01", "riser": "R1",
                "zone": "flange", "placement": "side", "top": "blind", "diameter_mm": "150",
-               "height_mm": "150", "sleeve": "", "neck_diameter_mm": "95"},
+               "height_mm": "150", "sleeve": "", "neck_diameter_mm": "95",
+               # revision B keeps R1 only: it says so (issue 27: a riser left out is refused)
+               "removed_risers": "R2"},
     "lots": {"lot": "L4", "pattern": "T-100", "poured_on": "2026-04-01", "heat": "H4", "molds": "5",
              "pour_temp_c": "1600"},
     "inspections": {"lot": "L3", "inspected_on": "2026-03-06", "method": "xray", "quantity": "2",

@@ -5,6 +5,7 @@ from __future__ import annotations
 import contextlib
 import os
 import pathlib
+import re
 import signal
 import sqlite3
 import subprocess
@@ -159,7 +160,45 @@ def dashboard(db_path, port, host, require_login, tls_cert, tls_key, idle_hours)
         raise click.UsageError("give --tls-cert and --tls-key together (the certificate and its private key)")
     db = absolute_target(db_path)
     tls = (str(pathlib.Path(tls_cert).resolve()), str(pathlib.Path(tls_key).resolve())) if tls_cert else None
+    if tls:
+        check_tls(*tls)
     serve(db, host, port, require_login=require_login, tls=tls, idle_hours=idle_hours)
+
+
+def check_tls(cert: str, key: str) -> None:
+    """Refuse (one line, before the server starts) a --tls-cert that is not a PEM
+    certificate, a --tls-key that is not an unencrypted PEM private key, or a key
+    that is not the certificate's: the server would fail with a traceback."""
+    import ssl
+
+    def text(path: str) -> str:
+        try:
+            with open(path, "rb") as fh:
+                return fh.read(1 << 20).decode("ascii", "replace")
+        except OSError as exc:
+            raise PourbackError(f"cannot read {path}: {exc.strerror or exc}") from None
+
+    if "-----BEGIN CERTIFICATE-----" not in text(cert):
+        raise PourbackError(f"--tls-cert {cert} is not a PEM certificate (it has no BEGIN CERTIFICATE line); give "
+                            "the server's certificate in PEM form")
+    key_text = text(key)
+    if not re.search(r"-----BEGIN [A-Z ]*PRIVATE KEY-----", key_text):
+        raise PourbackError(f"--tls-key {key} is not a PEM private key (it has no BEGIN PRIVATE KEY line); give "
+                            "the private key of --tls-cert in PEM form")
+    if "ENCRYPTED" in key_text:
+        raise PourbackError(f"--tls-key {key} is encrypted with a passphrase, which the server cannot ask for; "
+                            "give it unencrypted (openssl pkey -in KEY -out KEY.plain), readable by this user "
+                            "only")
+    context = ssl.SSLContext(ssl.PROTOCOL_TLS_SERVER)
+    try:
+        context.load_cert_chain(cert, key, password=lambda: b"")  # never asks for a passphrase
+    except ssl.SSLError as exc:
+        reason = getattr(exc, "reason", None) or str(exc)
+        if reason == "KEY_VALUES_MISMATCH":
+            raise PourbackError(f"--tls-key {key} is not the private key of --tls-cert {cert}; give the key "
+                                "the certificate was made for") from None
+        raise PourbackError(f"--tls-cert {cert} and --tls-key {key} cannot serve HTTPS ({reason}); give a PEM "
+                            "certificate and its own unencrypted PEM private key") from None
 
 
 # --- demo ------------------------------------------------------------------------------

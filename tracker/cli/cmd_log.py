@@ -84,7 +84,7 @@ def settings(currency, system, db_path, as_json):
 
 
 def _count_rows(path: pathlib.Path) -> int:
-    if path.suffix.lower() != ".csv":
+    if path.suffix.lower() != ".csv" or not path.is_file():  # a pipe is read once, by the import
         return 0
     with path.open("rb") as fh:
         return max(sum(buf.count(b"\n") for buf in iter(lambda: fh.read(1 << 20), b"")) - 1, 0)
@@ -98,18 +98,21 @@ def _count_rows(path: pathlib.Path) -> int:
 @click.option("--sep", default=",", show_default=True,
               help="The CSV files' separator: ',', ';', '|' or tab.")
 @click.option("--decimal", default=".", show_default=True, help="The decimal mark in numbers: '.' or ','.")
+@click.option("--new-records", is_flag=True,
+              help="Add inspection rows found in the log from an earlier file (the same rows of the same "
+                   "bytes) as new records; without it they are named and not added again.")
 @click.option("--by", default=None, help="Who imports (recorded with each record; default: login name).")
 @db_option
 @json_option
 @handle_errors
-def import_(kind_or_dir, file, skip_bad, sep, decimal, by, db_path, as_json):
+def import_(kind_or_dir, file, skip_bad, sep, decimal, new_records, by, db_path, as_json):
     """Import a file of KIND (patterns, zones, sleeves, risers, lots,
     inspections), or every known file of a folder in dependency order.
 
     By default one bad row refuses the whole import and nothing is written;
     every bad row is reported with file, row, column and reason. With
     --skip-bad the refused rows go to FILE.refused.csv, written before the
-    good rows are committed.
+    good rows are committed. FILE may be a pipe (/dev/stdin).
 
     Example:
 
@@ -135,10 +138,15 @@ def import_(kind_or_dir, file, skip_bad, sep, decimal, by, db_path, as_json):
     with open_store(db_path) as store:
         with progress_bar(show_progress(as_json) and total >= 5000, total, "Importing") as bar:
             results = import_files(store, items, skip_bad=skip_bad, by=who(by), progress=bar.update,
-                                   sep=sep, decimal=decimal,
-                                   refused_to=lambda p: pathlib.Path(p).with_suffix(".refused.csv"))
+                                   sep=sep, decimal=decimal, new_records=new_records, refused_to=_refused_to)
         out = [r.to_dict() for r in results]
     emit(out, as_json, _format_import)
+
+
+def _refused_to(path) -> pathlib.Path:
+    """FILE.refused.csv beside the file; for a pipe (/dev/stdin), in the current folder."""
+    path = pathlib.Path(path)
+    return (path if path.is_file() else pathlib.Path(path.name)).with_suffix(".refused.csv")
 
 
 def _format_import(results: list[dict]) -> str:

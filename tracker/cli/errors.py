@@ -10,7 +10,8 @@ from typing import Any
 
 import click
 
-from tracker.errors import PourbackError
+from tracker.cli.options import TYPED_KEY
+from tracker.errors import BadInput, PourbackError
 from tracker.log.store import DATABASE_ERRORS
 
 
@@ -24,6 +25,8 @@ def handle_errors(fn: Callable[..., Any]) -> Callable[..., Any]:
     def wrapper(*args: Any, **kwargs: Any) -> Any:
         try:
             return fn(*args, **kwargs)
+        except BadInput as exc:
+            raise click.ClickException(_as_typed(exc)) from None
         except PourbackError as exc:
             raise click.ClickException(str(exc)) from None
         except sqlite3.Error as exc:
@@ -36,6 +39,18 @@ def handle_errors(fn: Callable[..., Any]) -> Callable[..., Any]:
         except OSError as exc:
             raise click.ClickException(os_error_text(exc)) from None
     return wrapper
+
+
+def _as_typed(exc: BadInput) -> str:
+    """The error of a measure typed as an option, naming that option and the value
+    as typed (``--pour-temp-f: got 1e+300``), not the metric figure it became."""
+    ctx = click.get_current_context(silent=True)
+    typed = ctx.meta.get(TYPED_KEY, {}) if ctx is not None else {}
+    field = str(exc.field).lstrip("-")
+    if field not in typed:
+        return str(exc)
+    option, value = typed[field]
+    return f"{option}: got {value!r}; {exc.reason}"
 
 
 def os_error_text(exc: OSError) -> str:

@@ -106,4 +106,23 @@ def take_measures(system: str, values: dict, *metric_names: str) -> dict:
                 f"{units.option_name(name, system)} ({units.symbol(name, system)}) instead, or add "
                 f"--units {other}")
         out[name] = units.value_from(name, given[system], system)
+        if given[system] is not None:
+            _note_typed(name, units.option_name(name, system), given[system])
     return out
+
+
+TYPED_KEY = "pourback.typed_measures"
+
+
+def _note_typed(metric_name: str, option: str, value: float) -> None:
+    """Remember the option a measure was typed with and its value as typed, so
+    that an error about the measure names them (see cli.errors.handle_errors)
+    rather than the metric figure it was converted to."""
+    ctx = click.get_current_context(silent=True)
+    if ctx is None:
+        return
+    typed = ctx.meta.setdefault(TYPED_KEY, {})
+    for system in (units.METRIC, units.US):
+        column = units.column_name(metric_name, system)
+        for key in (column, column.replace("_", "-")):
+            typed[key] = (option, value)

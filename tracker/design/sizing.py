@@ -20,6 +20,7 @@ import numpy as np
 from tracker import units
 from tracker.design import geometry, rules
 from tracker.design.alloys import RULE_SETS, Alloy, CaineConstants, get_alloy
+from tracker.design.bounds import check_section_figures, check_step
 from tracker.errors import BadInput
 from tracker.limits import POUR_TEMP_RANGE_C, RANGES
 from tracker.numbers import missing
@@ -506,6 +507,8 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
         sleeve_factor = float(sleeve["modulus_factor"])
     validate_pour_temp(pour_temp_c, system)
     beta, liquid = rules.feed_fraction(alloy, mould, pour_temp_c, shrinkage)
+    check_section_figures(system, volume_cm3=volume_cm3, area_cm2=area_cm2, thickness_mm=thickness_mm,
+                          width_mm=width_mm, length_mm=length_mm)  # the import's ranges (issue 27)
     validate_section(volume_cm3, area_cm2, thickness_mm, system, joined=joined is not None)
     validate_design_options(h_over_d, sleeve_factor, modulus_factor)
     rules.check_efficiency(eff, beta, liquid)
@@ -568,6 +571,7 @@ def round_up_to_step(size: RiserSize, step: float, system: str = units.METRIC) -
     """The sized riser rounded up to the shop's diameter step given in the unit
     of ``system`` (mm, or in on the inch grid: a 1/2 in step gives multiples of
     12.7 mm); the same keys as :func:`round_up_diameter`, all metric."""
+    check_step(units.value_from("step_mm", step, system), system)
     if system != units.US:
         return round_up_diameter(size, step)
     d = units.round_up("diameter_mm", size.diameter_mm, step, system)

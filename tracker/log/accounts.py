@@ -88,7 +88,7 @@ MAX_UPLOAD_MB = 10
 # argon2-cffi's defaults are Argon2id with RFC 9106's second recommended option
 # (t=3 passes, m=64 MiB, p=4 lanes); spelled out so a library upgrade cannot weaken them.
 HASHER = PasswordHasher(time_cost=3, memory_cost=65536, parallelism=4, hash_len=32, salt_len=16)
-_DUMMY_HASH: list[str] = []  # verified against for an unknown user, so both take the same time
+_DUMMY_HASH: list[str] = []  # verified against for an unknown user, so both take the same time (_dummy_hash)
 
 
 @dataclass(frozen=True)
@@ -341,65 +341,81 @@ def set_enabled(store, name: str, enabled: bool, *, by: str | None = None,
 
 # --- sign-in and sessions ---------------------------------------------------------------------
 
+def _dummy_hash() -> str:
+    """The hash an unknown name's password is checked against (made on the first
+    sign-in of a process, whatever the name, so that it costs every name the same)."""
+    if not _DUMMY_HASH:
+        _DUMMY_HASH.append(hash_password(secrets.token_urlsafe(16)))
+    return _DUMMY_HASH[0]
+
+
+def refusal() -> SignInRefused:
+    """The one refusal of a sign-in: the same words for an unknown name, a disabled
+    account, a wrong password and a locked account, so that nobody learns from it
+    which names exist."""
+    return SignInRefused("The user name or the password is wrong, or the account is locked (names are matched "
+                         f"without case; after {LOCK_AFTER_FAILURES} wrong passwords in a row an account is "
+                         f"locked for {LOCK_MINUTES} minutes): wait, or ask an admin to set a new password with "
+                         "`pourback user passwd NAME`")
+
+
 def sign_in(store, name: str, password: str, *, idle_hours: float = DEFAULT_IDLE_HOURS,
             now: dt.datetime | None = None) -> Session:
     """Check a user name and password and open a dashboard session.
 
-    Refused (SignInRefused) for an unknown or disabled user or a wrong password,
-    with the same words for each; after LOCK_AFTER_FAILURES wrong passwords in a
-    row the account is locked for LOCK_MINUTES (AccountLocked), even for the
-    right password. Every attempt is audited; the password never is.
+    Refused (SignInRefused, with the same words and about the same time for
+    each) for an unknown or disabled user, a wrong password or a locked
+    account; after LOCK_AFTER_FAILURES wrong passwords in a row the account is
+    locked for LOCK_MINUTES (AccountLocked), even for the right password.
+    Counting a failure and checking the lock are one statement of the log
+    (see ``count_failed_sign_in`` and ``open_sign_in``), so simultaneous
+    sign-ins cannot pass the lock. Every attempt is audited; the password never is.
     """
     idle_hours = check_idle_hours(idle_hours)
     now = now or _now()
     at = _iso(now)
     name = str(name or "").strip()
     password = password if isinstance(password, str) else ""
+    dummy = _dummy_hash()
     acc = store.user_account(name) if NAME_RULE.fullmatch(name) else None
-    wrong = SignInRefused("The user name or the password is wrong (names are matched without case); "
-                          f"after {LOCK_AFTER_FAILURES} wrong passwords in a row an account is locked "
-                          f"for {LOCK_MINUTES} minutes")
-    if acc is None or not acc["enabled"]:
-        if not _DUMMY_HASH:
-            _DUMMY_HASH.append(hash_password(secrets.token_urlsafe(16)))
-        verify_password(_DUMMY_HASH[0], password)  # the same time as a known user's check
+    known: dict = acc if acc is not None and acc["enabled"] else {}
+    # The slow check, outside the write lock; a known name's locked account is checked too.
+    right = verify_password(known.get("password_hash", dummy), password)
+    rehash = bool(known) and right and HASHER.check_needs_rehash(known["password_hash"])
+    new_hash = hash_password(password) if rehash else None
+    if not known:
         # An unknown name is not recorded: it may be a password typed in the wrong field.
         record(store, "sign_in_failed", user=None, subject=acc["name"] if acc else None,
                detail="disabled account" if acc else "unknown user name", via="dashboard", at=now)
-        raise wrong
-    user = acc["name"]
-    if acc["locked_until"] and _parse(acc["locked_until"]) > now:
-        record(store, "sign_in_refused", user=user, subject=user, detail="account locked", via="dashboard",
-               at=now)
-        raise AccountLocked(user, _parse(acc["locked_until"]).strftime("%Y-%m-%d %H:%M"), LOCK_AFTER_FAILURES,
-                            LOCK_MINUTES)
-    if not verify_password(acc["password_hash"], password):
-        with store.write():
-            fresh = store.user_account(user)  # another sign-in may have counted meanwhile
-            failures = int(fresh["failed_sign_ins"] or 0) + 1
+        raise refusal()
+    user = known["name"]
+    token = secrets.token_urlsafe(32)
+    until = _iso(now + dt.timedelta(minutes=LOCK_MINUTES))
+    with store.write():
+        if right:
+            opened = store.open_sign_in(user, known["password_hash"], at, new_hash)
+            counted = None
+        else:
+            opened, counted = False, store.count_failed_sign_in(user, at, LOCK_AFTER_FAILURES, until)
+        if opened:
+            store.insert_session(_sha(token), user, at)
+            store.prune_sessions(_iso(now - dt.timedelta(days=SESSIONS_KEPT_DAYS)))
+            store.insert_audit(at, "sign_in", user, user, None, "dashboard")
+        elif counted is not None:
+            failures, locked = counted
             store.insert_audit(at, "sign_in_failed", user, user, f"wrong password ({failures} in a row)",
                                "dashboard")
-            if failures >= LOCK_AFTER_FAILURES:
-                until = now + dt.timedelta(minutes=LOCK_MINUTES)
-                store.update_user(user, failed_sign_ins=0, locked_until=_iso(until))
+            if locked:
                 store.end_sessions(at, "account locked", user=user)
                 store.insert_audit(at, "locked", None, user,
-                                   f"{failures} failed sign-ins in a row; locked until {_iso(until)}", "dashboard")
-            else:
-                store.update_user(user, failed_sign_ins=failures)
-        if failures >= LOCK_AFTER_FAILURES:
-            raise AccountLocked(user, until.strftime("%Y-%m-%d %H:%M"), failures, LOCK_MINUTES)
-        raise wrong
-    token = secrets.token_urlsafe(32)
-    with store.write():
-        fields = {"failed_sign_ins": 0, "locked_until": None, "last_sign_in": at}
-        if HASHER.check_needs_rehash(acc["password_hash"]):
-            fields["password_hash"] = hash_password(password)
-        store.update_user(user, **fields)
-        store.insert_session(_sha(token), user, at)
-        store.prune_sessions(_iso(now - dt.timedelta(days=SESSIONS_KEPT_DAYS)))
-        store.insert_audit(at, "sign_in", user, user, None, "dashboard")
-    return Session(user=user, role=acc["role"], idle_hours=idle_hours, started_at=at, token=token)
+                                   f"{failures} failed sign-ins in a row; locked until {until}", "dashboard")
+        else:  # locked (or disabled, or its password changed, since it was read)
+            store.insert_audit(at, "sign_in_refused", user, user, "account locked", "dashboard")
+    if opened:
+        return Session(user=user, role=known["role"], idle_hours=idle_hours, started_at=at, token=token)
+    if counted is None or counted[1]:
+        raise AccountLocked(refusal())
+    raise refusal()
 
 
 def _live_account(store, session: Session, now: dt.datetime) -> dict:

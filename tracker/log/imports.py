@@ -27,6 +27,14 @@ class ImportBookkeeping(MetaRows):
                           (digest, file, int(size), int(last_row), segments,
                            dt.datetime.now(dt.UTC).isoformat(timespec="seconds"), by))
 
+    def imports_by_digest(self, digests: Iterable[str]) -> dict[str, tuple[str, str]]:
+        """(file name, imported_at) of the imported files with the given digests."""
+        out: dict[str, tuple[str, str]] = {}
+        for where, params in self.dialect.in_list("digest", list(dict.fromkeys(digests))):
+            q = f"SELECT digest, file, imported_at FROM imports WHERE {where}"
+            out.update((r[0], (r[1], r[2])) for r in self.conn.execute(q, params).fetchall())
+        return out
+
     def has_legacy_keys(self) -> bool:
         """Whether the log holds records imported before files were keyed by digest."""
         return self.get_meta("legacy_keys") == "1"

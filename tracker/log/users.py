@@ -41,6 +41,34 @@ class UserRows(StoreCore):
         sets = ", ".join(f'"{k}" = ?' for k in fields)
         self.conn.execute(f"UPDATE users SET {sets} WHERE name = ?", (*fields.values(), name))
 
+    def count_failed_sign_in(self, name: str, at: str, lock_after: int, until: str) -> tuple[int, bool] | None:
+        """Count a wrong password for ``name`` and lock the account once the count
+        reaches ``lock_after`` (until ``until``, the count starting again), in one
+        statement, so simultaneous sign-ins cannot both read the count before
+        either writes it. None when the account is locked at ``at`` (nothing counted);
+        else (the failures in a row, whether this one locked it)."""
+        row = self.conn.execute(
+            "UPDATE users SET "
+            "locked_until = CASE WHEN failed_sign_ins + 1 >= ? THEN ? ELSE NULL END, "
+            "failed_sign_ins = CASE WHEN failed_sign_ins + 1 >= ? THEN 0 ELSE failed_sign_ins + 1 END "
+            "WHERE name = ? AND enabled = 1 AND (locked_until IS NULL OR locked_until <= ?) "
+            "RETURNING failed_sign_ins, locked_until", (lock_after, until, lock_after, name, at)).fetchone()
+        if row is None:
+            return None
+        locked = row[1] is not None
+        return (lock_after if locked else int(row[0])), locked
+
+    def open_sign_in(self, name: str, password_hash: str, at: str, new_hash: str | None = None) -> bool:
+        """Clear the failure count of ``name`` as its right password signs in, in one
+        statement that also checks the account is enabled, unlocked at ``at`` and
+        still has ``password_hash``; False (nothing changed) when it is not."""
+        row = self.conn.execute(
+            "UPDATE users SET failed_sign_ins = 0, locked_until = NULL, last_sign_in = ?, "
+            "password_hash = ? WHERE name = ? AND enabled = 1 AND password_hash = ? "
+            "AND (locked_until IS NULL OR locked_until <= ?) RETURNING name",
+            (at, new_hash or password_hash, name, password_hash, at)).fetchone()
+        return row is not None
+
     def enabled_users(self, role: str | None = None) -> int:
         """How many enabled accounts the log holds (of ``role`` only, if given)."""
         q = "SELECT COUNT(*) FROM users WHERE enabled = 1" + (" AND role = ?" if role else "")

@@ -17,7 +17,8 @@ from tracker.errors import BadRow, cut
 from tracker.limits import EARLIEST_DATE, RANGES, latest_date
 from tracker.log.ingest.columns import US_COLUMNS
 from tracker.log.ingest.result import MAX_PROBLEMS, ImportResult
-from tracker.log.ingest.text import CONTROL, INVISIBLE, code_spelling, invisible_text, prints
+from tracker.log.ingest.text import CONTROL, INVISIBLE, LINE_BREAK, code_spelling, invisible_text, prints
+from tracker.numbers import bound_text
 
 
 class Checks:
@@ -88,7 +89,9 @@ class Checks:
                 self.result.problems.append(problem)
         self.found = []
 
-    def text(self, name: str, required: bool = True, max_len: int = 200) -> pd.Series:
+    def text(self, name: str, required: bool = True, max_len: int = 200, lines: bool = False) -> pd.Series:
+        """A text cell; only free text (``lines``: notes, a description) may hold a
+        line break or a tab: a code or a name is one line."""
         s = self.col(name)
         if required:
             self.fail(s == "", name, f"{name} is required")
@@ -97,6 +100,10 @@ class Checks:
         # column holding a character that does not print is checked cell by cell.
         if not prints(s.tolist()):
             self.fail(s.str.contains(CONTROL, regex=True), name, f"{name} holds control characters")
+            if not lines:
+                self.fail(s.str.contains(LINE_BREAK, regex=True), name,
+                          lambda i: f"got {cut(s.iloc[i])}; {name} holds a line break or a tab; a code or a "
+                                    "name is written on one line: remove it")
             hidden = s.str.contains(INVISIBLE, regex=True)
             if hidden.any():
                 self.fail(hidden, name, lambda i: invisible_text(name, s.iloc[i]))
@@ -134,9 +141,9 @@ class Checks:
         kind = "a whole number" if whole else "a number"
         rule = kind
         if low is not None:
-            rule += f" {'of at least' if low_inclusive else 'above'} {_show(low)}"
+            rule += f" {'of at least' if low_inclusive else 'above'} {bound_text(low, lower=True)}"
         if high is not None:
-            rule += f"{' and' if low is not None else ''} at most {_show(high)}"
+            rule += f"{' and' if low is not None else ''} at most {bound_text(high, lower=False)}"
         rule += f" {unit}".rstrip()
         bad = ~empty & (num.isna() | ~np.isfinite(num.fillna(0)))
         if whole:
@@ -194,8 +201,3 @@ class Checks:
         self.fail(rows(~empty & (far | (parsed.notna() & (parsed > pd.Timestamp(latest))))), name,
                   f"{name} lies more than a year ahead (after {latest.isoformat()}); check the year")
         return full.where(~rows(empty), "")
-
-
-def _show(x: float) -> str:
-    """A limit as people write it: 1,000,000 rather than 1e+06."""
-    return f"{int(x):,}" if float(x).is_integer() else f"{x:g}"

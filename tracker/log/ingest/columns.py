@@ -29,7 +29,7 @@ COLUMNS = {  # (required, optional)
     "sleeves": (["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
                  "feeding_efficiency"], ["unit_cost"]),
     "risers": (["pattern", "revision", "effective_from", "riser", "zone", "placement", "top",
-                "diameter_mm", "height_mm"], ["sleeve", "neck_diameter_mm"]),
+                "diameter_mm", "height_mm"], ["sleeve", "neck_diameter_mm", "removed_risers"]),
     "lots": (["lot", "pattern", "poured_on", "heat", "molds"], ["pour_temp_c"]),
     "inspections": (["lot", "inspected_on", "method", "quantity", "result"],
                     ["defect", "zone", "xray_category", "severity", "serial", "inspector", "notes",

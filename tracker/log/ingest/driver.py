@@ -11,11 +11,14 @@ Rows are numbered as a spreadsheet shows them: the header is row 1.
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
 import json
 import os
 import pathlib
-from collections.abc import Callable
+import shutil
+import tempfile
+from collections.abc import Callable, Iterator
 
 import numpy as np
 import pandas as pd
@@ -43,7 +46,7 @@ def import_file(store: Store, kind: str, path: str | os.PathLike, *, skip_bad: b
                 by: str | None = None, today: dt.date | None = None,
                 progress: Callable[[int], None] | None = None,
                 chunk_rows: int = CHUNK_ROWS, sep: str = ",", decimal: str = ".",
-                refused_to: Callable | None = None) -> ImportResult:
+                refused_to: Callable | None = None, new_records: bool = False) -> ImportResult:
     """Validate and import one file of ``kind``; all of it or (by default) nothing.
 
     Raises BadFile listing every refused row unless ``skip_bad``. ``progress``
@@ -51,7 +54,7 @@ def import_file(store: Store, kind: str, path: str | os.PathLike, *, skip_bad: b
     """
     return import_files(store, [(kind, path)], skip_bad=skip_bad, by=by, today=today,
                         progress=progress, chunk_rows=chunk_rows, sep=sep, decimal=decimal,
-                        refused_to=refused_to)[0]
+                        refused_to=refused_to, new_records=new_records)[0]
 
 
 def _check_format(sep: str, decimal: str) -> str:
@@ -71,8 +74,14 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
                  by: str | None = None, today: dt.date | None = None,
                  progress: Callable[[int], None] | None = None,
                  chunk_rows: int = CHUNK_ROWS, sep: str = ",", decimal: str = ".",
-                 refused_to: Callable | None = None) -> list[ImportResult]:
+                 refused_to: Callable | None = None, new_records: bool = False) -> list[ImportResult]:
     """Import several files in one transaction, in the order given.
+
+    An inspections row found in the log from an earlier import (the same rows of
+    the same bytes, under any file name) is not added again, and the result's
+    warnings name that file and its import date; with ``new_records`` such rows
+    are added as new records (rows with a ``record_id`` are always matched by it).
+    A pipe (``/dev/stdin``) is read into a temporary file first.
 
     ``sep`` (``,`` ``;`` ``|`` or ``tab``) and ``decimal`` (``.`` or ``,``) say
     how the CSV files are written. With ``skip_bad``, ``refused_to(path)``
@@ -89,7 +98,7 @@ def import_files(store: Store, items: list[tuple[str, str | os.PathLike]], *, sk
             results = []
             for kind, path in items:
                 run = _FileImport(store, kind, path, skip_bad=skip_bad, by=by, today=today,
-                                  refused_to=refused_to)
+                                  refused_to=refused_to, new_records=new_records)
                 if run.report is not None:
                     reports.append(run.report)
                 result = run.run(progress=progress, chunk_rows=chunk_rows, sep=sep, decimal=decimal)
@@ -112,12 +121,15 @@ class _FileImport:
     and where its refused rows go."""
 
     def __init__(self, store: Store, kind: str, path: str | os.PathLike, *, skip_bad: bool, by: str | None,
-                 today: dt.date, refused_to: Callable | None):
+                 today: dt.date, refused_to: Callable | None, new_records: bool = False):
         if kind not in KINDS:
             raise BadInput("kind", kind, "must be one of " + ", ".join(KINDS))
         self.path = pathlib.Path(path)
-        if not self.path.is_file():
+        if not self.path.exists():
             raise BadFile(self.path.name, [], f"{self.path}: no such file")
+        if self.path.is_dir():
+            raise BadFile(self.path.name, [], f"{self.path}: is a folder; give a file")
+        self.new_records = new_records
         self.store = store
         self.kind = kind
         self.skip_bad = skip_bad
@@ -143,11 +155,19 @@ class _FileImport:
             decimal: str) -> ImportResult:
         """Validate the file chunk by chunk and write its good rows (none once a
         row is refused, unless ``skip_bad``)."""
-        identity = file_identity(self.store, self.path) if self.kind == "inspections" else None
+        with spooled(self.path) as path:
+            return self._run(path, progress=progress, chunk_rows=chunk_rows, sep=sep, decimal=decimal)
+
+    def _run(self, path: pathlib.Path, *, progress: Callable[[int], None] | None, chunk_rows: int, sep: str,
+             decimal: str) -> ImportResult:
+        identity = file_identity(self.store, path) if self.kind == "inspections" else None
+        if identity is not None and self.new_records:
+            identity = identity.as_new()
         validator = validator_for(self.kind, self.store, self.path.name, self.today, self.by, self.result,
                                   identity=identity)
         shape: dict = {}
-        for chunk, following in ahead(read_chunks(self.path, self.kind, chunk_rows, shape, sep=sep)):
+        chunks = read_chunks(path, self.kind, chunk_rows, shape, sep=sep, name=self.path.name)
+        for chunk, following in ahead(chunks):
             if not len(chunk):
                 continue
             self._chunk(validator, chunk, following, decimal)
@@ -184,6 +204,23 @@ class _FileImport:
             self.refuse_row({"row": row.pop("_row"), **row, "reason": c.reasons.get(int(i), "")})
         if self.writing:
             validator.write(good, following)
+
+
+@contextlib.contextmanager
+def spooled(path: pathlib.Path) -> Iterator[pathlib.Path]:
+    """``path`` itself when it is a regular file; else (a pipe, ``/dev/stdin``) its
+    bytes copied into a temporary file with the same suffix, removed afterwards:
+    a file is read more than once (its digest, its shape, its rows)."""
+    if path.is_file():
+        yield path
+        return
+    fd, tmp = tempfile.mkstemp(prefix="pourback-pipe-", suffix=path.suffix if path.suffix else ".csv")
+    try:
+        with os.fdopen(fd, "wb") as out, path.open("rb") as src:
+            shutil.copyfileobj(src, out, 1 << 20)
+        yield pathlib.Path(tmp)
+    finally:
+        os.unlink(tmp)
 
 
 def import_dir(store: Store, folder: str | os.PathLike, **kwargs) -> list[ImportResult]:

@@ -19,6 +19,7 @@ INVISIBLE = "[" + "".join(re.escape(ch) for ch in _INVISIBLE_CHARS) + "]"
 _INVISIBLE_RE = re.compile(INVISIBLE)
 # Control characters other than tab, line feed and carriage return.
 CONTROL = r"[\x00-\x08\x0b\x0c\x0e-\x1f]"
+LINE_BREAK = r"[\t\n\r\x85]"  # allowed in free text only
 
 
 def prints(values: list) -> bool:

@@ -104,6 +104,11 @@ class InspectionsValidator(Validator):
     def skipped(self, rows: list[tuple], c: Checks) -> np.ndarray:
         return self.already_present & ~c.bad
 
+    def finish(self) -> list:
+        """No problem across the file; the rows found from an earlier file are named in a warning."""
+        self.result.warnings.extend(self.keys.matched_notes())
+        return []
+
     def write(self, good: list[tuple], following: pd.DataFrame | None) -> None:
         if following is not None:
             self.prefetch(following)
@@ -122,7 +127,7 @@ class InspectionsValidator(Validator):
             sev=c.number("severity", required=False, low=1, low_inclusive=True, high=5, whole=True),
             serial=c.text("serial", required=False),
             inspector=c.text("inspector", required=False, max_len=100),
-            notes=c.text("notes", required=False, max_len=2000),
+            notes=c.text("notes", required=False, max_len=2000, lines=True),
             rid=c.text("record_id", required=False, max_len=64),
         )
 

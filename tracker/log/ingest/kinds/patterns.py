@@ -20,7 +20,7 @@ class PatternsValidator(Validator):
 
     def validate(self, c: Checks) -> list[tuple]:
         pattern = c.text("pattern", max_len=64)
-        desc = c.text("description", required=False, max_len=500)
+        desc = c.text("description", required=False, max_len=500, lines=True)
         alloy = c.code("alloy", sorted(ALLOYS))
         weight = c.measure("casting_weight_kg")
         per_mold = c.number("castings_per_mold", low=0, whole=True, high=10000)

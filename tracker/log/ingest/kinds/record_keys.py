@@ -30,6 +30,8 @@ class RecordKeys:
         self.identity = identity  # the file's digest and segments (None: a record typed in)
         self.log_was_empty = log_was_empty
         self.legacy = legacy  # the log holds rows keyed as before schema version 4
+        # digest of an imported file -> this file's rows found stored from it (by their key)
+        self.matched: dict[str, list[int]] = {}
         self._ids_in_file: dict[str, tuple] = {}  # record_id -> (row, content) seen in this file
         # occurrence counting of identical rows across chunks (legacy keys)
         self._seen_digests = np.zeros(0, dtype=np.uint64)
@@ -54,6 +56,9 @@ class RecordKeys:
         present_keys = set() if self.log_was_empty else self.store.keys_present(
             "inspections", "record_key", sorted(keys))  # sorted: neighbouring keys share index pages
         present = np.array([k in present_keys for k in keys], dtype=bool)
+        if self.identity is not None:
+            for i in np.flatnonzero(present & ~has_id):
+                self.matched.setdefault(keys[i][1:keys[i].index(":")], []).append(int(c.rows[i]))
         if has_id.any():
             self._check_ids(c, rid_l, keys, has_id, present, columns)
         if self.legacy and (~has_id & ~present).any():
@@ -62,6 +67,18 @@ class RecordKeys:
                                                    self.file)
             present |= ~has_id & np.array([k in found for k in legacy], dtype=bool)
         return keys, present
+
+    def matched_notes(self) -> list[str]:
+        """For each earlier file this file's rows were found from: which rows, the
+        file's name and its import date, and how to add them as new records."""
+        named = self.store.imports_by_digest(self.matched)
+        notes = []
+        for digest, rows in self.matched.items():
+            file, at = named.get(digest, ("an earlier import", ""))
+            when = f", imported {at[:16].replace('T', ' ')} UTC" if at else ""
+            notes.append(f"{rows_text(rows)} already in the log from {file}{when} (the same rows of the same "
+                         "bytes), not added again; if they are new inspections, import again with --new-records")
+        return notes
 
     def _check_ids(self, c: Checks, rid_l: list, keys: list, has_id: np.ndarray, present: np.ndarray,
                    columns: list) -> None:
@@ -124,3 +141,19 @@ class RecordKeys:
         self._seen_digests = all_d[s2]
         self._seen_counts = np.add.reduceat(all_c, np.flatnonzero(s2))
         return occ
+
+
+def rows_text(rows: list[int]) -> str:
+    """'row 2', 'rows 2-4', 'rows 2-4, 7 and 9 more' (runs of consecutive rows)."""
+    rows = sorted(rows)
+    if len(rows) == 1:
+        return f"row {rows[0]}"
+    runs: list[list[int]] = []
+    for r in rows:
+        if runs and r == runs[-1][1] + 1:
+            runs[-1][1] = r
+        else:
+            runs.append([r, r])
+    shown = [f"{a}" if a == b else f"{a}-{b}" for a, b in runs[:5]]
+    more = f" and {sum(b - a + 1 for a, b in runs[5:])} more" if len(runs) > 5 else ""
+    return f"{len(rows)} rows ({', '.join(shown)}{more})"

@@ -6,6 +6,8 @@ changed once stored, so its rows wait for the whole file (:meth:`RisersValidator
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 import pandas as pd
 
@@ -19,6 +21,30 @@ from tracker.log.ingest.values import to_null
 from tracker.numbers import finite
 
 H_OVER_D_SANE = (0.25, 4.0)
+REMOVED_SPLIT = re.compile(r"[\s;,]+")  # removed_risers: riser codes separated by spaces, ';' or ','
+
+
+def _codes(codes: set) -> str:
+    return ", ".join(sorted(codes))
+
+
+def _removal_problem(pattern: str, revision: str, prev: str, before: set, listed: set, removed: set) -> str:
+    """Why a new revision's risers do not follow from the one before ('' when they do)."""
+    left_out = before - listed - removed
+    if left_out:
+        return (f"revision {revision} of {pattern} lists risers {_codes(listed)} but leaves out "
+                f"{_codes(left_out)} of revision {prev} before it; a revision lists every riser the pattern "
+                "keeps (unchanged ones too): add their rows, or name the risers it removes in the column "
+                "removed_risers")
+    unknown = removed - before
+    if unknown:
+        return (f"revision {revision} of {pattern} removes {_codes(unknown)} in removed_risers, but revision "
+                f"{prev} before it has no such riser (it has {_codes(before)})")
+    both = removed & listed
+    if both:
+        return (f"revision {revision} of {pattern} both lists and removes {_codes(both)}; remove the row or "
+                "the name in removed_risers")
+    return ""
 RISER_SHAPE = ["riser", "zone", "placement", "top", "diameter_mm", "height_mm", "sleeve", "neck_diameter_mm"]
 
 
@@ -45,6 +71,7 @@ class RisersValidator(Validator):
         h = c.measure("height_mm")
         sleeve = c.text("sleeve", required=False, max_len=64)
         neck = c.measure("neck_diameter_mm", required=False)
+        removed = c.text("removed_risers", required=False, max_len=1000)
         self._check_shape(c, dia, h, neck, placement)
         self.known_patterns(c, pattern)
         zone = self._check_zone(c, pattern, zone)
@@ -53,7 +80,7 @@ class RisersValidator(Validator):
         rows = [(p, r, rs, z, pl, t, d, hh, to_null(s), finite(n))
                 for p, r, rs, z, pl, t, d, hh, s, n in
                 zip(pattern, revision, riser, zone, placement, top, dia, h, sleeve, neck, strict=False)]
-        self._collect_revisions(c, pattern, revision, eff, rows)
+        self._collect_revisions(c, pattern, revision, eff, rows, removed)
         return rows
 
     @staticmethod
@@ -94,13 +121,15 @@ class RisersValidator(Validator):
                          f"{units.symbol('diameter_mm', dsys)}; the riser diameter is the sleeve's")
 
     def _collect_revisions(self, c: Checks, pattern: pd.Series, revision: pd.Series, eff: pd.Series,
-                           rows: list[tuple]) -> None:
-        """Gather the good rows by revision: one effective date each."""
-        for i, (p, r, e) in enumerate(zip(pattern, revision, eff, strict=False)):
+                           rows: list[tuple], removed: pd.Series) -> None:
+        """Gather the good rows by revision: one effective date each, and the
+        risers it removes (``removed_risers``, on any of its rows)."""
+        for i, (p, r, e, gone) in enumerate(zip(pattern, revision, eff, removed, strict=False)):
             if c.bad[i]:
                 continue
-            rev = self._revisions_in_file.setdefault((p, r), {"effective_from": e, "rows": [],
+            rev = self._revisions_in_file.setdefault((p, r), {"effective_from": e, "rows": [], "removed": set(),
                                                                "first_row": int(c.rows[i])})
+            rev["removed"].update(x for x in REMOVED_SPLIT.split(gone) if x)
             if rev["effective_from"] != e:
                 c.fail(np.arange(len(rows)) == i, "effective_from",
                        f"revision {r} of {p} is dated {rev['effective_from']} on an earlier row; "
@@ -137,6 +166,34 @@ class RisersValidator(Validator):
                                        "a stored revision is never changed: give the new design "
                                        "a new revision code and date"))
         self._new_revs = new_revs
+        return problems + self._left_out(new_revs, stored)
+
+    def _left_out(self, new_revs: list[tuple], stored: pd.DataFrame) -> list[BadRow]:
+        """A new revision lists every riser its pattern keeps: refuse one that leaves
+        out a riser of the revision before it (the one in effect the day before,
+        stored or earlier in this file) unless ``removed_risers`` names it."""
+        by_pattern: dict[str, list[tuple]] = {}
+        for p, r, e in stored.itertuples(index=False):
+            by_pattern.setdefault(p, []).append((e, r, None))
+        for (p, r), rev in self._revisions_in_file.items():
+            if (p, r, rev["effective_from"]) in new_revs:
+                by_pattern.setdefault(p, []).append((rev["effective_from"], r, rev))
+        problems = []
+        for p, revs in by_pattern.items():
+            revs.sort(key=lambda x: x[0])
+            for (_, prev, prev_rev), (_, r, rev) in zip(revs, revs[1:], strict=False):
+                if rev is None:
+                    continue
+                before = ({row[2] for row in prev_rev["rows"]} if prev_rev is not None
+                          else set(self.store.risers_frame(pattern=p, revision=prev)["riser"]))
+                problem = _removal_problem(p, r, prev, before, {row[2] for row in rev["rows"]}, rev["removed"])
+                if problem:
+                    problems.append(BadRow(self.file, rev["first_row"], "revision", problem))
+            first = next((x for x in revs if x[2] is not None), None)
+            if first is not None and first is revs[0] and first[2]["removed"]:
+                problems.append(BadRow(self.file, first[2]["first_row"], "removed_risers",
+                                       f"revision {first[1]} of {p} is its first: it has no earlier risers "
+                                       "to remove; leave removed_risers blank"))
         return problems
 
     def _stored_risers(self, pattern: str, revision: str) -> set[tuple]:

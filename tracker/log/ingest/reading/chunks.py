@@ -16,12 +16,12 @@ from tracker.log.ingest.reading.workbook import read_xlsx
 
 
 def read_chunks(path: pathlib.Path, kind: str, chunk_rows: int, shape: dict | None = None,
-                sep: str = ",") -> Iterator[pd.DataFrame]:
+                sep: str = ",", name: str | None = None) -> Iterator[pd.DataFrame]:
     """Chunks of the file as all-string frames with a ``_row`` column (file row
     number). ``shape["last_row"]`` is set to the file's last row number, blank
-    rows included."""
+    rows included. ``name``: the file's name in messages (default its own)."""
     shape = {} if shape is None else shape
-    name = path.name
+    name = name or path.name
     suffix = path.suffix.lower()
     if suffix in (".xlsx", ".xlsm"):
         yield from read_xlsx(path, kind, chunk_rows, shape)

@@ -24,18 +24,20 @@ def check_shape(name: str, kind: str, path: pathlib.Path, sep: str = ",") -> int
     cells as an index, shifting every value one column over; so the header is
     checked as written and a row with filled cells beyond the header is refused.
     Extra empty cells (a trailing comma) are ignored. A last line with no line
-    end and fewer cells than the header is refused as cut short.
+    end and fewer cells than the header is refused as cut short, and so is one
+    that ends in a digit (a number may have lost its last digits).
     """
     with path.open("rb") as fh:
         size = fh.seek(0, os.SEEK_END)
         if size:
             fh.seek(size - 1)
-        ends_line = size == 0 or fh.read(1) in (b"\n", b"\r")
+        last = fh.read(1) if size else b""
+        ends_line = size == 0 or last in (b"\n", b"\r")
     csv.field_size_limit(max(csv.field_size_limit(), FIELD_LIMIT))
     # newline="\n": lines split as an in-memory text would split them (csv handles \r\n)
     with path.open(encoding="utf-8-sig", newline="\n") as fh:
         return _check_records(name, kind, csv.reader(fh, delimiter=sep), sep=sep, ends_line=ends_line,
-                              path=path)
+                              path=path, ends_digit=last.isdigit())
 
 
 def _sniff(path: pathlib.Path, kind: str) -> str | None:
@@ -71,7 +73,7 @@ def _check_raw_header(name: str, kind: str, header: list[str], sep: str, path: p
 
 
 def _check_records(name: str, kind: str, reader, sep: str = ",", ends_line: bool = True,
-                   path: pathlib.Path | None = None) -> int:
+                   path: pathlib.Path | None = None, ends_digit: bool = False) -> int:
     """Check the header and each record's width as the csv module reads them (see check_shape)."""
     n = 1
     header = None
@@ -111,6 +113,12 @@ def _check_records(name: str, kind: str, reader, sep: str = ",", ends_line: bool
         raise BadFile(name, [], f"{name}, row {n}: the last line is cut short: it has {len(cells)} of the "
                                 f"header's {width} cells and no line end; the file was probably cut off "
                                 "while being copied or saved: export it again")
+    if ends_digit and n > 1 and cells and len(cells) <= width:
+        column = header[len(cells) - 1]
+        raise BadFile(name, [], f"{name}, row {n}: the last line has no line end and ends in a number "
+                                f"({column} {cells[-1]!r}); the file may have been cut off while being copied "
+                                "or saved, and the number with it (50 cut to 5): export it again, or, if the "
+                                "row is whole, end the file with a line end")
     return width
 
 
