@@ -61,7 +61,10 @@ ROLES = {r.name: r for r in (
     Role("methods", "everything of an inspector, plus patterns, zones, sleeves, riser revisions, "
                     "what-if and fit-model", frozenset({"log", "design", "what_if", "fit_model"})),
     Role("reviewer", "reads every page and report, writes nothing", frozenset()),
-    Role("admin", "users, backup and restore, settings", frozenset({"users", "backup", "settings"})),
+    # Every action, whatever is added to ACTIONS later: the lead who runs the log also logs,
+    # corrects, imports and works on the methods side.
+    Role("admin", "everything: every other role's work, plus users, backup and restore, settings",
+         frozenset(ACTIONS)),
 )}
 # Every role reads every page and report; these are the writes.
 TABLE_ACTION = {"patterns": "design", "zones": "design", "sleeves": "design", "revisions": "design",
