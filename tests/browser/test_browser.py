@@ -9,7 +9,7 @@ POURBACK_REQUIRE_BROWSER=1 (CI sets it), when it fails instead.
 
 import pytest
 
-from tests.support.browser import choose, full_screenshot, lot_with_room, settle
+from tests.support.browser import choose, full_screenshot, lot_with_room, outside_requests, settle
 from tracker.cautions import SAFETY_CAUTION
 
 pytestmark = pytest.mark.browser
@@ -28,6 +28,7 @@ PAGES = [
 def page(browser, server):
     pg = browser.new_page(viewport={"width": 1400, "height": 900})
     pg.set_default_timeout(60_000)
+    pg.outside = outside_requests(pg, server["url"])  # every request to another host, page after page
     yield pg
     pg.close()
 
@@ -49,6 +50,8 @@ def test_every_page_renders_with_the_caution(page, server, path, title, name):
         page.locator('[data-testid="stVegaLiteChart"] canvas, [data-testid="stVegaLiteChart"] svg').first.wait_for()
     shot = full_screenshot(page, name)
     assert shot.stat().st_size > 20_000  # a page, not a blank window
+    # issue 28: a plant may run without the internet, and a page must not tell another host it was opened
+    assert page.outside == [], f"{name} asked another host: {page.outside}"
 
 
 def test_log_one_result_through_the_form(page, server):
