@@ -2,6 +2,7 @@
 
 import base64
 import datetime as dt
+import hashlib
 
 import pytest
 from argon2 import PasswordHasher
@@ -343,3 +344,28 @@ def test_audit_since(team):
     assert [r["event"] for r in later if r["subject"] == "ins"] == ["sign_in"]
     with pytest.raises(BadInput, match="since: got 'yesterday'"):
         auth.audit_log(team, "yesterday")
+
+
+# --- a session found again after a reload (issue 28) -------------------------------------------
+
+def test_a_kept_token_resumes_its_session_until_it_is_signed_out_or_idle(team):
+    s = auth.sign_in(team, "ins", PASSWORD, idle_hours=1)
+    # 32 random bytes (secrets.token_urlsafe: 256 bits, Python's documentation), kept only as its SHA-256
+    assert len(s.token) == 43 and team.session_row(hashlib.sha256(s.token.encode()).hexdigest()) is not None
+    kept = team.conn.execute("SELECT * FROM sessions").fetchall()
+    assert kept and not any(s.token in str(v) for row in kept for v in row)
+    again = auth.resume(team, s.token, idle_hours=1)
+    assert (again.user, again.role, again.started_at, again.token) == ("ins", "inspector", s.started_at, s.token)
+    # a token the log never issued, or not a token at all: nothing to resume
+    assert auth.resume(team, "A" * 43) is None
+    assert auth.resume(team, "x'; --") is None and auth.resume(team, None) is None
+    # idle longer than the idle limit: ended, and audited
+    later = dt.datetime.now(dt.UTC) + dt.timedelta(hours=1, minutes=1)
+    with pytest.raises(SessionExpired, match="after 1 hours without activity"):
+        auth.resume(team, s.token, idle_hours=1, now=later)
+    assert auth.audit_log(team)[-1]["event"] == "session_expired"
+    # signed out: the token is revoked
+    t = auth.sign_in(team, "ins", PASSWORD)
+    auth.sign_out(team, t)
+    with pytest.raises(SessionExpired, match="signed out"):
+        auth.resume(team, t.token)
