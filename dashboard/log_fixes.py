@@ -163,10 +163,14 @@ def _add_lot(system: str) -> None:
         s["lot_message"] = ("exception", exc)
         return
     common.forget()
-    s["lot"] = record["lot"]  # the record form opens on the new lot
+    picked = record["lot"] in set(common.load("lot_options")["lot"])  # the newest lots only
+    if picked:
+        s["lot"] = record["lot"]  # the record form opens on the new lot
     warn = (" Note: " + "; ".join(res.warnings) + ".") if res.warnings else ""
+    where = ("it is picked in the form above" if picked else
+             "it was poured before the newest lots the form lists: log its results in an inspections file")
     s["lot_message"] = ("success", f"Saved lot {common.md_escape(record['lot'])} of pattern "
-                                   f"{common.md_escape(record['pattern'])}; it is picked in the form above.{warn}")
+                                   f"{common.md_escape(record['pattern'])}; {where}.{warn}")
     for key in ("new_lot_code", "new_lot_heat", "new_lot_molds", "new_lot_temp"):
         s[key] = None if key in ("new_lot_molds", "new_lot_temp") else ""
 
