@@ -2,7 +2,10 @@
 
 ``pourback dashboard`` says by $POURBACK_SIGN_IN whether visitors must sign in
 (always beyond loopback, or with --require-login). Signed in, the session is a
-``tracker.log.accounts.Session`` kept in this browser tab's state; pages ask
+``tracker.log.accounts.Session`` kept in this browser tab's state, and its token
+(random, 256 bits; the log keeps only its SHA-256) in a cookie of this site, so a
+reload finds it again (``accounts.resume``) while the session is live; signing
+out ends it in the log and deletes the cookie. No password is kept by the browser. Pages ask
 :func:`can` before offering a button, and write through :func:`open_store`,
 whose every write the library checks against the user's role again.
 
@@ -12,6 +15,7 @@ everything and names itself in a text field, as before accounts existed.
 
 from __future__ import annotations
 
+import hashlib
 import os
 
 import streamlit as st
@@ -23,6 +27,9 @@ from tracker.log.store import Store
 
 _KEY = "pourback_session"
 _NOTE = "pourback_sign_in_note"
+_TRIED = "pourback_cookie_tried"  # the cookie's token, once looked up in this tab (not again)
+_SET_COOKIE = "pourback_set_cookie"  # after a sign-in: write the cookie on the next page
+_FORGET = "pourback_forget_cookie"  # after a sign-out or an ended session: delete it
 
 
 def _md(text: str) -> str:
@@ -76,12 +83,65 @@ def author_field(container, label: str, key: str) -> str:
     return container.text_input(label, key=key, max_chars=100).strip()
 
 
+# --- the session's cookie -------------------------------------------------------------------
+
+def cookie_name(path: str) -> str:
+    """One cookie per log: dashboards on other ports of the same host (which share
+    cookies) keep their own sessions."""
+    return "pourback_session_" + hashlib.sha256(path.encode()).hexdigest()[:12]
+
+
+def _cookie_token(path: str) -> str | None:
+    token = st.context.cookies.get(cookie_name(path))
+    return token if isinstance(token, str) and auth.TOKEN_RULE.fullmatch(token) else None
+
+
+def _cookie_script(path: str, token: str | None) -> str:
+    """A script writing (or, for None, deleting) the session cookie: this site only
+    (SameSite=Strict), over HTTPS only when served with TLS, gone when the browser closes."""
+    name = cookie_name(path)
+    secure = "; Secure" if os.environ.get("POURBACK_TLS") == "1" else ""
+    if token is None or not auth.TOKEN_RULE.fullmatch(token):
+        value = f"{name}=; Path=/; Max-Age=0; SameSite=Strict{secure}"
+    else:
+        value = f"{name}={token}; Path=/; SameSite=Strict{secure}"
+    return f'<script>document.cookie = "{value}";</script>'
+
+
+def _resume(path: str) -> None:
+    """A reloaded page: the session whose token the cookie holds, if still live (once per tab)."""
+    token = _cookie_token(path)
+    if token is None or st.session_state.get(_TRIED) == token:
+        return
+    st.session_state[_TRIED] = token
+    try:
+        with Store(path) as store:
+            resumed = auth.resume(store, token, idle_hours=idle_hours())
+    except SessionExpired as exc:
+        st.session_state[_NOTE] = str(exc)
+        resumed = None
+    if resumed is None:
+        st.session_state[_FORGET] = True
+    else:
+        st.session_state[_KEY] = resumed
+
+
+def _forget_here(path: str) -> None:
+    """After this tab's session ended: no retry of the cookie's token, and delete the cookie."""
+    token = _cookie_token(path)
+    if token is not None:
+        st.session_state[_TRIED] = token
+    st.session_state[_FORGET] = True
+
+
 def gate(path: str, url_paths: list[str]) -> bool:
     """True when the page may be shown: no sign-in asked, or a live session.
     Otherwise shows the sign-in form (and nothing else) at every page's address
     (so a link to a page leads there after signing in) and returns False."""
     if not sign_in_required():
         return True
+    if st.session_state.get(_KEY) is None:
+        _resume(path)
     current = st.session_state.get(_KEY)
     if current is not None:
         try:
@@ -91,6 +151,7 @@ def gate(path: str, url_paths: list[str]) -> bool:
         except SessionExpired as exc:
             st.session_state.clear()
             st.session_state[_NOTE] = str(exc)
+            _forget_here(path)
     form = lambda: _sign_in_page(path)  # noqa: E731 (a one-line local helper)
     st.navigation([st.Page(form, title="Sign in", url_path=u, default=i == 0) for i, u in enumerate(url_paths)],
                   position="hidden").run()
@@ -98,6 +159,8 @@ def gate(path: str, url_paths: list[str]) -> bool:
 
 
 def _sign_in_page(path: str) -> None:
+    if st.session_state.pop(_FORGET, False):
+        st.html(_cookie_script(path, None), unsafe_allow_javascript=True)
     st.title("Pourback: sign in")
     note = st.session_state.pop(_NOTE, None)
     if note:
@@ -115,6 +178,7 @@ def _sign_in_page(path: str) -> None:
     try:
         with Store(path) as store:
             st.session_state[_KEY] = auth.sign_in(store, name, password, idle_hours=idle_hours())
+            st.session_state[_SET_COOKIE] = True
     except SignInRefused as exc:
         st.error(_md(str(exc).replace("`", "") + "."), icon=":material/lock:")
         return
@@ -128,11 +192,14 @@ def sidebar(path: str) -> None:
     s = session()
     if s is None:
         return
+    if st.session_state.pop(_SET_COOKIE, False):  # just signed in: a reload finds the session again
+        st.html(_cookie_script(path, s.token), unsafe_allow_javascript=True)
     st.caption(f"Signed in as **{_md(s.user)}** ({s.role})")
     if st.button("Sign out", key="sign_out"):
         with Store(path) as store:
             auth.sign_out(store, s)
         st.session_state.clear()  # nothing of this user's widgets is left for the next one
+        _forget_here(path)
         st.rerun()
     if s.role == "admin" and served_without_tls():
         st.warning(NO_TLS_TEXT, icon=":material/lock_open:")

@@ -8,11 +8,16 @@ a traceback.
 
 from __future__ import annotations
 
+import pathlib
+
 import streamlit as st
 
 from dashboard import access, common
 
-st.set_page_config(page_title="Pourback", page_icon=":material/insights:", layout="wide")
+# A file served by the app itself: a ":material/...:" page icon makes the browser fetch
+# the favicon from an outside font host, on every page.
+ICON = pathlib.Path(__file__).with_name("icon.png")
+st.set_page_config(page_title="Pourback", page_icon=ICON, layout="wide")
 
 # file, title, icon, address; "/" opens the first (through HOME below)
 SPECS = [

@@ -46,6 +46,7 @@ def _registry() -> dict:
         "zone_options": log_views.zone_options,
         "latest_records": log_views.latest_records,
         "lot_accounting": log_views.lot_accounting,
+        "lot_records": log_views.lot_records,
         "week_options": views.week_options,
         "default_week": review.default_week,
         "current_revisions": map_views.current_revisions,

@@ -15,7 +15,7 @@ import tempfile
 
 import streamlit as st
 
-from dashboard import access, common
+from dashboard import access, common, log_fixes
 from tracker import units
 from tracker.log.accounts import MAX_UPLOAD_MB, TABLE_ACTION
 from tracker.log.ingest import DEFECTS, KINDS, METHODS, RESULTS, XRAY_CATEGORIES, import_file, log_inspection
@@ -149,6 +149,7 @@ def record_form(state: dict) -> None:
             st.error(what)
         else:
             common.show_error(what)
+            log_fixes.hint_after(what)
 
 
 def upload_file() -> None:
@@ -206,12 +207,14 @@ def latest(state: dict) -> None:
 
 def main() -> None:
     common.header("Log results", "Record inspection results per pour lot, import files, and check "
-                                 "the latest records. Records are never overwritten; corrections are "
-                                 "made with `pourback correct`.")
+                                 "the latest records. Records are never overwritten: a correction or a "
+                                 "withdrawal is a new record, and the old one stays in the history.")
     state = common.load("start_state")
     if not any(state["counts"].values()):
         common.start_message(state)
     record_form(state)
+    log_fixes.lot_form()
+    log_fixes.correct_form()
     st.divider()
     upload_file()
     st.divider()

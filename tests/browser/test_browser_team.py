@@ -10,6 +10,7 @@ Skipped without /usr/bin/chromium or playwright, unless POURBACK_REQUIRE_BROWSER
 """
 
 import datetime as dt
+import hashlib
 import os
 import shutil
 import subprocess
@@ -19,7 +20,15 @@ import urllib.request
 
 import pytest
 
-from tests.support.browser import choose, free_port, full_screenshot, lot_with_room, running_dashboard, settle
+from tests.support.browser import (
+    choose,
+    free_port,
+    full_screenshot,
+    lot_with_room,
+    outside_requests,
+    running_dashboard,
+    settle,
+)
 from tracker.errors import PermissionDenied
 from tracker.log import accounts as auth
 from tracker.log.ingest import log_inspection
@@ -208,6 +217,8 @@ def test_an_inspector_logs_a_result_that_carries_their_name(page, team_server):
 def test_admin_sees_accounts_the_audit_and_the_tls_warning(page, team_server):
     page.goto(team_server["url"])
     sign_in(page, "boss", PASSWORD)
+    page.get_by_role("button", name="Save record").wait_for()  # the admin logs too (issue 28): a longer page
+    settle(page)
     page.get_by_role("link", name="Team").click()
     page.get_by_role("heading", name="Team", level=1).wait_for()
     settle(page)
@@ -215,6 +226,45 @@ def test_admin_sees_accounts_the_audit_and_the_tls_warning(page, team_server):
     assert page.get_by_text("Served beyond this computer without TLS").count() >= 1
     assert page.get_by_role("button", name="Save record").count() == 0
     full_screenshot(page, "team-admin")
+
+
+def test_a_reload_keeps_the_session_and_signing_out_revokes_it(page, team_server):
+    """Issue 28: a reload no longer signs the user out; the session's token is kept in a
+    cookie of this site (never the password) and is worthless once signed out. The
+    admin may log at the bench too. No page, the sign-in form included, asks another host."""
+    outside = outside_requests(page, team_server["url"])
+    page.goto(team_server["url"])
+    sign_in(page, "boss", PASSWORD)
+    page.get_by_role("button", name="Save record").wait_for()  # the admin logs as well
+    settle(page)
+    page.wait_for_function("() => document.cookie.includes('pourback_session_')")
+    [kept] = [c for c in page.context.cookies() if c["name"].startswith("pourback_session_")]
+    assert (kept["sameSite"], kept["expires"]) == ("Strict", -1)  # this site only; gone with the browser
+    stored = page.evaluate("() => JSON.stringify(localStorage) + JSON.stringify(sessionStorage) + document.cookie")
+    assert PASSWORD not in stored and PASSWORD not in str(page.context.cookies())
+    sha = hashlib.sha256(kept["value"].encode()).hexdigest()
+    with Store(team_server["db"]) as s:
+        assert s.session_row(sha)["user"] == "boss"
+
+    page.reload()
+    page.get_by_role("heading", name="Log results", level=1).wait_for()
+    page.get_by_text("Signed in as boss (admin)").wait_for()
+    assert page.get_by_label("User name").count() == 0
+    page.get_by_role("button", name="Save record").wait_for()
+    settle(page)
+
+    page.get_by_role("button", name="Sign out").click()
+    page.get_by_role("heading", name="Pourback: sign in", level=1).wait_for()
+    settle(page)
+    assert not [c for c in page.context.cookies() if c["name"] == kept["name"] and c["value"]]
+    with Store(team_server["db"]) as s:
+        assert s.session_row(sha)["end_reason"] == "signed out"
+    # the old token, put back by hand, opens nothing: it was revoked at sign-out
+    page.context.add_cookies([kept])
+    page.reload()
+    page.get_by_text("Your session ended (signed out); sign in again.").wait_for()
+    assert page.get_by_role("heading", name="Log results").count() == 0
+    assert outside == [], outside
 
 
 def test_no_page_shows_a_password_or_a_hash(page, team_server):

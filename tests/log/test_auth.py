@@ -2,6 +2,7 @@
 
 import base64
 import datetime as dt
+import hashlib
 
 import pytest
 from argon2 import PasswordHasher
@@ -208,12 +209,13 @@ def test_sign_out_and_disable_end_sessions(team):
 
 # issue 15's role definitions: inspector logs, corrects and imports results and lots;
 # methods adds patterns, zones, sleeves, riser revisions, what-if and fit-model;
-# reviewer writes nothing; admin has users, backup and restore, settings
+# reviewer writes nothing; admin has users, backup and restore, settings, and (issue 28) can do
+# what every other role can
 EXPECTED = {
     "inspector": {"log"},
     "methods": {"log", "design", "what_if", "fit_model"},
     "reviewer": set(),
-    "admin": {"users", "backup", "settings"},
+    "admin": set(auth.ACTIONS),
 }
 
 
@@ -234,15 +236,14 @@ def _as(store, session):
     return store
 
 
-@pytest.mark.parametrize("name", ["rev", "adm"])
-def test_reviewer_and_admin_cannot_log_a_result(team, lot_with_room, name):
+@pytest.mark.parametrize("name", ["rev"])
+def test_reviewer_cannot_log_a_result(team, lot_with_room, name):
     before = team.snapshot()["inspections"]
     _as(team, auth.sign_in(team, name, PASSWORD))
     with pytest.raises(PermissionDenied) as exc:
         log_inspection(team, lot_with_room, by="forged name", today=dt.date(2026, 6, 1))
-    role = "reviewer" if name == "rev" else "admin"
-    assert str(exc.value) == (f"{name} (role {role}) may not log, correct or import inspection results and "
-                              "lots; nothing was written. That needs the role inspector or methods: sign in "
+    assert str(exc.value) == (f"{name} (role reviewer) may not log, correct or import inspection results and "
+                              "lots; nothing was written. That needs the role inspector or methods or admin: sign in "
                               "as such a user, or ask an admin to give you an account with it")
     # A write that skips the ingest functions is refused by the store itself.
     with pytest.raises(PermissionDenied):
@@ -250,6 +251,16 @@ def test_reviewer_and_admin_cannot_log_a_result(team, lot_with_room, name):
     with pytest.raises(PermissionDenied):
         correct_inspection(team, 1, {"quantity": 2}, by="x", reason="forged")
     assert team.snapshot()["inspections"] == before
+
+
+def test_admin_logs_corrects_and_imports_as_themselves(team, lot_with_room):
+    # issue 28: the README's example admin is the QA lead, who logs at the bench as well
+    _as(team, auth.sign_in(team, "adm", PASSWORD))
+    rid = log_inspection(team, lot_with_room, by="someone else", today=dt.date(2026, 6, 1))
+    new = correct_inspection(team, rid, {"void": True}, by="x", reason="entered twice",
+                             today=dt.date(2026, 6, 1))
+    assert [team.inspection(i)["recorded_by"] for i in (rid, new)] == ["adm", "adm"]
+    assert sum(r.added for r in import_dir(team, GOOD)) == 0  # design files: permitted, already present
 
 
 def test_inspector_logs_as_themselves(team, lot_with_room):
@@ -338,3 +349,28 @@ def test_audit_since(team):
     assert [r["event"] for r in later if r["subject"] == "ins"] == ["sign_in"]
     with pytest.raises(BadInput, match="since: got 'yesterday'"):
         auth.audit_log(team, "yesterday")
+
+
+# --- a session found again after a reload (issue 28) -------------------------------------------
+
+def test_a_kept_token_resumes_its_session_until_it_is_signed_out_or_idle(team):
+    s = auth.sign_in(team, "ins", PASSWORD, idle_hours=1)
+    # 32 random bytes (secrets.token_urlsafe: 256 bits, Python's documentation), kept only as its SHA-256
+    assert len(s.token) == 43 and team.session_row(hashlib.sha256(s.token.encode()).hexdigest()) is not None
+    kept = team.conn.execute("SELECT * FROM sessions").fetchall()
+    assert kept and not any(s.token in str(v) for row in kept for v in row)
+    again = auth.resume(team, s.token, idle_hours=1)
+    assert (again.user, again.role, again.started_at, again.token) == ("ins", "inspector", s.started_at, s.token)
+    # a token the log never issued, or not a token at all: nothing to resume
+    assert auth.resume(team, "A" * 43) is None
+    assert auth.resume(team, "x'; --") is None and auth.resume(team, None) is None
+    # idle longer than the idle limit: ended, and audited
+    later = dt.datetime.now(dt.UTC) + dt.timedelta(hours=1, minutes=1)
+    with pytest.raises(SessionExpired, match="after 1 hours without activity"):
+        auth.resume(team, s.token, idle_hours=1, now=later)
+    assert auth.audit_log(team)[-1]["event"] == "session_expired"
+    # signed out: the token is revoked
+    t = auth.sign_in(team, "ins", PASSWORD)
+    auth.sign_out(team, t)
+    with pytest.raises(SessionExpired, match="signed out"):
+        auth.resume(team, t.token)

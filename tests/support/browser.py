@@ -92,6 +92,23 @@ def served_copy(source, folder, name: str = "demo.db", prepare=None):
     return serve()
 
 
+def outside_requests(pg, base: str) -> list[str]:
+    """A list that fills with every request ``pg`` makes to a host other than ``base``'s
+    (data: and blob: URLs stay in the page)."""
+    import urllib.parse
+
+    own = urllib.parse.urlsplit(base).netloc
+    seen: list[str] = []
+
+    def note(request) -> None:
+        url = urllib.parse.urlsplit(request.url)
+        if url.scheme not in ("data", "blob", "about") and url.netloc != own:
+            seen.append(request.url)
+
+    pg.on("request", note)
+    return seen
+
+
 def settle(pg, ms: int = 400) -> None:
     """Wait for Streamlit to finish the current run."""
     pg.wait_for_timeout(ms)

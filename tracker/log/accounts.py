@@ -61,7 +61,10 @@ ROLES = {r.name: r for r in (
     Role("methods", "everything of an inspector, plus patterns, zones, sleeves, riser revisions, "
                     "what-if and fit-model", frozenset({"log", "design", "what_if", "fit_model"})),
     Role("reviewer", "reads every page and report, writes nothing", frozenset()),
-    Role("admin", "users, backup and restore, settings", frozenset({"users", "backup", "settings"})),
+    # Every action, whatever is added to ACTIONS later: the lead who runs the log also logs,
+    # corrects, imports and works on the methods side.
+    Role("admin", "everything: every other role's work, plus users, backup and restore, settings",
+         frozenset(ACTIONS)),
 )}
 # Every role reads every page and report; these are the writes.
 TABLE_ACTION = {"patterns": "design", "zones": "design", "sleeves": "design", "revisions": "design",
@@ -80,6 +83,7 @@ TOUCH_EVERY_S = 60  # a session's last activity is written at most once a minute
 # sign-in once it has been idle this long (the audit keeps the story).
 SESSIONS_KEPT_DAYS = 30
 NAME_RULE = re.compile(r"[A-Za-z0-9][A-Za-z0-9._@-]{0,63}")
+TOKEN_RULE = re.compile(r"[A-Za-z0-9_-]{43}")  # secrets.token_urlsafe(32): 256 random bits
 LOOPBACK_HOSTS = ("127.0.0.1", "::1", "localhost")
 # A day's inspection and lot files with room to spare: 10 MB is ~70,000 CSV rows at 150 bytes a
 # row (the demo's 26 weeks of inspections, 2,024 rows, take 0.12 MB).
@@ -458,6 +462,21 @@ def check_session(store, session: Session, *, now: dt.datetime | None = None) ->
         session = Session(user=session.user, role=acc["role"], idle_hours=session.idle_hours,
                           started_at=session.started_at, token=session.token)
     return session
+
+
+def resume(store, token, *, idle_hours: float = DEFAULT_IDLE_HOURS, now: dt.datetime | None = None) -> Session | None:
+    """The session whose token a browser kept (a page reloaded), checked and kept alive
+    as :func:`check_session` does. None for a token the log never issued (or forgot);
+    SessionExpired for one that went idle, was signed out or whose account was disabled."""
+    if not isinstance(token, str) or not TOKEN_RULE.fullmatch(token):
+        return None
+    row = store.session_row(_sha(token))
+    if row is None:
+        return None
+    acc = store.user_account(row["user"])
+    session = Session(user=row["user"], role=acc["role"] if acc else "", idle_hours=check_idle_hours(idle_hours),
+                      started_at=row["started_at"], token=token)
+    return check_session(store, session, now=now)
 
 
 def sign_out(store, session: Session, *, now: dt.datetime | None = None) -> None:

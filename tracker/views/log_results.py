@@ -10,6 +10,7 @@ import math
 import numpy as np
 import pandas as pd
 
+from tracker import units
 from tracker.errors import NotFound
 from tracker.log.ingest import COLUMNS as IMPORT_COLUMNS
 from tracker.log.ingest import METHODS
@@ -111,3 +112,60 @@ def latest_records(store: Store, limit: int = 50, full: bool = True) -> pd.DataF
     h = h.assign(status=status)
     h["severity"] = h["severity"].astype("Int64")
     return h[keys].rename(columns=HISTORY_COLUMNS).reset_index(drop=True)
+
+
+# --- corrections at the bench -------------------------------------------------------------
+
+# What the bench may change in a record (the rest is carried over by correct_inspection).
+CORRECTABLE = ["inspected_on", "quantity", "result", "defect", "zone", "xray_category", "severity", "notes"]
+
+
+def lot_records(store: Store, lot: str) -> pd.DataFrame:
+    """The current records of ``lot`` (newest first), each with a picker label:
+    the records a correction or a withdrawal may start from."""
+    cur = store.current_inspections(lot=lot)
+    if cur.empty:
+        return pd.DataFrame(columns=["id", "label"])
+    cur = cur.sort_values("id", ascending=False).reset_index(drop=True)
+    defect = cur["defect"].fillna("").map(lambda d: f" ({d.replace('_', ' ')})" if d else "")
+    cat = cur["xray_category"].fillna("").map(lambda c: f", category {c}" if c else "")
+    cur["label"] = (cur["id"].astype(int).astype(str) + " · " + cur["inspected_on"] + " · "
+                    + cur["method"].map(METHOD_WORDS) + " · " + cur["quantity"].astype(int).astype(str) + " "
+                    + cur["result"] + defect + cat + " · by " + cur["recorded_by"].fillna("-"))
+    return cur
+
+
+def correction_changes(old: dict, values: dict) -> dict:
+    """The fields of CORRECTABLE whose form value differs from record ``old``
+    (form values as :func:`form_record` reads them; a cleared field is None)."""
+    new = form_record(values)
+    out = {}
+    for key in CORRECTABLE:
+        if key not in values:
+            continue
+        before, after = old.get(key), new.get(key)
+        before = None if before is None or (isinstance(before, float) and math.isnan(before)) else before
+        if key in ("quantity", "severity"):  # a column with blanks reads back as 4.0
+            before, after = (None if v is None else int(v) for v in (before, after))
+        if (None if before is None else str(before)) != (None if after is None else str(after)):
+            out[key] = after
+    return out
+
+
+# --- a lot typed in -----------------------------------------------------------------------
+
+def lot_form_record(values: dict, system: str) -> dict:
+    """A lot for ``log_lot`` from form values: text stripped, the date as ISO, and the
+    pour temperature under the column name of the form's unit ``system``
+    (pour_temp_f in us), so the lots validator converts and words it as for a file."""
+    out: dict = {}
+    for key in IMPORT_COLUMNS["lots"][0] + IMPORT_COLUMNS["lots"][1]:
+        v = values.get(key)
+        if isinstance(v, (dt.date, dt.datetime)):
+            v = v.isoformat()[:10]
+        if isinstance(v, str):
+            v = v.strip()
+        if isinstance(v, float) and math.isnan(v):
+            v = None
+        out[units.column_name(key, system) if key == "pour_temp_c" else key] = None if v == "" else v
+    return out

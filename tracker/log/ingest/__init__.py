@@ -9,8 +9,8 @@ The public interface of the import; where each part lives:
 - ``duplicates.py``, ``identity.py``: rows met before, and which file a row came from;
 - ``driver.py``: :func:`import_file`, :func:`import_files`, :func:`import_dir`;
 - ``refused.py``: the refused rows written to CSV;
-- ``record.py``, ``corrections.py``, ``plant.py``: :func:`log_inspection`,
-  :func:`correct_inspection`, :func:`set_default_plant`.
+- ``record.py``, ``corrections.py``, ``lot_record.py``, ``plant.py``: :func:`log_inspection`,
+  :func:`correct_inspection`, :func:`log_lot`, :func:`set_default_plant`.
 
 A new import column: name it in ``columns.py`` and check it in its kind's validator.
 """
@@ -31,6 +31,7 @@ from tracker.log.ingest.columns import (
 from tracker.log.ingest.corrections import correct_inspection
 from tracker.log.ingest.driver import CHUNK_ROWS, import_dir, import_file, import_files
 from tracker.log.ingest.identity import FileIdentity, file_identity
+from tracker.log.ingest.lot_record import log_lot
 from tracker.log.ingest.plant import set_default_plant
 from tracker.log.ingest.record import log_inspection
 from tracker.log.ingest.refused import write_refused
@@ -41,5 +42,5 @@ __all__ = [
     "NEVER_ACCEPTABLE", "RESULTS", "SLEEVE_KINDS", "US_COLUMNS", "XRAY_CATEGORIES",
     "FileIdentity", "ImportResult",
     "correct_inspection", "file_identity", "import_dir", "import_file", "import_files",
-    "log_inspection", "set_default_plant", "write_refused",
+    "log_inspection", "log_lot", "set_default_plant", "write_refused",
 ]

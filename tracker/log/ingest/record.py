@@ -20,7 +20,10 @@ from tracker.log.store import Store, retrying
 
 FORM_LABELS = {"lot": "Lot", "inspected_on": "Inspected on", "method": "Method", "quantity": "Quantity",
                "result": "Result", "defect": "Defect", "zone": "Zone", "xray_category": "Radiography category",
-               "severity": "Severity", "serial": "Serial", "inspector": "Inspector", "notes": "Notes"}
+               "severity": "Severity", "serial": "Serial", "inspector": "Inspector", "notes": "Notes",
+               # a lot typed in (lot_record.py)
+               "pattern": "Pattern", "poured_on": "Poured on", "heat": "Heat", "molds": "Molds",
+               "pour_temp_c": "Pour temperature (°C)", "pour_temp_f": "Pour temperature (°F)"}
 
 
 @retrying
@@ -51,9 +54,10 @@ def one_record(store: Store, record: dict, *, by: str | None, today: dt.date | N
     # lock through them made concurrent writers queue for ~20 ms a record.
     result = ImportResult(kind="inspections", file=source)
     validator = InspectionsValidator(store, source, today, by, result, exclude=exclude)
+    validator.radiographs_checked = not void
     c = Checks(source, frame, result)
     rows = validator.validate(c)
-    _refuse_if_bad(c, record)
+    refuse_if_bad(c, record)
     row = list(rows[0])
     row[12] = f"{source}:{uuid.uuid4().hex}"  # each record typed in is new
     row[16] = supersedes
@@ -67,12 +71,12 @@ def one_record(store: Store, record: dict, *, by: str | None, today: dt.date | N
         one = lambda v: pd.Series([v], index=frame.index)  # noqa: E731 (four one-cell columns)
         totals.check(c, one(row[0]), one(row[2]), one(row[4]), one(row[3]),
                      np.array([True]), np.array([True]), store.lots_info([row[0]]))
-        _refuse_if_bad(c, record)
+        refuse_if_bad(c, record)
         store.insert_rows("inspections", [tuple(row)])
         return store.last_insert_id()
 
 
-def _refuse_if_bad(c: Checks, record: dict) -> None:
+def refuse_if_bad(c: Checks, record: dict) -> None:
     """Raise BadRecord with the record's problems, worded for a form, if it has any."""
     c.finish()
     if c.bad.any():

@@ -23,6 +23,7 @@ from tracker.log.ingest.identity import FileIdentity
 from tracker.log.ingest.kinds.base import Validator
 from tracker.log.ingest.kinds.lot_totals import LotTotals
 from tracker.log.ingest.kinds.record_keys import RecordKeys
+from tracker.log.ingest.radiography import conflict
 from tracker.log.ingest.result import ImportResult
 from tracker.log.ingest.text import log_spelling, zones_text
 from tracker.log.ingest.values import ints, nulls
@@ -79,6 +80,8 @@ class InspectionsValidator(Validator):
         self.already_present = np.zeros(0, dtype=bool)  # rows stored before
         self._levels: dict | None = None  # the zones' required levels (read once)
         self._next_lots: tuple[set, dict] | None = None  # the next chunk's lots, looked up ahead
+        # Off only for a withdrawal: a record logged before the check came in must stay withdrawable.
+        self.radiographs_checked = True
 
     def prefetch(self, chunk: pd.DataFrame) -> None:
         """Look up the lots of the next chunk now, before this chunk's rows are
@@ -91,6 +94,8 @@ class InspectionsValidator(Validator):
     def validate(self, c: Checks) -> list[tuple]:
         cells = self._cells(c)
         self._check_verdicts(c, cells)
+        if self.radiographs_checked:
+            self._check_radiograph(c, cells)
         info, known, pattern = self._check_lots(c, cells)
         level = self._check_zones(c, cells, known, pattern)
         self._check_levels(c, cells, level)
@@ -150,6 +155,15 @@ class InspectionsValidator(Validator):
         c.fail(cat.isin(NEVER_ACCEPTABLE) & (x.result == "accept"), "result",
                lambda i: f"got 'accept'; category {cat.iloc[i]} (cracks, hot tears) is not acceptable at "
                          "any level")
+
+    @staticmethod
+    def _check_radiograph(c: Checks, x: _Cells) -> None:
+        """A defect must be what its radiograph category shows (tracker.log.ingest.radiography)."""
+        pair = x.defect.astype(object) + "|" + x.cat.astype(object)  # vectorised: no Python call per row
+        why = {p: conflict(*p.split("|")) for p in pair.unique()}  # a handful of distinct pairs
+        bad = pair.map({p: w is not None for p, w in why.items()}).to_numpy(dtype=bool)
+        c.fail(c.ok("defect", "xray_category") & bad, "defect",
+               lambda i: f"{why[pair.iloc[i]]}; change the defect or the xray_category")
 
     def _check_lots(self, c: Checks, x: _Cells) -> tuple[dict, np.ndarray, np.ndarray]:
         """The lot must exist, inspection on or after the pour. Returns the lots'
