@@ -85,16 +85,16 @@ def _now() -> str:
 def add_action(store, pattern: str, text: str, owner: str, due, by: str | None = None) -> dict:
     """Add an open action on ``pattern`` (which must be in the log), due on ``due`` (a
     date), for ``owner``; audited as ``action_added``. Returns the stored action."""
-    text = _one_line("text", text, MAX_TEXT)
-    owner = _one_line("owner", owner, MAX_OWNER)
+    what = str(_one_line("text", text, MAX_TEXT))
+    owner_name = str(_one_line("owner", owner, MAX_OWNER))
     day = check_due(due)
     store.pattern(pattern)
     who = auth.author(store, "actions", by)
     at = _now()
     with store.write():
-        action_id = store.insert_action(pattern, text, owner, day, at, who)
+        action_id = store.insert_action(pattern, what, owner_name, day, at, who)
         store.insert_audit(at, "action_added", who, f"action {action_id}",
-                           f"{pattern}: {text} (owner {owner}, due {day})", auth._via(store))
+                           f"{pattern}: {what} (owner {owner_name}, due {day})", auth._via(store))
     return action(store, action_id)
 
 
