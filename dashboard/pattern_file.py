@@ -6,7 +6,7 @@ import datetime as dt
 
 import streamlit as st
 
-from dashboard import charts, common, thermal_view
+from dashboard import actions_view, charts, common, thermal_view
 from tracker import limits
 from tracker.views import pattern_file as views
 from tracker.views.common import label as view_label
@@ -90,6 +90,7 @@ def main() -> None:
                    "the date each riser revision took effect. " + note)
     else:
         st.caption("No lots of this pattern are logged yet.")
+    actions_view.section(pattern=code, key="pattern")
 
 
 def _picked_pattern(opts) -> str:

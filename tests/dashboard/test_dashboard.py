@@ -240,8 +240,9 @@ def test_review_headline_charts_and_report(app_demo_db, monkeypatch):
     assert "cumulative share (%)" in titles and "ISO week of pour" in titles
     # The p-chart opens on the first flagged pattern.
     assert at.selectbox(key="chart_pattern").value == r["problems"][0]
-    assert [b.label for b in at.get("download_button")] == ["Download this review as HTML",
-                                                         "Download the patterns table (CSV)"]
+    # the printable pack is prepared on request (tests/dashboard/test_review_meeting.py downloads it)
+    assert at.button(key="prepare_pack").label == "Prepare the printable review pack"
+    assert [b.label for b in at.get("download_button")] == ["Download the patterns table (CSV)"]
     # The planted revision of P-1031 is judged an improvement.
     assert any("P-1031 revision 2" in m for m in texts(at.markdown))
     # the verdict in plain words first (the statistics are in its help tooltip)

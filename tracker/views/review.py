@@ -13,6 +13,7 @@ from tracker import numbers
 from tracker.errors import BadInput, NotFound
 from tracker.log.settings import DEFAULT_CURRENCY
 from tracker.review.rates import scope_text
+from tracker.review.target import against_target
 from tracker.views.common import money_head, pct_column
 
 RULE_WORDS = {"beyond_limit": "point beyond a limit", "run_of_8": "8 or more weeks on one side"}
@@ -335,3 +336,29 @@ def review_changes(review: dict) -> dict:
                                   for x in c.get("revisions_took_effect") or []],
         "rate_moves": moves,
     }
+
+
+TARGET_TABLE = {"pattern": "pattern", "inspected": "inspected (castings)", "rejected": "rejected (castings)",
+                "reject_rate_pct": "reject rate (%)", "target_pct": "target (%)",
+                "chance_pct": "chance above target (%)", "verdict": "against the target"}
+
+
+def review_target(review: dict) -> pd.DataFrame:
+    """Each pattern against the review's target (:func:`tracker.review.target.against_target`),
+    highest chance first, for the chart: the keys of TARGET_TABLE (counts in castings; rates,
+    target and chance in %; ``verdict`` "above the target (signal)" or "not shown above it").
+    Patterns with nothing inspected are left out. :func:`review_target_table` labels it."""
+    rows = [r for r in against_target(review) if r["chance_above"] is not None]
+    if not rows:
+        return pd.DataFrame(columns=list(TARGET_TABLE))
+    t = pd.DataFrame(rows)
+    t["reject_rate_pct"] = pct_column(t["reject_rate"])
+    t["target_pct"] = 100.0 * t["target"].astype(float)
+    t["chance_pct"] = 100.0 * t["chance_above"].astype(float)
+    t["verdict"] = np.where(t["signal"], "above the target (signal)", "not shown above it")
+    return t[list(TARGET_TABLE)].reset_index(drop=True)
+
+
+def review_target_table(review: dict) -> pd.DataFrame:
+    """:func:`review_target` with the display labels of TARGET_TABLE."""
+    return review_target(review).rename(columns=TARGET_TABLE)
