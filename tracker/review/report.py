@@ -190,7 +190,7 @@ def render(review: dict, fmt: str = "table") -> str:
 
 def render_plants(d: dict, fmt: str = "table") -> str:
     """A plant comparison (:func:`tracker.review.plants.compare_plants`) in one of ``FORMATS``."""
-    cols = plant_columns()
+    cols = plant_columns(d.get("currency"))
     if fmt == "json":
         return render_json(d)
     if fmt == "csv":

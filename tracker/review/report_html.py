@@ -316,7 +316,7 @@ def _html_notes(review: dict) -> list[str]:
 
 def render_plants_html(d: dict) -> str:
     """A plant comparison (:func:`tracker.review.plants.compare_plants`) as one HTML page."""
-    cols = plant_columns()
+    cols = plant_columns(d.get("currency"))
     head = plants_head(d)
     return "\n".join(["<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
                       f"<title>{_e(head[0])}</title><style>{CSS}</style></head><body>",

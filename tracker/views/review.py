@@ -116,23 +116,25 @@ PLANT_TABLE = {
     "plant": "plant", "patterns": "patterns", "inspected": "castings inspected",
     "rejected": "castings rejected", "reject_rate_pct": "reject rate (%)", "low_pct": "95 % range from (%)",
     "high_pct": "95 % range to (%)", "shrinkage_rate_pct": "shrinkage rate (%)",
-    "scrap_cost": "scrap cost (currency units)", "week_rejected": "review week: castings rejected",
+    "scrap_cost": "scrap cost", "week_rejected": "review week: castings rejected",
     "week_inspected": "review week: castings inspected", "problems_text": "flagged patterns",
 }
 
 
 def plant_comparison_table(comparison: dict) -> pd.DataFrame:
-    """A plant comparison (:func:`tracker.review.weekly.compare_plants`) for display: rates in %."""
+    """A plant comparison (:func:`tracker.review.weekly.compare_plants`) for display: rates in %,
+    the scrap cost headed with the log's currency."""
+    names = {**PLANT_TABLE, "scrap_cost": money_head("scrap cost", comparison)}
     rows = comparison.get("plants") or []
     if not rows:
-        return pd.DataFrame(columns=list(PLANT_TABLE.values()))
+        return pd.DataFrame(columns=list(names.values()))
     p = pd.DataFrame(rows)
     p["reject_rate_pct"] = pct_column(p["reject_rate"])
     p["low_pct"] = pct_column(p["wilson_low"])
     p["high_pct"] = pct_column(p["wilson_high"])
     p["shrinkage_rate_pct"] = pct_column(p["shrinkage_rate"])
     p["problems_text"] = p["problems"].map(lambda v: ", ".join(v) or "none")
-    return p[list(PLANT_TABLE)].rename(columns=PLANT_TABLE).reset_index(drop=True)
+    return p[list(PLANT_TABLE)].rename(columns=names).reset_index(drop=True)
 
 
 def review_pareto(review: dict, of: str = "patterns", by: str = "cost", top: int | None = None) -> pd.DataFrame:
