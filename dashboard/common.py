@@ -215,6 +215,17 @@ def download_csv(frame, label: str, file_name: str, key: str) -> None:
                        icon=":material/download:", disabled=frame is None or len(frame) == 0)
 
 
+# --- tables ----------------------------------------------------------------------------
+
+def pinned(config: dict, *columns: str) -> dict:
+    """``config`` (a dataframe's column_config) with ``columns`` pinned: they stay in view,
+    on the left, when a narrow screen (800 px) scrolls the table sideways."""
+    out = dict(config)
+    for c in columns:
+        out[c] = {**(out.get(c) or st.column_config.Column()), "pinned": True}
+    return out
+
+
 # --- unit system --------------------------------------------------------------------------
 
 _UNITS = "unit_system"  # this browser session's choice (the sidebar switch's key)

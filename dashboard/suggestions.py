@@ -43,12 +43,14 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
     table = views.suggestions_table(found, currency=code, system=system)
     st.markdown("**What to change**")
     st.dataframe(table[views.change_part(system)], hide_index=True, width="stretch", key="suggestions_table",
-                 placeholder="", column_config={
+                 placeholder="", column_config=common.pinned({
                      label("now: diameter (mm)", system): NUMBER(format=common.length_format()),
-                     label("suggested: diameter (mm)", system): NUMBER(format=common.length_format())})
+                     label("suggested: diameter (mm)", system): NUMBER(format=common.length_format())},
+                     "pattern", "riser", label("now: diameter (mm)", system),
+                     label("suggested: diameter (mm)", system)))
     st.markdown("**What it brings**")
     st.dataframe(table[views.balance_part(code, system)], hide_index=True, width="stretch", key="balance_table",
-                 placeholder="", column_config={
+                 placeholder="", column_config=common.pinned({
                      "observed now (%)": NUMBER(format="%.2f"), "predicted now (%)": NUMBER(format="%.2f"),
                      "predicted after (%)": NUMBER(format="%.2f"),
                      label("added metal (kg per mold)", system): NUMBER(format="%+.2f"),
@@ -56,7 +58,8 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
                      "yield after (%)": NUMBER(format="%.1f"),
                      f"scrap saved ({money})": NUMBER(format="%,.0f"),
                      f"extra cost ({money})": NUMBER(format="%,.0f"),
-                     f"balance ({money})": NUMBER(format="%+,.0f")})
+                     f"balance ({money})": NUMBER(format="%+,.0f")},
+                     "pattern", "observed now (%)", "predicted after (%)"))
     st.caption("Observed now: " + common.md_escape(views.observed_scope(week, weeks)) + " (all rejects of the "
                "pattern where no riser change is suggested). Predicted now and after: the shop's reject "
                "model for the present and the changed riser; the money is on that one basis: scrap saved = "

@@ -149,10 +149,11 @@ def patterns(review: dict) -> None:
     st.caption("Reject rate (%): " + common.md_escape(views.rate_scope(review)) + ".")
     st.dataframe(views.review_patterns_table(review, full=full), hide_index=True, width="stretch",
                  key="patterns_table", placeholder="",
-                 column_config={"reject rate (%)": st.column_config.NumberColumn(format="%.2f"),
-                                "rejected (castings)": st.column_config.NumberColumn(format="localized"),
-                                "poured (castings)": st.column_config.NumberColumn(format="localized"),
-                                cost: st.column_config.NumberColumn(format="localized")})
+                 column_config=common.pinned({
+                     "reject rate (%)": st.column_config.NumberColumn(format="%.2f"),
+                     "rejected (castings)": st.column_config.NumberColumn(format="localized"),
+                     "poured (castings)": st.column_config.NumberColumn(format="localized"),
+                     cost: st.column_config.NumberColumn(format="localized")}, "pattern", "reject rate (%)"))
     common.download_csv(views.review_patterns_table(review, full=True), "Download the patterns table (CSV)",
                         f"pourback-patterns-{review['week']}.csv", key="download_patterns")
 
