@@ -203,10 +203,11 @@ def test_sign_out_and_disable_end_sessions(team):
 
 # issue 15's role definitions: inspector logs, corrects and imports results and lots;
 # methods adds patterns, zones, sleeves, riser revisions, what-if and fit-model;
-# reviewer writes nothing; admin has users, backup and restore, settings
+# reviewer writes nothing; admin has users, backup and restore, settings. Issue 28: the weekly
+# review's actions are added and closed by those who act on them (inspector, methods).
 EXPECTED = {
-    "inspector": {"log"},
-    "methods": {"log", "design", "what_if", "fit_model"},
+    "inspector": {"log", "actions"},
+    "methods": {"log", "design", "what_if", "fit_model", "actions"},
     "reviewer": set(),
     "admin": {"users", "backup", "settings"},
 }
