@@ -43,12 +43,15 @@ SUGGESTION_KEYS = ("pattern", "zone", "riser", "action", "now: diameter", "now: 
                    "suggested: sleeve", "observed now", "predicted after", "balance", "pays off", "probability")
 
 
+THERMAL_KEYS = ("thermal_verdict", "verdict", "thermal_ok")  # a verdict string first, else pass or fail
+
+
 def thermal_word(checked: dict | None) -> str:
     """A suggestion's thermal verdict as the thermal check words it: its own verdict string
     when it gives one, else "passes" / "fails" from ``thermal_ok``; "not checked" without one."""
     if not checked:
         return "not checked"
-    for key in ("thermal_verdict", "verdict"):
+    for key in THERMAL_KEYS[:2]:
         if checked.get(key):
             return str(checked[key]).replace("_", " ")
     ok = checked.get("thermal_ok")
@@ -61,7 +64,9 @@ def thermal_word(checked: dict | None) -> str:
 def _thermal(store, suggestions: list[dict]) -> list[str]:
     from tracker.thermal.checks import check_suggestions
 
-    out: list[str | None] = [thermal_word(s) if s.get("thermal_ok") is not None else None for s in suggestions]
+    # a suggestion the run checked already carries the check's fields; the others are checked here
+    out: list[str | None] = [thermal_word(s) if any(s.get(k) is not None for k in THERMAL_KEYS) else None
+                             for s in suggestions]
     todo = [i for i, w in enumerate(out) if w is None]
     if todo:
         checked = check_suggestions(store, [suggestions[i] for i in todo])
