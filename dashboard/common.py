@@ -22,6 +22,7 @@ from tracker.advice import suggest as advise
 from tracker.cautions import SAFETY_CAUTION
 from tracker.csvsafe import csv_bytes
 from tracker.errors import BadFile, PourbackError
+from tracker.log import actions as log_actions
 from tracker.log import settings
 from tracker.log.store import DATABASE_ERRORS, Store, absolute_target, display_name, log_error
 from tracker.review import plants as plant_review
@@ -30,6 +31,7 @@ from tracker.review import weekly as review
 from tracker.views import common as views
 from tracker.views import design_map as map_views
 from tracker.views import log_results as log_views
+from tracker.views import pack as review_pack
 from tracker.views import pattern_file as pattern_views
 from tracker.views import suggestions as suggestion_views
 from tracker.views import thermal as thermal_views
@@ -73,6 +75,8 @@ def _registry() -> dict:
         "pattern_reject_rate": rates.pattern_reject_rate,
         "pattern_thermal": thermal_views.pattern_thermal,
         "what_if_thermal": thermal_views.what_if_view,
+        "actions": log_actions.list_actions,
+        "review_pack": review_pack.pack_of,
     }
 
 
@@ -210,6 +214,17 @@ def download_csv(frame, label: str, file_name: str, key: str) -> None:
     guard (the tables' built-in download is off: ``client.disableDataExport``)."""
     st.download_button(label, data=csv_bytes(frame), file_name=file_name, mime="text/csv", key=key,
                        icon=":material/download:", disabled=frame is None or len(frame) == 0)
+
+
+# --- tables ----------------------------------------------------------------------------
+
+def pinned(config: dict, *columns: str) -> dict:
+    """``config`` (a dataframe's column_config) with ``columns`` pinned: they stay in view,
+    on the left, when a narrow screen (800 px) scrolls the table sideways."""
+    out = dict(config)
+    for c in columns:
+        out[c] = {**(out.get(c) or st.column_config.Column()), "pinned": True}
+    return out
 
 
 # --- unit system --------------------------------------------------------------------------

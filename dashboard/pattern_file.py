@@ -6,7 +6,7 @@ import datetime as dt
 
 import streamlit as st
 
-from dashboard import charts, common, thermal_view
+from dashboard import actions_view, charts, common, thermal_view
 from tracker import limits
 from tracker.views import pattern_file as views
 from tracker.views.common import label as view_label
@@ -38,12 +38,13 @@ def main() -> None:
         st.info("No zones are logged for this pattern yet: import them (zones.csv).")
     else:
         st.dataframe(zones, hide_index=True, width="stretch", key="zones_table", placeholder="",
-                     column_config={label("volume (cm³)"): NUMBER(format="%.0f"),
+                     column_config=common.pinned({label("volume (cm³)"): NUMBER(format="%.0f"),
                                     label("cooling area (cm²)"): NUMBER(format="%.0f"),
                                     label("modulus (cm)"): NUMBER(format="%.2f"),
                                     label("thickness (mm)"): NUMBER(format=common.length_format()),
                                     label("width (mm)"): NUMBER(format=common.length_format()),
-                                    label("feeding length (mm)"): NUMBER(format=common.length_format())})
+                                    label("feeding length (mm)"): NUMBER(format=common.length_format())},
+                                                 "zone", label("modulus (cm)")))
         st.caption("Width and thickness tell a bar from a plate for the feeding distance (steel, Bishop and "
                    "Pellini): bar at width = thickness, plate from 5 × thickness, interpolated between. "
                    "Where thickness, width or length is missing, the feeding distance is not judged.")
@@ -54,17 +55,17 @@ def main() -> None:
         st.info("No riser design is logged for this pattern yet: import its risers (risers.csv).")
     else:
         st.dataframe(design[views.design_part(system)], hide_index=True, width="stretch", key="risers_table",
-                     placeholder="", column_config={
+                     placeholder="", column_config=common.pinned({
                          label("diameter (mm)"): NUMBER(format=common.length_format()),
                          label("height (mm)"): NUMBER(format=common.length_format()),
-                         label("riser weight (kg)"): NUMBER(format="%.1f")})
+                         label("riser weight (kg)"): NUMBER(format="%.1f")}, "riser", label("diameter (mm)")))
         st.markdown("**Rule margins**")
         st.dataframe(design[views.margin_part(system)], hide_index=True, width="stretch", key="margins_table",
-                     placeholder="", column_config={
+                     placeholder="", column_config=common.pinned({
                          label("zone modulus (cm)"): NUMBER(format="%.2f"),
                          label("riser modulus (cm)"): NUMBER(format="%.2f"),
                          "modulus ratio": NUMBER(format="%.2f"), "Caine margin": NUMBER(format="%+.2f"),
-                         "feed margin": NUMBER(format="%+.2f")})
+                         "feed margin": NUMBER(format="%+.2f")}, "riser", "modulus ratio", label("riser modulus (cm)")))
         st.caption("Modulus ratio = effective riser modulus (sleeve factor included) / modulus of the zone "
                    "it feeds; the modulus rule asks 1.2 or more (ductile iron, judged by pressure control: "
                    "1.2 × the neck's modulus, the neck 0.5-0.8 × the zone's). Caine margin = freezing ratio above the "
@@ -90,6 +91,7 @@ def main() -> None:
                    "the date each riser revision took effect. " + note)
     else:
         st.caption("No lots of this pattern are logged yet.")
+    actions_view.section(pattern=code, key="pattern")
 
 
 def _picked_pattern(opts) -> str:

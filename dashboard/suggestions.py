@@ -43,12 +43,14 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
     table = views.suggestions_table(found, currency=code, system=system)
     st.markdown("**What to change**")
     st.dataframe(table[views.change_part(system)], hide_index=True, width="stretch", key="suggestions_table",
-                 placeholder="", column_config={
+                 placeholder="", column_config=common.pinned({
                      label("now: diameter (mm)", system): NUMBER(format=common.length_format()),
-                     label("suggested: diameter (mm)", system): NUMBER(format=common.length_format())})
+                     label("suggested: diameter (mm)", system): NUMBER(format=common.length_format())},
+                     "pattern", "riser", label("now: diameter (mm)", system),
+                     label("suggested: diameter (mm)", system)))
     st.markdown("**What it brings**")
     st.dataframe(table[views.balance_part(code, system)], hide_index=True, width="stretch", key="balance_table",
-                 placeholder="", column_config={
+                 placeholder="", column_config=common.pinned({
                      "observed now (%)": NUMBER(format="%.2f"), "predicted now (%)": NUMBER(format="%.2f"),
                      "predicted after (%)": NUMBER(format="%.2f"),
                      label("added metal (kg per mold)", system): NUMBER(format="%+.2f"),
@@ -56,7 +58,8 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
                      "yield after (%)": NUMBER(format="%.1f"),
                      f"scrap saved ({money})": NUMBER(format="%,.0f"),
                      f"extra cost ({money})": NUMBER(format="%,.0f"),
-                     f"balance ({money})": NUMBER(format="%+,.0f")})
+                     f"balance ({money})": NUMBER(format="%+,.0f")},
+                     "pattern", "observed now (%)", "predicted after (%)"))
     st.caption("Observed now: " + common.md_escape(views.observed_scope(week, weeks)) + " (all rejects of the "
                "pattern where no riser change is suggested). Predicted now and after: the shop's reject "
                "model for the present and the changed riser; the money is on that one basis: scrap saved = "
@@ -193,15 +196,18 @@ def _rate_metrics(result: dict) -> None:
 
 
 def _money_metrics(result: dict) -> None:
-    """The money as in the suggestions: two columns, so the labels fit at tablet width."""
-    unit = f"; in {common.load('currency')} per year"
-    rows = [("Extra riser metal (per year)", "extra_metal_cost_per_year",
+    """The money as in the suggestions, every figure headed with the log's currency: two columns,
+    so the labels fit at tablet width."""
+    code = common.load("currency")
+    per_year = views.money_per_year(code)
+    unit = f"; in {code} per year"
+    rows = [(f"Extra riser metal ({per_year})", "extra_metal_cost_per_year",
              f"{common.shown('metal_kg', result['added_metal_kg_per_mold']):+.2f} {common.unit('metal_kg')} "
              "per mold at the remelt charge" + unit),
-            ("Sleeves (per year)", "sleeve_cost_per_year", "change in sleeve cost per casting" + unit),
-            ("Scrap saved (per year)", "scrap_saved_per_year",
+            (f"Sleeves ({per_year})", "sleeve_cost_per_year", "change in sleeve cost per casting" + unit),
+            (f"Scrap saved ({per_year})", "scrap_saved_per_year",
              "castings per year × (predicted now − predicted changed) × cost per scrapped casting" + unit),
-            ("Yearly balance", "yearly_balance", "scrap saved less extra riser metal and sleeves" + unit)]
+            (f"Yearly balance ({per_year})", "yearly_balance", "scrap saved less extra riser metal and sleeves" + unit)]
     for pair in (rows[:2], rows[2:]):
         c = st.columns(2)
         for col, (heading, key, note) in zip(c, pair, strict=False):
@@ -213,7 +219,7 @@ def _money_metrics(result: dict) -> None:
     also = [r for r in result["changed_risers"] if r != result["riser"]]
     st.caption(common.md_escape(
         f"Priced as the suggestions are: {result['castings_per_year']:,.0f} castings a year, "
-        f"{common.money(result['cost_per_scrapped_casting'])} per scrapped casting (processing in full, "
+        f"{common.money(result['cost_per_scrapped_casting'])} {code} per scrapped casting (processing in full, "
         f"metal at the remelt charge {result['remelt_charge']:g})"
         + (f"; the same change on {', '.join(also)}, which fail the rules on the same zone" if also else "")
         + "."))

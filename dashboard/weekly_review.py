@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboard import charts, common
-from tracker.review import report
+from dashboard import actions_view, charts, common
+from tracker.review.target import METHOD, SIGNAL_PROBABILITY
 from tracker.views import review as views
 from tracker.views.common import money_head
 
@@ -80,16 +80,31 @@ def control(review: dict) -> None:
     labels = {p["pattern"]: p["pattern"] + (" · flagged" if p["problem"] else "") for p in rows}
     code = st.selectbox("Pattern", codes, index=default, format_func=labels.get, key="chart_pattern")
     chart = views.review_pchart(review, code)
-    st.altair_chart(charts.p_chart(chart), width="stretch", key="pchart_chart")
+    st.altair_chart(charts.p_chart(chart, 100.0 * review["target"]), width="stretch", key="pchart_chart")
     row = next(p for p in rows if p["pattern"] == code)
     fired = views.signal_words(row["signal_rules"], row["signal_high_rules"])
     why = views.reason_words(row["problem_reasons"])
     st.caption("Weekly reject rate against the pattern's centre (dashed: its rate over the window); the "
                "shaded bar of each week runs between its limits: exact binomial probability limits for that "
                "week's castings, 0.135 % chance each side of falling outside by chance alone (wider in weeks "
-               "with fewer castings). Weeks with nothing inspected are left blank. "
+               "with fewer castings). Weeks with nothing inspected are left blank. Dashed orange: the target "
+               "(a pattern can be in control around a centre far above it; see Against the target). "
                + (f"Signal in the last 2 weeks: {fired}. " if fired else "No signal in the last 2 weeks. ")
                + (f"Flagged: {why}." if why else "Not flagged."))
+
+
+def against_target(review: dict) -> None:
+    st.subheader("Against the target")
+    data = views.review_target(review)
+    st.altair_chart(charts.target_chance(data, 100.0 * SIGNAL_PROBABILITY), width="stretch", key="target_chart")
+    st.caption(f"Each pattern against the target ({100 * review['target']:g} %) as well as against its own "
+               f"centre: the {METHOD}. The control chart above asks whether a pattern changed; this asks "
+               "whether it is worse than the target.")
+    with st.expander("The figures behind the chart"):
+        st.dataframe(views.review_target_table(review), hide_index=True, width="stretch", key="target_table",
+                     column_config={"reject rate (%)": st.column_config.NumberColumn(format="%.2f"),
+                                    "target (%)": st.column_config.NumberColumn(format="%.2f"),
+                                    "chance above target (%)": st.column_config.NumberColumn(format="%.1f")})
 
 
 def signals(review: dict) -> None:
@@ -134,16 +149,27 @@ def patterns(review: dict) -> None:
     st.caption("Reject rate (%): " + common.md_escape(views.rate_scope(review)) + ".")
     st.dataframe(views.review_patterns_table(review, full=full), hide_index=True, width="stretch",
                  key="patterns_table", placeholder="",
-                 column_config={"reject rate (%)": st.column_config.NumberColumn(format="%.2f"),
-                                "rejected (castings)": st.column_config.NumberColumn(format="localized"),
-                                "poured (castings)": st.column_config.NumberColumn(format="localized"),
-                                cost: st.column_config.NumberColumn(format="localized")})
+                 column_config=common.pinned({
+                     "reject rate (%)": st.column_config.NumberColumn(format="%.2f"),
+                     "rejected (castings)": st.column_config.NumberColumn(format="localized"),
+                     "poured (castings)": st.column_config.NumberColumn(format="localized"),
+                     cost: st.column_config.NumberColumn(format="localized")}, "pattern", "reject rate (%)"))
     common.download_csv(views.review_patterns_table(review, full=True), "Download the patterns table (CSV)",
                         f"pourback-patterns-{review['week']}.csv", key="download_patterns")
 
 
-def download(review: dict) -> None:
-    html = report.render(review, "html")
+def download(review: dict, week: str, weeks: int, target: float) -> None:
+    """The printable review pack: prepared on request (it runs the suggestions and draws every
+    chart), then offered as HTML; the same pack as `pourback review --format html`."""
+    asked = (week, weeks, target, common.unit_system())
+    if st.session_state.get("pack_asked") != asked:
+        if not st.button("Prepare the printable review pack", key="prepare_pack", icon=":material/print:",
+                         help="The review with the suggestions (money and thermal check), each pattern against "
+                              "the target, the open actions and the charts; prints on A4 and Letter."):
+            return
+        st.session_state["pack_asked"] = asked
+    html = common.load("review_pack", "html", common.unit_system(), week=week, weeks=weeks, target=target / 100.0,
+                       status="Preparing the review pack (suggestions, thermal checks, charts)")
     st.download_button("Download this review as HTML", data=html.encode("utf-8"),
                        file_name=f"pourback-review-{review['week']}.html", mime="text/html",
                        key="download_report", icon=":material/download:")
@@ -166,14 +192,16 @@ def main() -> None:
         st.info(f"Nothing was poured in the {weeks} weeks up to {week}. Pick another week.")
         return
     headline(review)
-    download(review)
+    download(review, week, weeks, target)
     changes(review)
     scrap(review)
     trend(review)
     patterns(review)
     control(review)
+    against_target(review)
     signals(review)
     revisions(review)
+    actions_view.section(key="review")
     plants(week, weeks, target)
 
 

@@ -167,3 +167,27 @@ def read_only():
         if shutil.which("chattr"):
             subprocess.run(["chattr", "-i", str(p)], capture_output=True)
         os.chmod(p, 0o644)
+
+
+# --- the review pack ---------------------------------------------------------------------
+
+@pytest.fixture(scope="session")
+def demo_pack(app_demo_file, tmp_path_factory):
+    """The printable review pack of the demo log's default review, with one open and one
+    closed action: {"db", "review", "pack" (tracker.views.pack.build_pack), "html", "md"}.
+    Built once (it runs the suggestions, their thermal checks and draws every chart)."""
+    from tracker.log.actions import add_action, close_action
+    from tracker.log.store import Store
+    from tracker.review.weekly import weekly_review
+    from tracker.views.pack import build_pack, render_pack
+
+    db = tmp_path_factory.mktemp("pack") / "pourback-demo.db"
+    shutil.copyfile(app_demo_file, db)
+    with Store(db) as s:
+        add_action(s, "P-1017", "trial pour with <b>sleeve</b> on R3 | 5 molds", "J. Park", "2026-12-11", by="QA lead")
+        closed = add_action(s, "P-1036", "recheck the boss zone", "M. Lopez", "2026-11-30", by="QA lead")
+        close_action(s, closed["id"], "done", by="M. Lopez")
+        review = weekly_review(s)
+        pack = build_pack(s, review)
+    return {"db": db, "review": review, "pack": pack, "html": render_pack(pack, "html"),
+            "md": render_pack(pack, "md")}

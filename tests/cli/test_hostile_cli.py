@@ -42,6 +42,7 @@ COMMANDS = {
     "settings": [],
     "thermal": ["--pattern", "T-100", "--zone", "flange"],
     "user": ["list"],
+    "action": ["list"],
     "size": ["--pattern", "T-100", "--zone", "flange"],
 }
 

@@ -240,8 +240,9 @@ def test_review_headline_charts_and_report(app_demo_db, monkeypatch):
     assert "cumulative share (%)" in titles and "ISO week of pour" in titles
     # The p-chart opens on the first flagged pattern.
     assert at.selectbox(key="chart_pattern").value == r["problems"][0]
-    assert [b.label for b in at.get("download_button")] == ["Download this review as HTML",
-                                                         "Download the patterns table (CSV)"]
+    # the printable pack is prepared on request (tests/dashboard/test_review_meeting.py downloads it)
+    assert at.button(key="prepare_pack").label == "Prepare the printable review pack"
+    assert [b.label for b in at.get("download_button")] == ["Download the patterns table (CSV)"]
     # The planted revision of P-1031 is judged an improvement.
     assert any("P-1031 revision 2" in m for m in texts(at.markdown))
     # the verdict in plain words first (the statistics are in its help tooltip)
@@ -404,9 +405,10 @@ def test_what_if_bigger_riser_and_sleeve_with_money(app_demo_db, monkeypatch):
     assert any("120 x 150 mm, sleeve XS-120" in m for m in texts(at.markdown))
     with Store(app_demo_db) as s:
         want = what_if(s, "P-1036", "R2", sleeve="XS-120", week=at.selectbox(key="week").value)
-    for label, key in (("Extra riser metal (per year)", "extra_metal_cost_per_year"),
-                       ("Sleeves (per year)", "sleeve_cost_per_year"),
-                       ("Scrap saved (per year)", "scrap_saved_per_year"), ("Yearly balance", "yearly_balance")):
+    for label, key in (("Extra riser metal (EUR/year)", "extra_metal_cost_per_year"),
+                       ("Sleeves (EUR/year)", "sleeve_cost_per_year"),
+                       ("Scrap saved (EUR/year)", "scrap_saved_per_year"),
+                       ("Yearly balance (EUR/year)", "yearly_balance")):
         assert metric(at, label) == f"{want[key]:,.0f}"
     assert metric(at, "Predicted rate now (model)") == f"{100 * want['predicted_rate_now']:.2f} %"
     # a size the catalogue does not have in that kind: one message, no traceback

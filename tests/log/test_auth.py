@@ -210,10 +210,11 @@ def test_sign_out_and_disable_end_sessions(team):
 # issue 15's role definitions: inspector logs, corrects and imports results and lots;
 # methods adds patterns, zones, sleeves, riser revisions, what-if and fit-model;
 # reviewer writes nothing; admin has users, backup and restore, settings, and (issue 28) can do
-# what every other role can
+# what every other role can. The weekly review's actions are added and closed by those who act on
+# them (inspector, methods).
 EXPECTED = {
-    "inspector": {"log"},
-    "methods": {"log", "design", "what_if", "fit_model"},
+    "inspector": {"log", "actions"},
+    "methods": {"log", "design", "what_if", "fit_model", "actions"},
     "reviewer": set(),
     "admin": set(auth.ACTIONS),
 }

@@ -93,5 +93,24 @@ def test_suggestions_page_names_the_currency(app_db, runner, monkeypatch):
     balance = next(d.value for d in at.dataframe if "yield after (%)" in d.value.columns)
     assert {"balance (GBP/year)", "scrap saved (GBP/year)", "extra cost (GBP/year)"} <= set(balance.columns)
     assert not any("currency units" in c for c in balance.columns)
-    helps = [m.help for m in at.metric if m.label in ("Yearly balance", "Scrap saved (per year)")]
+    # the what-if's money: every figure headed with the currency, not only its help
+    helps = [m.help for m in at.metric if m.label in ("Yearly balance (GBP/year)", "Scrap saved (GBP/year)")]
     assert len(helps) == 2 and all("GBP per year" in h for h in helps), helps
+    money = [m.label for m in at.metric if "riser metal" in m.label or "Sleeves" in m.label]
+    assert money == ["Extra riser metal (GBP/year)", "Sleeves (GBP/year)"]
+    assert any(" GBP per scrapped casting" in c.value for c in at.caption)
+
+
+def test_what_if_and_plant_comparison_name_the_currency(app_db, runner):
+    import re
+
+    from tracker.review.report_parts import plant_columns
+    from tracker.views.review import plant_comparison_table
+
+    runner.invoke(main, ["settings", "--db", str(app_db), "--currency", "CHF"])
+    res = runner.invoke(main, ["what-if", "--db", str(app_db), "--pattern", "P-1017", "--riser", "R3",
+                               "--diameter-mm", "130"])
+    assert res.exit_code == 0, res.output
+    assert re.search(r"Cost per scrapped casting [\d,]+ CHF;", res.output), res.output
+    assert "scrap cost (CHF)" in plant_comparison_table({"currency": "CHF", "plants": []}).columns
+    assert "Scrap cost (CHF)" in [h for h, _ in plant_columns("CHF")]

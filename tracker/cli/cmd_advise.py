@@ -201,7 +201,7 @@ def _what_if_text(r: dict, code: str = DEFAULT_CURRENCY, system: str = units.MET
     if also:
         pays += f" (priced with the same change on {', '.join(also)}, which fail the rules on the same zone)"
     money = [table(_what_if_money(r, code)), f"pays off: {pays}",
-             f"{basis_note} Cost per scrapped casting {money_text(r['cost_per_scrapped_casting'])}; remelt "
+             f"{basis_note} Cost per scrapped casting {money_text(r['cost_per_scrapped_casting'])} {code}; remelt "
              f"charge {r['remelt_charge']:g}."]
     return "\n".join(design) + "\n\n" + "\n".join(money) + "\n\n" + caution_text()
 

@@ -44,7 +44,10 @@ def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, a
 
     Figures cover the review week and the weeks before it; problem patterns
     are those signalling on their weekly p-chart in the latest two weeks, or
-    whose reject or shrinkage rate is surely above the target.
+    whose reject or shrinkage rate is surely above the target. As html or md
+    it is the printable review pack: also the riser suggestions with their
+    money and thermal verdicts, each pattern against the target, and the open
+    actions (html with its charts; prints on A4 and Letter).
 
     Example:
 
@@ -63,6 +66,7 @@ def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, a
     from tracker.review.plants import compare_plants as compare
     from tracker.review.report import render, render_plants
     from tracker.review.weekly import in_system, weekly_review
+    from tracker.views.pack import PACK_FORMATS, build_pack, render_pack
 
     with Steps(show_progress(fmt == "json")) as steps:
         with open_store(db_path) as store:
@@ -73,8 +77,14 @@ def review(week, weeks, target, fmt, as_json, out_path, plant, compare_plants, a
             else:
                 steps.step(f"Reviewing {week or 'the latest week'} ({weeks} weeks)")
                 data = in_system(weekly_review(store, week=week, weeks=weeks, target=target, plant=plant), system)
+                if fmt in PACK_FORMATS:  # the printable pack: suggestions, actions, charts
+                    steps.step("Gathering the suggestions, actions and charts of the review pack")
+                    pack = build_pack(store, data, draw=fmt == "html", system=system)
         steps.step(f"Writing the {fmt} review")
-        text = render_plants(data, fmt) if compare_plants else render(data, fmt)
+        if compare_plants:
+            text = render_plants(data, fmt)
+        else:
+            text = render_pack(pack, fmt) if fmt in PACK_FORMATS else render(data, fmt)
     if out_path:
         path = pathlib.Path(out_path)
         try:

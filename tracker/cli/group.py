@@ -6,6 +6,7 @@ from __future__ import annotations
 import click
 
 from tracker import __version__
+from tracker.cli.cmd_action import action
 from tracker.cli.cmd_advise import fit_model, suggest, what_if
 from tracker.cli.cmd_app import dashboard, demo_command
 from tracker.cli.cmd_copy import copy_log_command
@@ -30,7 +31,7 @@ def main() -> None:
 COMMANDS: tuple[click.Command, ...] = (
     init, settings, import_, log, correct, history, backup, restore, copy_log_command,  # the log
     size, check, patterns, thermal,                                                      # riser design
-    review,                                                                              # the weekly review
+    review, action,                                                                      # the weekly review
     suggest, what_if, fit_model,                                                         # suggestions, the model
     dashboard, demo_command,                                                             # the dashboard
     user, audit,                                                                         # accounts, the audit

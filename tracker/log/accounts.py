@@ -46,6 +46,7 @@ ACTIONS = {
     "users": "add, change or disable user accounts",
     "backup": "back up or restore the log",
     "settings": "change the log's settings",
+    "actions": "add or close the weekly review's actions",
 }
 
 
@@ -57,9 +58,10 @@ class Role:
 
 
 ROLES = {r.name: r for r in (
-    Role("inspector", "log, correct and import inspection results and lots", frozenset({"log"})),
+    Role("inspector", "log, correct and import inspection results and lots; review actions",
+         frozenset({"log", "actions"})),
     Role("methods", "everything of an inspector, plus patterns, zones, sleeves, riser revisions, "
-                    "what-if and fit-model", frozenset({"log", "design", "what_if", "fit_model"})),
+                    "what-if and fit-model", frozenset({"log", "design", "what_if", "fit_model", "actions"})),
     Role("reviewer", "reads every page and report, writes nothing", frozenset()),
     # Every action, whatever is added to ACTIONS later: the lead who runs the log also logs,
     # corrects, imports and works on the methods side.

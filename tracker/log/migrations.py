@@ -242,7 +242,20 @@ def _migration_10(db: Schema) -> None:
     db.add_column("zones", "joined_faces", str)
 
 
+def _migration_11(db: Schema) -> None:
+    # Actions decided at the weekly review (tracker/log/actions.py): open until done_at is set.
+    db.execute("""
+        CREATE TABLE actions (
+            id INTEGER PRIMARY KEY,
+            pattern TEXT NOT NULL REFERENCES patterns(pattern),
+            text TEXT NOT NULL, owner TEXT NOT NULL, due TEXT NOT NULL,
+            created_at TEXT NOT NULL, created_by TEXT,
+            done_at TEXT, done_by TEXT, note TEXT
+        )""")
+    db.execute("CREATE INDEX actions_due ON actions(due, id)")
+
+
+# index i brings the schema from version i to i + 1
 MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6,
-              _migration_7, _migration_8, _migration_9,
-              _migration_10]  # index i brings the schema from version i to i + 1
+              _migration_7, _migration_8, _migration_9, _migration_10, _migration_11]
 SCHEMA_VERSION = len(MIGRATIONS)

@@ -41,7 +41,7 @@ KEYS = {
 # Tables in an order that inserts parents before children (copy-log); a table not
 # named here is copied after these, in name order.
 COPY_ORDER = ["alloys", "meta", "patterns", "zones", "sleeves", "revisions", "risers", "lots",
-              "inspections", "models", "imports", "users", "sessions", "audit"]
+              "inspections", "models", "imports", "users", "sessions", "audit", "actions"]
 
 
 # The *current* inspection records, the ones every figure counts: not voided, and not

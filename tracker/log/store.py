@@ -26,6 +26,7 @@ each in its own module:
 - ``totals``: the running totals per pattern and pour day (their SQL in ``totals_sql``);
 - ``imports``: imported files and their keys;
 - ``users``: accounts, sessions, the audit;
+- ``actions``: the weekly review's actions;
 - ``meta``: settings (``meta``) and fitted models;
 - ``backup``: backup, restore, integrity check.
 
@@ -48,6 +49,7 @@ from tracker.errors import (  # noqa: F401 (re-exported: callers import them fro
     NotFound,
     PourbackError,
 )
+from tracker.log.actions import ActionRows
 from tracker.log.backup import Maintenance, restore  # noqa: F401 (restore re-exported for callers)
 from tracker.log.core import (  # noqa: F401 (re-exported: callers import them from here)
     DATABASE_ERRORS,
@@ -90,7 +92,7 @@ from tracker.log.users import UserRows
 
 
 class Store(Tables, Designs, Records, ReviewReads, RunningTotals, ImportBookkeeping, MetaRows, ModelRows,
-            UserRows, Maintenance, StoreCore):
+            UserRows, ActionRows, Maintenance, StoreCore):
     """One open connection to the log.
 
     ``Store(target)`` opens (creating and migrating when needed) the log in an

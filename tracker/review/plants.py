@@ -50,6 +50,7 @@ def compare_plants(store: Store, alloy: str, week: str | None = None, weeks: int
     return numbers.jsonable({
         "alloy": alloy, "week": head["week"], "window": head["window"], "target": head["target"],
         "confidence": confidence, "rate_basis": head["rate_basis"], "units": head["units"],
+        "currency": head.get("currency"),
         "plants": rows, "caution": SAFETY_CAUTION,
     }, day_only=True)
 

@@ -2,8 +2,11 @@
 user text made safe.
 
 ``render(review, fmt)`` takes the dict of :func:`tracker.review.weekly_review`.
-The HTML report is one self-contained file (inline CSS, charts drawn here as
-inline SVG, no scripts, no external fonts or images) that prints on A4; every
+The HTML report is one self-contained file (inline CSS, no scripts, no
+external fonts or images) that prints on A4 and Letter; its charts and the
+pack's sections (suggestions, actions, the target) are handed in by the review
+pack, :mod:`tracker.views.pack`, which ``pourback review --format html|md`` and
+the dashboard's download use; every
 piece of user text (pattern codes, descriptions, notes, riser and zone codes)
 goes through ``html.escape``. The CSV is the per-pattern table, every cell
 through :func:`safe_cell` so a spreadsheet never runs one as a formula.
@@ -96,8 +99,13 @@ def _revision_lines(review) -> list[str]:
 
 # --- Markdown -----------------------------------------------------------------------------
 
-def render_md(review: dict) -> str:
-    """The review as Markdown (user text HTML-escaped, pipes escaped)."""
+def render_md(review: dict, sections: dict | None = None) -> str:
+    """The review as Markdown (user text HTML-escaped, pipes escaped).
+
+    sections: more Markdown lines by place ("after_attention", "before_revisions",
+    "after_revisions"), already escaped: the review pack's (:mod:`tracker.views.pack`).
+    """
+    extra = sections or {}
     head = headline_lines(review)
     plant = f", plant {md_cell(review['plant'])}" if review.get("plant") else ""
     out = [f"# Scrap review, {review['week']}{plant}", "", *(f"{md_cell(h)}  " for h in head[1:]), "",
@@ -106,16 +114,19 @@ def render_md(review: dict) -> str:
     out += [f"## Needs attention ({len(probs)})", ""]
     out += [f"- **{md_cell(p['pattern'])}**: {md_cell(reason_text(p['problem_reasons']))}" for p in probs] \
         or ["_none_"]
-    out += ["", f"## Changes since {review['changes']['previous_week']}", ""]
+    out += ["", *extra.get("after_attention", [])]
+    out += [f"## Changes since {review['changes']['previous_week']}", ""]
     out += [f"- {md_cell(s)}" for s in change_lines(review)]
     out += ["", "## Patterns, whole window, by scrap cost", "",
             md_table(review["patterns"], pattern_columns(review)), "",
             *([f"_{md_cell(review['run_rule_note'])}_", ""] if review.get("run_rule_note") else []),
             "## Scrap by defect", "", md_table(review["defects"], defect_columns(review)), "",
             "## Weekly trend", "", md_table(review["trend"]["overall"], trend_columns(review)), "",
+            *extra.get("before_revisions", []),
             "## Riser revisions", "", md_table(review["revisions"], revision_columns()), ""]
     if review["revisions"]:
         out += [f"> **Caution.** {md_cell(SAFETY_CAUTION)}", ""]
+    out += extra.get("after_revisions", [])
     return "\n".join(out)
 
 
@@ -182,7 +193,7 @@ def render(review: dict, fmt: str = "table") -> str:
 
 def render_plants(d: dict, fmt: str = "table") -> str:
     """A plant comparison (:func:`tracker.review.plants.compare_plants`) in one of ``FORMATS``."""
-    cols = plant_columns()
+    cols = plant_columns(d.get("currency"))
     if fmt == "json":
         return render_json(d)
     if fmt == "csv":

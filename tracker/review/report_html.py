@@ -1,12 +1,17 @@
-"""The weekly review as one self-contained HTML page: inline CSS, charts drawn
-here as inline SVG, no scripts, no external fonts or images; prints on A4. Every
-piece of user text (pattern codes, descriptions, notes, riser and zone codes)
-goes through ``html.escape``."""
+"""The weekly review as one self-contained HTML page: inline CSS, no scripts, no
+external fonts or images; prints on A4 and Letter (``@page`` without a fixed
+size, page breaks between table rows, never inside one). Every piece of user
+text (pattern codes, descriptions, notes, riser and zone codes) goes through
+``html.escape``.
+
+The charts are not drawn here: the review pack (:mod:`tracker.views.pack`)
+renders the dashboard's own chart specifications to inline SVG and hands them
+in (``charts``), with the pack's extra sections (``sections``). Without them
+the page is the review's tables alone."""
 
 from __future__ import annotations
 
 import html
-import math
 
 from tracker import units
 from tracker.cautions import SAFETY_CAUTION
@@ -20,7 +25,6 @@ from tracker.review.report_parts import (
     defect_columns,
     diff_text,
     interval_text,
-    is_number,
     money,
     pattern_columns,
     pct,
@@ -31,212 +35,9 @@ from tracker.review.report_parts import (
     trend_columns,
 )
 
-# --- SVG charts ---------------------------------------------------------------------------
-
-INK = "#2b2b2b"
-GRID = "#d9d9d9"
-BAR = "#7f98ad"
-LINE = "#2f4b66"
-ALERT = "#b3261e"
-LIMIT = "#8a6d3b"
-
 
 def _e(s) -> str:
     return html.escape(str(s), quote=True)
-
-
-def _nice_scale(v: float, most: int = 5) -> tuple[float, float]:
-    """(top, step) of an axis from 0 that holds ``v`` in at most ``most`` round steps."""
-    if not is_number(v) or v <= 0:
-        return 1.0, 0.25
-    exp = 10.0 ** math.floor(math.log10(v / most))
-    for m in (1, 2, 2.5, 5, 10, 20):
-        step = m * exp
-        if math.ceil(v / step - 1e-9) <= most:
-            return step * math.ceil(v / step - 1e-9), step
-    return v, v  # not reached
-
-
-def _fmt_tick(v: float, step: float) -> str:
-    decimals = 0 if step >= 1 and float(step).is_integer() else max(1, -math.floor(math.log10(step)) + (
-        0 if (step / 10.0 ** math.floor(math.log10(step))).is_integer() else 1))
-    return f"{v:,.{decimals}f}"
-
-
-class _Frame:
-    """A plotting area: x by index of equally spaced slots, y linear from 0."""
-
-    def __init__(self, n: int, ymax: float, width=720, height=260, left=58, right=20, top=18,
-                 bottom=46, y2=False):
-        self.n = max(n, 1)
-        self.ymax, self.step = _nice_scale(ymax)
-        self.w, self.h = width, height
-        self.l, self.r, self.t, self.b = left, (62 if y2 else right), top, bottom
-        self.pw = self.w - self.l - self.r
-        self.ph = self.h - self.t - self.b
-
-    def slot(self) -> float:
-        return self.pw / self.n
-
-    def x(self, i: float) -> float:
-        return self.l + (i + 0.5) * self.slot()
-
-    def y(self, v: float) -> float:
-        return self.t + self.ph * (1 - min(max(v / self.ymax, 0.0), 1.0))
-
-    def axes(self, ylabel: str, xlabels: list[str], every: int = 1, rotate: bool = False) -> list[str]:
-        out = []
-        ticks = [self.step * i for i in range(int(round(self.ymax / self.step)) + 1)]
-        for v in ticks:
-            y = self.y(v)
-            out.append(f'<line x1="{self.l}" y1="{y:.1f}" x2="{self.w - self.r}" y2="{y:.1f}" '
-                       f'stroke="{GRID}" stroke-width="1"/>')
-            out.append(f'<text x="{self.l - 6}" y="{y + 4:.1f}" text-anchor="end" class="tick">'
-                       f'{_fmt_tick(v, self.step)}</text>')
-        out.append(f'<line x1="{self.l}" y1="{self.t + self.ph}" x2="{self.w - self.r}" '
-                   f'y2="{self.t + self.ph}" stroke="{INK}" stroke-width="1"/>')
-        out.append(f'<text x="14" y="{self.t + self.ph / 2:.1f}" text-anchor="middle" class="axis" '
-                   f'transform="rotate(-90 14 {self.t + self.ph / 2:.1f})">{_e(ylabel)}</text>')
-        base = self.t + self.ph + 14
-        for i, lab in enumerate(xlabels):
-            if i % every and i != len(xlabels) - 1:
-                continue
-            x = self.x(i)
-            if rotate:
-                out.append(f'<text x="{x:.1f}" y="{base:.1f}" text-anchor="end" class="tick" '
-                           f'transform="rotate(-40 {x:.1f} {base:.1f})">{_e(lab)}</text>')
-            else:
-                out.append(f'<text x="{x:.1f}" y="{base:.1f}" text-anchor="middle" class="tick">{_e(lab)}</text>')
-        return out
-
-    def svg(self, body: list[str], title: str) -> str:
-        return (f'<svg viewBox="0 0 {self.w} {self.h}" '
-                f'width="100%" role="img" aria-label="{_e(title)}" class="chart">'
-                f'<title>{_e(title)}</title>' + "".join(body) + "</svg>")
-
-
-def _short_week(label: str) -> str:
-    return label.split("-")[-1] if isinstance(label, str) else str(label)
-
-
-def _polyline(points, color, width=2, dash=None) -> list[str]:
-    """Polylines through (x, y) pairs, broken where a y is None."""
-    out: list[str] = []
-    run: list = []
-    for x, y in points + [(None, None)]:
-        if y is None:
-            if len(run) > 1:
-                d = " ".join(f"{a:.1f},{b:.1f}" for a, b in run)
-                extra = f' stroke-dasharray="{dash}"' if dash else ""
-                out.append(f'<polyline points="{d}" fill="none" stroke="{color}" '
-                           f'stroke-width="{width}"{extra}/>')
-            run = []
-        else:
-            run.append((x, y))
-    return out
-
-
-def svg_trend(review: dict) -> str:
-    """Weekly reject rate of all patterns (%) with its interval band and the target."""
-    rows = review["trend"]["overall"]
-    rates = [r["reject_rate"] for r in rows]
-    his = [r["wilson_high"] for r in rows if is_number(r["reject_rate"])]
-    top = (100 * max([*(v for v in rates if is_number(v)), *his, review["target"]]))  # never empty: the target is in it
-    f = _Frame(len(rows), top, right=96)
-    body = f.axes("Reject rate (%)", [_short_week(r["week"]) for r in rows], every=max(1, len(rows) // 13))
-    band_top = [(f.x(i), f.y(100 * r["wilson_high"])) for i, r in enumerate(rows) if is_number(r["reject_rate"])]
-    band_low = [(f.x(i), f.y(100 * r["wilson_low"])) for i, r in enumerate(rows) if is_number(r["reject_rate"])]
-    if len(band_top) > 1:
-        pts = " ".join(f"{x:.1f},{y:.1f}" for x, y in band_top + band_low[::-1])
-        body.append(f'<polygon points="{pts}" fill="{BAR}" fill-opacity="0.25" stroke="none"/>')
-    ty = f.y(100 * review["target"])
-    body.append(f'<line x1="{f.l}" y1="{ty:.1f}" x2="{f.w - f.r}" y2="{ty:.1f}" stroke="{ALERT}" '
-                f'stroke-width="1.5" stroke-dasharray="6 4"/>')
-    body.append(f'<text x="{f.w - f.r + 6}" y="{ty + 4:.1f}" class="note">'
-                f'target {pct(review["target"])} %</text>')
-    dots = [(f.x(i), f.y(100 * v) if is_number(v) else None) for i, v in enumerate(rates)]
-    body += _polyline(dots, LINE)
-    for x, y in dots:
-        if y is not None:
-            body.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3.5" fill="{LINE}"/>')
-    return f.svg(body, "Weekly reject rate, all patterns")
-
-
-PARETO_BARS = 15
-
-
-def svg_pareto(review: dict) -> str:
-    """Scrap cost by pattern, largest first, with the cumulative share (%) on the right."""
-    rows = [r for r in review["pareto"]["patterns_by_cost"] if is_number(r["scrap_cost"])]
-    if len(rows) > PARETO_BARS:
-        rest = rows[PARETO_BARS - 1:]
-        rows = rows[:PARETO_BARS - 1] + [{"pattern": f"{len(rest)} others",
-                                          "scrap_cost": sum(r["scrap_cost"] for r in rest),
-                                          "cumulative_share": 1.0}]
-    top = (max([r["scrap_cost"] for r in rows] or [1.0]))
-    f = _Frame(len(rows), top, height=300, bottom=78, y2=True)
-    body = f.axes(cost_head(review), [r["pattern"] for r in rows], rotate=True)
-    bw = f.slot() * 0.7
-    for i, r in enumerate(rows):
-        y = f.y(r["scrap_cost"])
-        body.append(f'<rect x="{f.x(i) - bw / 2:.1f}" y="{y:.1f}" width="{bw:.1f}" '
-                    f'height="{f.t + f.ph - y:.1f}" fill="{BAR}"><title>{_e(r["pattern"])}: '
-                    f'{money(r["scrap_cost"])}</title></rect>')
-    # right axis: cumulative share 0..100 %
-    xr = f.w - f.r
-    for v in (0, 25, 50, 75, 100):
-        y = f.t + f.ph * (1 - v / 100)
-        body.append(f'<text x="{xr + 6}" y="{y + 4:.1f}" class="tick">{v}</text>')
-    body.append(f'<text x="{f.w - 16}" y="{f.t + f.ph / 2:.1f}" text-anchor="middle" class="axis" '
-                f'transform="rotate(90 {f.w - 16} {f.t + f.ph / 2:.1f})">Cumulative share (%)</text>')
-    y80 = f.t + f.ph * 0.2
-    body.append(f'<line x1="{f.l}" y1="{y80:.1f}" x2="{xr}" y2="{y80:.1f}" stroke="{GRID}" '
-                f'stroke-dasharray="3 3"/>')
-    pts = [(f.x(i), f.t + f.ph * (1 - (r.get("cumulative_share") or 0))) for i, r in enumerate(rows)]
-    body += _polyline(pts, LINE)
-    for x, y in pts:
-        body.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3" fill="#fff" stroke="{LINE}" stroke-width="1.5"/>')
-    return f.svg(body, "Scrap cost by pattern with cumulative share")
-
-
-def svg_pchart(pattern: dict) -> str:
-    """Weekly p-chart of one pattern: rate (%), centre, limits, signalled points marked."""
-    pts = pattern.get("pchart") or []
-    vals = [p["p"] for p in pts if is_number(p["p"])] + [p["ucl"] for p in pts if is_number(p["ucl"])]
-    top = (100 * max(vals or [0.01]))
-    f = _Frame(len(pts), top, height=220, right=104)
-    body = f.axes("Reject rate (%)", [_short_week(p["label"]) for p in pts], every=max(1, len(pts) // 13))
-    half = f.slot() / 2
-    for key, color, dash in (("ucl", LIMIT, "5 3"), ("lcl", LIMIT, "5 3")):
-        for i, p in enumerate(pts):
-            if is_number(p[key]) and (key == "ucl" or p[key] > 0):
-                ly = f.y(100 * p[key])
-                body.append(f'<line x1="{f.x(i) - half:.1f}" y1="{ly:.1f}" x2="{f.x(i) + half:.1f}" '
-                            f'y2="{ly:.1f}" stroke="{color}" stroke-width="1.5" stroke-dasharray="{dash}"/>')
-    centre = next((p["centre"] for p in pts if is_number(p["centre"])), None)
-    if centre is not None:
-        cy = f.y(100 * centre)
-        body.append(f'<line x1="{f.l}" y1="{cy:.1f}" x2="{f.w - f.r}" y2="{cy:.1f}" stroke="{INK}" '
-                    f'stroke-width="1"/>')
-        body.append(f'<text x="{f.w - f.r + 6}" y="{cy + 4:.1f}" class="note">'
-                    f'centre {pct(centre, 2)} %</text>')
-    line = [(f.x(i), f.y(100 * p["p"]) if is_number(p["p"]) else None) for i, p in enumerate(pts)]
-    body += _polyline(line, LINE, width=1.5)
-    for (x, y), p in zip(line, pts, strict=False):
-        if y is None:
-            continue
-        tip = (f'{_e(p["label"])}: {pct(p["p"], 2)} % of {count(p["inspected"])} castings'
-               + (" (signal)" if p["signal"] else ""))
-        if p["signal"]:
-            # filled: more rejects than usual; hollow: fewer (a signal on the good side)
-            high = is_number(p["centre"]) and p["p"] > p["centre"]
-            fill = ALERT if high else "#fff"
-            body.append(f'<path d="M{x:.1f},{y - 7:.1f} L{x + 7:.1f},{y:.1f} L{x:.1f},{y + 7:.1f} '
-                        f'L{x - 7:.1f},{y:.1f} Z" fill="{fill}" stroke="{INK}" stroke-width="1.2">'
-                        f'<title>{tip}</title></path>')
-        else:
-            body.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3.5" fill="{LINE}"><title>{tip}</title></circle>')
-    return f.svg(body, f"Weekly p-chart of {pattern['pattern']}")
 
 
 # --- HTML ---------------------------------------------------------------------------------
@@ -269,10 +70,8 @@ tr.problem td:first-child { border-left: 4px solid var(--alert); font-weight: 60
 .flag { color: var(--alert); font-weight: 600; }
 .caution { border: 1px solid var(--ink); border-left: 6px solid var(--ink); padding: 8px 12px;
            margin: 10px 0; background: var(--soft); }
-.chart { max-width: 100%; height: auto; display: block; margin: 4px 0 8px; }
-.chart .tick { font-size: 11px; fill: #444; }
-.chart .axis { font-size: 12px; fill: #222; }
-.chart .note { font-size: 11px; fill: #444; }
+.chart { margin: 4px 0 8px; break-inside: avoid; page-break-inside: avoid; }
+.chart svg { max-width: 100%; height: auto; display: block; }
 .legend { font-size: 12px; color: var(--muted); margin: 0 0 8px; }
 .small { font-size: 11px; font-weight: normal; }
 .pchart { break-inside: avoid; page-break-inside: avoid; }
@@ -286,14 +85,16 @@ footer { margin-top: 28px; color: var(--muted); font-size: 12px; border-top: 1px
   th { hyphens: auto; overflow-wrap: anywhere; }
   td.n { white-space: normal; }
 }
-@page { size: A4; margin: 12mm; }
+@page { margin: 12mm; }  /* the printer's paper: A4 or Letter */
 @media print {
   body { padding: 0; max-width: none; font-size: 10.5pt; }
   table { font-size: 8pt; }
-  th, td { padding: 2px 3px; }
+  th, td { padding: 2px 3px; overflow-wrap: anywhere; }
+  td.n { white-space: normal; }
   .wide { overflow: visible; }
-  h2 { break-after: avoid; page-break-after: avoid; }
-  table, .chart, .caution, .card { break-inside: avoid; page-break-inside: avoid; }
+  h2, h3 { break-after: avoid; page-break-after: avoid; }
+  thead { display: table-header-group; }  /* a table that runs on repeats its heading */
+  tr, .chart, .caution, .card { break-inside: avoid; page-break-inside: avoid; }
   th { background: #eee !important; -webkit-print-color-adjust: exact; print-color-adjust: exact; }
 }
 """
@@ -371,31 +172,44 @@ def _html_revision(review: dict, r: dict) -> str:
               f"halving of the rate: {pct(r.get('power_to_halve'), 0)} %.</p></div>")
 
 
-PCHART_LEGEND = ('<p class="legend">How to read the charts. Dots: weekly reject rate (%). Solid line: the '
-                 'pattern\'s rate over the window. Dashed: control limits (exact binomial limits for each week\'s '
-                 'castings inspected: an in-control week falls beyond either with at most 0.135 % chance). '
-                 'Diamonds: weeks that break a rule (beyond a limit, or 8 in a row on one side); '
-                 'filled red above the centre (more rejects), hollow below it (fewer).</p>')
+PCHART_LEGEND = ('<p class="legend">How to read the charts. Line and dots: weekly reject rate (%). Dashed '
+                 'grey line: the pattern\'s centre, its rate over the window. Shaded bar of each week: its '
+                 'control limits (exact binomial limits for that week\'s castings inspected: an in-control week '
+                 'falls outside with at most 0.135 % chance each side). Triangles: weeks that break a rule '
+                 '(beyond a limit, or 8 in a row on one side). Dashed orange line: the target.</p>')
 
 
-def render_html(review: dict) -> str:
-    """The review as one self-contained HTML page (inline CSS and SVG, no scripts)."""
-    out = _html_head(review) + _html_cards(review) + _html_attention(review)
+def _chart(charts: dict | None, key: str) -> str:
+    """The inline SVG of chart ``key`` handed in by the pack ("" without one)."""
+    svg = (charts or {}).get(key)
+    return f'<div class="chart">{svg}</div>' if svg else ""
+
+
+def render_html(review: dict, charts: dict | None = None, sections: dict | None = None) -> str:
+    """The review as one self-contained HTML page (inline CSS and SVG, no scripts).
+
+    charts: inline SVG by name ("trend", "pareto", "pchart:" + pattern code),
+    drawn by :mod:`tracker.views.pack`; sections: more HTML sections by place
+    ("after_attention", "before_revisions", "after_revisions"), already escaped.
+    """
+    extra = sections or {}
+    out = _html_head(review) + _html_cards(review) + _html_attention(review, charts)
+    out += extra.get("after_attention", [])
     c = confidence_text(review)
     out.append(f"<section><h2>Changes since {_e(review['changes']['previous_week'])}</h2><ul class=\"changes\">"
                + "".join(f"<li>{_e(s)}</li>" for s in change_lines(review)) + "</ul></section>")
 
     out.append("<section><h2>Weekly trend, all patterns</h2>")
-    out.append(svg_trend(review))
+    out.append(_chart(charts, "trend"))
     out.append(f'<p class="legend">Line: reject rate (%) of each week\'s inspected castings; band: its {c} '
-               'interval; dashed red: target.</p>')
+               'interval; dashed orange: target.</p>')
     cols = trend_columns(review)
     out.append(_html_table(review["trend"]["overall"], cols, _numeric_heads(cols)) + "</section>")
 
     out.append("<section><h2>Scrap by pattern</h2>")
-    out.append(svg_pareto(review))
-    out.append('<p class="legend">Bars: scrap cost over the window, largest first. Line: cumulative share '
-               '(%) of the window\'s scrap cost; dotted: 80 %.</p>')
+    out.append(_chart(charts, "pareto"))
+    out.append('<p class="legend">Bars: scrap cost over the window, largest first (faded after the patterns '
+               'that make up 80 %). Line: cumulative share (%) of the window\'s scrap cost.</p>')
     cols = _html_pattern_columns(review)
     out.append(_html_table(review["patterns"], cols, _numeric_heads(cols),
                            row_class=lambda p: "problem" if p["problem"] else "") + "</section>")
@@ -403,7 +217,8 @@ def render_html(review: dict) -> str:
     cols = defect_columns(review)
     out.append("<section><h2>Scrap by defect</h2>"
                + _html_table(review["defects"], cols, _numeric_heads(cols)) + "</section>")
-    out += _html_revisions(review) + _html_notes(review)
+    out += extra.get("before_revisions", []) + _html_revisions(review) + extra.get("after_revisions", [])
+    out += _html_notes(review)
     out.append(f"<footer>Rates: {_e(review.get('rate_basis', ''))}. Counts in castings; costs in "
                f"{_e(review.get('currency') or DEFAULT_CURRENCY)}; weights in "
                f"{units.symbol('mass_kg', review.get('unit_system', units.METRIC))}. Rework is counted apart and "
@@ -425,6 +240,11 @@ def _html_head(review: dict) -> list[str]:
             f'{_e(w["end"])}) · target reject rate {pct(review["target"])} %</p></header>']
 
 
+def _lower_first(text: str) -> str:
+    """"Scrap cost (EUR)" -> "scrap cost (EUR)": the currency code keeps its capitals."""
+    return text[:1].lower() + text[1:]
+
+
 def _html_cards(review: dict) -> list[str]:
     """The headline figures as cards: the review week's and the window's."""
     t = review["totals"]
@@ -432,9 +252,9 @@ def _html_cards(review: dict) -> list[str]:
     cards = [
         ("Review week: rejected (castings)", count(wk["rejected"])),
         ("Review week: reject rate (%)", pct(wk["reject_rate"], 2)),
-        (f"Review week: {cost_head(review).lower()}", money(wk["scrap_cost"])),
+        (f"Review week: {_lower_first(cost_head(review))}", money(wk["scrap_cost"])),
         ("Window: reject rate (%)", pct(win["reject_rate"], 2)),
-        (f"Window: {cost_head(review).lower()}", money(win["scrap_cost"])),
+        (f"Window: {_lower_first(cost_head(review))}", money(win["scrap_cost"])),
         ("Patterns needing attention", str(sum(1 for p in review["patterns"] if p["problem"]))),
     ]
     return ['<div class="cards">' + "".join(
@@ -442,14 +262,14 @@ def _html_cards(review: dict) -> list[str]:
         + "</div>"]
 
 
-def _html_attention(review: dict) -> list[str]:
+def _html_attention(review: dict, charts: dict | None = None) -> list[str]:
     """The problem patterns, each with its figures and its control chart."""
     probs = [p for p in review["patterns"] if p["problem"]]
     c = confidence_text(review)
     out = [f"<section><h2>Needs attention ({len(probs)})</h2>"]
     if not probs:
         out.append('<p class="muted">No pattern is above target or signalling in the latest two weeks.</p>')
-    else:
+    elif charts:
         out.append(PCHART_LEGEND)
     for p in probs:
         desc = f" — {_e(p['description'])}" if p.get("description") else ""
@@ -461,7 +281,7 @@ def _html_attention(review: dict) -> list[str]:
                    f'({pct(p["reject_rate"])} %, {c} interval {interval_text(p["wilson_low"], p["wilson_high"])} %), '
                    f'scrap cost {money(p["scrap_cost"])}. Rejects by defect: {defects or "none"}. '
                    f'Shrinkage rejects by zone: {zones or "none"}.</p>')
-        out.append(svg_pchart(p) + "</div>")
+        out.append(_chart(charts, "pchart:" + p["pattern"]) + "</div>")
     out.append("</section>")
     return out
 
@@ -497,7 +317,7 @@ def _html_notes(review: dict) -> list[str]:
 
 def render_plants_html(d: dict) -> str:
     """A plant comparison (:func:`tracker.review.plants.compare_plants`) as one HTML page."""
-    cols = plant_columns()
+    cols = plant_columns(d.get("currency"))
     head = plants_head(d)
     return "\n".join(["<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
                       f"<title>{_e(head[0])}</title><style>{CSS}</style></head><body>",

@@ -246,7 +246,7 @@ def change_lines(review) -> list[str]:
 
 # --- plants side by side ---------------------------------------------------------------------
 
-def plant_columns():
+def plant_columns(currency: str | None = None):
     return [
         ("Plant", lambda r: r["plant"]),
         ("Patterns", lambda r: count(r["patterns"])),
@@ -255,7 +255,7 @@ def plant_columns():
         ("Reject rate (%)", lambda r: pct(r["reject_rate"], 2)),
         ("Wilson interval (%)", lambda r: interval_text(r["wilson_low"], r["wilson_high"])),
         ("Shrinkage rate (%)", lambda r: pct(r["shrinkage_rate"], 2)),
-        ("Scrap cost", lambda r: money(r["scrap_cost"])),
+        (cost_head({"currency": currency}), lambda r: money(r["scrap_cost"])),
         ("Week rejected / inspected", lambda r: f"{count(r['week_rejected'])} / {count(r['week_inspected'])}"),
         ("Week reject rate (%)", lambda r: pct(r["week_reject_rate"], 2)),
         ("Problem patterns", lambda r: ", ".join(r["problems"]) or "none"),

@@ -13,6 +13,7 @@ from tracker import numbers
 from tracker.errors import BadInput, NotFound
 from tracker.log.settings import DEFAULT_CURRENCY
 from tracker.review.rates import scope_text
+from tracker.review.target import against_target
 from tracker.views.common import money_head, pct_column
 
 RULE_WORDS = {"beyond_limit": "point beyond a limit", "run_of_8": "8 or more weeks on one side"}
@@ -115,23 +116,25 @@ PLANT_TABLE = {
     "plant": "plant", "patterns": "patterns", "inspected": "castings inspected",
     "rejected": "castings rejected", "reject_rate_pct": "reject rate (%)", "low_pct": "95 % range from (%)",
     "high_pct": "95 % range to (%)", "shrinkage_rate_pct": "shrinkage rate (%)",
-    "scrap_cost": "scrap cost (currency units)", "week_rejected": "review week: castings rejected",
+    "scrap_cost": "scrap cost", "week_rejected": "review week: castings rejected",
     "week_inspected": "review week: castings inspected", "problems_text": "flagged patterns",
 }
 
 
 def plant_comparison_table(comparison: dict) -> pd.DataFrame:
-    """A plant comparison (:func:`tracker.review.weekly.compare_plants`) for display: rates in %."""
+    """A plant comparison (:func:`tracker.review.weekly.compare_plants`) for display: rates in %,
+    the scrap cost headed with the log's currency."""
+    names = {**PLANT_TABLE, "scrap_cost": money_head("scrap cost", comparison)}
     rows = comparison.get("plants") or []
     if not rows:
-        return pd.DataFrame(columns=list(PLANT_TABLE.values()))
+        return pd.DataFrame(columns=list(names.values()))
     p = pd.DataFrame(rows)
     p["reject_rate_pct"] = pct_column(p["reject_rate"])
     p["low_pct"] = pct_column(p["wilson_low"])
     p["high_pct"] = pct_column(p["wilson_high"])
     p["shrinkage_rate_pct"] = pct_column(p["shrinkage_rate"])
     p["problems_text"] = p["problems"].map(lambda v: ", ".join(v) or "none")
-    return p[list(PLANT_TABLE)].rename(columns=PLANT_TABLE).reset_index(drop=True)
+    return p[list(PLANT_TABLE)].rename(columns=names).reset_index(drop=True)
 
 
 def review_pareto(review: dict, of: str = "patterns", by: str = "cost", top: int | None = None) -> pd.DataFrame:
@@ -335,3 +338,29 @@ def review_changes(review: dict) -> dict:
                                   for x in c.get("revisions_took_effect") or []],
         "rate_moves": moves,
     }
+
+
+TARGET_TABLE = {"pattern": "pattern", "inspected": "inspected (castings)", "rejected": "rejected (castings)",
+                "reject_rate_pct": "reject rate (%)", "target_pct": "target (%)",
+                "chance_pct": "chance above target (%)", "verdict": "against the target"}
+
+
+def review_target(review: dict) -> pd.DataFrame:
+    """Each pattern against the review's target (:func:`tracker.review.target.against_target`),
+    highest chance first, for the chart: the keys of TARGET_TABLE (counts in castings; rates,
+    target and chance in %; ``verdict`` "above the target (signal)" or "not shown above it").
+    Patterns with nothing inspected are left out. :func:`review_target_table` labels it."""
+    rows = [r for r in against_target(review) if r["chance_above"] is not None]
+    if not rows:
+        return pd.DataFrame(columns=list(TARGET_TABLE))
+    t = pd.DataFrame(rows)
+    t["reject_rate_pct"] = pct_column(t["reject_rate"])
+    t["target_pct"] = 100.0 * t["target"].astype(float)
+    t["chance_pct"] = 100.0 * t["chance_above"].astype(float)
+    t["verdict"] = np.where(t["signal"], "above the target (signal)", "not shown above it")
+    return t[list(TARGET_TABLE)].reset_index(drop=True)
+
+
+def review_target_table(review: dict) -> pd.DataFrame:
+    """:func:`review_target` with the display labels of TARGET_TABLE."""
+    return review_target(review).rename(columns=TARGET_TABLE)
