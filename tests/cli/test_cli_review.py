@@ -82,6 +82,8 @@ def test_out_writes_a_file(runner, demo_db, tmp_path):
     assert result.output == f"Wrote the html review of 2026-W47 to {out}\n"
     page = out.read_text(encoding="utf-8")
     assert page.startswith("<!DOCTYPE html>") and "<svg" in page
+    for head in ("Against the target", "Riser suggestions", "Riser revisions", "Open actions"):
+        assert f"<h2>{head}" in page  # the review pack (tests/review/test_pack.py)
 
 
 def test_html_without_out_goes_to_stdout(runner, good_db):
