@@ -28,6 +28,7 @@ from tracker.review import plants as plant_review
 from tracker.review import rates
 from tracker.review import weekly as review
 from tracker.views import common as views
+from tracker.views import design_form as design_form_views
 from tracker.views import design_map as map_views
 from tracker.views import log_results as log_views
 from tracker.views import pattern_file as pattern_views
@@ -72,6 +73,9 @@ def _registry() -> dict:
         "pattern_reject_rate": rates.pattern_reject_rate,
         "pattern_thermal": thermal_views.pattern_thermal,
         "what_if_thermal": thermal_views.what_if_view,
+        "design_start": design_form_views.design_start,
+        "sleeve_codes": design_form_views.sleeve_codes,
+        "alloy_codes": design_form_views.alloy_codes,
     }
 
 

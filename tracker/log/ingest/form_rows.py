@@ -15,11 +15,12 @@ from collections.abc import Sequence
 import pandas as pd
 
 from tracker.errors import BadFile
+from tracker.log import accounts as auth
 from tracker.log.ingest.checks import Checks
 from tracker.log.ingest.columns import COLUMNS, US_COLUMNS
 from tracker.log.ingest.kinds import validator_for
 from tracker.log.ingest.result import ImportResult
-from tracker.log.store import Store
+from tracker.log.store import Store, retrying
 
 FORM_KINDS = ("patterns", "zones", "sleeves", "risers")  # what a form may write this way
 
@@ -84,3 +85,20 @@ def _write_kind(store: Store, kind: str, rows: Sequence[dict], *, by: str | None
     validator.write([r for r, s in zip(checked, skip, strict=True) if not s], None)
     validator.write_last()
     return result
+
+
+@retrying
+def save_design(store: Store, *, pattern: dict | None = None, zones: Sequence[dict] = (),
+                risers: Sequence[dict] = (), by: str | None = None, today: dt.date | None = None) -> list[ImportResult]:
+    """Store what the pattern design form holds: a new pattern (``pattern``, the
+    patterns import's columns), its new zones and a riser revision (the risers
+    import's columns, one revision listing every riser), checked as their
+    imports check them, all in one transaction or nothing (see
+    :func:`write_form_rows`). Needs the role that may change designs; audited
+    as an import is."""
+    author = auth.author(store, "design", by)
+    with store.write():
+        results = write_form_rows(store, [("patterns", [pattern] if pattern else []), ("zones", list(zones)),
+                                          ("risers", list(risers))], by=author, today=today)
+        auth.note_write(store, "design_form", "; ".join(f"{r.kind}: {r.added} added" for r in results))
+    return results

@@ -142,3 +142,16 @@ def save_next_revision(store: Store, pattern: str, revision: str, effective_from
     return {"pattern": pattern, "revision": str(revision).strip(), "effective_from": day,
             "base": newest["revision"], "changed": changed,
             "carried_over": [r["riser"] for r in rows if r["riser"] not in changes], "risers": rows}
+
+
+def next_code(code: str) -> str:
+    """A proposal for the code after ``code``: "3" after "2", "C" after "B",
+    "R-08" after "R-07"; blank where the code ends in neither a digit nor a letter
+    (or in "Z" / "z")."""
+    code = str(code or "")
+    head, digits = code.rstrip("0123456789"), code[len(code.rstrip("0123456789")):]
+    if digits:
+        return head + str(int(digits) + 1).zfill(len(digits))
+    if code and code[-1].isascii() and code[-1].isalpha() and code[-1] not in "zZ":
+        return code[:-1] + chr(ord(code[-1]) + 1)
+    return ""
