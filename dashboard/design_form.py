@@ -43,6 +43,7 @@ def _pending(pattern: str, start: dict) -> dict:
     if p is None or p["pattern"] != pattern or p["system"] != system:
         p = {"pattern": pattern, "system": system, "zones": [], "risers": [dict(r) for r in start["risers"]]}
         st.session_state[_PENDING] = p
+        st.session_state["design_revision"] = start["next_code"]  # proposed for this pattern
     return p
 
 
@@ -133,7 +134,6 @@ def _risers(pattern: str, start: dict, p: dict) -> tuple[str, str]:
             f"Starts from revision {start['revision']} of {pattern} (in effect from {start['effective_from']}): "
             "its risers are carried over as they are. Add a riser with a code it has to change that riser."))
     a, b = st.columns(2)
-    st.session_state.setdefault("design_revision", start["next_code"])
     code = a.text_input("New revision code", key="design_revision", max_chars=64)
     day = b.date_input("In effect from", key="design_from", value=dt.date.today(), format="YYYY-MM-DD")
     zones = sorted({*start["zones"].get("zone", pd.Series(dtype=str)).tolist(), *(z["zone"] for z in p["zones"])})
