@@ -20,6 +20,7 @@ from tracker.design.geometry import PLACEMENTS, TOPS
 from tracker.design.rules import MOULDS
 from tracker.errors import BadFile
 from tracker.log.ingest.form_rows import save_design
+from tracker.views.design_form import revision_rows
 
 NEW = "(a new pattern)"
 NO_SLEEVE = "(no sleeve)"
@@ -161,10 +162,10 @@ def _risers(pattern: str, start: dict, p: dict) -> tuple[str, str]:
     return code.strip(), day.isoformat() if day else ""
 
 
-def _save(pattern: str, new: dict | None, code: str, day: str, by: str, changed: bool) -> None:
+def _save(pattern: str, new: dict | None, code: str, day: str, by: str, start: dict, changed: bool) -> None:
     p = st.session_state[_PENDING]
-    risers = [{"pattern": pattern, "revision": code, "effective_from": day, **r} for r in p["risers"]] \
-        if changed else []
+    rows = revision_rows(p["risers"], start, p["system"])  # the untouched risers exactly as stored
+    risers = [{"pattern": pattern, "revision": code, "effective_from": day, **r} for r in rows] if changed else []
     zones = [{"pattern": pattern, **z} for z in p["zones"]]
     with common.guard():
         try:
@@ -217,7 +218,7 @@ def main() -> None:
         elif not pattern:
             st.error("Pattern code: left blank; give the new pattern a code.")
         else:
-            _save(pattern, new, code, day, by, changed)
+            _save(pattern, new, code, day, by, start, changed)
 
 
 main()

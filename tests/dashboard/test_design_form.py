@@ -59,3 +59,19 @@ def test_a_role_that_may_not_change_designs_is_told_why(app_db, monkeypatch):
     at = _as(app_db, "inspector", monkeypatch)
     assert "design_save" not in [b.key for b in at.button]
     assert any("needs the role methods" in c.value for c in at.caption)
+
+
+def test_an_untouched_riser_is_carried_over_exactly_in_us_units():
+    from tracker.views.design_form import form_row, revision_rows
+
+    stored = [{"riser": "R1", "zone": "hub", "placement": "side", "top": "blind", "diameter_mm": 100.0,
+               "height_mm": 130.0, "sleeve": None, "neck_diameter_mm": 70.0},
+              {"riser": "R2", "zone": "arm", "placement": "top", "top": "open", "diameter_mm": 80.0,
+               "height_mm": 80.0, "sleeve": None, "neck_diameter_mm": None}]
+    start = {"stored": stored, "risers": [form_row(r, "us") for r in stored]}
+    assert start["risers"][0]["diameter_in"] == "3.93701"  # shown rounded: it must not be read back
+    typed = [dict(start["risers"][0]), {**start["risers"][1], "diameter_in": "5", "height_in": "5"}]
+    rows = revision_rows(typed, start, "us")
+    assert rows[0] == stored[0]
+    # 1 in = 25.4 mm exactly (NIST SP 811, appendix B)
+    assert (rows[1]["diameter_mm"], rows[1]["height_mm"], rows[1]["zone"]) == (127.0, 127.0, "arm")

@@ -4,6 +4,8 @@ pickers (see :mod:`tracker.views.common` for the conventions)."""
 
 from __future__ import annotations
 
+import contextlib
+
 import pandas as pd
 
 from tracker import units
@@ -23,7 +25,7 @@ def design_start(store: Store, pattern: str | None, system: str = units.METRIC) 
     form rows (the risers import's columns named and valued in ``system``),
     to be carried over into the next revision."""
     out: dict = {"zones": pd.DataFrame(columns=[units.column_name(k, system) for k in ZONE_FIELDS]),
-                 "revision": None, "effective_from": None, "next_code": "1", "risers": []}
+                 "revision": None, "effective_from": None, "next_code": "1", "risers": [], "stored": []}
     if not pattern:
         return out
     zones = store.zones_frame(pattern)
@@ -34,7 +36,32 @@ def design_start(store: Store, pattern: str | None, system: str = units.METRIC) 
         return out
     out.update(revision=newest["revision"], effective_from=newest["effective_from"],
                next_code=next_code(newest["revision"]))
-    out["risers"] = [form_row(r, system) for r in stored_risers(store, pattern, newest["revision"])]
+    out["stored"] = stored_risers(store, pattern, newest["revision"])
+    out["risers"] = [form_row(r, system) for r in out["stored"]]
+    return out
+
+
+def revision_rows(typed: list[dict], start: dict, system: str = units.METRIC) -> list[dict]:
+    """The risers of the new revision, metric: a riser left as the form showed it is
+    the stored one, exactly (carried over); a riser typed or changed has its measures
+    converted from ``system`` (a cell that is not a number is passed on as typed, for
+    the import's check to name)."""
+    shown = {r["riser"]: r for r in start.get("risers", [])}
+    stored = {r["riser"]: r for r in start.get("stored", [])}
+    out = []
+    for row in typed:
+        code = row.get("riser")
+        if code in stored and shown.get(code) == row:
+            out.append(dict(stored[code]))
+            continue
+        metric = {}
+        for k in RISER_FIELDS:
+            v = row.get(units.column_name(k, system), "")
+            if k.endswith("_mm") and system != units.METRIC and str(v).strip():
+                with contextlib.suppress(ValueError):
+                    v = units.to_metric(k, float(v), system)
+            metric[k] = v
+        out.append(metric)
     return out
 
 
