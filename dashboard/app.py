@@ -26,6 +26,7 @@ SPECS = [
     ("design_map.py", "Design map", ":material/scatter_plot:", "design-map"),
     ("pattern_file.py", "Pattern file", ":material/folder_open:", "pattern"),
     ("suggestions.py", "Suggestions", ":material/tune:", "suggestions"),
+    ("design_form.py", "Pattern design", ":material/design_services:", "design"),
 ]
 HOME_URL = "home"  # the hidden start page at "/" (see HOME below)
 TEAM = ("team.py", "Team", ":material/group:", "team")  # admins, signed in

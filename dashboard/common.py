@@ -29,6 +29,7 @@ from tracker.review import plants as plant_review
 from tracker.review import rates
 from tracker.review import weekly as review
 from tracker.views import common as views
+from tracker.views import design_form as design_form_views
 from tracker.views import design_map as map_views
 from tracker.views import log_results as log_views
 from tracker.views import pack as review_pack
@@ -77,6 +78,9 @@ def _registry() -> dict:
         "what_if_thermal": thermal_views.what_if_view,
         "actions": log_actions.list_actions,
         "review_pack": review_pack.pack_of,
+        "design_start": design_form_views.design_start,
+        "sleeve_codes": design_form_views.sleeve_codes,
+        "alloy_codes": design_form_views.alloy_codes,
     }
 
 

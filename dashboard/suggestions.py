@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from dashboard import access, charts, common, thermal_view
+from dashboard import access, charts, common, save_revision, thermal_view
 from tracker import units
 from tracker.advice import pricing
 from tracker.advice import what_if as what_if_run
@@ -71,6 +71,8 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
         where = " · ".join(str(x) for x in (s["pattern"], s.get("zone"), s.get("riser")) if x)
         with st.expander(common.md_escape(f"{where}: {s['action'].replace('_', ' ')}")):
             st.markdown(common.md_escape(s["reason"]))
+            if s["action"] != "no_riser_change" and s.get("riser"):
+                save_revision.save_form("suggestion", s, f"saverev_s_{s['pattern']}_{s['zone']}_{s['riser']}")
     return found
 
 
@@ -101,7 +103,8 @@ def _diameter_typed(sleeves, row, sleeve_key: str, dia_key: str) -> None:
 def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
     st.subheader("What if")
     st.caption("Change one riser of a pattern's newest revision and see its rule margins, the predicted "
-               "shrinkage rate, the yield and the money, priced as the suggestions are. Nothing is saved.")
+               "shrinkage rate, the yield and the money, priced as the suggestions are. Nothing is saved "
+               "unless you save it as the next revision below.")
     system = common.unit_system()
     risers = common.load("riser_options", system=system)
     if risers.empty:
@@ -152,6 +155,7 @@ def what_if(found: list[dict], week: str, weeks: int, charge: float) -> None:
     _money_metrics(result)
     st.altair_chart(charts.margins(views.what_if_margins(result)), width="stretch", key="whatif_chart")
     thermal_view.what_if_section(result)
+    save_revision.save_form("what_if", result, f"saverev_w_{key[0]}_{key[1]}", offer=result["changed"])
 
 
 def _delta(new, now, fmt="{:+.2f}", unit=""):
@@ -228,6 +232,7 @@ def _money_metrics(result: dict) -> None:
 def main() -> None:
     common.header("Suggestions", "For each flagged pattern: which riser to resize or re-sleeve, by how much, "
                                  "what it costs in poured metal, and what the shop's history predicts.")
+    save_revision.announce()
     state = common.load("start_state")
     if not state["ready"] or not state["has_design"]:
         common.start_message(state, "suggestions (they need risers, lots and inspections)")

@@ -146,7 +146,8 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
         **_margins(base, judge(pd.DataFrame([row])).iloc[0], designs["judged"].loc[k]),
         "observed_rate": observed, "zone_castings": castings, "week": week, "weeks": int(weeks),
         "predicted_rate": figures["predicted_rate_after"], **figures, "changed": bool(changed),
-        "changed_risers": changed, "yield_before": float(money["yield_before"].to_numpy()[0]),
+        "changed_risers": changed, "neck_diameter_mm": finite(row["neck_diameter_mm"]),
+        "yield_before": float(money["yield_before"].to_numpy()[0]),
         "caution": SAFETY_CAUTION,
     }
 

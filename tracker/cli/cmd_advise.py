@@ -20,6 +20,7 @@ from tracker.cli.options import (
     units_option,
     week_option,
     weeks_option,
+    who,
 )
 from tracker.cli.output import caution_text, emit, show_progress, table
 from tracker.cli.steps import Steps
@@ -144,17 +145,28 @@ def _format(rows: list[dict], code: str = DEFAULT_CURRENCY, system: str = units.
 @click.option("--thermal", is_flag=True,
               help="Add the thermal check of the changed riser (a solidification solve): thermal_ok, "
                    "thermal_verdict (pass, fail or inconclusive), last_to_freeze.")
+@click.option("--save-revision", "save_revision", default=None, metavar="REV",
+              help="Save the change as the pattern's next riser revision REV (every riser it does not "
+                   "change is carried over); needs --effective-from.")
+@click.option("--effective-from", "effective_from", default=None, metavar="YYYY-MM-DD",
+              help="The day the saved revision takes effect (after the newest revision's).")
+@click.option("--by", default=None, help="Who saves the revision (recorded in the audit; default: login name).")
 @units_option
 @db_option
 @json_option
 @handle_errors
-def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, units_override, db_path, as_json,
-            **measures):
+def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, save_revision, effective_from, by,
+            units_override, db_path, as_json, **measures):
     """Show the margins, predicted rate, yield and money of a changed riser.
 
     The money is priced as in `suggest`, on the same basis: the reject
     model's rate for the zone now and changed, castings per year over the
     window, the remelt charge on scrapped castings and extra riser metal.
+
+    With --save-revision and --effective-from the change is stored as the
+    pattern's next riser revision: the changed riser (and the risers on its
+    zone that fail the rules, priced with the same change), every other
+    riser of the newest revision carried over as it is. The save is audited.
 
     Example:
 
@@ -162,9 +174,18 @@ def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, units_o
     """
     from tracker.advice.what_if import what_if as run
 
+    if effective_from is not None and save_revision is None:
+        raise click.UsageError("--effective-from needs --save-revision REV")
+    if save_revision is not None and effective_from is None:
+        raise click.UsageError("--save-revision needs --effective-from YYYY-MM-DD (the day the revision takes "
+                               "effect)")
     with open_store(db_path) as store:
         system = resolve_units(store, units_override)
         m = take_measures(system, measures, "diameter_mm", "height_mm")
+        if save_revision is not None:  # refused before the pricing, not after it
+            from tracker.log.ingest.next_revision import check_next_revision
+
+            check_next_revision(store, pattern, None, save_revision, effective_from)
         r = run(store, pattern, riser, diameter_mm=m["diameter_mm"], height_mm=m["height_mm"], sleeve=sleeve,
                 week=week, weeks=weeks, remelt_charge=remelt_charge, system=system)
         if thermal:
@@ -173,6 +194,12 @@ def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, units_o
             t = what_if_fields(store, r)
             r.update(thermal_ok=t["thermal_ok"], thermal_verdict=t["thermal_verdict"],
                      last_to_freeze=t["last_to_freeze"])
+        if save_revision is not None:
+            from tracker.advice.next_revision import save_what_if
+
+            saved = save_what_if(store, r, save_revision, effective_from, by=who(by))
+            r["saved_revision"] = {k: saved[k] for k in ("revision", "effective_from", "base", "changed",
+                                                          "carried_over")}
         code = currency(store)
     r = units.convert_record(r, system)
     emit(r, as_json, lambda found: _what_if_text(found, code, system))
@@ -203,7 +230,18 @@ def _what_if_text(r: dict, code: str = DEFAULT_CURRENCY, system: str = units.MET
     money = [table(_what_if_money(r, code)), f"pays off: {pays}",
              f"{basis_note} Cost per scrapped casting {money_text(r['cost_per_scrapped_casting'])} {code}; remelt "
              f"charge {r['remelt_charge']:g}."]
-    return "\n".join(design) + "\n\n" + "\n".join(money) + "\n\n" + caution_text()
+    out = "\n".join(design) + "\n\n" + "\n".join(money) + "\n\n" + caution_text()
+    if "saved_revision" in r:
+        out += "\n\n" + saved_text(r["pattern"], r["saved_revision"])
+    return out
+
+
+def saved_text(pattern: str, saved: dict) -> str:
+    """One line on a revision saved from a what-if."""
+    kept = saved["carried_over"]
+    return (f"Saved as revision {saved['revision']} of {pattern}, in effect from {saved['effective_from']} "
+            f"(after revision {saved['base']}): changed {', '.join(saved['changed'])}; "
+            + (f"carried over {', '.join(kept)} unchanged." if kept else "no other riser to carry over."))
 
 
 def _what_if_figures(r: dict) -> list[dict]:
