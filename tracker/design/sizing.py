@@ -473,6 +473,13 @@ def _pour_temp_used(alloy: Alloy, pour_temp_c: float | None) -> float | None:
                  else alloy.liquidus_c + (alloy.default_superheat_k or 0.0))
 
 
+def _check_section(system: str, volume_cm3, area_cm2, thickness_mm, width_mm, length_mm, joined: bool) -> None:
+    """The import's ranges on every figure typed, then the section's own consistency (V/A <= T/2 unless joined)."""
+    check_section_figures(system, volume_cm3=volume_cm3, area_cm2=area_cm2, thickness_mm=thickness_mm,
+                          width_mm=width_mm, length_mm=length_mm)
+    validate_section(volume_cm3, area_cm2, thickness_mm, system, joined=joined)
+
+
 def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str = "side",
                h_over_d: float = 1.0, sleeve_factor: float = 1.0,
                modulus_factor: float = rules.DEFAULT_MODULUS_FACTOR,
@@ -507,9 +514,7 @@ def size_riser(volume_cm3: float, area_cm2: float, alloy="steel", placement: str
         sleeve_factor = float(sleeve["modulus_factor"])
     validate_pour_temp(pour_temp_c, system)
     beta, liquid = rules.feed_fraction(alloy, mould, pour_temp_c, shrinkage)
-    check_section_figures(system, volume_cm3=volume_cm3, area_cm2=area_cm2, thickness_mm=thickness_mm,
-                          width_mm=width_mm, length_mm=length_mm)  # the import's ranges (issue 27)
-    validate_section(volume_cm3, area_cm2, thickness_mm, system, joined=joined is not None)
+    _check_section(system, volume_cm3, area_cm2, thickness_mm, width_mm, length_mm, joined is not None)
     validate_design_options(h_over_d, sleeve_factor, modulus_factor)
     rules.check_efficiency(eff, beta, liquid)
     need = max(beta, 0.0) + liquid
