@@ -187,6 +187,8 @@ def upload_file() -> None:
         common.forget()
         st.success(f"Imported {common.md_escape(res.file)}: {res.rows:,} rows read, {res.added:,} added, "
                    f"{res.skipped:,} already present.")
+        for note in res.warnings[:20]:  # e.g. rows found from an earlier file, named with its import date
+            st.warning(common.md_escape(note), icon=":material/warning:")
 
 
 def latest(state: dict) -> None:

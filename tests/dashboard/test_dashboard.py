@@ -214,14 +214,18 @@ def test_good_upload_is_imported(app_db, monkeypatch):
     lot, _ = _lot_with_room(app_db)
     with Store(app_db) as s:
         n = s.count("inspections")
-    at = _upload(open_page(app_db, "log_results.py", monkeypatch), "more.csv",
-                 "lot,inspected_on,method,quantity,result,defect\n"
-                 f"{lot},2026-11-25,visual,1,reject,slag\n")
+    content = f"lot,inspected_on,method,quantity,result,defect\n{lot},2026-11-25,visual,1,reject,slag\n"
+    at = _upload(open_page(app_db, "log_results.py", monkeypatch), "more.csv", content)
     assert not at.error, texts(at.error)
     assert any("1 added" in s for s in texts(at.success)), texts(at.success)
     with Store(app_db) as s:
         assert s.count("inspections") == n + 1
         assert s.inspections_history(limit=1)["recorded_by"].iat[0] == "Test Person"
+    # The same bytes under another name: nothing added, and the page names the earlier file (issue 27).
+    again = _upload(open_page(app_db, "log_results.py", monkeypatch), "again.csv", content)
+    assert any("0 added, 1 already present" in s for s in texts(again.success)), texts(again.success)
+    assert any(w.startswith("row 2 already in the log from more.csv, imported ") for w in texts(again.warning)), \
+        texts(again.warning)
 
 
 # --- weekly review ------------------------------------------------------------------------------

@@ -34,6 +34,15 @@ def store(logs):
         yield s
 
 
+@pytest.fixture(scope="module")
+def refusing_store(session_logs):
+    """The good data's log, shared by the tests whose imports are all refused (a
+    refusal leaves it unchanged, which each of them checks)."""
+    with Store(session_logs.new("refusals")) as s:
+        import_dir(s, GOOD, today=TODAY)
+        yield s
+
+
 def write(tmp_path, name, text):
     path = tmp_path / name
     path.write_text(text, encoding="utf-8", newline="")
@@ -62,8 +71,8 @@ def imported_at(store, file):
     ("lots", "lot,pattern,poured_on,heat,molds\n\"L\t9\",T-100,2026-03-02,H1,1\n", "lot", "'L\\t9'"),
     ("inspections", INSP + 'L1,2026-03-06,ut,1,accept,,,,,,"QE\r\nA",\n', "inspector", "'QE\\r\\nA'"),
 ])
-def test_a_line_break_in_a_code_is_refused(store, tmp_path, kind, text, column, got):
-    msg = refuse(store, kind, write(tmp_path, f"{kind}.csv", text))
+def test_a_line_break_in_a_code_is_refused(refusing_store, tmp_path, kind, text, column, got):
+    msg = refuse(refusing_store, kind, write(tmp_path, f"{kind}.csv", text))
     assert msg.splitlines() == [
         f"{kind}.csv: refused, nothing written (1 bad row(s)):",
         f"{kind}.csv, row 2, column {column}: got {got}; {column} holds a line break or a tab; a code or a "

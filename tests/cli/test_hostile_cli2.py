@@ -1,13 +1,18 @@
-"""Hostile figures for `size` (issue 27), with a log of each backend: the import's
-bounds on the section, a shop's diameter step, NaN, and an error naming the option
-as typed with the value as typed. Each is one line, never a traceback, and the
-log is unchanged. Plumbing tests; no trade figures here.
+"""Hostile command lines of issue 27, with a log of each backend: figures for
+`size` (the import's bounds on the section, a shop's diameter step, NaN, an error
+naming the option as typed with the value as typed), and `import` of rows found
+from another file (named, and added with --new-records). Each refusal is one
+line, never a traceback, and the log is unchanged. Plumbing tests; no trade
+figures here.
 """
 
 import pytest
 
-from tests.support.hostile import snap
+from tests.support import GOOD
+from tests.support.hostile import TODAY, snap
 from tracker.cli import main
+from tracker.log.ingest import import_dir
+from tracker.log.store import Store
 
 SIZE = ["size", "--alloy", "steel", "--placement", "side"]
 SECTION = ["--volume-cm3", "2000", "--area-cm2", "1100"]
@@ -60,3 +65,23 @@ def test_size_takes_figures_at_the_bounds(runner, demo_db):
     result = runner.invoke(main, [*SIZE, "--volume-cm3", "0.001", "--area-cm2", "0.06", "--step-mm", "0.5",
                                   "--db", demo_db, "--json"])
     assert result.exit_code == 0, result.output
+
+
+def test_import_names_the_earlier_file_and_adds_with_new_records(runner, logs, tmp_path):
+    db = logs.new()
+    with Store(db) as s:
+        import_dir(s, GOOD, today=TODAY)
+    day = tmp_path / "day.csv"
+    day.write_text("lot,inspected_on,method,quantity,result\nL1,2026-03-06,ut,1,accept\n")
+    shift2 = tmp_path / "shift2.csv"
+    shift2.write_bytes(day.read_bytes())
+    assert runner.invoke(main, ["import", "inspections", str(day), "--db", db]).exit_code == 0
+    again = runner.invoke(main, ["import", "inspections", str(shift2), "--db", db])
+    assert again.exit_code == 0, again.output
+    [note] = [line for line in again.output.splitlines() if "warning" in line]
+    assert note.startswith("shift2.csv: warning: row 2 already in the log from day.csv, imported ")
+    assert note.endswith(" UTC (the same rows of the same bytes), not added again; if they are new "
+                         "inspections, import again with --new-records")
+    added = runner.invoke(main, ["import", "inspections", str(shift2), "--new-records", "--db", db, "--json"])
+    assert added.exit_code == 0, added.output
+    assert '"added": 1' in added.output
