@@ -256,11 +256,13 @@ def test_balance_recomputed_by_hand_from_the_json(demo_db, session_logs, runner)
 
 def test_choice_has_the_highest_balance_among_passing_candidates(demo_suggestions):
     for s in demo_suggestions:
-        if s["action"] == "no_riser_change" or not s["meets_target"]:
+        if s["action"] == "no_riser_change":
             continue
         for a in s["alternatives"]:
-            if a["passes"] and a["meets_target"]:
+            if a["passes"] and s["pays_off"]:
                 assert a["yearly_balance"] <= s["yearly_balance"] + 1e-9, (s["pattern"], a)
+            if a["passes"] and a["pays_off"]:  # a loser is never chosen over a passing change that pays
+                assert s["pays_off"], (s["pattern"], a)
 
 
 def test_pays_off_text_names_the_cheapest_passing_change():
@@ -268,7 +270,7 @@ def test_pays_off_text_names_the_cheapest_passing_change():
     from tracker.advice.wording import pays_off_text as _pays_off_text
 
     # Invented candidates of one zone: A and D reach the target, B passes the
-    # rules only, C fails a rule.
+    # rules only, C fails a rule; no passing one pays off.
     priced = pd.DataFrame({
         "_z": 0, "action": ["enlarge", "sleeve", "enlarge", "enlarge"],
         "diameter_mm": [150.0, 100.0, 120.0, 160.0], "height_mm": [150.0, 130.0, 120.0, 160.0],
@@ -278,15 +280,20 @@ def test_pays_off_text_names_the_cheapest_passing_change():
         "extra_cost_per_year": [500.0, 200.0, 50.0, 900.0], "yearly_balance": [-100.0, -50.0, 10.0, -500.0],
     }, index=pd.Index([0, 1, 2, 3], name="_cand"))
     chosen = _choose(priced)
-    # the highest balance among those passing every rule and reaching the target
-    assert chosen.loc[0, "_cand"] == 0 and chosen.loc[0, "tier"] == 0
-    records = priced.reset_index().to_dict("records")
-    text = _pays_off_text(records[0], records, "R1", 110.0)
-    assert "costs more each year than the scrap it saves" in text
-    assert "fit sleeve IS-100 to riser R1" in text and "balance -50 a year" in text
-    # none reaches the target: the best balance among the passing ones
-    chosen = _choose(priced.assign(meets_target=False))
+    # none that passes pays off: the cheapest passing one (B), whether or not it reaches the target
     assert chosen.loc[0, "_cand"] == 1 and chosen.loc[0, "tier"] == 1
+    records = priced.reset_index().to_dict("records")
+    text = _pays_off_text(records[1], records, "R1", 110.0)
+    assert "No change that passes the rules pays off" in text
+    assert "This is the cheapest change that passes the rules" in text
+    text = _pays_off_text(records[0], records, "R1", 110.0)
+    assert "fit sleeve IS-100 to riser R1" in text and "balance -50 a year" in text
+    # money, not the target: B pays off without reaching the target, A reaches it at a loss
+    chosen = _choose(priced.assign(yearly_balance=[-100.0, 40.0, 10.0, 30.0]))
+    assert chosen.loc[0, "_cand"] == 1 and chosen.loc[0, "tier"] == 0
+    # the highest expected balance among the passing ones that pay off
+    chosen = _choose(priced.assign(yearly_balance=[80.0, 40.0, 900.0, 30.0]))
+    assert chosen.loc[0, "_cand"] == 0 and chosen.loc[0, "tier"] == 0
 
 
 def test_the_reason_says_how_each_choice_was_made():
@@ -294,13 +301,14 @@ def test_the_reason_says_how_each_choice_was_made():
     from tracker.advice.wording import how_chosen as _how_chosen
 
     # Invented candidates: none passes every rule (tier 2), then one passes
-    # without reaching the target (tier 1), then no model at all.
+    # at a loss (tier 1), then one passes and pays (tier 0), then no model at all.
     priced = pd.DataFrame({"_z": 0, "action": "enlarge", "full_ok": [False, False],
                            "meets_target": [False, False], "predicted_rate_after": [0.05, 0.04],
-                           "extra_cost_per_year": [100.0, 300.0], "yearly_balance": [50.0, 20.0]},
+                           "extra_cost_per_year": [100.0, 300.0], "yearly_balance": [50.0, -20.0]},
                           index=pd.Index([0, 1], name="_cand"))
     for full_ok, tier, words in (([False, False], 2, "size this riser by hand"),
-                                 ([False, True], 1, "the lowest predicted is 4.0%")):
+                                 ([False, True], 1, "the lowest predicted rate after is 4.0%"),
+                                 ([True, True], 0, "does not reach the target (shown, not required)")):
         p = priced.assign(full_ok=full_ok)
         chosen = _choose(p).loc[0]
         assert chosen["tier"] == tier
