@@ -44,7 +44,7 @@ from tracker.advice import calibration
 from tracker.advice.features import aggregate_for_fit, zone_design, zone_lot_features, zone_shrinkage_rates
 from tracker.advice.fitting import fit_model
 from tracker.advice.model import weighted_log_loss
-from tracker.log.store import Store
+from tracker.log.store import Store, absolute_target, data_version
 
 ALPHA = 0.05  # the before/after test: two-sided
 POWER = 0.80
@@ -109,11 +109,26 @@ def _same(a, b) -> bool:
     return a == b
 
 
+_FITS: dict = {}  # (log, its data version, day) -> model: the review and the dashboard ask again and again
+_FITS_KEPT = 16
+
+
 def model_before(store: Store, day: str):
-    """The reject model fitted on every plant's lots poured before ``day`` (not stored)."""
+    """The reject model fitted on every plant's lots poured before ``day`` (not
+    stored in the log; kept in memory for the log as it is while it does not change)."""
+    key = None
+    if store.path != ":memory:":
+        key = (absolute_target(store.path), data_version(absolute_target(store.path)), day)
+        if key in _FITS:
+            return _FITS[key]
     with store.every_plant():
         table = aggregate_for_fit(zone_lot_features(store, None, _day_before(day)))
-        return fit_model(store, save=False, table=table)
+        model = fit_model(store, save=False, table=table)
+    if key is not None:
+        if len(_FITS) >= _FITS_KEPT:
+            _FITS.pop(next(iter(_FITS)))
+        _FITS[key] = model
+    return model
 
 
 def _prediction(store: Store, ch: dict, model, weeks: int) -> dict:
@@ -180,13 +195,17 @@ def verdict(observed: float | None, low: float | None, high: float | None, casti
 
 
 def predictions(store: Store, pattern: str | None = None, weeks: int = limits.WEEKS_DEFAULT,
-                until: str | None = None) -> list[dict]:
+                until: str | None = None, only: set | None = None) -> list[dict]:
     """The rows of the track record (``ROW_KEYS`` and the before-side figures),
     oldest change first; ``until``: the last day of pours looked at after a
-    change (default: the whole log)."""
-    zoned = _zones_with_shrinkage(store, pattern)
+    change (default: the whole log); ``only``: (pattern, revision) pairs to
+    keep (default: every revision)."""
+    changes = [ch for ch in _changes(store, pattern) if only is None or (ch["pattern"], ch["revision"]) in only]
+    if not changes:
+        return []
+    zoned = _zones_with_shrinkage(store, sorted({ch["pattern"] for ch in changes}))
     rows, models = [], {}
-    for ch in _changes(store, pattern):
+    for ch in changes:
         if (ch["pattern"], ch["zone"]) not in zoned:
             continue
         day = ch["effective_from"]
@@ -207,9 +226,9 @@ def predictions(store: Store, pattern: str | None = None, weeks: int = limits.WE
     return rows
 
 
-def _zones_with_shrinkage(store: Store, pattern: str | None) -> set:
-    """(pattern, zone) pairs with at least one shrinkage reject logged with that zone."""
-    z = zone_shrinkage_rates(store, patterns=pattern)
+def _zones_with_shrinkage(store: Store, patterns: list[str]) -> set:
+    """(pattern, zone) pairs of ``patterns`` with at least one shrinkage reject logged with that zone."""
+    z = zone_shrinkage_rates(store, patterns=patterns[0] if len(patterns) == 1 else patterns)
     z = z[z["shrinkage_rejects"] > 0]
     return set(zip(z["pattern"], z["zone"], strict=False))
 
@@ -246,4 +265,30 @@ def track_record(store: Store, pattern: str | None = None, weeks: int = limits.W
     if pattern is not None:
         store.pattern(pattern)
     rows = predictions(store, pattern, weeks)
+    return numbers.jsonable({"revisions": rows, "summary": summary(rows)})
+
+
+def review_section(store: Store, revisions: list[dict], until: str, weeks: int = limits.WEEKS_DEFAULT) -> dict:
+    """The weekly review's track record and pours to a verdict, for the
+    revisions the review judges (``revisions``: ``judge_revisions``' rows,
+    changed in place): each gets ``track_record`` (its rows), the
+    ``predicted_rate_after`` of its changed zones (the sum of theirs: every
+    casting has every zone) and, while still ``not_enough_data``,
+    ``castings_to_verdict`` and ``more_castings_to_verdict``: the castings
+    after the change the before/after test needs (:func:`castings_to_verdict`,
+    at the observed rate before and the predicted rate after; power
+    ``verdict_power``). Returns ``{"revisions": rows, "summary": ...}``."""
+    only = {(r["pattern"], r["revision"]) for r in revisions if r["changed_zones"]}
+    rows = predictions(store, weeks=weeks, until=until, only=only) if only else []
+    for r in revisions:
+        mine = [t for t in rows if (t["pattern"], t["revision"]) == (r["pattern"], r["revision"])]
+        preds = [t["predicted_rate_after"] for t in mine]
+        after = float(sum(preds)) if preds and None not in preds else None
+        b, a = r["before"], r["after"]
+        needed = None
+        if r["verdict"] == "not_enough_data" and after is not None and b["inspected"]:
+            needed = castings_to_verdict(b["shrinkage_rejected"] / b["inspected"], after, b["inspected"])
+        r.update(track_record=numbers.jsonable(mine), predicted_rate_after=numbers.finite(after),
+                 castings_to_verdict=needed, verdict_power=POWER, verdict_alpha=ALPHA,
+                 more_castings_to_verdict=None if needed is None else max(0, needed - a["inspected"]))
     return numbers.jsonable({"revisions": rows, "summary": summary(rows)})
