@@ -415,3 +415,32 @@ def test_the_stored_model_serves_until_a_newer_pour(tmp_path):
         import_file(s, "lots", later, today=dt.date(2027, 1, 31))
         assert not model_is_current(s)
         assert get_model(s).data_until_ == "2026-03-16" and model_is_current(s)  # refitted and stored
+
+
+NEW_KEYS = ("predicted_rate_after_low", "predicted_rate_after_high", "yearly_balance_low", "yearly_balance_high",
+            "probability_pays_off")
+
+
+def test_every_suggestion_and_what_if_carry_the_intervals(demo_suggestions, demo_store):
+    from tracker.advice.calibration import RATE_BASIS
+
+    risers = [s for s in demo_suggestions if s["riser"] is not None]
+    assert risers
+    for s in risers:
+        assert set(NEW_KEYS) <= set(s), s["pattern"]
+        assert s["rate_basis"] == RATE_BASIS
+        if s["action"] == "no_riser_change":
+            continue
+        assert s["predicted_rate_after_low"] <= s["predicted_rate_after"] <= s["predicted_rate_after_high"]
+        assert s["yearly_balance_low"] <= s["yearly_balance_high"]
+        assert 0.0 <= s["probability_pays_off"] <= 1.0
+        # the calibrated rate lies between the model's rate for the design and the zone's own
+        lo, hi = sorted((s["model_rate_now"], s["reject_rate"]))
+        assert lo - 1e-12 <= s["predicted_rate_now"] <= hi + 1e-12
+    s = next(s for s in risers if s["action"] != "no_riser_change")
+    # what-if of the suggested change: the same calibrated rate now, from the same computation
+    w = what_if(demo_store, s["pattern"], s["riser"], diameter_mm=s["suggested_diameter_mm"],
+                sleeve=s["suggested_sleeve"] or "none", week=story()["window"][1])
+    assert set(NEW_KEYS) <= set(w)
+    assert w["predicted_rate_now"] == pytest.approx(s["predicted_rate_now"], rel=1e-12)
+    assert w["predicted_rate_after_low"] <= w["predicted_rate_after"] <= w["predicted_rate_after_high"]

@@ -26,7 +26,9 @@ from scipy import stats
 from scipy.special import expit, logit
 
 from tracker.advice import pooling
+from tracker.advice.features import ZONE_KEYS, zone_design, zone_shrinkage_rates
 from tracker.advice.model import SHORTFALL_TERMS
+from tracker.log.store import Store
 
 LEVEL = 0.90  # the intervals shown: 5 % and 95 % quantiles
 DRAWS = 2000
@@ -68,6 +70,15 @@ def zone_rates(model, rows: pd.DataFrame, rejects, castings) -> pd.DataFrame:
     out["model_rate"], out["rate"], out["low"], out["high"] = prior, a / (a + b), lo, hi
     out["a"], out["b"], out["weight"] = a, b, weight
     return out
+
+
+def window_zone_rates(store: Store, model, start: str | None, end: str | None, patterns=None) -> pd.DataFrame:
+    """Every zone poured from ``start`` to ``end`` under each revision: its
+    castings, shrinkage rejects and observed rate (``zone_shrinkage_rates``)
+    beside its calibrated rate now (:func:`zone_rates`' columns)."""
+    counts = zone_shrinkage_rates(store, start, end, patterns)
+    rows = counts.merge(zone_design(store, patterns).drop(columns=["effective_from"]), on=ZONE_KEYS)
+    return rows.join(zone_rates(model, rows, rows["shrinkage_rejects"], rows["castings"]))
 
 
 def change(model, now_rows: pd.DataFrame, after_rows: pd.DataFrame, a, b) -> dict:

@@ -109,26 +109,33 @@ def _same(a, b) -> bool:
     return a == b
 
 
-_FITS: dict = {}  # (log, its data version, day) -> model: the review and the dashboard ask again and again
-_FITS_KEPT = 16
+_KEPT: dict = {}  # (log, its data version, what) -> result: the review and the dashboard ask again and again
+_KEPT_MAX = 32
+
+
+def _kept(store: Store, what: tuple, compute):
+    """``compute()``, kept in memory for the log as it is (a file or server log;
+    recomputed once the log changes, never kept for an in-memory log)."""
+    if store.path == ":memory:":
+        return compute()
+    target = absolute_target(store.path)
+    key = (target, data_version(target), *what)
+    if key not in _KEPT:
+        if len(_KEPT) >= _KEPT_MAX:
+            _KEPT.pop(next(iter(_KEPT)))
+        _KEPT[key] = compute()
+    return _KEPT[key]
 
 
 def model_before(store: Store, day: str):
     """The reject model fitted on every plant's lots poured before ``day`` (not
     stored in the log; kept in memory for the log as it is while it does not change)."""
-    key = None
-    if store.path != ":memory:":
-        key = (absolute_target(store.path), data_version(absolute_target(store.path)), day)
-        if key in _FITS:
-            return _FITS[key]
-    with store.every_plant():
-        table = aggregate_for_fit(zone_lot_features(store, None, _day_before(day)))
-        model = fit_model(store, save=False, table=table)
-    if key is not None:
-        if len(_FITS) >= _FITS_KEPT:
-            _FITS.pop(next(iter(_FITS)))
-        _FITS[key] = model
-    return model
+    def fit():
+        with store.every_plant():
+            table = aggregate_for_fit(zone_lot_features(store, None, _day_before(day)))
+            return fit_model(store, save=False, table=table)
+
+    return _kept(store, ("model before", day), fit)
 
 
 def _prediction(store: Store, ch: dict, model, weeks: int) -> dict:
@@ -279,7 +286,8 @@ def review_section(store: Store, revisions: list[dict], until: str, weeks: int =
     at the observed rate before and the predicted rate after; power
     ``verdict_power``). Returns ``{"revisions": rows, "summary": ...}``."""
     only = {(r["pattern"], r["revision"]) for r in revisions if r["changed_zones"]}
-    rows = predictions(store, weeks=weeks, until=until, only=only) if only else []
+    rows = _kept(store, ("review rows", frozenset(only), until, weeks),
+                 lambda: predictions(store, weeks=weeks, until=until, only=only)) if only else []
     for r in revisions:
         mine = [t for t in rows if (t["pattern"], t["revision"]) == (r["pattern"], r["revision"])]
         preds = [t["predicted_rate_after"] for t in mine]

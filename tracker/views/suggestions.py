@@ -108,6 +108,8 @@ def suggestions_table(suggestions: list[dict], currency: str | None = None,
         pays = s["pays_off"].fillna(False).astype(bool)
         s["pays_off"] = pd.Series([("yes" if p else "no") if c else None for c, p in zip(changes, pays, strict=True)],
                                   index=s.index, dtype=object)
+    if "probability_pays_off" not in s:
+        s["probability_pays_off"] = float("nan")
     for key in ("reject_rate", "predicted_rate_now", "predicted_rate_after", "yield_before", "yield_after",
                 "probability_pays_off"):
         if key in s:
