@@ -118,3 +118,28 @@ def test_track_record_command_json(runner, demo_db):
     assert "P-1031" in text.output and "volute" in text.output
     bad = runner.invoke(main, ["track-record", "--pattern", "NOPE", "--db", str(demo_db)])
     assert bad.exit_code != 0 and "Traceback" not in bad.output
+
+
+def test_the_review_says_the_castings_to_a_verdict(demo_db):
+    import copy
+
+    from tracker.log.store import Store
+    from tracker.review.weekly import weekly_review
+
+    with Store(demo_db) as s:
+        review = weekly_review(s, week="2026-W47")
+        rev = next(r for r in review["revisions"] if r["pattern"] == "P-1031")
+        assert [t["riser"] for t in rev["track_record"]] == ["R1"]
+        assert [t["riser"] for t in review["track_record"]["revisions"]] == ["R1"]
+        # the same revision, as if it were still under judgement with few castings after
+        pending = copy.deepcopy(rev)
+        pending["verdict"] = "not_enough_data"
+        pending["after"]["inspected"] = 10
+        tr.review_section(s, [pending], review["week_end"])
+    b = pending["before"]
+    want = tr.castings_to_verdict(b["shrinkage_rejected"] / b["inspected"], pending["predicted_rate_after"],
+                                  b["inspected"])
+    assert pending["predicted_rate_after"] == rev["track_record"][0]["predicted_rate_after"]
+    assert pending["castings_to_verdict"] == want and want is not None
+    assert pending["more_castings_to_verdict"] == max(0, want - 10)
+    assert (pending["verdict_power"], pending["verdict_alpha"]) == (0.80, 0.05)

@@ -211,10 +211,11 @@ REVISION_TABLE = {
     "details": "statistics", "in_window_text": "took effect in the window",
     "to_verdict_text": "castings to a verdict",
 }
-TRACK_TABLE = {
-    "pattern": "pattern", "revision": "revision", "effective_from": "effective from", "zone": "zone",
-    "riser": "riser", "predicted_pct": "predicted after (%)", "interval_text": "90 % interval (%)",
-    "observed_pct": "observed after (%)", "castings_after": "castings after", "verdict": "verdict",
+TRACK_TABLE = {  # the verdict among the first columns, so it shows at tablet width
+    "pattern": "pattern", "zone": "zone", "predicted_pct": "predicted after (%)",
+    "observed_pct": "observed after (%)", "verdict": "verdict", "interval_text": "90 % interval (%)",
+    "castings_after": "castings after", "revision": "revision", "effective_from": "effective from",
+    "riser": "riser",
 }
 
 
