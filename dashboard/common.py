@@ -56,6 +56,7 @@ def _registry() -> dict:
         "pattern_weekly": pattern_views.pattern_weekly,
         "pattern_summary": pattern_views.pattern_summary,
         "risers_by_revision": pattern_views.risers_by_revision,
+        "pattern_track_record": pattern_views.pattern_track_record,
         "pattern_zones": pattern_views.pattern_zones,
         "revision_marks": pattern_views.revision_marks,
         "caine_curve": map_views.caine_curve,

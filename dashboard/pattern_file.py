@@ -9,6 +9,7 @@ import streamlit as st
 from dashboard import actions_view, charts, common, thermal_view
 from tracker import limits
 from tracker.views import pattern_file as views
+from tracker.views import review as review_views
 from tracker.views.common import label as view_label
 
 NUMBER = st.column_config.NumberColumn
@@ -74,6 +75,7 @@ def main() -> None:
                    "(0 or more passes).")
 
         thermal_view.pattern_section(code)
+        _track_record(code)
 
     st.subheader("Pours and rejects over time")
     weekly = common.load("pattern_weekly", code)
@@ -92,6 +94,19 @@ def main() -> None:
     else:
         st.caption("No lots of this pattern are logged yet.")
     actions_view.section(pattern=code, key="pattern")
+
+
+def _track_record(code: str) -> None:
+    """The model's prediction for each riser change of the pattern, beside what followed."""
+    st.subheader("Track record")
+    record = common.load("pattern_track_record", code, status="Checking the model's past predictions")
+    st.caption("What the model predicted for each changed riser's zone, from pours before the change only, "
+               "beside what was observed since; 'too early' until the castings since the change are as many "
+               "as the before/after test needs. " + common.md_escape(review_views.track_record_summary(record)))
+    table = review_views.track_record_table(record)
+    if not table.empty:
+        st.dataframe(table, hide_index=True, width="stretch", key="track_record_table", placeholder="",
+                     column_config={c: NUMBER(format="%.2f") for c in ("predicted after (%)", "observed after (%)")})
 
 
 def _picked_pattern(opts) -> str:

@@ -58,11 +58,16 @@ def suggestion_list(week: str, weeks: int, target: float, charge: float) -> list
                      "yield after (%)": NUMBER(format="%.1f"),
                      f"scrap saved ({money})": NUMBER(format="%,.0f"),
                      f"extra cost ({money})": NUMBER(format="%,.0f"),
-                     f"balance ({money})": NUMBER(format="%+,.0f")},
+                     f"balance ({money})": NUMBER(format="%+,.0f"),
+                     "chance it pays off (%)": NUMBER(format="%.0f")},
                      "pattern", "observed now (%)", "predicted after (%)"))
     st.caption("Observed now: " + common.md_escape(views.observed_scope(week, weeks)) + " (all rejects of the "
-               "pattern where no riser change is suggested). Predicted now and after: the shop's reject "
-               "model for the present and the changed riser; the money is on that one basis: scrap saved = "
+               "pattern where no riser change is suggested). Predicted now: the zone's calibrated rate, the "
+               "reject model's rate for its design updated by the zone's own castings and shrinkage rejects "
+               "(a zone with many castings speaks for itself). Predicted after: that rate shifted by the "
+               "model's change for the new riser. Ranges are 90 % intervals, from the zone's own counts and "
+               "the model's uncertainty; the chance it pays off is the share of those outcomes with a "
+               "balance above 0. The money is on that one basis: scrap saved = "
                "castings per year × (predicted now − predicted after) × cost per scrapped casting. Extra "
                "cost: added riser metal at the remelt charge, and the change in sleeve cost. Yield: casting "
                "weight / (casting + riser weight), gating left out.")
@@ -191,12 +196,30 @@ def _rate_metrics(result: dict) -> None:
     c[0].metric("Observed rate (log)", common.pct(p(result["observed_rate"]), 2),
                 help=f"shrinkage rejects in zone {result['zone']} over the {result['zone_castings']:,} castings "
                      f"poured under this revision in the {result['weeks']} weeks up to {result['week']}")
-    c[1].metric("Predicted rate now (model)", common.pct(now, 2))
-    c[2].metric("Predicted rate changed (model)", common.pct(new, 2),
-                delta=_delta(new, now, unit=" points"), delta_color="inverse")
+    c[1].metric("Predicted rate now (calibrated)", common.pct(now, 2),
+                help=_range_help(result, "predicted_rate_now"))
+    c[2].metric("Predicted rate changed", common.pct(new, 2),
+                delta=_delta(new, now, unit=" points"), delta_color="inverse",
+                help=_range_help(result, "predicted_rate_after"))
     c[3].metric("Yield changed", common.pct(100 * result["yield_after"]),
                 delta=_delta(100 * result["yield_after"], 100 * result["yield_before"], "{:+.1f}", " points"),
                 help="now: " + common.pct(100 * result["yield_before"]))
+
+
+def _balance_range(result: dict) -> str:
+    """The yearly balance's 90 % interval and the chance the change pays off, for the metric's help."""
+    lo, hi, chance = (result.get(k) for k in ("yearly_balance_low", "yearly_balance_high", "probability_pays_off"))
+    if lo is None or hi is None or chance is None or not result.get("changed"):
+        return ""
+    return f"; 90 % interval {common.money(lo)} to {common.money(hi)}; chance it pays off {100 * chance:.0f} %"
+
+
+def _range_help(result: dict, key: str) -> str | None:
+    """The 90 % interval of a predicted rate, as a metric's help text."""
+    lo, hi = result.get(key + "_low"), result.get(key + "_high")
+    if lo is None or hi is None:
+        return None
+    return f"90 % interval {common.pct(100 * lo, 2)} to {common.pct(100 * hi, 2)}"
 
 
 def _money_metrics(result: dict) -> None:
@@ -211,7 +234,8 @@ def _money_metrics(result: dict) -> None:
             (f"Sleeves ({per_year})", "sleeve_cost_per_year", "change in sleeve cost per casting" + unit),
             (f"Scrap saved ({per_year})", "scrap_saved_per_year",
              "castings per year × (predicted now − predicted changed) × cost per scrapped casting" + unit),
-            (f"Yearly balance ({per_year})", "yearly_balance", "scrap saved less extra riser metal and sleeves" + unit)]
+            (f"Yearly balance ({per_year})", "yearly_balance", "scrap saved less extra riser metal and sleeves" + unit
+             + _balance_range(result))]
     for pair in (rows[:2], rows[2:]):
         c = st.columns(2)
         for col, (heading, key, note) in zip(c, pair, strict=False):

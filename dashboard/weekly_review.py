@@ -136,9 +136,23 @@ def revisions(review: dict) -> None:
             st.caption(common.md_escape(f"What changed: {row['what changed']}. Before: "
                                         f"{row['before: shrinkage rejects']}; after: "
                                         f"{row['after: shrinkage rejects']}."))
+            if row["castings to a verdict"] != "-":
+                st.caption("Still to pour for a verdict: " + common.md_escape(row["castings to a verdict"]) + ".")
     st.caption("Shrinkage rejects of castings inspected, in the zones of the changed risers: lots poured "
                "under the previous revision against lots poured since. A revision stays here until it has "
                "a verdict. Hover the ? for the statistics behind a verdict.")
+
+
+def track_record(review: dict) -> None:
+    st.subheader("Track record")
+    st.caption("What the model predicted for each changed riser's zone, from pours before the change only, "
+               "beside what was observed since. " + common.md_escape(views.track_record_summary(
+                   review.get("track_record"))))
+    table = views.track_record_table(review.get("track_record"))
+    if not table.empty:
+        st.dataframe(table, hide_index=True, width="stretch", key="track_record_table", placeholder="",
+                     column_config={c: st.column_config.NumberColumn(format="%.2f")
+                                    for c in ("predicted after (%)", "observed after (%)")})
 
 
 def patterns(review: dict) -> None:
@@ -201,6 +215,7 @@ def main() -> None:
     against_target(review)
     signals(review)
     revisions(review)
+    track_record(review)
     actions_view.section(key="review")
     plants(week, weeks, target)
 

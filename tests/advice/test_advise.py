@@ -256,11 +256,13 @@ def test_balance_recomputed_by_hand_from_the_json(demo_db, session_logs, runner)
 
 def test_choice_has_the_highest_balance_among_passing_candidates(demo_suggestions):
     for s in demo_suggestions:
-        if s["action"] == "no_riser_change" or not s["meets_target"]:
+        if s["action"] == "no_riser_change":
             continue
         for a in s["alternatives"]:
-            if a["passes"] and a["meets_target"]:
+            if a["passes"] and s["pays_off"]:
                 assert a["yearly_balance"] <= s["yearly_balance"] + 1e-9, (s["pattern"], a)
+            if a["passes"] and a["pays_off"]:  # a loser is never chosen over a passing change that pays
+                assert s["pays_off"], (s["pattern"], a)
 
 
 def test_pays_off_text_names_the_cheapest_passing_change():
@@ -268,7 +270,7 @@ def test_pays_off_text_names_the_cheapest_passing_change():
     from tracker.advice.wording import pays_off_text as _pays_off_text
 
     # Invented candidates of one zone: A and D reach the target, B passes the
-    # rules only, C fails a rule.
+    # rules only, C fails a rule; no passing one pays off.
     priced = pd.DataFrame({
         "_z": 0, "action": ["enlarge", "sleeve", "enlarge", "enlarge"],
         "diameter_mm": [150.0, 100.0, 120.0, 160.0], "height_mm": [150.0, 130.0, 120.0, 160.0],
@@ -278,15 +280,20 @@ def test_pays_off_text_names_the_cheapest_passing_change():
         "extra_cost_per_year": [500.0, 200.0, 50.0, 900.0], "yearly_balance": [-100.0, -50.0, 10.0, -500.0],
     }, index=pd.Index([0, 1, 2, 3], name="_cand"))
     chosen = _choose(priced)
-    # the highest balance among those passing every rule and reaching the target
-    assert chosen.loc[0, "_cand"] == 0 and chosen.loc[0, "tier"] == 0
-    records = priced.reset_index().to_dict("records")
-    text = _pays_off_text(records[0], records, "R1", 110.0)
-    assert "costs more each year than the scrap it saves" in text
-    assert "fit sleeve IS-100 to riser R1" in text and "balance -50 a year" in text
-    # none reaches the target: the best balance among the passing ones
-    chosen = _choose(priced.assign(meets_target=False))
+    # none that passes pays off: the cheapest passing one (B), whether or not it reaches the target
     assert chosen.loc[0, "_cand"] == 1 and chosen.loc[0, "tier"] == 1
+    records = priced.reset_index().to_dict("records")
+    text = _pays_off_text(records[1], records, "R1", 110.0)
+    assert "No change that passes the rules pays off" in text
+    assert "This is the cheapest change that passes the rules" in text
+    text = _pays_off_text(records[0], records, "R1", 110.0)
+    assert "fit sleeve IS-100 to riser R1" in text and "balance -50 a year" in text
+    # money, not the target: B pays off without reaching the target, A reaches it at a loss
+    chosen = _choose(priced.assign(yearly_balance=[-100.0, 40.0, 10.0, 30.0]))
+    assert chosen.loc[0, "_cand"] == 1 and chosen.loc[0, "tier"] == 0
+    # the highest expected balance among the passing ones that pay off
+    chosen = _choose(priced.assign(yearly_balance=[80.0, 40.0, 900.0, 30.0]))
+    assert chosen.loc[0, "_cand"] == 0 and chosen.loc[0, "tier"] == 0
 
 
 def test_the_reason_says_how_each_choice_was_made():
@@ -294,13 +301,14 @@ def test_the_reason_says_how_each_choice_was_made():
     from tracker.advice.wording import how_chosen as _how_chosen
 
     # Invented candidates: none passes every rule (tier 2), then one passes
-    # without reaching the target (tier 1), then no model at all.
+    # at a loss (tier 1), then one passes and pays (tier 0), then no model at all.
     priced = pd.DataFrame({"_z": 0, "action": "enlarge", "full_ok": [False, False],
                            "meets_target": [False, False], "predicted_rate_after": [0.05, 0.04],
-                           "extra_cost_per_year": [100.0, 300.0], "yearly_balance": [50.0, 20.0]},
+                           "extra_cost_per_year": [100.0, 300.0], "yearly_balance": [50.0, -20.0]},
                           index=pd.Index([0, 1], name="_cand"))
     for full_ok, tier, words in (([False, False], 2, "size this riser by hand"),
-                                 ([False, True], 1, "the lowest predicted is 4.0%")):
+                                 ([False, True], 1, "the lowest predicted rate after is 4.0%"),
+                                 ([True, True], 0, "does not reach the target (shown, not required)")):
         p = priced.assign(full_ok=full_ok)
         chosen = _choose(p).loc[0]
         assert chosen["tier"] == tier
@@ -407,3 +415,32 @@ def test_the_stored_model_serves_until_a_newer_pour(tmp_path):
         import_file(s, "lots", later, today=dt.date(2027, 1, 31))
         assert not model_is_current(s)
         assert get_model(s).data_until_ == "2026-03-16" and model_is_current(s)  # refitted and stored
+
+
+NEW_KEYS = ("predicted_rate_after_low", "predicted_rate_after_high", "yearly_balance_low", "yearly_balance_high",
+            "probability_pays_off")
+
+
+def test_every_suggestion_and_what_if_carry_the_intervals(demo_suggestions, demo_store):
+    from tracker.advice.calibration import RATE_BASIS
+
+    risers = [s for s in demo_suggestions if s["riser"] is not None]
+    assert risers
+    for s in risers:
+        assert set(NEW_KEYS) <= set(s), s["pattern"]
+        assert s["rate_basis"] == RATE_BASIS
+        if s["action"] == "no_riser_change":
+            continue
+        assert s["predicted_rate_after_low"] <= s["predicted_rate_after"] <= s["predicted_rate_after_high"]
+        assert s["yearly_balance_low"] <= s["yearly_balance_high"]
+        assert 0.0 <= s["probability_pays_off"] <= 1.0
+        # the calibrated rate lies between the model's rate for the design and the zone's own
+        lo, hi = sorted((s["model_rate_now"], s["reject_rate"]))
+        assert lo - 1e-12 <= s["predicted_rate_now"] <= hi + 1e-12
+    s = next(s for s in risers if s["action"] != "no_riser_change")
+    # what-if of the suggested change: the same calibrated rate now, from the same computation
+    w = what_if(demo_store, s["pattern"], s["riser"], diameter_mm=s["suggested_diameter_mm"],
+                sleeve=s["suggested_sleeve"] or "none", week=story()["window"][1])
+    assert set(NEW_KEYS) <= set(w)
+    assert w["predicted_rate_now"] == pytest.approx(s["predicted_rate_now"], rel=1e-12)
+    assert w["predicted_rate_after_low"] <= w["predicted_rate_after"] <= w["predicted_rate_after_high"]

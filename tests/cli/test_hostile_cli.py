@@ -37,6 +37,7 @@ COMMANDS = {
     "suggest": ["--week", "2026-W10"],
     "what-if": ["--pattern", "T-100", "--riser", "R1", "--diameter-mm", "150"],
     "fit-model": [],
+    "track-record": [],
     "dashboard": [],
     "audit": [],
     "settings": [],

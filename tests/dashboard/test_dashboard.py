@@ -414,7 +414,7 @@ def test_what_if_bigger_riser_and_sleeve_with_money(app_demo_db, monkeypatch):
                        ("Scrap saved (EUR/year)", "scrap_saved_per_year"),
                        ("Yearly balance (EUR/year)", "yearly_balance")):
         assert metric(at, label) == f"{want[key]:,.0f}"
-    assert metric(at, "Predicted rate now (model)") == f"{100 * want['predicted_rate_now']:.2f} %"
+    assert metric(at, "Predicted rate now (calibrated)") == f"{100 * want['predicted_rate_now']:.2f} %"
     # a size the catalogue does not have in that kind: one message, no traceback
     at.number_input(key="whatif_dia_P-1036_R2").set_value(130.0).run()
     assert not at.exception

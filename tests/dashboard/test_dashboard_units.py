@@ -220,7 +220,7 @@ def test_what_if_typed_in_inches_reaches_the_library_as_its_metric_twin(app_demo
     si.number_input(key="whatif_dia_P-1017_R3").set_value(127.0).run()
     assert not us.exception and not us.error and not si.exception and not si.error
     for label in ("Modulus ratio (rule: 1.2 or more)", "Caine margin (0 or more passes)",
-                  "Feed margin (0 or more passes)", "Rules", "Predicted rate changed (model)", "Yield changed",
+                  "Feed margin (0 or more passes)", "Rules", "Predicted rate changed", "Yield changed",
                   "Extra riser metal (EUR/year)", "Yearly balance (EUR/year)"):
         assert metric(us, label) == metric(si, label), label
     head = [m for m in (_plain(e.value) for e in us.markdown) if "revision" in m and "riser R3" in m]

@@ -53,6 +53,7 @@ from sklearn.model_selection import GroupKFold
 from sklearn.utils.validation import check_array, check_is_fitted, check_scalar
 
 from tracker import __version__ as _POURBACK_VERSION
+from tracker.advice.pooling import WEIGHT_BOUNDS, fit_weight
 from tracker.design.rules import DEFAULT_MODULUS_FACTOR
 from tracker.errors import BadInput, BadRow, IncompatibleModel, MissingColumn, PourbackError  # noqa: F401 (re-exported)
 
@@ -84,7 +85,8 @@ POUR_TEMP_CLIP_10C = 10.0  # ±100 °C; beyond that the value is more likely a t
 THICKNESS_CLIP_LOG2 = 4.0  # 16 times thicker or thinner than the median section
 
 BLOB_MAGIC = b"POURBACK-SHRINKAGE-MODEL\n"
-BLOB_FORMAT = 1
+BLOB_FORMAT = 2  # 2: the fit keeps the coefficients' covariance and the zones' prior weight
+ZONE_KEYS = ("pattern", "revision", "zone")
 
 
 # --- validation -----------------------------------------------------------------
@@ -219,6 +221,11 @@ class ShrinkageRejectModel(BaseEstimator):
     data_until_ : ISO date of the last ``poured_on`` in the data, or None
     sklearn_version_, pourback_version_ : versions at fit time
     converged_ : whether the solver reported success
+    covariance_ : covariance of (intercept_, coef_), Laplace approximation
+        (the inverse Hessian of the penalised objective at the fit)
+    zone_weight_ : the prior weight of a zone, castings: how many castings
+        the model's rate for a design counts for against the zone's own
+        (``tracker.advice.pooling``; from the rows' pattern, revision and zone)
     """
 
     def __init__(self, *, alpha=10.0, offset_alpha=5000.0, prior_rate=None, prior_slopes=None,
@@ -334,6 +341,8 @@ class ShrinkageRejectModel(BaseEstimator):
         self.n_iter_ = int(res.nit)
         self._record_data(X, castings.sum(), rejects)
         self.coefficients_ = self._coefficient_table()
+        self.covariance_ = _laplace_covariance(D, castings, self.intercept_, self.coef_, self._alphas(len(res.x)))
+        self.zone_weight_ = _zone_weight(X, rejects, castings, self.predict_rate(X))
         return self
 
     def _set_prior(self, D, rejects, castings, prior_slopes):
@@ -349,15 +358,19 @@ class ShrinkageRejectModel(BaseEstimator):
         self.prior_intercept_ = float(logit(self.prior_rate_))
         self.prior_coef_ = np.concatenate([prior_slopes, np.zeros(D.shape[1] - n_short)])
 
+    def _alphas(self, size):
+        """The ridge penalty of each coefficient, intercept first (offsets take ``offset_alpha``)."""
+        alpha = np.full(size, float(self.alpha))
+        alpha[size - len(self.alloys_) - len(self.sleeve_kinds_):] = float(self.offset_alpha)
+        return alpha
+
     def _minimise(self, D, rejects, castings):
         """The penalised binomial fit by L-BFGS-B from the prior (scipy's result)."""
         n_short = len(SHORTFALL_TERMS)
         theta0 = np.concatenate([[self.prior_intercept_], self.prior_coef_])
         A = np.column_stack([np.ones(len(D)), D])
         total = castings.sum()
-        n_offsets = len(self.alloys_) + len(self.sleeve_kinds_)
-        alpha = np.full(len(theta0), float(self.alpha))
-        alpha[len(theta0) - n_offsets:] = float(self.offset_alpha)
+        alpha = self._alphas(len(theta0))
 
         # Objective divided by the total castings so the solver sees numbers
         # near 1 whatever the size of the history; the optimum is unchanged.
@@ -392,6 +405,10 @@ class ShrinkageRejectModel(BaseEstimator):
         check_is_fitted(self)
         _require_columns(X, FEATURE_COLUMNS)
         return self._design(X)
+
+    def design_matrix(self, X):
+        """The rows' values of ``terms_`` (no intercept column): logit = intercept_ + design · coef_."""
+        return self._checked_design(X)
 
     def decision_function(self, X):
         """Logit of the predicted shrinkage reject rate per row."""
@@ -535,6 +552,29 @@ class ShrinkageRejectModel(BaseEstimator):
         if not isinstance(model, cls):
             raise IncompatibleModel(f"the blob holds a {type(model).__name__}, not a {cls.__name__}")
         return model
+
+
+def _laplace_covariance(D, castings, intercept, coef, alpha):
+    """Covariance of (intercept, coef) by the Laplace approximation: the inverse
+    of the penalised negative log-likelihood's Hessian at the fit,
+    Aᵀ·diag(n·p·(1 − p))·A + diag(alpha)."""
+    A = np.column_stack([np.ones(len(D)), D])
+    p = expit(intercept + D @ coef)
+    H = A.T @ (A * (castings * p * (1.0 - p))[:, None]) + np.diag(alpha)
+    return np.linalg.pinv(H, hermitian=True)
+
+
+def _zone_weight(X, rejects, castings, rate):
+    """The prior weight of a zone's own rate against the model's
+    (``pooling.fit_weight``) from the training rows summed per pattern,
+    revision and zone; the largest weight (the model alone) where the rows
+    name no zones."""
+    if not all(k in X for k in ZONE_KEYS):
+        return WEIGHT_BOUNDS[1]
+    keys = pd.MultiIndex.from_frame(X[list(ZONE_KEYS)].astype(str))
+    g = pd.DataFrame({"r": rejects, "n": castings, "e": castings * rate}, index=keys).groupby(level=[0, 1, 2]).sum()
+    g = g[g["n"] > 0]
+    return fit_weight(g["r"].to_numpy(), g["n"].to_numpy(), (g["e"] / g["n"]).to_numpy())
 
 
 def _minor(version: str) -> tuple:

@@ -1,14 +1,19 @@
 """The money of a riser change: weights, yield, the cost of a scrapped casting,
 and every candidate judged, predicted and priced in one pass.
 
-Money, on one basis:
+Money, on one basis (``tracker.advice.calibration``):
 
-- ``predicted_rate_now`` and ``predicted_rate_after`` are both the reject
-  model's prediction for the zone, for the present design and for the changed
-  one (``RATE_BASIS``). The observed rate (``reject_rate``) is shown beside
-  them but is not mixed in: a pattern is flagged because its observed rate is
-  high, so that rate carries the luck that flagged it, and the model's own
-  error would otherwise be booked as a riser benefit.
+- ``predicted_rate_now`` is the zone's calibrated rate: the reject model's
+  rate for its present design updated by the zone's own castings and
+  shrinkage rejects in the window (empirical-Bayes beta-binomial, see
+  ``tracker.advice.pooling``). ``predicted_rate_after`` is that rate shifted
+  by the model's change in log-odds between the present and the changed
+  design (``RATE_BASIS``). The observed rate (``reject_rate``) is shown
+  beside them; where the zone has many castings the calibrated rate is close
+  to it, where it has few the model's rate speaks.
+- 90 % intervals (``*_low``, ``*_high``) for the rate after and the yearly
+  balance, and ``probability_pays_off``, come from joint draws of the zone's
+  rate and the model's coefficients (``calibration.change``).
 - Scrap saved per year = castings per year x (predicted now - predicted
   after) x cost per scrapped casting.
 - Metal that does not ship (a scrapped casting, extra riser metal) goes back
@@ -33,6 +38,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from tracker.advice import calibration
 from tracker.advice.candidates import SLEEVE_COLUMNS, has_neck
 from tracker.advice.features import weakest_margins
 from tracker.advice.zones import judge
@@ -44,7 +50,7 @@ from tracker.numbers import finite
 # loss. Common practice: about 20-40 % of the purchase price of the metal;
 # shop practice varies, so it is a setting (--remelt-charge).
 DEFAULT_REMELT_CHARGE = 0.3
-RATE_BASIS = "model"  # both predicted rates are the model's, for the present and the changed design
+RATE_BASIS = calibration.RATE_BASIS
 
 
 def casting_yield(casting_kg, riser_kg):
@@ -114,13 +120,6 @@ def _changed_rows(cands: pd.DataFrame, zones: pd.DataFrame, designs: dict) -> pd
     return pd.concat([prim, own], ignore_index=True)
 
 
-def _predict(model, frames: list[pd.DataFrame]) -> list[np.ndarray]:
-    """The model's rate for each row of each frame, in one prediction (NaN without a model)."""
-    both = pd.concat([f.assign(pour_temp_dev_c=0.0) for f in frames], ignore_index=True)
-    rates = model.predict_rate(both) if model is not None and len(both) else np.full(len(both), np.nan)
-    return np.split(np.asarray(rates, dtype=float), np.cumsum([len(f) for f in frames])[:-1])
-
-
 def _per_candidate(cands: pd.DataFrame, new: pd.DataFrame, judged_now: pd.DataFrame) -> pd.DataFrame:
     """Per candidate: the primary riser's size and margins, whether every
     riser it changes passes, and the added metal and sleeve cost per casting
@@ -140,33 +139,42 @@ def _per_candidate(cands: pd.DataFrame, new: pd.DataFrame, judged_now: pd.DataFr
 
 
 def price_candidates(cands: pd.DataFrame, zones: pd.DataFrame, designs: dict, money: pd.DataFrame, model,
-           target: float) -> tuple[pd.DataFrame, pd.Series]:
+           target: float) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Every candidate judged, predicted and priced in one pass.
 
-    Returns (priced candidates indexed by ``_cand``, the predicted rate now
-    per zone ``_z``). The rates are the model's for the zone: each margin's
-    minimum over the zone's risers, as the model was fitted.
+    Returns (priced candidates indexed by ``_cand``, the zone's calibrated
+    rate now per zone ``_z``: ``calibration.zone_rates``' columns). The
+    model sees a zone as each margin's minimum over its risers, as it was
+    fitted; ``zones``' ``shrinkage_rejects`` and ``castings`` (the window's,
+    0 where absent) calibrate its rate.
     """
     judged_now = designs["judged"]
     zone_risers = zones[["pattern", "zone"]].rename_axis("_z").reset_index().merge(
         judged_now.assign(_old=judged_now.index), on=["pattern", "zone"])
-    now = weakest_margins(zone_risers, ["_z"])
+    now = weakest_margins(zone_risers, ["_z"]).set_index("_z", drop=False)
+    counts = zones.reindex(columns=["shrinkage_rejects", "castings"]).fillna(0).loc[now.index]
+    rate_now = calibration.zone_rates(model, now, counts["shrinkage_rejects"], counts["castings"])
     if cands.empty:
-        return cands.set_index("_cand"), pd.Series(_predict(model, [now])[0], index=now["_z"].to_numpy())
+        return cands.set_index("_cand"), rate_now
     rows = _changed_rows(cands, zones, designs).reset_index(drop=True)
     new = judge(rows).assign(_cand=rows["_cand"].to_numpy(), _old=rows["_old"].to_numpy())
     # the zone after: the changed risers and the zone's others as they are
     others = cands[["_cand", "_z"]].merge(zone_risers, on="_z")
     others = others[~others.set_index(["_cand", "_old"]).index.isin(new.set_index(["_cand", "_old"]).index)]
     after = weakest_margins(pd.concat([new, others.drop(columns="_z")], ignore_index=True), ["_cand"])
-    now_rates, rate_after = _predict(model, [now, after])
-    rate_now = pd.Series(now_rates, index=now["_z"].to_numpy())
 
     out = _per_candidate(cands, new, judged_now)
-    m = money.loc[zones.loc[out["_z"], "pattern"].to_numpy()]
+    after = after.set_index("_cand", drop=False).loc[out.index]
+    z = out["_z"].to_numpy()
+    post = rate_now.loc[z]
+    moved = calibration.change(model, now.loc[z], after, post["a"].to_numpy(), post["b"].to_numpy())
+    m = money.loc[zones.loc[z, "pattern"].to_numpy()]
     n = m["castings_per_year"].to_numpy()
-    out["predicted_rate_now"] = rate_now.loc[out["_z"]].to_numpy()
-    out["predicted_rate_after"] = pd.Series(rate_after, index=after["_cand"].to_numpy()).loc[out.index].to_numpy()
+    out["model_rate_now"] = post["model_rate"].to_numpy()
+    out["predicted_rate_now"] = post["rate"].to_numpy()
+    out["predicted_rate_after"] = moved["rate_after"]
+    out["predicted_rate_after_low"], out["predicted_rate_after_high"] = moved["rate_after_low"], moved[
+        "rate_after_high"]
     out["extra_metal_cost_per_year"] = (n * out["added_kg_per_casting"].to_numpy()
                                         * m["metal_cost_per_kg"].to_numpy() * m["remelt_charge"].to_numpy())
     out["sleeve_cost_per_year"] = n * out["sleeve_change_per_casting"].to_numpy()
@@ -174,19 +182,47 @@ def price_candidates(cands: pd.DataFrame, zones: pd.DataFrame, designs: dict, mo
     out["scrap_saved_per_year"] = (n * (out["predicted_rate_now"] - out["predicted_rate_after"])
                                    * m["cost_per_scrapped_casting"].to_numpy())
     out["yearly_balance"] = out["scrap_saved_per_year"] - out["extra_cost_per_year"]
+    spread = calibration.balance_figures(moved["now_draws"], moved["after_draws"], n,
+                                         m["cost_per_scrapped_casting"].to_numpy(),
+                                         out["extra_cost_per_year"].to_numpy())
+    for k, v in spread.items():
+        out[k] = v
     out["meets_target"] = out["predicted_rate_after"] <= target
     return out, rate_now
 
 
+def _now_figures(now) -> dict:
+    """The rate now of a zone as ``no_change_money`` takes it: None, a rate,
+    or a row of ``calibration.zone_rates`` (a dict)."""
+    if isinstance(now, dict):
+        return {"rate": finite(now.get("rate")), "low": finite(now.get("low")), "high": finite(now.get("high")),
+                "model_rate": finite(now.get("model_rate"))}
+    return {"rate": finite(now), "low": None, "high": None, "model_rate": None}
+
+
+def now_interval(rate_now) -> dict:
+    """The 90 % interval of a zone's calibrated rate now, and the model's own rate for its design."""
+    f = _now_figures(rate_now)
+    return {"model_rate_now": f["model_rate"], "predicted_rate_now_low": f["low"],
+            "predicted_rate_now_high": f["high"]}
+
+
 def no_change_money(m, rate_now) -> dict:
-    """The money fields of a suggestion that changes nothing."""
-    return {"pays_off": False, "predicted_rate_now": finite(rate_now),
-            "predicted_rate_after": finite(rate_now), "castings_per_year": float(m["castings_per_year"]),
+    """The money fields of a suggestion that changes nothing (``rate_now``:
+    None, a rate, or the zone's row of ``calibration.zone_rates``)."""
+    f = _now_figures(rate_now)
+    known = f["rate"] is not None
+    return {"pays_off": False, "predicted_rate_now": f["rate"], "model_rate_now": f["model_rate"],
+            "predicted_rate_now_low": f["low"], "predicted_rate_now_high": f["high"],
+            "predicted_rate_after": f["rate"], "predicted_rate_after_low": f["low"],
+            "predicted_rate_after_high": f["high"], "castings_per_year": float(m["castings_per_year"]),
             "cost_per_scrapped_casting": float(m["cost_per_scrapped_casting"]),
             "remelt_charge": float(m["remelt_charge"]), "rate_basis": RATE_BASIS,
             "scrap_saved_per_year": 0.0, "extra_metal_cost_per_year": 0.0, "sleeve_cost_per_year": 0.0,
-            "extra_cost_per_year": 0.0, "yearly_balance": 0.0, "added_metal_kg_per_casting": 0.0,
-            "added_metal_kg_per_mold": 0.0, "yield_after": float(m["yield_before"])}
+            "extra_cost_per_year": 0.0, "yearly_balance": 0.0, "yearly_balance_low": 0.0 if known else None,
+            "yearly_balance_high": 0.0 if known else None, "probability_pays_off": 0.0 if known else None,
+            "added_metal_kg_per_casting": 0.0, "added_metal_kg_per_mold": 0.0,
+            "yield_after": float(m["yield_before"])}
 
 
 def money_fields(c, m) -> dict:
@@ -202,8 +238,13 @@ def money_fields(c, m) -> dict:
     sleeve = n * float(c["sleeve_change_per_casting"])
     extra = metal + sleeve
     balance = saved - extra
-    return {"pays_off": balance > 0, "predicted_rate_now": now, "predicted_rate_after": after,
-            "castings_per_year": n, "cost_per_scrapped_casting": cost,
+    return {"pays_off": balance > 0, "predicted_rate_now": now, "model_rate_now": finite(c.get("model_rate_now")),
+            "predicted_rate_after": after, "predicted_rate_after_low": finite(c.get("predicted_rate_after_low")),
+            "predicted_rate_after_high": finite(c.get("predicted_rate_after_high")),
+            "yearly_balance_low": finite(c.get("yearly_balance_low")),
+            "yearly_balance_high": finite(c.get("yearly_balance_high")),
+            "probability_pays_off": finite(c.get("probability_pays_off")), "castings_per_year": n,
+            "cost_per_scrapped_casting": cost,
             "remelt_charge": float(m["remelt_charge"]), "rate_basis": RATE_BASIS,
             "scrap_saved_per_year": saved, "extra_metal_cost_per_year": metal, "sleeve_cost_per_year": sleeve,
             "extra_cost_per_year": extra, "yearly_balance": balance,

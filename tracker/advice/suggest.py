@@ -9,9 +9,11 @@ For each problem pattern of the weekly review (or the pattern asked for):
   (``sleeve``; ``enlarge_and_sleeve`` where the sleeve is wider than the
   riser is now), or enlarge the neck. Every candidate of every problem zone
   is judged by the rules in one ``assess_frame`` and by the reject model in
-  one prediction. Among the candidates that meet every rule and reach the
-  target rate, the one with the highest yearly balance is chosen; the others
-  are kept as alternatives;
+  one prediction, on the zone's calibrated rate (``calibration``). Among the
+  candidates that meet every rule, the one with the highest expected yearly
+  balance is chosen where one pays off (reaching the target is shown, not a
+  gate); where none pays off, the cheapest that meets every rule, said so;
+  the others are kept as alternatives;
 - a riser that already passes every rule with margin while shrinkage
   persists gets ``no_riser_change`` pointing at feeding distance, neck or
   pouring practice;
@@ -41,6 +43,7 @@ from tracker.advice.pricing import (
     check_remelt_charge,
     money_fields,
     no_change_money,
+    now_interval,
     pattern_money,
     price_candidates,
 )
@@ -72,20 +75,23 @@ MAX_ALTERNATIVES = 8
 def _choose(priced: pd.DataFrame) -> pd.DataFrame:
     """One candidate per zone (``_z``), with ``tier`` saying how it was chosen.
 
-    0: passes every rule (``full_ok``) and reaches the target: the highest
-       yearly balance;
-    1: passes every rule, none reaches the target: the highest yearly
-       balance too (the lowest predicted rate would buy the last hundredth of
-       a point at any price); the cheapest where there is no model;
+    Choice by money; reaching the target is shown (``meets_target``), not a gate.
+    0: passes every rule (``full_ok``) and pays off (yearly balance above 0):
+       the highest expected yearly balance;
+    1: passes every rule, none pays off (or there is no model to price the
+       scrap saved): the cheapest (lowest extra cost per year), then the
+       lowest predicted rate after;
     2: none passes every rule: the cheapest, to be sized by hand.
-    A further filter (a thermal check) narrows ``full_ok`` before this step.
+    A change that loses money is never chosen over a passing one that makes
+    money. A further filter (a thermal check) narrows ``full_ok`` before this step.
     """
-    p = priced.assign(tier=np.where(priced["full_ok"] & priced["meets_target"], 0,
-                                    np.where(priced["full_ok"], 1, 2)))
-    balance = -p["yearly_balance"].fillna(0.0)  # no model: no balance, so the cheapest
-    p["_k1"] = np.where(p["tier"] < 2, balance, 0.0)
-    p = p.sort_values(["_z", "tier", "_k1", "extra_cost_per_year"], kind="stable")
-    return p.groupby("_z").head(1).drop(columns="_k1").rename_axis("_cand").reset_index().set_index("_z")
+    pays = priced["yearly_balance"].fillna(0.0) > 0
+    p = priced.assign(tier=np.where(priced["full_ok"] & pays, 0, np.where(priced["full_ok"], 1, 2)))
+    p["_k1"] = np.where(p["tier"] == 0, -p["yearly_balance"].fillna(0.0), 0.0)
+    p["_k2"] = p["predicted_rate_after"].fillna(0.0)
+    p = p.sort_values(["_z", "tier", "_k1", "extra_cost_per_year", "_k2"], kind="stable")
+    return (p.groupby("_z").head(1).drop(columns=["_k1", "_k2"]).rename_axis("_cand").reset_index()
+            .set_index("_z"))
 
 
 def _empty_fields() -> dict:
@@ -106,7 +112,9 @@ def _alternatives(zone_priced: list[dict], choice_id, m) -> list[dict]:
                     "sleeve": sleeve_or_none(a["sleeve"]), "passes": bool(a["full_ok"]),
                     "meets_target": bool(a["meets_target"]), "predicted_rate": f["predicted_rate_after"],
                     **{k: f[k] for k in ("added_metal_kg_per_mold", "extra_cost_per_year",
-                                         "scrap_saved_per_year", "yearly_balance", "pays_off")}})
+                                         "scrap_saved_per_year", "yearly_balance", "pays_off",
+                                         "predicted_rate_after_low", "predicted_rate_after_high",
+                                         "yearly_balance_low", "yearly_balance_high", "probability_pays_off")}})
     return out
 
 
@@ -132,8 +140,9 @@ def suggest(store: Store, pattern: str | None = None, target: float = limits.TAR
     does not ship (scrapped castings and extra riser metal alike; default
     DEFAULT_REMELT_CHARGE). riser_metal_charge: its old name.
     Returns one dict per problem zone (or per pattern for no_riser_change).
-    The predicted rates are the model's for the present and the changed
-    design (RATE_BASIS); see the module docstring for the money.
+    The predicted rate now is the zone's calibrated rate, the rate after
+    that rate shifted by the model's change for the changed design
+    (RATE_BASIS); see ``pricing``'s docstring for the money.
     """
     target = limits.check_target(target)
     if not step_mm > 0:
@@ -172,7 +181,8 @@ def _suggest(store, pattern, target, week, weeks, step_mm, model, refit, charge,
                                                           system=system)
     chosen = _choose(priced) if len(priced) else priced.assign(_cand=[], tier=[])
     ctx = {"win": win, "designs": designs, "money": money.to_dict("index"), "target": target, "start": start,
-           "end": end, "alloy": dict(zip(pats["pattern"], pats["alloy"], strict=False)), "rate_now": rate_now.to_dict(),
+           "end": end, "alloy": dict(zip(pats["pattern"], pats["alloy"], strict=False)),
+           "rate_now": rate_now.to_dict("index"),
            "current": designs["current"].to_dict(), "chosen": chosen.to_dict("index"),
            "defects": _groups(win["defects"], "pattern"), "zone_stats": _groups(win["zones"], ["pattern", "revision"]),
            "zones": _groups(zones, "pattern"), "priced": _records_by(priced.reset_index(), "_z"),
@@ -231,7 +241,7 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
               "zone_castings": int(z["castings"]), "shrinkage_rejects": int(z["shrinkage_rejects"]),
               "reject_rate": float(z["rate"]), "reject_rate_low": lo, "reject_rate_high": hi,
               "current_diameter_mm": float(base["diameter_mm"]), "current_sleeve": sleeve_or_none(base["sleeve"])}
-    r_now = ctx["rate_now"].get(z_id, np.nan)
+    r_now = ctx["rate_now"].get(z_id)
     if z["comfortable"]:
         return {**common, **no_change_money(m, r_now), "action": "no_riser_change",
                 "reason": comfortable_text(base, now, float(z["rate"]), ctx["system"])}
@@ -242,7 +252,7 @@ def _zone_record(z_id, z, base_out: dict, m: dict, ctx: dict) -> dict:
     zone_priced = ctx["priced"][z_id]
     choice = {**next(c for c in zone_priced if c["_cand"] == c_id), "tier": ctx["chosen"][z_id]["tier"]}
     return {
-        **common, **money_fields(choice, m), "action": choice["action"],
+        **common, **money_fields(choice, m), **now_interval(r_now), "action": choice["action"],
         "suggested_diameter_mm": float(choice["diameter_mm"]), "suggested_height_mm": float(choice["height_mm"]),
         "suggested_sleeve": sleeve_or_none(choice["sleeve"]),
         "suggested_neck_diameter_mm": finite(choice["neck_diameter_mm"]),

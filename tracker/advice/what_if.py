@@ -9,7 +9,14 @@ import pandas as pd
 from tracker import limits, units
 from tracker.advice.candidates import SLEEVE_COLUMNS
 from tracker.advice.fitting import get_model
-from tracker.advice.pricing import check_remelt_charge, money_fields, no_change_money, pattern_money, price_candidates
+from tracker.advice.pricing import (
+    check_remelt_charge,
+    money_fields,
+    no_change_money,
+    now_interval,
+    pattern_money,
+    price_candidates,
+)
 from tracker.advice.zones import designs_in_effect, judge, review_window, risers_of, sleeve_or_none, window_statistics
 from tracker.cautions import SAFETY_CAUTION
 from tracker.design.assess import revision_in_effect
@@ -83,20 +90,24 @@ def _differs(base: pd.Series, row: pd.Series) -> bool:
     return sleeve_or_none(base["sleeve"]) != sleeve_or_none(row["sleeve"])
 
 
-def _what_if_money(designs: dict, k, row: pd.Series, money: pd.DataFrame, model) -> tuple[dict, list[str]]:
+def _what_if_money(designs: dict, k, row: pd.Series, money: pd.DataFrame, model,
+                   counts: tuple[int, int] = (0, 0)) -> tuple[dict, list[str]]:
     """The money of one changed riser (stored row ``k`` changed to ``row``),
-    priced by ``price_candidates`` as a suggestion is; and the risers it changes (none
-    where ``row`` is the stored riser)."""
+    priced by ``price_candidates`` as a suggestion is, on the zone's rate
+    calibrated by ``counts`` (shrinkage rejects, castings in the window);
+    and the risers it changes (none where ``row`` is the stored riser)."""
     base = designs["risers"].loc[k]
-    zone = pd.DataFrame({"pattern": [base["pattern"]], "zone": [base["zone"]], "primary": [k]}).rename_axis("_z")
+    zone = pd.DataFrame({"pattern": [base["pattern"]], "zone": [base["zone"]], "primary": [k],
+                         "shrinkage_rejects": [counts[0]], "castings": [counts[1]]}).rename_axis("_z")
     priced, rate_now = price_candidates(pd.DataFrame([row]).assign(_z=0, _cand=0, action="what_if"), zone, designs,
                               money, model, 1.0)
     m = money.loc[base["pattern"]]
+    now = rate_now.loc[0].to_dict()
     if not _differs(base, row):
-        return no_change_money(m, rate_now.get(0)), []
+        return {**no_change_money(m, now), **now_interval(now)}, []
     j = designs["judged"]
     siblings = j[(j["zone"] == base["zone"]) & ~j["full_ok"] & (j.index != k)]["riser"].tolist()
-    return money_fields(priced.iloc[0], m), [base["riser"]] + siblings
+    return {**money_fields(priced.iloc[0], m), **now_interval(now)}, [base["riser"]] + siblings
 
 
 def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = None,
@@ -115,8 +126,8 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
     takes the catalogue's sleeve of the same kind and that diameter, and is
     refused where the catalogue has none. Without a new height the present
     H/D is kept. The money is priced as in ``suggest`` over the window of
-    ``weeks`` ending with ``week``, on the same basis (the model's rate for
-    the zone now and changed); risers on the same zone that fail the rules
+    ``weeks`` ending with ``week``, on the same basis (the zone's calibrated
+    rate now, and shifted by the model for the change); risers on the same zone that fail the rules
     get the same change, as in ``suggest`` (``changed_risers``).
     """
     charge = check_remelt_charge(remelt_charge, riser_metal_charge)
@@ -138,8 +149,8 @@ def what_if(store: Store, pattern: str, riser: str, diameter_mm: float | None = 
     money = pattern_money(pats[pats["pattern"] == pattern], designs, win, charge)
     wz = win["zones"]
     wz = wz[(wz["pattern"] == pattern) & (wz["revision"] == rev) & (wz["zone"] == base["zone"])]
-    figures, changed = _what_if_money(designs, k, row, money, model)
     castings = int(wz["castings"].sum())
+    figures, changed = _what_if_money(designs, k, row, money, model, (int(wz["shrinkage_rejects"].sum()), castings))
     observed = float(wz["shrinkage_rate"].iat[0]) if castings else None  # zone_shrinkage_rates' figure
     return {
         "pattern": pattern, "revision": rev, "riser": riser, "zone": base["zone"], "alloy": info["alloy"],

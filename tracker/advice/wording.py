@@ -54,18 +54,22 @@ def change_text(action: str, riser: str, d0: float, c, neck0=None, system: str =
 
 def pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float,
                    system: str = units.METRIC) -> str:
-    """Where the choice does not pay off: say so, and name the cheapest
-    change that passes the rules."""
+    """Where the choice does not pay off: say so, say whether any change that
+    passes the rules pays off, and name the cheapest that passes."""
     if pd.isna(choice["predicted_rate_now"]):
         return " Without a reject model the scrap saved is not estimated: the yearly balance is the extra cost alone."
     if choice["yearly_balance"] > 0:
         return ""
     text = (f" At these prices the change costs more each year than the scrap it saves "
             f"(balance {money_text(choice['yearly_balance'])} a year).")
-    cheaper = [c for c in zone_priced if c["full_ok"] and c["_cand"] != choice["_cand"]
+    passing = [c for c in zone_priced if c["full_ok"]]
+    if passing and not any(c["yearly_balance"] > 0 for c in passing):
+        text += " No change that passes the rules pays off."
+    cheaper = [c for c in passing if c["_cand"] != choice["_cand"]
                and c["extra_cost_per_year"] < choice["extra_cost_per_year"]]
     if not cheaper:
-        return text + " No cheaper change passes the rules."
+        return text + (" This is the cheapest change that passes the rules." if choice["full_ok"]
+                       else " No cheaper change passes the rules.")
     c = min(cheaper, key=lambda c: (c["extra_cost_per_year"], c["predicted_rate_after"]))
     rate = "" if pd.isna(c["predicted_rate_after"]) else f", predicted {c['predicted_rate_after']:.1%}"
     change = change_text(c["action"], riser, d0, c, system=system)
@@ -77,15 +81,18 @@ def pays_off_text(choice: dict, zone_priced: list[dict], riser: str, d0: float,
 def how_chosen(choice: dict, zone_priced: list[dict]) -> str:
     """How the choice was made (``_choose``'s tier), in words."""
     if choice["tier"] == 0:
-        return " Of the changes that pass every rule and reach the target, this one has the highest yearly balance."
+        reach = ("; it reaches the target" if choice.get("meets_target") else
+                 "; it does not reach the target (shown, not required)")
+        return (" Of the changes that pass every rule, this one has the highest expected yearly balance"
+                + reach + ".")
     if choice["tier"] == 2:
         return " No candidate meets every rule; size this riser by hand."
     if pd.isna(choice["predicted_rate_after"]):
         return (" (No reject model: the log has no history to fit it; this is the cheapest change that passes "
                 "every rule.)")
     lowest = min(c["predicted_rate_after"] for c in zone_priced if c["full_ok"])
-    return (f" No candidate reaches the target rate by the model (the lowest predicted is {lowest:.1%}); of "
-            "those that pass every rule, this one has the highest yearly balance.")
+    return (f" No change that passes every rule pays off by the model (the lowest predicted rate after is "
+            f"{lowest:.1%}); this one is the cheapest that passes every rule.")
 
 
 def reason_text(zone, base, now, choice: dict, zone_priced: list[dict], siblings: list[str],
@@ -95,7 +102,7 @@ def reason_text(zone, base, now, choice: dict, zone_priced: list[dict], siblings
     choice was made; lengths worded in ``system``."""
     d0 = float(base["diameter_mm"])
     predicted = ("" if pd.isna(choice["predicted_rate_now"]) else
-                 f"; predicted by the model {choice['predicted_rate_now']:.1%} now, "
+                 f"; predicted {choice['predicted_rate_now']:.1%} now (calibrated on the zone's own castings), "
                  f"{choice['predicted_rate_after']:.1%} after")
     caine = ("Caine (margin n/a)" if pd.isna(choice["caine_margin"])
              else f"Caine (margin {choice['caine_margin']:.2f})")

@@ -32,9 +32,11 @@ remelt_option = click.option(
     help="Share of the metal price lost on metal poured that does not ship, charged alike on "
          "scrapped castings and on extra riser metal: melting, handling, melt loss (default 0.3; common "
          "practice 0.2 to 0.4, shop practice varies). --riser-metal-charge is its old name.")
-basis_note = ("Money basis: the predicted rates now and after are both the reject model's, for the "
-              "present and the changed design; scrap saved per year = castings per year x (predicted "
-              "now - predicted after) x cost per scrapped casting.")
+basis_note = ("Money basis: the predicted rate now is the zone's calibrated rate (the reject model's rate "
+              "for its design updated by the zone's own castings and shrinkage rejects), the rate after is "
+              "that rate shifted by the model's change for the new design; scrap saved per year = castings "
+              "per year x (predicted now - predicted after) x cost per scrapped casting. Ranges are 90 % "
+              "intervals.")
 
 
 @command()
@@ -60,13 +62,16 @@ def suggest(pattern, target, week, weeks, remelt_charge, refit, thermal, units_o
 
     For each zone with shrinkage above the target: enlarge the riser (in
     diameter steps), fit a catalogue sleeve, both, or widen the neck. Of the
-    changes that meet every rule and reach the target rate, the one with the
-    highest yearly balance is shown. Patterns whose rejects are not
-    shrinkage get "no_riser_change" with the reason.
+    changes that meet every rule, the one with the highest yearly balance
+    is shown where one pays off (reaching the target is shown, not
+    required); where none pays off, the cheapest, said so. Patterns whose
+    rejects are not shrinkage get "no_riser_change" with the reason.
 
-    Money basis: the predicted rates now and after are both the reject
-    model's, for the present and the changed design (the observed rate is
-    shown beside them); scrap saved per year = castings per year x
+    Money basis: the predicted rate now is the zone's calibrated rate (the
+    reject model's rate for its design updated by the zone's own castings
+    and shrinkage rejects), the rate after that rate shifted by the model's
+    change for the new design (the observed rate is shown beside them), each
+    with a 90 % interval; scrap saved per year = castings per year x
     (predicted now - predicted after) x cost per scrapped casting. A
     scrapped casting costs its processing in full plus the remelt charge on
     its metal; extra riser metal costs the remelt charge.
@@ -112,6 +117,8 @@ def _format(rows: list[dict], code: str = DEFAULT_CURRENCY, system: str = units.
                      "saved": money_text(r["scrap_saved_per_year"]) if changed else None,
                      "extra": money_text(r["extra_cost_per_year"]) if changed else None,
                      "balance": money_text(r["yearly_balance"]) if changed else None,
+                     "range": _range(r, "yearly_balance", money_text) if changed else None,
+                     "chance": pct_text(r.get("probability_pays_off"), 0) if changed else None,
                      "pays": ("yes" if r["pays_off"] else "no") if changed else None})
     out = [table(show, [("pattern", "pattern"), ("zone", "zone"), ("riser", "riser"), ("action", "action"),
                         ("change", "change"), ("observed", "observed now"), ("now", "predicted now"),
@@ -120,6 +127,7 @@ def _format(rows: list[dict], code: str = DEFAULT_CURRENCY, system: str = units.
                          f"added metal ({units.symbol('added_metal_kg_per_mold', system)}/mould)"),
                         ("yield", "yield"), ("saved", f"scrap saved ({code}/yr)"),
                         ("extra", f"extra cost ({code}/yr)"), ("balance", f"balance ({code}/yr)"),
+                        ("range", f"balance 90 % ({code}/yr)"), ("chance", "chance it pays"),
                         ("pays", "pays off")])]
     charge = rows[0].get("remelt_charge")
     out.append("")
@@ -159,8 +167,9 @@ def what_if(pattern, riser, sleeve, week, weeks, remelt_charge, thermal, save_re
             units_override, db_path, as_json, **measures):
     """Show the margins, predicted rate, yield and money of a changed riser.
 
-    The money is priced as in `suggest`, on the same basis: the reject
-    model's rate for the zone now and changed, castings per year over the
+    The money is priced as in `suggest`, on the same basis: the zone's
+    calibrated rate now and shifted by the model for the change (with 90 %
+    intervals and the chance it pays off), castings per year over the
     window, the remelt charge on scrapped castings and extra riser metal.
 
     With --save-revision and --effective-from the change is stored as the
@@ -244,6 +253,12 @@ def saved_text(pattern: str, saved: dict) -> str:
             + (f"carried over {', '.join(kept)} unchanged." if kept else "no other riser to carry over."))
 
 
+def _range(r: dict, key: str, fmt) -> str | None:
+    """"low to high" of a figure's 90 % interval (``key``_low, ``key``_high), None where unknown."""
+    lo, hi = r.get(key + "_low"), r.get(key + "_high")
+    return None if lo is None or hi is None else f"{fmt(lo)} to {fmt(hi)}"
+
+
 def _what_if_figures(r: dict) -> list[dict]:
     """The rule margins, shrinkage rates and yield, now and changed."""
     rows = [{"figure": k.replace("_", " "), "now": r.get(k + "_now"), "changed": r[k]} for k in
@@ -251,6 +266,8 @@ def _what_if_figures(r: dict) -> list[dict]:
     rows += [{"figure": "shrinkage rate, observed", "now": pct_text(r["observed_rate"], 2), "changed": None},
              {"figure": "shrinkage rate, predicted", "now": pct_text(r["predicted_rate_now"], 2),
               "changed": pct_text(r["predicted_rate_after"], 2)},
+             {"figure": "predicted, 90 % interval", "now": _range(r, "predicted_rate_now", lambda v: pct_text(v, 2)),
+              "changed": _range(r, "predicted_rate_after", lambda v: pct_text(v, 2))},
              {"figure": "yield", "now": pct_text(r["yield_before"]), "changed": pct_text(r["yield_after"])}]
     return rows
 
@@ -261,7 +278,9 @@ def _what_if_money(r: dict, code: str) -> list[dict]:
             {"per year": f"scrap saved ({code})", "value": money_text(r["scrap_saved_per_year"])},
             {"per year": f"extra riser metal ({code})", "value": money_text(r["extra_metal_cost_per_year"])},
             {"per year": f"sleeves ({code})", "value": money_text(r["sleeve_cost_per_year"])},
-            {"per year": f"balance ({code})", "value": money_text(r["yearly_balance"])}]
+            {"per year": f"balance ({code})", "value": money_text(r["yearly_balance"])},
+            {"per year": f"balance, 90 % interval ({code})", "value": _range(r, "yearly_balance", money_text)},
+            {"per year": "chance it pays off", "value": pct_text(r.get("probability_pays_off"), 0)}]
 
 
 @command("fit-model")

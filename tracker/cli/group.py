@@ -14,6 +14,7 @@ from tracker.cli.cmd_design import check, patterns, size
 from tracker.cli.cmd_log import backup, correct, history, import_, init, log, restore, settings
 from tracker.cli.cmd_review import review
 from tracker.cli.cmd_thermal import thermal
+from tracker.cli.cmd_track import track_record
 from tracker.cli.cmd_users import audit, user
 from tracker.cli.command import group
 
@@ -32,7 +33,7 @@ COMMANDS: tuple[click.Command, ...] = (
     init, settings, import_, log, correct, history, backup, restore, copy_log_command,  # the log
     size, check, patterns, thermal,                                                      # riser design
     review, action,                                                                      # the weekly review
-    suggest, what_if, fit_model,                                                         # suggestions, the model
+    suggest, what_if, fit_model, track_record,                                           # suggestions, the model
     dashboard, demo_command,                                                             # the dashboard
     user, audit,                                                                         # accounts, the audit
 )

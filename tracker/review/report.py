@@ -48,7 +48,10 @@ from tracker.review.report_parts import (
     revision_columns,
     text_table,
     totals_rows,
+    track_record_columns,
+    track_record_note,
     trend_columns,
+    verdict_castings_text,
 )
 
 FORMATS = ("table", "md", "html", "csv", "json")
@@ -73,6 +76,11 @@ def render_table(review: dict) -> str:
     out += ["", "Weekly trend, all patterns", text_table(review["trend"]["overall"], trend_columns(review))]
     out += ["", "Riser revisions (shrinkage rejects in the changed risers' zones)"]
     out += _revision_lines(review) or ["  (none)"]
+    if review.get("track_record"):
+        out += ["", "Track record (the model's prediction beside what followed)",
+                "  " + track_record_note(review["track_record"])]
+        if review["track_record"]["revisions"]:
+            out.append(text_table(review["track_record"]["revisions"], track_record_columns()))
     if review["revisions"]:
         out += ["", SAFETY_CAUTION_SHORT]
     return "\n".join(out) + "\n"
@@ -94,6 +102,9 @@ def _revision_lines(review) -> list[str]:
                 f"Fisher p = {pval(r['p_value'])}: "
                 f"{VERDICT_TEXT.get(r['verdict'], r['verdict'])}",
                 f"    all defects: {pct(every['rate_before'], 2)} % before, {pct(every['rate_after'], 2)} % after"]
+        if r.get("more_castings_to_verdict") is not None:
+            out.append(f"    predicted after {pct(r['predicted_rate_after'], 2)} %; castings still needed for a "
+                       f"verdict: {verdict_castings_text(r)}")
     return out
 
 
@@ -124,6 +135,10 @@ def render_md(review: dict, sections: dict | None = None) -> str:
             "## Weekly trend", "", md_table(review["trend"]["overall"], trend_columns(review)), "",
             *extra.get("before_revisions", []),
             "## Riser revisions", "", md_table(review["revisions"], revision_columns()), ""]
+    if review.get("track_record"):
+        out += ["## Track record", "", md_cell(track_record_note(review["track_record"])), ""]
+        if review["track_record"]["revisions"]:
+            out += [md_table(review["track_record"]["revisions"], track_record_columns()), ""]
     if review["revisions"]:
         out += [f"> **Caution.** {md_cell(SAFETY_CAUTION)}", ""]
     out += extra.get("after_revisions", [])

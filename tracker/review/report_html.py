@@ -32,7 +32,10 @@ from tracker.review.report_parts import (
     plants_head,
     pval,
     reason_text,
+    track_record_columns,
+    track_record_note,
     trend_columns,
+    verdict_castings_text,
 )
 
 
@@ -169,7 +172,11 @@ def _html_revision(review: dict, r: dict) -> str:
             + f"<p>Change in shrinkage rate {_e(diff_text(r))} percentage points "
               f"({confidence_text(review)} interval); "
               f"Fisher's exact test p = {_e(pval(r['p_value']))}; chance these castings would show a "
-              f"halving of the rate: {pct(r.get('power_to_halve'), 0)} %.</p></div>")
+              f"halving of the rate: {pct(r.get('power_to_halve'), 0)} %.</p>"
+            + (f"<p>Predicted after the change: {pct(r.get('predicted_rate_after'), 2)} %; castings still "
+               f"needed for a verdict: {_e(verdict_castings_text(r))}.</p>"
+               if r.get("more_castings_to_verdict") is not None else "")
+            + "</div>")
 
 
 PCHART_LEGEND = ('<p class="legend">How to read the charts. Line and dots: weekly reject rate (%). Dashed '
@@ -217,7 +224,8 @@ def render_html(review: dict, charts: dict | None = None, sections: dict | None 
     cols = defect_columns(review)
     out.append("<section><h2>Scrap by defect</h2>"
                + _html_table(review["defects"], cols, _numeric_heads(cols)) + "</section>")
-    out += extra.get("before_revisions", []) + _html_revisions(review) + extra.get("after_revisions", [])
+    out += (extra.get("before_revisions", []) + _html_revisions(review) + _html_track_record(review)
+            + extra.get("after_revisions", []))
     out += _html_notes(review)
     out.append(f"<footer>Rates: {_e(review.get('rate_basis', ''))}. Counts in castings; costs in "
                f"{_e(review.get('currency') or DEFAULT_CURRENCY)}; weights in "
@@ -301,6 +309,18 @@ def _html_revisions(review: dict) -> list[str]:
         out.append(f'<div class="caution"><strong>Caution.</strong> {_e(SAFETY_CAUTION)}</div>')
     out.append("</section>")
     return out
+
+
+def _html_track_record(review: dict) -> list[str]:
+    """The model's track record on the revisions under judgement (nothing where the review has none)."""
+    record = review.get("track_record")
+    if not record:
+        return []
+    out = ["<section><h2>Track record</h2>", f'<p class="muted">{_e(track_record_note(record))}</p>']
+    if record["revisions"]:
+        cols = track_record_columns()
+        out.append(_html_table(record["revisions"], cols, {h for h, _ in cols[5:10]}))
+    return out + ["</section>"]
 
 
 def _html_notes(review: dict) -> list[str]:

@@ -153,6 +153,8 @@ def revision_columns():
         ("Change (points, interval)", lambda r: diff_text(r)),
         ("p-value", lambda r: pval(r["p_value"])),
         ("Verdict", lambda r: VERDICT_TEXT.get(r["verdict"], r["verdict"])),
+        ("Predicted after (%)", lambda r: pct(r.get("predicted_rate_after"), 2)),
+        ("More castings to a verdict", lambda r: verdict_castings_text(r)),
         ("All defects before / after (%)",
          lambda r: f"{pct(r['all_defects']['rate_before'], 2)} / {pct(r['all_defects']['rate_after'], 2)}"),
     ]
@@ -268,3 +270,45 @@ def plants_head(d: dict) -> list[str]:
             f"Window: {w['first_week']} to {w['last_week']} ({w['weeks']} weeks, {w['start']} to {w['end']}); "
             f"target reject rate {pct(d['target'])} %; intervals {confidence_text(d)}",
             f"Rates: {d['rate_basis']}"]
+
+
+def verdict_castings_text(r: dict) -> str:
+    """How many more castings the before/after test needs (a revision still
+    without a verdict), at the observed rate before and the predicted rate
+    after, with the test's power; "-" where it is judged or cannot be told."""
+    more = r.get("more_castings_to_verdict")
+    if more is None:
+        return "-"
+    return (f"{count(more)} (of {count(r['castings_to_verdict'])} after the change; "
+            f"{r['verdict_power']:.0%} power, {r['verdict_alpha']:.0%} two-sided)")
+
+
+TRACK_VERDICTS = ("too early", "as predicted", "worse than predicted", "better than predicted")
+
+
+def track_record_columns():
+    """The track record's columns (``review["track_record"]["revisions"]``), in every format."""
+    return [
+        ("Pattern", lambda t: t["pattern"]),
+        ("Revision", lambda t: t["revision"]),
+        ("From", lambda t: t["effective_from"]),
+        ("Zone", lambda t: t["zone"]),
+        ("Riser", lambda t: t["riser"]),
+        ("Predicted after (%)", lambda t: pct(t["predicted_rate_after"], 2)),
+        ("90 % interval (%)", lambda t: f"{pct(t['predicted_rate_after_low'], 2)} – "
+                                        f"{pct(t['predicted_rate_after_high'], 2)}"),
+        ("Observed after (%)", lambda t: pct(t["observed_rate_after"], 2)),
+        ("Castings after", lambda t: count(t["castings_after"])),
+        ("Shrinkage rejects after", lambda t: count(t["shrinkage_rejects_after"])),
+        ("Verdict", lambda t: t["verdict"]),
+    ]
+
+
+def track_record_note(record: dict) -> str:
+    """One line on the track record: how it is made, and the summary."""
+    s = record["summary"]
+    cover = "-" if s["coverage"] is None else f"{100 * s['coverage']:.0f} %"
+    loss = "-" if s["log_loss"] is None else f"{s['log_loss']:.4f}"
+    return ("What the model predicted for each changed riser's zone, from pours before the change only, "
+            f"beside what was observed since. Judged {s['judged']} of {s['revisions']}; inside the 90 % "
+            f"interval: {cover}; mean log loss per casting: {loss}.")

@@ -55,6 +55,7 @@ import numpy as np
 import pandas as pd
 
 from tracker import limits, numbers, units
+from tracker.advice import track_record
 from tracker.cautions import SAFETY_CAUTION
 from tracker.log.settings import currency
 from tracker.log.store import Store
@@ -579,7 +580,11 @@ def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WE
         ``problems`` (codes), ``pareto`` (patterns and defects, by cost and
         by count, with cumulative share), ``defects`` (scrap by defect, by
         cost), ``trend`` (``overall`` and ``by_pattern`` weekly rows),
-        ``revisions`` (before/after of riser revisions), ``changes`` (since
+        ``revisions`` (before/after of riser revisions, with the model's
+        prediction and the castings still needed for a verdict),
+        ``track_record`` (``tracker.advice.track_record.review_section``:
+        prediction beside observation for the changed risers of those
+        revisions, and the summary), ``changes`` (since
         the previous week's review), ``notes`` (newest inspectors' notes on
         rejects of problem patterns in the review week) and ``caution``.
     """
@@ -589,6 +594,7 @@ def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WE
     now = _window(mx, rejects, mondays, slice(1, None), target, confidence)
     before = _window(mx, rejects, previous, slice(0, -1), target, confidence, full=False)
     revisions = judge_revisions(store, mondays, weeks, confidence)
+    record = track_record.review_section(store, revisions, iso(monday + dt.timedelta(days=6)), weeks)
 
     t = now["table"]
     patterns = _rows({k: t[k] for k in PATTERN_KEYS + ["pchart"]})
@@ -616,6 +622,7 @@ def _weekly_review(store: Store, week: str | None = None, weeks: int = limits.WE
         "defects": pareto["defects_by_cost"],
         "trend": {"overall": _rows(overall), "by_pattern": _rows(now["per_pattern"])},
         "revisions": revisions,
+        "track_record": record,
         "changes": _changes(now, before, revisions, monday, week_end),
         "notes": notes,
         "caution": SAFETY_CAUTION,

@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 
 from tracker import units
+from tracker.advice import track_record as record
 from tracker.design import rules
 from tracker.design.alloys import ALLOYS
 from tracker.design.assess import assess_frame
@@ -155,3 +156,9 @@ def revision_marks(store: Store, pattern: str) -> pd.DataFrame:
                  label="revision " + r["revision"].astype(str))
     r["week"] = [stats.iso_week(d) for d in r["effective_from"]]
     return r[["revision", "effective_from", "week", "label"]].reset_index(drop=True)
+
+
+def pattern_track_record(store: Store, pattern: str) -> dict:
+    """The model's track record on ``pattern``'s riser changes
+    (``tracker.advice.track_record.track_record``, the figures the CLI prints)."""
+    return record.track_record(store, pattern)

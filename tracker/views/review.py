@@ -212,6 +212,13 @@ REVISION_TABLE = {
     "after_text": "after: shrinkage rejects", "difference_pct": "change (% points)",
     "p_value": "p-value (Fisher)", "verdict_text": "verdict", "sentence": "verdict in words",
     "details": "statistics", "in_window_text": "took effect in the window",
+    "to_verdict_text": "castings to a verdict",
+}
+TRACK_TABLE = {  # the verdict among the first columns, so it shows at tablet width
+    "pattern": "pattern", "zone": "zone", "predicted_pct": "predicted after (%)",
+    "observed_pct": "observed after (%)", "verdict": "verdict", "interval_text": "90 % interval (%)",
+    "castings_after": "castings after", "revision": "revision", "effective_from": "effective from",
+    "riser": "riser",
 }
 
 
@@ -300,6 +307,7 @@ def review_revisions_table(review: dict) -> pd.DataFrame:
             "verdict_text": VERDICT_WORDS.get(r.get("verdict"), str(r.get("verdict"))),
             "sentence": verdict_sentence(r), "details": verdict_details(r),
             "in_window_text": "yes" if r.get("took_effect_in_window", True) else "no, still awaiting a verdict",
+            "to_verdict_text": _to_verdict_words(r),
         })
     return pd.DataFrame(out)[list(REVISION_TABLE)].rename(columns=REVISION_TABLE)
 
@@ -364,3 +372,39 @@ def review_target(review: dict) -> pd.DataFrame:
 def review_target_table(review: dict) -> pd.DataFrame:
     """:func:`review_target` with the display labels of TARGET_TABLE."""
     return review_target(review).rename(columns=TARGET_TABLE)
+
+
+def _to_verdict_words(r: dict) -> str:
+    """The castings a revision still needs for a verdict, in words ("-" where judged or unknown)."""
+    more = r.get("more_castings_to_verdict")
+    if more is None:
+        return "-"
+    return (f"{more:,} more castings (the before/after test needs {r['castings_to_verdict']:,} after the change "
+            f"to tell the rate before from the predicted {100 * _num(r.get('predicted_rate_after')):.2f} %, "
+            f"with {r['verdict_power']:.0%} power)")
+
+
+def track_record_table(record: dict | None) -> pd.DataFrame:
+    """The track record's rows (``tracker.advice.track_record``) for display: rates in %."""
+    rows = (record or {}).get("revisions") or []
+    if not rows:
+        return pd.DataFrame(columns=list(TRACK_TABLE.values()))
+
+    def pct(v) -> float:
+        return 100.0 * _num(v)
+
+    out = [{**t, "predicted_pct": pct(t["predicted_rate_after"]), "observed_pct": pct(t["observed_rate_after"]),
+            "interval_text": f"{pct(t['predicted_rate_after_low']):.2f} to {pct(t['predicted_rate_after_high']):.2f}"}
+           for t in rows]
+    return pd.DataFrame(out)[list(TRACK_TABLE)].rename(columns=TRACK_TABLE)
+
+
+def track_record_summary(record: dict | None) -> str:
+    """The track record's summary in one sentence."""
+    s = (record or {}).get("summary")
+    if not s or not s.get("revisions"):
+        return "No riser change to judge yet: no revision changed a riser whose zone has shrinkage records."
+    cover = "-" if s["coverage"] is None else f"{100 * s['coverage']:.0f} %"
+    loss = "-" if s["log_loss"] is None else f"{s['log_loss']:.4f}"
+    return (f"Judged {s['judged']} of {s['revisions']} changes; inside their 90 % interval: {cover}; "
+            f"mean log loss per casting: {loss}.")

@@ -27,7 +27,9 @@ SUGGESTION_COLUMNS = {
     "added_metal_kg_per_mold": "added metal (kg per mold)",
     "yield_before_pct": "yield now (%)", "yield_after_pct": "yield after (%)",
     "scrap_saved_per_year": f"scrap saved ({MONEY_UNIT})", "extra_cost_per_year": f"extra cost ({MONEY_UNIT})",
-    "yearly_balance": f"balance ({MONEY_UNIT})", "pays_off": "pays off", "reason": "why",
+    "yearly_balance": f"balance ({MONEY_UNIT})", "pays_off": "pays off",
+    "probability_pays_off_pct": "chance it pays off (%)", "balance_range": f"balance, 90 % range ({MONEY_UNIT})",
+    "rate_after_range": "predicted after, 90 % range (%)", "reason": "why",
 }
 
 
@@ -37,7 +39,8 @@ CHANGE_PART = ["pattern", "zone", "riser", "action", "now: diameter (mm)", "now:
 
 
 BALANCE_PART = ["pattern", "zone", "observed now (%)", "predicted now (%)", "predicted after (%)",
-                f"balance ({MONEY_UNIT})", "pays off", f"scrap saved ({MONEY_UNIT})", f"extra cost ({MONEY_UNIT})",
+                f"balance ({MONEY_UNIT})", "pays off", "chance it pays off (%)", f"balance, 90 % range ({MONEY_UNIT})",
+                "predicted after, 90 % range (%)", f"scrap saved ({MONEY_UNIT})", f"extra cost ({MONEY_UNIT})",
                 "added metal (kg per mold)", "yield now (%)", "yield after (%)"]
 
 
@@ -71,6 +74,14 @@ def observed_scope(week: str, weeks: int) -> str:
                       basis=POURED)
 
 
+def _ranges(s: pd.DataFrame, key: str, fmt, changes: pd.Series) -> pd.Series:
+    """"low to high" of a figure's 90 % interval per row (None where unknown or nothing changes)."""
+    lo = s[f"{key}_low"] if f"{key}_low" in s else pd.Series(None, index=s.index, dtype=object)
+    hi = s[f"{key}_high"] if f"{key}_high" in s else pd.Series(None, index=s.index, dtype=object)
+    return pd.Series([f"{fmt(a)} to {fmt(b)}" if c and pd.notna(a) and pd.notna(b) else None
+                      for a, b, c in zip(lo, hi, changes, strict=True)], index=s.index, dtype=object)
+
+
 def suggestions_table(suggestions: list[dict], currency: str | None = None,
                       system: str = units.METRIC) -> pd.DataFrame:
     """Suggestions (``tracker.advice.suggest.suggest``) as a display table, rates and yields in %,
@@ -97,9 +108,14 @@ def suggestions_table(suggestions: list[dict], currency: str | None = None,
         pays = s["pays_off"].fillna(False).astype(bool)
         s["pays_off"] = pd.Series([("yes" if p else "no") if c else None for c, p in zip(changes, pays, strict=True)],
                                   index=s.index, dtype=object)
-    for key in ("reject_rate", "predicted_rate_now", "predicted_rate_after", "yield_before", "yield_after"):
+    if "probability_pays_off" not in s:
+        s["probability_pays_off"] = float("nan")
+    for key in ("reject_rate", "predicted_rate_now", "predicted_rate_after", "yield_before", "yield_after",
+                "probability_pays_off"):
         if key in s:
-            s[f"{key}_pct"] = pct_column(s[key])
+            s[f"{key}_pct"] = pct_column(s[key]).where(changes) if key == "probability_pays_off" else pct_column(s[key])
+    s["balance_range"] = _ranges(s, "yearly_balance", lambda v: f"{v:,.0f}", changes)
+    s["rate_after_range"] = _ranges(s, "predicted_rate_after", lambda v: f"{100 * v:.2f}", changes)
     has_riser = s["riser"].notna() if "riser" in s else pd.Series(False, index=s.index)
     for key in ("suggested_sleeve", "current_sleeve"):
         if key in s:  # "none" = a bare riser; blank where no riser is concerned
