@@ -67,7 +67,7 @@ def test_a_self_intersecting_mesh_is_refused_where_it_is_filled():
     a = trimesh.creation.box((40.0, 40.0, 40.0))
     b = trimesh.creation.box((40.0, 40.0, 40.0)).apply_translation((20.0, 0.0, 0.0))
     m = _model(trimesh.util.concatenate([a, b]))     # two closed shells, overlapping
-    edges = tuple(voxel.axis_edges(-40, 60, 5.0, 0.0) for _ in range(3))
+    edges = tuple(voxel.axis_edges([-40, 60], 5.0, 0.0) for _ in range(3))
     with pytest.raises(BadModel, match="the mesh intersects itself"):
         voxel.fill(m.mesh, edges, m.name)
 
@@ -81,7 +81,7 @@ def test_empty_or_garbled_files_get_one_line(data, words):
 
 def test_the_fill_holds_the_volume_of_a_cylinder():
     cyl = trimesh.creation.cylinder(radius=40.0, height=80.0, sections=96)
-    edges = tuple(voxel.axis_edges(-45, 45, 2.5, 0.0) for _ in range(3))
+    edges = tuple(voxel.axis_edges([-45, 45], 2.5, 0.0) for _ in range(3))
     inside = voxel.fill(cyl, edges) > 0
     g = voxel.Grid3(edges, inside, inside, 2.5)
     # V = π r² h (a 96-gon holds 99.93 % of it); cells of r/16 within 2 %

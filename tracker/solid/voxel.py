@@ -70,26 +70,42 @@ def memory_mb(cells: int) -> float:
     return cells * BYTES_PER_CELL / 1e6
 
 
-def axis_edges(lo: float, hi: float, h: float, margin: float) -> np.ndarray:
-    """Edges (mm): uniform cells of ``h`` over [lo, hi] (widened to whole cells), graded outwards
-    over ``margin`` mm on both sides."""
-    n = max(1, int(math.ceil((hi - lo) / h - 1e-9)))
-    mid = 0.5 * (lo + hi)
-    core = mid + (np.arange(n + 1) - n / 2.0) * h
+def axis_edges(breaks, h: float, margin: float) -> np.ndarray:
+    """Edges (mm): cells of at most ``h`` between the ``breaks`` (the faces of the bodies' boxes, so that
+    flat faces fall on cell faces), graded outwards over ``margin`` mm on both sides."""
+    b = np.unique(np.round(np.asarray(breaks, dtype=float), 6))
+    keep = [b[0]]
+    for v in b[1:]:
+        if v - keep[-1] > 0.3 * h:
+            keep.append(v)
+    if len(keep) > 1 and b[-1] > keep[-1]:
+        keep[-1] = b[-1]
+    core = [keep[0]]
+    for lo, hi in zip(keep[:-1], keep[1:], strict=False):
+        n = max(1, int(math.ceil((hi - lo) / h - 1e-6)))
+        core.extend(np.linspace(lo, hi, n + 1)[1:])
+    if len(core) == 1:
+        core = [keep[0] - h / 2, keep[0] + h / 2]
     steps, size, pos = [], h, 0.0
     while pos < margin - 1e-9:
         size = min(size * GROWTH, MAX_GROWN * h)
         pos += size
         steps.append(pos)
     grown = np.array(steps)
-    return np.concatenate([core[0] - grown[::-1], core, core[-1] + grown])
+    return np.concatenate([core[0] - grown[::-1], np.array(core), core[-1] + grown])
 
 
-def count_cells(bounds: np.ndarray, h: float, margin: float) -> int:
-    """Cells of the grid ``axis_edges`` would build (without building it)."""
+def box_breaks(boxes) -> list[list[float]]:
+    """Per axis, the faces of the ``boxes`` ((2, 3) lowest and highest corners, mm)."""
+    return [sorted({float(bx[i, a]) for bx in boxes for i in (0, 1)}) for a in range(3)]
+
+
+def count_cells(breaks, h: float, margin: float) -> int:
+    """Cells of the grid ``axis_edges`` would build from ``box_breaks``' ``breaks`` (edges only: no
+    cell is made)."""
     total = 1
     for a in range(3):
-        total *= axis_edges(bounds[0, a], bounds[1, a], h, margin).size - 1
+        total *= axis_edges(breaks[a], h, margin).size - 1
     return total
 
 
@@ -156,7 +172,7 @@ def thinnest_mm(meshes: list[trimesh.Trimesh]) -> float:
     mesh = meshes[0] if len(meshes) == 1 else cast(trimesh.Trimesh, trimesh.util.concatenate(meshes))
     lo, hi = np.asarray(mesh.bounds, dtype=float)
     h = float(np.max(hi - lo)) / PRE_CELLS
-    edges = tuple(axis_edges(lo[a], hi[a], h, 2 * h) for a in range(3))
+    edges = tuple(axis_edges([lo[a], hi[a]], h, 2 * h) for a in range(3))
     inside = fill(mesh, edges) > 0
     if not inside.any():
         return float(np.min(hi - lo))
@@ -166,7 +182,7 @@ def thinnest_mm(meshes: list[trimesh.Trimesh]) -> float:
     return float(max(t, h))
 
 
-def choose_cell(thinnest: float, bounds: np.ndarray, margin: float, cell_mm: float | None,
+def choose_cell(thinnest: float, breaks, margin: float, cell_mm: float | None,
                 max_memory_mb: float = MAX_MEMORY_MB) -> tuple[float, list[str]]:
     """The cell size (mm) and what was decided: ``cell_mm`` where given (BadInput where its grid
     would pass the memory bound), else the thinnest section over CELLS_ACROSS, coarsened to the bound."""
@@ -174,7 +190,7 @@ def choose_cell(thinnest: float, bounds: np.ndarray, margin: float, cell_mm: flo
     if cell_mm is not None:
         if not (math.isfinite(cell_mm) and cell_mm >= MIN_CELL_MM):
             raise BadInput("cell-mm", cell_mm, f"must be a length of at least {MIN_CELL_MM} mm")
-        cells = count_cells(bounds, cell_mm, margin)
+        cells = count_cells(breaks, cell_mm, margin)
         if memory_mb(cells) > max_memory_mb:
             raise BadInput("cell-mm", cell_mm, f"gives {cells:,} cells, about {memory_mb(cells):,.0f} MB, "
                            f"above the bound of {max_memory_mb:,.0f} MB; give a larger cell")
@@ -182,7 +198,7 @@ def choose_cell(thinnest: float, bounds: np.ndarray, margin: float, cell_mm: flo
         return float(cell_mm), notes
     h = max(thinnest / CELLS_ACROSS, MIN_CELL_MM)
     notes.append(f"cell {h:.1f} mm: the thinnest section, about {thinnest:.0f} mm, in {CELLS_ACROSS} cells")
-    while memory_mb(count_cells(bounds, h, margin)) > max_memory_mb:
+    while memory_mb(count_cells(breaks, h, margin)) > max_memory_mb:
         h *= 1.15
     if notes and not notes[0].startswith(f"cell {h:.1f} mm"):
         notes.append(f"coarsened to {h:.1f} mm to keep the solve within {max_memory_mb:,.0f} MB")
