@@ -41,3 +41,10 @@ def test_no_riser_is_no_verdict_of_feeding():
     ok, reasons = feeding_verdict("steel", rigid_mould=False, risers=[], unfed_hot_spots=1, isolated_share=0.0,
                                   min_niyama=None, niyama_threshold=None)
     assert not ok and reasons[0].startswith("no riser given")
+
+
+def test_a_riser_freezing_before_its_contact_fails_a_shrinking_alloy():
+    # a riser must freeze after the section it feeds (DOMAIN.md, "Shrinkage, and what a riser feeds")
+    ok, reasons = feeding_verdict("steel", rigid_mould=False, risers=[_riser(390, 400, 300)], unfed_hot_spots=0,
+                                  isolated_share=0.0, min_niyama=None, niyama_threshold=None)
+    assert not ok and reasons == ["riser R1 freezes at 390 s, before the casting at its contact (400 s)"]

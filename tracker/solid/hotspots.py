@@ -93,13 +93,18 @@ def find(solid_time_s: np.ndarray, casting: np.ndarray, centres_mm, vol_mm3: np.
         i, j, k = np.unravel_index(r, st.shape)
         t = float(st.ravel()[r])
         spots.append({
-            "x_mm": float(centres_mm[0][i]), "y_mm": float(centres_mm[1][j]), "z_mm": float(centres_mm[2][k]),
+            "x_mm": _mm(centres_mm[0][i]), "y_mm": _mm(centres_mm[1][j]), "z_mm": _mm(centres_mm[2][k]),
             "modulus_cm": math.sqrt(t / mould_b_s_cm2) if math.isfinite(t) else None,
             "freeze_s": t if math.isfinite(t) else None,
             "volume_cm3": float(vols[r]) / 1000.0, "cooling_area_cm2": float(area[r]) / 100.0,
             "thickness_mm": float(max(2.0 * dist[i, j, k] - cell_mm, cell_mm)), "cell": int(r)})
     spots.sort(key=lambda s: -(s["freeze_s"] if s["freeze_s"] is not None else math.inf))
     return spots[:MAX_SPOTS]
+
+
+def _mm(v) -> float:
+    """A position to 0.1 mm (no -0.0)."""
+    return round(float(v), 1) + 0.0
 
 
 def exposed_area_mm2(metal: np.ndarray, of: np.ndarray, edges_mm) -> np.ndarray:

@@ -161,9 +161,9 @@ def _paint(casting: Model, riser_bodies, edges, riser_file: str):
         if not cells.any():
             raise BadModel(riser_file, f"riser R{i + 1} holds no cell; give a smaller --cell-mm")
         if not (cells & grown).any():
-            c = r.centroid
-            raise BadModel(riser_file, f"riser R{i + 1} (centre {c[0]:.0f}, {c[1]:.0f}, {c[2]:.0f} mm) does not "
-                           "touch the casting; check the units and the position")
+            at = ", ".join(str(round(float(v)) + 0) for v in r.centroid)
+            raise BadModel(riser_file, f"riser R{i + 1} (centre {at} mm) does not touch the casting; check the "
+                           "units and the position")
         region[cells] = RISER
         body[cells] = i + 1
     return region, body

@@ -2,8 +2,9 @@
 
 ``feeding_verdict`` takes times in s and shares, no grid, so that the 2-D
 check and the 3-D solve can both judge by it. Shrinking alloys (steel,
-aluminium, bronzes, brass): every hot spot must keep a liquid path to a
-riser until it is solid, no liquid may be cut off from every riser, and
+aluminium, bronzes, brass): every riser must freeze after the casting at its
+contact, every hot spot must keep a liquid path to a riser until it stops
+feeding, no liquid may be cut off from every riser, and
 Niyama must stay above the alloy's threshold where it has one. Ductile iron
 by pressure control (Karsay's method, from memory; DOMAIN.md): the riser
 must still hold liquid when its contact has frozen and when the section's
@@ -39,6 +40,10 @@ def feeding_verdict(alloy: str, *, rigid_mould: bool, risers: list[dict], unfed_
             reasons.append(f"liquid sealed from every riser ({isolated_share:.1%} of the casting) in a "
                            "green-sand mould, whose walls give way to the graphite expansion")
         return not reasons, reasons
+    for r in risers:
+        if r["freeze_s"] < r["contact_freeze_s"]:
+            reasons.append(f"riser {r['riser']} freezes at {r['freeze_s']:,.0f} s, before the casting at its "
+                           f"contact ({r['contact_freeze_s']:,.0f} s)")
     if unfed_hot_spots:
         reasons.append(f"{unfed_hot_spots} hot spot(s) lose their liquid path to every riser before "
                        "they are solid")
