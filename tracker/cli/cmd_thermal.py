@@ -19,7 +19,7 @@ from tracker.cli.options import (
     take_measures,
 )
 from tracker.cli.output import caution_text, emit
-from tracker.cli.solid_thermal import run_solid, solid_options, split_units, thermal_units_option
+from tracker.cli.solid_thermal import run_solid, run_whole, solid_options, split_units, thermal_units_option
 from tracker.design.alloys import ALLOYS
 from tracker.errors import BadInput
 from tracker.log.settings import resolve_units
@@ -55,7 +55,7 @@ _MEASURES = (*_LENGTHS, "pour_temp_c")
 @json_option
 @handle_errors
 def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould, cells_across, stl_path, riser_stl,
-            cell_mm, units_override, db_path, as_json, **measures):
+            whole, cell_mm, units_override, db_path, as_json, **measures):
     """Solidification solve of one riser and the section it feeds.
 
     A 2-D transient conduction solve with latent heat (enthalpy method):
@@ -76,6 +76,9 @@ def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould
     from tracker.thermal import run
 
     units_override, stl_unit = split_units(units_override, stl_path is not None)
+    if whole:
+        run_whole(db_path, pattern, zone, cell_mm, as_json)
+        return
     if stl_path is not None or riser_stl is not None or cell_mm is not None:
         _solid_only(stl_path, pattern, zone, riser, placement, measures)
         run_solid(alloy, stl_path, riser_stl, stl_unit, cell_mm, mould, _pour_c(measures), as_json)

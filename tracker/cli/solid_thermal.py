@@ -24,6 +24,9 @@ def solid_options(fn: Callable[..., Any]) -> Any:
     fn = click.option("--cell-mm", type=float, default=None,
                       help="3-D cell size, mm (default: the thinnest section in 4 cells, within the memory "
                            "bound).")(fn)
+    fn = click.option("--whole", is_flag=True, default=False,
+                      help="With --pattern: solve the pattern's stored casting (`pourback casting`) with the "
+                           "risers of its current revision, in 3-D.")(fn)
     fn = click.option("--riser-stl", type=click.Path(dir_okay=False), default=None,
                       help="STL of the risers, each closed shell one riser (with --stl).")(fn)
     return click.option("--stl", "stl_path", type=click.Path(dir_okay=False), default=None,
@@ -62,6 +65,25 @@ def run_solid(alloy: str | None, stl_path: str, riser_stl: str | None, stl_unit:
         emit(result.to_dict(), True)
     else:
         click.echo(format_solid(result, casting.name))
+
+
+def run_whole(db_path: str | None, pattern: str | None, zone: str | None, cell_mm: float | None,
+              as_json: bool) -> None:
+    """``--pattern P --whole``: the stored casting with the current revision's risers."""
+    from tracker.cli.options import open_store
+    from tracker.solid.pattern import whole
+
+    if pattern is None:
+        raise BadInput("whole", True, "--whole needs --pattern (a pattern whose casting is stored)")
+    if zone is not None:
+        raise BadInput("zone", zone, "--whole solves every zone at once; leave --zone out")
+    with open_store(db_path) as store:
+        result = whole(store, pattern, cell_mm)
+        name = (store.casting(pattern) or {}).get("file", pattern)
+    if as_json:
+        emit(result.to_dict(), True)
+    else:
+        click.echo(format_solid(result, name))
 
 
 def format_solid(r: Any, name: str) -> str:

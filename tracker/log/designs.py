@@ -70,7 +70,7 @@ class Designs(StoreCore):
             where.append("r.revision = ?")
             params.append(revision)
         q = ("SELECT r.pattern, r.revision, v.effective_from, r.riser, r.zone, r.placement, r.top, "
-             "r.diameter_mm, r.height_mm, r.sleeve, r.neck_diameter_mm, "
+             "r.diameter_mm, r.height_mm, r.sleeve, r.neck_diameter_mm, r.x_mm, r.y_mm, r.z_mm, r.axis, "
              "s.kind AS sleeve_kind, s.modulus_factor AS sleeve_factor, "
              "s.feeding_efficiency AS sleeve_efficiency, s.unit_cost AS sleeve_unit_cost, "
              "z.volume_cm3, z.cooling_area_cm2, z.thickness_mm, z.length_mm, z.required_xray_level, "

@@ -27,6 +27,7 @@ each in its own module:
 - ``imports``: imported files and their keys;
 - ``users``: accounts, sessions, the audit;
 - ``meta``: settings (``meta``) and fitted models;
+- ``castings``: a pattern's casting model (STL) for the 3-D solve;
 - ``backup``: backup, restore, integrity check.
 
 The schema's names (columns, keys, the current-record condition) are in
@@ -49,6 +50,7 @@ from tracker.errors import (  # noqa: F401 (re-exported: callers import them fro
     PourbackError,
 )
 from tracker.log.backup import Maintenance, restore  # noqa: F401 (restore re-exported for callers)
+from tracker.log.castings import CastingRows
 from tracker.log.core import (  # noqa: F401 (re-exported: callers import them from here)
     DATABASE_ERRORS,
     DEFAULT_DB,
@@ -90,7 +92,7 @@ from tracker.log.users import UserRows
 
 
 class Store(Tables, Designs, Records, ReviewReads, RunningTotals, ImportBookkeeping, MetaRows, ModelRows,
-            UserRows, Maintenance, StoreCore):
+            UserRows, CastingRows, Maintenance, StoreCore):
     """One open connection to the log.
 
     ``Store(target)`` opens (creating and migrating when needed) the log in an

@@ -26,6 +26,7 @@ from tracker.thermal.solver import PhaseCurve
 
 STEPS_PER_CASTING = 60       # time steps within the casting's estimated freezing time
 MOULD_DEPTHS = 3.0           # sand layer: this many heat penetration depths sqrt(alpha·t) of the slowest part
+MAX_RISERS = 63             # one bit each in the solve's record of what feeds a cell
 RIGID_MOULDS = ("chemically_bonded",)    # tracker.thermal.cases: a rigid mould is chemically bonded sand
 
 JSON_KEYS = ("volume_cm3", "surface_area_cm2", "hot_spots", "casting_freeze_s", "risers", "riser_freeze_s",
@@ -108,11 +109,12 @@ def _modulus_cm(mesh) -> float:
     return float(mesh.volume) / float(mesh.area) / 10.0
 
 
-def prepare(casting: Model, risers: Model | None, alloy: str | props.ThermalAlloy, mould: str = "silica_sand",
+def prepare(casting: Model, risers: Model | list | None, alloy: str | props.ThermalAlloy, mould: str = "silica_sand",
             pour_temp_c: float | None = None, cell_mm: float | None = None,
             max_memory_mb: float = voxel.MAX_MEMORY_MB) -> Setup:
     """The grid and properties of one solve; the memory bound is checked before the cells are made.
-    ``alloy``: a key of tracker.thermal.properties, or its properties (a ThermalAlloy)."""
+    ``alloy``: a key of tracker.thermal.properties, or its properties (a ThermalAlloy); ``risers``: a
+    model whose closed shells are the risers (named R1, R2, ... by their centres), or (name, mesh) pairs."""
     a = alloy if isinstance(alloy, props.ThermalAlloy) else props.thermal_alloy(alloy)
     m = props.mould(mould)
     pour = a.pour_temp_c if pour_temp_c is None else float(pour_temp_c)
@@ -121,8 +123,15 @@ def prepare(casting: Model, risers: Model | None, alloy: str | props.ThermalAllo
                        "within 500 K of it")
     b = mould_constant(a, m, pour)
     bodies = casting.bodies()
-    riser_bodies = risers.bodies() if risers is not None else []
-    riser_bodies.sort(key=lambda r: tuple(np.round(r.centroid, 1)))
+    if isinstance(risers, Model):
+        shells = sorted(risers.bodies(), key=lambda r: tuple(np.round(r.centroid, 1)))
+        named = [(f"R{i + 1}", b) for i, b in enumerate(shells)]
+        riser_file = risers.name
+    else:
+        named, riser_file = list(risers or []), "the log's risers"
+    riser_bodies = [b for _, b in named]
+    if len(riser_bodies) > MAX_RISERS:
+        raise BadInput("risers", len(riser_bodies), f"at most {MAX_RISERS} risers are solved together")
     m_cast = _modulus_cm(casting.mesh)
     m_slow = max([m_cast] + [1.3 * _modulus_cm(r) for r in riser_bodies])   # a riser on the casting: one face less
     t_cast, t_slow = b * m_cast**2, b * m_slow**2
@@ -136,16 +145,16 @@ def prepare(casting: Model, risers: Model | None, alloy: str | props.ThermalAllo
     edges = tuple(voxel.axis_edges(breaks[i], h, margin) for i in range(3))
     cells = int(np.prod([e.size - 1 for e in edges]))
     grid = voxel.Grid3(edges, np.full((0, 0, 0), MOULD, np.int8), np.zeros((0, 0, 0), np.int8), h, notes)
-    grid.region, grid.body = _paint(casting, riser_bodies, edges, risers.name if risers else "")
+    names = [n for n, _ in named]
+    grid.region, grid.body = _paint(casting, riser_bodies, edges, riser_file, names)
     mem = voxel.memory_mb(cells)
     notes.append(f"{cells:,} cells ({grid.shape[0]} x {grid.shape[1]} x {grid.shape[2]}), sand layer "
                  f"{margin:.0f} mm; memory bound {mem:,.0f} MB")
-    names = [f"R{i + 1}" for i in range(len(riser_bodies))]
     return Setup(grid, a, m, pour, b, t_cast / STEPS_PER_CASTING, 4.0 * t_slow + 10 * t_cast / STEPS_PER_CASTING,
                  names, mem)
 
 
-def _paint(casting: Model, riser_bodies, edges, riser_file: str):
+def _paint(casting: Model, riser_bodies, edges, riser_file: str, names: list[str]):
     """(region, body) of every cell: the casting, riser i (body i + 1) or mould."""
     inside = voxel.fill(casting.mesh, edges, casting.name) > 0
     if not inside.any():
@@ -156,20 +165,20 @@ def _paint(casting: Model, riser_bodies, edges, riser_file: str):
     for i, r in enumerate(riser_bodies):
         cells = (voxel.fill(r, edges, riser_file) > 0) & ~inside
         if (cells & (body > 0)).any():
-            raise BadModel(riser_file, f"risers R{body[cells & (body > 0)].max()} and R{i + 1} overlap; "
-                           "each closed shell is one riser")
+            raise BadModel(riser_file, f"risers {names[body[cells & (body > 0)].max() - 1]} and {names[i]} "
+                           "overlap; each closed shell is one riser")
         if not cells.any():
-            raise BadModel(riser_file, f"riser R{i + 1} holds no cell; give a smaller --cell-mm")
+            raise BadModel(riser_file, f"riser {names[i]} holds no cell; give a smaller --cell-mm")
         if not (cells & grown).any():
             at = ", ".join(str(round(float(v)) + 0) for v in r.centroid)
-            raise BadModel(riser_file, f"riser R{i + 1} (centre {at} mm) does not touch the casting; check the "
+            raise BadModel(riser_file, f"riser {names[i]} (centre {at} mm) does not touch the casting; check the "
                            "units and the position")
         region[cells] = RISER
         body[cells] = i + 1
     return region, body
 
 
-def run(casting: Model, risers: Model | None, alloy: str | props.ThermalAlloy, mould: str = "silica_sand",
+def run(casting: Model, risers: Model | list | None, alloy: str | props.ThermalAlloy, mould: str = "silica_sand",
         pour_temp_c: float | None = None, cell_mm: float | None = None,
         max_memory_mb: float = voxel.MAX_MEMORY_MB, keep_maps: bool = True) -> SolidResult:
     """Solve the casting with its risers and judge it (see the package docstring)."""

@@ -13,6 +13,8 @@ from tracker.log.ingest.result import MAX_PROBLEMS
 from tracker.log.ingest.values import int_or_none
 from tracker.numbers import finite
 
+POSITION_MM = 10_000.0      # a position on a casting's model lies within 10 m of its origin
+
 
 class ZonesValidator(Validator):
     """Checks the rows of a zones file."""
@@ -31,12 +33,18 @@ class ZonesValidator(Validator):
         width = c.measure("width_mm", required=False)
         level = c.number("required_xray_level", required=False, low=1, low_inclusive=True, high=5,
                          whole=True)
+        # where the zone's hot spot lies on the casting's model and its modulus from the 3-D solve
+        # (``pourback casting --write-zones``), all optional
+        pos = [c.number(k, required=False, low=-POSITION_MM, low_inclusive=True, high=POSITION_MM, unit="mm")
+               for k in ("x_mm", "y_mm", "z_mm")]
+        thermal_m = c.number("modulus_cm", required=False, low=0.0, high=100.0, unit="cm")
         self.known_patterns(c, pattern)
         self._warn_joined(c, zone, vol, area, m)
         # finite(): a refused number arrives as NaN (never infinite), stored as NULL
-        return [(p, z, v, a, finite(t), finite(ln), int_or_none(lv), finite(w))
-                for p, z, v, a, t, ln, lv, w in zip(pattern, zone, vol, area, thick, length, level, width,
-                                                    strict=False)]
+        return [(p, z, v, a, finite(t), finite(ln), int_or_none(lv), finite(w), finite(x), finite(y), finite(zz),
+                 finite(tm))
+                for p, z, v, a, t, ln, lv, w, x, y, zz, tm in zip(pattern, zone, vol, area, thick, length, level,
+                                                                  width, *pos, thermal_m, strict=False)]
 
     @staticmethod
     def _check_modulus(c: Checks, m: np.ndarray, thick: pd.Series) -> None:
