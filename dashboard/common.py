@@ -27,6 +27,7 @@ from tracker.log.store import DATABASE_ERRORS, Store, absolute_target, display_n
 from tracker.review import plants as plant_review
 from tracker.review import rates
 from tracker.review import weekly as review
+from tracker.views import casting_3d
 from tracker.views import common as views
 from tracker.views import design_map as map_views
 from tracker.views import log_results as log_views
@@ -72,6 +73,8 @@ def _registry() -> dict:
         "pattern_reject_rate": rates.pattern_reject_rate,
         "pattern_thermal": thermal_views.pattern_thermal,
         "what_if_thermal": thermal_views.what_if_view,
+        "has_casting": casting_3d.has_casting,
+        "casting_view": casting_3d.casting_view,
     }
 
 

@@ -6,7 +6,7 @@ import datetime as dt
 
 import streamlit as st
 
-from dashboard import charts, common, thermal_view
+from dashboard import casting_view, charts, common, thermal_view
 from tracker import limits
 from tracker.views import pattern_file as views
 from tracker.views.common import label as view_label
@@ -73,6 +73,7 @@ def main() -> None:
                    "(0 or more passes).")
 
         thermal_view.pattern_section(code)
+        casting_view.section(code)
 
     st.subheader("Pours and rejects over time")
     weekly = common.load("pattern_weekly", code)

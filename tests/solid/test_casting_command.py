@@ -83,3 +83,22 @@ def test_riser_positions_are_checked_on_import(tmp_path, runner):
     assert res.exit_code == 1
     assert "row 2, column axis: got 'up'; axis must be one of x, -x, y, -y, z, -z" in res.output
     assert "row 2, column x_mm: got '0'; give all three of x_mm, y_mm and z_mm" in res.output
+
+
+def test_the_pattern_files_3d_view_holds_the_model_hot_spots_and_slices(tmp_path, runner):
+    from tracker.views.casting_3d import casting_view, has_casting
+
+    db = _log(tmp_path, runner, "PL-1,1,2026-01-05,R1,plate,top,blind,60,60,0,0,30,z\n")
+    with Store(db) as s:
+        assert not has_casting(s, "PL-1")
+    runner.invoke(main, ["casting", "PL-1", "--stl", str(_plate(tmp_path)), "--db", db])
+    with Store(db) as s:
+        view = casting_view(s, "PL-1", cell_mm=10.0)
+    # a box: 8 corners, 12 triangles (elementary geometry)
+    assert len(view["casting"]["x"]) == 8 and len(view["casting"]["i"]) == 12
+    assert view["with_risers"] and [r["riser"] for r in view["risers_mesh"]] == ["R1"]
+    assert [sl["plane"][0] for sl in view["slices"]] == ["x", "y", "z"]
+    # every slice's cells are the metal's freezing times, in minutes, at most the casting's
+    top = view["summary"]["casting_freeze_s"] / 60
+    assert all(v is None or 0 <= v <= max(top, view["risers"][0]["freeze_s"] / 60) + 1e-9
+               for sl in view["slices"] for row in sl["minutes"] for v in row)

@@ -59,3 +59,26 @@ def write_castings(out_dir) -> dict[str, pathlib.Path]:
         out[name] = folder / f"{name}.stl"
         stl.write(mesh, out[name])
     return out
+
+
+# The demo log keeps one casting model with one of its steel patterns (an invented pairing:
+# the demo's zones are typed-in blocks, not this shape), so that the pattern file's 3-D view
+# has a model to show.
+DEMO_CASTINGS = {"P-1004": "bossed-plate"}
+
+
+def store_demo_castings(store, folder=None) -> int:
+    """Keep the demo castings with their demo patterns (those in the log); returns how many."""
+    from tracker.solid.pattern import store_casting
+
+    folder = pathlib.Path(folder) if folder is not None else None
+    done = 0
+    known = set(store.patterns_info())
+    for pattern, name in DEMO_CASTINGS.items():
+        if pattern not in known:
+            continue
+        path = folder / "castings" / f"{name}.stl" if folder is not None else None
+        data = path.read_bytes() if path is not None and path.is_file() else stl.to_bytes(castings()[name])
+        store_casting(store, pattern, data, f"{name}.stl")
+        done += 1
+    return done

@@ -67,14 +67,15 @@ def log_risers(store, pattern: str, on: str | None = None) -> list[tuple[str, tr
     return out
 
 
-def whole(store, pattern: str, cell_mm: float | None = None, on: str | None = None) -> SolidResult:
-    """The stored casting of ``pattern`` solved with its current revision's risers."""
+def whole(store, pattern: str, cell_mm: float | None = None, on: str | None = None,
+          keep_maps: bool = False, with_risers: bool = True) -> SolidResult:
+    """The stored casting of ``pattern`` solved with its current revision's risers (or alone)."""
     info = store.pattern(pattern)
     model = stored_model(store, pattern)
-    risers = log_risers(store, pattern, on)
+    risers = log_risers(store, pattern, on) if with_risers else None
     mould = MOULD_OF_RIGIDITY.get(str(info.get("mould") or "").strip().lower(), "silica_sand")
     return run(model, risers, str(info["alloy"]), mould=mould, pour_temp_c=pour_temp_for(store, pattern, info["alloy"]),
-               cell_mm=cell_mm, keep_maps=False)
+               cell_mm=cell_mm, keep_maps=keep_maps)
 
 
 def _thickness(spot: dict) -> float | None:
@@ -83,6 +84,15 @@ def _thickness(spot: dict) -> float | None:
     if spot["cooling_area_cm2"] <= 0 or spot["volume_cm3"] / spot["cooling_area_cm2"] > spot["thickness_mm"] / 20.0:
         return None
     return round(spot["thickness_mm"], 1)
+
+
+def risers_placed(store, pattern: str, on: str | None = None) -> bool:
+    """Whether every riser of ``pattern``'s current revision has a position on the model."""
+    try:
+        rows = current_risers(store, pattern, on)
+    except NotFound:
+        return False
+    return not rows.empty and bool(rows[["x_mm", "y_mm", "z_mm"]].notna().all(axis=None))
 
 
 def zone_rows(pattern: str, result: SolidResult) -> list[dict]:
