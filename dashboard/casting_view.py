@@ -26,6 +26,15 @@ def _figure(view: dict) -> go.Figure:
             mode="markers+text", text=[f"H{i + 1}" for i in range(len(spots))], name="hot spots",
             marker={"size": 6, "color": "crimson"},
             hovertemplate="%{text}: x %{x:.0f}, y %{y:.0f}, z %{z:.0f} mm<extra></extra>"))
+    rej = view["rejects"]
+    if rej:
+        top = max(r["shrinkage_rejects"] for r in rej)
+        fig.add_trace(go.Scatter3d(
+            x=[r["x_mm"] for r in rej], y=[r["y_mm"] for r in rej], z=[r["z_mm"] for r in rej],
+            mode="markers", name="shrinkage rejects (by zone)", text=[r["zone"] for r in rej],
+            customdata=[r["shrinkage_rejects"] for r in rej],
+            marker={"symbol": "x", "color": "darkorange", "size": [6 + 14 * r["shrinkage_rejects"] / top for r in rej]},
+            hovertemplate="zone %{text}: %{customdata} shrinkage rejects<extra></extra>"))
     fig.update_layout(scene={"aspectmode": "data", "xaxis_title": "x (mm)", "yaxis_title": "y (mm)",
                              "zaxis_title": "z (mm)"}, margin={"l": 0, "r": 0, "t": 10, "b": 0}, height=480,
                       legend={"orientation": "h"})

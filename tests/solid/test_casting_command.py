@@ -102,3 +102,22 @@ def test_the_pattern_files_3d_view_holds_the_model_hot_spots_and_slices(tmp_path
     top = view["summary"]["casting_freeze_s"] / 60
     assert all(v is None or 0 <= v <= max(top, view["risers"][0]["freeze_s"] / 60) + 1e-9
                for sl in view["slices"] for row in sl["minutes"] for v in row)
+
+
+def test_shrinkage_rejects_are_shown_at_the_zones_placed_on_the_model(tmp_path, runner):
+    from tracker.views.casting_3d import rejects_at_zones
+
+    db = _log(tmp_path, runner, "PL-1,1,2026-01-05,R1,plate,top,blind,60,60,0,0,30,z\n")
+    (tmp_path / "z2.csv").write_text("pattern,zone,volume_cm3,cooling_area_cm2,x_mm,y_mm,z_mm\n"
+                                     "PL-1,H1,100,120,0,0,20\n")
+    (tmp_path / "lots.csv").write_text("lot,pattern,poured_on,heat,molds\nL1,PL-1,2026-02-02,H-1,10\n")
+    (tmp_path / "inspections.csv").write_text(
+        "lot,inspected_on,method,quantity,result,defect,zone\n"
+        "L1,2026-02-03,visual,7,accept,,\nL1,2026-02-03,visual,3,reject,shrinkage,H1\n")
+    for kind, f in (("zones", "z2.csv"), ("lots", "lots.csv"), ("inspections", "inspections.csv")):
+        res = runner.invoke(main, ["import", kind, str(tmp_path / f), "--db", db])
+        assert res.exit_code == 0, res.output
+    with Store(db) as s:
+        # the three castings logged as shrinkage rejects in zone H1, at its position
+        assert rejects_at_zones(s, "PL-1") == [{"zone": "H1", "x_mm": 0.0, "y_mm": 0.0, "z_mm": 20.0,
+                                                "shrinkage_rejects": 3}]

@@ -1,4 +1,5 @@
-"""The ``castings`` table: a pattern's casting model (STL) for the 3-D solve."""
+"""The ``castings`` table: a pattern's casting model (STL) for the 3-D solve; the shrinkage
+rejects per zone it shows on the model."""
 
 from __future__ import annotations
 
@@ -29,3 +30,9 @@ class CastingRows(StoreCore):
         if row is not None:
             row["stl"] = bytes(row["stl"])
         return row
+
+    def shrinkage_by_zone(self, pattern: str) -> dict[str, int]:
+        """Shrinkage rejects logged against each zone of ``pattern`` (current records, every pour
+        day; from the running totals)."""
+        return {str(z): int(n) for z, n in self.conn.execute(
+            "SELECT zone, SUM(shrinkage) FROM zone_totals WHERE pattern = ? GROUP BY zone", (pattern,))}

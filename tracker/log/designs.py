@@ -49,7 +49,8 @@ class Designs(StoreCore):
     def zones_frame(self, pattern: str) -> pd.DataFrame:
         """The zones of one pattern, as stored, by zone code."""
         return self._frame("SELECT zone, volume_cm3, cooling_area_cm2, thickness_mm, width_mm, length_mm, "
-                           "required_xray_level FROM zones WHERE pattern = ? ORDER BY zone", (pattern,))
+                           "required_xray_level, x_mm, y_mm, z_mm FROM zones WHERE pattern = ? ORDER BY zone",
+                           (pattern,))
 
     def sleeve(self, code: str) -> dict:
         """One sleeve of the catalogue (raises NotFound naming the catalogue)."""

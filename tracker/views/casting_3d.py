@@ -3,7 +3,8 @@ slices through the freezing-time field (data only; the page draws them).
 
 The solve is ``tracker.solid.pattern.whole``: with the current revision's
 risers where every one has a position, else the casting alone (its hot
-spots, where risers should go).
+spots, where risers should go). Where zones carry positions (placed at hot
+spots), the shrinkage rejects logged against them are shown there.
 """
 
 from __future__ import annotations
@@ -47,6 +48,18 @@ def _slices(maps: dict, spot: dict) -> list[dict]:
     return out
 
 
+def rejects_at_zones(store, pattern: str) -> list[dict]:
+    """Shrinkage rejects logged against each zone of ``pattern`` that has a position on the model (the
+    zones a ``--write-zones`` import placed at hot spots), all revisions and pours counted."""
+    z = store.zones_frame(pattern).dropna(subset=["x_mm", "y_mm", "z_mm"])
+    if z.empty:
+        return []
+    counts: dict[str, int] = store.shrinkage_by_zone(pattern)
+    return [{"zone": str(r.zone), "x_mm": float(r.x_mm), "y_mm": float(r.y_mm), "z_mm": float(r.z_mm),
+             "shrinkage_rejects": counts[str(r.zone)]}
+            for r in z.itertuples() if counts.get(str(r.zone), 0) > 0]
+
+
 def casting_view(store, pattern: str, cell_mm: float | None = None) -> dict:
     """The 3-D view of ``pattern``'s stored casting (see the module docstring)."""
     placed = risers_placed(store, pattern)
@@ -56,4 +69,4 @@ def casting_view(store, pattern: str, cell_mm: float | None = None) -> dict:
     summary = {k: v for k, v in r.__dict__.items() if k not in ("maps", "hot_spots", "risers")}
     return {"summary": summary, "casting": _mesh(model.mesh), "risers_mesh": risers, "hot_spots": r.hot_spots,
             "risers": r.risers, "slices": _slices(r.maps, r.hot_spots[0]) if r.hot_spots else [],
-            "with_risers": placed, "caution": SOLID_CAUTION}
+            "with_risers": placed, "rejects": rejects_at_zones(store, pattern), "caution": SOLID_CAUTION}
