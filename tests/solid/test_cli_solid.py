@@ -68,3 +68,12 @@ def test_a_riser_apart_from_the_casting_is_refused(runner, tmp_path):
                                "--cell-mm", "10"])
     assert res.exit_code == 1
     assert "far.stl: riser R1 (centre 0, 0, 300 mm) does not touch the casting" in res.output
+
+
+def test_ductile_iron_says_which_mould_its_verdict_assumes(runner, tmp_path):
+    c, r = _files(tmp_path)
+    res = runner.invoke(main, ["thermal", "--alloy", "ductile_iron", "--mould", "chemically_bonded", "--stl", c,
+                               "--riser-stl", r, "--cell-mm", "10"])
+    assert res.exit_code == 0, res.output
+    # DOMAIN.md (Karsay's pressure control, from memory): say which mould the verdict assumes
+    assert "Note: ductile iron judged by pressure control, assuming a rigid (chemically bonded) mould" in res.output

@@ -21,7 +21,7 @@ from tracker.errors import BadInput, BadModel
 from tracker.solid import hotspots, voxel
 from tracker.solid.solve3d import MOULD, RISER, SECTION, solve3
 from tracker.solid.stl import Model
-from tracker.solid.verdict import ISOLATED_MIN_SHARE, feeding_verdict
+from tracker.solid.verdict import ISOLATED_MIN_SHARE, PRESSURE_CONTROL, feeding_verdict
 from tracker.thermal.solver import PhaseCurve
 
 STEPS_PER_CASTING = 60       # time steps within the casting's estimated freezing time
@@ -240,6 +240,11 @@ def judge(casting: Model, s: Setup, out, keep_maps: bool = True) -> SolidResult:
                                   unfed_hot_spots=unfed, isolated_share=iso_share or 0.0, min_niyama=min_ny,
                                   niyama_threshold=thr)
     notes = list(g.notes)
+    if s.alloy.key in PRESSURE_CONTROL:
+        notes.append("ductile iron judged by pressure control, assuming a " + (
+            "rigid (chemically bonded) mould: liquid sealed behind a frozen contact is fed by the graphite "
+            "expansion" if s.mould.key in RIGID_MOULDS else
+            "green-sand mould: its walls give way, so liquid sealed from every riser counts as a fault"))
     vox = cast_vol / 1000.0
     if abs(vox - casting.volume_cm3) > 0.1 * casting.volume_cm3:
         notes.append(f"the cells hold {vox:,.0f} cm³ of the model's {casting.volume_cm3:,.0f} cm³: the cell is "
