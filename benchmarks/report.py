@@ -17,6 +17,8 @@ TARGETS = {  # name -> (kind, limit); "ratio_max": ours/baseline <= limit, "spee
     "fit_model": ("seconds_max", 30.0),
     "suggestions": ("seconds_max", 5.0),
     "thermal_solve": ("seconds_max", 5.0),
+    "solid_plate": ("seconds_max", 60.0),
+    "solid_two_risers": ("seconds_max", 60.0),
     "dashboard_review": ("seconds_max", 3.0),
     "dashboard_design_map": ("seconds_max", 3.0),
     "dashboard_suggestions": ("seconds_max", 3.0),
@@ -106,6 +108,10 @@ def _details(x: dict) -> list[str]:
     if x["name"] == "thermal_solve" and x.get("cells") is not None:
         out.append(f"thermal_solve: grid {x['grid'][0]} x {x['grid'][1]} = {x['cells']:,} cells, "
                f"time step {x['time_step_s']:.2f} s, {x['steps']} steps; {x['memory_target']}")
+    if x["name"].startswith("solid_") and x.get("cells") is not None:
+        out.append(f"{x['name']}: {x['cells']:,} cells of {x['cell_mm']:.1f} mm, {x['steps']} steps, CPU "
+                   f"{x['cpu_s']:.1f} s; arrays {x['traced_peak_mb']:.0f} MB at most (bound stated "
+                   f"{x['memory_bound_mb']:.0f} MB)")
     if x["name"] == "thermal_suggestions" and x.get("suggestions") is not None:
         per = "-" if x["per_solve_s"] is None else _fmt_s(x["per_solve_s"])
         out.append(f"thermal_suggestions: {x['solves']} proposed risers of {x['suggestions']} "

@@ -29,7 +29,9 @@ a floor or a plain alternative:
   model (fitted beforehand, as the dashboard uses it);
 - ``thermal_solve``: one thermal solve at the default resolution (target 5 s,
   500 MB); ``thermal_suggestions``: the thermal check of every suggestion's
-  proposed riser;
+  proposed riser; ``solid_plate`` and ``solid_two_risers``: the 3-D solve of
+  a whole casting with its risers (benchmarks.solid, target 60 s each; the
+  command line adds them after the run, ``--no-solid`` leaves them out);
 - ``dashboard_*``: first render and a rerun of the weekly review, design
   map and suggestions pages with Streamlit's AppTest, where those pages
   exist (the suggestions page with the stored model).
@@ -90,6 +92,7 @@ from benchmarks.report import (
     machine,
     measure,
 )
+from benchmarks.solid import solid_measures
 
 BACKENDS = ("sqlite", "postgresql")
 FULL_LOTS = 1_000_000
@@ -304,6 +307,8 @@ def main(argv=None) -> int:
     parser.add_argument("--pg-url", default=os.environ.get("POURBACK_BENCH_PG") or os.environ.get("POURBACK_TEST_PG"),
                         help="PostgreSQL server for --backend postgresql (default $POURBACK_BENCH_PG, "
                              "else $POURBACK_TEST_PG); each database is a fresh schema in it")
+    parser.add_argument("--no-solid", action="store_true",
+                        help="leave out the 3-D whole-casting solves (benchmarks.solid)")
     args = parser.parse_args(argv)
     if args.backend == "postgresql" and not args.pg_url:
         parser.error("--backend postgresql: give --pg-url postgresql://user@host:port/dbname "
@@ -320,6 +325,9 @@ def main(argv=None) -> int:
         try:
             report = run(args.lots, keep=args.keep, seed=args.seed, sizing_risers=args.risers,
                          repeats=args.repeats, backend=args.backend, pg_url=args.pg_url)
+            if not args.no_solid:      # full-size solves, after the thermal check (not in the tests' run())
+                at = next(i for i, m in enumerate(report["measures"]) if m["name"] == "thermal_suggestions") + 1
+                report["measures"][at:at] = solid_measures(_in_child)
         finally:
             _STEPS = None
     print(json.dumps(report, indent=2) if args.json else format_report(report))

@@ -28,6 +28,7 @@ from tracker.log.store import DATABASE_ERRORS, Store, absolute_target, display_n
 from tracker.review import plants as plant_review
 from tracker.review import rates
 from tracker.review import weekly as review
+from tracker.views import casting_3d
 from tracker.views import common as views
 from tracker.views import design_form as design_form_views
 from tracker.views import design_map as map_views
@@ -82,6 +83,8 @@ def _registry() -> dict:
         "design_start": design_form_views.design_start,
         "sleeve_codes": design_form_views.sleeve_codes,
         "alloy_codes": design_form_views.alloy_codes,
+        "has_casting": casting_3d.has_casting,
+        "casting_view": casting_3d.casting_view,
     }
 
 

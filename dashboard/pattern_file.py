@@ -6,7 +6,7 @@ import datetime as dt
 
 import streamlit as st
 
-from dashboard import actions_view, charts, common, thermal_view
+from dashboard import actions_view, casting_view, charts, common, thermal_view
 from tracker import limits
 from tracker.views import pattern_file as views
 from tracker.views import review as review_views
@@ -76,6 +76,7 @@ def main() -> None:
 
         thermal_view.pattern_section(code)
         _track_record(code)
+        casting_view.section(code)
 
     st.subheader("Pours and rejects over time")
     weekly = common.load("pattern_weekly", code)

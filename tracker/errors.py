@@ -211,3 +211,13 @@ def cut(value, limit: int = 60) -> str:
     if len(text) <= limit:
         return text
     return f"{text[:limit - 1]}…' ({len(str(value)):,} characters)"
+
+
+class BadModel(PourbackError, ValueError):
+    """A CAD model (an STL file) that cannot be solved: not closed, inside out,
+    intersecting itself, or not readable as STL."""
+
+    def __init__(self, file: str, reason: str):
+        self.file = file
+        self.reason = reason
+        super().__init__(f"{file}: {reason}")

@@ -18,6 +18,7 @@ from scipy import stats as sps
 
 from tracker.log import totals as store_module
 from tracker.log.ingest import correct_inspection, import_dir, import_file, log_inspection
+from tracker.log.migrations import MIGRATIONS, _migration_9
 from tracker.log.store import Store
 from tracker.review import stats
 from tracker.review.weekly import weekly_review
@@ -300,9 +301,15 @@ def test_a_log_from_before_the_totals_gets_them_when_opened(tmp_path):
     with Store(path) as s:
         import_dir(s, folder, today=TODAY)
         # as an older program left it (an SQLite file): no totals tables, the schema version before
+        # them, and none of what later migrations added (the casting models and the positions)
         s.conn.execute("DROP TABLE day_totals")
         s.conn.execute("DROP TABLE zone_totals")
-        s.conn.execute(f"PRAGMA user_version = {store_module.SCHEMA_VERSION - 1}")
+        s.conn.execute("DROP TABLE castings")
+        for table, columns in (("risers", ("x_mm", "y_mm", "z_mm", "axis")),
+                               ("zones", ("x_mm", "y_mm", "z_mm", "modulus_cm"))):
+            for column in columns:
+                s.conn.execute(f"ALTER TABLE {table} DROP COLUMN {column}")
+        s.conn.execute(f"PRAGMA user_version = {MIGRATIONS.index(_migration_9)}")
         s.conn.commit()
     with Store(path) as s:
         assert s.schema_version() == store_module.SCHEMA_VERSION

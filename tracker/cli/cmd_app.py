@@ -238,11 +238,13 @@ def _demo_files(tmp: str) -> tuple[pathlib.Path, bool]:
 
 def _fill_demo(store) -> dict:
     from tracker.advice.fitting import fit_model
+    from tracker.demo.castings import store_demo_castings
     from tracker.log.ingest import import_dir
 
     with tempfile.TemporaryDirectory(prefix="pourback-demo-") as tmp:
         folder, generated = _demo_files(tmp)
         import_dir(store, folder, by="pourback demo")
+        store_demo_castings(store, folder)
     fit_model(store)  # so the first visit to Suggestions need not fit it
     store.set_meta("demo", "1")
     return {"source": "generated" if generated else str(sample_dir()), **store.counts()}

@@ -17,9 +17,9 @@ from tracker.cli.options import (
     measure_option,
     open_store,
     take_measures,
-    units_option,
 )
 from tracker.cli.output import caution_text, emit
+from tracker.cli.solid_thermal import run_solid, run_whole, solid_options, split_units, thermal_units_option
 from tracker.design.alloys import ALLOYS
 from tracker.errors import BadInput
 from tracker.limits import RANGES
@@ -53,12 +53,13 @@ _MEASURES = (*_LENGTHS, "pour_temp_c")
 @click.option("--joined-faces", default=None, metavar="FACES",
               help="Faces of the section joined to the rest of the casting, insulated in the model: any of top, "
                    "bottom, edges, separated by ';' (with --pattern/--zone: the zone's joined_faces).")
-@units_option
+@solid_options
+@thermal_units_option
 @db_option
 @json_option
 @handle_errors
 def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould, cells_across, joined_faces,
-            units_override, db_path, as_json, **measures):
+            stl_path, riser_stl, whole, cell_mm, units_override, db_path, as_json, **measures):
     """Solidification solve of one riser and the section it feeds.
 
     A 2-D transient conduction solve with latent heat (enthalpy method):
@@ -73,8 +74,19 @@ def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould
         pourback thermal --pattern P-1004 --zone body
 
         pourback thermal --alloy steel --length-mm 300 --width-mm 300 --thickness-mm 50 --diameter-mm 155 --height-mm 155 --placement top
+
+        pourback thermal --alloy steel --stl sample_data/castings/plate.stl --riser-stl sample_data/castings/plate-riser.stl --cell-mm 20
     """  # noqa: E501 (an example stays on one line, to paste and run)
     from tracker.thermal import run
+
+    units_override, stl_unit = split_units(units_override, stl_path is not None)
+    if whole:
+        run_whole(db_path, pattern, zone, cell_mm, as_json)
+        return
+    if stl_path is not None or riser_stl is not None or cell_mm is not None:
+        _solid_only(stl_path, pattern, zone, riser, placement, measures)
+        run_solid(alloy, stl_path, riser_stl, stl_unit, cell_mm, mould, _pour_c(measures), as_json)
+        return
 
     if units_override is None and log_exists(db_path):
         with open_store(db_path) as store:
@@ -98,6 +110,25 @@ def thermal(pattern, zone, riser, alloy, placement, sleeve, sleeve_factor, mould
         emit(thermal_record(result, system), True)
     else:
         click.echo(format_thermal(result, system))
+
+
+def _solid_only(stl_path, pattern, zone, riser, placement, measures) -> None:
+    """The 3-D path takes its geometry from the STL: refuse the 2-D options beside it."""
+    if stl_path is None:
+        raise BadInput("stl", None, "--riser-stl and --cell-mm go with --stl (the casting's STL)")
+    given = [("pattern", pattern), ("zone", zone), ("riser", riser), ("placement", placement),
+             *((k.replace("_", "-"), v) for k, v in measures.items() if not k.startswith("pour_temp"))]
+    for name, value in given:
+        if value is not None:
+            raise BadInput(name, value, "the geometry comes from the STL with --stl; leave this option out")
+
+
+def _pour_c(measures) -> float | None:
+    """The pouring temperature given, in °C (from --pour-temp-c or its US twin)."""
+    us = units.column_name("pour_temp_c", units.US)
+    if measures.get(us) is not None:
+        return units.to_metric("pour_temp_c", measures[us], units.US)
+    return measures.get("pour_temp_c")
 
 
 @dataclass(frozen=True)

@@ -9,6 +9,7 @@ from tracker import __version__
 from tracker.cli.cmd_action import action
 from tracker.cli.cmd_advise import fit_model, suggest, what_if
 from tracker.cli.cmd_app import dashboard, demo_command
+from tracker.cli.cmd_casting import casting
 from tracker.cli.cmd_copy import copy_log_command
 from tracker.cli.cmd_design import check, patterns, size
 from tracker.cli.cmd_log import backup, correct, history, import_, init, log, restore, settings
@@ -31,7 +32,7 @@ def main() -> None:
 
 COMMANDS: tuple[click.Command, ...] = (
     init, settings, import_, log, correct, history, backup, restore, copy_log_command,  # the log
-    size, check, patterns, thermal,                                                      # riser design
+    size, check, patterns, thermal, casting,                                             # riser design
     review, action,                                                                      # the weekly review
     suggest, what_if, fit_model, track_record,                                           # suggestions, the model
     dashboard, demo_command,                                                             # the dashboard

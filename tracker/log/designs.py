@@ -49,7 +49,8 @@ class Designs(StoreCore):
     def zones_frame(self, pattern: str) -> pd.DataFrame:
         """The zones of one pattern, as stored, by zone code."""
         return self._frame("SELECT zone, volume_cm3, cooling_area_cm2, thickness_mm, width_mm, length_mm, "
-                           "required_xray_level, joined_faces FROM zones WHERE pattern = ? ORDER BY zone", (pattern,))
+                           "required_xray_level, joined_faces, x_mm, y_mm, z_mm FROM zones WHERE pattern = ? "
+                           "ORDER BY zone", (pattern,))
 
     def sleeve(self, code: str) -> dict:
         """One sleeve of the catalogue (raises NotFound naming the catalogue)."""
@@ -70,7 +71,7 @@ class Designs(StoreCore):
             where.append("r.revision = ?")
             params.append(revision)
         q = ("SELECT r.pattern, r.revision, v.effective_from, r.riser, r.zone, r.placement, r.top, "
-             "r.diameter_mm, r.height_mm, r.sleeve, r.neck_diameter_mm, "
+             "r.diameter_mm, r.height_mm, r.sleeve, r.neck_diameter_mm, r.x_mm, r.y_mm, r.z_mm, r.axis, "
              "s.kind AS sleeve_kind, s.modulus_factor AS sleeve_factor, "
              "s.feeding_efficiency AS sleeve_efficiency, s.unit_cost AS sleeve_unit_cost, "
              "z.volume_cm3, z.cooling_area_cm2, z.thickness_mm, z.length_mm, z.required_xray_level, "

@@ -255,7 +255,21 @@ def _migration_11(db: Schema) -> None:
     db.execute("CREATE INDEX actions_due ON actions(due, id)")
 
 
+def _migration_12(db: Schema) -> None:
+    # A pattern's casting model (STL, as the file came, with its SHA-256 and unit) for the
+    # 3-D solve; a riser's position on it: the contact centre (mm) and its axis (z, -x, ...);
+    # a zone's position (its hot spot, mm) and its modulus from the 3-D solve (cm).
+    db.execute("CREATE TABLE castings (pattern TEXT PRIMARY KEY REFERENCES patterns(pattern), "
+               "file TEXT NOT NULL, units TEXT NOT NULL, digest TEXT NOT NULL, volume_cm3 REAL, "
+               "stored_at TEXT NOT NULL, stl BLOB NOT NULL)")
+    for column in ("x_mm", "y_mm", "z_mm"):
+        db.add_column("risers", column, float)
+    db.add_column("risers", "axis", str)
+    for column in ("x_mm", "y_mm", "z_mm", "modulus_cm"):
+        db.add_column("zones", column, float)
+
+
 # index i brings the schema from version i to i + 1
 MIGRATIONS = [_migration_1, _migration_2, _migration_3, _migration_4, _migration_5, _migration_6,
-              _migration_7, _migration_8, _migration_9, _migration_10, _migration_11]
+              _migration_7, _migration_8, _migration_9, _migration_10, _migration_11, _migration_12]
 SCHEMA_VERSION = len(MIGRATIONS)

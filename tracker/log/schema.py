@@ -13,12 +13,12 @@ TABLE_COLUMNS = {
     "patterns": ["pattern", "description", "alloy", "casting_weight_kg", "castings_per_mold",
                  "metal_cost_per_kg", "processing_cost_per_casting", "mould", "plant"],
     "zones": ["pattern", "zone", "volume_cm3", "cooling_area_cm2", "thickness_mm", "length_mm",
-              "required_xray_level", "width_mm", "joined_faces"],
+              "required_xray_level", "width_mm", "joined_faces", "x_mm", "y_mm", "z_mm", "modulus_cm"],
     "sleeves": ["sleeve", "kind", "inner_diameter_mm", "height_mm", "modulus_factor",
                 "feeding_efficiency", "unit_cost"],
     "revisions": ["pattern", "revision", "effective_from"],
     "risers": ["pattern", "revision", "riser", "zone", "placement", "top", "diameter_mm",
-               "height_mm", "sleeve", "neck_diameter_mm"],
+               "height_mm", "sleeve", "neck_diameter_mm", "x_mm", "y_mm", "z_mm", "axis"],
     "lots": ["lot", "pattern", "poured_on", "heat", "molds", "pour_temp_c"],
     "inspections": ["id", "lot", "inspected_on", "method", "quantity", "result", "defect", "zone",
                     "xray_category", "severity", "serial", "inspector", "notes", "record_key",
@@ -41,7 +41,7 @@ KEYS = {
 # Tables in an order that inserts parents before children (copy-log); a table not
 # named here is copied after these, in name order.
 COPY_ORDER = ["alloys", "meta", "patterns", "zones", "sleeves", "revisions", "risers", "lots",
-              "inspections", "models", "imports", "users", "sessions", "audit", "actions"]
+              "inspections", "models", "imports", "users", "sessions", "audit", "actions", "castings"]
 
 
 # The *current* inspection records, the ones every figure counts: not voided, and not

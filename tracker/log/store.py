@@ -28,6 +28,7 @@ each in its own module:
 - ``users``: accounts, sessions, the audit;
 - ``actions``: the weekly review's actions;
 - ``meta``: settings (``meta``) and fitted models;
+- ``castings``: a pattern's casting model (STL) for the 3-D solve;
 - ``backup``: backup, restore, integrity check.
 
 The schema's names (columns, keys, the current-record condition) are in
@@ -51,6 +52,7 @@ from tracker.errors import (  # noqa: F401 (re-exported: callers import them fro
 )
 from tracker.log.actions import ActionRows
 from tracker.log.backup import Maintenance, restore  # noqa: F401 (restore re-exported for callers)
+from tracker.log.castings import CastingRows
 from tracker.log.core import (  # noqa: F401 (re-exported: callers import them from here)
     DATABASE_ERRORS,
     DEFAULT_DB,
@@ -92,7 +94,7 @@ from tracker.log.users import UserRows
 
 
 class Store(Tables, Designs, Records, ReviewReads, RunningTotals, ImportBookkeeping, MetaRows, ModelRows,
-            UserRows, ActionRows, Maintenance, StoreCore):
+            UserRows, ActionRows, CastingRows, Maintenance, StoreCore):
     """One open connection to the log.
 
     ``Store(target)`` opens (creating and migrating when needed) the log in an

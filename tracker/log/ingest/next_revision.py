@@ -17,7 +17,8 @@ from tracker.log.ingest.form_rows import write_form_rows
 from tracker.log.store import Store, retrying
 
 # A riser of a revision as the risers import takes it (metric columns).
-RISER_FIELDS = ("riser", "zone", "placement", "top", "diameter_mm", "height_mm", "sleeve", "neck_diameter_mm")
+RISER_FIELDS = ("riser", "zone", "placement", "top", "diameter_mm", "height_mm", "sleeve", "neck_diameter_mm",
+                "x_mm", "y_mm", "z_mm", "axis")
 
 
 def carry_over(current: Iterable[Mapping], changes: Mapping[str, Mapping], removed: Iterable[str] = ()) -> list[dict]:

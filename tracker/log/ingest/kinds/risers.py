@@ -45,7 +45,14 @@ def _removal_problem(pattern: str, revision: str, prev: str, before: set, listed
         return (f"revision {revision} of {pattern} both lists and removes {_codes(both)}; remove the row or "
                 "the name in removed_risers")
     return ""
-RISER_SHAPE = ["riser", "zone", "placement", "top", "diameter_mm", "height_mm", "sleeve", "neck_diameter_mm"]
+
+
+RISER_SHAPE = ["riser", "zone", "placement", "top", "diameter_mm", "height_mm", "sleeve", "neck_diameter_mm",
+               "x_mm", "y_mm", "z_mm", "axis"]
+# Where a riser stands on the casting's STL model (optional): the contact centre, mm, in the
+# model's frame, and the axis from the contact into the riser (z: up, for a top riser).
+AXES = ("x", "-x", "y", "-y", "z", "-z")
+POSITION_MM = 10_000.0
 
 
 class RisersValidator(Validator):
@@ -72,16 +79,31 @@ class RisersValidator(Validator):
         sleeve = c.text("sleeve", required=False, max_len=64)
         neck = c.measure("neck_diameter_mm", required=False)
         removed = c.text("removed_risers", required=False, max_len=1000)
+        pos = [c.number(k, required=False, low=-POSITION_MM, low_inclusive=True, high=POSITION_MM, unit="mm")
+               for k in ("x_mm", "y_mm", "z_mm")]
+        axis = self._check_position(c, pos)
         self._check_shape(c, dia, h, neck, placement)
         self.known_patterns(c, pattern)
         zone = self._check_zone(c, pattern, zone)
         self._check_sleeve(c, sleeve, dia)
         # finite(): a refused number arrives as NaN (never infinite), stored as NULL
-        rows = [(p, r, rs, z, pl, t, d, hh, to_null(s), finite(n))
-                for p, r, rs, z, pl, t, d, hh, s, n in
-                zip(pattern, revision, riser, zone, placement, top, dia, h, sleeve, neck, strict=False)]
+        rows = [(p, r, rs, z, pl, t, d, hh, to_null(s), finite(n), finite(x), finite(y), finite(zz), to_null(a))
+                for p, r, rs, z, pl, t, d, hh, s, n, x, y, zz, a in
+                zip(pattern, revision, riser, zone, placement, top, dia, h, sleeve, neck, *pos, axis, strict=False)]
         self._collect_revisions(c, pattern, revision, eff, rows, removed)
         return rows
+
+    @staticmethod
+    def _check_position(c: Checks, pos: list[pd.Series]) -> pd.Series:
+        """The axis, lower-cased (blank: none); a position is all three of x_mm, y_mm, z_mm or none."""
+        axis = c.text("axis", required=False, max_len=4).str.strip().str.lower().str.lstrip("+")
+        c.fail((axis != "").to_numpy() & ~axis.isin(AXES).to_numpy(), "axis",
+               "axis must be one of " + ", ".join(AXES) + " (from the contact into the riser; z: up)")
+        given = np.array([p.notna().to_numpy() for p in pos])
+        c.fail(given.any(axis=0) & ~given.all(axis=0), "x_mm",
+               "give all three of x_mm, y_mm and z_mm (the contact centre), or none")
+        c.fail((axis != "").to_numpy() & ~given.all(axis=0), "axis", "an axis needs the position x_mm, y_mm, z_mm")
+        return axis
 
     @staticmethod
     def _check_shape(c: Checks, dia: pd.Series, h: pd.Series, neck: pd.Series, placement: pd.Series) -> None:

@@ -14,6 +14,8 @@ from tracker.log.ingest.result import MAX_PROBLEMS
 from tracker.log.ingest.values import int_or_none
 from tracker.numbers import finite
 
+POSITION_MM = 10_000.0      # a position on a casting's model lies within 10 m of its origin
+
 
 class ZonesValidator(Validator):
     """Checks the rows of a zones file."""
@@ -33,12 +35,18 @@ class ZonesValidator(Validator):
         width = c.measure("width_mm", required=False)
         level = c.number("required_xray_level", required=False, low=1, low_inclusive=True, high=5,
                          whole=True)
+        # where the zone's hot spot lies on the casting's model and its modulus from the 3-D solve
+        # (``pourback casting --write-zones``), all optional
+        pos = [c.number(k, required=False, low=-POSITION_MM, low_inclusive=True, high=POSITION_MM, unit="mm")
+               for k in ("x_mm", "y_mm", "z_mm")]
+        thermal_m = c.number("modulus_cm", required=False, low=0.0, high=100.0, unit="cm")
         self.known_patterns(c, pattern)
         self._warn_joined(c, zone, vol, area, m)
         # finite(): a refused number arrives as NaN (never infinite), stored as NULL
-        return [(p, z, v, a, finite(t), finite(ln), int_or_none(lv), finite(w), j if isinstance(j, str) else None)
-                for p, z, v, a, t, ln, lv, w, j in zip(pattern, zone, vol, area, thick, length, level, width, joined,
-                                                       strict=False)]
+        return [(p, z, v, a, finite(t), finite(ln), int_or_none(lv), finite(w), j if isinstance(j, str) else None,
+                 finite(x), finite(y), finite(zz), finite(tm))
+                for p, z, v, a, t, ln, lv, w, j, x, y, zz, tm in zip(pattern, zone, vol, area, thick, length, level,
+                                                                     width, joined, *pos, thermal_m, strict=False)]
 
     @staticmethod
     def _joined(c: Checks) -> pd.Series:
