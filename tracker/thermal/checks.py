@@ -148,15 +148,20 @@ MAX_SOLVES_PER_ZONE = 6
 
 
 def _zone_notes(priced: pd.DataFrame, choose, failed: dict, original: pd.Series,
-                system: str) -> dict:
+                system: str, unsure: dict | None = None) -> dict:
     """A note per zone on its thermal check; a zone where every candidate tried failed
-    gets its rule-based ``full_ok`` back from ``original`` (in ``priced``)."""
+    gets its rule-based ``full_ok`` back from ``original`` (in ``priced``); ``unsure`` the
+    reasons of a zone whose candidate was inconclusive."""
+    unsure = unsure or {}
     notes = {}
     chosen = choose(priced)
     for z, c in chosen.iterrows():
         ok = priced.at[c["_cand"], "thermal_ok"]
         fails = failed.get(z, [])
-        if ok is True and not fails:
+        if priced.at[c["_cand"], "thermal_verdict"] == "inconclusive":
+            notes[z] = (" Thermal check: inconclusive (" + "; ".join(unsure.get(z, [])) + "); neither passed "
+                        "nor refuted: confirm it by a full solidification simulation or a trial pour.")
+        elif ok is True and not fails:
             notes[z] = (" Thermal check: passes (the riser freezes last, nothing cut off, Niyama at or above "
                         "the threshold where one applies).")
         elif ok is True:
@@ -181,7 +186,9 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
     The candidate ``choose`` takes for a zone is solved; where it fails, it no
     longer counts as passing every rule and the next one ``choose`` takes is
     solved, up to ``max_solves`` per zone. Where none tried passes, the zone
-    keeps its rule-based choice. ``priced`` is indexed by candidate (``_cand``)
+    keeps its rule-based choice. An inconclusive candidate (a margin inside the
+    solver's error) ends the search: neither passed nor refuted, it stands with
+    a note to confirm it. ``priced`` is indexed by candidate (``_cand``)
     with the zone in ``_z``; ``cands`` holds each candidate's riser row.
     Returns (priced with ``thermal_ok`` and ``last_to_freeze``, a note per zone).
     """
@@ -193,6 +200,7 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
     pours: dict = {}
     tries: dict = {}
     failed: dict = {}
+    unsure: dict = {}
     done: set = set()
     original = priced["full_ok"].copy()
     while True:
@@ -214,14 +222,16 @@ def narrow(store, priced: pd.DataFrame, cands: pd.DataFrame, choose,
             priced.at[cand, "thermal_verdict"] = r.verdict
             priced.at[cand, "last_to_freeze"] = r.last_to_freeze
             tries[z] = tries.get(z, 0) + 1
-            if r.thermal_ok:
+            if r.thermal_ok or r.verdict == "inconclusive":
                 done.add(z)
+                if not r.thermal_ok:
+                    unsure[z] = reasons_text(r, system)
                 continue
             failed.setdefault(z, []).append((row.get("action"), row["diameter_mm"], reasons_text(r, system)))
             priced.at[cand, "full_ok"] = False
             if tries[z] >= max_solves:
                 done.add(z)
-    notes = _zone_notes(priced, choose, failed, original, system)
+    notes = _zone_notes(priced, choose, failed, original, system, unsure)
     return priced, notes
 
 
