@@ -44,6 +44,7 @@ COMMANDS = {
     "thermal": ["--pattern", "T-100", "--zone", "flange"],
     "user": ["list"],
     "action": ["list"],
+    "casting": ["T-100", "--stl", "PLATE_STL"],
     "size": ["--pattern", "T-100", "--zone", "flange"],
 }
 
@@ -65,7 +66,8 @@ def launched(monkeypatch):
 def _run(runner, name, db, tmp_path):
     lots = tmp_path / "new-lots.csv"
     lots.write_text("lot,pattern,poured_on,heat,molds\nL4,T-100,2026-04-01,H4,5\n", encoding="utf-8")
-    subst = {"BACKUP": str(tmp_path / "backup.db"), "NEWLOTS": str(lots)}
+    subst = {"BACKUP": str(tmp_path / "backup.db"), "NEWLOTS": str(lots),
+             "PLATE_STL": str(REPO / "sample_data" / "castings" / "plate.stl")}
     args = [subst.get(a, a) for a in COMMANDS[name]]
     return runner.invoke(main, [name, *args, "--db", str(db)])
 
@@ -185,7 +187,7 @@ THERMAL = ["thermal", "--alloy", "steel", "--placement", "side"]
     # (it ran past 60 s)
     ([*THERMAL, "--length-mm", "20000", "--width-mm", "20000", "--thickness-mm", "5",
       "--diameter-mm", "3000", "--height-mm", "5000"],
-     "Error: thickness-mm: got 5.0; a model 21,500 mm by 5,000 mm with 3 cells across this section needs about "
+     "Error: --thickness-mm: got 5.0; a model 21,500 mm by 5,000 mm with 3 cells across this section needs about "
      "40,087,842 cells (about 24,053 MB); the limit is 50,000 cells: the section is too thin for the length and "
      "riser given; check the dimensions, or model a shorter part of the section"),
 ])

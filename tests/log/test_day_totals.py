@@ -301,12 +301,12 @@ def test_a_log_from_before_the_totals_gets_them_when_opened(tmp_path):
     with Store(path) as s:
         import_dir(s, folder, today=TODAY)
         # as an older program left it (an SQLite file): no totals tables, the schema version before
-        # them, and none of what later migrations added (the casting models and the positions)
-        s.conn.execute("DROP TABLE day_totals")
-        s.conn.execute("DROP TABLE zone_totals")
-        s.conn.execute("DROP TABLE castings")
+        # them, and none of what later migrations added (joined faces, the actions, the casting
+        # models and the positions)
+        for table in ("day_totals", "zone_totals", "actions", "castings"):
+            s.conn.execute(f"DROP TABLE {table}")
         for table, columns in (("risers", ("x_mm", "y_mm", "z_mm", "axis")),
-                               ("zones", ("x_mm", "y_mm", "z_mm", "modulus_cm"))):
+                               ("zones", ("joined_faces", "x_mm", "y_mm", "z_mm", "modulus_cm"))):
             for column in columns:
                 s.conn.execute(f"ALTER TABLE {table} DROP COLUMN {column}")
         s.conn.execute(f"PRAGMA user_version = {MIGRATIONS.index(_migration_9)}")

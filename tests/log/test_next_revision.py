@@ -141,3 +141,21 @@ def test_a_refused_form_names_row_field_and_reason_and_writes_nothing(good_store
     assert (problem.file, problem.row, problem.column) == ("zones form", 2, "volume_cm3")
     assert problem.reason.startswith("got '-3'; ")
     assert _state(good_store) == before
+
+
+def test_a_riser_taken_out_in_the_form_is_named_as_removed_and_the_rest_carried_over(good_store):
+    # The risers import refuses a revision that leaves a riser out unless removed_risers names it
+    # (docs/logging-and-importing.md); the design form's rows say so for a riser taken out.
+    from tracker.log.ingest.form_rows import save_design
+    from tracker.views.design_form import design_start, revision_rows
+
+    start = design_start(good_store, "T-100")
+    kept, gone = start["risers"][:-1], start["risers"][-1]["riser"]
+    rows = revision_rows(kept, start)
+    assert rows[0]["removed_risers"] == gone
+    save_design(good_store, risers=[{"pattern": "T-100", "revision": "B", "effective_from": "2026-04-01", **r}
+                                    for r in rows], by="m")
+    after = {r["riser"]: r for r in stored_risers(good_store, "T-100", "B")}
+    before = {r["riser"]: r for r in stored_risers(good_store, "T-100", "A")}
+    assert set(after) == set(before) - {gone}
+    assert all(after[k] == before[k] for k in after)

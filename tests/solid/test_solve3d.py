@@ -68,8 +68,9 @@ def test_disc_with_a_central_top_riser_matches_the_2d_solver():
     res = run.run(casting, riser, "steel", cell_mm=4.0)     # 5 cells across the disc
     side = r * math.sqrt(math.pi)        # the 2-D check's disc has the plan area length × width
     ref = run_2d(ThermalCase("steel", "top", t, side, side, d, h), keep_maps=False)
-    # the project's 2-D axisymmetric solve of the same casting (the issue: within 3 %)
-    assert res.casting_freeze_s == pytest.approx(ref.section_freeze_s, rel=0.03)
+    # the project's 2-D axisymmetric solve of the same casting (the issue: within 3 %); the whole
+    # casting's time is the later of the 2-D section's own time and its junction under the riser
+    assert res.casting_freeze_s == pytest.approx(max(ref.section_freeze_s, ref.junction_freeze_s), rel=0.03)
     assert res.riser_freeze_s == pytest.approx(ref.riser_freeze_s, rel=0.03)
     assert res.risers[0]["feeds"] == [1] and res.thermal_ok, res.reasons
 

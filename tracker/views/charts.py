@@ -154,7 +154,9 @@ def to_svg(chart, width: int = 680) -> str:
     # HTML gives inline SVG its namespace: the namespace names (URLs that are never fetched) go
     for name in XML_NAMESPACES:
         svg = svg.replace(name, "", 1)
-    return svg
+    # vl-convert escapes < and & but leaves apostrophes of user text (pattern codes, defects)
+    # bare; a character reference reads the same in SVG text and in quoted attributes
+    return svg.replace("'", "&#x27;")
 
 
 XML_NAMESPACES = (' xmlns="http://www.w3.org/2000/svg"', ' xmlns:xlink="http://www.w3.org/1999/xlink"')

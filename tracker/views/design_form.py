@@ -45,7 +45,8 @@ def revision_rows(typed: list[dict], start: dict, system: str = units.METRIC) ->
     """The risers of the new revision, metric: a riser left as the form showed it is
     the stored one, exactly (carried over); a riser typed or changed has its measures
     converted from ``system`` (a cell that is not a number is passed on as typed, for
-    the import's check to name)."""
+    the import's check to name). A stored riser left out of ``typed`` is named in the
+    first row's ``removed_risers``."""
     shown = {r["riser"]: r for r in start.get("risers", [])}
     stored = {r["riser"]: r for r in start.get("stored", [])}
     out = []
@@ -62,6 +63,9 @@ def revision_rows(typed: list[dict], start: dict, system: str = units.METRIC) ->
                     v = units.to_metric(k, float(v), system)
             metric[k] = v
         out.append(metric)
+    gone = sorted(set(stored) - {row.get("riser") for row in typed})
+    if gone and out:  # the risers taken out, said so as the risers import asks
+        out[0]["removed_risers"] = ";".join(gone)
     return out
 
 

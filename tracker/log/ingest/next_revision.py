@@ -33,7 +33,7 @@ def carry_over(current: Iterable[Mapping], changes: Mapping[str, Mapping], remov
         seen.add(code)
         if code in gone:
             continue
-        out.append({k: row.get(k) for k in RISER_FIELDS} | dict(changes.get(code, {})))
+        out.append({k: row[k] for k in RISER_FIELDS if k in row} | dict(changes.get(code, {})))
     out += [{"riser": code, **dict(new)} for code, new in changes.items() if code not in seen and code not in gone]
     return out
 

@@ -65,6 +65,7 @@ class RisersValidator(Validator):
         self._revisions_in_file: dict[tuple, dict] = {}
         self.pending_risers: list[tuple] = []  # riser rows, written after their revisions
         self._new_revs: list[tuple] = []
+        self._named: dict[tuple, set] = {}  # the risers each revision's rows name, refused rows included
 
     def validate(self, c: Checks) -> list[tuple]:
         pattern = c.text("pattern", max_len=64)
@@ -147,6 +148,7 @@ class RisersValidator(Validator):
         """Gather the good rows by revision: one effective date each, and the
         risers it removes (``removed_risers``, on any of its rows)."""
         for i, (p, r, e, gone) in enumerate(zip(pattern, revision, eff, removed, strict=False)):
+            self._named.setdefault((p, r), set()).add(rows[i][2])  # a refused row still names its riser
             if c.bad[i]:
                 continue
             rev = self._revisions_in_file.setdefault((p, r), {"effective_from": e, "rows": [], "removed": set(),
@@ -208,7 +210,8 @@ class RisersValidator(Validator):
                     continue
                 before = ({row[2] for row in prev_rev["rows"]} if prev_rev is not None
                           else set(self.store.risers_frame(pattern=p, revision=prev)["riser"]))
-                problem = _removal_problem(p, r, prev, before, {row[2] for row in rev["rows"]}, rev["removed"])
+                listed = {row[2] for row in rev["rows"]} | self._named.get((p, r), set())
+                problem = _removal_problem(p, r, prev, before, listed, rev["removed"])
                 if problem:
                     problems.append(BadRow(self.file, rev["first_row"], "revision", problem))
             first = next((x for x in revs if x[2] is not None), None)
