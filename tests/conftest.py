@@ -11,7 +11,7 @@ import subprocess
 import pytest
 from click.testing import CliRunner
 
-from tests.support import BACKENDS, GOOD, SAMPLE, LogFactory
+from tests.support import BACKENDS, GOOD, SAMPLE, LogFactory, built_demo_file
 from tests.support.hostile import TODAY as HOSTILE_TODAY
 
 
@@ -34,12 +34,35 @@ def logs(backend, tmp_path):
     factory.close()
 
 
+@pytest.hookimpl(trylast=True)
+def pytest_collection_modifyitems(items):
+    """Files holding a browser or a slow test first (each file's tests in their order): under
+    pytest-xdist (--dist loadfile, --no-loadscope-reorder) the long files start at once and
+    the short ones fill the processes up at the end."""
+    heavy = {item.path for item in items if item.get_closest_marker("browser") or item.get_closest_marker("slow")}
+    items.sort(key=lambda item: item.path not in heavy)
+
+
+@pytest.fixture(scope="session")
+def _kept():
+    """What the per-backend session fixtures built, by (what, backend), until the session
+    ends. pytest tears a parametrised session fixture down whenever a test asks for its
+    other backend (the tests of a file take turns), so they keep their logs here and
+    build each one once."""
+    kept: dict = {}
+    yield kept
+    for value in kept.values():
+        if isinstance(value, LogFactory):
+            value.close()
+
+
 @pytest.fixture(scope="session", params=BACKENDS)
-def session_logs(request, tmp_path_factory):
+def session_logs(request, tmp_path_factory, _kept):
     """Like ``logs``, but kept for the whole session (built once per backend)."""
-    factory = LogFactory(request.param, tmp_path_factory.mktemp(f"logs-{request.param}"))
-    yield factory
-    factory.close()
+    key = ("logs", request.param)
+    if key not in _kept:
+        _kept[key] = LogFactory(request.param, tmp_path_factory.mktemp(f"logs-{request.param}"))
+    return _kept[key]
 
 
 @pytest.fixture
@@ -71,16 +94,19 @@ def good_store(mem_store):
 
 
 @pytest.fixture(scope="session")
-def demo_db(session_logs):
+def demo_db(session_logs, _kept):
     """The demo log built once per session and backend (copy it before writing:
     ``session_logs.copy(demo_db)``)."""
     from tracker.log.ingest import import_dir
     from tracker.log.store import Store
 
-    path = session_logs.new("demo")
-    with Store(path) as s:
-        import_dir(s, SAMPLE)
-    return path
+    key = ("demo", session_logs.backend)
+    if key not in _kept:
+        path = session_logs.new("demo")
+        with Store(path) as s:
+            import_dir(s, SAMPLE)
+        _kept[key] = path
+    return _kept[key]
 
 
 @pytest.fixture
@@ -96,23 +122,28 @@ def demo_store(demo_db):
 # --- dashboard fixtures ---------------------------------------------------------------
 
 @pytest.fixture(scope="session")
-def app_demo_db(session_logs):
+def app_demo_db(session_logs, tmp_path_factory, _kept):
     """The demo log as `pourback demo` builds it (model fitted, marked as a demo), once
     per session and backend. Read only: copy it with ``app_db`` before a test writes."""
     from tracker.cli.cmd_app import build_demo
 
-    target = session_logs.new("app_demo")
-    build_demo(target if session_logs.backend == "postgresql" else pathlib.Path(target))
-    return target
+    key = ("app_demo", session_logs.backend)
+    if key not in _kept:
+        target = session_logs.new("app_demo")
+        if session_logs.backend == "postgresql":
+            build_demo(target)
+        else:  # the file `pourback demo` builds: a private copy of the one built for the run
+            shutil.copyfile(built_demo_file(tmp_path_factory), target)
+        _kept[key] = target
+    return _kept[key]
 
 
 @pytest.fixture(scope="session")
 def app_demo_file(tmp_path_factory):
-    """The demo log of `pourback demo` in an SQLite file (for the real-browser test)."""
-    from tracker.cli.cmd_app import build_demo
-
+    """The demo log of `pourback demo` in an SQLite file (for the real-browser test),
+    this worker's own copy."""
     path = tmp_path_factory.mktemp("app-demo") / "pourback-demo.db"
-    build_demo(path)
+    shutil.copyfile(built_demo_file(tmp_path_factory), path)
     return path
 
 

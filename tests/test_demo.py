@@ -18,6 +18,8 @@ from tracker.design.assess import assess_frame
 from tracker.log.ingest import import_files
 from tracker.log.store import Store
 
+pytestmark = pytest.mark.slow  # handed out first under pytest-xdist (DEVELOPERS.md)
+
 DEFECTS = {"shrinkage", "gas", "sand", "slag", "misrun", "cold_shut", "hot_tear", "crack",
            "dimensional", "other"}
 METHODS = {"visual", "xray", "ut", "mt", "pt", "dimensional"}

@@ -14,6 +14,8 @@ from tracker.demo import story
 from tracker.design import geometry
 from tracker.design.alloys import get_alloy
 
+pytestmark = pytest.mark.slow  # handed out first under pytest-xdist (DEVELOPERS.md)
+
 KEYS = ["pattern", "zone", "riser", "action", "current_diameter_mm", "suggested_diameter_mm", "suggested_sleeve",
         "reject_rate", "predicted_rate_after", "added_metal_kg_per_mold", "yield_before", "yield_after", "reason"]
 

@@ -9,7 +9,7 @@ POURBACK_REQUIRE_BROWSER=1 (CI sets it), when it fails instead.
 
 import pytest
 
-from tests.support.browser import choose, full_screenshot, lot_with_room, outside_requests, settle
+from tests.support.browser import WAIT_MS, choose, full_screenshot, lot_with_room, outside_requests, settle
 from tracker.cautions import SAFETY_CAUTION
 
 pytestmark = pytest.mark.browser
@@ -27,7 +27,7 @@ PAGES = [
 @pytest.fixture(scope="module")
 def page(browser, server):
     pg = browser.new_page(viewport={"width": 1400, "height": 900})
-    pg.set_default_timeout(60_000)
+    pg.set_default_timeout(WAIT_MS)
     pg.outside = outside_requests(pg, server["url"])  # every request to another host, page after page
     yield pg
     pg.close()

@@ -21,6 +21,7 @@ import urllib.request
 import pytest
 
 from tests.support.browser import (
+    WAIT_MS,
     choose,
     free_port,
     full_screenshot,
@@ -95,7 +96,7 @@ def page(browser, team_server):
     """A fresh browser tab (a new visitor); its pages' HTML is kept for the secrets check."""
     context = browser.new_context(viewport={"width": 1400, "height": 900})
     pg = context.new_page()
-    pg.set_default_timeout(60_000)
+    pg.set_default_timeout(WAIT_MS)
     yield pg
     try:
         team_server["pages"].append(pg.content())
@@ -295,7 +296,7 @@ def test_require_login_on_loopback_and_an_idle_session_ends(browser, app_demo_fi
     with running_dashboard(db, tmp_path, "127.0.0.1", extra=("--require-login", "--idle-hours", "0.002")) as base:
         context = browser.new_context(viewport={"width": 1400, "height": 900})
         pg = context.new_page()
-        pg.set_default_timeout(60_000)
+        pg.set_default_timeout(WAIT_MS)
         try:
             pg.goto(base)
             sign_in(pg, "bench", PASSWORD)

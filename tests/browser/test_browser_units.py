@@ -9,11 +9,13 @@ test-artifacts/units-<page>-<width>.png.
 Skipped without /usr/bin/chromium or playwright, unless POURBACK_REQUIRE_BROWSER=1.
 """
 
+import contextlib
+import json
 import re
 
 import pytest
 
-from tests.support.browser import full_screenshot, served_copy, settle, visit
+from tests.support.browser import WAIT_MS, full_screenshot, served_copy, settle, visit
 from tracker.log import settings
 from tracker.log.store import Store
 
@@ -73,12 +75,26 @@ def _open_expanders(pg) -> None:
         pg.wait_for_timeout(150)
 
 
+def _wait_for_texts(pg, wanted: list[str]) -> None:
+    """Give the charts the solve added time to draw their axes (a new chart's element comes
+    before its SVG text); the test checks the texts afterwards either way."""
+    from playwright.sync_api import TimeoutError as PlaywrightTimeout
+
+    with contextlib.suppress(PlaywrightTimeout):
+        pg.wait_for_function(f"""() => {{
+            const seen = ({READ})();
+            const texts = [seen.page, seen.sidebar, ...seen.heads, ...seen.charts];
+            return {json.dumps(wanted)}.every(w => texts.some(t => t.includes(w)));
+        }}""", timeout=WAIT_MS)
+
+
 @pytest.mark.parametrize("path,title,name,toggles,wanted", PAGES)
 def test_every_page_in_us_shows_no_metric_unit(browser, us_server, path, title, name, toggles, wanted):
     pg = visit(browser, us_server, path, title, 1400, 120_000)
     for label in toggles:
         _switch_on(pg, label)
     _open_expanders(pg)
+    _wait_for_texts(pg, wanted or [])
     seen = pg.evaluate(READ)
     assert pg.locator('[data-testid="stException"]').count() == 0
     texts = [seen["page"], seen["sidebar"], *seen["heads"], *seen["charts"]]

@@ -23,6 +23,8 @@ from tracker.log.store import Store
 from tracker.review import stats
 from tracker.review.weekly import weekly_review
 
+pytestmark = pytest.mark.slow  # handed out first under pytest-xdist (DEVELOPERS.md)
+
 TODAY = dt.date(2027, 3, 1)
 FIRST_DAY = dt.date(2024, 1, 1)
 DAYS = 2 * 365 + 60

@@ -73,3 +73,24 @@ class LogFactory:
         with psycopg.connect(self.server, autocommit=True) as conn:
             for schema in self.schemas:
                 conn.execute(f'DROP SCHEMA IF EXISTS "{schema}" CASCADE')
+
+
+def built_demo_file(tmp_path_factory) -> pathlib.Path:
+    """The demo log of `pourback demo` in an SQLite file, built once for the whole run:
+    under pytest-xdist the first worker builds it in the run's shared temporary folder
+    (a lock keeps the others waiting), alone it is built in this session's own one.
+    Never open it: copy it (the fixtures ``app_demo_file`` and ``app_demo_db`` do)."""
+    import fcntl
+
+    from tracker.cli.cmd_app import build_demo
+
+    base = tmp_path_factory.getbasetemp()
+    if os.environ.get("PYTEST_XDIST_WORKER"):
+        base = base.parent  # the run's folder, shared by its workers (and only by them)
+    path = base / "built-demo" / "pourback-demo.db"
+    path.parent.mkdir(exist_ok=True)
+    with open(path.parent / "lock", "w") as lock:
+        fcntl.flock(lock, fcntl.LOCK_EX)
+        if not path.exists():
+            build_demo(path)
+    return path

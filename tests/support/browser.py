@@ -24,6 +24,9 @@ from tracker.cautions import SAFETY_CAUTION
 
 ARTIFACTS = REPO / "test-artifacts"
 CHROMIUM = "/usr/bin/chromium"
+# How long a browser step may wait for the page (ms): generous, as the test processes share
+# the machine's cores under pytest-xdist. A bound on waiting, not a speed any test checks.
+WAIT_MS = 120_000
 CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
                  "--disable-component-update", "--no-first-run", "--disable-sync"]
 
@@ -40,40 +43,65 @@ def free_port(host: str = "127.0.0.1") -> int:
         return s.getsockname()[1]
 
 
-@contextlib.contextmanager
-def running_dashboard(db, folder, host: str = "127.0.0.1", port: int | None = None, extra: tuple = ()):
-    """`pourback dashboard` on ``db`` at ``host`` (a free port; ``extra`` options), until
-    the block ends; yields its base URL. Fails the test when it exits or does not answer in 90 s."""
-    port = port or free_port(host)
+def _start(db, folder, host: str, port: int, extra: tuple):
+    """`pourback dashboard` started and answering: (process, log file), or None when it
+    exited because another process took the port between free_port and its start
+    (test processes run side by side under pytest-xdist). Fails the test when it exits
+    otherwise or does not answer in 90 s."""
     log = (folder / "server.log").open("w")
     env = {k: v for k, v in os.environ.items() if k != "POURBACK_DB"}
     proc = subprocess.Popen([sys.executable, "-m", "tracker", "dashboard", "--db", str(db),
                              "--port", str(port), "--host", host, *extra],
                             stdout=log, stderr=subprocess.STDOUT, env=env, cwd=folder)
-    base = f"http://{host}:{port}"
+    deadline = time.monotonic() + 90
     try:
-        deadline = time.monotonic() + 90
         while True:
             if proc.poll() is not None:
-                pytest.fail("the dashboard exited early:\n" + (folder / "server.log").read_text())
+                said = (folder / "server.log").read_text()
+                if f"Port {port} is not available" in said:
+                    log.close()
+                    return None
+                pytest.fail("the dashboard exited early:\n" + said)
             try:
-                with urllib.request.urlopen(base + "/_stcore/health", timeout=2) as r:
+                with urllib.request.urlopen(f"http://{host}:{port}/_stcore/health", timeout=2) as r:
                     if r.status == 200:
-                        break
+                        return proc, log
             except OSError:
                 pass
             if time.monotonic() > deadline:
                 pytest.fail("the dashboard did not answer within 90 s:\n" + (folder / "server.log").read_text())
             time.sleep(0.3)
-        yield base
+    except BaseException:
+        _stop(proc, log)
+        raise
+
+
+def _stop(proc, log) -> None:
+    proc.terminate()
+    try:
+        proc.wait(timeout=15)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+        proc.wait(timeout=5)
+    log.close()
+
+
+@contextlib.contextmanager
+def running_dashboard(db, folder, host: str = "127.0.0.1", port: int | None = None, extra: tuple = ()):
+    """`pourback dashboard` on ``db`` at ``host`` (a free port, another one if that was
+    taken meanwhile; ``extra`` options), until the block ends; yields its base URL.
+    Fails the test when it exits or does not answer in 90 s."""
+    for _ in range(3 if port is None else 1):
+        chosen = port or free_port(host)
+        started = _start(db, folder, host, chosen, extra)
+        if started:
+            break
+    else:
+        pytest.fail(f"the dashboard found no free port on {host}:\n" + (folder / "server.log").read_text())
+    try:
+        yield f"http://{host}:{chosen}"
     finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=15)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-            proc.wait(timeout=5)
-        log.close()
+        _stop(*started)
 
 
 def served_copy(source, folder, name: str = "demo.db", prepare=None):
@@ -113,11 +141,11 @@ def settle(pg, ms: int = 400) -> None:
     """Wait for Streamlit to finish the current run."""
     pg.wait_for_timeout(ms)
     pg.wait_for_function("() => !document.querySelector('[data-testid=\"stStatusWidget\"]')",
-                         timeout=60_000)
+                         timeout=WAIT_MS)
     pg.wait_for_timeout(ms)
 
 
-def visit(browser, base: str, path: str, title: str, width: int, timeout_ms: int = 60_000):
+def visit(browser, base: str, path: str, title: str, width: int, timeout_ms: int = WAIT_MS):
     """A new tab at ``width`` px on ``path``, once its title and the caution are shown."""
     pg = browser.new_page(viewport={"width": width, "height": 900})
     pg.set_default_timeout(timeout_ms)
