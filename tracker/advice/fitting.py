@@ -41,10 +41,11 @@ def _stored_model(store: Store) -> ShrinkageRejectModel | None:
         return None  # fitted by another version
 
 
-def get_model(store: Store, refit: bool = False) -> ShrinkageRejectModel | None:
-    """The stored model if it was fitted on the log as it is now, else a new fit."""
+def get_model(store: Store, refit: bool = False, save: bool = True) -> ShrinkageRejectModel | None:
+    """The stored model if it was fitted on the log as it is now, else a new fit
+    (stored unless ``save`` is False: a reading such as the review pack writes nothing)."""
     model = None if refit else _stored_model(store)
-    return model if model is not None else fit_model(store)
+    return model if model is not None else fit_model(store, save=save)
 
 
 def model_is_current(store: Store) -> bool:

@@ -138,14 +138,18 @@ def model_before(store: Store, day: str):
     return _kept(store, ("model before", day), fit)
 
 
-def _prediction(store: Store, ch: dict, model, weeks: int) -> dict:
-    """The prediction for one changed riser's zone, from lots before the change."""
+def _prediction(store: Store, ch: dict, model, weeks: int, designs: dict | None = None) -> dict:
+    """The prediction for one changed riser's zone, from lots before the change
+    (``designs``: zone designs by pattern already read, filled as they are read)."""
     eff = ch["effective_from"]
     start = max(ch["previous_from"], (dt.date.fromisoformat(eff) - dt.timedelta(weeks=weeks)).isoformat())
     before = zone_shrinkage_rates(store, start, _day_before(eff), [ch["pattern"]])
     before = before[(before["revision"] == ch["previous"]) & (before["zone"] == ch["zone"])]
     r, n = int(before["shrinkage_rejects"].sum()), int(before["castings"].sum())
-    design = zone_design(store, ch["pattern"])
+    designs = {} if designs is None else designs
+    if ch["pattern"] not in designs:
+        designs[ch["pattern"]] = zone_design(store, ch["pattern"])
+    design = designs[ch["pattern"]]
     now = design[(design["revision"] == ch["previous"]) & (design["zone"] == ch["zone"])]
     after = design[(design["revision"] == ch["revision"]) & (design["zone"] == ch["zone"])]
     out = {"rate_before": r / n if n else None, "castings_before": n, "shrinkage_rejects_before": r,
@@ -181,10 +185,18 @@ def observed_interval(draws, castings: int) -> tuple[float | None, float | None]
     if draws is None or castings <= 0 or np.isnan(draws).all():
         return None, None
     tail = (1.0 - calibration.LEVEL) / 2.0
-    k = np.arange(castings + 1)
-    cdf = binom.cdf(k[:, None], castings, np.asarray(draws)[None, :]).mean(axis=1)
-    low = int(np.searchsorted(cdf, tail - 1e-12))
-    high = int(np.searchsorted(cdf, 1.0 - tail - 1e-12))
+    p = np.asarray(draws, dtype=float)
+    p = p[~np.isnan(p)]
+    # The mixture's quantiles lie where some draw's binomial has mass: below the lowest
+    # draw's 1e-9 quantile the mixture's cdf is under 1e-9, above the highest draw's
+    # 1 - 1e-9 quantile over 1 - 1e-9; the cdf is exact on the counts between (same result
+    # as over every count 0..castings, at a fraction of the work for thousands of castings).
+    first = int(max(binom.ppf(1e-9, castings, p.min()) - 1, 0))
+    last = int(min(binom.ppf(1.0 - 1e-9, castings, p.max()) + 1, castings))
+    k = np.arange(first, last + 1)
+    cdf = binom.cdf(k[:, None], castings, p[None, :]).mean(axis=1)
+    low = first + int(np.searchsorted(cdf, tail - 1e-12))
+    high = first + int(np.searchsorted(cdf, 1.0 - tail - 1e-12))
     return low / castings, high / castings
 
 
@@ -211,14 +223,14 @@ def predictions(store: Store, pattern: str | None = None, weeks: int = limits.WE
     if not changes:
         return []
     zoned = _zones_with_shrinkage(store, sorted({ch["pattern"] for ch in changes}))
-    rows, models = [], {}
+    rows, models, designs = [], {}, {}
     for ch in changes:
         if (ch["pattern"], ch["zone"]) not in zoned:
             continue
         day = ch["effective_from"]
         if day not in models:
             models[day] = model_before(store, day)
-        pred = _prediction(store, ch, models[day], weeks)
+        pred = _prediction(store, ch, models[day], weeks, designs)
         r, n = _observed(store, ch, until)
         obs = r / n if n else None
         low, high = observed_interval(pred.pop("_draws", None), n)

@@ -81,11 +81,14 @@ def build_pack(store, review: dict, *, suggestions: list[dict] | None = None, dr
     ``system`` units). ``suggestions``: the suggestions when already computed, else
     ``suggest`` runs for the review's week, window, target and plant. ``draw`` False leaves
     the charts out (the Markdown pack has none)."""
+    from tracker.advice.fitting import get_model
     from tracker.advice.suggest import suggest
 
-    if suggestions is None:
+    if suggestions is None:  # the review only reads the log: a model fitted here is not stored
+        with store.every_plant():  # as suggest takes it: the model learns from every plant's history
+            model = get_model(store, save=False)
         suggestions = suggest(store, week=review["week"], weeks=review["window"]["weeks"],
-                              target=review["target"], plant=review.get("plant"), system=system)
+                              target=review["target"], plant=review.get("plant"), system=system, model=model)
     currency = review.get("currency") or DEFAULT_CURRENCY
     table = suggestions_table(suggestions, currency, system)
     if len(table):
