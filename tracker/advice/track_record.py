@@ -37,6 +37,7 @@ import datetime as dt
 import math
 
 import numpy as np
+import pandas as pd
 from scipy.stats import binom, norm
 
 from tracker import limits, numbers
@@ -143,7 +144,7 @@ def _prediction(store: Store, ch: dict, model, weeks: int, designs: dict | None 
     (``designs``: zone designs by pattern already read, filled as they are read)."""
     eff = ch["effective_from"]
     start = max(ch["previous_from"], (dt.date.fromisoformat(eff) - dt.timedelta(weeks=weeks)).isoformat())
-    before = zone_shrinkage_rates(store, start, _day_before(eff), [ch["pattern"]])
+    before = _rates(store, ch["pattern"], start, _day_before(eff), designs)
     before = before[(before["revision"] == ch["previous"]) & (before["zone"] == ch["zone"])]
     r, n = int(before["shrinkage_rejects"].sum()), int(before["castings"].sum())
     designs = {} if designs is None else designs
@@ -168,12 +169,31 @@ def _prediction(store: Store, ch: dict, model, weeks: int, designs: dict | None 
     return out
 
 
-def _observed(store: Store, ch: dict, until: str | None) -> tuple[int, int]:
+def _rates(store: Store, pattern: str, start: str | None, end: str | None, read: dict | None) -> pd.DataFrame:
+    """:func:`zone_shrinkage_rates` of ``pattern`` from ``start`` to ``end`` (ISO days,
+    inclusive), from the pattern's lot features read once into ``read`` (the same
+    rows a query of the window gives: a lot's design is the one in effect when poured)."""
+    if read is None:
+        return zone_shrinkage_rates(store, start, end, [pattern])
+    key = ("features", pattern)
+    if key not in read:
+        read[key] = zone_lot_features(store, None, None, [pattern])
+    f = read[key]
+    day = f["poured_on"].astype(str)
+    keep = np.ones(len(f), dtype=bool)
+    if start is not None:
+        keep &= (day >= start).to_numpy()
+    if end is not None:
+        keep &= (day <= end).to_numpy()
+    return zone_shrinkage_rates(store, features=f[keep])
+
+
+def _observed(store: Store, ch: dict, until: str | None, read: dict | None = None) -> tuple[int, int]:
     """(shrinkage rejects, castings) of the zone under the revision since it took effect."""
     end = _day_before(ch["next_from"]) if ch["next_from"] is not None else until
     if end is not None and end < ch["effective_from"]:
         return 0, 0
-    after = zone_shrinkage_rates(store, ch["effective_from"], end, [ch["pattern"]])
+    after = _rates(store, ch["pattern"], ch["effective_from"], end, read)
     after = after[(after["revision"] == ch["revision"]) & (after["zone"] == ch["zone"])]
     return int(after["shrinkage_rejects"].sum()), int(after["castings"].sum())
 
@@ -223,7 +243,9 @@ def predictions(store: Store, pattern: str | None = None, weeks: int = limits.WE
     if not changes:
         return []
     zoned = _zones_with_shrinkage(store, sorted({ch["pattern"] for ch in changes}))
-    rows, models, designs = [], {}, {}
+    rows: list[dict] = []
+    models: dict = {}
+    designs: dict = {}  # what is read once per record: zone designs and lot features by pattern
     for ch in changes:
         if (ch["pattern"], ch["zone"]) not in zoned:
             continue
@@ -231,7 +253,7 @@ def predictions(store: Store, pattern: str | None = None, weeks: int = limits.WE
         if day not in models:
             models[day] = model_before(store, day)
         pred = _prediction(store, ch, models[day], weeks, designs)
-        r, n = _observed(store, ch, until)
+        r, n = _observed(store, ch, until, designs)
         obs = r / n if n else None
         low, high = observed_interval(pred.pop("_draws", None), n)
         needed = castings_to_verdict(pred["rate_before"], pred["predicted_rate_after"], pred["castings_before"])

@@ -217,7 +217,8 @@ def judge(casting: Model, s: Setup, out, keep_maps: bool = True) -> SolidResult:
         section = section if section.any() else cast
         risers.append({"riser": name, "freeze_s": float(np.max(st[mine])), "feeds": feeds,
                        "contact_freeze_s": float(np.max(st[touch])) if touch.any() else 0.0,
-                       "contraction_end_s": float(np.nanmax(out.liquidus_time_s[section]))})
+                       "contraction_end_s": float(np.nanmax(out.liquidus_time_s[section])),
+                       "section_freeze_s": float(np.max(st[section]))})
     for sp in spots:
         bits = int(fed.ravel()[sp["cell"]])
         sp["fed_by"] = [name for i, name in enumerate(s.riser_names) if bits >> i & 1]

@@ -15,6 +15,10 @@ mould, and counted as a fault in a green-sand mould, whose walls give way.
 
 from __future__ import annotations
 
+import math
+
+from tracker.thermal import pressure_control
+
 PRESSURE_CONTROL = ("ductile_iron",)
 ISOLATED_MIN_SHARE = 0.005        # the 2-D check's floor for a resolved pocket (tracker.thermal)
 
@@ -24,18 +28,17 @@ def feeding_verdict(alloy: str, *, rigid_mould: bool, risers: list[dict], unfed_
                     niyama_threshold: float | None) -> tuple[bool, list[str]]:
     """(ok, reasons). ``risers``: one dict per riser with ``riser`` (its name), ``freeze_s`` (when its
     last metal froze), ``contact_freeze_s`` (when the casting at its contact froze) and
-    ``contraction_end_s`` (when the section it feeds had all cooled to the liquidus), in s."""
+    ``contraction_end_s`` (when the section it feeds had all cooled to the liquidus), in s, and
+    optionally ``section_freeze_s`` (when that section had frozen). Ductile iron is judged by
+    :func:`tracker.thermal.pressure_control.judge`, as the 2-D check judges it."""
     reasons: list[str] = []
     if not risers:
         return False, ["no riser given: hot spots only, nothing fed"]
     if alloy in PRESSURE_CONTROL:
-        for r in risers:
-            need = max(r["contact_freeze_s"], r["contraction_end_s"])
-            if r["freeze_s"] < need:
-                what = ("its contact has frozen" if r["contact_freeze_s"] >= r["contraction_end_s"]
-                        else "the section's liquid contraction has ended")
-                reasons.append(f"riser {r['riser']} freezes at {r['freeze_s']:,.0f} s, before {what} "
-                               f"({need:,.0f} s)")
+        for r in risers:  # the 2-D check's rule set, the contact in the neck's place
+            v = pressure_control.judge(r["contraction_end_s"], r["contact_freeze_s"], r["freeze_s"],
+                                       r.get("section_freeze_s", math.inf))
+            reasons += [f"riser {r['riser']}: {why}" for why in v.reasons] if v.verdict == "fail" else []
         if not rigid_mould and isolated_share >= ISOLATED_MIN_SHARE:
             reasons.append(f"liquid sealed from every riser ({isolated_share:.1%} of the casting) in a "
                            "green-sand mould, whose walls give way to the graphite expansion")
