@@ -31,7 +31,9 @@ def _who(key: str) -> str:
     return signed_in.user if signed_in is not None else (st.session_state.get(key) or "").strip()
 
 
-def _show(message_key: str) -> None:
+def show_message(message_key: str, after_refusal=None) -> None:
+    """The (kind, text) a form left under ``message_key``, shown once; ``after_refusal(text)``
+    runs after a refusal is shown (a hint where to go next)."""
     message = st.session_state.pop(message_key, None)
     if not message:
         return
@@ -42,6 +44,8 @@ def _show(message_key: str) -> None:
         st.error(what)
     else:
         common.show_error(what)
+        if after_refusal is not None:
+            after_refusal(what)
 
 
 def hint_after(exc: Exception) -> None:
@@ -121,7 +125,7 @@ def correct_form() -> None:
     records = common.load("lot_records", lot)
     if records.empty:
         st.caption(f"Lot {common.md_escape(lot)} has no current record to correct.")
-        _show("fix_message")
+        show_message("fix_message")
         return
     st.caption(f"The current records of lot {common.md_escape(lot)} (the lot picked above). A correction is a new "
                "record in the old one's place; the old one stays in the history with who, when and why.")
@@ -139,7 +143,7 @@ def correct_form() -> None:
             access.author_field(c2, "Your name (required; recorded as who corrected it)", "fix_by")
             st.form_submit_button("Save correction" if what == "correct" else "Withdraw record",
                                   on_click=_apply, args=(int(rid), what, rec))
-    _show("fix_message")
+    show_message("fix_message")
 
 
 # --- a new lot ----------------------------------------------------------------------------
@@ -202,4 +206,4 @@ def lot_form() -> None:
         access.author_field(form, "Your name (required; recorded as who entered it)", "new_lot_by")
         form.form_submit_button("Save lot", on_click=_add_lot, args=(system,))
         st.caption("Checked as a row of a lots file: castings poured = molds × the pattern's castings per mold.")
-        _show("lot_message")
+        show_message("lot_message")

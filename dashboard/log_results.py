@@ -140,16 +140,7 @@ def record_form(state: dict) -> None:
             st.text_input("Casting serial", key="serial", max_chars=100)
             st.text_area("Notes", key="notes", max_chars=2000, height=80)
         st.button("Save record", type="primary", key="save", on_click=_save, args=(lot, castings))
-    message = st.session_state.pop("form_message", None)
-    if message:
-        kind, what = message
-        if kind == "success":
-            st.success(what)
-        elif kind == "error":
-            st.error(what)
-        else:
-            common.show_error(what)
-            log_fixes.hint_after(what)
+    log_fixes.show_message("form_message", after_refusal=log_fixes.hint_after)
 
 
 def upload_file() -> None:

@@ -13,6 +13,7 @@ import pytest
 import trimesh
 from scipy import optimize
 
+from tests.support.neumann import neumann_lambda
 from tracker.solid import run, stl
 from tracker.solid.solve3d import FIXED, SECTION, solve3
 from tracker.thermal import ThermalCase
@@ -31,16 +32,6 @@ def _cylinder(r, h, z0):
     return trimesh.creation.cylinder(radius=r, height=h, sections=96).apply_translation((0, 0, z0 + h / 2))
 
 
-def _neumann_lambda(alloy, t_wall, t_init):
-    """Root of Neumann's two-phase equation (equal properties in both phases)."""
-    tm = alloy.liquidus_c
-    st = alloy.specific_heat_j_kgk * (tm - t_wall) / alloy.latent_j_kg
-    sup = (t_init - tm) / (tm - t_wall)
-
-    def f(lam):
-        return (math.exp(-lam**2) / math.erf(lam) - sup * math.exp(-lam**2) / math.erfc(lam)
-                - lam * math.sqrt(math.pi) / st)
-    return optimize.brentq(f, 1e-6, 5.0)
 
 
 def test_front_in_a_slab_matches_neumanns_solution():
@@ -53,7 +44,7 @@ def test_front_in_a_slab_matches_neumanns_solution():
     t0 = np.where(region == FIXED, t_wall, t_init)
     out = solve3(edges, region, np.zeros(region.shape, np.int8), k, heat, PhaseCurve.from_alloy(pure), t0,
                  0.2, 200.0, niyama_share=0.1, feeding_fraction=0.7)
-    lam = _neumann_lambda(pure, t_wall, t_init)
+    lam = neumann_lambda(pure, t_wall, t_init)
     alpha = pure.conductivity_w_mk / pure.volumetric_heat
     for depth_mm in (10, 20, 30):
         z = (depth_mm + 1) * 1e-3       # a cell of pure metal is solid once the front leaves its far face

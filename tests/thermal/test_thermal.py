@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 from scipy import optimize
 
+from tests.support.neumann import neumann_lambda
 from tracker.cli import main
 from tracker.design import geometry, rules
 from tracker.design.alloys import ALLOYS
@@ -85,16 +86,6 @@ def test_plate_in_sand_matches_the_analytic_sand_mould_solution():
     assert t_num == pytest.approx(t_ref, rel=0.05)
 
 
-def _neumann_lambda(alloy, t_wall, t_init):
-    """Root of Neumann's two-phase equation (equal properties in both phases)."""
-    tm = alloy.liquidus_c
-    st = alloy.specific_heat_j_kgk * (tm - t_wall) / alloy.latent_j_kg
-    sup = (t_init - tm) / (tm - t_wall)
-
-    def f(lam):
-        return (math.exp(-lam**2) / math.erf(lam) - sup * math.exp(-lam**2) / math.erfc(lam)
-                - lam * math.sqrt(math.pi) / st)
-    return optimize.brentq(f, 1e-6, 5.0)
 
 
 def test_front_matches_neumanns_solution_at_three_times():
@@ -110,7 +101,7 @@ def test_front_matches_neumanns_solution_at_three_times():
     t0 = np.where(region == FIXED, t_wall, t_init)
     times = [20.0, 60.0, 120.0]
     out = solve(grid, k, heat, PhaseCurve.from_alloy(pure), t0, 0.1, 120.0, record_times=times)
-    lam = _neumann_lambda(pure, t_wall, t_init)
+    lam = neumann_lambda(pure, t_wall, t_init)
     alpha = pure.conductivity_w_mk / pure.volumetric_heat
     assert [round(t) for t, _ in out.history] == times
     for t, liquid in out.history:
