@@ -37,9 +37,7 @@ def test_add_and_close_an_action_on_the_review_page(browser, server, width):
         pg.get_by_label("Note (optional)").fill("done at the bench")
         pg.get_by_label("Your name (recorded as who closed it)").fill("M. Lopez")
         box = pg.locator('[data-testid="stSelectbox"]').filter(has_text="Action")
-        box.locator("input").click()
-        box.locator("input").fill(text)  # the list filters as one types (a long list scrolls)
-        pg.get_by_role("option").filter(has_text=text).first.click()
+        _pick(pg, box, text)
         pg.get_by_role("button", name="Mark it done").click()
         settle(pg)
         pg.get_by_text("marked done").first.wait_for()
@@ -49,6 +47,25 @@ def test_add_and_close_an_action_on_the_review_page(browser, server, width):
         full_screenshot(pg, f"review-actions-{width}", width)
     finally:
         pg.close()
+
+
+def _pick(pg, box, text: str, tries: int = 3) -> None:
+    """Choose the option ``text`` in the select ``box``: typed into its filter (a long list
+    scrolls), the list opened again when a busy page drew it before the new option."""
+    for attempt in range(tries):
+        box.locator("input").click()
+        box.locator("input").fill(text)
+        option = pg.get_by_role("option").filter(has_text=text).first
+        try:
+            option.wait_for(timeout=30_000)
+        except Exception:  # any wait error: close the list and open it again
+            if attempt == tries - 1:
+                raise
+            pg.keyboard.press("Escape")
+            settle(pg)
+            continue
+        option.click()
+        return
 
 
 # page, title, the table's first column, the key columns that must be drawn
