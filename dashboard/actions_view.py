@@ -52,15 +52,8 @@ def _add_form(pattern: str | None, key: str) -> None:
         by = access.author_field(st, "Your name (recorded as who added it)", f"{key}_action_by")
         if not st.form_submit_button("Add the action"):
             return
-    row = None
-    with common.guard(), common.open_store() as store:
-        row = add_action(store, picked, text, owner, due, by=by or None)
-    if row is None:  # refused: the error is shown
-        return
-    common.forget()
-    st.session_state[f"{key}_action_done_msg"] = common.md_escape(
-        f"Added action {row['id']} on {row['pattern']} for {row['owner']}, due {row['due']}.")
-    st.rerun()
+    _write(key, lambda store: add_action(store, picked, text, owner, due, by=by or None),
+           lambda row: f"Added action {row['id']} on {row['pattern']} for {row['owner']}, due {row['due']}.")
 
 
 def _done_form(open_rows: list[dict], key: str) -> None:
@@ -72,12 +65,18 @@ def _done_form(open_rows: list[dict], key: str) -> None:
         by = access.author_field(st, "Your name (recorded as who closed it)", f"{key}_done_by")
         if not st.form_submit_button("Mark it done"):
             return
+    _write(key, lambda store: close_action(store, picked, note or None, by=by or None),
+           lambda row: f"Action {row['id']} on {row['pattern']} marked done.")
+
+
+def _write(key: str, write, said) -> None:
+    """Run ``write(store)``; a refusal is shown where it happened, a success is said
+    (``said(row)``) once the page has been drawn again on the changed log."""
     row = None
     with common.guard(), common.open_store() as store:
-        row = close_action(store, picked, note or None, by=by or None)
+        row = write(store)
     if row is None:  # refused: the error is shown
         return
     common.forget()
-    st.session_state[f"{key}_action_done_msg"] = common.md_escape(
-        f"Action {row['id']} on {row['pattern']} marked done.")
+    st.session_state[f"{key}_action_done_msg"] = common.md_escape(said(row))
     st.rerun()
